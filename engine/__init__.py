@@ -1,0 +1,1 @@
+"""railroom engine: pure numeric core (no printing, no UI imports)."""

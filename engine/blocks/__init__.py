@@ -1,0 +1,18 @@
+"""The block catalogue: one small module per block family, registered here by name."""
+from __future__ import annotations
+
+from railroom.engine.blocks.base import Block
+from railroom.engine.blocks.comparator import Comparator
+from railroom.engine.blocks.gain import Follower, Inverting, Noninverting, Summing
+from railroom.engine.blocks.passive import ConverterInput, Divider, RcLowpass
+
+BLOCKS: dict[str, Block] = {
+    block.name: block
+    for block in (
+        Follower(), Noninverting(), Inverting(), Summing(),
+        Comparator(), Divider(), RcLowpass(), ConverterInput(),
+    )
+}
+
+# Fields every block accepts besides its own (SPEC section 2).
+COMMON_FIELDS = ("name", "block", "part", "rails", "load")

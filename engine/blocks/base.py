@@ -1,0 +1,110 @@
+"""What every block provides, and the node description the methods propagate.
+
+A block turns its component values (numpy arrays over corners or draws, shape (J, 1)) and the
+Laplace grid s (shape (F+1,), DC first) into transfers: for each node it reports, the voltage per
+volt of every driving source ("in" for the chain signal, "pos"/"neg" for the two sides of a
+differential source, or a fixed voltage field such as "ref"), plus the gains from each op amp's
+offset and bias currents. The methods never look inside a block; they only combine transfers.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import ClassVar, Mapping
+
+import numpy as np
+
+from railroom.engine.opamp import LoopSolution
+
+Transfers = dict[str, np.ndarray]   # source -> complex array (J, F+1); index 0 along F is DC
+
+
+@dataclass(frozen=True)
+class FieldSpec:
+    kind: str                 # a value kind of values.py, or "flag" / "inputs"
+    required: bool = True
+    default: float | bool | None = None
+    help: str = ""
+
+
+@dataclass(frozen=True)
+class Node:
+    """A voltage (or a current) inside a block, as transfers plus op-amp error gains."""
+
+    transfers: Transfers
+    offset_gain: np.ndarray | None = None       # (J, n_opamps): per volt of each op amp's offset
+    bias_gain: np.ndarray | None = None         # (J, n_opamps): per ampere, |+ input| + |- input|
+
+
+@dataclass(frozen=True)
+class OpAmpNodes:
+    """The three things checked on each op amp inside a block."""
+
+    label: str                # "amplifier", "upper input op amp", ...
+    output: Node
+    plus: Node                # non-inverting input, for the common-mode window
+    current: Node             # current the op amp delivers into its network and load, A
+
+
+@dataclass(frozen=True)
+class InputLoad:
+    """What the block draws from the stage before it: a conductance to a return voltage."""
+
+    conductance: float = 0.0          # largest over the tolerance, S
+    returns: tuple[float, float] = (0.0, 0.0)
+
+
+@dataclass(frozen=True)
+class BlockResponse:
+    output: Node
+    opamps: tuple[OpAmpNodes, ...] = ()
+    inner: Mapping[str, Node] = field(default_factory=dict)   # informational internal nodes
+    output_resistance: float = 0.0                              # drives the next stage's input
+    input_load: InputLoad = InputLoad()
+
+
+class Block:
+    """Base for every block; a subclass is one small module with its formulas and citations."""
+
+    name: ClassVar[str]
+    summary: ClassVar[str]
+    fields: ClassVar[dict[str, FieldSpec]] = {}
+    uses_part: ClassVar[bool] = True
+    saturates: ClassVar[bool] = False          # saturated by design (comparator, Schmitt trigger)
+    takes_differential: ClassVar[bool] = False
+    window_only: ClassVar[bool] = False        # a converter input: only a window to stay inside
+
+    def respond(self, v: Mapping[str, np.ndarray], s: np.ndarray, inverse_gain: np.ndarray,
+                drive: float, differential: bool) -> BlockResponse:
+        raise NotImplementedError
+
+    def critical_frequencies(self, v: Mapping[str, np.ndarray]) -> np.ndarray:
+        """Frequencies where the response may peak (added to the band grid)."""
+        return np.empty(0)
+
+
+def opamp_node(solution: LoopSolution, transfers: Transfers, index: int, count: int) -> Node:
+    """A node driven by op amp `index` of `count`: error gains placed in that op amp's column."""
+    rows = solution.offset_gain.shape[0]
+    offset = np.zeros((rows, count))
+    bias = np.zeros((rows, count))
+    offset[:, index] = solution.offset_gain
+    bias[:, index] = np.abs(solution.bias_plus_gain) + np.abs(solution.bias_minus_gain)
+    return Node(transfers=transfers, offset_gain=offset, bias_gain=bias)
+
+
+def scaled(node: Node, factor: np.ndarray | float, extra: Transfers | None = None) -> Node:
+    """factor * node (+ extra transfers), keeping the error gains consistent."""
+    factor = np.asarray(factor)
+    transfers = {k: factor * t for k, t in node.transfers.items()}
+    for k, t in (extra or {}).items():
+        transfers[k] = transfers.get(k, 0.0) + t
+    dc = np.abs(np.atleast_2d(factor)[..., 0].real)[:, None] if factor.ndim else abs(float(factor))
+    offset = None if node.offset_gain is None else node.offset_gain * dc
+    bias = None if node.bias_gain is None else node.bias_gain * dc
+    return Node(transfers=transfers, offset_gain=offset, bias_gain=bias)
+
+
+def load_conductance(v: Mapping[str, np.ndarray]) -> np.ndarray:
+    """1 / load, zero when the stage has no load field."""
+    load = v.get("load")
+    return np.zeros((1, 1)) if load is None else 1.0 / load

@@ -1,0 +1,72 @@
+"""Passive blocks with no op amp: the resistive divider and the first-order RC low-pass.
+
+    divider     Vout = Vin * bottom / (top + bottom),    output resistance top || bottom
+    rc_lowpass  Vout = Vin / (1 + s r c),                 corner 1 / (2 pi r c)
+(Horowitz & Hill, The Art of Electronics, ch. 1.) The driving resistance adds to top and r.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from railroom.engine.blocks.base import Block, BlockResponse, FieldSpec, InputLoad, Node
+
+
+class Divider(Block):
+    name = "divider"
+    summary = "passive resistive divider (no part)"
+    uses_part = False
+    fields = {
+        "top": FieldSpec("resistance", help="from in to output"),
+        "bottom": FieldSpec("resistance", help="from output to 0 V"),
+    }
+
+    def respond(self, v, s, inverse_gain, drive, differential):
+        top, bottom = v["top"] + drive, v["bottom"]
+        ratio = bottom / (top + bottom) * np.ones_like(s)
+        return BlockResponse(
+            output=Node(transfers={"in": ratio}),
+            output_resistance=float(np.max(top * bottom / (top + bottom))),
+            input_load=InputLoad(conductance=float(np.max(1.0 / (v["top"] + bottom)))),
+        )
+
+
+class RcLowpass(Block):
+    name = "rc_lowpass"
+    summary = "passive first-order low-pass (no part)"
+    uses_part = False
+    fields = {
+        "r": FieldSpec("resistance", help="from in to output"),
+        "c": FieldSpec("capacitance", help="from output to 0 V"),
+    }
+
+    def respond(self, v, s, inverse_gain, drive, differential):
+        r, c = v["r"] + drive, v["c"]
+        # Its input draws at most Vin / r (at frequencies far above the corner): conservative.
+        return BlockResponse(
+            output=Node(transfers={"in": 1.0 / (1.0 + s * r * c)}),
+            output_resistance=float(np.max(r)),
+            input_load=InputLoad(conductance=float(np.max(1.0 / v["r"]))),
+        )
+
+    def critical_frequencies(self, v):
+        return np.atleast_1d(1.0 / (2 * np.pi * v["r"] * v["c"])).ravel()
+
+
+class ConverterInput(Block):
+    """The converter input that ends the chain: the signal must stay inside [low, high].
+
+    Common practice keeps about 10 % of full scale spare; that is the user's `margin` to set.
+    """
+
+    name = "adc"
+    summary = "converter input window the signal must stay inside"
+    uses_part = False
+    window_only = True
+    fields = {
+        "low": FieldSpec("voltage", help="lowest input the converter reads, V"),
+        "high": FieldSpec("voltage", help="highest input the converter reads, V"),
+    }
+
+    def respond(self, v, s, inverse_gain, drive, differential):
+        return BlockResponse(output=Node(transfers={"in": np.ones_like(s) * np.ones((1, 1))}),
+                             output_resistance=drive)

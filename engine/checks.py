@@ -1,0 +1,105 @@
+"""Margins -> regime, reasons, limiting check, verdict and cautions. The one place that decides.
+
+Margins are volts for voltage checks, V/s for slew (available - needed), amperes for current
+(available - needed), volts for supply (room inside the part's allowed span); negative means
+violated (SPEC section 5).
+"""
+from __future__ import annotations
+
+from railroom.engine.blocks import BLOCKS
+from railroom.engine.model import Chain, Part, Rails
+from railroom.engine.results import VOLTAGE_CHECKS, StageMeasure, StageResult
+
+GAIN_ERROR_CAUTION = 0.01      # SPEC section 5: a caution above 1 %
+SELV_DC_LIMIT = 60.0           # V DC between conductors: SELV (IEC 60335-1, 3.4.2), ES1 (IEC 62368-1)
+LINEAR_CHECKS = (*VOLTAGE_CHECKS, "slew", "current")
+
+
+def opamp_margins(measure: StageMeasure) -> tuple[dict[str, float], dict[str, str]]:
+    """Each check's worst margin over the op amps of the stage, and which op amp set it."""
+    margins: dict[str, float] = {}
+    nodes: dict[str, str] = {}
+    for amp in measure.opamps:
+        found = {"input-high": amp.input_window[1] - amp.input[1],
+                 "input-low": amp.input[0] - amp.input_window[0],
+                 "current": amp.current_available - amp.current_needed}
+        if not measure.saturated:
+            found.update({"output-high": amp.window[1] - amp.output[1],
+                          "output-low": amp.output[0] - amp.window[0],
+                          "slew": amp.slew_available - amp.slew_needed})
+        for check, value in found.items():
+            if check not in margins or value < margins[check]:
+                margins[check] = value
+                nodes[check] = amp.label
+    if measure.window is not None and not measure.opamps:
+        margins["output-high"] = measure.window[1] - measure.output[1]
+        margins["output-low"] = measure.output[0] - measure.window[0]
+    return margins, nodes
+
+
+def supply_margin(part: Part, rails: Rails) -> float:
+    low, high = rails.span_range
+    return min(low - part.supply[0], part.supply[1] - high)
+
+
+def judge(measure: StageMeasure, part: Part | None, rails: Rails, required: float) -> StageResult:
+    block = BLOCKS[measure.stage.block]
+    margins, nodes = opamp_margins(measure)
+    if part is not None:
+        margins["supply"] = supply_margin(part, rails)
+    leaves_linear = any(margins.get(c, 0.0) < 0 for c in LINEAR_CHECKS
+                        if not (block.saturates and c not in ("input-high", "input-low", "current")))
+    if block.saturates:
+        regime = "saturated"
+    else:
+        regime = "clipping" if leaves_linear else "linear"
+    reasons = [c for c in VOLTAGE_CHECKS if c in margins and margins[c] < required]
+    reasons += [c for c in ("slew", "current", "supply") if margins.get(c, 0.0) < 0]
+    go = not reasons and (regime == "saturated") == block.saturates
+    if measure.fed_clipped:
+        reasons.append("fed-clipped")
+    return StageResult(
+        measure=measure, regime=regime, go=go, reasons=tuple(reasons), margins=margins,
+        limiting=limiting_check(margins, rails, part), failing_nodes=nodes,
+        cautions=tuple(stage_cautions(measure, part, rails)),
+    )
+
+
+def limiting_check(margins: dict[str, float], rails: Rails, part: Part | None) -> str | None:
+    """The check with the least margin, each margin taken relative to its own scale."""
+    if not margins:
+        return None
+    span = rails.positive - rails.negative
+    scale = {"slew": part.slew if part else 1.0, "current": part.output_current if part else 1.0}
+    return min(margins, key=lambda c: margins[c] / scale.get(c, span))
+
+
+def stage_cautions(measure: StageMeasure, part: Part | None, rails: Rails) -> list[str]:
+    cautions = []
+    if measure.gain_error is not None and measure.gain_error > GAIN_ERROR_CAUTION:
+        cautions.append(f"closed-loop gain falls {measure.gain_error:.1%} short at the top of the "
+                        "band: the part's gain-bandwidth is low for this noise gain")
+    if part is not None and rails.span_range[1] > part.supply_abs_max:
+        cautions.append(f"the supply can reach {rails.span_range[1]:.3g} V, above the part's "
+                        f"absolute maximum of {part.supply_abs_max:.3g} V: the part may be damaged")
+    if measure.reaches is not None:
+        low, high = measure.reaches
+        if not high:
+            cautions.append("the input may never cross the threshold upward at every tolerance "
+                            "corner, so the output can stick low")
+        if not low:
+            cautions.append("the input may never cross the threshold downward at every tolerance "
+                            "corner, so the output can stick high")
+    return cautions
+
+
+def chain_cautions(chain: Chain) -> list[str]:
+    cautions = []
+    for rails in chain.rails.values():
+        top = rails.span_range[1]
+        if top > SELV_DC_LIMIT:
+            cautions.append(
+                f"rails {rails.name!r} span up to {top:.3g} V between conductors, above the 60 V DC "
+                "limit of safety extra-low voltage (SELV in IEC 60335-1, ES1 in IEC 62368-1): "
+                "follow local codes and licensed practice for insulation, clearances and protection")
+    return cautions

@@ -1,0 +1,216 @@
+"""Chain files (SPEC section 2) -> model, with every problem located by file, line and field."""
+from __future__ import annotations
+
+from pathlib import Path
+
+from railroom.engine.blocks import BLOCKS, COMMON_FIELDS
+from railroom.engine.model import (DISTRIBUTIONS, METHODS, Chain, Conditions, InputError, Rails,
+                                   Source, Stage)
+from railroom.engine.reading import FieldReader, parse_toml
+from railroom.engine.values import Quantity
+
+TOP_KEYS = ("format", "title", "presets", "conditions", "rails", "source", "stage")
+CONDITION_KEYS = ("temperature", "margin", "method", "samples", "seed", "distribution",
+                  "default_tolerance")
+SOURCE_KEYS = ("kind", "level", "difference", "amplitude", "band", "impedance")
+DEFAULT_TOLERANCE_KINDS = ("resistance", "capacitance")
+
+
+def load_chain(path: str | Path) -> Chain:
+    """Read a chain file; raises InputError with every problem found."""
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as err:
+        raise InputError([_file_problem(str(path), err)]) from None
+    return chain_from_text(text, str(path))
+
+
+def chain_from_text(text: str, path: str = "<chain>") -> Chain:
+    data, problems = parse_toml(text, path)
+    if data is None:
+        raise InputError(problems)
+    reader = FieldReader(path, text)
+    chain = _read_chain(data, reader, path)
+    if reader.problems:
+        raise InputError(reader.problems)
+    return chain
+
+
+def _file_problem(path: str, err: Exception):
+    from railroom.engine.model import Problem
+    reason = err.strerror if isinstance(err, OSError) and err.strerror else str(err)
+    return Problem(path, None, "(file)", f"cannot be read: {reason}")
+
+
+def _read_chain(data: dict, r: FieldReader, path: str) -> Chain | None:
+    r.unknown_keys(data, "", TOP_KEYS, "a chain file")
+    if data.get("format", 1) != 1:
+        r.problem("format", f"expected 1, got {data.get('format')!r}")
+    title = r.text_field(data, "", "title", default=Path(path).stem)
+    conditions = _read_conditions(_table(data, "conditions", r), r)
+    rails = _read_rails(data.get("rails"), r)
+    source = _read_source(_table(data, "source", r), r)
+    stages = _read_stages(data.get("stage"), r, rails, conditions)
+    presets = data.get("presets", [])
+    if not isinstance(presets, list) or not all(isinstance(p, str) for p in presets):
+        r.problem("presets", "expected a list of folder names")
+        presets = []
+    base = Path(path).parent
+    if source is not None and stages and source.differential:
+        first = BLOCKS.get(stages[0].block)
+        if first is not None and not first.takes_differential:
+            r.problem("stage.1.block", "a differential source must be followed first by a "
+                      f"difference or instrumentation stage, got {stages[0].block!r}")
+    if r.problems or conditions is None or source is None:
+        return None
+    return Chain(title=title or "", conditions=conditions, rails=rails, source=source,
+                 stages=tuple(stages), preset_dirs=tuple(str((base / p).resolve()) for p in presets),
+                 path=path)
+
+
+def _table(data: dict, key: str, r: FieldReader) -> dict:
+    value = data.get(key, {})
+    if not isinstance(value, dict):
+        r.problem(key, f"expected a table [{key}]")
+        return {}
+    return value
+
+
+def _read_conditions(t: dict, r: FieldReader) -> Conditions | None:
+    w = "conditions"
+    r.unknown_keys(t, w, CONDITION_KEYS, "[conditions]")
+    default = Conditions()
+    tolerance = r.number(t, w, "default_tolerance", "fraction", default=0.0)
+    margin = r.number(t, w, "margin", "voltage", default=0.0)
+    if margin is not None and margin < 0:
+        r.problem(f"{w}.margin", f"expected a margin of 0 V or more, got {margin:g}")
+    return Conditions(
+        temperature=r.span(t, w, "temperature", "temperature", default.temperature,
+                           ordered="coldest, hottest") or default.temperature,
+        margin=max(margin or 0.0, 0.0),
+        method=r.text_field(t, w, "method", default="corners", choices=METHODS) or "corners",
+        samples=r.integer(t, w, "samples", 10000, 1, 10_000_000) or 10000,
+        seed=r.integer(t, w, "seed", 1, 0, 2**32 - 1) or 0,
+        distribution=r.text_field(t, w, "distribution", default="uniform",
+                                  choices=DISTRIBUTIONS) or "uniform",
+        default_tolerance=tolerance or 0.0,
+    )
+
+
+def _read_rails(raw, r: FieldReader) -> dict[str, Rails]:
+    if not isinstance(raw, dict) or not raw:
+        r.problem("rails", "missing; expected at least one table such as [rails.main] with "
+                           "positive and negative")
+        return {}
+    rails = {}
+    for name, t in raw.items():
+        w = f"rails.{name}"
+        if not isinstance(t, dict):
+            r.problem(w, "expected a table with positive, negative and tolerance")
+            continue
+        r.unknown_keys(t, w, ("positive", "negative", "tolerance"), f"[{w}]")
+        pos = r.number(t, w, "positive", "voltage")
+        neg = r.number(t, w, "negative", "voltage", default=0.0)
+        tol = r.number(t, w, "tolerance", "fraction", default=0.0)
+        if pos is None or neg is None or tol is None:
+            continue
+        if pos <= neg:
+            r.problem(f"{w}.positive", f"rails reversed: positive ({pos:g} V) must be above "
+                                       f"negative ({neg:g} V)")
+            continue
+        rails[name] = Rails(name, pos, neg, tol)
+    return rails
+
+
+def _read_source(t: dict, r: FieldReader) -> Source | None:
+    w = "source"
+    r.unknown_keys(t, w, SOURCE_KEYS, "[source]")
+    kind = r.text_field(t, w, "kind", default="single", choices=("single", "differential"))
+    amplitude = r.number(t, w, "amplitude", "voltage", default=0.0)
+    impedance = (0.0 if t.get("impedance", 0) in (0, "0") else
+                 r.number(t, w, "impedance", "resistance", default=0.0))
+    band = r.span(t, w, "band", "frequency", (1.0, 1.0), ordered="lowest, highest")
+    if amplitude is not None and amplitude < 0:
+        r.problem(f"{w}.amplitude", f"expected a peak amplitude of 0 V or more, got {amplitude:g}")
+    if impedance is not None and impedance < 0:
+        r.problem(f"{w}.impedance", f"expected 0 ohm or more, got {impedance:g}")
+    if kind == "single" and "difference" in t:
+        r.problem(f"{w}.difference", "only a differential source has a difference range")
+    source = Source(
+        kind=kind or "single",
+        level=r.span(t, w, "level", "voltage", (0.0, 0.0)) or (0.0, 0.0),
+        difference=r.span(t, w, "difference", "voltage", (0.0, 0.0)) or (0.0, 0.0),
+        amplitude=amplitude or 0.0,
+        band=band or (1.0, 1.0),
+        impedance=impedance or 0.0,
+    )
+    return source
+
+
+def _read_stages(raw, r: FieldReader, rails: dict, conditions: Conditions | None) -> list[Stage]:
+    if not isinstance(raw, list) or not raw:
+        r.problem("stage", "missing; expected one or more [[stage]] tables")
+        return []
+    default_tolerance = conditions.default_tolerance if conditions else 0.0
+    return [s for i, t in enumerate(raw, start=1)
+            if (s := _read_stage(t, i, r, rails, default_tolerance)) is not None]
+
+
+def _read_stage(t: dict, index: int, r: FieldReader, rails: dict, default_tol: float) -> Stage | None:
+    w = f"stage.{index}"
+    name = r.text_field(t, w, "name", default=f"stage {index}")
+    block_name = r.text_field(t, w, "block", choices=tuple(BLOCKS))
+    if block_name is None:
+        return None
+    block = BLOCKS[block_name]
+    r.unknown_keys(t, w, set(COMMON_FIELDS) | set(block.fields), f"block {block_name}")
+    part = r.text_field(t, w, "part") if block.uses_part else None
+    if not block.uses_part and "part" in t:
+        r.problem(f"{w}.part", f"block {block_name} has no op amp, so no part")
+    rails_name = r.text_field(t, w, "rails", default=None)
+    if rails_name is None and len(rails) > 1 and block.uses_part:
+        r.problem(f"{w}.rails", f"expected one of {', '.join(rails)} (there is more than one supply)")
+    elif rails_name is not None and rails and rails_name not in rails:
+        r.problem(f"{w}.rails", f"no rails named {rails_name!r}; expected one of {', '.join(rails)}")
+    load = _component(r, t, w, "load", "resistance", None, default_tol)
+    values: dict[str, object] = {}
+    for key, spec in block.fields.items():
+        if spec.kind == "flag":
+            raw = t.get(key, spec.default)
+            if not isinstance(raw, bool):
+                r.problem(f"{w}.{key}", f"expected true or false, got {raw!r}")
+            values[key] = bool(raw)
+        elif spec.kind == "inputs":
+            values[key] = _read_inputs(t.get(key, []), f"{w}.{key}", r, default_tol)
+        else:
+            default = spec.default if not spec.required else ...
+            q = _component(r, t, w, key, spec.kind, default, default_tol)
+            if q is not None:
+                values[key] = q
+    return Stage(name=name or f"stage {index}", block=block_name, part=part, rails=rails_name,
+                 load=load, values=values, line=r.line(w))
+
+
+def _component(r: FieldReader, t: dict, w: str, key: str, kind: str, default, default_tol: float):
+    if default is ...:
+        q = r.quantity(t, w, key, kind)
+    else:
+        q = r.quantity(t, w, key, kind, default=default)
+    if q is not None and q.tolerance is None and kind in DEFAULT_TOLERANCE_KINDS and key in t:
+        q = Quantity(q.value, default_tol, q.tempco)
+    return q
+
+
+def _read_inputs(raw, w: str, r: FieldReader, default_tol: float) -> list[dict[str, Quantity]]:
+    if not isinstance(raw, list) or not all(isinstance(item, dict) for item in raw):
+        r.problem(w, "expected a list of tables such as [{r = \"10k\", v = \"2.5\"}]")
+        return []
+    inputs = []
+    for i, item in enumerate(raw, start=1):
+        r.unknown_keys(item, w, ("r", "v"), "a fixed input")
+        res = _component(r, item, w, "r", "resistance", ..., default_tol)
+        volt = r.quantity(item, w, "v", "voltage")
+        if res is not None and volt is not None:
+            inputs.append({"r": res, "v": volt})
+    return inputs

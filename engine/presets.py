@@ -1,0 +1,168 @@
+"""Part presets (SPEC section 3): reading preset files and the search order with overrides.
+
+Search order, later wins: the presets shipped with railroom, the user's own folder (the platform's
+config folder, `railroom/presets`; RAILROOM_PRESETS_HOME overrides it, which tests use to keep a
+developer's own folder out), folders named in the chain file, folders given with --presets.
+"""
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+
+from railroom.engine.model import Part, Problem
+from railroom.engine.reading import FieldReader, parse_toml
+
+PART_FIELDS = {
+    # key: (kind, is a pair, required)
+    "description": ("text", False, False),
+    "supply": ("voltage", True, True),
+    "supply_abs_max": ("voltage", False, True),
+    "output_headroom": ("voltage", True, True),
+    "output_resistance": ("number", False, False),
+    "input_headroom": ("voltage", True, True),
+    "gbw": ("frequency", False, True),
+    "slew": ("slew", False, True),
+    "open_loop_gain": ("gain", False, True),
+    "offset": ("voltage", False, True),
+    "offset_drift": ("voltage", False, False),
+    "bias_current": ("current", False, False),
+    "output_current": ("current", False, True),
+}
+UNITS = {"supply": "V", "supply_abs_max": "V", "output_headroom": "V", "output_resistance": "Ω",
+         "input_headroom": "V", "gbw": "Hz", "slew": "V/s", "open_loop_gain": "V/V", "offset": "V",
+         "offset_drift": "V/°C", "bias_current": "A", "output_current": "A"}
+
+
+def shipped_folder() -> Path:
+    import railroom.presets
+    return Path(railroom.presets.__file__).parent
+
+
+def user_folder() -> Path:
+    home = os.environ.get("RAILROOM_PRESETS_HOME")
+    if home:
+        return Path(home)
+    from platformdirs import user_config_dir
+    return Path(user_config_dir("railroom")) / "presets"
+
+
+def search_order(chain_dirs: tuple[str, ...] = (), extra_dirs: tuple[str, ...] = ()) -> list[Path]:
+    return [shipped_folder(), user_folder(), *map(Path, chain_dirs), *map(Path, extra_dirs)]
+
+
+@dataclass
+class Library:
+    """Every part found, the later folder winning, with the problems of broken files."""
+
+    parts: dict[str, Part] = field(default_factory=dict)
+    problems: list[Problem] = field(default_factory=list)
+    folders: list[Path] = field(default_factory=list)
+
+    def add(self, part: Part) -> None:
+        earlier = self.parts.get(part.id)
+        if earlier is not None:
+            part = replace(part, overrides=(*earlier.overrides, earlier.origin))
+        self.parts[part.id] = part
+
+
+def load_library(folders: list[Path]) -> Library:
+    library = Library(folders=list(folders))
+    for folder in folders:
+        if not folder.is_dir():
+            continue
+        for path in sorted(folder.glob("*.toml")):
+            parts, problems = read_preset_file(path)
+            library.problems.extend(problems)
+            for part in parts:
+                library.add(part)
+    return library
+
+
+def read_preset_file(path: Path) -> tuple[list[Part], list[Problem]]:
+    """Every good part in the file, and the problems of the others (a bad part never hides a good one)."""
+    try:
+        text = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as err:
+        return [], [Problem(str(path), None, "(file)", f"cannot be read: {err}")]
+    return parts_from_text(text, str(path))
+
+
+def parts_from_text(text: str, path: str) -> tuple[list[Part], list[Problem]]:
+    data, problems = parse_toml(text, path)
+    if data is None:
+        return [], problems
+    reader = FieldReader(path, text)
+    for key in data:
+        if key != "part":
+            reader.problem(key, "unknown table; a preset file holds [part.ID] tables only")
+    tables = data.get("part", {})
+    if not isinstance(tables, dict):
+        reader.problem("part", "expected tables such as [part.my-op-amp]")
+        tables = {}
+    parts = []
+    for part_id, table in tables.items():
+        before = len(reader.problems)
+        part = _read_part(part_id, table, reader)
+        if part is not None and len(reader.problems) == before:
+            parts.append(replace(part, origin=path))
+    return parts, reader.problems
+
+
+def _read_part(part_id: str, t, r: FieldReader) -> Part | None:
+    w = f"part.{part_id}"
+    if not isinstance(t, dict):
+        r.problem(w, "expected a table of part fields")
+        return None
+    r.unknown_keys(t, w, set(PART_FIELDS), "a part preset")
+    values: dict[str, object] = {}
+    for key, (kind, pair, required) in PART_FIELDS.items():
+        if kind == "text":
+            values[key] = r.text_field(t, w, key, default="")
+        elif pair:
+            headroom = "headroom" in key
+            values[key] = (r.span(t, w, key, kind, None, check_order=not headroom,
+                                  ordered="upper, lower" if headroom else "low, high")
+                           if key in t else _missing(r, w, key))
+        elif key == "output_resistance":
+            raw = t.get(key, 0)
+            values[key] = 0.0 if raw in (0, "0") else r.number(t, w, key, "resistance")
+        else:
+            default = 0.0 if not required else ...
+            values[key] = (r.number(t, w, key, kind) if default is ... else
+                           r.number(t, w, key, kind, default=default))
+    if any(v is None for v in values.values()):
+        return None
+    part = Part(id=part_id, **values)
+    for key, message in sanity_problems(part):
+        r.problem(f"{w}.{key}", message)
+    return part
+
+
+def _missing(r: FieldReader, w: str, key: str) -> None:
+    r.problem(f"{w}.{key}", "missing; expected a pair such as [\"30m\", \"30m\"]")
+    return None
+
+
+def sanity_problems(part: Part) -> list[tuple[str, str]]:
+    """Plausibility of a preset, each as (field, message)."""
+    found = []
+    low, high = part.supply
+    if low <= 0:
+        found.append(("supply", f"expected a positive supply span, got {low:g} V"))
+    if part.supply_abs_max < high:
+        found.append(("supply_abs_max", f"below the largest allowed supply ({high:g} V)"))
+    if sum(part.output_headroom) >= low:
+        found.append(("output_headroom", "upper plus lower headroom leaves no output swing at the "
+                                         f"smallest supply ({low:g} V)"))
+    if sum(part.input_headroom) >= low:
+        found.append(("input_headroom", "upper plus lower headroom leaves no input range at the "
+                                        f"smallest supply ({low:g} V)"))
+    if part.open_loop_gain < 1:
+        found.append(("open_loop_gain", f"expected at least 1 V/V (0 dB), got {part.open_loop_gain:g}"))
+    for key in ("offset", "offset_drift", "bias_current", "output_resistance"):
+        if getattr(part, key) < 0:
+            found.append((key, "expected 0 or more"))
+    if part.output_current <= 0:
+        found.append(("output_current", "expected more than 0 A"))
+    return found

@@ -1,0 +1,151 @@
+"""Carrying the worst-case signal from stage to stage.
+
+The signal at a stage's input is a DC level plus one sine of the band at a time. For each band
+frequency f the state keeps
+
+    hi(f) = max (dc + a(f)),  lo(f) = min (dc - a(f)),  amp_lo(f) <= a(f) <= amp_hi(f)
+
+over everything upstream. A node of a linear stage is  out = g dc + c + |H(f)| a sin(...) + errors
+with g the DC gain, c the fixed part (references, level shifts), H the AC gain. Writing
+g dc + |H| a = G (dc +/- a) + (|H| - G) a with G = |g| gives the bounds
+
+    max out = c + e + G up(f) + (|H| - G) a_sel(f),   min out = c - e + G down(f) - (|H| - G) a_sel(f)
+
+with up = hi, down = lo for g >= 0 (up = -lo, down = -hi for g < 0) and a_sel = amp_hi where
+|H| >= G, amp_lo otherwise. They are exact wherever the stage passes DC and AC alike (|H| = G,
+flat gain stages, level shifts, DC alone) and bound the true extremes from outside otherwise
+(interval arithmetic: Moore, Interval Analysis, 1966). Independent additive errors (offset, bias)
+add exactly: max of a sum of independent terms is the sum of their maxima.
+Per Monte Carlo draw the state is one circuit, and the same formulas are exact.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from railroom.engine.blocks.base import Node
+
+
+@dataclass(frozen=True)
+class Signal:
+    """A single-ended signal: arrays over band frequencies (F,) or (draws, F)."""
+
+    hi: np.ndarray
+    lo: np.ndarray
+    amp_lo: np.ndarray
+    amp_hi: np.ndarray
+    fed_clipped: bool = False
+
+    @property
+    def span(self) -> tuple[float, float]:
+        return (float(np.min(self.lo)), float(np.max(self.hi)))
+
+
+@dataclass(frozen=True)
+class DifferentialSignal:
+    """The two sides of a differential source: pos = cm + d/2, neg = cm - d/2 (d's AC peak amp)."""
+
+    common: tuple[float, float]
+    difference: tuple[float, float]
+    amplitude: float
+
+
+@dataclass(frozen=True)
+class NodeBounds:
+    lo: np.ndarray        # (J, F) lowest instantaneous value at each frequency
+    hi: np.ndarray
+    amp_lo: np.ndarray    # (J, F) AC amplitude bounds
+    amp_hi: np.ndarray
+
+
+def fixed_part(node: Node, v: dict[str, np.ndarray], signals: tuple[str, ...]) -> np.ndarray:
+    """Sum over fixed voltage sources (references, level-shift inputs) of DC transfer times value."""
+    total = 0.0
+    for source, transfer in node.transfers.items():
+        if source not in signals:
+            total = total + transfer[..., 0].real * v[source][..., 0]
+    return np.asarray(total, dtype=float)
+
+
+def error_bound(node: Node, offsets: np.ndarray, bias: float) -> np.ndarray | float:
+    """Largest output error from independent +/- offsets and bias currents of each op amp."""
+    if node.offset_gain is None:
+        return 0.0
+    return np.abs(node.offset_gain) @ offsets + np.abs(node.bias_gain).sum(axis=-1) * bias
+
+
+def single_bounds(node: Node, v: dict, signal: Signal, error: np.ndarray | float,
+                  shift: np.ndarray | float = 0.0) -> NodeBounds:
+    """Bounds of a node fed by a single-ended signal (see the module docstring)."""
+    transfer = node.transfers.get("in")
+    fixed = fixed_part(node, v, ("in",)) + shift
+    fixed = np.reshape(fixed, np.shape(fixed) + (1,) * (np.ndim(fixed) == 1))
+    error = np.reshape(error, np.shape(error) + (1,) * (np.ndim(error) == 1))
+    if transfer is None:
+        zero = np.zeros_like(signal.hi)
+        return NodeBounds(fixed - error + zero, fixed + error + zero, zero, zero)
+    g = transfer[..., :1].real
+    magnitude = np.abs(transfer[..., 1:])
+    gain = np.abs(g)
+    up = np.where(g >= 0, signal.hi, -signal.lo)
+    down = np.where(g >= 0, signal.lo, -signal.hi)
+    spare = magnitude - gain
+    a_sel = np.where(spare >= 0, signal.amp_hi, signal.amp_lo)
+    return NodeBounds(
+        lo=fixed - error + gain * down - spare * a_sel,
+        hi=fixed + error + gain * up + spare * a_sel,
+        amp_lo=magnitude * signal.amp_lo,
+        amp_hi=magnitude * signal.amp_hi,
+    )
+
+
+def differential_bounds(node: Node, v: dict, signal: DifferentialSignal,
+                        error: np.ndarray | float, shift: np.ndarray | float = 0.0) -> NodeBounds:
+    """Exact bounds of a node fed by the two sides of a differential source."""
+    pos = node.transfers.get("pos", 0.0)
+    neg = node.transfers.get("neg", 0.0)
+    common = np.asarray(pos + neg)
+    diff = np.asarray(pos - neg) / 2.0
+    fixed = fixed_part(node, v, ("pos", "neg")) + shift
+    fixed = np.reshape(fixed, np.shape(fixed) + (1,) * (np.ndim(fixed) == 1))
+    error = np.reshape(error, np.shape(error) + (1,) * (np.ndim(error) == 1))
+    if common.ndim == 0:
+        common = np.zeros((1, 2))
+        diff = np.zeros((1, 2), dtype=complex)
+    g_cm, g_d = common[..., :1].real, diff[..., :1].real
+    cm_hi = np.maximum(g_cm * signal.common[0], g_cm * signal.common[1])
+    cm_lo = np.minimum(g_cm * signal.common[0], g_cm * signal.common[1])
+    d_hi = np.maximum(g_d * signal.difference[0], g_d * signal.difference[1])
+    d_lo = np.minimum(g_d * signal.difference[0], g_d * signal.difference[1])
+    amp = np.abs(diff[..., 1:]) * signal.amplitude
+    return NodeBounds(lo=fixed - error + cm_lo + d_lo - amp, hi=fixed + error + cm_hi + d_hi + amp,
+                      amp_lo=amp, amp_hi=amp)
+
+
+def node_bounds(node: Node, v: dict, signal, error, shift=0.0) -> NodeBounds:
+    if isinstance(signal, DifferentialSignal):
+        return differential_bounds(node, v, signal, error, shift)
+    return single_bounds(node, v, signal, error, shift)
+
+
+def merge(bounds: NodeBounds, fed_clipped: bool) -> Signal:
+    """Worst case over a stage's own corners: the next stage's input (corners method)."""
+    return Signal(hi=bounds.hi.max(axis=0), lo=bounds.lo.min(axis=0),
+                  amp_lo=bounds.amp_lo.min(axis=0), amp_hi=bounds.amp_hi.max(axis=0),
+                  fed_clipped=fed_clipped)
+
+
+def clamp(signal: Signal, window: tuple[float, float]) -> Signal:
+    """What a clipping stage passes on: its output held inside its swing window."""
+    low, high = window
+    half = max((high - low) / 2.0, 0.0)
+    return Signal(hi=np.clip(signal.hi, low, high), lo=np.clip(signal.lo, low, high),
+                  amp_lo=np.minimum(signal.amp_lo, half), amp_hi=np.minimum(signal.amp_hi, half),
+                  fed_clipped=True)
+
+
+def source_signal(level: tuple[float, float], amplitude: float, freqs: np.ndarray) -> Signal:
+    ones = np.ones_like(freqs)
+    return Signal(hi=(level[1] + amplitude) * ones, lo=(level[0] - amplitude) * ones,
+                  amp_lo=amplitude * ones, amp_hi=amplitude * ones)

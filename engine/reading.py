@@ -1,0 +1,153 @@
+"""Reading typed fields out of a parsed TOML table while collecting located problems.
+
+One `FieldReader` serves one file: every accessor returns a value or None and records a
+`Problem(file, line, field, message)` instead of raising, so a file's problems come out all at once.
+"""
+from __future__ import annotations
+
+import sys
+from dataclasses import dataclass, field
+
+from railroom.engine.model import Problem
+from railroom.engine.toml_lines import key_lines, line_of
+from railroom.engine.values import Quantity, ValueTextError, parse_quantity
+
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover - exercised on Python 3.10 only
+    import tomli as tomllib
+
+_MISSING = object()
+
+
+def parse_toml(text: str, path: str) -> tuple[dict | None, list[Problem]]:
+    """Parse TOML text; a syntax error becomes one located problem."""
+    try:
+        return tomllib.loads(text), []
+    except tomllib.TOMLDecodeError as err:
+        line = getattr(err, "lineno", None)
+        message = str(err)
+        if line is None:
+            import re
+            found = re.search(r"line (\d+)", message)
+            line = int(found.group(1)) if found else None
+        reason = getattr(err, "msg", message.split(" (at ")[0])
+        return None, [Problem(path, line, "(file)", f"not valid TOML: {reason}")]
+
+
+@dataclass
+class FieldReader:
+    path: str
+    text: str
+    problems: list[Problem] = field(default_factory=list)
+
+    def __post_init__(self) -> None:
+        self.lines = key_lines(self.text)
+
+    def line(self, where: str) -> int | None:
+        return line_of(self.lines, where)
+
+    def problem(self, where: str, message: str, label: str | None = None) -> None:
+        self.problems.append(Problem(self.path, self.line(where), label or where, message))
+
+    def quantity(self, table: dict, where: str, key: str, kind: str, *, default=_MISSING,
+                 label: str | None = None) -> Quantity | None:
+        """A value of SPEC section 1; `default` (a float) when the key is absent and allowed."""
+        raw = table.get(key, _MISSING)
+        name = f"{where}.{key}" if where else key
+        if raw is _MISSING:
+            if default is _MISSING:
+                self.problem(name, f"missing; expected {_expected(kind)}", label)
+                return None
+            return None if default is None else Quantity(float(default))
+        try:
+            return parse_quantity(raw, kind)
+        except ValueTextError as err:
+            self.problem(name, str(err), label)
+            return None
+
+    def number(self, table: dict, where: str, key: str, kind: str, default=_MISSING,
+               label: str | None = None) -> float | None:
+        """A plain value: written tolerance is refused here (rails and ranges say theirs elsewhere)."""
+        q = self.quantity(table, where, key, kind, default=default, label=label)
+        if q is None:
+            return None
+        if q.tolerance is not None or q.tempco is not None:
+            self.problem(f"{where}.{key}", "takes a plain value here, without tolerance", label)
+            return None
+        return q.value
+
+    def span(self, table: dict, where: str, key: str, kind: str, default, *,
+             ordered: str = "low, high", check_order: bool = True) -> tuple[float, float] | None:
+        """A [low, high] pair; a reversed pair is a problem."""
+        raw = table.get(key, _MISSING)
+        name = f"{where}.{key}" if where else key
+        if raw is _MISSING:
+            return default
+        if not isinstance(raw, list) or len(raw) != 2:
+            self.problem(name, f"expected a pair [{ordered}] of {_expected(kind)}")
+            return None
+        values = []
+        for item in raw:
+            try:
+                q = parse_quantity(item, kind)
+            except ValueTextError as err:
+                self.problem(name, str(err))
+                return None
+            values.append(q.value)
+        if check_order and values[0] > values[1]:
+            self.problem(name, f"reversed: expected [{ordered}] with the first not above the second, "
+                               f"got [{values[0]:g}, {values[1]:g}]")
+            return None
+        return (values[0], values[1])
+
+    def text_field(self, table: dict, where: str, key: str, default=_MISSING,
+                   choices: tuple[str, ...] | None = None) -> str | None:
+        raw = table.get(key, _MISSING)
+        name = f"{where}.{key}" if where else key
+        if raw is _MISSING:
+            if default is _MISSING:
+                self.problem(name, "missing; expected text" + _one_of(choices))
+                return None
+            return default
+        if not isinstance(raw, str):
+            self.problem(name, f"expected text{_one_of(choices)}, got {type(raw).__name__} {raw!r}")
+            return None
+        if choices is not None and raw not in choices:
+            self.problem(name, f"expected one of {', '.join(choices)}, got {raw!r}")
+            return None
+        return raw
+
+    def integer(self, table: dict, where: str, key: str, default: int, low: int, high: int) -> int | None:
+        raw = table.get(key, default)
+        if isinstance(raw, bool) or not isinstance(raw, int) or not low <= raw <= high:
+            self.problem(f"{where}.{key}", f"expected a whole number from {low} to {high}, got {raw!r}")
+            return None
+        return raw
+
+    def unknown_keys(self, table: dict, where: str, known: tuple[str, ...] | set[str], what: str) -> None:
+        for key in table:
+            if key not in known:
+                hint = _closest(key, known)
+                self.problem(f"{where}.{key}" if where else key,
+                             f"unknown field for {what}" + (f"; did you mean {hint!r}?" if hint else
+                             f"; expected one of {', '.join(sorted(known))}"))
+
+
+def _expected(kind: str) -> str:
+    return {"resistance": 'a resistance such as "4k7" or "10k 1%"',
+            "capacitance": 'a capacitance such as "4n7"', "voltage": 'a voltage such as "2.5" or "-15"',
+            "current": 'a current such as "20m"', "frequency": 'a frequency such as "20k"',
+            "gain": 'a gain such as "100dB"', "slew": 'a slew rate such as "0.5V/us"',
+            "fraction": 'a fraction such as "1%"', "temperature": "a temperature in C",
+            }.get(kind, f"a {kind}")
+
+
+def _one_of(choices: tuple[str, ...] | None) -> str:
+    return f" (one of {', '.join(choices)})" if choices else ""
+
+
+def _closest(word: str, known) -> str | None:
+    import difflib
+    found = difflib.get_close_matches(word, list(known), n=1, cutoff=0.6)
+    return found[0] if found else None

@@ -1,0 +1,98 @@
+"""What the methods measure and what the checks conclude, as frozen values for the views."""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from railroom.engine.model import Chain, Stage
+
+Span = tuple[float, float]
+
+VOLTAGE_CHECKS = ("output-high", "output-low", "input-high", "input-low")
+CHECKS = (*VOLTAGE_CHECKS, "slew", "current", "supply")
+
+
+@dataclass(frozen=True)
+class OpAmpMeasure:
+    """The worst case seen by one op amp inside a stage."""
+
+    label: str
+    output: Span                     # worst-case output span, V
+    window: Span                     # allowed output swing at the worst-case current, V
+    input: Span                      # common-mode span at the + input, V
+    input_window: Span
+    slew_needed: float               # V/s
+    slew_available: float
+    current_needed: float            # A, magnitude
+    current_available: float
+
+
+@dataclass(frozen=True)
+class Sensitivity:
+    quantity: str                    # "rf", "rails.main", "offset", ...
+    share: float                     # fraction of the limiting margin's spread it explains
+
+
+@dataclass(frozen=True)
+class Fix:
+    text: str                        # one sentence a practitioner can act on
+    field: str | None = None         # the stage field to change, when it is a value change
+    value: float | None = None
+
+
+@dataclass(frozen=True)
+class StageMeasure:
+    """A method's measurement of one stage, before any verdict."""
+
+    index: int
+    stage: Stage
+    output: Span
+    nominal: Span
+    opamps: tuple[OpAmpMeasure, ...] = ()
+    window: Span | None = None           # the stage's allowed output window (op amp or converter)
+    gain_error: float | None = None
+    supply: Span | None = None           # smallest and largest total supply, V
+    fed_clipped: bool = False
+    saturated: bool = False              # a saturated-by-design block
+    thresholds: tuple[Span, Span] | None = None   # saturating blocks: to go high, to go low
+    reaches: tuple[bool, bool] | None = None
+    inner: dict[str, Span] = field(default_factory=dict)
+    probability: float | None = None     # montecarlo: share of draws leaving the linear regime
+    percentiles: dict[str, dict[str, float]] | None = None
+
+
+@dataclass(frozen=True)
+class StageResult:
+    measure: StageMeasure
+    regime: str                          # linear | clipping | saturated
+    go: bool
+    reasons: tuple[str, ...]
+    margins: dict[str, float]
+    limiting: str | None
+    failing_nodes: dict[str, str]        # check -> op amp label, for multi-op-amp stages
+    cautions: tuple[str, ...] = ()
+    sensitivity: tuple[Sensitivity, ...] = ()
+    fixes: tuple[Fix, ...] = ()
+
+    @property
+    def stage(self) -> Stage:
+        return self.measure.stage
+
+    @property
+    def index(self) -> int:
+        return self.measure.index
+
+
+@dataclass(frozen=True)
+class ChainResult:
+    chain: Chain
+    method: str
+    samples: int | None
+    stages: tuple[StageResult, ...]
+    go: bool
+    headroom_db: float | None
+    cautions: tuple[str, ...]
+    chain_yield: float | None = None     # montecarlo: share of draws with every stage linear
+
+    @property
+    def failing(self) -> int:
+        return sum(not s.go for s in self.stages)

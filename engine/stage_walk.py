@@ -1,0 +1,117 @@
+"""Walking the prepared chain stage by stage: bounds -> measures -> verdict -> next stage's input.
+
+Used by the corners method (and by the nominal pass, which is corners with no spread and no
+offsets). The next stage's input loads this stage's output: its conductance to its return voltage
+adds to the output current before the swing window is drawn.
+"""
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+
+from railroom.engine.blocks.base import BlockResponse, InputLoad, OpAmpNodes
+from railroom.engine.checks import judge
+from railroom.engine.opamp import TWO_PI, input_window, output_window
+from railroom.engine.plan import StagePlan
+from railroom.engine.propagation import (NodeBounds, Signal, clamp, error_bound, merge,
+                                         node_bounds)
+from railroom.engine.results import OpAmpMeasure, StageMeasure, StageResult
+
+
+def span(bounds: NodeBounds) -> tuple[float, float]:
+    return (float(np.min(bounds.lo)), float(np.max(bounds.hi)))
+
+
+def walk_chain(prepared, signal, nominal: bool = False, notes=None) -> list[StageResult]:
+    chain = prepared.chain
+    rise = chain.conditions.worst_temperature_rise
+    results: list[StageResult] = []
+    for k, plan in enumerate(prepared.plans):
+        following = prepared.responses[k + 1] if k + 1 < len(prepared.responses) else None
+        next_load = following.input_load if following is not None else InputLoad()
+        v = prepared.values[k]
+        if plan.block.saturates:
+            measure, signal = saturated_stage(plan, v, signal)
+        else:
+            measure, bounds = linear_stage(plan, prepared.responses[k], v, signal, prepared.freqs,
+                                           next_load, rise, nominal)
+            signal = merge(bounds, getattr(signal, "fed_clipped", False))
+        if notes is not None:
+            measure = replace(measure, **notes[k])
+        result = judge(measure, plan.part, plan.rails, chain.conditions.margin)
+        if result.regime == "clipping" and measure.window is not None:
+            signal = clamp(signal, measure.window)
+        results.append(result)
+    return results
+
+
+def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freqs: np.ndarray,
+                 next_load: InputLoad, rise: float, nominal: bool) -> tuple[StageMeasure, NodeBounds]:
+    part = plan.part
+    count = len(response.opamps)
+    offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
+    bias = 0.0 if (nominal or part is None) else part.bias_current
+    out = node_bounds(response.output, v, signal, error_bound(response.output, offsets, bias))
+    amps = tuple(
+        opamp_measure(plan, amp, v, signal, offsets, bias, freqs,
+                      next_load if amp.output is response.output else InputLoad())
+        for amp in response.opamps
+    )
+    window = amps[-1].window if amps else None
+    if plan.block.window_only:
+        window = (float(np.max(v["low"])), float(np.min(v["high"])))   # worst over tolerance
+    inner = {name: span(node_bounds(node, v, signal, error_bound(node, offsets, bias)))
+             for name, node in response.inner.items()}
+    measure = StageMeasure(
+        index=plan.index, stage=plan.stage, output=span(out), nominal=span(out), opamps=amps,
+        window=window, supply=plan.rails.span_range if part else None,
+        fed_clipped=getattr(signal, "fed_clipped", False), inner=inner,
+    )
+    return measure, out
+
+
+def opamp_measure(plan: StagePlan, amp: OpAmpNodes, v: dict, signal, offsets, bias, freqs,
+                  load: InputLoad) -> OpAmpMeasure:
+    part = plan.part
+    out = node_bounds(amp.output, v, signal, error_bound(amp.output, offsets, bias))
+    plus = node_bounds(amp.plus, v, signal, error_bound(amp.plus, offsets, bias))
+    current = node_bounds(amp.current, v, signal, error_bound(amp.current, offsets, bias))
+    out_span = span(out)
+    needed = max(abs(float(np.max(current.hi))), abs(float(np.min(current.lo))))
+    needed += load.conductance * max(abs(out_span[1] - load.returns[0]),
+                                     abs(out_span[0] - load.returns[1]))
+    slew = float(np.max(TWO_PI * freqs * out.amp_hi)) if out.amp_hi.size else 0.0
+    return OpAmpMeasure(
+        label=amp.label, output=out_span, window=output_window(part, plan.rails, needed),
+        input=span(plus), input_window=input_window(part, plan.rails),
+        slew_needed=slew, slew_available=part.slew,
+        current_needed=needed, current_available=part.output_current,
+    )
+
+
+def saturated_stage(plan: StagePlan, v: dict, signal) -> tuple[StageMeasure, Signal]:
+    """A comparator-like stage: switch levels, thresholds and the two-level signal it passes on."""
+    incoming = signal.span if isinstance(signal, Signal) else (signal.common[0], signal.common[1])
+    switching = plan.block.switch(v, plan.flags, plan.part, plan.rails, incoming)
+    (low_min, low_max), (high_min, high_max) = switching.levels
+    reach_low, reach_high = switching.reaches
+    top = high_max if reach_high else low_max
+    bottom = low_min if reach_low else high_min
+    amp = OpAmpMeasure(
+        label="comparator", output=(bottom, top), window=(low_min, high_max),
+        input=switching.input_span, input_window=input_window(plan.part, plan.rails),
+        slew_needed=0.0, slew_available=plan.part.slew,
+        current_needed=switching.current, current_available=plan.part.output_current,
+    )
+    measure = StageMeasure(
+        index=plan.index, stage=plan.stage, output=(bottom, top), nominal=(bottom, top),
+        opamps=(amp,), window=(low_min, high_max), supply=plan.rails.span_range,
+        fed_clipped=getattr(signal, "fed_clipped", False), saturated=True,
+        thresholds=switching.thresholds, reaches=switching.reaches,
+    )
+    freqs_shape = np.shape(signal.hi) if isinstance(signal, Signal) else (1,)
+    zero = np.zeros(freqs_shape)
+    passed = Signal(hi=zero + top, lo=zero + bottom, amp_lo=zero, amp_hi=zero,
+                    fed_clipped=getattr(signal, "fed_clipped", False))
+    return measure, passed

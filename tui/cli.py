@@ -1,0 +1,80 @@
+"""The `railroom` command. `check`, `presets` and `bench` never import Textual (start-up time).
+
+    railroom [CHAIN]                       open the terminal interface (the built-in demo without CHAIN)
+    railroom check CHAIN [--json] ...      go / no-go with an exit code: 0 GO, 1 NO-GO, 2 unreadable input
+    railroom presets [list | show ID | check FILE]
+    railroom bench [--json]
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+EXIT_GO, EXIT_NO_GO, EXIT_INPUT = 0, 1, 2
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="railroom",
+        description="Rail-headroom and regime checker for op-amp signal chains.")
+    sub = parser.add_subparsers(dest="command")
+
+    check = sub.add_parser("check", help="check a chain file: exit 0 GO, 1 NO-GO, 2 unreadable")
+    check.add_argument("chain", nargs="+", help="chain file(s) or folder(s)")
+    check.add_argument("--json", action="store_true", help="print the JSON report")
+    check.add_argument("--markdown", action="store_true", help="print a Markdown review report")
+    check.add_argument("--method", choices=("corners", "rss", "montecarlo"))
+    check.add_argument("--samples", type=int)
+    check.add_argument("--seed", type=int)
+    check.add_argument("--margin", help="room needed to every limit for GO, V (e.g. 50m)")
+    check.add_argument("--presets", action="append", default=[], metavar="DIR",
+                       help="extra preset folder (may repeat); searched last")
+    check.add_argument("--no-color", action="store_true", help="plain characters only")
+
+    presets = sub.add_parser("presets", help="list, show or check part presets")
+    presets.add_argument("action", nargs="?", default="list", choices=("list", "show", "check"))
+    presets.add_argument("target", nargs="?", help="preset id (show) or file (check)")
+    presets.add_argument("--presets", action="append", default=[], metavar="DIR")
+
+    bench = sub.add_parser("bench", help="time the engine on the reference chain")
+    bench.add_argument("--json", action="store_true")
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    argv = list(sys.argv[1:] if argv is None else argv)
+    if not argv or argv[0] not in ("check", "presets", "bench", "-h", "--help", "schema"):
+        return open_interface(argv)
+    args = build_parser().parse_args(argv)
+    if args.command == "check":
+        from railroom.tui.check_command import run_check
+        return run_check(args)
+    if args.command == "presets":
+        from railroom.tui.presets_command import run_presets
+        return run_presets(args)
+    if args.command == "bench":
+        from railroom.tui.bench_command import run_bench
+        return run_bench(args)
+    return EXIT_INPUT
+
+
+def open_interface(argv: list[str]) -> int:
+    parser = argparse.ArgumentParser(prog="railroom", description="Open the terminal interface.")
+    parser.add_argument("chain", nargs="?", help="chain file (the built-in demo when left out)")
+    parser.add_argument("--presets", action="append", default=[], metavar="DIR")
+    args = parser.parse_args(argv)
+    try:
+        from railroom.tui.app import run_app
+    except ImportError as err:  # the interface is an optional layer over the engine
+        print(f"railroom: the terminal interface cannot start: {err}", file=sys.stderr)
+        return EXIT_INPUT
+    return run_app(args.chain, tuple(args.presets))
+
+
+def print_json(data: dict) -> None:
+    sys.stdout.write(json.dumps(data, indent=2, ensure_ascii=False) + "\n")
+
+
+if __name__ == "__main__":
+    sys.exit(main())
