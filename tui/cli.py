@@ -39,6 +39,9 @@ def build_parser() -> argparse.ArgumentParser:
 
     bench = sub.add_parser("bench", help="time the engine on the reference chain")
     bench.add_argument("--json", action="store_true")
+
+    schema = sub.add_parser("schema", help="print the JSON Schema of a file kind")
+    schema.add_argument("kind", choices=("chain", "preset", "report"))
     return parser
 
 
@@ -56,6 +59,9 @@ def main(argv: list[str] | None = None) -> int:
     if args.command == "bench":
         from railroom.tui.bench_command import run_bench
         return run_bench(args)
+    if args.command == "schema":
+        from railroom.tui.schema_command import run_schema
+        return run_schema(args)
     return EXIT_INPUT
 
 
