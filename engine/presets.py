@@ -148,6 +148,9 @@ def sanity_problems(part: Part) -> list[tuple[str, str]]:
     """Plausibility of a preset, each as (field, message)."""
     found = []
     low, high = part.supply
+    if low > high:
+        found.append(("supply", f"reversed: expected [low, high], got [{low:g}, {high:g}] V"))
+        low, high = high, low
     if low <= 0:
         found.append(("supply", f"expected a positive supply span, got {low:g} V"))
     if part.supply_abs_max < high:
@@ -158,6 +161,11 @@ def sanity_problems(part: Part) -> list[tuple[str, str]]:
     if sum(part.input_headroom) >= low:
         found.append(("input_headroom", "upper plus lower headroom leaves no input range at the "
                                         f"smallest supply ({low:g} V)"))
+    if min(part.output_headroom) < 0:
+        found.append(("output_headroom", "below 0: an output cannot swing beyond its own rails"))
+    for key, unit in (("gbw", "Hz"), ("slew", "V/s")):
+        if getattr(part, key) <= 0:
+            found.append((key, f"expected more than 0 {unit}, got {getattr(part, key):g}"))
     if part.open_loop_gain < 1:
         found.append(("open_loop_gain", f"expected at least 1 V/V (0 dB), got {part.open_loop_gain:g}"))
     for key in ("offset", "offset_drift", "bias_current", "output_resistance"):
