@@ -1,0 +1,113 @@
+"""`railroom presets [list | show ID | check FILE]`: the user's library from the command line.
+
+Plain text for SSH sessions and scripts; never imports Textual. Exit 0 when all is well, 2 when an
+id is unknown or a file has problems (every problem on stderr: file, line, field, message).
+"""
+from __future__ import annotations
+
+import difflib
+import sys
+from pathlib import Path
+
+from railroom.engine.model import Part
+from railroom.engine.presets import (PART_FIELDS, UNITS, Library, load_library, read_preset_file,
+                                     search_order, shipped_folder, user_folder)
+from railroom.engine.values import format_si
+from railroom.tui.cli import EXIT_GO, EXIT_INPUT
+
+PAIR_NAMES = {"supply": ("low", "high"), "output_headroom": ("upper", "lower"),
+              "input_headroom": ("upper", "lower")}
+
+
+def run_presets(args) -> int:
+    action = getattr(args, "action", None) or "list"
+    if action == "check":
+        return check_file(args.target)
+    library = load_library(search_order((), tuple(getattr(args, "presets", []) or ())))
+    if action == "show":
+        return show_part(library, args.target)
+    return list_parts(library)
+
+
+def folder_label(folder: Path) -> str:
+    if folder == shipped_folder():
+        return "shipped"
+    if folder == user_folder():
+        return "yours"
+    return "extra"
+
+
+def list_parts(library: Library) -> int:
+    print("Search order (a later folder overrides an earlier id):")
+    for number, folder in enumerate(library.folders, start=1):
+        state = "" if folder.is_dir() else "  (not there yet)"
+        print(f"  {number}. {folder_label(folder):8} {folder}{state}")
+    print()
+    if not library.parts:
+        print("No presets found.")
+    width = max((len(part_id) for part_id in library.parts), default=2)
+    for part_id in sorted(library.parts):
+        part = library.parts[part_id]
+        origin = Path(part.origin)
+        line = f"{part_id:{width}}  {folder_label(origin.parent):8} {origin}"
+        if part.overrides:
+            line += "  overrides " + ", ".join(part.overrides)
+        print(line)
+    report_problems(library.problems, "problem(s) in preset files (the good presets are listed)")
+    return EXIT_GO
+
+
+def report_problems(problems, heading: str) -> None:
+    if problems:
+        print(f"railroom: {len(problems)} {heading}:", file=sys.stderr)
+        for problem in problems:
+            print(f"railroom: {problem}", file=sys.stderr)
+
+
+def show_part(library: Library, part_id: str | None) -> int:
+    part = library.parts.get(part_id or "")
+    if part is None:
+        hint = difflib.get_close_matches(part_id or "", list(library.parts), n=3)
+        print(f"railroom: no preset {part_id!r}" + (f"; did you mean {', '.join(hint)}?" if hint else
+              "; `railroom presets list` shows them all"), file=sys.stderr)
+        return EXIT_INPUT
+    print(f"[part.{part.id}]  from {part.origin}")
+    for earlier in part.overrides:
+        print(f"  overrides {earlier}")
+    for line in part_lines(part):
+        print(line)
+    return EXIT_GO
+
+
+def part_lines(part: Part) -> list[str]:
+    """One line per field, in engineer's units ("0.6 V/µs", "100 dB (1e+05 V/V)")."""
+    lines = []
+    for key in PART_FIELDS:
+        value = getattr(part, key)
+        if key == "description":
+            text = value or "-"
+        elif isinstance(value, tuple):
+            a, b = PAIR_NAMES[key]
+            text = f"{a} {format_si(value[0], UNITS[key])}, {b} {format_si(value[1], UNITS[key])}"
+        elif key == "open_loop_gain":
+            text = f"{format_si(value, 'dB')} ({value:.3g} V/V)"
+        else:
+            text = format_si(value, UNITS[key])
+        lines.append(f"  {key:18} {text}")
+    return lines
+
+
+def check_file(target: str | None) -> int:
+    if not target:
+        print("railroom: presets check needs a FILE", file=sys.stderr)
+        return EXIT_INPUT
+    path = Path(target)
+    if not path.is_file():
+        print(f"railroom: {path}: no such file", file=sys.stderr)
+        return EXIT_INPUT
+    parts, problems = read_preset_file(path)
+    if problems:
+        report_problems(problems, f"problem(s) in {path}")
+        return EXIT_INPUT
+    print(f"{path}: {len(parts)} preset(s), no problems: " + ", ".join(p.id for p in parts))
+    return EXIT_GO
