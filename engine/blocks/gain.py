@@ -18,19 +18,20 @@ from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputL
 from railroom.engine.opamp import Loop, solve_loop
 
 
-def single_opamp(loop: Loop, inverse_gain: np.ndarray, network_conductance: np.ndarray,
-                 network_return: dict[str, np.ndarray], v: Mapping[str, np.ndarray],
-                 label: str = "amplifier") -> tuple[OpAmpNodes, object]:
+def single_opamp(loop: Loop, inverse_gain: np.ndarray, feedback_conductance: np.ndarray,
+                 v: Mapping[str, np.ndarray], label: str = "amplifier") -> tuple[OpAmpNodes, object]:
     """Close one loop and build the three checked nodes.
 
-    The op amp's output current is Vout (G_load + G_network) minus G_network times the voltage the
-    feedback network returns to (for a virtual-earth stage that is the + input's voltage).
+    The op amp's output current is Vout G_load plus the feedback resistor's (Vout - V-) G_f, with
+    V- = beta Vout + sum_k a_minus[k] V_k taken from the loop itself (no pin current flows), so the
+    current stays exact when the finite gain leaves V- away from a virtual earth.
     """
     solution = solve_loop(loop, inverse_gain)
     output = opamp_node(solution, solution.output, 0, 1)
     plus = Node(transfers=solution.plus)     # offset and bias act inside the op amp, not on V+
-    extra = {k: -network_conductance * t for k, t in network_return.items()}
-    current = scaled(output, load_conductance(v) + network_conductance, extra)
+    extra = {k: -feedback_conductance * t for k, t in loop.a_minus.items()}
+    factor = load_conductance(v) + feedback_conductance * (1.0 - loop.beta)
+    current = scaled(output, factor, extra)
     return OpAmpNodes(label, output, plus, current), solution
 
 
@@ -42,7 +43,7 @@ class Follower(Block):
     def respond(self, v, s, inverse_gain, drive, differential):
         one = np.ones((1, 1))
         loop = Loop(beta=one, a_plus={"in": one}, z_plus=drive)
-        amp, _ = single_opamp(loop, inverse_gain, np.zeros((1, 1)), {}, v)
+        amp, _ = single_opamp(loop, inverse_gain, np.zeros((1, 1)), v)
         return BlockResponse(output=amp.output, opamps=(amp,))
 
 
@@ -60,8 +61,7 @@ class Noninverting(Block):
         total = rf + rg
         loop = Loop(beta=rg / total, a_plus={"in": np.ones_like(rf)},
                     a_minus={"ref": rf / total}, z_plus=drive, z_minus=rf * rg / total)
-        ref = {"ref": np.ones_like(rf)}
-        amp, _ = single_opamp(loop, inverse_gain, 1.0 / total, ref, v)
+        amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
         return BlockResponse(output=amp.output, opamps=(amp,))
 
 
@@ -80,7 +80,7 @@ class Inverting(Block):
         one = np.ones_like(rf)
         loop = Loop(beta=rin / total, a_minus={"in": rf / total}, a_plus={"ref": one},
                     z_minus=rin * rf / total)
-        amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, {"ref": one}, v)
+        amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
         return BlockResponse(output=amp.output, opamps=(amp,),
                              input_load=virtual_earth_load(v["rin"], v))
 
@@ -105,7 +105,7 @@ class Summing(Block):
         one = np.ones_like(rf)
         loop = Loop(beta=(1.0 / rf) / total, a_minus=minus, a_plus={"ref": one},
                     z_minus=1.0 / total)
-        amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, {"ref": one}, v)
+        amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
         return BlockResponse(output=amp.output, opamps=(amp,),
                              input_load=virtual_earth_load(v["rin"], v))
 

@@ -2,13 +2,16 @@
 
     divider     Vout = Vin * bottom / (top + bottom),    output resistance top || bottom
     rc_lowpass  Vout = Vin / (1 + s r c),                 corner 1 / (2 pi r c)
-(Horowitz & Hill, The Art of Electronics, ch. 1.) The driving resistance adds to top and r.
+(Horowitz & Hill, The Art of Electronics, ch. 1.) The driving resistance adds to top and r; a
+stage `load` from the output to 0 V sits in parallel with bottom (divider) or with c (low-pass:
+Vout = Vin / (1 + r/load + s r c)).
 """
 from __future__ import annotations
 
 import numpy as np
 
-from railroom.engine.blocks.base import Block, BlockResponse, FieldSpec, InputLoad, Node
+from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputLoad, Node,
+                                         load_conductance)
 
 
 class Divider(Block):
@@ -21,7 +24,8 @@ class Divider(Block):
     }
 
     def respond(self, v, s, inverse_gain, drive, differential):
-        top, bottom = v["top"] + drive, v["bottom"]
+        top = v["top"] + drive
+        bottom = 1.0 / (1.0 / v["bottom"] + load_conductance(v))
         ratio = bottom / (top + bottom) * np.ones_like(s)
         return BlockResponse(
             output=Node(transfers={"in": ratio}),
@@ -40,16 +44,17 @@ class RcLowpass(Block):
     }
 
     def respond(self, v, s, inverse_gain, drive, differential):
-        r, c = v["r"] + drive, v["c"]
+        r, c, g_load = v["r"] + drive, v["c"], load_conductance(v)
         # Its input draws at most Vin / r (at frequencies far above the corner): conservative.
         return BlockResponse(
-            output=Node(transfers={"in": 1.0 / (1.0 + s * r * c)}),
-            output_resistance=float(np.max(r)),
+            output=Node(transfers={"in": 1.0 / (1.0 + r * g_load + s * r * c)}),
+            output_resistance=float(np.max(r / (1.0 + r * g_load))),
             input_load=InputLoad(conductance=float(np.max(1.0 / v["r"]))),
         )
 
     def critical_frequencies(self, v):
-        return np.atleast_1d(1.0 / (2 * np.pi * v["r"] * v["c"])).ravel()
+        r = v["r"] * np.ones_like(v["c"])
+        return np.atleast_1d((1.0 + r * load_conductance(v)) / (2 * np.pi * r * v["c"])).ravel()
 
 
 class ConverterInput(Block):
