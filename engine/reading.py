@@ -10,7 +10,7 @@ from dataclasses import dataclass, field
 
 from railroom.engine.model import Problem
 from railroom.engine.toml_lines import key_lines, line_of
-from railroom.engine.values import Quantity, ValueTextError, parse_quantity
+from railroom.engine.values import Quantity, ValueTextError, has_control, parse_quantity, visible
 
 if sys.version_info >= (3, 11):
     import tomllib
@@ -48,7 +48,9 @@ class FieldReader:
         return line_of(self.lines, where)
 
     def problem(self, where: str, message: str, label: str | None = None) -> None:
-        self.problems.append(Problem(self.path, self.line(where), label or where, message))
+        # Keys and echoed values are user text: never let a control character reach a terminal.
+        self.problems.append(Problem(self.path, self.line(where), visible(label or where),
+                                     visible(message, 400)))
 
     def quantity(self, table: dict, where: str, key: str, kind: str, *, default=_MISSING,
                  label: str | None = None) -> Quantity | None:
@@ -115,6 +117,9 @@ class FieldReader:
             return None
         if choices is not None and raw not in choices:
             self.problem(name, f"expected one of {', '.join(choices)}, got {raw!r}")
+            return None
+        if has_control(raw):
+            self.problem(name, f"expected text without control characters, got {raw!r}")
             return None
         return raw
 

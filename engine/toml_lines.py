@@ -25,7 +25,9 @@ def key_lines(text: str) -> dict[str, int]:
     counts: dict[str, int] = {}
     table = ""
     in_multiline = False
-    for number, line in enumerate(text.splitlines(), start=1):
+    # TOML ends a line at LF (or CRLF) only; str.splitlines would also split at NEL, FF, LS...
+    for number, line in enumerate(text.split("\n"), start=1):
+        line = line.removesuffix("\r")
         if in_multiline:
             if line.count('"""') % 2 == 1 or line.count("'''") % 2 == 1:
                 in_multiline = False

@@ -90,7 +90,7 @@ class ValueTextError(ValueError):
         self.got = got
         self.detail = detail
         sentence = f"expected {expected}, got {got}"
-        super().__init__(f"{sentence} ({detail})" if detail else sentence)
+        super().__init__(visible(f"{sentence} ({detail})" if detail else sentence, 400))
 
 
 def _article(kind: str) -> str:
@@ -101,11 +101,27 @@ def _expected(kind: str) -> str:
     return f"{_article(kind)} such as {EXAMPLES[kind]}"
 
 
+# Characters a terminal acts on instead of showing (C0, DEL, C1) and the bidirectional overrides
+# that reorder what is shown (Unicode TR9 explicit formatting characters).
+_CONTROL = re.compile(r"[\x00-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
+
+
+def visible(text: str, limit: int = 80) -> str:
+    """User text made safe to echo in a message: control characters as \\xNN escapes, cut short."""
+    text = _CONTROL.sub(lambda m: f"\\x{ord(m[0]):02x}" if ord(m[0]) < 0x100
+                        else f"\\u{ord(m[0]):04x}", text)
+    return text if len(text) <= limit else text[:limit - 3] + "..."
+
+
+def has_control(text: str) -> bool:
+    return bool(_CONTROL.search(text))
+
+
 def _shown(raw: object) -> str:
     if isinstance(raw, bool):
         return "true" if raw else "false"
     if isinstance(raw, str):
-        return f'"{raw}"' if raw.strip() else "nothing"
+        return f'"{visible(raw, 40)}"' if raw.strip() else "nothing"
     text = repr(raw)
     return text if len(text) <= 40 else text[:37] + "..."
 
