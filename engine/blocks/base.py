@@ -108,3 +108,25 @@ def load_conductance(v: Mapping[str, np.ndarray]) -> np.ndarray:
     """1 / load, zero when the stage has no load field."""
     load = v.get("load")
     return np.zeros((1, 1)) if load is None else 1.0 / load
+
+
+def combined(terms: list[tuple[np.ndarray | float, Node]], extra: Transfers | None = None) -> Node:
+    """sum_k factor_k * node_k (+ extra transfers): a node built from other nodes of the block.
+
+    Offset gains add with their sign (one op amp's offset reaches a node by several paths); bias
+    gains are magnitudes already, so they add as magnitudes (an outside bound).
+    """
+    transfers: Transfers = {}
+    offset = bias = None
+    for factor, node in terms:
+        factor = np.asarray(factor)
+        for k, t in node.transfers.items():
+            transfers[k] = transfers.get(k, 0.0) + factor * t
+        if node.offset_gain is None:
+            continue
+        dc = np.atleast_2d(factor)[..., :1].real if factor.ndim else float(factor.real)
+        offset = (0.0 if offset is None else offset) + dc * node.offset_gain
+        bias = (0.0 if bias is None else bias) + np.abs(dc) * node.bias_gain
+    for k, t in (extra or {}).items():
+        transfers[k] = transfers.get(k, 0.0) + t
+    return Node(transfers=transfers, offset_gain=offset, bias_gain=bias)
