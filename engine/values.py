@@ -181,6 +181,9 @@ def _split_extras(text: str, kind: str, got: str) -> tuple[str, float | None, fl
                 raise ValueTextError(_expected(kind), got,
                                      "the temperature coefficient is written twice")
             tempco = number / 1e6
+            if tempco > TEMPCO_LIMIT:
+                raise ValueTextError(f"{_article(kind)} with a temperature coefficient of at most "
+                                     f"{TEMPCO_LIMIT * 1e6:g}ppm", got)
             if tempco < 0:
                 raise ValueTextError(f"{_article(kind)} with a temperature coefficient of zero or "
                                      "more (a symmetric bound, such as 50ppm)", got)
@@ -243,6 +246,20 @@ def _check_sign(value: float, kind: str, got: str) -> None:
         raise ValueTextError(f"{_article(kind)} greater than zero", got)
     if kind in NON_NEGATIVE_KINDS and value < 0:
         raise ValueTextError(f"{_article(kind)} of zero or more", got)
+    _check_plausible(value, kind, got)
+
+
+# Sizes no circuit on a bench has, far outside any real part (a 1e300 ohm resistor, a 5e-324 F
+# capacitor): refused here, where the message can still name the field, instead of overflowing
+# the circuit arithmetic later. Nonzero magnitudes in SI units, whatever the kind.
+PLAUSIBLE_SIZE = (1e-18, 1e15)
+TEMPCO_LIMIT = 0.1                      # per C: 100000 ppm/C, beyond any component
+
+
+def _check_plausible(value: float, kind: str, got: str) -> None:
+    low, high = PLAUSIBLE_SIZE
+    if value != 0 and not low <= abs(value) <= high:
+        raise ValueTextError(f"{_article(kind)} from {low:g} to {high:g} in size (SI units)", got)
 
 
 def _decimal_exponent(value: float, digits: int) -> tuple[float, int]:
