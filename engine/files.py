@@ -7,13 +7,14 @@ from railroom.engine.blocks import BLOCKS, COMMON_FIELDS
 from railroom.engine.model import (DISTRIBUTIONS, METHODS, Chain, Conditions, InputError, Rails,
                                    Source, Stage)
 from railroom.engine.reading import FieldReader, parse_toml
-from railroom.engine.values import Quantity
+from railroom.engine.values import Quantity, has_control
 
 TOP_KEYS = ("format", "title", "presets", "conditions", "rails", "source", "stage")
 CONDITION_KEYS = ("temperature", "margin", "method", "samples", "seed", "distribution",
                   "default_tolerance")
 SOURCE_KEYS = ("kind", "level", "difference", "amplitude", "band", "impedance")
 DEFAULT_TOLERANCE_KINDS = ("resistance", "capacitance")
+ABSOLUTE_ZERO, HOTTEST = -273.15, 1000.0   # C; absolute zero: SI Brochure (2019) 2.3.1
 
 
 def load_chain(path: str | Path) -> Chain:
@@ -69,6 +70,14 @@ def _read_chain(data: dict, r: FieldReader, path: str) -> Chain | None:
                  path=path)
 
 
+def _tolerance(r: FieldReader, t: dict, w: str, key: str) -> float | None:
+    tolerance = r.number(t, w, key, "fraction", default=0.0)
+    if tolerance is not None and tolerance >= 1:
+        r.problem(f"{w}.{key}", f"expected a tolerance from 0% to below 100%, got {tolerance:.4g}")
+        return None
+    return tolerance
+
+
 def _table(data: dict, key: str, r: FieldReader) -> dict:
     value = data.get(key, {})
     if not isinstance(value, dict):
@@ -81,13 +90,19 @@ def _read_conditions(t: dict, r: FieldReader) -> Conditions | None:
     w = "conditions"
     r.unknown_keys(t, w, CONDITION_KEYS, "[conditions]")
     default = Conditions()
-    tolerance = r.number(t, w, "default_tolerance", "fraction", default=0.0)
+    tolerance = _tolerance(r, t, w, "default_tolerance")
     margin = r.number(t, w, "margin", "voltage", default=0.0)
     if margin is not None and margin < 0:
         r.problem(f"{w}.margin", f"expected a margin of 0 V or more, got {margin:g}")
+    temperature = r.span(t, w, "temperature", "temperature", default.temperature,
+                         ordered="coldest, hottest")
+    if temperature is not None and not (ABSOLUTE_ZERO <= temperature[0]
+                                        and temperature[1] <= HOTTEST):
+        r.problem(f"{w}.temperature", f"expected temperatures from {ABSOLUTE_ZERO:g} to "
+                                      f"{HOTTEST:g} C, got [{temperature[0]:g}, {temperature[1]:g}]")
+        temperature = None
     return Conditions(
-        temperature=r.span(t, w, "temperature", "temperature", default.temperature,
-                           ordered="coldest, hottest") or default.temperature,
+        temperature=temperature or default.temperature,
         margin=max(margin or 0.0, 0.0),
         method=r.text_field(t, w, "method", default="corners", choices=METHODS) or "corners",
         samples=r.integer(t, w, "samples", 10000, 1, 10_000_000) or 10000,
@@ -106,13 +121,16 @@ def _read_rails(raw, r: FieldReader) -> dict[str, Rails]:
     rails = {}
     for name, t in raw.items():
         w = f"rails.{name}"
+        if has_control(name):
+            r.problem(w, "expected a rails name without control characters")
+            continue
         if not isinstance(t, dict):
             r.problem(w, "expected a table with positive, negative and tolerance")
             continue
         r.unknown_keys(t, w, ("positive", "negative", "tolerance"), f"[{w}]")
         pos = r.number(t, w, "positive", "voltage")
         neg = r.number(t, w, "negative", "voltage", default=0.0)
-        tol = r.number(t, w, "tolerance", "fraction", default=0.0)
+        tol = _tolerance(r, t, w, "tolerance")
         if pos is None or neg is None or tol is None:
             continue
         if pos <= neg:
@@ -153,8 +171,21 @@ def _read_stages(raw, r: FieldReader, rails: dict, conditions: Conditions | None
         r.problem("stage", "missing; expected one or more [[stage]] tables")
         return []
     default_tolerance = conditions.default_tolerance if conditions else 0.0
-    return [s for i, t in enumerate(raw, start=1)
-            if (s := _read_stage(t, i, r, rails, default_tolerance)) is not None]
+    stages = [s for i, t in enumerate(raw, start=1)
+              if (s := _read_stage(t, i, r, rails, default_tolerance)) is not None]
+    rise = conditions.worst_temperature_rise if conditions else 0.0
+    for index, stage in enumerate(stages, start=1):
+        _drift_through_zero(stage, index, rise, r)
+    return stages
+
+
+def _drift_through_zero(stage: Stage, index: int, rise: float, r: FieldReader) -> None:
+    """A temperature coefficient that takes a part's value to zero or below over the temperature
+    range (plan.spread: value * (1 - tempco * rise)) has no physical meaning."""
+    for key, q in (("load", stage.load), *stage.values.items()):
+        if isinstance(q, Quantity) and q.tempco and q.tempco * rise >= 1:
+            r.problem(f"stage.{index}.{key}", f"the temperature coefficient ({q.tempco * 1e6:g}ppm) "
+                      f"over {rise:g} C from 25 C takes the value through zero")
 
 
 def _read_stage(t: dict, index: int, r: FieldReader, rails: dict, default_tol: float) -> Stage | None:
