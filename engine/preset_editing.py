@@ -123,28 +123,34 @@ def _table(document, part_id: str):
     return parts[part_id]
 
 
-def part_block(text: str, part_id: str) -> tuple[int, int]:
-    """Line range [start, end) of `[part.ID]`: its header to its last key, comments between kept.
+def part_block(text: str, part_id: str) -> tuple[int, int, int]:
+    """Lines of `[part.ID]` as (first, header, end): its own comment, its header, up to its last key.
 
-    Blank and comment lines just before the next header are left out: they introduce the next part.
+    Comment lines right above the header belong to the part (unless they open the file: a file's
+    heading stays); blank and comment lines just before the next header introduce the next part.
     """
     lines = text.splitlines(keepends=True)
-    start = key_lines(text).get(f"part.{part_id}")
-    if start is None or not _HEADER.match(lines[start - 1]):
+    found = key_lines(text).get(f"part.{part_id}")
+    if found is None or not _HEADER.match(lines[found - 1]):
         raise PresetEditError(f"no [part.{part_id}] table in this file")
-    end = start
+    header = first = found - 1
+    while first > 0 and lines[first - 1].lstrip().startswith("#"):
+        first -= 1
+    if first == 0:
+        first = header
+    end = found
     while end < len(lines) and not _HEADER.match(lines[end]):
         end += 1
-    while end > start and (not lines[end - 1].strip() or lines[end - 1].lstrip().startswith("#")):
+    while end > found and (not lines[end - 1].strip() or lines[end - 1].lstrip().startswith("#")):
         end -= 1
-    return start - 1, end
+    return first, header, end
 
 
 def copy_part(source_text: str, part_id: str, target_text: str, new_id: str) -> str:
     """Append a copy of a part, its comments included, to the end of another (or the same) file."""
-    start, end = part_block(source_text, part_id)
-    block = source_text.splitlines(keepends=True)[start:end]
-    block[0] = _renamed_header(block[0], part_id, new_id)
+    first, header, end = part_block(source_text, part_id)
+    block = source_text.splitlines(keepends=True)[first:end]
+    block[header - first] = _renamed_header(block[header - first], part_id, new_id)
     if block[-1] and not block[-1].endswith("\n"):
         block[-1] += "\n"
     if target_text and not target_text.endswith("\n"):
@@ -154,17 +160,17 @@ def copy_part(source_text: str, part_id: str, target_text: str, new_id: str) -> 
 
 
 def rename_part(text: str, part_id: str, new_id: str) -> str:
-    start, _ = part_block(text, part_id)
+    _, header, _ = part_block(text, part_id)
     lines = text.splitlines(keepends=True)
-    lines[start] = _renamed_header(lines[start], part_id, new_id)
+    lines[header] = _renamed_header(lines[header], part_id, new_id)
     return "".join(lines)
 
 
 def delete_part(text: str, part_id: str) -> str:
-    start, end = part_block(text, part_id)
+    start, _, end = part_block(text, part_id)
     lines = text.splitlines(keepends=True)
-    while end < len(lines) and not lines[end].strip() and start > 0 and not lines[start - 1].strip():
-        end += 1  # drop one of the two blank lines that would otherwise meet
+    while end < len(lines) and not lines[end].strip() and (start == 0 or not lines[start - 1].strip()):
+        end += 1  # drop the blank lines that would otherwise meet
     return "".join(lines[:start] + lines[end:])
 
 
@@ -225,3 +231,32 @@ def _part_ids(text: str) -> set[str]:
         return set(tomlkit.parse(text).get("part", {}))
     except TOMLKitError:
         return set()
+
+
+class EditSession:
+    """One part opened in a form: where it is saved, and the values the user started from.
+
+    Saving applies only the fields the user changed since opening to the file's text, so when the
+    file changed on disk and the user chose to keep editing, the other change is kept as well.
+    """
+
+    def __init__(self, origin: str | Path, part_id: str, writable: str | Path):
+        self.origin, self.part_id, self.writable = Path(origin), part_id, Path(writable)
+        self.reload()
+
+    def reload(self) -> dict[str, Raw]:
+        """Read the part afresh from disk, dropping the user's unsaved values."""
+        self.target, self.text = editing_target(self.origin, self.part_id, self.writable)
+        self.started = raw_fields(self.text, self.part_id)
+        return dict(self.started)
+
+    def keep_editing(self) -> None:
+        """Adopt what is on disk now under the user's edit (their starting values stay the baseline)."""
+        self.target, self.text = editing_target(self.origin, self.part_id, self.writable)
+
+    def save(self, values: dict[str, Raw | None]) -> Path:
+        changes = {key: raw for key, raw in values.items() if self.started.get(key) != raw}
+        self.target = save_preset_text(self.target, set_fields(self.text, self.part_id, changes))
+        self.origin, self.text = self.target.path, self.target.text
+        self.started = raw_fields(self.text, self.part_id)
+        return self.target.path

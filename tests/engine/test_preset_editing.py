@@ -96,12 +96,16 @@ def test_delete_keeps_the_next_parts_comment_and_everything_else():
     assert "# single supply sensor front end\n[part.lab-sensor]" in new
     assert "lab-audio" not in new and new.endswith(LAB.split("# single supply")[1])
     assert [p.id for p in parts_from_text(new, "x")[0]] == ["lab-sensor"]
+    # the comment right above a part goes with it; the file's heading stays
+    second = delete_part(LAB, "lab-sensor")
+    assert "single supply" not in second and second == LAB.split("\n# single supply")[0] + "\n"
 
 
 def test_copy_carries_comments_and_reads_back():
     new = copy_part(LAB, "lab-sensor", LAB, "lab-sensor-b")
     assert new.startswith(LAB)
-    assert new[len(LAB):].startswith('\n[part.lab-sensor-b]\ndescription = "sensor rro"\n')
+    assert new[len(LAB):].startswith(
+        '\n# single supply sensor front end\n[part.lab-sensor-b]\ndescription = "sensor rro"\n')
     assert "odd spacing on purpose" in new[len(LAB):]
     assert [p.id for p in parts_from_text(new, "x")[0]] == ["lab-audio", "lab-sensor", "lab-sensor-b"]
     assert copy_part(LAB, "lab-audio", "", "x").startswith("[part.x]   # the usual audio part\n")

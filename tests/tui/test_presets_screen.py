@@ -1,0 +1,200 @@
+"""The presets screen in a tiny app: filter, edit, bad value, save, delete with confirmation."""
+from __future__ import annotations
+
+import asyncio
+import functools
+from pathlib import Path
+
+import pytest
+from textual.app import App
+from textual.widgets import DataTable, Input, Static
+
+from railroom.engine.presets import search_order, shipped_folder, user_folder
+from railroom.tui.screens.presets import ChangedOnDiskDialog, ConfirmDialog, PresetsScreen
+from railroom.tui.widgets.preset_form import PresetForm
+
+LAB = """\
+# our lab's parts, derated by house rule
+[part.lab-audio]   # the usual audio part
+description = "audio dual"
+supply = ["10", "36"]            # total span
+supply_abs_max = "40"
+output_headroom = ["1.5", "1.5"]
+input_headroom = ["2", "2"]
+gbw = "3M"                       # derated from 4M
+slew = "1V/us"
+open_loop_gain = "100dB"
+offset = "3m"
+output_current = "20m"
+
+# spare
+[part.lab-spare]
+description = "spare"
+supply = ["4", "30"]
+supply_abs_max = "32"
+output_headroom = ["1", "1"]
+input_headroom = ["1", "1"]
+gbw = "1M"
+slew = "0.5V/us"
+open_loop_gain = "100dB"
+offset = "1m"
+output_current = "10m"
+"""
+
+
+def synchronous(test):
+    """Run an async Pilot test with asyncio (no async pytest plugin is needed)."""
+    @functools.wraps(test)
+    def run(*args, **kwargs):
+        asyncio.run(test(*args, **kwargs))
+    return run
+
+
+class PresetsApp(App):
+    def __init__(self) -> None:
+        super().__init__()
+        self.callbacks = 0
+        self.messages = 0
+
+    def on_mount(self) -> None:
+        self.push_screen(PresetsScreen(search_order(), user_folder(), on_change=self.count))
+
+    def count(self) -> None:
+        self.callbacks += 1
+
+    def on_presets_changed(self, _message) -> None:
+        self.messages += 1
+
+
+@pytest.fixture
+def lab() -> Path:
+    path = user_folder() / "lab.toml"  # user_folder(): an empty folder per test (tests/conftest.py)
+    path.write_text(LAB, encoding="utf-8")
+    return path
+
+
+def table(app: App) -> DataTable:
+    return app.screen.query_one("#preset-table", DataTable)
+
+
+def shown(app: App) -> list[str]:
+    grid = table(app)
+    return [str(grid.coordinate_to_cell_key((row, 0)).row_key.value) for row in range(grid.row_count)]
+
+
+async def open_form(pilot, words: str) -> PresetForm:
+    await pilot.press(*words, "enter", "e")
+    await pilot.pause()
+    assert isinstance(pilot.app.screen, PresetForm)
+    return pilot.app.screen
+
+
+@synchronous
+async def test_typing_filters_the_list(lab):
+    async with PresetsApp().run_test(size=(120, 40)) as pilot:
+        await pilot.pause()
+        assert "generic-rro-5v" in shown(pilot.app) and "lab-audio" in shown(pilot.app)
+        await pilot.press(*"rro")
+        await pilot.pause()
+        assert shown(pilot.app) == ["generic-rro-5v"]
+        await pilot.press(*" zzz")
+        await pilot.pause()
+        assert shown(pilot.app) == []
+
+
+@synchronous
+async def test_edit_one_field_saves_only_that_line_and_reruns_the_chain(lab):
+    async with PresetsApp().run_test(size=(120, 40)) as pilot:
+        await pilot.pause()
+        form = await open_form(pilot, "lab-audio")
+        form.query_one("#field-gbw", Input).value = "2.5M"
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        assert not isinstance(pilot.app.screen, PresetForm)
+        text = lab.read_text(encoding="utf-8")
+        assert text == LAB.replace('gbw = "3M"', 'gbw = "2.5M"')
+        assert (lab.parent / "lab.toml.bak").read_text(encoding="utf-8") == LAB
+        assert pilot.app.callbacks == 1 and pilot.app.messages == 1
+        assert "2.5 MHz" in str(pilot.app.screen.query_one("#preset-view", Static).render())
+
+
+@synchronous
+async def test_a_bad_value_is_named_and_nothing_is_written(lab):
+    async with PresetsApp().run_test(size=(120, 40)) as pilot:
+        await pilot.pause()
+        form = await open_form(pilot, "lab-audio")
+        form.query_one("#field-slew", Input).value = "fast"
+        await pilot.pause()
+        assert "slew" in str(form.query_one("#error-slew", Static).render())
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        assert pilot.app.screen is form
+        assert "slew:" in str(form.query_one("#form-problems", Static).render())
+        # values each box accepts but the part does not: 6 V + 5 V of output headroom leaves no swing
+        # at the 10 V smallest supply (sanity check, run by the loader before anything is written)
+        form.query_one("#field-slew", Input).value = "1V/us"
+        form.query_one("#field-output_headroom-0", Input).value = "6"
+        form.query_one("#field-output_headroom-1", Input).value = "5"
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        assert pilot.app.screen is form
+        problems = str(form.query_one("#form-problems", Static).render())
+        assert problems.startswith("line 6: part.lab-audio.output_headroom: upper plus lower headroom")
+        assert lab.read_text(encoding="utf-8") == LAB and pilot.app.callbacks == 0
+
+
+@synchronous
+async def test_editing_a_shipped_preset_saves_a_copy_in_the_users_folder(lab):
+    shipped = shipped_folder() / "generic.toml"
+    before = shipped.read_bytes()
+    async with PresetsApp().run_test(size=(120, 40)) as pilot:
+        await pilot.pause()
+        form = await open_form(pilot, "rro")
+        form.query_one("#field-gbw", Input).value = "2M"
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        assert shipped.read_bytes() == before
+        copy = user_folder() / "generic.toml"
+        assert '[part.generic-rro-5v]' in copy.read_text(encoding="utf-8")
+        assert 'gbw = "2M"' in copy.read_text(encoding="utf-8")
+        assert shown(pilot.app) == ["generic-rro-5v"]
+        assert "yours (overrides)" in str(table(pilot.app).get_row("generic-rro-5v")[1])
+
+
+@synchronous
+async def test_delete_asks_first(lab):
+    async with PresetsApp().run_test(size=(120, 40)) as pilot:
+        await pilot.pause()
+        await pilot.press(*"lab-spare", "enter", "d")
+        await pilot.pause()
+        assert isinstance(pilot.app.screen, ConfirmDialog)
+        await pilot.click("#confirm-no")
+        await pilot.pause()
+        assert lab.read_text(encoding="utf-8") == LAB
+        await pilot.press("d")
+        await pilot.pause()
+        await pilot.click("#confirm-yes")
+        await pilot.pause()
+        assert lab.read_text(encoding="utf-8") == LAB.split("\n# spare")[0] + "\n"
+        assert shown(pilot.app) == [] and pilot.app.callbacks == 1
+
+
+@synchronous
+async def test_file_changed_on_disk_is_never_silently_overwritten(lab):
+    async with PresetsApp().run_test(size=(120, 40)) as pilot:
+        await pilot.pause()
+        form = await open_form(pilot, "lab-audio")
+        form.query_one("#field-gbw", Input).value = "2M"
+        elsewhere = LAB.replace('description = "spare"', 'description = "spare, edited elsewhere"')
+        lab.write_text(elsewhere, encoding="utf-8")
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        assert isinstance(pilot.app.screen, ChangedOnDiskDialog)
+        assert lab.read_text(encoding="utf-8") == elsewhere
+        await pilot.click("#changed-keep")
+        await pilot.pause()
+        assert pilot.app.screen is form
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        text = lab.read_text(encoding="utf-8")
+        assert "spare, edited elsewhere" in text and 'gbw = "2M"' in text

@@ -1,0 +1,177 @@
+"""The edit form of one part preset: a field per parameter, its unit beside it, read by the engine.
+
+Each box is checked as it is typed with the same value parser the files go through; Save (ctrl+s)
+hands the values to an `EditSession`, which refuses anything the preset loader would refuse and
+notices a file changed on disk in the meantime. The form stays open until the save succeeds.
+"""
+from __future__ import annotations
+
+from textual import on
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, VerticalScroll
+from textual.screen import ModalScreen
+from textual.validation import ValidationResult, Validator
+from textual.widgets import Button, Input, Label, Static
+from rich.text import Text
+
+from railroom.engine.model import InputError
+from railroom.engine.preset_editing import ChangedOnDisk, EditSession, PresetEditError, Raw
+from railroom.engine.presets import PART_FIELDS, UNITS
+from railroom.engine.values import ValueTextError, parse_quantity
+
+PAIR_NAMES = {"supply": ("low", "high"), "output_headroom": ("upper", "lower"),
+              "input_headroom": ("upper", "lower")}
+
+
+class QuantityText(Validator):
+    """A value of SPEC section 1 of one kind ("0.5V/us" for a slew rate), read by the engine's parser."""
+
+    def __init__(self, kind: str):
+        super().__init__()
+        self.kind = kind
+
+    def validate(self, value: str) -> ValidationResult:
+        if not value.strip():
+            return self.success()
+        try:
+            parse_quantity(value.strip(), self.kind)
+        except ValueTextError as err:
+            return self.failure(str(err))
+        return self.success()
+
+
+class PresetForm(ModalScreen[bool]):
+    """Dismissed with True once saved, False when the user leaves without saving."""
+
+    DEFAULT_CSS = """
+    PresetForm { align: center middle; }
+    PresetForm > #form-frame { width: 96; max-width: 100%; height: 90%; border: round $accent;
+                               background: $surface; padding: 0 1; }
+    PresetForm .form-row { height: auto; }
+    PresetForm .form-key { width: 18; padding-top: 1; }
+    PresetForm .form-unit { width: 6; padding-top: 1; }
+    PresetForm .form-pair-name { width: 6; padding-top: 1; color: $text-muted; }
+    PresetForm Input { width: 1fr; }
+    PresetForm .form-error { color: $error; height: auto; padding-left: 18; }
+    PresetForm #form-problems { color: $error; height: auto; }
+    PresetForm #form-buttons { height: auto; align-horizontal: right; }
+    """
+    BINDINGS = [Binding("ctrl+s", "save", "Save", id="preset-form.save", tooltip="Save this preset"),
+                Binding("ctrl+q", "leave", "Close", id="preset-form.close",
+                        tooltip="Close without saving")]
+
+    def __init__(self, session: EditSession, title: str = ""):
+        super().__init__()
+        self.session = session
+        self.title_text = title or f"Edit {session.part_id}"
+
+    def compose(self) -> ComposeResult:
+        with VerticalScroll(id="form-frame"):
+            yield Label(Text(self.title_text, style="bold"), id="form-title")
+            yield Static(Text(f"saved to {self.session.target.path}"), id="form-target")
+            for key, (kind, pair, required) in PART_FIELDS.items():
+                yield from self._row(key, kind, pair, required)
+            yield Static("", id="form-problems")
+            with Horizontal(id="form-buttons"):
+                yield Button("Save", variant="primary", id="form-save")
+                yield Button("Close", id="form-close")
+
+    def _row(self, key: str, kind: str, pair: bool, required: bool) -> ComposeResult:
+        validators = [] if kind == "text" else [QuantityText(kind)]
+        label = key + ("" if required else " (optional)")
+        with Horizontal(classes="form-row"):
+            yield Label(label, classes="form-key")
+            for side, name in enumerate(PAIR_NAMES.get(key, ("",))):
+                if pair:
+                    yield Label(name, classes="form-pair-name")
+                yield Input(id=f"field-{key}-{side}" if pair else f"field-{key}",
+                            validators=validators, validate_on=["changed", "submitted"])
+            yield Label(UNITS.get(key, ""), classes="form-unit")
+        yield Static("", id=f"error-{key}", classes="form-error")
+
+    def on_mount(self) -> None:
+        self.fill(self.session.started)
+
+    def fill(self, raw: dict[str, Raw]) -> None:
+        for key, (_, pair, _) in PART_FIELDS.items():
+            value = raw.get(key, ("", "") if pair else "")
+            for box, text in self._boxes(key, value):
+                box.value = text
+            self.query_one(f"#error-{key}", Static).update("")
+        self.query_one("#form-problems", Static).update("")
+
+    def _boxes(self, key: str, value) -> list[tuple[Input, str]]:
+        if PART_FIELDS[key][1]:
+            pair = value if isinstance(value, tuple) else ("", "")
+            return [(self.query_one(f"#field-{key}-{side}", Input), pair[side]) for side in (0, 1)]
+        return [(self.query_one(f"#field-{key}", Input), value if isinstance(value, str) else "")]
+
+    @on(Input.Changed)
+    def show_field_error(self, event: Input.Changed) -> None:
+        key = (event.input.id or "").removeprefix("field-").rsplit("-", 1)[0]
+        if key not in PART_FIELDS:
+            key = (event.input.id or "").removeprefix("field-")
+        if key in PART_FIELDS:
+            result = event.validation_result
+            message = "" if result is None or result.is_valid else " ".join(result.failure_descriptions)
+            self.query_one(f"#error-{key}", Static).update(Text(message))
+
+    def values(self) -> tuple[dict[str, Raw | None], list[str]]:
+        """The form's values as the file would hold them, and what is wrong with them."""
+        found: dict[str, Raw | None] = {}
+        wrong = []
+        for key, (kind, pair, required) in PART_FIELDS.items():
+            texts = [box.value.strip() for box, _ in self._boxes(key, ("", "") if pair else "")]
+            if kind != "text":
+                for box, _ in self._boxes(key, ""):
+                    result = box.validate(box.value)
+                    if result is not None and not result.is_valid:
+                        wrong.append(f"{key}: {' '.join(result.failure_descriptions)}")
+            if not any(texts):
+                found[key] = None
+                if required:
+                    wrong.append(f"{key}: required")
+            elif pair and not all(texts):
+                wrong.append(f"{key}: needs both values")
+            else:
+                found[key] = (texts[0], texts[1]) if pair else texts[0]
+        return found, wrong
+
+    @on(Button.Pressed, "#form-save")
+    def action_save(self) -> None:
+        values, wrong = self.values()
+        if wrong:
+            self.show_problems(wrong)
+            return
+        try:
+            path = self.session.save(values)
+        except ChangedOnDisk as err:
+            from railroom.tui.screens.presets import ChangedOnDiskDialog
+            self.app.push_screen(ChangedOnDiskDialog(err.path), self.resolve_change)
+            return
+        except InputError as err:
+            self.show_problems([f"line {p.line}: {p.field}: {p.message}" if p.line else
+                                f"{p.field}: {p.message}" for p in err.problems])
+            return
+        except (PresetEditError, OSError) as err:
+            self.show_problems([str(err)])
+            return
+        self.app.notify(f"Saved {self.session.part_id} to {path} (previous version kept as .bak)")
+        self.dismiss(True)
+
+    def resolve_change(self, choice: str | None) -> None:
+        if choice == "reload":
+            self.fill(self.session.reload())
+            self.app.notify("Reloaded from disk; your unsaved values were dropped.")
+        else:
+            self.session.keep_editing()
+            self.show_problems(["The file changed on disk. Your values are kept; Save applies only "
+                                "the fields you changed to the file as it is now."])
+
+    def show_problems(self, lines: list[str]) -> None:
+        self.query_one("#form-problems", Static).update(Text("\n".join(lines)))
+
+    @on(Button.Pressed, "#form-close")
+    def action_leave(self) -> None:
+        self.dismiss(False)
