@@ -141,6 +141,9 @@ async def test_a_bad_value_is_named_and_nothing_is_written(lab):
         problems = str(form.query_one("#form-problems", Static).render())
         assert problems.startswith("line 6: part.lab-audio.output_headroom: upper plus lower headroom")
         assert lab.read_text(encoding="utf-8") == LAB and pilot.app.callbacks == 0
+        await pilot.press("escape")  # Esc never drops typed values
+        await pilot.pause()
+        assert pilot.app.screen is form
 
 
 @synchronous
@@ -198,3 +201,33 @@ async def test_file_changed_on_disk_is_never_silently_overwritten(lab):
         await pilot.pause()
         text = lab.read_text(encoding="utf-8")
         assert "spare, edited elsewhere" in text and 'gbw = "2M"' in text
+
+
+@synchronous
+async def test_new_from_copy_then_rename(lab):
+    async with PresetsApp().run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        await pilot.press(*"rro", "down", "c")
+        await pilot.pause()
+        name_box = pilot.app.screen.query_one("#name-input", Input)
+        assert name_box.value == "generic-rro-5v-copy"
+        name_box.value = "bad name"
+        await pilot.press("enter")
+        await pilot.pause()
+        assert "letters" in str(pilot.app.screen.query_one("#name-error", Static).render())
+        name_box.value = "lab-rro"
+        await pilot.press("enter")
+        await pilot.pause()
+        assert isinstance(pilot.app.screen, PresetForm)  # the new preset opens for editing
+        await pilot.press("escape")  # nothing typed: Esc closes
+        await pilot.pause()
+        copy = user_folder() / "generic.toml"
+        assert "[part.lab-rro]" in copy.read_text(encoding="utf-8")
+        await pilot.press("escape", *"lab-rro", "enter", "r")
+        await pilot.pause()
+        pilot.app.screen.query_one("#name-input", Input).value = "lab-rro-b"
+        await pilot.press("enter")
+        await pilot.pause()
+        text = copy.read_text(encoding="utf-8")
+        assert "[part.lab-rro-b]" in text and "[part.lab-rro]" not in text
+        assert pilot.app.callbacks == 2

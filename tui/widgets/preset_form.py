@@ -58,8 +58,8 @@ class PresetForm(ModalScreen[bool]):
     PresetForm #form-buttons { height: auto; align-horizontal: right; }
     """
     BINDINGS = [Binding("ctrl+s", "save", "Save", id="preset-form.save", tooltip="Save this preset"),
-                Binding("ctrl+q", "leave", "Close", id="preset-form.close",
-                        tooltip="Close without saving")]
+                Binding("escape", "leave_if_unchanged", "Close", id="preset-form.close",
+                        tooltip="Close (unsaved values are never dropped by Esc alone)")]
 
     def __init__(self, session: EditSession, title: str = ""):
         super().__init__()
@@ -175,3 +175,11 @@ class PresetForm(ModalScreen[bool]):
     @on(Button.Pressed, "#form-close")
     def action_leave(self) -> None:
         self.dismiss(False)
+
+    def action_leave_if_unchanged(self) -> None:
+        # Esc is harmless: a slow link can split an escape sequence, so it never drops typed values.
+        values, wrong = self.values()
+        if wrong or any(self.session.started.get(key) != raw for key, raw in values.items()):
+            self.show_problems(["Unsaved values: ctrl+s saves them, the Close button drops them."])
+        else:
+            self.dismiss(False)
