@@ -172,7 +172,7 @@ class PresetsScreen(Screen):
             where = "shipped" if is_shipped(origin) else "yours"
             if part.overrides:
                 where += " (overrides)"
-            table.add_row(Text(part_id), where, Text(str(origin)), key=part_id)
+            table.add_row(Text(part_id), where, Text(f"{origin.parent.name}/{origin.name}"), key=part_id)
         if select is not None and select in self.shown_ids():
             table.move_cursor(row=table.get_row_index(select))
         self.show_part(self.current_id())

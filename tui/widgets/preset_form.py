@@ -49,11 +49,12 @@ class PresetForm(ModalScreen[bool]):
     PresetForm > #form-frame { width: 96; max-width: 100%; height: 90%; border: round $accent;
                                background: $surface; padding: 0 1; }
     PresetForm .form-row { height: auto; }
-    PresetForm .form-key { width: 18; padding-top: 1; }
-    PresetForm .form-unit { width: 6; padding-top: 1; }
-    PresetForm .form-pair-name { width: 6; padding-top: 1; color: $text-muted; }
+    PresetForm .form-row { margin-top: 1; }
+    PresetForm .form-key { width: 30; }
+    PresetForm .form-unit { width: 6; padding-left: 1; }
+    PresetForm .form-pair-name { width: 7; padding-left: 1; color: $text-muted; }
     PresetForm Input { width: 1fr; }
-    PresetForm .form-error { color: $error; height: auto; padding-left: 18; }
+    PresetForm .form-error { color: $error; height: auto; padding-left: 30; }
     PresetForm #form-problems { color: $error; height: auto; }
     PresetForm #form-buttons { height: auto; align-horizontal: right; }
     """
@@ -86,7 +87,7 @@ class PresetForm(ModalScreen[bool]):
                 if pair:
                     yield Label(name, classes="form-pair-name")
                 yield Input(id=f"field-{key}-{side}" if pair else f"field-{key}",
-                            validators=validators, validate_on=["changed", "submitted"])
+                            validators=validators, validate_on=["changed", "submitted"], compact=True)
             yield Label(UNITS.get(key, ""), classes="form-unit")
         yield Static("", id=f"error-{key}", classes="form-error")
 
@@ -98,7 +99,7 @@ class PresetForm(ModalScreen[bool]):
             value = raw.get(key, ("", "") if pair else "")
             for box, text in self._boxes(key, value):
                 box.value = text
-            self.query_one(f"#error-{key}", Static).update("")
+            self.query_one(f"#error-{key}", Static).display = False
         self.query_one("#form-problems", Static).update("")
 
     def _boxes(self, key: str, value) -> list[tuple[Input, str]]:
@@ -115,7 +116,9 @@ class PresetForm(ModalScreen[bool]):
         if key in PART_FIELDS:
             result = event.validation_result
             message = "" if result is None or result.is_valid else " ".join(result.failure_descriptions)
-            self.query_one(f"#error-{key}", Static).update(Text(message))
+            error = self.query_one(f"#error-{key}", Static)
+            error.update(Text(message))
+            error.display = bool(message)
 
     def values(self) -> tuple[dict[str, Raw | None], list[str]]:
         """The form's values as the file would hold them, and what is wrong with them."""
