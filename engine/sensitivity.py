@@ -1,0 +1,89 @@
+"""Which toleranced quantity moves a stage's limiting margin most: linearisation about nominal.
+
+Every toleranced quantity is a column d of the draw walk (engine/draw_walk.py); the margins are
+evaluated at nominal and at d_i = +/-h for each column in one vectorised walk, and the central
+difference (m(+h) - m(-h)) / 2h is dm/dd_i: the change of the margin per full tolerance.
+
+    worst case:  share_i = |dm/dd_i| / sum_j |dm/dd_j|          (linear extreme value analysis)
+    statistical: share_i = (dm/dd_i s)^2 / sum_j (dm/dd_j s)^2  (root-sum-square, ECSS-Q-HB-30-01A)
+
+with s = 1/sqrt(3) for a uniform tolerance and 1/3 for a normal one (tolerance = 3 sigma). A
+field's tolerance and temperature coefficient, and an op amp's offset and its drift, are one
+quantity each (the thing a designer changes).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from railroom.engine import draw_walk as dw
+from railroom.engine.results import Sensitivity
+
+STEP = 1e-3                # h, in units of the full tolerance
+SHOWN = 5                  # quantities listed per stage
+SMALLEST_SHARE = 0.01
+
+
+@dataclass(frozen=True)
+class Linearised:
+    layout: dw.Layout
+    draws: list[dw.StageDraws]      # row 0 nominal, rows 2i+1 / 2i+2 at d_i = +h / -h
+
+    def nominal(self, x: np.ndarray) -> float:
+        return float(x[0])
+
+    def gradient(self, x: np.ndarray) -> np.ndarray:
+        return (x[1::2] - x[2::2]) / (2 * STEP)
+
+
+def linearise(layout: dw.Layout) -> Linearised:
+    """Margins at nominal and at +/-h on each column; drifts over the worst temperature rise."""
+    K = len(layout.variables)
+    D = np.zeros((2 * K + 1, K))
+    D[1 + 2 * np.arange(K), np.arange(K)] = STEP
+    D[2 + 2 * np.arange(K), np.arange(K)] = -STEP
+    rise = layout.chain.conditions.worst_temperature_rise
+    return Linearised(layout, dw.walk_draws(layout, D, np.full(2 * K + 1, rise)))
+
+
+def spread_per_unit(distribution: str) -> float:
+    """Standard deviation of d: uniform on [-1, 1] -> 1/sqrt(3); normal with 1 = 3 sigma -> 1/3."""
+    return 1.0 / 3.0 if distribution == "normal" else 1.0 / np.sqrt(3.0)
+
+
+def quantity_name(var: dw.Variable, stage: int) -> str:
+    return var.quantity if var.stage == stage else var.label
+
+
+def ranking(lin: Linearised, stage: int, check: str | None, statistical: bool
+            ) -> tuple[Sensitivity, ...]:
+    """The quantities that move `check` of plan index `stage` most, largest share first."""
+    margins = lin.draws[stage - 1].margins
+    if check is None or check not in margins:
+        return ()
+    grad = lin.gradient(margins[check])
+    weight = grad ** 2 if statistical else np.abs(grad)
+    total = float(weight.sum())
+    if total <= 0 or not np.isfinite(total):
+        return ()
+    shares: dict[str, float] = {}
+    for var, w in zip(lin.layout.variables, weight):
+        name = quantity_name(var, stage)
+        shares[name] = shares.get(name, 0.0) + float(w) / total
+    ordered = sorted(shares.items(), key=lambda item: -item[1])
+    return tuple(Sensitivity(name, share) for name, share in ordered[:SHOWN]
+                 if share >= SMALLEST_SHARE)
+
+
+def direction(lin: Linearised, stage: int, check: str, field: str) -> float:
+    """d margin / d value of the stage's own field, per full tolerance (sign says which way helps)."""
+    margins = lin.draws[stage - 1].margins
+    if check not in margins:
+        return 0.0
+    grad = lin.gradient(margins[check])
+    total = 0.0
+    for var, g in zip(lin.layout.variables, grad):
+        if var.stage == stage and var.quantity == field and var.kind == "tolerance":
+            total += float(g)
+    return total
