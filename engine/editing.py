@@ -1,0 +1,251 @@
+"""Edits of a chain file's text that keep the user's comments and layout (tomlkit), checked by the
+one chain loader (files.chain_from_text) before anything is kept.
+
+Every edit is a pure function: chain text in, edited chain text out. The caller validates the result
+with `checked(text, path)` and keeps its old text when that raises InputError.
+
+    text = set_stage_field(text, 2, "rf", "200k 0.1%")
+    chain = checked(text, path)              # raises InputError with located problems
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import tomlkit
+from tomlkit.items import AoT, Comment, Table, Whitespace
+
+from railroom.engine.blocks import BLOCKS
+from railroom.engine.files import chain_from_text
+from railroom.engine.model import DISTRIBUTIONS, METHODS, Chain
+from railroom.engine.values import ValueTextError, parse_quantity
+
+
+@dataclass(frozen=True)
+class FieldShape:
+    """How a field is written: kind of values.py (or "text"), and its form in TOML."""
+
+    kind: str
+    form: str = "value"                # value | pair | choice | integer | flag | text
+    choices: tuple[str, ...] = ()
+    help: str = ""
+
+
+SOURCE_FIELDS = {
+    "kind": FieldShape("text", "choice", ("single", "differential"), "single or differential"),
+    "level": FieldShape("voltage", "pair", help="DC level range (common mode if differential), V"),
+    "difference": FieldShape("voltage", "pair", help="differential only: DC difference range, V"),
+    "amplitude": FieldShape("voltage", help="peak of the AC part, V"),
+    "band": FieldShape("frequency", "pair", help="lowest, highest frequency, Hz"),
+    "impedance": FieldShape("resistance", help="source impedance, ohm"),
+}
+CONDITION_FIELDS = {
+    "temperature": FieldShape("temperature", "pair", help="coldest, hottest ambient, C"),
+    "margin": FieldShape("voltage", help="room to every limit needed for GO, V"),
+    "method": FieldShape("text", "choice", METHODS, "corners, rss or montecarlo"),
+    "samples": FieldShape("number", "integer", help="Monte Carlo draws"),
+    "seed": FieldShape("number", "integer", help="Monte Carlo seed"),
+    "distribution": FieldShape("text", "choice", DISTRIBUTIONS, "uniform or normal (3 sigma)"),
+    "default_tolerance": FieldShape("fraction", help="for values written without one"),
+}
+SECTIONS = {"source": SOURCE_FIELDS, "conditions": CONDITION_FIELDS}
+STARTER_VALUES = {"resistance": "10k", "capacitance": "10n", "voltage": "0", "frequency": "1k"}
+STARTER_FIELDS = {("adc", "high"): "5"}
+
+
+def checked(text: str, path: str) -> Chain:
+    """The one loader's verdict on edited text; raises InputError with every problem."""
+    return chain_from_text(text, path)
+
+
+def stage_shapes(block_name: str) -> dict[str, FieldShape]:
+    """The editable fields of a stage of this block, in the order a form shows them."""
+    block = BLOCKS[block_name]
+    shapes = {"name": FieldShape("text", "text", help="the stage's name")}
+    shapes["load"] = FieldShape("resistance", help="load from the output to 0 V (optional)")
+    for key, spec in block.fields.items():
+        if spec.kind == "inputs":
+            continue                   # lists of tables: edited in the file itself
+        form = "flag" if spec.kind == "flag" else "value"
+        shapes[key] = FieldShape(spec.kind, form, help=spec.help)
+    return shapes
+
+
+def value_problem(raw: str, shape: FieldShape) -> str | None:
+    """The engine parser's message for text typed into a field, or None when it reads."""
+    text = raw.strip()
+    try:
+        if shape.form == "pair":
+            parts = [p.strip() for p in text.split(",")]
+            if len(parts) != 2:
+                return 'expected two values separated by a comma, such as "-1, 1"'
+            for part in parts:
+                parse_quantity(part, shape.kind)
+        elif shape.form == "integer":
+            if not text.isdigit():
+                return f"expected a whole number, got {raw!r}"
+        elif shape.form == "flag":
+            if text not in ("true", "false"):
+                return f"expected true or false, got {raw!r}"
+        elif shape.form in ("choice", "text"):
+            if shape.choices and text not in shape.choices:
+                return f"expected one of {', '.join(shape.choices)}, got {raw!r}"
+        elif text:
+            parse_quantity(text, shape.kind)
+    except ValueTextError as err:
+        return str(err)
+    return None
+
+
+def toml_value(raw: str, shape: FieldShape):
+    """Text from a form as the TOML value to write (None removes an optional key)."""
+    text = raw.strip()
+    if shape.form == "pair":
+        return [p.strip() for p in text.split(",")]
+    if shape.form == "integer":
+        return int(text)
+    if shape.form == "flag":
+        return text == "true"
+    return text or None
+
+
+def shown(value) -> str:
+    """A TOML value as the text a form shows for it."""
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, list):
+        return ", ".join(shown(v) for v in value)
+    return str(value)
+
+
+def stage_field(text: str, index: int, key: str) -> str:
+    table = _stages(tomlkit.parse(text))[index - 1]
+    return shown(table.get(key))
+
+
+def section_field(text: str, section: str, key: str) -> str:
+    return shown(tomlkit.parse(text).get(section, {}).get(key))
+
+
+def set_stage_field(text: str, index: int, key: str, value) -> str:
+    """Set (or, with None, remove) one field of stage `index` (1-based)."""
+    document = tomlkit.parse(text)
+    _put(_stages(document)[index - 1], key, value)
+    return tomlkit.dumps(document)
+
+
+def set_section_field(text: str, section: str, key: str, value) -> str:
+    """Set (or remove) a field of [source] or [conditions], creating the table if needed."""
+    document = tomlkit.parse(text)
+    if section not in document:
+        if value is None:
+            return text
+        document.add(section, tomlkit.table())
+    _put(document[section], key, value)
+    return tomlkit.dumps(document)
+
+
+def starter_stage(block_name: str, name: str, part: str | None, rails: str | None) -> dict:
+    """A new stage that loads as written: every required field gets a plain starter value."""
+    block = BLOCKS[block_name]
+    table: dict = {"name": name, "block": block_name}
+    if block.uses_part and part is not None:
+        table["part"] = part
+    if rails is not None:
+        table["rails"] = rails
+    for key, spec in block.fields.items():
+        if spec.required:
+            table[key] = STARTER_FIELDS.get((block_name, key), STARTER_VALUES.get(spec.kind, "1"))
+    return table
+
+
+def add_stage(text: str, position: int, fields: dict) -> str:
+    """Insert a stage so that it becomes stage `position` (1-based; past the end appends)."""
+    document = tomlkit.parse(text)
+    stages = _stages(document)
+    table = tomlkit.table()
+    for key, value in fields.items():
+        table[key] = value
+    table.add(tomlkit.nl())
+    if position > len(stages):
+        _end_with_blank_line(stages[-1])
+        stages.append(table)
+    else:
+        stages.insert(position - 1, table)
+    return _dumped(document)
+
+
+def remove_stage(text: str, index: int) -> str:
+    document = tomlkit.parse(text)
+    stages = _stages(document)
+    _detach_preamble(stages, index - 1)
+    del stages[index - 1]
+    return _dumped(document)
+
+
+def move_stage(text: str, index: int, offset: int) -> str:
+    """Move stage `index` by `offset` places, with the comment lines written just above it."""
+    document = tomlkit.parse(text)
+    stages = _stages(document)
+    target = index - 1 + offset
+    if not 0 <= target < len(stages) or offset == 0:
+        return text
+    preamble = _detach_preamble(stages, index - 1)
+    table = stages[index - 1]
+    _end_with_blank_line(table)
+    del stages[index - 1]
+    stages.insert(target, table)
+    if target > 0:
+        _end_with_blank_line(stages[target - 1])
+        stages[target - 1].value.body.extend(preamble)
+    elif preamble:
+        # comments above the first [[stage]] sit in the document itself, just before the array
+        at = next(i for i, (key, item) in enumerate(document.body) if item is stages)
+        document.body[at:at] = preamble
+    return _dumped(document)
+
+
+def _stages(document) -> AoT:
+    stages = document.get("stage")
+    if not isinstance(stages, AoT):
+        raise ValueError("the chain has no [[stage]] tables to edit")
+    return stages
+
+
+def _put(table: Table, key: str, value) -> None:
+    if value is None:
+        if key in table:
+            del table[key]
+    else:
+        table[key] = value
+
+
+def _detach_preamble(stages: AoT, position: int) -> list:
+    """Take the comment lines just above stage `position` (they sit at the end of the stage
+    before it in tomlkit's tree), so they travel with the stage they describe."""
+    if position == 0:
+        return []
+    body = stages[position - 1].value.body
+    start = len(body)
+    while start > 0 and body[start - 1][0] is None and isinstance(body[start - 1][1],
+                                                                  (Comment, Whitespace)):
+        start -= 1
+    tail = body[start:]
+    first_comment = next((i for i, (_, item) in enumerate(tail) if isinstance(item, Comment)), None)
+    if first_comment is None:
+        return []
+    preamble = tail[first_comment:]
+    del body[start + first_comment:]
+    return preamble
+
+
+def _dumped(document) -> str:
+    """The document's text, ending in one newline whatever blank lines the edits left last."""
+    return tomlkit.dumps(document).rstrip("\n") + "\n"
+
+
+def _end_with_blank_line(table: Table) -> None:
+    rendered = table.as_string()
+    if not rendered.endswith("\n\n"):
+        table.add(tomlkit.nl())

@@ -1,0 +1,137 @@
+"""The chain under edit in the interface: its file, its text, the last good result. No Textual here.
+
+Every edit is a function of the text (engine/editing.py); an edit is kept only when the one chain
+loader and the part library accept the edited text, so the screen always shows a checked chain.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable
+
+from railroom.engine.analysis import analyse, load_checked
+from railroom.engine.atomic import fingerprint, write_atomic
+from railroom.engine.editing import checked
+from railroom.engine.model import Chain, InputError, Problem
+from railroom.engine.plan import plan_chain
+from railroom.engine.presets import Library, load_library, search_order
+from railroom.engine.results import ChainResult
+
+def demo_path() -> Path:
+    import railroom.engine.demos
+    return Path(railroom.engine.demos.__file__).parent / "pump_vibration.toml"
+
+
+@dataclass
+class Session:
+    """One open chain file. `text` is what the user sees; `saved_text` what the file holds."""
+
+    path: Path
+    read_only: bool
+    text: str
+    chain: Chain
+    library: Library
+    extra_preset_dirs: tuple[str, ...] = ()
+    saved_text: str = ""
+    known_print: tuple[int, int] | None = None       # the file as we last read or wrote it
+    ignored_print: tuple[int, int] | None = None     # a newer file the user chose not to load
+    drafts: dict[str, dict[str, str]] = field(default_factory=dict)   # form -> field -> bad text
+    history: list[str] = field(default_factory=list)
+
+    @classmethod
+    def open(cls, path: str | Path | None, extra_preset_dirs: tuple[str, ...] = ()) -> "Session":
+        """Load a chain (the built-in demo, read-only, when path is None); raises InputError."""
+        file = Path(path) if path is not None else demo_path()
+        chain, library = load_checked(str(file), extra_preset_dirs)
+        text = file.read_text(encoding="utf-8")
+        return cls(path=file, read_only=path is None, text=text, chain=chain, library=library,
+                   extra_preset_dirs=extra_preset_dirs, saved_text=text,
+                   known_print=fingerprint(file))
+
+    @property
+    def modified(self) -> bool:
+        return self.text != self.saved_text
+
+    @property
+    def part_ids(self) -> list[str]:
+        return sorted(self.library.parts)
+
+    def corners(self) -> ChainResult:
+        """Worst case by corners, whatever method the file asks for: the at-once answer."""
+        return analyse(self.chain, self.library.parts, method="corners")
+
+    def statistical(self) -> ChainResult:
+        """The file's own method (may raise NotImplementedError while it is being built)."""
+        return analyse(self.chain, self.library.parts)
+
+    def edit(self, change: Callable[[str], str]) -> list[Problem]:
+        """Apply an edit of the text; keep it only when it loads. Returns the problems, if any."""
+        try:
+            text = change(self.text)
+            chain = checked(text, str(self.path))
+            library = self._library_for(chain)
+            plan_chain(chain, library.parts)
+        except InputError as err:
+            return list(err.problems)
+        except (ValueError, IndexError, KeyError) as err:
+            return [Problem(str(self.path), None, "(edit)", str(err))]
+        if text != self.text:
+            self.history.append(self.text)
+        self.text, self.chain, self.library = text, chain, library
+        return []
+
+    def undo(self) -> bool:
+        if not self.history:
+            return False
+        text = self.history.pop()
+        self.chain = checked(text, str(self.path))
+        self.library = self._library_for(self.chain)
+        self.text = text
+        return True
+
+    def _library_for(self, chain: Chain) -> Library:
+        if chain.preset_dirs == self.chain.preset_dirs:
+            return self.library
+        return load_library(search_order(chain.preset_dirs, self.extra_preset_dirs))
+
+    def changed_on_disk(self) -> bool:
+        """True when someone else wrote the file since we read or saved it, and the user has not
+        yet been asked about this version."""
+        now = fingerprint(self.path)
+        return not self.read_only and now != self.known_print and now != self.ignored_print
+
+    def disk_is_newer(self) -> bool:
+        """True when saving now would overwrite a version we never read."""
+        return not self.read_only and fingerprint(self.path) != self.known_print
+
+    def save(self, path: Path | None = None) -> None:
+        """Write the text atomically (to `path` for save-as); the demo itself is never written."""
+        target = Path(path) if path is not None else self.path
+        if self.read_only and path is None:
+            raise PermissionError("the built-in demo is read-only: save it under a new name")
+        if target != self.path:
+            self.chain = checked(self.text, str(target))
+            self.library = self._library_for(self.chain)
+        write_atomic(target, self.text)
+        self.path, self.read_only, self.saved_text = target, False, self.text
+        self.known_print = fingerprint(target)
+
+    def reload(self) -> list[Problem]:
+        """Read the file again, dropping unsaved edits; on a problem keep everything as it was."""
+        try:
+            chain, library = load_checked(str(self.path), self.extra_preset_dirs)
+            text = self.path.read_text(encoding="utf-8")
+        except InputError as err:
+            self.known_print = fingerprint(self.path)
+            return list(err.problems)
+        self.history.append(self.text)
+        self.text = self.saved_text = text
+        self.chain, self.library = chain, library
+        self.known_print = fingerprint(self.path)
+        self.drafts.clear()
+        return []
+
+    def keep_mine(self) -> None:
+        """The user chose to keep their edits: stop asking about this version of the file
+        (saving still asks before overwriting it)."""
+        self.ignored_print = fingerprint(self.path)
