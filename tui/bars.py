@@ -5,6 +5,7 @@
     █  the worst-case signal span, inside the window
     X  the worst-case span past the window: the overshoot
     ┊  0 V, where it lies inside the span drawn
+    ·  outside this stage's rails (only on a common scale shared by several stages)
 
 Rich only (no Textual): the `check` command draws the same bar.
 """
@@ -13,11 +14,14 @@ from __future__ import annotations
 from rich.text import Text
 
 LEGEND = "▓ beyond the part's reach   ─ free window   █ worst-case span   X past the window   ┊ 0 V"
+SHORT_LEGEND = "▓ out of reach  ─ window  █ span  X overshoot  ┊ 0 V"
 
 
 def margin_bar(rails: tuple[float, float], window: tuple[float, float] | None,
-               span: tuple[float, float], width: int = 24, colour: bool = True) -> Text:
-    low, high = min(rails[0], span[0]), max(rails[1], span[1])
+               span: tuple[float, float], width: int = 24, colour: bool = True,
+               scale: tuple[float, float] | None = None) -> Text:
+    """`scale` draws on a common axis (the level view); by default the axis is this stage's rails."""
+    low, high = scale or (min(rails[0], span[0]), max(rails[1], span[1]))
     if high <= low:
         high = low + 1.0
     step = (high - low) / width
@@ -35,6 +39,8 @@ def margin_bar(rails: tuple[float, float], window: tuple[float, float] | None,
             cells.append(("█", "green"))
         elif inside_window:
             cells.append(("┊", "dim") if a <= 0.0 < b else ("─", "dim"))
+        elif b <= rails[0] or a >= rails[1]:
+            cells.append(("·", "dim"))
         else:
             cells.append(("▓", "grey50"))
     text = Text()

@@ -1,0 +1,222 @@
+"""The railroom interface: wires the chain session, the screens, the keys and the engine.
+
+    app = build_app("chain.toml", ("./more-presets",))     # tests reuse this factory
+"""
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+from typing import Callable
+
+from textual import work
+from textual.app import App
+from textual.binding import Binding
+from textual.worker import get_current_worker
+
+from railroom.engine.analysis import analyse
+from railroom.engine.model import InputError
+from railroom.engine.results import ChainResult
+from railroom.tui.screens.chain import ChainScreen
+from railroom.tui.screens.dialogs import ConfirmScreen, SaveAsScreen
+from railroom.tui.screens.help import HelpScreen
+from railroom.tui.session import Session
+
+WATCH_SECONDS = 1.0
+
+
+def key(keys: str, action: str, words: str, ident: str, tooltip: str, show: bool = True) -> Binding:
+    return Binding(keys, action, words, show=show, id=f"app.{ident}", tooltip=tooltip)
+
+
+class RailroomApp(App):
+    TITLE = "railroom"
+    CSS_PATH = "railroom.tcss"
+    BINDINGS = [
+        key("w", "save", "save", "save", "Save the chain file (keeps comments; atomic)"),
+        key("W", "save_as", "save as", "save_as", "Save the chain under a new file name",
+            show=False),
+        key("r", "reload", "reload", "reload", "Read the file again from disk", show=False),
+        key("i", "screenshot", "picture", "screenshot",
+            "Save the screen as an SVG picture for reports", show=False),
+        key("p", "presets", "presets", "presets", "Open the part presets screen", show=False),
+        key("question_mark", "help", "help", "help", "Show every key"),
+        key("colon", "command_palette", "commands", "commands", "Open the command palette",
+            show=False),
+        key("q", "quit", "quit", "quit", "Quit (asks first when there are unsaved changes)"),
+    ]
+
+    def __init__(self, session: Session) -> None:
+        super().__init__()
+        self.session = session
+        self.result: ChainResult | None = None
+        self._generation = 0
+
+    def get_default_screen(self) -> ChainScreen:
+        return ChainScreen(id="chain")
+
+    def on_mount(self) -> None:
+        self.set_interval(WATCH_SECONDS, self.watch_file)
+
+    @property
+    def chain_screen(self) -> ChainScreen:
+        return self.screen_stack[0]
+
+    # the engine
+    def apply_edit(self, change: Callable[[str], str]) -> str | None:
+        """Apply an edit of the chain text; on success re-check, else return the problem."""
+        problems = self.session.edit(change)
+        if problems:
+            first = problems[0]
+            return f"{first.field}: {first.message}" if first.field != "(edit)" else first.message
+        self.recheck()
+        return None
+
+    def recheck(self) -> None:
+        """Corners at once on this thread; the file's statistical method in a worker after."""
+        self._generation += 1
+        self.result = self.session.corners()
+        method = self.session.chain.conditions.method
+        note = f"{method} running..." if method != "corners" else ""
+        self.chain_screen.show(self.result, note)
+        if method != "corners":
+            self.run_statistical(self._generation, self.session.chain, self.session.library.parts)
+        else:
+            self.workers.cancel_group(self, "statistical")
+            self.chain_screen.query_one("StatusLine").running(False)
+
+    @work(thread=True, exclusive=True, group="statistical")
+    def run_statistical(self, generation: int, chain, parts) -> None:
+        worker = get_current_worker()
+        self.call_from_thread(self.chain_screen.query_one("StatusLine").running, True)
+        try:
+            result = analyse(chain, parts)
+        except (NotImplementedError, InputError, ValueError) as err:
+            if not worker.is_cancelled:
+                self.call_from_thread(self.statistical_done, generation, None, str(err))
+            return
+        if not worker.is_cancelled:
+            self.call_from_thread(self.statistical_done, generation, result, "")
+
+    def statistical_done(self, generation: int, result: ChainResult | None, problem: str) -> None:
+        if generation != self._generation:
+            return                       # the user changed something meanwhile: a newer run owns it
+        self.chain_screen.query_one("StatusLine").running(False)
+        if result is None:
+            self.chain_screen.show(self.result, f"{problem}; showing corners")
+            self.notify(problem, title="method", severity="warning")
+        else:
+            self.result = result
+            self.chain_screen.show(result)
+
+    # the file
+    def watch_file(self) -> None:
+        if not self.session.changed_on_disk() or isinstance(self.screen, ConfirmScreen):
+            return
+
+        def answered(answer: str) -> None:
+            if answer == "reload":
+                self.action_reload()
+            else:
+                self.session.keep_mine()
+
+        lost = " (your unsaved changes would be lost)" if self.session.modified else ""
+        self.push_screen(ConfirmScreen(
+            f"{self.session.path.name} changed on disk.", [
+                ("r", "reload", f"reload it{lost}"),
+                ("k", "keep", "keep what is on screen (saving asks before overwriting)")]),
+            answered)
+
+    def action_reload(self) -> None:
+        problems = self.session.reload()
+        if problems:
+            self.notify("\n".join(str(p) for p in problems[:4]), title="not reloaded",
+                        severity="error", markup=False)
+            return
+        self.recheck()
+        self.notify("reloaded from disk")
+
+    def action_save(self, then: Callable[[], None] | None = None) -> None:
+        if self.session.read_only:
+            self.action_save_as(then)
+            return
+        if not self.session.disk_is_newer():
+            self._write(None, then)
+            return
+
+        def answered(answer: str) -> None:
+            if answer == "overwrite":
+                self._write(None, then)
+            elif answer == "reload":
+                self.action_reload()
+        self.push_screen(ConfirmScreen(
+            f"{self.session.path.name} changed on disk since it was read.", [
+                ("o", "overwrite", "overwrite it with what is on screen"),
+                ("r", "reload", "reload it and drop the changes on screen")]), answered)
+
+    def action_save_as(self, then: Callable[[], None] | None = None) -> None:
+        why = ("The built-in demo is read-only. Save a copy as:" if self.session.read_only
+               else "Save the chain as:")
+
+        def named(name: str | None) -> None:
+            if name:
+                self._write(Path(name).expanduser().resolve(), then)
+        self.push_screen(SaveAsScreen(self.session.path.name, why), named)
+
+    def _write(self, path: Path | None, then: Callable[[], None] | None) -> None:
+        try:
+            self.session.save(path)
+        except (OSError, InputError) as err:
+            self.notify(str(err), title="not saved", severity="error", markup=False)
+            return
+        self.notify(f"saved {self.session.path}", markup=False)
+        self.chain_screen.show(self.result)
+        if then is not None:
+            then()
+
+    async def action_quit(self) -> None:
+        if not self.session.modified:
+            self.exit(0)
+            return
+
+        def answered(answer: str) -> None:
+            if answer == "save":
+                self.action_save(then=lambda: self.exit(0))
+            elif answer == "discard":
+                self.exit(0)
+        self.push_screen(ConfirmScreen("The chain has unsaved changes.", [
+            ("s", "save", "save, then quit"), ("d", "discard", "quit without saving")]), answered)
+
+    # other rooms
+    def action_help(self) -> None:
+        bindings = [b for b in (*self.BINDINGS, *ChainScreen.BINDINGS)]
+        from railroom.tui.widgets.stage_list import StageList
+        self.push_screen(HelpScreen([*bindings, *StageList.BINDINGS]))
+
+    def action_screenshot(self) -> None:
+        path = self.save_screenshot(path=str(Path.cwd()))
+        self.notify(f"picture saved: {path}", markup=False)
+
+    def action_presets(self) -> None:
+        try:
+            from railroom.tui.screens.presets import PresetsScreen
+        except ImportError:
+            self.notify("the presets screen is not available yet", severity="warning")
+            return
+        self.push_screen(PresetsScreen(list(self.session.library.folders)))
+
+
+def build_app(chain_path: str | Path | None = None,
+              extra_preset_dirs: tuple[str, ...] = ()) -> RailroomApp:
+    """The app on a chain file (the built-in demo when None); raises InputError."""
+    return RailroomApp(Session.open(chain_path, tuple(str(d) for d in extra_preset_dirs)))
+
+
+def run_app(chain_path: str | None, extra_preset_dirs: tuple[str, ...] = ()) -> int:
+    try:
+        app = build_app(chain_path, extra_preset_dirs)
+    except InputError as err:
+        for problem in err.problems:
+            print(f"railroom: {problem}", file=sys.stderr)
+        return 2
+    app.run()
+    return app.return_code or 0

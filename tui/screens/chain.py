@@ -1,0 +1,200 @@
+"""The main room: status line, stage list, and the detail or level view of the chain."""
+from __future__ import annotations
+
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.screen import Screen
+from textual.widgets import ContentSwitcher, DataTable, Footer
+
+from railroom.engine import editing
+from railroom.engine.blocks import BLOCKS
+from railroom.engine.editing import FieldShape
+from railroom.engine.model import METHODS
+from railroom.engine.results import ChainResult
+from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen
+from railroom.tui.screens.edit import FieldForm, FormField
+from railroom.tui.widgets.detail import StageDetail
+from railroom.tui.widgets.level_view import LevelView
+from railroom.tui.widgets.stage_list import StageList
+from railroom.tui.widgets.status_line import StatusLine
+
+
+def key(keys: str, action: str, words: str, ident: str, tooltip: str, show: bool = True) -> Binding:
+    return Binding(keys, action, words, show=show, id=f"chain.{ident}", tooltip=tooltip)
+
+
+class ChainScreen(Screen):
+    BINDINGS = [
+        key("e", "edit_stage", "edit", "edit", "Edit the highlighted stage's values and part (enter too)"),
+        key("s", "edit_source", "source", "source", "Edit the source: levels, amplitude, band"),
+        key("o", "edit_conditions", "conditions", "conditions",
+            "Edit the conditions: temperature, margin, method, draws"),
+        key("m", "choose_method", "method", "method", "Choose the method: corners, rss, montecarlo"),
+        key("a", "add_stage", "add", "add", "Add a stage after the highlighted one"),
+        key("x", "remove_stage", "remove", "remove", "Remove the highlighted stage (asks first)",
+            show=False),
+        key("J", "move_stage(1)", "move down", "move_down", "Move the highlighted stage down",
+            show=False),
+        key("K", "move_stage(-1)", "move up", "move_up", "Move the highlighted stage up", show=False),
+        key("u", "undo", "undo", "undo", "Undo the last change", show=False),
+        key("d", "show_view('detail')", "detail", "detail", "Show the highlighted stage's detail",
+            show=False),
+        key("l", "show_view('level')", "levels", "levels",
+            "Show the levels of every stage on one axis", show=False),
+        key("v", "toggle_view", "view", "view", "Switch between the detail and the level view"),
+        key("escape", "focus_stages", "stages", "stages",
+            "Back to the stage list (never closes or discards anything)", show=False),
+    ]
+
+    def compose(self) -> ComposeResult:
+        yield StatusLine(id="status")
+        yield StageList(id="stages")
+        with ContentSwitcher(initial="detail", id="views"):
+            yield StageDetail(id="detail")
+            yield LevelView(id="level")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self.app.recheck()
+        self.query_one(StageList).focus()
+
+    @property
+    def session(self):
+        return self.app.session
+
+    def highlighted(self) -> int:
+        """1-based index of the highlighted stage."""
+        table = self.query_one(StageList)
+        return min(max(table.cursor_row, 0), len(self.session.chain.stages) - 1) + 1
+
+    def show(self, result: ChainResult, note: str = "") -> None:
+        session = self.session
+        label = "built-in demo (read-only)" if session.read_only else str(session.path)
+        self.query_one(StatusLine).show(result, label, session.modified, note)
+        self.query_one(StageList).show(result)
+        self.query_one(LevelView).show(result)
+        self._show_detail()
+
+    def _show_detail(self) -> None:
+        result = self.app.result
+        if result is None or not result.stages:
+            return
+        stage = result.stages[self.highlighted() - 1]
+        self.query_one(StageDetail).show(stage, result.chain, self.session.library.parts)
+
+    def on_data_table_row_highlighted(self, event: DataTable.RowHighlighted) -> None:
+        self._show_detail()
+
+    def on_data_table_row_selected(self, event: DataTable.RowSelected) -> None:
+        self.action_edit_stage()
+
+    # views
+    def action_show_view(self, view: str) -> None:
+        self.query_one(ContentSwitcher).current = view
+
+    def action_toggle_view(self) -> None:
+        switcher = self.query_one(ContentSwitcher)
+        switcher.current = "level" if switcher.current == "detail" else "detail"
+
+    def action_focus_stages(self) -> None:
+        self.query_one(StageList).focus()
+
+    # edits
+    def _form(self, title: str, form_id: str, fields: list[FormField], change, focus=None) -> None:
+        drafts = self.session.drafts.setdefault(form_id, {})
+        fields = [FormField(f.key, f.shape, drafts.get(f.key, f.text), f.choices) for f in fields]
+
+        def apply(field_key: str, text: str) -> str | None:
+            shape = next(f.shape for f in fields if f.key == field_key)
+            return self.app.apply_edit(change(field_key, editing.toml_value(text, shape)))
+
+        self.app.push_screen(FieldForm(title, fields, apply, drafts, focus))
+
+    def action_edit_stage(self, focus: str | None = None) -> None:
+        index = self.highlighted()
+        stage = self.session.chain.stages[index - 1]
+        text = self.session.text
+        shapes = editing.stage_shapes(stage.block)
+        if BLOCKS[stage.block].uses_part:
+            shapes = {"name": shapes.pop("name"),
+                      "part": FieldShape("text", "choice", tuple(self.session.part_ids),
+                                         "part preset (from the preset folders)"), **shapes}
+        if len(self.session.chain.rails) > 1:
+            shapes["rails"] = FieldShape("text", "choice", tuple(self.session.chain.rails),
+                                         "which supply")
+        fields = [FormField(k, s, editing.stage_field(text, index, k)) for k, s in shapes.items()]
+        self._form(f"stage {index}: {stage.name} ({stage.block})", f"stage.{index}", fields,
+                   lambda k, v: lambda t: editing.set_stage_field(t, index, k, v), focus)
+
+    def _section_form(self, section: str, focus: str | None = None) -> None:
+        shapes = editing.SECTIONS[section]
+        text = self.session.text
+        fields = [FormField(k, s, editing.section_field(text, section, k)) for k, s in shapes.items()]
+        self._form(f"[{section}]", section, fields,
+                   lambda k, v: lambda t: editing.set_section_field(t, section, k, v), focus)
+
+    def action_edit_source(self) -> None:
+        self._section_form("source")
+
+    def action_edit_conditions(self) -> None:
+        self._section_form("conditions")
+
+    def action_choose_method(self) -> None:
+        def chosen(method: str | None) -> None:
+            if method is not None:
+                self.app.apply_edit(lambda t: editing.set_section_field(
+                    t, "conditions", "method", method))
+        current = self.session.chain.conditions.method
+        self.app.push_screen(ChoiceScreen("Method", [(m, m) for m in METHODS], current), chosen)
+
+    def action_add_stage(self) -> None:
+        after = self.highlighted()
+        near = self.session.chain.stages[after - 1]
+
+        def chosen(block: str | None) -> None:
+            if block is None:
+                return
+            parts = self.session.part_ids
+            part = near.part if near.part else (parts[0] if parts else None)
+            fields = editing.starter_stage(block, f"new {block}", part, near.rails)
+            if self.app.apply_edit(lambda t: editing.add_stage(t, after + 1, fields)) is None:
+                self._structure_changed(after + 1)
+                self.action_edit_stage()
+
+        blocks = [(name, f"{name}: {block.summary}") for name, block in BLOCKS.items()]
+        self.app.push_screen(ChoiceScreen("Add which block after the highlighted stage?", blocks),
+                             chosen)
+
+    def action_remove_stage(self) -> None:
+        index = self.highlighted()
+        if len(self.session.chain.stages) == 1:
+            self.notify("a chain keeps at least one stage", severity="warning")
+            return
+
+        def answered(answer: str) -> None:
+            if answer == "remove":
+                if self.app.apply_edit(lambda t: editing.remove_stage(t, index)) is None:
+                    self._structure_changed(index)
+
+        name = self.session.chain.stages[index - 1].name
+        self.app.push_screen(ConfirmScreen(f"Remove stage {index} ({name})?",
+                                           [("y", "remove", "remove it (u undoes)")]), answered)
+
+    def action_move_stage(self, offset: int) -> None:
+        index = self.highlighted()
+        target = index + offset
+        if 1 <= target <= len(self.session.chain.stages):
+            if self.app.apply_edit(lambda t: editing.move_stage(t, index, offset)) is None:
+                self._structure_changed(target)
+
+    def _structure_changed(self, highlight: int) -> None:
+        for form in [f for f in self.session.drafts if f.startswith("stage.")]:
+            del self.session.drafts[form]
+        self.query_one(StageList).move_cursor(row=highlight - 1, animate=False)
+        self._show_detail()
+
+    def action_undo(self) -> None:
+        if self.session.undo():
+            self.app.recheck()
+        else:
+            self.notify("nothing to undo")

@@ -1,0 +1,108 @@
+"""The edit form: one line per field, checked as typed with the engine's own parser and loader.
+
+Every accepted change goes straight into the chain and the screen behind re-checks at once; a value
+that does not read stays in its field with the engine's message beside it (and is kept as a draft
+when the form closes), so nothing the user typed is lost.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, VerticalScroll
+from textual.screen import ModalScreen
+from textual.widgets import Input, Label, Select
+
+from railroom.engine.editing import FieldShape, value_problem
+
+Apply = Callable[[str, str], str | None]     # (field key, typed text) -> problem or None
+
+
+@dataclass(frozen=True)
+class FormField:
+    key: str
+    shape: FieldShape
+    text: str                    # what the field holds now (or the draft the user left)
+    choices: tuple[str, ...] = ()
+
+
+class FieldForm(ModalScreen[None]):
+    """Tab moves between fields; Esc closes the form (accepted changes are already in)."""
+
+    BINDINGS = [Binding("escape", "close", "close", id="form.close",
+                        tooltip="Close the form; accepted changes stay, drafts are kept")]
+
+    def __init__(self, title: str, fields: list[FormField], apply: Apply,
+                 drafts: dict[str, str], focus_key: str | None = None) -> None:
+        super().__init__()
+        self.title_words = title
+        self.fields = {f.key: f for f in fields}
+        self.apply = apply
+        self.drafts = drafts
+        self.focus_key = focus_key
+
+    def compose(self) -> ComposeResult:
+        with VerticalScroll(classes="form"):
+            yield Label(Text(self.title_words), classes="form-title")
+            for field in self.fields.values():
+                with Horizontal(classes="form-row"):
+                    yield Label(Text(field.key), classes="form-key")
+                    yield self._editor(field)
+                yield Label(Text(field.shape.help), id=f"message-{field.key}",
+                            classes="form-message")
+            yield Label(Text("tab next field   esc close   every change is checked at once"),
+                        classes="hint")
+
+    def _editor(self, field: FormField):
+        choices = field.choices or field.shape.choices
+        if field.shape.form == "flag":
+            choices = ("false", "true")
+        if choices:
+            value = field.text if field.text in choices else Select.NULL
+            return Select([(Text(c), c) for c in choices], value=value,
+                          allow_blank=value is Select.NULL, id=f"field-{field.key}",
+                          classes="form-value")
+        return Input(value=field.text, id=f"field-{field.key}", classes="form-value",
+                     placeholder=field.shape.help)
+
+    def on_mount(self) -> None:
+        for key, text in self.drafts.items():
+            if key in self.fields:
+                self._judge(key, text)
+        target = self.focus_key if self.focus_key in self.fields else None
+        editors = self.query(".form-value")
+        if target:
+            self.query_one(f"#field-{target}").focus()
+        elif editors:
+            editors.first().focus()
+
+    def on_input_changed(self, event: Input.Changed) -> None:
+        event.stop()
+        self._judge(event.input.id.removeprefix("field-"), event.value)
+
+    def on_select_changed(self, event: Select.Changed) -> None:
+        event.stop()
+        if event.value is not Select.NULL:
+            self._judge(event.select.id.removeprefix("field-"), str(event.value))
+
+    def _judge(self, key: str, text: str) -> None:
+        field = self.fields[key]
+        if text == field.text and key not in self.drafts:
+            return
+        problem = value_problem(text, field.shape) or self.apply(key, text)
+        message = self.query_one(f"#message-{key}", Label)
+        if problem:
+            self.drafts[key] = text
+            message.update(Text(problem))
+            message.add_class("problem")
+        else:
+            self.drafts.pop(key, None)
+            self.fields[key] = FormField(key, field.shape, text, field.choices)
+            message.update(Text(field.shape.help))
+            message.remove_class("problem")
+
+    def action_close(self) -> None:
+        self.dismiss(None)

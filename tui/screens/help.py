@@ -1,0 +1,54 @@
+"""The help screen: every key of the interface, with its binding id, and the bar's legend."""
+from __future__ import annotations
+
+from rich.table import Table
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import VerticalScroll
+from textual.screen import ModalScreen
+from textual.widgets import Static
+
+from railroom.tui.bars import LEGEND
+
+INTRO = ("railroom checks that every op amp in the chain stays in its linear regime under worst-case "
+         "tolerances. Edits are checked as you type; the verdict repaints at once.")
+
+
+def key_table(bindings: list[Binding]) -> Table:
+    table = Table(box=None, pad_edge=False, show_edge=False)
+    for column in ("key", "does", "id"):
+        table.add_column(column, no_wrap=column != "does")
+    seen = set()
+    for binding in bindings:
+        if binding.id in seen or binding.system:
+            continue
+        seen.add(binding.id)
+        keys = binding.key_display or binding.key.replace(",", " ")
+        table.add_row(Text(keys), Text(binding.tooltip or binding.description),
+                      Text(binding.id or "", style="dim"))
+    return table
+
+
+class HelpScreen(ModalScreen[None]):
+    BINDINGS = [Binding("escape,q,question_mark", "close", "close", id="help.close",
+                        tooltip="Close the help screen")]
+
+    def __init__(self, bindings: list[Binding]) -> None:
+        super().__init__()
+        self.bindings = bindings
+
+    def compose(self) -> ComposeResult:
+        with VerticalScroll(classes="form", id="help"):
+            yield Static(Text(INTRO))
+            yield Static(key_table(self.bindings))
+            yield Static(Text("In the edit form: tab and shift+tab move between fields, enter on a "
+                              "choice opens it, esc closes the form."))
+            yield Static(Text("Margin bars: " + LEGEND +
+                              "   · outside this stage's rails (level view)"))
+
+    def on_mount(self) -> None:
+        self.query_one("#help").focus()
+
+    def action_close(self) -> None:
+        self.dismiss(None)

@@ -1,0 +1,174 @@
+"""The detail panel: every check of the highlighted stage with the engine's numbers."""
+from __future__ import annotations
+
+from typing import Mapping
+
+from rich.console import Group
+from rich.table import Table
+from rich.text import Text
+from textual.containers import VerticalScroll
+from textual.widgets import Static
+
+from railroom.engine.blocks import BLOCKS
+from railroom.engine.checks import GAIN_ERROR_CAUTION
+from railroom.engine.model import Chain, Part
+from railroom.engine.results import CHECKS, OpAmpMeasure, StageResult
+from railroom.engine.values import Quantity, format_si
+
+UNITS = {"resistance": "Ω", "capacitance": "F", "voltage": "V", "current": "A",
+         "frequency": "Hz", "slew": "V/s"}
+CHECK_UNITS = {"slew": "V/s", "current": "A"}
+
+
+def volts(value: float, unit: str = "V") -> str:
+    return format_si(value, unit)
+
+
+def span_words(span: tuple[float, float], unit: str = "V") -> str:
+    return f"{volts(span[0], unit)} .. {volts(span[1], unit)}"
+
+
+def needed_and_limit(stage: StageResult, check: str, part: Part | None,
+                     chain: Chain) -> tuple[str, str]:
+    """What the stage asks of the part and what the part gives, as the engine measured them."""
+    m = stage.measure
+    label = stage.failing_nodes.get(check)
+    amp: OpAmpMeasure | None = next((a for a in m.opamps if a.label == label),
+                                    m.opamps[0] if m.opamps else None)
+    if check == "supply":
+        rails = chain.rails_for(m.stage)
+        allowed = span_words(part.supply) if part else "-"
+        return span_words(m.supply or rails.span_range), allowed
+    if amp is None:
+        window = m.window or (float("nan"), float("nan"))
+        side = 1 if check.endswith("high") else 0
+        return volts(m.output[side]), volts(window[side])
+    side = 1 if check.endswith("high") else 0
+    pairs = {"output": (amp.output, amp.window), "input": (amp.input, amp.input_window)}
+    if check in ("slew", "current"):
+        unit = CHECK_UNITS[check]
+        needed, limit = ((amp.slew_needed, amp.slew_available) if check == "slew" else
+                         (amp.current_needed, amp.current_available))
+        return volts(needed, unit), volts(limit, unit)
+    reached, allowed = pairs[check.split("-")[0]]
+    return volts(reached[side]), volts(allowed[side])
+
+
+def checks_table(stage: StageResult, part: Part | None, chain: Chain) -> Table:
+    table = Table(box=None, pad_edge=False, show_edge=False, expand=False)
+    for column in ("check", "needed", "limit", "margin", ""):
+        table.add_column(column, no_wrap=True)
+    for check in CHECKS:
+        if check not in stage.margins:
+            continue
+        needed, limit = needed_and_limit(stage, check, part, chain)
+        margin = stage.margins[check]
+        failing = check in stage.reasons
+        where = stage.failing_nodes.get(check) if len(stage.measure.opamps) > 1 else None
+        verdict = Text("FAIL" if failing else "ok", style="bold red" if failing else "green")
+        if where:
+            verdict.append(f" at {where}")
+        table.add_row(check, needed, limit, volts(margin, CHECK_UNITS.get(check, "V")), verdict)
+    error = stage.measure.gain_error
+    if error is not None:
+        table.add_row("gain error", f"{error:.3%}", f"{GAIN_ERROR_CAUTION:.0%} (caution)", "-",
+                      Text("caution" if error > GAIN_ERROR_CAUTION else "ok"))
+    return table
+
+
+def quantity_words(q: Quantity, kind: str) -> str:
+    words = volts(q.value, UNITS.get(kind, ""))
+    if q.tolerance:
+        words += f" ±{format_si(q.tolerance, '%')}"
+    if q.tempco:
+        words += f" {format_si(q.tempco, 'ppm')}/°C"
+    return words
+
+
+def components(stage: StageResult) -> Text:
+    text = Text()
+    s = stage.stage
+    kinds = {key: spec.kind for key, spec in BLOCKS[s.block].fields.items()}
+    if s.load is not None:
+        text.append(f"load {quantity_words(s.load, 'resistance')}   ")
+    for key, value in s.values.items():
+        if isinstance(value, Quantity):
+            text.append(f"{key} {quantity_words(value, kinds.get(key, ''))}   ")
+        elif isinstance(value, list):
+            for i, item in enumerate(value, start=1):
+                text.append(f"{key}.{i} r {quantity_words(item['r'], 'resistance')} "
+                            f"from {quantity_words(item['v'], 'voltage')}   ")
+        else:
+            text.append(f"{key} {str(value).lower()}   ")
+    return text if text.plain else Text("no components of its own")
+
+
+def nodes_table(stage: StageResult) -> Table | None:
+    m = stage.measure
+    if len(m.opamps) < 2 and not m.inner:
+        return None
+    table = Table(box=None, pad_edge=False, show_edge=False)
+    for column in ("node", "output span", "window", "input span", "input window"):
+        table.add_column(column, no_wrap=True)
+    for amp in m.opamps:
+        table.add_row(Text(amp.label), span_words(amp.output), span_words(amp.window),
+                      span_words(amp.input), span_words(amp.input_window))
+    for label, span in m.inner.items():
+        table.add_row(Text(label), span_words(span), "", "", "")
+    return table
+
+
+def stage_story(stage: StageResult, chain: Chain, parts: Mapping[str, Part]) -> Group:
+    s, m = stage.stage, stage.measure
+    part = parts.get(s.part) if s.part else None
+    rails = chain.rails_for(s)
+    head = Text()
+    head.append(f"{stage.index} ", style="bold")
+    head.append(s.name, style="bold")
+    head.append(f"  {s.block}")
+    if part is not None:
+        head.append("  part ")
+        head.append(part.id)
+    head.append(f"\nrails {rails.name}: {volts(rails.negative)} / {volts(rails.positive)}"
+                f" ±{format_si(rails.tolerance, '%')}   ")
+    head.append(f"output {span_words(m.output)}  nominal {span_words(m.nominal)}")
+    if m.window is not None:
+        head.append(f"  window {span_words(m.window)}")
+    if m.probability is not None:
+        head.append(f"  leaves linear in {m.probability:.3%} of draws")
+    parts_shown: list = [head, checks_table(stage, part, chain)]
+    if m.thresholds is not None:
+        rising, falling = m.thresholds
+        parts_shown.append(Text(f"thresholds: rising {span_words(rising)}, "
+                                f"falling {span_words(falling)}"))
+    parts_shown.append(Text("components: ", style="bold") + components(stage))
+    nodes = nodes_table(stage)
+    if nodes is not None:
+        parts_shown += [Text("internal nodes", style="bold"), nodes]
+    parts_shown += notes(stage)
+    return Group(*parts_shown)
+
+
+def notes(stage: StageResult) -> list[Text]:
+    lines = []
+    if stage.reasons:
+        lines.append(Text("fails: " + ", ".join(stage.reasons), style="bold red"))
+    lines += [Text(f"caution: {c}", style="yellow") for c in stage.cautions]
+    if stage.sensitivity:
+        lines.append(Text("sensitivity: " + ", ".join(
+            f"{s.quantity} {s.share:.0%}" for s in stage.sensitivity)))
+    lines += [Text(f"fix: {f.text}") for f in stage.fixes]
+    return lines
+
+
+class StageDetail(VerticalScroll):
+    """Scrolls when the stage has more to say than the panel holds."""
+
+    can_focus = True
+
+    def compose(self):
+        yield Static(id="detail-body")
+
+    def show(self, stage: StageResult, chain: Chain, parts: Mapping[str, Part]) -> None:
+        self.border_title = f"stage {stage.index} detail"
+        self.query_one("#detail-body", Static).update(stage_story(stage, chain, parts))
