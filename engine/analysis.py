@@ -37,8 +37,9 @@ def band_grid(chain: Chain, plans) -> np.ndarray:
 
 def analyse(chain: Chain, parts: Mapping[str, Part], *, method: str | None = None,
             samples: int | None = None, seed: int | None = None,
-            margin: float | None = None) -> ChainResult:
-    """Check every stage of the chain; raises InputError for unknown parts."""
+            margin: float | None = None, design_aids: bool = True) -> ChainResult:
+    """Check every stage of the chain; raises InputError for unknown parts. `design_aids`:
+    sensitivity ranking and fixes (engine/fixes.py)."""
     chain = with_overrides(chain, method, samples, seed, margin)
     plans = plan_chain(chain, parts)
     freqs = band_grid(chain, plans)
@@ -49,14 +50,19 @@ def analyse(chain: Chain, parts: Mapping[str, Part], *, method: str | None = Non
     stages = corners.run(prepared, notes=notes)
     method_name = chain.conditions.method
     chain_yield = None
+    corner_stages = stages
     if method_name != "corners":
         from railroom.engine.methods import run_statistical
         stages, chain_yield = run_statistical(method_name, chain, plans, freqs, stages)
+    headroom = headroom_db(prepared)
+    if design_aids:
+        from railroom.engine.fixes import design_aids as aids
+        stages = aids(chain, plans, freqs, stages, corner_stages, headroom)
     return ChainResult(
         chain=chain, method=method_name,
         samples=chain.conditions.samples if method_name == "montecarlo" else None,
         stages=tuple(stages), go=all(s.go for s in stages),
-        headroom_db=headroom_db(prepared), cautions=tuple(chain_cautions(chain)),
+        headroom_db=headroom, cautions=tuple(chain_cautions(chain)),
         chain_yield=chain_yield,
     )
 
