@@ -3,14 +3,21 @@ from __future__ import annotations
 
 from railroom.engine.blocks.base import Block
 from railroom.engine.blocks.comparator import Comparator
+from railroom.engine.blocks.difference import Difference
+from railroom.engine.blocks.filters import MfbBandpass, MfbLowpass, SallenKeyHighpass, SallenKeyLowpass
 from railroom.engine.blocks.gain import Follower, Inverting, Noninverting, Summing
+from railroom.engine.blocks.instrumentation import Instrumentation
+from railroom.engine.blocks.integrator import Integrator
 from railroom.engine.blocks.passive import ConverterInput, Divider, RcLowpass
+from railroom.engine.blocks.schmitt import Schmitt
 
 BLOCKS: dict[str, Block] = {
     block.name: block
     for block in (
         Follower(), Noninverting(), Inverting(), Summing(),
-        Comparator(), Divider(), RcLowpass(), ConverterInput(),
+        Difference(), Instrumentation(), Integrator(),
+        SallenKeyLowpass(), SallenKeyHighpass(), MfbLowpass(), MfbBandpass(),
+        Comparator(), Schmitt(), Divider(), RcLowpass(), ConverterInput(),
     )
 }
 
