@@ -1,7 +1,9 @@
 """`railroom check`: the go / no-go for scripts, a readable table for people."""
 from __future__ import annotations
 
+import json
 import sys
+import warnings
 from pathlib import Path
 
 from rich.console import Console
@@ -12,45 +14,92 @@ from railroom.engine.analysis import analyse, load_checked
 from railroom.engine.model import InputError
 from railroom.engine.report import chain_report
 from railroom.engine.results import ChainResult, StageResult
-from railroom.engine.values import ValueTextError, format_si, parse_value
+from railroom.engine.values import ValueTextError, format_si, parse_value, visible
 from railroom.tui.bars import LEGEND, margin_bar
-from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO, print_json
+from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO
 
 UNITS = {"slew": "V/s", "current": "A"}
 
 
+class CheckRefused(Exception):
+    """The check cannot give a verdict; `lines` say why, each ready for stderr."""
+
+    def __init__(self, lines: list[str]) -> None:
+        self.lines = lines
+        super().__init__("\n".join(lines))
+
+
 def run_check(args) -> int:
-    margin = None
-    if args.margin is not None:
-        try:
-            margin = parse_value(args.margin, "voltage")
-        except ValueTextError as err:
-            print(f"railroom: --margin: {err}", file=sys.stderr)
-            return EXIT_INPUT
+    try:
+        margin = command_line_numbers(args)
+    except CheckRefused as err:
+        report_refusal(err)
+        return EXIT_INPUT
     if len(args.chain) > 1 or Path(args.chain[0]).is_dir():
         from railroom.tui.batch_command import run_batch
         return run_batch(args, margin)
     try:
-        chain, library = load_checked(args.chain[0], tuple(args.presets))
-        result = analyse(chain, library.parts, method=args.method, samples=args.samples,
-                         seed=args.seed, margin=margin)
-    except InputError as err:
-        for problem in err.problems:
-            print(f"railroom: {problem}", file=sys.stderr)
+        result = check_file(args.chain[0], args, margin)
+        if args.json:
+            output = json.dumps(chain_report(result), indent=2, ensure_ascii=False) + "\n"
+        elif getattr(args, "markdown", False):
+            from railroom.engine.markdown import markdown_report
+            output = markdown_report(result)
+        else:
+            output = None
+    except CheckRefused as err:
+        report_refusal(err)
         return EXIT_INPUT
-    except NotImplementedError as err:
-        print(f"railroom: {err}", file=sys.stderr)
-        return EXIT_INPUT
-    if args.json:
-        print_json(chain_report(result))
-    elif getattr(args, "markdown", False):
-        from railroom.engine.markdown import markdown_report
-        sys.stdout.write(markdown_report(result))
+    if output is not None:
+        sys.stdout.write(output)
     else:
         colour = not args.no_color
         console = Console(no_color=not colour, highlight=False, soft_wrap=False)
         print_result(console, result, colour)
     return EXIT_GO if result.go else EXIT_NO_GO
+
+
+def command_line_numbers(args) -> float | None:
+    """--margin, --samples and --seed within the ranges a chain file allows (SPEC section 2)."""
+    problems = []
+    for option, value, low, high in (("--samples", args.samples, 1, 10_000_000),
+                                     ("--seed", args.seed, 0, 2**32 - 1)):
+        if value is not None and not low <= value <= high:
+            problems.append(f"{option}: expected a whole number from {low} to {high}, got {value}")
+    margin = None
+    if args.margin is not None:
+        try:
+            margin = parse_value(args.margin, "voltage")
+            if margin < 0:
+                problems.append(f"--margin: expected 0 V or more, got {args.margin}")
+        except ValueTextError as err:
+            problems.append(f"--margin: {err}")
+    if problems:
+        raise CheckRefused(problems)
+    return margin
+
+
+def check_file(path: str, args, margin: float | None) -> ChainResult:
+    """Load and analyse one chain; every way it can fail becomes CheckRefused, never a traceback."""
+    try:
+        with warnings.catch_warnings():
+            # Overflow inside the arithmetic is judged by the checks; a warning line helps no one.
+            warnings.simplefilter("ignore", RuntimeWarning)
+            chain, library = load_checked(path, tuple(args.presets))
+            return analyse(chain, library.parts, method=args.method, samples=args.samples,
+                           seed=args.seed, margin=margin)
+    except InputError as err:
+        raise CheckRefused([str(p) for p in err.problems]) from None
+    except NotImplementedError as err:
+        raise CheckRefused([f"{path}: {err}"]) from None
+    except Exception as err:  # noqa: BLE001 - the guard: an engine failure is one clear message
+        raise CheckRefused([f"{path}: the check could not finish ({type(err).__name__}: {err}); "
+                            "this is a railroom bug, please report it with the chain file"]) from None
+
+
+def report_refusal(err: CheckRefused) -> None:
+    for line in err.lines:
+        print(f"railroom: {visible(line, 2000)}", file=sys.stderr)
 
 
 def margin_text(result: StageResult) -> str:
@@ -83,12 +132,28 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
     if result.headroom_db is not None:
         console.print(f"headroom: the source amplitude may change by {result.headroom_db:+.2f} dB "
                       "before a stage leaves its linear regime")
+    if result.chain_yield is not None:
+        console.print(f"yield: {result.chain_yield:.2%} of draws keep every stage linear")
     for stage in result.stages:
         if stage.reasons:
             console.print(Text(f"stage {stage.index} ({stage.stage.name}): "
                                f"{', '.join(stage.reasons)}"))
+        print_aids(console, stage)
     for caution in chain_cautions_text(result):
         console.print(Text(f"caution: {caution}", style="yellow" if colour else ""))
+
+
+def print_aids(console: Console, stage: StageResult) -> None:
+    """Probability, sensitivity and fixes of a failing or tight stage (the ones with fixes)."""
+    if stage.measure.probability:
+        console.print(Text(f"  leaves the linear regime in {stage.measure.probability:.3%} of draws"))
+    if not stage.fixes:
+        return
+    if stage.sensitivity:
+        shares = ", ".join(f"{s.quantity} {s.share:.0%}" for s in stage.sensitivity[:3])
+        console.print(Text(f"  sensitivity ({stage.limiting}): {shares}"))
+    for fix in stage.fixes:
+        console.print(Text(f"  fix: {fix.text}"))
 
 
 def regime_text(stage: StageResult, colour: bool) -> Text:
