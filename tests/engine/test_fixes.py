@@ -1,0 +1,99 @@
+"""Fixes land on IEC 60063 values and restore the margin when applied; sensitivity ranks the
+quantity that moves the limiting margin."""
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+import pytest
+
+from railroom.engine.analysis import analyse
+from railroom.engine.eseries import SERIES
+from railroom.engine.files import chain_from_text
+from railroom.engine.model import Part
+from railroom.engine.values import Quantity
+
+PART = Part(id="amp", description="", supply=(1.0, 100.0), supply_abs_max=100.0,
+            output_headroom=(1.0, 1.0), output_resistance=0.0, input_headroom=(1.0, 1.0),
+            gbw=1e9, slew=1e9, open_loop_gain=1e7, offset=1e-3, offset_drift=0.0,
+            bias_current=0.0, output_current=1.0)
+PARTS = {"amp": PART}
+
+# Gain 11 on 0.5 V peak: 5.5 V against a 4 V ceiling (5 V rail less 1 V headroom): clips.
+CLIPPING = """format = 1
+title = "too much gain"
+[conditions]
+margin = "100m"
+method = "{method}"
+[rails.main]
+positive = "5"
+negative = "-5"
+[source]
+amplitude = "500m"
+band = ["10", "1k"]
+[[stage]]
+name = "gain"
+block = "noninverting"
+part = "amp"
+rf = "100k 1%"
+rg = "10k 1%"
+"""
+
+
+def in_series(value: float, series: str) -> bool:
+    """IEC 60063: value = mantissa * 10^n with the mantissa in the series table."""
+    decade = np.floor(np.log10(value))
+    mantissa = value / 10 ** decade
+    return any(abs(mantissa - m) < 1e-9 * m for m in SERIES[series])
+
+
+def with_value(chain, field: str, value: float):
+    stage = chain.stages[0]
+    q = stage.values[field]
+    stage = replace(stage, values={**stage.values, field: Quantity(value, q.tolerance, q.tempco)})
+    return replace(chain, stages=(stage,))
+
+
+@pytest.mark.parametrize("method", ["corners", "rss"])
+def test_fixes_are_series_values_that_restore_the_margin(method):
+    chain = chain_from_text(CLIPPING.format(method=method))
+    result = analyse(chain, PARTS)
+    stage = result.stages[0]
+    assert stage.regime == "clipping" and not stage.go
+    value_fixes = [f for f in stage.fixes if f.field in ("rf", "rg")]
+    assert [f.text.split("(")[1][:3] for f in value_fixes] == ["E24", "E96"]
+    for fix, series in zip(value_fixes, ("E24", "E96")):
+        assert in_series(fix.value, series)
+        fixed = analyse(with_value(chain, fix.field, fix.value), PARTS).stages[0]
+        assert fixed.go and min(fixed.margins[c] for c in ("output-high", "output-low")) >= 0.1
+        # nearest: the series value one step closer to the present value does not work
+        old = chain.stages[0].values[fix.field].value
+        closer = _series_between(old, fix.value, series)
+        if closer:
+            assert not analyse(with_value(chain, fix.field, closer[-1]), PARTS).stages[0].go
+
+
+def _series_between(old: float, new: float, series: str) -> list[float]:
+    from railroom.engine.eseries import values_between
+    lo, hi = sorted((old, new))
+    inside = [v for v in values_between(lo, hi, series) if lo * 1.000001 < v < hi / 1.000001]
+    return sorted(inside, key=lambda v: abs(np.log(v / old)))
+
+
+def test_amplitude_fix_keeps_the_chain_linear():
+    chain = chain_from_text(CLIPPING.format(method="corners"))
+    stage = analyse(chain, PARTS).stages[0]
+    (fix,) = [f for f in stage.fixes if f.field == "source.amplitude"]
+    # 4 V ceiling less 1 mV offset x 11 over the gain's upper extreme 11.2020 (REFERENCES.md): ~0.356 V
+    assert fix.value == pytest.approx((4 - 0.011) / 11.20202, rel=2e-3)
+    lowered = replace(chain, source=replace(chain.source, amplitude=fix.value))
+    assert analyse(lowered, PARTS).stages[0].regime == "linear"
+
+
+def test_sensitivity_names_the_gain_resistors():
+    stage = analyse(chain_from_text(CLIPPING.format(method="rss")), PARTS).stages[0]
+    names = [s.quantity for s in stage.sensitivity]
+    assert set(names[:2]) == {"rf", "rg"}
+    # equal tolerances on rf and rg move G = 1 + rf/rg equally: dG/drf * rf = -dG/drg * rg
+    assert stage.sensitivity[0].share == pytest.approx(stage.sensitivity[1].share, rel=1e-3)
+    assert sum(s.share for s in stage.sensitivity) <= 1.0 + 1e-12

@@ -1,0 +1,165 @@
+"""rss and montecarlo against analytic tolerance results, and the Monte Carlo bookkeeping."""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from railroom.engine.analysis import analyse, band_grid
+from railroom.engine.files import chain_from_text
+from railroom.engine.methods import corners, montecarlo
+from railroom.engine.model import Part
+from railroom.engine.plan import plan_chain
+
+# An op amp close to ideal: huge open-loop gain and bandwidth, no headroom, no errors.
+IDEAL = Part(id="ideal", description="", supply=(1.0, 100.0), supply_abs_max=100.0,
+             output_headroom=(0.0, 0.0), output_resistance=0.0, input_headroom=(0.0, 0.0),
+             gbw=1e15, slew=1e15, open_loop_gain=1e15, offset=0.0, offset_drift=0.0,
+             bias_current=0.0, output_current=1.0)
+PARTS = {"ideal": IDEAL}
+
+
+def gain_eleven(distribution: str = "uniform") -> object:
+    return chain_from_text(f"""
+format = 1
+title = "gain 11"
+[conditions]
+distribution = "{distribution}"
+[rails.main]
+positive = "15"
+negative = "-15"
+[source]
+level = ["1", "1"]
+[[stage]]
+name = "gain"
+block = "noninverting"
+part = "ideal"
+rf = "100k 1%"
+rg = "10k 1%"
+""")
+
+
+def raw_outputs(chain, samples: int, seed: int = 1, chunk: int = 8192) -> np.ndarray:
+    plans = plan_chain(chain, PARTS)
+    freqs = band_grid(chain, plans)
+    layout = montecarlo.layout_for(chain, plans, freqs, corners.run(corners.prepare(chain, plans, freqs)))
+    return np.concatenate([d[0].out_hi for d in montecarlo.sample(layout, samples, seed, chunk)])
+
+
+def analytic_sigma(rf: float, rg: float, sigma_fraction: float, level: float = 1.0) -> float:
+    """G = 1 + rf/rg: dG/drf = 1/rg, dG/drg = -rf/rg^2; sigma_G^2 = sum (dG/dx sigma_x)^2
+    (first-order propagation; ECSS-Q-HB-30-01A root-sum-square)."""
+    return level * np.hypot(sigma_fraction * rf / rg, sigma_fraction * rf / rg)
+
+
+def test_montecarlo_uniform_sigma_converges_to_analytic():
+    # Uniform +/-t has sigma t/sqrt(3) (REFERENCES.md, Methods).
+    out = raw_outputs(gain_eleven(), 200_000)
+    expected = analytic_sigma(100e3, 10e3, 0.01 / np.sqrt(3))      # 0.0816497
+    assert expected == pytest.approx(0.0816497, rel=1e-6)
+    assert np.std(out) == pytest.approx(expected, rel=0.01)
+    assert np.mean(out) == pytest.approx(11.0, abs=1e-3)
+    # uniform draws never leave the extreme values 10.80198 .. 11.20202 (REFERENCES.md)
+    assert out.min() >= 10.80198 - 1e-5 and out.max() <= 11.20202 + 1e-5
+
+
+def test_montecarlo_normal_three_sigma_half_width():
+    # 1 % as 3 sigma: 11 +/- 0.1414 (REFERENCES.md, Tolerance examples).
+    out = raw_outputs(gain_eleven("normal"), 200_000)
+    assert 3 * np.std(out) == pytest.approx(0.1414, rel=0.01)
+
+
+def test_rss_normal_three_sigma_half_width():
+    # RSS with 1 % as 3 sigma: 11 +/- 0.1414 (REFERENCES.md, Tolerance examples).
+    result = analyse(gain_eleven("normal"), PARTS, method="rss")
+    low, high = result.stages[0].measure.output
+    assert (high - low) / 2 == pytest.approx(0.1414, abs=2e-4)
+    assert (high + low) / 2 == pytest.approx(11.0, abs=1e-6)
+
+
+def test_rss_uniform_equals_linearised_formula():
+    # Linearised propagation with sigma = t/sqrt(3): half width 3 * 0.0816497 = 0.244949.
+    result = analyse(gain_eleven(), PARTS, method="rss")
+    low, high = result.stages[0].measure.output
+    assert (high - low) / 2 == pytest.approx(3 * analytic_sigma(100e3, 10e3, 0.01 / np.sqrt(3)),
+                                              rel=1e-6)
+
+
+def follower_chain() -> object:
+    return chain_from_text("""
+format = 1
+title = "follower"
+[rails.main]
+positive = "5"
+negative = "-5"
+tolerance = "2%"
+[source]
+level = ["3", "3"]
+[[stage]]
+name = "buffer"
+block = "follower"
+part = "real"
+""")
+
+
+def test_rss_exact_on_a_linear_margin():
+    """output-high = P (1 + t d_p) - headroom - (V + Vos d_os): linear in every deviate, so the
+    root-sum-square is exact: m0 - 3 sqrt((P t)^2 + Vos^2) / sqrt(3) (ECSS-Q-HB-30-01A)."""
+    part = Part(**{**IDEAL.__dict__, "id": "real", "output_headroom": (0.1, 0.1), "offset": 5e-3})
+    result = analyse(follower_chain(), {"real": part}, method="rss")
+    expected = (5 - 0.1 - 3) - 3 * np.hypot(5 * 0.02, 5e-3) / np.sqrt(3)
+    assert result.stages[0].margins["output-high"] == pytest.approx(expected, abs=1e-9)
+
+
+def test_same_seed_same_answer_and_chunking_does_not_matter():
+    chain = gain_eleven()
+    first = raw_outputs(chain, 5000, seed=7, chunk=8192)
+    assert np.array_equal(first, raw_outputs(chain, 5000, seed=7, chunk=8192))
+    assert np.array_equal(first, raw_outputs(chain, 5000, seed=7, chunk=333))
+    assert not np.array_equal(first, raw_outputs(chain, 5000, seed=8))
+
+
+def test_montecarlo_report_independent_of_chunk_size_and_percentiles_exact():
+    chain = gain_eleven()
+    plans = plan_chain(chain, PARTS)
+    freqs = band_grid(chain, plans)
+    corner = corners.run(corners.prepare(chain, plans, freqs))
+    chain = chain.__class__(**{**chain.__dict__,
+                               "conditions": chain.conditions.__class__(samples=3000, seed=3)})
+    big, yield_big = montecarlo.run(chain, plans, freqs, corner, chunk=4096)
+    small, yield_small = montecarlo.run(chain, plans, freqs, corner, chunk=250)
+    assert big[0].margins == small[0].margins
+    assert big[0].measure.percentiles == small[0].measure.percentiles
+    assert yield_big == yield_small == 1.0
+    # the kept low tail reproduces numpy.percentile (linear interpolation) over every draw
+    out = raw_outputs(chain, 3000, seed=3)
+    margin = 15.0 - out                               # output-high margin of the ideal op amp
+    quoted = big[0].measure.percentiles["output-high"]
+    for label, q in (("0.1%", 0.1), ("1%", 1.0), ("50%", 50.0)):
+        assert quoted[label] == pytest.approx(np.percentile(margin, q), abs=1e-9)
+
+
+def test_probability_and_yield_count_clipping_draws():
+    """Output 11 V +/- 2 % against a 11 V ceiling: about half of the draws clip."""
+    chain = chain_from_text("""
+format = 1
+title = "gain 11 near the rail"
+[conditions]
+samples = 20000
+[rails.main]
+positive = "11"
+negative = "-11"
+[source]
+level = ["1", "1"]
+[[stage]]
+name = "gain"
+block = "noninverting"
+part = "ideal"
+rf = "100k 1%"
+rg = "10k 1%"
+""")
+    result = analyse(chain, PARTS, method="montecarlo")
+    stage = result.stages[0]
+    # G > 11 exactly when rf/rg > 10; by symmetry of the uniform draws about 0.5 (sampling sd 0.0035)
+    assert stage.measure.probability == pytest.approx(0.5, abs=0.02)
+    assert result.chain_yield == pytest.approx(1 - stage.measure.probability, abs=1e-12)
+    assert stage.regime == "clipping" and not result.go
