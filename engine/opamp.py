@@ -70,6 +70,9 @@ def solve_loop(loop: Loop, inverse_gain: np.ndarray) -> LoopSolution:
     }
     plus = {k: loop.a_plus.get(k, 0.0) + loop.gamma * output[k] for k in sources}
     dc = np.atleast_2d(denominator)[..., 0].real
+    rows = max(dc.shape[0], *(np.atleast_1d(np.asarray(z)[..., 0] if np.ndim(z) == 2 else z).shape[0]
+                              for z in (loop.z_plus, loop.z_minus)))
+    dc = np.broadcast_to(dc, (rows,))     # a driving resistance may vary where the loop does not
     ideal = np.atleast_2d(np.broadcast_to(loop.beta - loop.gamma, np.shape(denominator)))[..., 0].real
     return LoopSolution(
         output=output,

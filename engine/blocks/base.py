@@ -59,6 +59,7 @@ class BlockResponse:
     opamps: tuple[OpAmpNodes, ...] = ()
     inner: Mapping[str, Node] = field(default_factory=dict)   # informational internal nodes
     output_resistance: float = 0.0                              # drives the next stage's input
+    output_resistance_span: tuple[float, float] | None = None   # its (min, max) over the corners
     input_load: InputLoad = InputLoad()
 
 

@@ -27,9 +27,11 @@ class Divider(Block):
         top = v["top"] + drive
         bottom = 1.0 / (1.0 / v["bottom"] + load_conductance(v))
         ratio = bottom / (top + bottom) * np.ones_like(s)
+        resistance = top * bottom / (top + bottom)
         return BlockResponse(
             output=Node(transfers={"in": ratio}),
-            output_resistance=float(np.max(top * bottom / (top + bottom))),
+            output_resistance=float(np.max(resistance)),
+            output_resistance_span=(float(np.min(resistance)), float(np.max(resistance))),
             input_load=InputLoad(conductance=float(np.max(1.0 / (v["top"] + bottom)))),
         )
 
@@ -46,9 +48,11 @@ class RcLowpass(Block):
     def respond(self, v, s, inverse_gain, drive, differential):
         r, c, g_load = v["r"] + drive, v["c"], load_conductance(v)
         # Its input draws at most Vin / r (at frequencies far above the corner): conservative.
+        resistance = r / (1.0 + r * g_load)
         return BlockResponse(
             output=Node(transfers={"in": 1.0 / (1.0 + r * g_load + s * r * c)}),
-            output_resistance=float(np.max(r / (1.0 + r * g_load))),
+            output_resistance=float(np.max(resistance)),
+            output_resistance_span=(float(np.min(resistance)), float(np.max(resistance))),
             input_load=InputLoad(conductance=float(np.max(1.0 / v["r"]))),
         )
 
@@ -73,5 +77,7 @@ class ConverterInput(Block):
     }
 
     def respond(self, v, s, inverse_gain, drive, differential):
+        drive = np.asarray(drive, dtype=float)
         return BlockResponse(output=Node(transfers={"in": np.ones_like(s) * np.ones((1, 1))}),
-                             output_resistance=drive)
+                             output_resistance=float(np.max(drive)),
+                             output_resistance_span=(float(np.min(drive)), float(np.max(drive))))

@@ -35,10 +35,17 @@ class Prepared:
     responses: list[BlockResponse | None]
 
 
-def corner_values(plan: StagePlan, temperature_rise: float, nominal: bool = False) -> dict[str, np.ndarray]:
-    """Every corner of the stage's own toleranced values as column arrays (J, 1)."""
+def corner_values(plan: StagePlan, temperature_rise: float, nominal: bool = False,
+                  drive: tuple[float, float] | None = None) -> dict[str, np.ndarray]:
+    """Every corner of the stage's own toleranced values as column arrays (J, 1).
+
+    `drive` is the range of the resistance driving the stage (a toleranced divider before it):
+    its ends are enumerated as one more corner, key "drive", independent of the divider's own
+    values, which bounds the true extremes from outside."""
     ends = {name: ((q.value, q.value) if nominal else spread(q, temperature_rise))
             for name, q in plan.quantities.items()}
+    if drive is not None:
+        ends["drive"] = drive
     varying = [name for name, (lo, hi) in ends.items() if lo != hi][:MAX_CORNER_BITS]
     count = 2 ** len(varying)
     values = {name: np.full((count, 1), ends[name][0]) for name in ends}
@@ -55,17 +62,17 @@ def prepare(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, nominal: bo
     rise = chain.conditions.worst_temperature_rise
     s = laplace_grid(freqs)
     values, responses = [], []
-    drive = chain.source.impedance
+    drive = (chain.source.impedance, chain.source.impedance)
     differential = chain.source.differential
     for plan in plans:
-        v = corner_values(plan, rise, nominal)
+        v = corner_values(plan, rise, nominal, drive)
         inverse_gain = inverse_open_loop(None if ideal else plan.part, s)
         response = None
         if not plan.block.saturates:
-            response = plan.block.respond(v, s, inverse_gain, drive, differential)
-            drive = response.output_resistance
+            response = plan.block.respond(v, s, inverse_gain, v["drive"], differential)
+            drive = response.output_resistance_span or (response.output_resistance,) * 2
         else:
-            drive = plan.part.output_resistance if plan.part else 0.0
+            drive = (plan.part.output_resistance if plan.part else 0.0,) * 2
         differential = False
         values.append(v)
         responses.append(response)
