@@ -163,47 +163,82 @@ def starter_stage(block_name: str, name: str, part: str | None, rails: str | Non
 def add_stage(text: str, position: int, fields: dict) -> str:
     """Insert a stage so that it becomes stage `position` (1-based; past the end appends)."""
     document = tomlkit.parse(text)
-    stages = _stages(document)
     table = tomlkit.table()
     for key, value in fields.items():
         table[key] = value
-    table.add(tomlkit.nl())
-    if position > len(stages):
-        _end_with_blank_line(stages[-1])
-        stages.append(table)
-    else:
-        stages.insert(position - 1, table)
-    return _dumped(document)
+
+    def insert(tables: list, notes: list) -> None:
+        at = min(position, len(tables) + 1) - 1
+        tables.insert(at, table)
+        notes.insert(at, [])
+    return _reordered(document, insert)
 
 
 def remove_stage(text: str, index: int) -> str:
-    document = tomlkit.parse(text)
-    stages = _stages(document)
-    _detach_preamble(stages, index - 1)
-    del stages[index - 1]
-    return _dumped(document)
+    """Remove stage `index` with the comment lines written just above it."""
+    def remove(tables: list, notes: list) -> None:
+        del tables[index - 1], notes[index - 1]
+    return _reordered(tomlkit.parse(text), remove)
 
 
 def move_stage(text: str, index: int, offset: int) -> str:
     """Move stage `index` by `offset` places, with the comment lines written just above it."""
-    document = tomlkit.parse(text)
-    stages = _stages(document)
     target = index - 1 + offset
-    if not 0 <= target < len(stages) or offset == 0:
+    document = tomlkit.parse(text)
+    if not 0 <= target < len(_stages(document)) or offset == 0:
         return text
-    preamble = _detach_preamble(stages, index - 1)
-    table = stages[index - 1]
-    _end_with_blank_line(table)
-    del stages[index - 1]
-    stages.insert(target, table)
-    if target > 0:
-        _end_with_blank_line(stages[target - 1])
-        stages[target - 1].value.body.extend(preamble)
-    elif preamble:
-        # comments above the first [[stage]] sit in the document itself, just before the array
-        at = next(i for i, (key, item) in enumerate(document.body) if item is stages)
-        document.body[at:at] = preamble
+
+    def move(tables: list, notes: list) -> None:
+        tables.insert(target, tables.pop(index - 1))
+        notes.insert(target, notes.pop(index - 1))
+    return _reordered(document, move)
+
+
+def _reordered(document, change) -> str:
+    """Take every stage with its own comment lines (tomlkit keeps the lines above a table at the
+    end of whatever comes before it), change their order, and put them back together."""
+    stages = _stages(document)
+    tables = list(stages.body)
+    notes = [_detach_tail(_holder_before(document, stages, tables, i)) for i in range(len(tables))]
+    change(tables, notes)
+    while len(stages):
+        del stages[0]
+    for i, table in enumerate(tables):
+        _end_with_blank_line(table)
+        stages.append(table)
+        _holder_before(document, stages, tables, i).extend(notes[i])
     return _dumped(document)
+
+
+def _holder_before(document, stages: AoT, tables: list, i: int) -> list:
+    """The body list whose end holds the lines written just above stage i."""
+    if i > 0:
+        return tables[i - 1].value.body
+    at = next(k for k, (_, item) in enumerate(document.body) if item is stages)
+    before = document.body[at - 1][1] if at > 0 else None
+    if isinstance(before, Table):
+        return before.value.body
+    return _DocumentSlot(document.body, at)
+
+
+class _DocumentSlot(list):
+    """Comment lines that sit in the document itself, right before the [[stage]] array."""
+
+    def __init__(self, body: list, at: int) -> None:
+        start = at
+        while start > 0 and body[start - 1][0] is None and isinstance(body[start - 1][1],
+                                                                      (Comment, Whitespace)):
+            start -= 1
+        super().__init__(body[start:at])
+        self.body, self.start, self.at = body, start, at
+
+    def __delitem__(self, item: slice) -> None:
+        del self.body[self.start + (item.start or 0):self.at]
+        super().__delitem__(item)
+
+    def extend(self, items) -> None:
+        at = next(k for k, (key, _) in enumerate(self.body) if key is not None and key.key == "stage")
+        self.body[at:at] = list(items)
 
 
 def _stages(document) -> AoT:
@@ -221,23 +256,18 @@ def _put(table: Table, key: str, value) -> None:
         table[key] = value
 
 
-def _detach_preamble(stages: AoT, position: int) -> list:
-    """Take the comment lines just above stage `position` (they sit at the end of the stage
-    before it in tomlkit's tree), so they travel with the stage they describe."""
-    if position == 0:
-        return []
-    body = stages[position - 1].value.body
+def _detach_tail(body: list) -> list:
+    """Remove and return the comment lines (with the blank lines among them) at the end of body."""
     start = len(body)
     while start > 0 and body[start - 1][0] is None and isinstance(body[start - 1][1],
                                                                   (Comment, Whitespace)):
         start -= 1
-    tail = body[start:]
-    first_comment = next((i for i, (_, item) in enumerate(tail) if isinstance(item, Comment)), None)
-    if first_comment is None:
+    tail = list(body[start:])
+    first = next((i for i, (_, item) in enumerate(tail) if isinstance(item, Comment)), None)
+    if first is None:
         return []
-    preamble = tail[first_comment:]
-    del body[start + first_comment:]
-    return preamble
+    del body[start + first:]
+    return tail[first:]
 
 
 def _dumped(document) -> str:

@@ -202,7 +202,18 @@ class RailroomApp(App):
         except ImportError:
             self.notify("the presets screen is not available yet", severity="warning")
             return
-        self.push_screen(PresetsScreen(list(self.session.library.folders)))
+        from railroom.engine.presets import user_folder
+        self.push_screen(PresetsScreen(list(self.session.library.folders), user_folder(),
+                                       on_change=self.presets_changed))
+
+    def presets_changed(self) -> None:
+        """A preset was edited: read the library again and check the chain against it."""
+        problems = self.session.reload_library()
+        if problems:
+            self.notify("\n".join(str(p) for p in problems[:4]), title="presets",
+                        severity="error", markup=False)
+            return
+        self.recheck()
 
 
 def build_app(chain_path: str | Path | None = None,

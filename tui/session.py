@@ -89,6 +89,16 @@ class Session:
         self.text = text
         return True
 
+    def reload_library(self) -> list[Problem]:
+        """Read the preset folders again (a preset changed); keep the old library on a problem."""
+        library = load_library(search_order(self.chain.preset_dirs, self.extra_preset_dirs))
+        try:
+            plan_chain(self.chain, library.parts)
+        except InputError as err:
+            return list(err.problems)
+        self.library = library
+        return []
+
     def _library_for(self, chain: Chain) -> Library:
         if chain.preset_dirs == self.chain.preset_dirs:
             return self.library

@@ -18,6 +18,11 @@ from textual.widgets import Input, Label, Select
 
 from railroom.engine.editing import FieldShape, value_problem
 
+# Control characters (a pasted escape sequence) would restyle the terminal if echoed: the field
+# shows them as the Unicode control pictures (U+2400 block) and the value is refused.
+CONTROL_PICTURES = {code: 0x2400 + code for code in range(32)} | {127: 0x2421}
+CONTROL_PROBLEM = "control characters are not allowed here (shown as ␛ and the like)"
+
 Apply = Callable[[str, str], str | None]     # (field key, typed text) -> problem or None
 
 
@@ -81,6 +86,10 @@ class FieldForm(ModalScreen[None]):
 
     def on_input_changed(self, event: Input.Changed) -> None:
         event.stop()
+        shown = event.value.translate(CONTROL_PICTURES)
+        if shown != event.value:
+            event.input.value = shown         # posts another Changed, judged as refused below
+            return
         self._judge(event.input.id.removeprefix("field-"), event.value)
 
     def on_select_changed(self, event: Select.Changed) -> None:
@@ -92,7 +101,10 @@ class FieldForm(ModalScreen[None]):
         field = self.fields[key]
         if text == field.text and key not in self.drafts:
             return
-        problem = value_problem(text, field.shape) or self.apply(key, text)
+        if any(0x2400 <= ord(c) <= 0x2421 for c in text):
+            problem = CONTROL_PROBLEM
+        else:
+            problem = value_problem(text, field.shape) or self.apply(key, text)
         message = self.query_one(f"#message-{key}", Label)
         if problem:
             self.drafts[key] = text
