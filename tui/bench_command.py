@@ -1,0 +1,61 @@
+"""`railroom bench [--json]`: the engine's figures plus the whole-process and interface times."""
+from __future__ import annotations
+
+import os
+import statistics
+import subprocess
+import sys
+import time
+from importlib import resources
+
+from rich.console import Console
+from rich.table import Table
+
+from railroom.tui.cli import EXIT_GO, print_json
+
+CHECK_RUNS = 3
+TARGETS = {"corners_ms": "<= 20", "montecarlo_1e4_ms": "<= 50", "montecarlo_1e5_ms": "<= 400",
+           "montecarlo_1e6_peak_mb": "<= 300", "per_draw_ratio": ">= 100", "same_answers": "true"}
+
+
+def check_process_seconds(runs: int = CHECK_RUNS) -> float:
+    """Median wall time of a `railroom check` process on the built-in demo chain."""
+    demo = resources.files("railroom.engine.demos") / "pump_vibration.toml"
+    command = [sys.executable, "-m", "railroom.tui.cli", "check", str(demo)]
+    times = []
+    for _ in range(runs):
+        start = time.perf_counter()
+        subprocess.run(command, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+                       env=dict(os.environ), check=False)
+        times.append(time.perf_counter() - start)
+    return round(statistics.median(times), 3)
+
+
+def interface_times() -> tuple[float | None, float | None]:
+    try:
+        from railroom.tui import timing
+    except ImportError:
+        return None, None
+    return (round(timing.first_screen_seconds(), 3), round(timing.edit_repaint_ms(stages=20), 1))
+
+
+def bench_figures(**engine_options) -> dict:
+    from railroom.engine.bench import run
+    figures = run(**engine_options)
+    figures["check_process_s"] = check_process_seconds()
+    figures["interface_first_screen_s"], figures["interface_edit_ms"] = interface_times()
+    return figures
+
+
+def run_bench(args) -> int:
+    figures = bench_figures()
+    if args.json:
+        print_json(figures)
+        return EXIT_GO
+    table = Table(box=None, pad_edge=False, show_edge=False)
+    for column in ("figure", "value", "target"):
+        table.add_column(column)
+    for key, value in figures.items():
+        table.add_row(key, "-" if value is None else str(value), TARGETS.get(key, ""))
+    Console(highlight=False).print(table)
+    return EXIT_GO
