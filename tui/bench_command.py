@@ -36,7 +36,16 @@ def interface_times() -> tuple[float | None, float | None]:
         from railroom.tui import timing
     except ImportError:
         return None, None
-    return (round(timing.first_screen_seconds(), 3), round(timing.edit_repaint_ms(stages=20), 1))
+    return (measured(timing.first_screen_seconds, 3), measured(lambda: timing.edit_repaint_ms(stages=20), 1))
+
+
+def measured(call, digits: int) -> float | None:
+    """The interface's own timing; null (and one line on stderr) when it fails."""
+    try:
+        return round(call(), digits)
+    except Exception as err:  # noqa: BLE001 - another layer's failure must not stop the bench
+        print(f"railroom bench: interface timing failed: {err}", file=sys.stderr)
+        return None
 
 
 def bench_figures(**engine_options) -> dict:
