@@ -254,3 +254,89 @@ def test_schmitt_noninverting_thresholds():
                    part=SATURATES_AT_12, rails="13.5")
     to_high, to_low = result.stages[0].measure.thresholds
     assert to_high == pytest.approx((1.2, 1.2)) and to_low == pytest.approx((-1.2, -1.2))
+
+
+def test_single_ended_difference_and_instrumentation_work_against_ref():
+    # SPEC section 2: after a single-ended stage `in` drives r3 and r1 returns to ref, so a
+    # matched difference amplifier gives (r2/r1)(in - ref) + ref (Sedra & Smith ch. 2);
+    # the instrumentation amplifier likewise: ref + (1 + 2 rf/rg)(in - ref)
+    follower = '[[stage]]\nname = "buffer"\nblock = "follower"\npart = "ideal"\n'
+    difference = ('[[stage]]\nname = "diff"\nblock = "difference"\npart = "ideal"\n'
+                  'r1 = "10k"\nr2 = "20k"\nr3 = "10k"\nr4 = "20k"\nref = "1"\n')
+    result = check('level = ["2", "2.5"]', follower + difference)
+    assert result.stages[1].measure.output == pytest.approx((3.0, 4.0), abs=1e-6)
+    amplifier = ('[[stage]]\nname = "ia"\nblock = "instrumentation"\npart = "ideal"\n'
+                 'rg = "10k"\nrf = "45k"\nref = "1"\n')
+    result = check('level = ["1.1", "1.2"]', follower + amplifier)
+    assert result.stages[1].measure.output == pytest.approx((2.0, 3.0), abs=1e-6)  # G = 10
+    lower = node_of(result.stages[1], "first stage, lower op amp")
+    # lower op amp: its + input on ref (1 V), its output 1 - 4.5 (in - 1)
+    assert lower.output == pytest.approx((1 - 4.5 * 0.2, 1 - 4.5 * 0.1), abs=1e-6)
+
+
+def node_of(stage, label):
+    return next(a for a in stage.measure.opamps if a.label == label)
+
+
+EVERY_BLOCK = '''
+[[stage]]
+name = "diff"
+block = "difference"
+part = "ideal"
+r1 = "10k 1%"
+r2 = "10k 1%"
+r3 = "10k 1%"
+r4 = "10k 1%"
+[[stage]]
+name = "integrator"
+block = "integrator"
+part = "ideal"
+rin = "10k 1%"
+rf = "100k 1%"
+c = "10n 5%"
+[[stage]]
+name = "high-pass"
+block = "sallen_key_highpass"
+part = "ideal"
+c1 = "100n 5%"
+c2 = "100n 5%"
+r1 = "11k 1%"
+r2 = "22k 1%"
+[[stage]]
+name = "band-pass"
+block = "mfb_bandpass"
+part = "ideal"
+r1 = "10k 1%"
+r2 = "100k 1%"
+r3 = "1k 1%"
+c1 = "10n 5%"
+c2 = "10n 5%"
+[[stage]]
+name = "low-pass"
+block = "mfb_lowpass"
+part = "ideal"
+r1 = "10k 1%"
+r2 = "10k 1%"
+r3 = "10k 1%"
+c1 = "100n 5%"
+c2 = "10n 5%"
+[[stage]]
+name = "trigger"
+block = "schmitt"
+part = "ideal"
+r1 = "10k 1%"
+r2 = "100k 1%"
+'''
+
+
+@pytest.mark.parametrize("method", ["corners", "rss", "montecarlo"])
+def test_every_new_block_in_one_chain_under_every_method(method):
+    # Common practice: +/-15 V rails, a 1 V differential signal around 0 V. Every linear stage
+    # stays linear (nothing reaches 14 V) and the trigger sits at its saturated levels.
+    source = 'kind = "differential"\nlevel = ["-1", "1"]\namplitude = "1"\nband = ["10", "10k"]'
+    text = (f'format = 1\n[conditions]\nmethod = "{method}"\nsamples = 500\n[rails.main]\n'
+            f'positive = "15"\nnegative = "-15"\n[source]\n{source}\n{EVERY_BLOCK}')
+    result = analyse(chain_from_text(text), {"ideal": SATURATES_AT_12})
+    regimes = [s.regime for s in result.stages]
+    assert regimes == ["linear"] * 5 + ["saturated"]
+    assert result.stages[-1].measure.output == pytest.approx((-13.5, 13.5))
