@@ -1,0 +1,10 @@
+"""`railroom schema chain|preset|report`: print a JSON Schema for editors and scripts."""
+from __future__ import annotations
+
+from railroom.engine.schema import SCHEMAS
+from railroom.tui.cli import EXIT_GO, print_json
+
+
+def run_schema(args) -> int:
+    print_json(SCHEMAS[args.kind]())
+    return EXIT_GO
