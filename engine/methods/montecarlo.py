@@ -66,21 +66,22 @@ def sample(layout: dw.Layout, samples: int, seed: int, chunk: int = CHUNK_ROWS
 
 def series_of(draws: list[dw.StageDraws]) -> dict[tuple, np.ndarray]:
     """Every quantity quoted, keyed (stage, amp or None, name); upper spans negated so every
-    series is read at its low tail."""
+    series is read at its low tail. Per-op-amp series only where a stage has several op amps."""
     found = {}
     for k, stage in enumerate(draws):
-        for j, amp in enumerate(stage.amps):
+        for j, amp in enumerate(stage.amps if len(stage.amps) > 1 else ()):
             for name, value in amp.items():
-                if name == "spans":
-                    for span, x in value.items():
-                        if not span.startswith("window"):
-                            found[(k, j, span)] = -x if span.endswith("high") else x
-                else:
+                if name != "spans":
                     found[(k, j, name)] = value
+            for span in ("out-low", "out-high"):
+                found[(k, j, span)] = amp["spans"][span] * (-1 if span.endswith("high") else 1)
         for name, value in stage.margins.items():
             found[(k, None, name)] = value
         found[(k, None, "out-low")] = stage.out_lo
         found[(k, None, "out-high")] = -stage.out_hi
+        if stage.amps:
+            found[(k, None, "in-low")] = np.minimum.reduce([a["spans"]["in-low"] for a in stage.amps])
+            found[(k, None, "in-high")] = -np.maximum.reduce([a["spans"]["in-high"] for a in stage.amps])
     return found
 
 
@@ -143,17 +144,21 @@ def stage_results(plans, corner_stages, quoted, probability, required):
     results = []
     clipped_before = False
     for k, (plan, corner) in enumerate(zip(plans, corner_stages)):
+        stage = {name: v for (s, a, name), v in deciding.items() if s == k and a is None}
         amps = []
         for j in range(len(corner.measure.opamps)):
             stat = {name: float(v) for (s, a, name), v in deciding.items() if s == k and a == j}
+            if not stat:       # one op amp: the stage's own series are its
+                stat = {n: float(v) for n, v in stage.items() if n != "supply"}
+            stat.setdefault("in-low", stage["in-low"])
+            stat.setdefault("in-high", stage["in-high"])
             amps.append({n: (-v if n in ("out-high", "in-high") else v) for n, v in stat.items()})
-        stage = {name: v for (s, a, name), v in deciding.items() if s == k and a is None}
         out_span = (float(stage["out-low"]), float(-stage["out-high"]))
         window = None
         if plan.block.window_only:
             window = {c: float(stage[c]) for c in ("output-high", "output-low")}
         percentiles = {check: {label: float(quoted[label][(k, None, check)]) for label in QUOTED}
-                       for check in stage if not check.startswith("out-")}
+                       for check in stage if not check.startswith(("out-", "in-"))}
         result = judged(plan, corner, amps, out_span, window, required, clipped_before,
                         float(probability[k]), percentiles)
         clipped_before = clipped_before or result.regime == "clipping"

@@ -1,7 +1,8 @@
 """Property: on monotone chains no Monte Carlo draw lands outside the corners bounds.
 
 Extreme value analysis bounds every built circuit when each output is monotone in each
-toleranced value (ECSS-Q-HB-30-01A, extreme value analysis): gain stages and dividers are.
+toleranced value (ECSS-Q-HB-30-01A, extreme value analysis): gain stages and dividers are, up to
+the first stage that may clip.
 """
 from __future__ import annotations
 
@@ -71,5 +72,8 @@ def test_no_draw_outside_corners(kinds, values, tolerance, level, amplitude):
             if check == "supply" or check not in stage.margins:
                 continue
             assert np.all(stage.margins[check] >= worst - 1e-9 * (1 + abs(worst))), check
-        if bound.regime == "linear":
-            assert stage.linear.all()
+        if bound.regime != "linear":
+            # past a clipping stage corners carry the clamp at the worst window, which a single
+            # circuit clipping at its own (wider) window may exceed: no bound from there on
+            break
+        assert stage.linear.all()
