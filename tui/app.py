@@ -72,40 +72,39 @@ class RailroomApp(App):
         return None
 
     def recheck(self) -> None:
-        """Corners at once on this thread; the file's statistical method in a worker after."""
+        """Corners at once on this thread; then, in a worker, the file's own method with the
+        design aids (sensitivity, fixes). A newer edit cancels the older run."""
         self._generation += 1
         self.result = self.session.corners()
         method = self.session.chain.conditions.method
         note = f"{method} running..." if method != "corners" else ""
         self.chain_screen.show(self.result, note)
-        if method != "corners":
-            self.run_statistical(self._generation, self.session.chain, self.session.library.parts)
-        else:
-            self.workers.cancel_group(self, "statistical")
-            self.chain_screen.query_one("StatusLine").running(False)
+        self.chain_screen.query_one("StatusLine").running(method != "corners")
+        self.run_full(self._generation, self.session.chain, self.session.library.parts)
 
-    @work(thread=True, exclusive=True, group="statistical")
-    def run_statistical(self, generation: int, chain, parts) -> None:
+    @work(thread=True, exclusive=True, group="full-check")
+    def run_full(self, generation: int, chain, parts) -> None:
         worker = get_current_worker()
-        self.call_from_thread(self.chain_screen.query_one("StatusLine").running, True)
+        problem = ""
         try:
             result = analyse(chain, parts)
         except (NotImplementedError, InputError, ValueError) as err:
-            if not worker.is_cancelled:
-                self.call_from_thread(self.statistical_done, generation, None, str(err))
-            return
+            problem = str(err)
+            if worker.is_cancelled:
+                return
+            result = analyse(chain, parts, method="corners")
         if not worker.is_cancelled:
-            self.call_from_thread(self.statistical_done, generation, result, "")
+            self.call_from_thread(self.full_done, generation, result, problem)
 
-    def statistical_done(self, generation: int, result: ChainResult | None, problem: str) -> None:
+    def full_done(self, generation: int, result: ChainResult, problem: str) -> None:
         if generation != self._generation:
             return                       # the user changed something meanwhile: a newer run owns it
         self.chain_screen.query_one("StatusLine").running(False)
-        if result is None:
-            self.chain_screen.show(self.result, f"{problem}; showing corners")
-            self.notify(problem, title="method", severity="warning")
+        self.result = result
+        if problem:
+            self.chain_screen.show(result, f"{problem}; showing corners")
+            self.notify(problem, title="method", severity="warning", markup=False)
         else:
-            self.result = result
             self.chain_screen.show(result)
 
     # the file

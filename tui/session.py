@@ -57,12 +57,9 @@ class Session:
         return sorted(self.library.parts)
 
     def corners(self) -> ChainResult:
-        """Worst case by corners, whatever method the file asks for: the at-once answer."""
-        return analyse(self.chain, self.library.parts, method="corners")
-
-    def statistical(self) -> ChainResult:
-        """The file's own method (may raise NotImplementedError while it is being built)."""
-        return analyse(self.chain, self.library.parts)
+        """Worst case by corners, whatever method the file asks for, without the design aids
+        (sensitivity and fixes re-run the chain many times): the at-once answer."""
+        return analyse(self.chain, self.library.parts, method="corners", design_aids=False)
 
     def edit(self, change: Callable[[str], str]) -> list[Problem]:
         """Apply an edit of the text; keep it only when it loads. Returns the problems, if any."""

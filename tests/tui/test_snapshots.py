@@ -1,0 +1,26 @@
+"""Pictures of the main screen (pytest-textual-snapshot). After a deliberate change to the screen:
+pytest tests/tui/test_snapshots.py --snapshot-update, then look at the new pictures."""
+from __future__ import annotations
+
+
+async def settled(pilot) -> None:
+    """Wait for the background check (design aids) so the picture does not race it."""
+    await pilot.app.workers.wait_for_complete()
+    await pilot.pause()
+
+
+def test_main_screen_80x24(snap_compare, make_app):
+    assert snap_compare(make_app(None), terminal_size=(80, 24), run_before=settled)
+
+
+def test_main_screen_120x40(snap_compare, make_app):
+    assert snap_compare(make_app(None), terminal_size=(120, 40), run_before=settled)
+
+
+def test_level_view_120x40(snap_compare, make_app):
+    assert snap_compare(make_app(None), press=["j", "v"], terminal_size=(120, 40), run_before=settled)
+
+
+def test_main_screen_no_color(snap_compare, make_app, monkeypatch):
+    monkeypatch.setenv("NO_COLOR", "1")        # Textual reads it when the app is built
+    assert snap_compare(make_app(None), terminal_size=(80, 24), run_before=settled)
