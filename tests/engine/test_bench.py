@@ -19,6 +19,7 @@ def test_engine_bench_tiny():
 def test_bench_command_keys(monkeypatch):
     from railroom.tui import bench_command
     monkeypatch.setattr(bench_command, "check_process_seconds", lambda runs=3: 0.5)
+    monkeypatch.setattr(bench_command, "interface_times", lambda: (None, None))
     figures = bench_command.bench_figures(sizes=(100, 100, 100), repeats=1, reference_draws=3)
     assert set(figures) == SPEC_KEYS
 
