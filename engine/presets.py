@@ -12,6 +12,7 @@ from pathlib import Path
 
 from railroom.engine.model import Part, Problem
 from railroom.engine.reading import FieldReader, parse_toml
+from railroom.engine.values import has_control
 
 PART_FIELDS = {
     # key: (kind, is a pair, required)
@@ -111,6 +112,9 @@ def parts_from_text(text: str, path: str) -> tuple[list[Part], list[Problem]]:
 
 def _read_part(part_id: str, t, r: FieldReader) -> Part | None:
     w = f"part.{part_id}"
+    if has_control(part_id):
+        r.problem(w, "expected a part id without control characters")
+        return None
     if not isinstance(t, dict):
         r.problem(w, "expected a table of part fields")
         return None
