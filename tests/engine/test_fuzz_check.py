@@ -20,8 +20,9 @@ BATCH_FILES = 200
 
 
 def railroom(*args: str, timeout: float = TIMEOUT_S) -> subprocess.CompletedProcess:
+    env = {**os.environ, "COLUMNS": "240"}   # a wide table: names are not wrapped
     return subprocess.run([sys.executable, "-m", "railroom.tui.cli", *args], capture_output=True,
-                          text=True, timeout=timeout, stdin=subprocess.DEVNULL)
+                          text=True, timeout=timeout, stdin=subprocess.DEVNULL, env=env)
 
 
 def assert_well_behaved(run: subprocess.CompletedProcess, chain: Path) -> None:
@@ -76,3 +77,14 @@ def test_batch_check_of_a_folder_of_hostile_files(tmp_path_factory, texts):
     assert [f"{i:03}.toml" in line for i, line in enumerate(lines)] == [True] * BATCH_FILES
     assert not has_control(run.stdout) and not has_control(run.stderr)
     assert {p.name: p.read_bytes() for p in folder.iterdir()} == before
+
+
+def test_rich_markup_in_names_is_printed_as_written(tmp_path):
+    chain = tmp_path / "markup.toml"
+    text = DEMO_CHAIN.read_text(encoding="utf-8").replace(
+        'name = "gain x10"', 'name = "[bold red]gain[/] [link=http://e.example]x10[/link]"')
+    before = write(chain, text)
+    run = railroom("check", str(chain))
+    assert run.returncode == 1
+    assert "[bold red]gain[/] [link=http://e.example]x10[/link]" in run.stdout
+    assert chain.read_bytes() == before

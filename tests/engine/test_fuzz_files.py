@@ -188,3 +188,12 @@ def test_extreme_but_accepted_sizes_give_a_report_or_located_problems(text):
             assert err.problems
             return
     json.dumps(chain_report(result), allow_nan=False)
+
+
+def test_control_characters_in_a_part_id_are_refused_and_shown_escaped():
+    text = GENERIC_PRESETS.read_text(encoding="utf-8").replace(
+        "[part.generic-fast]", '[part."fast\\u001b[2J"]')
+    parts, problems = parts_from_text(text, "lab.toml")
+    assert "generic-fast" not in {p.id for p in parts} and len(parts) == 5
+    assert [p.field for p in problems] == ["part.fast\\x1b[2J"]
+    assert_located(problems, "lab.toml", text)
