@@ -29,6 +29,11 @@ LABELS = ("first stage, upper op amp", "first stage, lower op amp", "difference 
 OPAMPS = len(LABELS)
 
 
+def dc(transfer: np.ndarray) -> np.ndarray:
+    """The DC column of a transfer, shape (J, 1)."""
+    return transfer[:, :1].real
+
+
 def first_stage(rf, rg, inverse_gain, positive: str, negative: str,
                 drives: tuple[float, float]) -> tuple[Node, Node]:
     """Outputs of the upper and lower input op amps, with their offset and bias gains."""
@@ -36,7 +41,6 @@ def first_stage(rf, rg, inverse_gain, positive: str, negative: str,
     difference = 1.0 / (inverse_gain + half / (rf + half))
     common = 1.0 / (inverse_gain + 1.0) + 0.0 * difference
     same, cross = (common + difference) / 2.0, (common - difference) / 2.0
-    dc = lambda x: x[:, :1].real  # noqa: E731 - DC column, shape (J, 1)
     shunt = rf * half / (rf + half)
     minus_same = np.abs(rf * dc(common) + shunt * dc(difference)) / 2.0
     minus_cross = np.abs(rf * dc(common) - shunt * dc(difference)) / 2.0
