@@ -1,0 +1,72 @@
+"""headroom_db against a plain bisection on the source amplitude and a hand calculation."""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from railroom.engine.analysis import analyse, headroom_db
+from railroom.engine.files import chain_from_text
+from railroom.engine.methods import corners
+from railroom.engine.model import Part
+from railroom.engine.plan import plan_chain
+from railroom.engine.analysis import band_grid
+
+PART = Part(id="p", description="", supply=(1.0, 100.0), supply_abs_max=100.0,
+            output_headroom=(1.0, 1.0), output_resistance=0.0, input_headroom=(1.0, 1.0),
+            gbw=1e12, slew=1e12, open_loop_gain=1e12, offset=0.0, offset_drift=0.0,
+            bias_current=0.0, output_current=1.0)
+
+
+def chain(gain_rf: str, amplitude: str, level: str = "0") -> str:
+    return f"""
+[rails.main]
+positive = "15"
+negative = "-15"
+[source]
+level = ["{level}", "{level}"]
+amplitude = "{amplitude}"
+band = ["10", "1k"]
+[[stage]]
+block = "noninverting"
+part = "p"
+rf = "{gain_rf}"
+rg = "10k"
+"""
+
+
+def test_headroom_matches_hand_calculation():
+    # Gain 10 (1 + 90k/10k, Sedra & Smith ch. 2), window 14 V (15 V rail less 1 V headroom):
+    # the source may reach 1.4 V peak; from 0.1 V that is 20 log10(14) = 22.92 dB.
+    result = analyse(chain_from_text(chain("90k", "100m")), {"p": PART})
+    assert result.headroom_db == pytest.approx(20 * np.log10(14.0), abs=0.011)
+
+
+def test_headroom_negative_when_the_amplitude_must_fall():
+    # 2 V peak into gain 10 needs 20 V: it must fall to 1.4 V, -3.10 dB (20 log10(1.4/2)).
+    result = analyse(chain_from_text(chain("90k", "2")), {"p": PART})
+    assert result.headroom_db == pytest.approx(20 * np.log10(0.7), abs=0.011)
+
+
+def test_headroom_none_when_dc_alone_fails():
+    # 2 V DC into gain 10 is 20 V: beyond the 14 V window whatever the AC part does
+    result = analyse(chain_from_text(chain("90k", "100m", level="2")), {"p": PART})
+    assert result.headroom_db is None
+
+
+@pytest.mark.parametrize("path", ["engine/demos/pump_vibration.toml"])
+def test_headroom_agrees_with_plain_bisection(path):
+    from railroom.engine.presets import load_library, search_order
+    from railroom.engine.files import load_chain
+    loaded = load_chain(path)
+    parts = load_library(search_order()).parts
+    plans = plan_chain(loaded, parts)
+    prepared = corners.prepare(loaded, plans, band_grid(loaded, plans))
+
+    def linear(db: float) -> bool:
+        return all(r.regime != "clipping" for r in corners.run(prepared, 10 ** (db / 20)))
+
+    low, high = -60.0, 60.0
+    while high - low > 0.005:
+        middle = (low + high) / 2
+        low, high = (middle, high) if linear(middle) else (low, middle)
+    assert headroom_db(prepared) == pytest.approx(low, abs=0.011)
