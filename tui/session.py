@@ -59,7 +59,8 @@ class Session:
     def corners(self) -> ChainResult:
         """Worst case by corners, whatever method the file asks for, without the design aids
         (sensitivity and fixes re-run the chain many times): the at-once answer."""
-        return analyse(self.chain, self.library.parts, method="corners", design_aids=False)
+        return analyse(self.chain, self.library.parts, method="corners", design_aids=False,
+                       headroom=False)
 
     def edit(self, change: Callable[[str], str]) -> list[Problem]:
         """Apply an edit of the text; keep it only when it loads. Returns the problems, if any."""
