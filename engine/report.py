@@ -48,8 +48,10 @@ def stage_report(result: StageResult) -> dict:
         "cautions": list(result.cautions),
     }
     if m.thresholds is not None:
-        report["thresholds"] = {"rising": [_number(x) for x in m.thresholds[0]],
-                                "falling": [_number(x) for x in m.thresholds[1]]}
+        # input levels at which the output switches high and switches low (either may be the
+        # upper one: an inverting trigger goes high as its input falls)
+        report["thresholds"] = {"to_high": [_number(x) for x in m.thresholds[0]],
+                                "to_low": [_number(x) for x in m.thresholds[1]]}
     if result.sensitivity:
         report["sensitivity"] = [{"quantity": s.quantity, "share": _number(s.share, 3)}
                                  for s in result.sensitivity]
