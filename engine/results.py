@@ -81,6 +81,27 @@ class StageResult:
     def index(self) -> int:
         return self.measure.index
 
+    @property
+    def drawn(self) -> tuple[Span, Span | None, str | None]:
+        """(span, window, op amp label) to draw for the stage: the op amp inside it with the least
+        room to its swing window, so a clipping first stage shows even when the output looks fine."""
+        m = self.measure
+        if m.saturated or len(m.opamps) < 2:
+            return m.output, m.window, None
+        worst = min(m.opamps, key=lambda a: min(a.window[1] - a.output[1], a.output[0] - a.window[0]))
+        if min(worst.window[1] - worst.output[1], worst.output[0] - worst.window[0]) >= min(
+                (m.window[1] - m.output[1], m.output[0] - m.window[0]) if m.window else (0.0,)):
+            return m.output, m.window, None
+        return worst.output, worst.window, worst.label
+
+    def reason_words(self) -> str:
+        """The failing checks, each with the op amp that fails it inside a multi-op-amp block."""
+        words = []
+        for reason in self.reasons:
+            node = self.failing_nodes.get(reason) if len(self.measure.opamps) > 1 else None
+            words.append(f"{reason} ({node})" if node else reason)
+        return ", ".join(words)
+
 
 @dataclass(frozen=True)
 class ChainResult:

@@ -13,7 +13,7 @@ from __future__ import annotations
 
 from rich.text import Text
 
-LEGEND = "▓ beyond the part's reach   ─ free window   █ worst-case span   X past the window   ┊ 0 V"
+LEGEND = "▓ beyond reach   ─ free window   █ worst-case span   X past the window   ┊ 0 V"
 SHORT_LEGEND = "▓ out of reach  ─ window  █ span  X overshoot  ┊ 0 V"
 
 

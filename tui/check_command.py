@@ -120,13 +120,21 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
     header.append("  verdict ")
     header.append(verdict, style=("bold green" if result.go else "bold red") if colour else "")
     console.print(header)
+    wide = console.width >= 120
     table = Table(box=None, pad_edge=False, show_edge=False)
-    for column in ("#", "stage", "block", "part", "regime", "limiting margin", "rail span"):
-        table.add_column(column, no_wrap=column != "stage")
+    columns = ("#", "stage", "block", "part", "regime", "limiting margin", "rail span") if wide else (
+        "#", "stage", "regime", "limiting margin", "rail span")
+    for column in columns:
+        table.add_column(column, no_wrap=True, overflow="ellipsis",
+                         min_width=8 if column == "stage" else None)
+    bar_width = 24 if wide else max(12, min(24, console.width - 58))
     for stage in result.stages:
-        table.add_row(str(stage.index), Text(stage.stage.name), stage.stage.block,
-                      Text(stage.stage.part or "-"), regime_text(stage, colour),
-                      margin_text(stage), stage_bar(result, stage, colour))
+        cells = [str(stage.index), Text(stage.stage.name)]
+        if wide:
+            cells += [stage.stage.block, Text(stage.stage.part or "-")]
+        cells += [regime_text(stage, colour), margin_text(stage),
+                  stage_bar(result, stage, colour, bar_width)]
+        table.add_row(*cells)
     console.print(table)
     console.print(Text(LEGEND, style="dim" if colour else ""))
     if result.headroom_db is not None:
@@ -137,7 +145,7 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
     for stage in result.stages:
         if stage.reasons:
             console.print(Text(f"stage {stage.index} ({stage.stage.name}): "
-                               f"{', '.join(stage.reasons)}"))
+                               f"{stage.reason_words()}"))
         print_aids(console, stage)
     for caution in chain_cautions_text(result):
         console.print(Text(f"caution: {caution}", style="yellow" if colour else ""))
@@ -164,10 +172,12 @@ def regime_text(stage: StageResult, colour: bool) -> Text:
     return Text(word, style=style if colour else "")
 
 
-def stage_bar(result: ChainResult, stage: StageResult, colour: bool) -> Text:
+def stage_bar(result: ChainResult, stage: StageResult, colour: bool, width: int = 24) -> Text:
+    """The bar of the op amp with the least room inside the stage (StageResult.drawn)."""
     rails = result.chain.rails_for(stage.stage)
-    return margin_bar((rails.negative_range[0], rails.positive_range[1]), stage.measure.window,
-                      stage.measure.output, colour=colour)
+    span, window, _ = stage.drawn
+    return margin_bar((rails.negative_range[0], rails.positive_range[1]), window, span,
+                      width=width, colour=colour)
 
 
 def chain_cautions_text(result: ChainResult) -> list[str]:
