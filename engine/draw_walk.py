@@ -20,6 +20,7 @@ as the corners method takes them, so a row never depends on the other rows besid
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -66,10 +67,15 @@ class Layout:
     corner: tuple[StageResult, ...]        # corners results: thresholds and reaches of saturated stages
 
     def column(self, stage: int | None, quantity: str, kind: str, amp: int = 0) -> int | None:
+        return self.columns.get((stage, quantity, kind, amp))
+
+    @cached_property
+    def columns(self) -> dict[tuple, int]:
+        """(stage, quantity, kind, amp) -> column: looked up for every stage of every chunk."""
+        found: dict[tuple, int] = {}
         for k, var in enumerate(self.variables):
-            if (var.stage, var.quantity, var.kind, var.amp) == (stage, quantity, kind, amp):
-                return k
-        return None
+            found.setdefault((var.stage, var.quantity, var.kind, var.amp), k)
+        return found
 
 
 @dataclass(frozen=True)
@@ -175,13 +181,15 @@ def shift_of(node, offsets: np.ndarray, bias: np.ndarray) -> np.ndarray | float:
 
 
 def start_signal(chain: Chain, freqs: np.ndarray, rows: int):
+    """The source per row, column-major and with one amplitude array (propagation.py, Speed)."""
     source = chain.source
     if source.differential:
         return DifferentialSignal(source.level, source.difference, source.amplitude)
-    ones = np.ones((rows, len(freqs)))
+    ones = np.ones((rows, len(freqs)), order="F")
     a = source.amplitude
+    amplitude = a * ones
     return Signal(hi=(source.level[1] + a) * ones, lo=(source.level[0] - a) * ones,
-                  amp_lo=a * ones, amp_hi=a * ones)
+                  amp_lo=amplitude, amp_hi=amplitude)
 
 
 def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | None = None
@@ -250,16 +258,23 @@ def band_min(x: np.ndarray) -> np.ndarray:
     return -band_max(-x)
 
 
-def bounds_of(node, v, signal, offsets, bias):
-    return node_bounds(node, v, signal, 0.0, shift_of(node, offsets, bias))
+def bounds_of(node, v, signal, offsets, bias, known: dict | None = None):
+    """The node's per-row bounds; `known` keeps those already found in this stage (a stage's
+    output node is usually its last op amp's output node too)."""
+    if known is not None and id(node) in known:
+        return known[id(node)][1]
+    bounds = node_bounds(node, v, signal, 0.0, shift_of(node, offsets, bias))
+    if known is not None:
+        known[id(node)] = (node, bounds)       # the node is held so that its id stays its own
+    return bounds
 
 
 def opamp_draws(part, amp, v, signal, offsets, bias, freqs, load: InputLoad, pos, neg,
-                record: list | None = None):
+                record: list | None = None, known: dict | None = None):
     """One op amp's margins per row (the per-row twin of stage_walk.opamp_measure)."""
-    out = bounds_of(amp.output, v, signal, offsets, bias)
-    plus = bounds_of(amp.plus, v, signal, offsets, bias)
-    current = bounds_of(amp.current, v, signal, offsets, bias)
+    out = bounds_of(amp.output, v, signal, offsets, bias, known)
+    plus = bounds_of(amp.plus, v, signal, offsets, bias, known)
+    current = bounds_of(amp.current, v, signal, offsets, bias, known)
     out_hi, out_lo = band_max(out.hi), band_min(out.lo)
     needed = band_max(np.maximum(np.abs(current.hi), np.abs(current.lo)))
     if record is not None:
@@ -301,11 +316,12 @@ def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None
         offsets, bias = row_errors(layout, plan, D, dT)
     else:
         offsets = bias = np.zeros((rows, len(response.opamps)))
-    out = bounds_of(response.output, v, signal, offsets, bias)
+    known: dict = {}
+    out = bounds_of(response.output, v, signal, offsets, bias, known)
     pos, neg = row_rails(layout, plan, D)
     found = [opamp_draws(plan.part, amp, v, signal, offsets, bias, layout.freqs,
                          layout.loads[k] if amp.output is response.output else InputLoad(), pos, neg,
-                         record)
+                         record, known)
              for amp in response.opamps]
     margins = stage_margins([m for m, _ in found], plan, pos, neg)
     out_hi, out_lo = band_max(out.hi), band_min(out.lo)
@@ -332,10 +348,13 @@ def clamp_rows(signal: Signal, window, rows: np.ndarray) -> Signal:
     high = np.broadcast_to(window[1], rows.shape)[:, None]
     half = np.maximum((high - low) / 2.0, 0.0)
     pick = rows[:, None]
+    amp_lo = np.where(pick, np.minimum(signal.amp_lo, half), signal.amp_lo)
+    one_amplitude = signal.amp_lo is signal.amp_hi          # kept one array (propagation.py, Speed)
     return Signal(hi=np.where(pick, np.clip(signal.hi, low, high), signal.hi),
                   lo=np.where(pick, np.clip(signal.lo, low, high), signal.lo),
-                  amp_lo=np.where(pick, np.minimum(signal.amp_lo, half), signal.amp_lo),
-                  amp_hi=np.where(pick, np.minimum(signal.amp_hi, half), signal.amp_hi))
+                  amp_lo=amp_lo,
+                  amp_hi=amp_lo if one_amplitude else np.where(pick, np.minimum(signal.amp_hi, half),
+                                                               signal.amp_hi))
 
 
 def saturated_levels_rows(part, pos, neg, conductance):
@@ -379,7 +398,7 @@ def saturated_draws(layout: Layout, k: int, v, D, signal):
         linear &= margins[check] >= 0
     top = np.where(reach_high, high, low)
     bottom = np.where(reach_low, low, high)
-    zero = np.zeros((rows, len(layout.freqs)))
+    zero = np.zeros((rows, len(layout.freqs)), order="F")     # column-major: propagation.py, Speed
     spans = {"out-low": bottom, "out-high": top, "in-low": in_lo, "in-high": in_hi,
              "window-low": low, "window-high": high}
     passed = Signal(hi=zero + top[:, None], lo=zero + bottom[:, None], amp_lo=zero, amp_hi=zero)
