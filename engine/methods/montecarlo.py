@@ -86,37 +86,69 @@ def series_of(draws: list[dw.StageDraws]) -> dict[tuple, np.ndarray]:
 
 
 class LowTail:
-    """The k lowest values of many series, merged chunk by chunk (np.partition)."""
+    """The k lowest values of many series, merged chunk by chunk, and the first MEDIAN_ROWS
+    values of the series whose median is quoted (`median_keys`: the stage margins).
 
-    def __init__(self, keys: list, samples: int):
+    One buffer holds the kept values and the new chunk side by side; an in-place partition
+    (np.partition's introselect) moves the k lowest to its front, so nothing kept is copied."""
+
+    def __init__(self, keys: list, samples: int, median_keys: list):
         self.keys = keys
         self.samples = samples
         self.k = min(samples, int(np.floor((samples - 1) * TAIL)) + 2)
-        self.kept = np.empty((len(keys), 0))
+        self.buffer = np.empty((len(keys), 0))
+        self.filled = 0
+        self.median_keys = median_keys
+        self.median_rows = [keys.index(key) for key in median_keys]
         self.head: list[np.ndarray] = []
         self.head_rows = 0
 
     def add(self, series: dict[tuple, np.ndarray]) -> None:
-        block = np.stack([np.broadcast_to(series[key], series[self.keys[0]].shape)
-                          for key in self.keys])
-        merged = np.concatenate((self.kept, block), axis=1)
-        if merged.shape[1] > self.k:
-            merged = np.partition(merged, self.k - 1, axis=1)[:, :self.k]
-        self.kept = merged
+        rows = np.shape(series[self.keys[0]])[0]
+        end = self.filled + rows
+        if self.buffer.shape[1] < end:
+            grown = np.empty((len(self.keys), end))
+            grown[:, :self.filled] = self.buffer[:, :self.filled]
+            self.buffer = grown
+        for row, key in enumerate(self.keys):
+            self.buffer[row, self.filled:end] = series[key]
         if self.head_rows < MEDIAN_ROWS:
-            take = block[:, :MEDIAN_ROWS - self.head_rows]
-            self.head.append(take)
-            self.head_rows += take.shape[1]
+            take = min(rows, MEDIAN_ROWS - self.head_rows)
+            self.head.append(self.buffer[self.median_rows, self.filled:self.filled + take])
+            self.head_rows += take
+        if end > self.k:
+            self.buffer[:, :end].partition(self.k - 1, axis=1)
+            end = self.k
+        self.filled = end
 
-    def percentile(self, q: float) -> np.ndarray:
-        """numpy's linear-interpolation percentile of each series."""
-        if q >= 0.5:
-            return np.percentile(np.concatenate(self.head, axis=1), 100 * q, axis=1)
-        ordered = np.sort(self.kept, axis=1)
+    def low(self, q: float) -> dict[tuple, float]:
+        """numpy's linear-interpolation percentile of each series, from the kept low tail."""
+        ordered = np.sort(self.buffer[:, :self.filled], axis=1)
         h = (self.samples - 1) * q
         lo = int(np.floor(h))
         hi = min(lo + 1, self.samples - 1)
-        return ordered[:, lo] + (h - lo) * (ordered[:, hi] - ordered[:, lo])
+        return dict(zip(self.keys, ordered[:, lo] + (h - lo) * (ordered[:, hi] - ordered[:, lo])))
+
+    def median(self) -> dict[tuple, float]:
+        """np.percentile(head, 50, axis=1) of the median series, bit for bit."""
+        return dict(zip(self.median_keys, median_rows(np.concatenate(self.head, axis=1))))
+
+
+def median_rows(x: np.ndarray) -> np.ndarray:
+    """np.percentile(x, 50, axis=1) (linear method) by one single-index partition: numpy's own
+    call partitions at both neighbours of the middle, several times slower. The two neighbours
+    are the lo-th value and the least value above it; they are blended as numpy's _lerp does
+    (a + (b - a) t, or b - (b - a)(1 - t) when t >= 0.5), and a row holding NaN gives NaN."""
+    n = x.shape[1]
+    h = (n - 1) * 0.5
+    lo = int(np.floor(h))
+    t = h - lo
+    x = np.partition(x, lo, axis=1)
+    a = x[:, lo]
+    b = x[:, lo + 1:].min(axis=1) if lo + 1 < n else a
+    diff = b - a
+    found = b - diff * (1 - t) if t >= 0.5 else a + diff * t
+    return np.where(np.isnan(x).any(axis=1), np.nan, found)
 
 
 def run(chain, plans, freqs, corner_stages, chunk: int = CHUNK_ROWS):
@@ -129,12 +161,13 @@ def run(chain, plans, freqs, corner_stages, chunk: int = CHUNK_ROWS):
     for draws in sample(layout, samples, seed, chunk):
         series = series_of(draws)
         if tail is None:
-            tail = LowTail(list(series), samples)
+            tail = LowTail(list(series), samples, [key for key in series if key[1] is None
+                                                   and not key[2].startswith(("out-", "in-"))])
         tail.add(series)
         linear = np.vstack([d.linear for d in draws])
         leaving += (~linear).sum(axis=1)
         all_linear += int(linear.all(axis=0).sum())
-    quoted = {name: dict(zip(tail.keys, tail.percentile(q))) for name, q in QUOTED.items()}
+    quoted = {name: tail.median() if q == 0.5 else tail.low(q) for name, q in QUOTED.items()}
     stages = stage_results(plans, corner_stages, quoted, leaving / samples, chain.conditions.margin)
     return stages, all_linear / samples
 
