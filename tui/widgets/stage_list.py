@@ -66,6 +66,7 @@ class StageList(DataTable):
         self._result: ChainResult | None = None
         self._width = 0
         self._widths: dict[str, int] = {}
+        self._rows: list[list[Text]] = []            # the cells as last shown, row by row
 
     def on_mount(self) -> None:
         self.border_subtitle = SHORT_LEGEND
@@ -85,6 +86,11 @@ class StageList(DataTable):
                   Text(stage.stage.part or "-"), regime_words(stage), margin_words(stage)]
                  for stage in result.stages]
         widths = column_widths(self.size.width or 80, cells)
+        rows = [self._row_cells(stage, row_cells, widths)
+                for stage, row_cells in zip(result.stages, cells)]
+        if not rebuild and self.columns and self._widths == widths and len(rows) == len(self._rows):
+            self._update_changed(rows)
+            return
         if rebuild or not self.columns or self._widths != widths:
             self.clear(columns=True)
             for label, width in widths.items():
@@ -92,11 +98,23 @@ class StageList(DataTable):
             self._width, self._widths = self.size.width, widths
         else:
             self.clear()
-        for stage, row_cells in zip(result.stages, cells):
-            rails = result.chain.rails_for(stage.stage)
-            bar = margin_bar((rails.negative_range[0], rails.positive_range[1]),
-                             stage.measure.window, stage.measure.output, width=widths["rail span"])
-            fitted = [clipped(cell, width) for cell, width in zip(row_cells, widths.values())]
-            self.add_row(*fitted, bar, key=str(stage.index))
+        for index, fitted in enumerate(rows, start=1):
+            self.add_row(*fitted, key=str(index))
+        self._rows = rows
         if result.stages:
             self.move_cursor(row=min(max(row, 0), len(result.stages) - 1), animate=False)
+
+    def _row_cells(self, stage: StageResult, row_cells: list[Text], widths: dict[str, int]) -> list[Text]:
+        rails = self._result.chain.rails_for(stage.stage)
+        bar = margin_bar((rails.negative_range[0], rails.positive_range[1]),
+                         stage.measure.window, stage.measure.output, width=widths["rail span"])
+        return [clipped(cell, width) for cell, width in zip(row_cells, widths.values())] + [bar]
+
+    def _update_changed(self, rows: list[list[Text]]) -> None:
+        """Same rows and columns: touch only the cells whose words or colours changed (every
+        DataTable update re-renders the visible rows, so an unchanged result costs nothing)."""
+        for index, (old, new) in enumerate(zip(self._rows, rows), start=1):
+            for label, before, after in zip(self._widths, old, new):
+                if before != after:
+                    self.update_cell(str(index), label, after)
+        self._rows = rows
