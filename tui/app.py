@@ -5,12 +5,14 @@
 from __future__ import annotations
 
 import sys
+from functools import partial
 from pathlib import Path
 from typing import Callable
 
 from textual import work
 from textual.app import App
 from textual.binding import Binding
+from textual.timer import Timer
 from textual.worker import get_current_worker
 
 from railroom.engine.analysis import analyse
@@ -22,6 +24,9 @@ from railroom.tui.screens.help import HelpScreen
 from railroom.tui.session import Session
 
 WATCH_SECONDS = 1.0
+# While values are being typed, the full check (the file's method with the design aids) waits for a
+# pause in the typing: started on every keystroke it would compete with the repaint for the CPU.
+TYPING_PAUSE_SECONDS = 0.3
 
 
 def key(keys: str, action: str, words: str, ident: str, tooltip: str, show: bool = True) -> Binding:
@@ -50,6 +55,7 @@ class RailroomApp(App):
         self.session = session
         self.result: ChainResult | None = None
         self._generation = 0
+        self._full_timer: Timer | None = None
 
     def get_default_screen(self) -> ChainScreen:
         return ChainScreen(id="chain")
@@ -62,25 +68,35 @@ class RailroomApp(App):
         return self.screen_stack[0]
 
     # the engine
-    def apply_edit(self, change: Callable[[str], str]) -> str | None:
-        """Apply an edit of the chain text; on success re-check, else return the problem."""
+    def apply_edit(self, change: Callable[[str], str], typing: bool = False) -> str | None:
+        """Apply an edit of the chain text; on success re-check, else return the problem.
+        `typing`: the edit is a keystroke in a form, so the full check waits for a pause."""
         problems = self.session.edit(change)
         if problems:
             first = problems[0]
             return f"{first.field}: {first.message}" if first.field != "(edit)" else first.message
-        self.recheck()
+        self.recheck(TYPING_PAUSE_SECONDS if typing else 0.0)
         return None
 
-    def recheck(self) -> None:
+    def recheck(self, full_after: float = 0.0) -> None:
         """Corners at once on this thread; then, in a worker, the file's own method with the
-        design aids (sensitivity, fixes). A newer edit cancels the older run."""
+        design aids (sensitivity, fixes), after `full_after` seconds. A newer edit cancels the
+        older run (and a full run still waiting to start)."""
         self._generation += 1
         self.result = self.session.corners()
         method = self.session.chain.conditions.method
         note = f"{method} running..." if method != "corners" else ""
         self.chain_screen.show(self.result, note)
         self.chain_screen.query_one("StatusLine").running(method != "corners")
-        self.run_full(self._generation, self.session.chain, self.session.library.parts)
+        if self._full_timer is not None:
+            self._full_timer.stop()
+            self._full_timer = None
+        start = partial(self.run_full, self._generation, self.session.chain,
+                        self.session.library.parts)
+        if full_after > 0:
+            self._full_timer = self.set_timer(full_after, start)
+        else:
+            start()
 
     @work(thread=True, exclusive=True, group="full-check")
     def run_full(self, generation: int, chain, parts) -> None:
@@ -131,6 +147,7 @@ class RailroomApp(App):
             self.notify("\n".join(str(p) for p in problems[:4]), title="not reloaded",
                         severity="error", markup=False)
             return
+        self.chain_screen.close_form()        # its fields showed the text before the reload
         self.recheck()
         self.notify("reloaded from disk")
 
@@ -212,6 +229,7 @@ class RailroomApp(App):
             self.notify("\n".join(str(p) for p in problems[:4]), title="presets",
                         severity="error", markup=False)
             return
+        self.chain_screen.close_form()        # its part choices came from the old library
         self.recheck()
 
 

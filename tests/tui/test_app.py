@@ -10,7 +10,7 @@ from textual.widgets import Input
 
 from railroom.engine.values import ValueTextError, parse_quantity
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen, SaveAsScreen
-from railroom.tui.screens.edit import FieldForm
+from railroom.tui.widgets.field_form import FieldForm
 from railroom.tui.widgets.detail import StageDetail
 from railroom.tui.widgets.stage_list import StageList
 from railroom.tui.widgets.status_line import StatusLine
@@ -75,7 +75,8 @@ async def test_resistor_change_makes_stage_clip_and_verdict_follow(make_app, two
         # the nominal output peak is 2 x 100 mV, less the loop-gain shortfall (A = 1e5 here)
         assert gain.measure.nominal[1] == pytest.approx(0.2, rel=1e-3)
         await pilot.press("j", "e")
-        assert isinstance(app.screen, FieldForm)
+        await pilot.pause()
+        assert app.screen.query_one(FieldForm).has_focus_within
         await type_into(pilot, "rf", "2M")             # gain 201: 20 V peak on +/-12 V rails
         assert "NO-GO: 1 of 2 stages fail" in status_text(app)
         assert app.result.stages[1].regime == "clipping"
@@ -193,7 +194,8 @@ async def test_stages_add_move_remove(make_app, two_stage):
         assert isinstance(app.screen, ChoiceScreen)
         app.screen.dismiss("inverting")
         await pilot.pause()
-        assert isinstance(app.screen, FieldForm)
+        await pilot.pause()
+        assert app.screen.query_one(FieldForm).has_focus_within
         await pilot.press("escape")
         names = [s.name for s in app.session.chain.stages]
         assert names == ["buffer", "new inverting", "gain two"]
@@ -289,3 +291,36 @@ async def test_screenshot_key_writes_svg(make_app, tmp_path, monkeypatch):
         await pilot.pause()
     pictures = list(tmp_path.glob("*.svg"))
     assert len(pictures) == 1 and "<svg" in pictures[0].read_text()
+
+
+async def test_form_sits_in_the_chain_screen_with_the_stage_list_live(make_app, two_stage):
+    app = make_app(two_stage)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.pause()
+        await pilot.press("j", "e")
+        await pilot.pause()
+        assert app.screen is app.screen_stack[0]              # no screen pushed over the chain
+        rows = app.screen.query_one(StageList)
+        assert str(rows.get_row("2")[4]) == "linear"
+        await type_into(pilot, "rf", "2M")                    # gain 201 on 100 mV: clips
+        assert str(rows.get_row("2")[4]) == "clipping!"       # the row repainted under the form
+        names = [f.id for f in app.screen.query(".form-value")]
+        await pilot.press(*["tab"] * len(names))              # tab goes round the form's fields
+        assert app.focused.id == "field-rf"
+        await pilot.press("escape")
+        await pilot.pause()
+        assert not app.screen.query(FieldForm) and app.focused is rows
+        assert "FAIL" in detail_text(app)
+
+
+async def test_chain_keys_wait_while_a_form_field_has_the_focus(make_app, two_stage):
+    app = make_app(two_stage)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.pause()
+        await pilot.press("e")
+        await pilot.pause()
+        app.screen.query_one("#field-part").focus()          # a closed choice box takes no letters
+        await pilot.press("x", "J", "a")
+        await pilot.pause()
+        assert [s.name for s in app.session.chain.stages] == ["buffer", "gain two"]
+        assert isinstance(app.screen, type(app.screen_stack[0]))

@@ -24,3 +24,9 @@ def test_level_view_120x40(snap_compare, make_app):
 def test_main_screen_no_color(snap_compare, make_app, monkeypatch):
     monkeypatch.setenv("NO_COLOR", "1")        # Textual reads it when the app is built
     assert snap_compare(make_app(None), terminal_size=(80, 24), run_before=settled)
+
+
+def test_edit_form_in_place_80x24(snap_compare, make_app):
+    """The form takes the detail panel's place; the status line and stage list stay in sight."""
+    assert snap_compare(make_app(None), press=["j", "j", "j", "e"], terminal_size=(80, 24),
+                        run_before=settled)

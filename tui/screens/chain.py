@@ -1,4 +1,8 @@
-"""The main room: status line, stage list, and the detail or level view of the chain."""
+"""The main room: status line, stage list, and the detail or level view of the chain.
+
+Editing happens in place: the edit form takes the place of the detail or level view while the
+status line and the stage list above it stay in sight and repaint as each value is typed.
+"""
 from __future__ import annotations
 
 from textual.app import ComposeResult
@@ -12,8 +16,8 @@ from railroom.engine.editing import FieldShape
 from railroom.engine.model import METHODS
 from railroom.engine.results import ChainResult
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen
-from railroom.tui.screens.edit import FieldForm, FormField
 from railroom.tui.widgets.detail import StageDetail
+from railroom.tui.widgets.field_form import FieldForm, FormField
 from railroom.tui.widgets.level_view import LevelView
 from railroom.tui.widgets.stage_list import StageList
 from railroom.tui.widgets.status_line import StatusLine
@@ -43,8 +47,11 @@ class ChainScreen(Screen):
             "Show the levels of every stage on one axis", show=False),
         key("v", "toggle_view", "view", "view", "Switch between the detail and the level view"),
         key("escape", "focus_stages", "stages", "stages",
-            "Back to the stage list (never closes or discards anything)", show=False),
+            "Back to the stage list (never discards anything)", show=False),
     ]
+    # While a form field has the focus, letters are text and the chain's own keys wait: a letter
+    # typed on a closed choice box must not remove or move a stage under the open form.
+    FORM_KEYS = {"focus_stages"}
 
     def compose(self) -> ComposeResult:
         yield StatusLine(id="status")
@@ -57,6 +64,13 @@ class ChainScreen(Screen):
     def on_mount(self) -> None:
         self.app.recheck()
         self.query_one(StageList).focus()
+
+    def check_action(self, action: str, parameters: tuple) -> bool | None:
+        focused = self.focused
+        if action not in self.FORM_KEYS and focused is not None and any(
+                isinstance(node, FieldForm) for node in focused.ancestors_with_self):
+            return False
+        return True
 
     @property
     def session(self):
@@ -72,12 +86,21 @@ class ChainScreen(Screen):
         label = "built-in demo (read-only)" if session.read_only else str(session.path)
         self.query_one(StatusLine).show(result, label, session.modified, note)
         self.query_one(StageList).show(result)
-        self.query_one(LevelView).show(result)
-        self._show_detail()
+        self._show_view()
+
+    def _show_view(self) -> None:
+        """Paint only the view in sight (a hidden one is painted when it comes back)."""
+        if self.has_class("editing"):
+            return
+        if self.query_one(ContentSwitcher).current == "level":
+            if self.app.result is not None:
+                self.query_one(LevelView).show(self.app.result)
+        else:
+            self._show_detail()
 
     def _show_detail(self) -> None:
         result = self.app.result
-        if result is None or not result.stages:
+        if result is None or not result.stages or self.has_class("editing"):
             return
         stage = result.stages[self.highlighted() - 1]
         self.query_one(StageDetail).show(stage, result.chain, self.session.library.parts)
@@ -90,14 +113,30 @@ class ChainScreen(Screen):
 
     # views
     def action_show_view(self, view: str) -> None:
+        self.close_form()
         self.query_one(ContentSwitcher).current = view
+        self._show_view()
 
     def action_toggle_view(self) -> None:
-        switcher = self.query_one(ContentSwitcher)
-        switcher.current = "level" if switcher.current == "detail" else "detail"
+        current = self.query_one(ContentSwitcher).current
+        self.action_show_view("level" if current == "detail" else "detail")
 
     def action_focus_stages(self) -> None:
+        self.close_form()
         self.query_one(StageList).focus()
+
+    def close_form(self) -> None:
+        """Put the detail or level view back; drafts stay in the session, edits in the chain."""
+        if not self.has_class("editing"):
+            return
+        for form in self.query(FieldForm):
+            form.remove()
+        self.remove_class("editing")
+        self._show_view()
+
+    def on_field_form_closed(self, event: FieldForm.Closed) -> None:
+        event.stop()
+        self.action_focus_stages()
 
     # edits
     def _form(self, title: str, form_id: str, fields: list[FormField], change, focus=None) -> None:
@@ -106,9 +145,12 @@ class ChainScreen(Screen):
 
         def apply(field_key: str, text: str) -> str | None:
             shape = next(f.shape for f in fields if f.key == field_key)
-            return self.app.apply_edit(change(field_key, editing.toml_value(text, shape)))
+            return self.app.apply_edit(change(field_key, editing.toml_value(text, shape)),
+                                       typing=True)
 
-        self.app.push_screen(FieldForm(title, fields, apply, drafts, focus))
+        self.close_form()
+        self.add_class("editing")
+        self.mount(FieldForm(title, fields, apply, drafts, focus, form_id), before=self.query_one(Footer))
 
     def action_edit_stage(self, focus: str | None = None) -> None:
         index = self.highlighted()
@@ -188,6 +230,7 @@ class ChainScreen(Screen):
                 self._structure_changed(target)
 
     def _structure_changed(self, highlight: int) -> None:
+        self.close_form()                    # its fields name a stage by its place in the chain
         for form in [f for f in self.session.drafts if f.startswith("stage.")]:
             del self.session.drafts[form]
         self.query_one(StageList).move_cursor(row=highlight - 1, animate=False)
@@ -195,6 +238,7 @@ class ChainScreen(Screen):
 
     def action_undo(self) -> None:
         if self.session.undo():
+            self.close_form()                # its fields would show the text before the undo
             self.app.recheck()
         else:
             self.notify("nothing to undo")

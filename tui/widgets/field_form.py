@@ -1,6 +1,8 @@
 """The edit form: one line per field, checked as typed with the engine's own parser and loader.
 
-Every accepted change goes straight into the chain and the screen behind re-checks at once; a value
+It sits inside the chain screen in place of the detail panel (not a screen of its own: a modal
+screen over the chain would repaint the whole dimmed chain on every keystroke). Every accepted change
+goes straight into the chain, and the status line and stage list above re-check at once; a value
 that does not read stays in its field with the engine's message beside it (and is kept as a draft
 when the form closes), so nothing the user typed is lost.
 """
@@ -13,7 +15,7 @@ from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, VerticalScroll
-from textual.screen import ModalScreen
+from textual.message import Message
 from textual.widgets import Input, Label, Select
 
 from railroom.engine.editing import FieldShape, value_problem
@@ -34,15 +36,26 @@ class FormField:
     choices: tuple[str, ...] = ()
 
 
-class FieldForm(ModalScreen[None]):
-    """Tab moves between fields; Esc closes the form (accepted changes are already in)."""
+class FieldForm(VerticalScroll):
+    """Tab and shift+tab go round the fields; Esc closes the form (accepted changes are already
+    in) and posts `Closed`, so the screen puts the detail panel back."""
 
-    BINDINGS = [Binding("escape", "close", "close", id="form.close",
-                        tooltip="Close the form; accepted changes stay, drafts are kept")]
+    BINDINGS = [
+        Binding("escape", "close", "close form", id="form.close",
+                tooltip="Close the form; accepted changes stay, drafts are kept"),
+        Binding("tab", "next_field", "next field", show=False, id="form.next",
+                tooltip="The next field of the form (goes round)"),
+        Binding("shift+tab", "previous_field", "previous field", show=False, id="form.previous",
+                tooltip="The previous field of the form (goes round)"),
+    ]
+
+    class Closed(Message):
+        """The user left the form."""
 
     def __init__(self, title: str, fields: list[FormField], apply: Apply,
-                 drafts: dict[str, str], focus_key: str | None = None) -> None:
+                 drafts: dict[str, str], focus_key: str | None = None, form_id: str = "") -> None:
         super().__init__()
+        self.form_id = form_id
         self.title_words = title
         self.fields = {f.key: f for f in fields}
         self.apply = apply
@@ -50,16 +63,14 @@ class FieldForm(ModalScreen[None]):
         self.focus_key = focus_key
 
     def compose(self) -> ComposeResult:
-        with VerticalScroll(classes="form"):
-            yield Label(Text(self.title_words), classes="form-title")
-            for field in self.fields.values():
-                with Horizontal(classes="form-row"):
-                    yield Label(Text(field.key), classes="form-key")
-                    yield self._editor(field)
-                yield Label(Text(field.shape.help), id=f"message-{field.key}",
-                            classes="form-message")
-            yield Label(Text("tab next field   esc close   every change is checked at once"),
-                        classes="hint")
+        yield Label(Text(self.title_words), classes="form-title")
+        for field in self.fields.values():
+            with Horizontal(classes="form-row"):
+                yield Label(Text(field.key), classes="form-key")
+                yield self._editor(field)
+            yield Label(Text(field.shape.help), id=f"message-{field.key}", classes="form-message")
+        yield Label(Text("tab next field   esc close   every change is checked at once"),
+                    classes="hint")
 
     def _editor(self, field: FormField):
         choices = field.choices or field.shape.choices
@@ -74,6 +85,7 @@ class FieldForm(ModalScreen[None]):
                      placeholder=field.shape.help)
 
     def on_mount(self) -> None:
+        self.border_title = "edit"
         for key, text in self.drafts.items():
             if key in self.fields:
                 self._judge(key, text)
@@ -83,6 +95,19 @@ class FieldForm(ModalScreen[None]):
             self.query_one(f"#field-{target}").focus()
         elif editors:
             editors.first().focus()
+
+    def _step(self, offset: int) -> None:
+        editors = list(self.query(".form-value"))
+        if not editors:
+            return
+        here = next((i for i, e in enumerate(editors) if e.has_focus_within), -offset)
+        editors[(here + offset) % len(editors)].focus()
+
+    def action_next_field(self) -> None:
+        self._step(1)
+
+    def action_previous_field(self) -> None:
+        self._step(-1)
 
     def on_input_changed(self, event: Input.Changed) -> None:
         event.stop()
@@ -117,4 +142,4 @@ class FieldForm(ModalScreen[None]):
             message.remove_class("problem")
 
     def action_close(self) -> None:
-        self.dismiss(None)
+        self.post_message(self.Closed())
