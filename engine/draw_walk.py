@@ -197,6 +197,7 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
     """Every stage for every row of D (see the module docstring). `record` collects the band
     indices where each checked extreme falls (see decisive_freqs)."""
     rows = D.shape[0]
+    D = np.asfortranarray(D)       # each quantity's column contiguous: read column by column below
     s = laplace_grid(layout.freqs)
     signal = start_signal(layout.chain, layout.freqs, rows)
     clipped = np.zeros(rows, dtype=bool)

@@ -86,9 +86,8 @@ def single_bounds(node: Node, v: dict, signal: Signal, error: np.ndarray | float
                   shift: np.ndarray | float = 0.0) -> NodeBounds:
     """Bounds of a node fed by a single-ended signal (see the module docstring)."""
     transfer = node.transfers.get("in")
-    fixed = fixed_part(node, v, ("in",)) + shift
-    fixed = np.reshape(fixed, np.shape(fixed) + (1,) * (np.ndim(fixed) == 1))
-    error = np.reshape(error, np.shape(error) + (1,) * (np.ndim(error) == 1))
+    fixed = as_column(fixed_part(node, v, ("in",)) + shift)
+    error = as_column(error)
     if transfer is None:
         zero = np.zeros_like(signal.hi)
         return NodeBounds(fixed - error + zero, fixed + error + zero, zero, zero)
@@ -107,6 +106,11 @@ def single_bounds(node: Node, v: dict, signal: Signal, error: np.ndarray | float
         amp_lo=amp_lo,
         amp_hi=amp_lo if one_amplitude else magnitude * signal.amp_hi,
     )
+
+
+def as_column(x: np.ndarray | float) -> np.ndarray | float:
+    """Per-row values (J,) as (J, 1), to meet (J, F) arrays row by row; others as they are."""
+    return x[:, None] if np.ndim(x) == 1 else x
 
 
 def memory_order(x: np.ndarray) -> str:
@@ -172,5 +176,6 @@ def clamp(signal: Signal, window: tuple[float, float]) -> Signal:
 
 def source_signal(level: tuple[float, float], amplitude: float, freqs: np.ndarray) -> Signal:
     ones = np.ones_like(freqs)
+    a = amplitude * ones           # one array for both amplitude bounds (module docstring, Speed)
     return Signal(hi=(level[1] + amplitude) * ones, lo=(level[0] - amplitude) * ones,
-                  amp_lo=amplitude * ones, amp_hi=amplitude * ones)
+                  amp_lo=a, amp_hi=a)

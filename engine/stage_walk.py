@@ -23,6 +23,14 @@ def span(bounds: NodeBounds) -> tuple[float, float]:
     return (float(np.min(bounds.lo)), float(np.max(bounds.hi)))
 
 
+def bounds_once(node, v: dict, signal, offsets, bias, known: dict) -> NodeBounds:
+    """The node's bounds, found once per stage: a stage's output node is usually its last op
+    amp's output node too. `known` holds the node with its bounds so that its id stays its own."""
+    if id(node) not in known:
+        known[id(node)] = (node, node_bounds(node, v, signal, error_bound(node, offsets, bias)))
+    return known[id(node)][1]
+
+
 def walk_chain(prepared, signal, nominal: bool = False, notes=None) -> list[StageResult]:
     chain = prepared.chain
     rise = chain.conditions.worst_temperature_rise
@@ -52,16 +60,17 @@ def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freq
     count = len(response.opamps)
     offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
     bias = 0.0 if (nominal or part is None) else part.bias_current
-    out = node_bounds(response.output, v, signal, error_bound(response.output, offsets, bias))
+    known: dict = {}
+    out = bounds_once(response.output, v, signal, offsets, bias, known)
     amps = tuple(
         opamp_measure(plan, amp, v, signal, offsets, bias, freqs,
-                      next_load if amp.output is response.output else InputLoad())
+                      next_load if amp.output is response.output else InputLoad(), known)
         for amp in response.opamps
     )
     window = amps[-1].window if amps else None
     if plan.block.window_only:
         window = (float(np.max(v["low"])), float(np.min(v["high"])))   # worst over tolerance
-    inner = {name: span(node_bounds(node, v, signal, error_bound(node, offsets, bias)))
+    inner = {name: span(bounds_once(node, v, signal, offsets, bias, known))
              for name, node in response.inner.items()}
     measure = StageMeasure(
         index=plan.index, stage=plan.stage, output=span(out), nominal=span(out), opamps=amps,
@@ -72,11 +81,12 @@ def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freq
 
 
 def opamp_measure(plan: StagePlan, amp: OpAmpNodes, v: dict, signal, offsets, bias, freqs,
-                  load: InputLoad) -> OpAmpMeasure:
+                  load: InputLoad, known: dict | None = None) -> OpAmpMeasure:
     part = plan.part
-    out = node_bounds(amp.output, v, signal, error_bound(amp.output, offsets, bias))
-    plus = node_bounds(amp.plus, v, signal, error_bound(amp.plus, offsets, bias))
-    current = node_bounds(amp.current, v, signal, error_bound(amp.current, offsets, bias))
+    known = {} if known is None else known
+    out = bounds_once(amp.output, v, signal, offsets, bias, known)
+    plus = bounds_once(amp.plus, v, signal, offsets, bias, known)
+    current = bounds_once(amp.current, v, signal, offsets, bias, known)
     out_span = span(out)
     needed = max(abs(float(np.max(current.hi))), abs(float(np.min(current.lo))))
     needed += load.conductance * max(abs(out_span[1] - load.returns[0]),
