@@ -204,9 +204,13 @@ class RailroomApp(App):
 
     # other rooms
     def action_help(self) -> None:
-        bindings = [b for b in (*self.BINDINGS, *ChainScreen.BINDINGS)]
+        from railroom.tui.screens.presets import PresetsScreen
+        from railroom.tui.widgets.field_form import FieldForm
+        from railroom.tui.widgets.preset_form import PresetForm
         from railroom.tui.widgets.stage_list import StageList
-        self.push_screen(HelpScreen([*bindings, *StageList.BINDINGS]))
+        rooms = (self.BINDINGS, ChainScreen.BINDINGS, StageList.BINDINGS, FieldForm.BINDINGS,
+                 PresetsScreen.BINDINGS, PresetForm.BINDINGS)
+        self.push_screen(HelpScreen([b for room in rooms for b in room if b.id]))
 
     def action_screenshot(self) -> None:
         path = self.save_screenshot(path=str(Path.cwd()))

@@ -250,7 +250,8 @@ async def test_help_lists_every_key_with_its_id(make_app):
         await pilot.pause()
         await pilot.press("question_mark")
         svg = app.export_screenshot()
-        for ident in ("app.save", "app.quit", "chain.edit", "chain.add", "stage.down"):
+        for ident in ("app.save", "app.quit", "chain.edit", "chain.add", "stage.down",
+                      "form.close", "preset-form.save"):
             assert ident in svg
         await pilot.press("escape")
         assert app.screen is app.screen_stack[0]
@@ -324,3 +325,13 @@ async def test_chain_keys_wait_while_a_form_field_has_the_focus(make_app, two_st
         await pilot.pause()
         assert [s.name for s in app.session.chain.stages] == ["buffer", "gain two"]
         assert isinstance(app.screen, type(app.screen_stack[0]))
+
+
+def test_no_action_is_reached_by_a_ctrl_key_alone():
+    """ctrl+s / ctrl+q are flow control on many terminals: each ctrl binding names another way."""
+    from railroom.tui.screens.presets import PresetsScreen
+    from railroom.tui.widgets.preset_form import PresetForm
+    bindings = [*FieldForm.BINDINGS, *PresetsScreen.BINDINGS, *PresetForm.BINDINGS]
+    ctrl_only = [b for b in bindings if all(k.startswith("ctrl+") for k in b.key.split(","))]
+    assert [b.id for b in ctrl_only] == ["preset-form.save"]
+    assert ctrl_only[0].key_display.startswith("enter")

@@ -103,7 +103,7 @@ async def test_typing_filters_the_list(lab):
 
 
 @synchronous
-async def test_edit_one_field_saves_only_that_line_and_reruns_the_chain(lab):
+async def test_edit_one_field_saves_only_that_line_and_reruns_the_chain(lab):  # ctrl+s, an extra
     async with PresetsApp().run_test(size=(120, 40)) as pilot:
         await pilot.pause()
         form = await open_form(pilot, "lab-audio")
@@ -231,3 +231,35 @@ async def test_new_from_copy_then_rename(lab):
         text = copy.read_text(encoding="utf-8")
         assert "[part.lab-rro-b]" in text and "[part.lab-rro]" not in text
         assert pilot.app.callbacks == 2
+
+
+@synchronous
+async def test_enter_in_a_box_saves_where_ctrl_s_is_flow_control(lab):
+    async with PresetsApp().run_test(size=(120, 40)) as pilot:
+        await pilot.pause()
+        form = await open_form(pilot, "lab-audio")
+        box = form.query_one("#field-gbw", Input)
+        box.focus()
+        box.value = "2.5M"
+        footer = pilot.app.export_screenshot()
+        assert "enter" in footer and "save" in footer        # the footer names the save key
+        await pilot.press("enter")
+        await pilot.pause()
+        assert not isinstance(pilot.app.screen, PresetForm)
+        assert lab.read_text(encoding="utf-8") == LAB.replace('gbw = "3M"', 'gbw = "2.5M"')
+
+
+@synchronous
+async def test_save_button_is_reached_with_tab_and_pressed_with_enter(lab):
+    async with PresetsApp().run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        form = await open_form(pilot, "lab-audio")
+        form.query_one("#field-gbw", Input).value = "2M"
+        for _ in range(40):                                   # fewer boxes than that in a part
+            if getattr(pilot.app.focused, "id", None) == "form-save":
+                break
+            await pilot.press("tab")
+        assert pilot.app.focused.id == "form-save"
+        await pilot.press("enter")
+        await pilot.pause()
+        assert 'gbw = "2M"' in lab.read_text(encoding="utf-8")

@@ -42,8 +42,9 @@ class HelpScreen(ModalScreen[None]):
         with VerticalScroll(classes="form", id="help"):
             yield Static(Text(INTRO))
             yield Static(key_table(self.bindings))
-            yield Static(Text("In the edit form: tab and shift+tab move between fields, enter on a "
-                              "choice opens it, esc closes the form."))
+            yield Static(Text("In the edit form (in place of the detail panel): tab and shift+tab "
+                              "go round the fields, enter on a choice opens it, esc closes the form. "
+                              "In a preset's form: enter in any box or the Save button saves."))
             yield Static(Text("Margin bars: " + LEGEND +
                               "   · outside this stage's rails (level view)"))
 

@@ -1,7 +1,8 @@
 """The edit form of one part preset: a field per parameter, its unit beside it, read by the engine.
 
-Each box is checked as it is typed with the same value parser the files go through; Save (ctrl+s)
-hands the values to an `EditSession`, which refuses anything the preset loader would refuse and
+Each box is checked as it is typed with the same value parser the files go through; Save (enter in
+any box, the Save button, or ctrl+s where the terminal lets it through: many take ctrl+s for flow
+control) hands the values to an `EditSession`, which refuses anything the preset loader would refuse and
 notices a file changed on disk in the meantime. The form stays open until the save succeeds.
 """
 from __future__ import annotations
@@ -12,7 +13,7 @@ from textual.binding import Binding
 from textual.containers import Horizontal, VerticalScroll
 from textual.screen import ModalScreen
 from textual.validation import ValidationResult, Validator
-from textual.widgets import Button, Input, Label, Static
+from textual.widgets import Button, Footer, Input, Label, Static
 from rich.text import Text
 
 from railroom.engine.model import InputError
@@ -46,8 +47,8 @@ class PresetForm(ModalScreen[bool]):
 
     DEFAULT_CSS = """
     PresetForm { align: center middle; }
-    PresetForm > #form-frame { width: 96; max-width: 100%; height: 90%; border: round $accent;
-                               background: $surface; padding: 0 1; }
+    PresetForm > #form-frame { width: 96; max-width: 100%; height: 1fr; max-height: 90%;
+                               border: round $accent; background: $surface; padding: 0 1; }
     PresetForm .form-row { height: auto; }
     PresetForm .form-row { margin-top: 1; }
     PresetForm .form-key { width: 30; }
@@ -58,8 +59,12 @@ class PresetForm(ModalScreen[bool]):
     PresetForm #form-problems { color: $error; height: auto; }
     PresetForm #form-buttons { height: auto; align-horizontal: right; }
     """
-    BINDINGS = [Binding("ctrl+s", "save", "Save", id="preset-form.save", tooltip="Save this preset"),
-                Binding("escape", "leave_if_unchanged", "Close", id="preset-form.close",
+    # Enter in a box saves (Input.Submitted below): the box's own enter binding would hide a
+    # screen-level one from the footer, so the footer shows both keys on the ctrl+s binding.
+    BINDINGS = [Binding("ctrl+s", "save", "save", key_display="enter/ctrl+s", id="preset-form.save",
+                        tooltip="Save this preset: enter in any box, the Save button, or ctrl+s "
+                                "(many terminals keep ctrl+s for flow control)"),
+                Binding("escape", "leave_if_unchanged", "close", id="preset-form.close",
                         tooltip="Close (unsaved values are never dropped by Esc alone)")]
 
     def __init__(self, session: EditSession, title: str = ""):
@@ -77,6 +82,7 @@ class PresetForm(ModalScreen[bool]):
             with Horizontal(id="form-buttons"):
                 yield Button("Save", variant="primary", id="form-save")
                 yield Button("Close", id="form-close")
+        yield Footer()
 
     def _row(self, key: str, kind: str, pair: bool, required: bool) -> ComposeResult:
         validators = [] if kind == "text" else [QuantityText(kind)]
@@ -141,6 +147,7 @@ class PresetForm(ModalScreen[bool]):
                 found[key] = (texts[0], texts[1]) if pair else texts[0]
         return found, wrong
 
+    @on(Input.Submitted)
     @on(Button.Pressed, "#form-save")
     def action_save(self) -> None:
         values, wrong = self.values()
@@ -183,6 +190,6 @@ class PresetForm(ModalScreen[bool]):
         # Esc is harmless: a slow link can split an escape sequence, so it never drops typed values.
         values, wrong = self.values()
         if wrong or any(self.session.started.get(key) != raw for key, raw in values.items()):
-            self.show_problems(["Unsaved values: ctrl+s saves them, the Close button drops them."])
+            self.show_problems(["Unsaved values: enter or the Save button saves them, the Close button drops them."])
         else:
             self.dismiss(False)
