@@ -71,7 +71,7 @@ class Layout:
 
     @cached_property
     def columns(self) -> dict[tuple, int]:
-        """(stage, quantity, kind, amp) -> column: looked up for every stage of every chunk."""
+        """(stage, quantity, kind, amp) -> its first column: looked up per stage and chunk."""
         found: dict[tuple, int] = {}
         for k, var in enumerate(self.variables):
             found.setdefault((var.stage, var.quantity, var.kind, var.amp), k)
@@ -259,19 +259,15 @@ def band_min(x: np.ndarray) -> np.ndarray:
     return -band_max(-x)
 
 
-def bounds_of(node, v, signal, offsets, bias, known: dict | None = None):
-    """The node's per-row bounds; `known` keeps those already found in this stage (a stage's
-    output node is usually its last op amp's output node too)."""
-    if known is not None and id(node) in known:
-        return known[id(node)][1]
-    bounds = node_bounds(node, v, signal, 0.0, shift_of(node, offsets, bias))
-    if known is not None:
-        known[id(node)] = (node, bounds)       # the node is held so that its id stays its own
-    return bounds
+def bounds_of(node, v, signal, offsets, bias, known: dict):
+    """The node's per-row bounds, found once per stage (`known`: see stage_walk.bounds_once)."""
+    if id(node) not in known:
+        known[id(node)] = (node, node_bounds(node, v, signal, 0.0, shift_of(node, offsets, bias)))
+    return known[id(node)][1]
 
 
 def opamp_draws(part, amp, v, signal, offsets, bias, freqs, load: InputLoad, pos, neg,
-                record: list | None = None, known: dict | None = None):
+                record: list | None, known: dict):
     """One op amp's margins per row (the per-row twin of stage_walk.opamp_measure)."""
     out = bounds_of(amp.output, v, signal, offsets, bias, known)
     plus = bounds_of(amp.plus, v, signal, offsets, bias, known)
@@ -350,12 +346,11 @@ def clamp_rows(signal: Signal, window, rows: np.ndarray) -> Signal:
     half = np.maximum((high - low) / 2.0, 0.0)
     pick = rows[:, None]
     amp_lo = np.where(pick, np.minimum(signal.amp_lo, half), signal.amp_lo)
-    one_amplitude = signal.amp_lo is signal.amp_hi          # kept one array (propagation.py, Speed)
+    amp_hi = np.where(pick, np.minimum(signal.amp_hi, half), signal.amp_hi) \
+        if signal.amp_lo is not signal.amp_hi else amp_lo     # one stays one (propagation.py)
     return Signal(hi=np.where(pick, np.clip(signal.hi, low, high), signal.hi),
                   lo=np.where(pick, np.clip(signal.lo, low, high), signal.lo),
-                  amp_lo=amp_lo,
-                  amp_hi=amp_lo if one_amplitude else np.where(pick, np.minimum(signal.amp_hi, half),
-                                                               signal.amp_hi))
+                  amp_lo=amp_lo, amp_hi=amp_hi)
 
 
 def saturated_levels_rows(part, pos, neg, conductance):

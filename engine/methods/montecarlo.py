@@ -24,7 +24,7 @@ from railroom.engine import draw_walk as dw
 from railroom.engine.methods import judged
 from railroom.engine.methods.corners import prepare
 
-CHUNK_ROWS = 8192
+CHUNK_ROWS = 10_000        # the default sample count in one walk; larger chunks ran slower
 MEDIAN_ROWS = 16384
 QUOTED = {"0.1%": 0.001, "1%": 0.01, "50%": 0.5}
 TAIL = 0.01               # the highest quoted percentile read from the kept low tail
