@@ -66,12 +66,15 @@ def judge(measure: StageMeasure, part: Part | None, rails: Rails, required: floa
 
 
 def limiting_check(margins: dict[str, float], rails: Rails, part: Part | None) -> str | None:
-    """The check with the least margin, each margin taken relative to its own scale."""
-    if not margins:
+    """The check with the least margin, each margin taken relative to its own scale. The supply
+    check only limits when it fails: a part inside its supply range is not nearer to clipping
+    for being near its supply limit."""
+    considered = {c: m for c, m in margins.items() if c != "supply" or m < 0}
+    if not considered:
         return None
     span = rails.positive - rails.negative
     scale = {"slew": part.slew if part else 1.0, "current": part.output_current if part else 1.0}
-    return min(margins, key=lambda c: margins[c] / scale.get(c, span))
+    return min(considered, key=lambda c: considered[c] / scale.get(c, span))
 
 
 def stage_cautions(measure: StageMeasure, part: Part | None, rails: Rails) -> list[str]:

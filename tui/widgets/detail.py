@@ -138,9 +138,9 @@ def stage_story(stage: StageResult, chain: Chain, parts: Mapping[str, Part]) -> 
         head.append(f"  leaves linear in {m.probability:.3%} of draws")
     parts_shown: list = [head, checks_table(stage, part, chain)]
     if m.thresholds is not None:
-        rising, falling = m.thresholds
-        parts_shown.append(Text(f"thresholds: rising {span_words(rising)}, "
-                                f"falling {span_words(falling)}"))
+        to_high, to_low = m.thresholds
+        parts_shown.append(Text(f"switches: output goes high at input {span_words(to_high)}, "
+                                f"low at {span_words(to_low)}"))
     parts_shown.append(Text("components: ", style="bold") + components(stage))
     nodes = nodes_table(stage)
     if nodes is not None:
