@@ -223,7 +223,7 @@ async def test_new_from_copy_then_rename(lab):
         await pilot.pause()
         copy = user_folder() / "generic.toml"
         assert "[part.lab-rro]" in copy.read_text(encoding="utf-8")
-        await pilot.press("escape", *"lab-rro", "enter", "r")
+        await pilot.press("slash", *"lab-rro", "enter", "r")   # / goes to the filter; Esc to the list
         await pilot.pause()
         pilot.app.screen.query_one("#name-input", Input).value = "lab-rro-b"
         await pilot.press("enter")
@@ -263,3 +263,13 @@ async def test_save_button_is_reached_with_tab_and_pressed_with_enter(lab):
         await pilot.press("enter")
         await pilot.pause()
         assert 'gbw = "2M"' in lab.read_text(encoding="utf-8")
+
+
+@synchronous
+async def test_esc_then_q_goes_back_without_typing_into_the_filter(lab):
+    # Esc leaves the filter for the list (what was typed stays), so q then closes the screen
+    async with PresetsApp().run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        await pilot.press(*"rro", "escape", "q")
+        await pilot.pause()
+        assert not isinstance(pilot.app.screen, PresetsScreen)

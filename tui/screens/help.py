@@ -15,6 +15,11 @@ INTRO = ("railroom checks that every op amp in the chain stays in its linear reg
          "tolerances. Edits are checked as you type; the verdict repaints at once.")
 
 
+# Textual's key names for the printable keys, shown as the key itself.
+KEY_WORDS = {"question_mark": "?", "colon": ":", "slash": "/", "full_stop": ".",
+             "comma": ",", "minus": "-", "plus": "+", "greater_than_sign": ">", "less_than_sign": "<"}
+
+
 def key_table(bindings: list[Binding]) -> Table:
     table = Table(box=None, pad_edge=False, show_edge=False)
     for column in ("key", "does", "id"):
@@ -24,7 +29,7 @@ def key_table(bindings: list[Binding]) -> Table:
         if binding.id in seen or binding.system:
             continue
         seen.add(binding.id)
-        keys = binding.key_display or binding.key.replace(",", " ")
+        keys = binding.key_display or " ".join(KEY_WORDS.get(k, k) for k in binding.key.split(","))
         table.add_row(Text(keys), Text(binding.tooltip or binding.description),
                       Text(binding.id or "", style="dim"))
     return table

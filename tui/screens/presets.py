@@ -127,7 +127,7 @@ class PresetsScreen(Screen):
         Binding("r", "rename", "Rename", id="presets.rename", tooltip="Rename the preset"),
         Binding("d", "delete", "Delete", id="presets.delete", tooltip="Delete (asks first)"),
         Binding("slash", "focus_filter", "Filter", id="presets.filter", tooltip="Type to filter"),
-        Binding("escape", "focus_filter", show=False),  # harmless: it only moves the focus
+        Binding("escape", "focus_list", show=False),  # harmless: it only moves the focus
         Binding("q", "close", "Back", id="presets.close", tooltip="Back to the chain"),
     ]
 
@@ -218,6 +218,10 @@ class PresetsScreen(Screen):
 
     def action_focus_filter(self) -> None:
         self.query_one("#preset-filter", Input).focus()
+
+    def action_focus_list(self) -> None:
+        """Esc leaves the filter for the list (keeping what was typed), so q then goes back."""
+        self.query_one(DataTable).focus()
 
     def action_close(self) -> None:
         if len(self.app.screen_stack) > 1:
