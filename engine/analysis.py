@@ -38,10 +38,12 @@ def band_grid(chain: Chain, plans) -> np.ndarray:
 def analyse(chain: Chain, parts: Mapping[str, Part], *, method: str | None = None,
             samples: int | None = None, seed: int | None = None,
             margin: float | None = None, design_aids: bool = True,
-            headroom: bool = True) -> ChainResult:
+            headroom: bool = True, progress=None) -> ChainResult:
     """Check every stage of the chain; raises InputError for unknown parts. `design_aids`:
     sensitivity ranking and fixes (engine/fixes.py); `headroom`: the headroom_db search. The
-    interface turns both off for the instant re-check and fills them in from a worker."""
+    interface turns both off for the instant re-check and fills them in from a worker.
+    `progress(fraction) -> bool` hears how far Monte Carlo is; returning False stops it with
+    methods.montecarlo.Cancelled."""
     chain = with_overrides(chain, method, samples, seed, margin)
     plans = plan_chain(chain, parts)
     freqs = band_grid(chain, plans)
@@ -55,7 +57,7 @@ def analyse(chain: Chain, parts: Mapping[str, Part], *, method: str | None = Non
     corner_stages = stages
     if method_name != "corners":
         from railroom.engine.methods import run_statistical
-        stages, chain_yield = run_statistical(method_name, chain, plans, freqs, stages)
+        stages, chain_yield = run_statistical(method_name, chain, plans, freqs, stages, progress)
     headroom = headroom_db(prepared) if headroom else None
     if design_aids:
         from railroom.engine.fixes import design_aids as aids

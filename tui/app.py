@@ -5,6 +5,7 @@
 from __future__ import annotations
 
 import sys
+import time
 from functools import partial
 from pathlib import Path
 from typing import Callable
@@ -16,6 +17,7 @@ from textual.timer import Timer
 from textual.worker import get_current_worker
 
 from railroom.engine.analysis import analyse
+from railroom.engine.methods.montecarlo import Cancelled
 from railroom.engine.model import InputError
 from railroom.engine.results import ChainResult
 from railroom.tui.screens.chain import ChainScreen
@@ -102,8 +104,21 @@ class RailroomApp(App):
     def run_full(self, generation: int, chain, parts) -> None:
         worker = get_current_worker()
         problem = ""
+        status = self.chain_screen.query_one("StatusLine")
+        last = [0.0]
+
+        def progress(fraction: float) -> bool:
+            # a few repaints a second at most; False stops a run a newer edit made stale
+            now = time.monotonic()
+            if now - last[0] > 0.2:
+                last[0] = now
+                self.call_from_thread(status.progress, fraction)
+            return not worker.is_cancelled and generation == self._generation
+
         try:
-            result = analyse(chain, parts)
+            result = analyse(chain, parts, progress=progress)
+        except Cancelled:
+            return
         except (NotImplementedError, InputError, ValueError) as err:
             problem = str(err)
             if worker.is_cancelled:

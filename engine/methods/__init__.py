@@ -15,14 +15,15 @@ from railroom.engine.results import StageResult
 Stat = dict[str, float]
 
 
-def run_statistical(method: str, chain, plans, freqs, corner_stages):
-    """Hook for the statistical methods; returns (stage results, chain yield)."""
+def run_statistical(method: str, chain, plans, freqs, corner_stages, progress=None):
+    """Hook for the statistical methods; returns (stage results, chain yield). `progress`:
+    see montecarlo.run."""
     if method == "rss":
         from railroom.engine.methods.rss import run
         return run(chain, plans, freqs, corner_stages), None
     if method == "montecarlo":
         from railroom.engine.methods.montecarlo import run
-        return run(chain, plans, freqs, corner_stages)
+        return run(chain, plans, freqs, corner_stages, progress=progress)
     raise NotImplementedError(f"method {method!r} is not built")
 
 

@@ -151,13 +151,19 @@ def median_rows(x: np.ndarray) -> np.ndarray:
     return np.where(np.isnan(x).any(axis=1), np.nan, found)
 
 
-def run(chain, plans, freqs, corner_stages, chunk: int = CHUNK_ROWS):
-    """Stage results at the 0.1 % percentile, with probability and percentiles; chain yield."""
+class Cancelled(Exception):
+    """The caller's progress callback asked to stop (a newer edit made this run stale)."""
+
+
+def run(chain, plans, freqs, corner_stages, chunk: int = CHUNK_ROWS, progress=None):
+    """Stage results at the 0.1 % percentile, with probability and percentiles; chain yield.
+    `progress(fraction_done) -> bool` is called after every chunk; False stops the run."""
     samples, seed = chain.conditions.samples, chain.conditions.seed
     layout = layout_for(chain, plans, freqs, corner_stages)
     tail = None
     leaving = np.zeros(len(plans))
     all_linear = 0
+    done = 0
     for draws in sample(layout, samples, seed, chunk):
         series = series_of(draws)
         if tail is None:
@@ -167,6 +173,9 @@ def run(chain, plans, freqs, corner_stages, chunk: int = CHUNK_ROWS):
         linear = np.vstack([d.linear for d in draws])
         leaving += (~linear).sum(axis=1)
         all_linear += int(linear.all(axis=0).sum())
+        done += linear.shape[1]
+        if progress is not None and not progress(done / samples):
+            raise Cancelled()
     quoted = {name: tail.median() if q == 0.5 else tail.low(q) for name, q in QUOTED.items()}
     stages = stage_results(plans, corner_stages, quoted, leaving / samples, chain.conditions.margin)
     return stages, all_linear / samples

@@ -50,4 +50,11 @@ class StatusLine(Vertical):
         self.query_one("#status-facts", Static).update(facts)
 
     def running(self, busy: bool) -> None:
-        self.query_one("#status-progress").display = busy
+        bar = self.query_one("#status-progress", ProgressBar)
+        bar.display = busy
+        if busy:
+            bar.update(total=None, progress=0)      # pulses until the method reports progress
+
+    def progress(self, fraction: float) -> None:
+        """Share of Monte Carlo draws done."""
+        self.query_one("#status-progress", ProgressBar).update(total=1.0, progress=fraction)
