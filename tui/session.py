@@ -143,3 +143,66 @@ class Session:
         """The user chose to keep their edits: stop asking about this version of the file
         (saving still asks before overwriting it)."""
         self.ignored_print = fingerprint(self.path)
+
+    def preset_warnings(self) -> list[str]:
+        """What the user should hear about the preset folders on opening: a folder named by the
+        chain or by --presets that is not there, and preset files with problems (their good parts
+        are still used; a stage that needs a broken part stops the load with the problem itself)."""
+        named = (*self.chain.preset_dirs, *self.extra_preset_dirs)
+        warnings = [f"preset folder not found: {d}" for d in named if not Path(d).is_dir()]
+        warnings += [str(p) for p in self.library.problems]
+        return warnings
+
+
+@dataclass
+class WaitingFile:
+    """A chain file that cannot be opened (yet): missing, unreadable or with problems. It is
+    watched, with the preset files, and opened as soon as it loads. No Textual here either."""
+
+    path: Path | None                                 # None: the built-in demo
+    extra_preset_dirs: tuple[str, ...]
+    problems: tuple[Problem, ...] = ()
+    seen: tuple = ()                                  # the prints of the watched files at the last try
+
+    @property
+    def file(self) -> Path:
+        return self.path if self.path is not None else demo_path()
+
+    @property
+    def missing(self) -> bool:
+        return not self.file.exists()
+
+    def _prints(self) -> tuple:
+        """The chain file, every preset file of the folders it would search, and every file a
+        problem names (a preset folder named only in the broken chain is watched through these)."""
+        files = {self.file, *(Path(p.file) for p in self.problems)}
+        for folder in search_order((), self.extra_preset_dirs):
+            if folder.is_dir():
+                files.update(folder.glob("*.toml"))
+        return tuple(sorted((str(f), fingerprint(f)) for f in files))
+
+    def changed_on_disk(self) -> bool:
+        return self._prints() != self.seen
+
+    def try_open(self) -> Session | None:
+        """The session when the file loads now; else None, with the problems brought up to date."""
+        try:
+            return Session.open(self.path, self.extra_preset_dirs)
+        except InputError as err:
+            self.problems = err.problems
+            return None
+        finally:
+            self.seen = self._prints()
+
+    def start_from_demo(self) -> None:
+        """Write the built-in demo under the missing file's name (never over an existing file)."""
+        if self.path is None or self.path.exists():
+            raise FileExistsError(f"{self.file} exists: not overwritten")
+        write_atomic(self.path, demo_path().read_text(encoding="utf-8"))
+
+
+def open_chain(path: str | Path | None, extra_preset_dirs: tuple[str, ...] = ()
+               ) -> Session | WaitingFile:
+    """The session on a chain file, or the file to wait for with the problems that stop it."""
+    waiting = WaitingFile(Path(path) if path is not None else None, extra_preset_dirs)
+    return waiting.try_open() or waiting
