@@ -1,10 +1,13 @@
 """The railroom interface: wires the chain session, the screens, the keys and the engine.
 
     app = build_app("chain.toml", ("./more-presets",))     # tests reuse this factory
+
+A chain file that cannot be opened (missing, bad TOML, unknown part, bad value) still opens the
+interface, on the problems screen; the file is watched and the chain screen takes its place as
+soon as the file loads.
 """
 from __future__ import annotations
 
-import sys
 import time
 from functools import partial
 from pathlib import Path
@@ -23,7 +26,8 @@ from railroom.engine.results import ChainResult
 from railroom.tui.screens.chain import ChainScreen
 from railroom.tui.screens.dialogs import ConfirmScreen, SaveAsScreen
 from railroom.tui.screens.help import HelpScreen
-from railroom.tui.session import Session
+from railroom.tui.screens.problems import ProblemsScreen
+from railroom.tui.session import Session, WaitingFile, open_chain
 
 WATCH_SECONDS = 1.0
 # While values are being typed, the full check (the file's method with the design aids) waits for a
@@ -52,18 +56,29 @@ class RailroomApp(App):
         key("q", "quit", "quit", "quit", "Quit (asks first when there are unsaved changes)"),
     ]
 
-    def __init__(self, session: Session) -> None:
+    # the keys that need no chain: the problems screen offers only these
+    WITHOUT_CHAIN = {"reload", "help", "quit", "command_palette", "screenshot"}
+
+    def __init__(self, opened: Session | WaitingFile) -> None:
         super().__init__()
-        self.session = session
+        self.session: Session | None = opened if isinstance(opened, Session) else None
+        self.waiting: WaitingFile | None = opened if isinstance(opened, WaitingFile) else None
         self.result: ChainResult | None = None
         self._generation = 0
         self._full_timer: Timer | None = None
 
-    def get_default_screen(self) -> ChainScreen:
+    def get_default_screen(self) -> ChainScreen | ProblemsScreen:
+        if self.waiting is not None:
+            return ProblemsScreen(self.waiting)
         return ChainScreen(id="chain")
 
     def on_mount(self) -> None:
         self.set_interval(WATCH_SECONDS, self.watch_file)
+        if self.session is not None:
+            self.warn_presets()
+
+    def check_action(self, action: str, parameters: tuple) -> bool | None:
+        return self.session is not None or action in self.WITHOUT_CHAIN
 
     @property
     def chain_screen(self) -> ChainScreen:
@@ -140,6 +155,11 @@ class RailroomApp(App):
 
     # the file
     def watch_file(self) -> None:
+        if self.session is None:
+            # help open on top: try again once it is closed (the chain screen replaces the top)
+            if isinstance(self.screen, ProblemsScreen) and self.waiting.changed_on_disk():
+                self.try_open()
+            return
         if not self.session.changed_on_disk() or isinstance(self.screen, ConfirmScreen):
             return
 
@@ -156,7 +176,32 @@ class RailroomApp(App):
                 ("k", "keep", "keep what is on screen (saving asks before overwriting)")]),
             answered)
 
+    def try_open(self, asked: bool = False) -> None:
+        """Open the waiting file if it loads now, on the chain screen; else show its problems."""
+        session = self.waiting.try_open()
+        if session is None:
+            self.screen_stack[0].show()
+            if asked:
+                self.notify("still not loadable: the problems are listed", severity="warning")
+            return
+        self.session, self.waiting = session, None
+        # a mode of its own: the chain screen is then the base of the stack, as when the file
+        # opened at once (the problems screen is the base of the default mode's stack)
+        self.add_mode("chain", lambda: ChainScreen(id="chain"))
+        self.switch_mode("chain")
+        self.notify(f"opened {session.path}", markup=False)
+        self.warn_presets()
+
+    def warn_presets(self) -> None:
+        warnings = self.session.preset_warnings()
+        if warnings:
+            self.notify("\n".join(warnings[:4]) + ("\n..." if len(warnings) > 4 else ""),
+                        title="presets", severity="warning", markup=False, timeout=8)
+
     def action_reload(self) -> None:
+        if self.session is None:
+            self.try_open(asked=True)
+            return
         problems = self.session.reload()
         if problems:
             self.notify("\n".join(str(p) for p in problems[:4]), title="not reloaded",
@@ -205,7 +250,7 @@ class RailroomApp(App):
             then()
 
     async def action_quit(self) -> None:
-        if not self.session.modified:
+        if self.session is None or not self.session.modified:
             self.exit(0)
             return
 
@@ -224,7 +269,7 @@ class RailroomApp(App):
         from railroom.tui.widgets.preset_form import PresetForm
         from railroom.tui.widgets.stage_list import StageList
         rooms = (self.BINDINGS, ChainScreen.BINDINGS, StageList.BINDINGS, FieldForm.BINDINGS,
-                 PresetsScreen.BINDINGS, PresetForm.BINDINGS)
+                 PresetsScreen.BINDINGS, PresetForm.BINDINGS, ProblemsScreen.BINDINGS)
         self.push_screen(HelpScreen([b for room in rooms for b in room if b.id]))
 
     def action_screenshot(self) -> None:
@@ -254,16 +299,12 @@ class RailroomApp(App):
 
 def build_app(chain_path: str | Path | None = None,
               extra_preset_dirs: tuple[str, ...] = ()) -> RailroomApp:
-    """The app on a chain file (the built-in demo when None); raises InputError."""
-    return RailroomApp(Session.open(chain_path, tuple(str(d) for d in extra_preset_dirs)))
+    """The app on a chain file (the built-in demo when None); on the problems screen when the
+    file cannot be opened."""
+    return RailroomApp(open_chain(chain_path, tuple(str(d) for d in extra_preset_dirs)))
 
 
 def run_app(chain_path: str | None, extra_preset_dirs: tuple[str, ...] = ()) -> int:
-    try:
-        app = build_app(chain_path, extra_preset_dirs)
-    except InputError as err:
-        for problem in err.problems:
-            print(f"railroom: {problem}", file=sys.stderr)
-        return 2
+    app = build_app(chain_path, extra_preset_dirs)
     app.run()
     return app.return_code or 0
