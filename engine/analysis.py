@@ -55,13 +55,24 @@ def analyse(chain: Chain, parts: Mapping[str, Part], *, method: str | None = Non
     method_name = chain.conditions.method
     chain_yield = None
     corner_stages = stages
+    # The per-circuit layout and its linearisation serve the statistical method and the design
+    # aids alike: built once here from the prepared responses rather than once by each.
+    layout = lin = None
+    if method_name != "corners" or design_aids:
+        from railroom.engine.draw_walk import build_layout
+        layout = build_layout(chain, plans, freqs, prepared, corner_stages)
+    if method_name == "rss" or design_aids:
+        from railroom.engine.sensitivity import linearise
+        lin = linearise(layout)
     if method_name != "corners":
         from railroom.engine.methods import run_statistical
-        stages, chain_yield = run_statistical(method_name, chain, plans, freqs, stages, progress)
-    headroom = headroom_db(prepared) if headroom else None
+        stages, chain_yield = run_statistical(method_name, chain, plans, freqs, stages, progress,
+                                              layout=layout, lin=lin)
+    headroom = headroom_db(prepared, corner_stages) if headroom else None
     if design_aids:
         from railroom.engine.fixes import design_aids as aids
-        stages = aids(chain, plans, freqs, stages, corner_stages, headroom)
+        stages = aids(chain, plans, freqs, stages, corner_stages, headroom, lin=lin,
+                      baseline=corner_stages if method_name == "montecarlo" else stages)
     return ChainResult(
         chain=chain, method=method_name,
         samples=chain.conditions.samples if method_name == "montecarlo" else None,
@@ -122,9 +133,11 @@ def _check_scale(result, check: str) -> float:
     return 1.0
 
 
-def headroom_db(prepared: corners.Prepared) -> float | None:
+def headroom_db(prepared: corners.Prepared, at_full_scale=None) -> float | None:
     """dB the source AC amplitude may rise (negative: must fall) before a stage leaves the linear
-    regime; None without an AC part or when DC alone already fails.
+    regime; None without an AC part or when DC alone already fails. `at_full_scale`: the corners
+    results of `prepared` at the file's amplitude when the caller has them (saves one walk;
+    margins and regime do not depend on the nominal notes).
 
     The least linear margin falls almost linearly with the amplitude, so a false-position search
     on the amplitude (Illinois variant; Dahlquist & Bjorck, Numerical Methods, 6.2) brackets the
@@ -138,7 +151,7 @@ def headroom_db(prepared: corners.Prepared) -> float | None:
     low, room_low = 0.0, room(0.0)
     if room_low < 0:
         return None
-    high, room_high = 1.0, room(1.0)
+    high, room_high = 1.0, (room(1.0) if at_full_scale is None else linear_room(at_full_scale))
     limit = 10 ** (HEADROOM_LIMIT_DB / 20)
     while room_high >= 0:
         if high >= limit:

@@ -36,12 +36,14 @@ def needs_fix(result: StageResult, required: float) -> bool:
             and result.margins[check] < TIGHT * required)
 
 
-def design_aids(chain, plans, freqs, stages, corner_stages, headroom: float | None
-                ) -> list[StageResult]:
-    """Stages with sensitivity (every stage) and fixes (failing or tight stages) filled in."""
-    lin = linearise(layout_for(chain, plans, freqs, corner_stages, band="full"))
+def design_aids(chain, plans, freqs, stages, corner_stages, headroom: float | None,
+                lin=None, baseline: list[StageResult] | None = None) -> list[StageResult]:
+    """Stages with sensitivity (every stage) and fixes (failing or tight stages) filled in.
+    `lin`: the full-band linearisation when the caller has it; `baseline`: the verdicts the
+    Evaluator would find for the unchanged chain (see Evaluator), when the caller has them."""
+    lin = lin or linearise(layout_for(chain, plans, freqs, corner_stages, band="full"))
     statistical = chain.conditions.method != "corners"
-    evaluate = Evaluator(chain, plans, freqs)
+    evaluate = Evaluator(chain, plans, freqs, baseline)
     aided = []
     for plan, result in zip(plans, stages):
         sensitivity = ranking(lin, plan.index, result.limiting, statistical)
@@ -57,9 +59,11 @@ def design_aids(chain, plans, freqs, stages, corner_stages, headroom: float | No
 class Evaluator:
     """Re-runs the chain's method with one stage value changed; remembers the unchanged verdicts."""
 
-    def __init__(self, chain, plans, freqs):
+    def __init__(self, chain, plans, freqs, baseline: list[StageResult] | None = None):
+        # `baseline`: results(plans) when the caller has them (corners results, or rss ones for
+        # rss): only their GO verdicts are read, which the nominal notes do not touch.
         self.chain, self.plans, self.freqs = chain, plans, freqs
-        self._baseline = None
+        self._baseline = baseline
 
     def results(self, plans) -> list[StageResult]:
         found = corners.run(corners.prepare(self.chain, plans, self.freqs))

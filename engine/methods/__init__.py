@@ -15,15 +15,17 @@ from railroom.engine.results import StageResult
 Stat = dict[str, float]
 
 
-def run_statistical(method: str, chain, plans, freqs, corner_stages, progress=None):
+def run_statistical(method: str, chain, plans, freqs, corner_stages, progress=None,
+                    layout=None, lin=None):
     """Hook for the statistical methods; returns (stage results, chain yield). `progress`:
-    see montecarlo.run."""
+    see montecarlo.run. `layout` (full band) and `lin` (its linearisation) when the caller
+    has them already."""
     if method == "rss":
         from railroom.engine.methods.rss import run
-        return run(chain, plans, freqs, corner_stages), None
+        return run(chain, plans, freqs, corner_stages, lin=lin), None
     if method == "montecarlo":
         from railroom.engine.methods.montecarlo import run
-        return run(chain, plans, freqs, corner_stages, progress=progress)
+        return run(chain, plans, freqs, corner_stages, progress=progress, layout=layout)
     raise NotImplementedError(f"method {method!r} is not built")
 
 

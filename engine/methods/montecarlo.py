@@ -38,8 +38,10 @@ def deviates(uniform: np.ndarray, distribution: str) -> np.ndarray:
     return 2.0 * uniform - 1.0
 
 
-def layout_for(chain, plans, freqs, corner_stages, band: str = "decisive") -> dw.Layout:
-    layout = dw.build_layout(chain, plans, freqs, prepare(chain, plans, freqs), corner_stages)
+def layout_for(chain, plans, freqs, corner_stages, band: str = "decisive",
+               full: dw.Layout | None = None) -> dw.Layout:
+    """The draw walk's layout; `full`: the full-band layout when the caller has built it."""
+    layout = full or dw.build_layout(chain, plans, freqs, prepare(chain, plans, freqs), corner_stages)
     return dw.with_freqs(layout, dw.decisive_freqs(layout)) if band == "decisive" else layout
 
 
@@ -155,11 +157,13 @@ class Cancelled(Exception):
     """The caller's progress callback asked to stop (a newer edit made this run stale)."""
 
 
-def run(chain, plans, freqs, corner_stages, chunk: int = CHUNK_ROWS, progress=None):
+def run(chain, plans, freqs, corner_stages, chunk: int = CHUNK_ROWS, progress=None,
+        layout: dw.Layout | None = None):
     """Stage results at the 0.1 % percentile, with probability and percentiles; chain yield.
-    `progress(fraction_done) -> bool` is called after every chunk; False stops the run."""
+    `progress(fraction_done) -> bool` is called after every chunk; False stops the run.
+    `layout`: the full-band layout when the caller has built it."""
     samples, seed = chain.conditions.samples, chain.conditions.seed
-    layout = layout_for(chain, plans, freqs, corner_stages)
+    layout = layout_for(chain, plans, freqs, corner_stages, full=layout)
     tail = None
     leaving = np.zeros(len(plans))
     all_linear = 0
