@@ -220,7 +220,8 @@ def _read_stage(t: dict, index: int, r: FieldReader, rails: dict, default_tol: f
             if q is not None:
                 values[key] = q
     return Stage(name=name or f"stage {index}", block=block_name, part=part, rails=rails_name,
-                 load=load, values=values, line=r.line(w))
+                 load=load, values=values, line=r.line(w),
+                 lines={key: r.lines[f"{w}.{key}"] for key in t if f"{w}.{key}" in r.lines})
 
 
 def _component(r: FieldReader, t: dict, w: str, key: str, kind: str, default, default_tol: float):

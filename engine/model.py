@@ -125,6 +125,7 @@ class Stage:
     load: Quantity | None = None
     values: Mapping[str, object] = field(default_factory=dict)   # the block's own fields, parsed
     line: int | None = None                                       # where the [[stage]] starts
+    lines: Mapping[str, int] = field(default_factory=dict)       # field -> line, for messages
 
     def quantity(self, name: str) -> Quantity | None:
         value = self.values.get(name)

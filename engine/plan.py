@@ -50,7 +50,8 @@ def plan_chain(chain: Chain, parts: Mapping[str, Part]) -> list[StagePlan]:
             part = parts.get(stage.part or "")
             if part is None:
                 near = _near(stage.part or "", parts)
-                problems.append(Problem(chain.path, stage.line, f"stage.{index}.part",
+                problems.append(Problem(chain.path, stage.lines.get("part", stage.line),
+                                        f"stage.{index}.part",
                                         f"unknown part {stage.part!r}" +
                                         (f"; did you mean {near!r}?" if near else
                                          "; see `railroom presets list`")))

@@ -31,6 +31,8 @@ def parse_toml(text: str, path: str) -> tuple[dict | None, list[Problem]]:
             import re
             found = re.search(r"line (\d+)", message)
             line = int(found.group(1)) if found else None
+        if line is None and "end of document" in message:
+            line = max(1, text.count("\n") + (0 if text.endswith("\n") else 1))
         reason = getattr(err, "msg", message.split(" (at ")[0])
         return None, [Problem(path, line, "(file)", f"not valid TOML: {reason}")]
 
