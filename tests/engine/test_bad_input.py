@@ -85,7 +85,7 @@ def test_unknown_part_is_located_by_load_checked_and_plan_chain(tmp_path):
     with pytest.raises(InputError) as caught:
         load_checked(str(path))
     (problem,) = caught.value.problems
-    assert (problem.file, problem.line, problem.field) == (str(path), 8, "stage.1.part")
+    assert (problem.file, problem.line, problem.field) == (str(path), 10, "stage.1.part")   # the part = line
     assert "unknown part 'generic-bipolar-15'" in problem.message
     assert "did you mean 'generic-bipolar-15v'" in problem.message
     chain = load_chain(path)
