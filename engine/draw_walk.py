@@ -198,7 +198,8 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
     indices where each checked extreme falls (see decisive_freqs)."""
     rows = D.shape[0]
     D = np.asfortranarray(D)       # each quantity's column contiguous: read column by column below
-    s = laplace_grid(layout.freqs)
+    grid = laplace_grid(layout.freqs)
+    s = per_row(grid, rows)
     signal = start_signal(layout.chain, layout.freqs, rows)
     clipped = np.zeros(rows, dtype=bool)
     results = []
@@ -207,13 +208,23 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
         if plan.block.saturates:
             draws, signal = saturated_draws(layout, k, v, D, signal)
         else:
-            ig = inverse_open_loop(plan.part, s)
+            ig = per_row(inverse_open_loop(plan.part, grid), rows)
             response = plan.block.respond(v, s, ig, layout.drives[k], k == 0 and
                                           layout.chain.source.differential)
             draws, signal = linear_draws(layout, k, response, v, D, dT, signal, record)
         clipped |= ~draws.linear
         results.append(draws)
     return results
+
+
+def per_row(grid: np.ndarray, rows: int) -> np.ndarray:
+    """A (F+1,) grid over s as a column-major (rows, F+1) array when the rows outnumber the
+    frequencies: every (J, 1) x (J, F+1) product in the blocks then comes out column-major too
+    (numpy keeps the memory order of the full-size operand), so its inner loops run over the
+    rows (propagation.py, Speed). The values are the grid's, repeated; answers do not change."""
+    if rows <= len(grid):
+        return grid
+    return np.asfortranarray(np.broadcast_to(grid, (rows, len(grid))))
 
 
 def decisive_freqs(layout: Layout) -> np.ndarray:
