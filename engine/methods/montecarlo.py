@@ -31,11 +31,22 @@ TAIL = 0.01               # the highest quoted percentile read from the kept low
 
 
 def deviates(uniform: np.ndarray, distribution: str) -> np.ndarray:
-    """Uniform u in [0, 1) -> d in [-1, 1] (uniform) or normal with d = 1 at 3 sigma."""
+    """Uniform u in [0, 1) -> d in [-1, 1] (uniform) or normal with d = 1 at 3 sigma.
+
+    Returned column-major, as the draw walk reads it column by column: the one copy into that
+    order is made first and the arithmetic runs in place on it (same operations, same values)."""
+    d = np.asfortranarray(uniform)
+    if d is uniform:
+        d = d.copy(order="F")
     if distribution == "normal":
         from scipy.special import ndtri
-        return ndtri(np.clip(uniform, 1e-16, 1.0 - 1e-16)) / 3.0
-    return 2.0 * uniform - 1.0
+        np.clip(d, 1e-16, 1.0 - 1e-16, out=d)
+        ndtri(d, out=d)
+        d /= 3.0
+        return d
+    d *= 2.0
+    d -= 1.0
+    return d
 
 
 def layout_for(chain, plans, freqs, corner_stages, band: str = "decisive",
