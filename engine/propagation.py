@@ -28,6 +28,7 @@ keeps them one array, so a_sel needs no choice.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -82,22 +83,57 @@ def error_bound(node: Node, offsets: np.ndarray, bias: float) -> np.ndarray | fl
     return np.abs(node.offset_gain) @ offsets + np.abs(node.bias_gain).sum(axis=-1) * bias
 
 
-def single_bounds(node: Node, v: dict, signal: Signal, error: np.ndarray | float,
-                  shift: np.ndarray | float = 0.0) -> NodeBounds:
-    """Bounds of a node fed by a single-ended signal (see the module docstring)."""
+@dataclass(frozen=True)
+class NodeTerms:
+    """The terms of a node's single-ended bounds that come from the node alone, not from the
+    signal fed in: c + shift, e, g, G = |g|, |H(f)| and |H| - G (module docstring). Found once
+    per node they serve every source amplitude the headroom search tries."""
+
+    fixed: np.ndarray | float
+    error: np.ndarray | float
+    g: np.ndarray | None = None            # None: the node does not see the chain signal
+    gain: np.ndarray | None = None
+    magnitude: np.ndarray | None = None
+    spare: np.ndarray | None = None
+
+    @cached_property
+    def positive(self) -> np.ndarray:
+        return self.g >= 0
+
+    @cached_property
+    def rising(self) -> np.ndarray:
+        """Where |H| >= G: a_sel = amp_hi there."""
+        return self.spare >= 0
+
+
+def single_terms(node: Node, v: dict, error: np.ndarray | float, shift: np.ndarray | float = 0.0,
+                 order: str = "C") -> NodeTerms:
+    """`order`: the memory order of the signal arrays the node will meet (see memory_order)."""
     transfer = node.transfers.get("in")
     fixed = as_column(fixed_part(node, v, ("in",)) + shift)
     error = as_column(error)
     if transfer is None:
+        return NodeTerms(fixed, error)
+    g = transfer[..., :1].real
+    magnitude = np.abs(transfer[..., 1:], order=order)
+    gain = np.abs(g)
+    return NodeTerms(fixed, error, g, gain, magnitude, magnitude - gain)
+
+
+def single_bounds(node: Node, v: dict, signal: Signal, error: np.ndarray | float,
+                  shift: np.ndarray | float = 0.0, terms: NodeTerms | None = None) -> NodeBounds:
+    """Bounds of a node fed by a single-ended signal (see the module docstring). `terms`: the
+    node's own terms when the caller keeps them (then `error` and `shift` are not read)."""
+    if terms is None:
+        terms = single_terms(node, v, error, shift, memory_order(signal.hi))
+    fixed, error = terms.fixed, terms.error
+    if terms.g is None:
         zero = np.zeros_like(signal.hi)
         return NodeBounds(fixed - error + zero, fixed + error + zero, zero, zero)
-    g = transfer[..., :1].real
-    magnitude = np.abs(transfer[..., 1:], order=memory_order(signal.hi))
-    gain = np.abs(g)
-    up, down = signed_sides(g, signal)
-    spare = magnitude - gain
+    magnitude, gain, spare = terms.magnitude, terms.gain, terms.spare
+    up, down = signed_sides(terms.g, signal, terms.positive)
     one_amplitude = signal.amp_lo is signal.amp_hi
-    a_sel = signal.amp_hi if one_amplitude else np.where(spare >= 0, signal.amp_hi, signal.amp_lo)
+    a_sel = signal.amp_hi if one_amplitude else np.where(terms.rising, signal.amp_hi, signal.amp_lo)
     swing = spare * a_sel
     amp_lo = magnitude * signal.amp_lo
     return NodeBounds(
@@ -118,10 +154,12 @@ def memory_order(x: np.ndarray) -> str:
     return "F" if x.flags.f_contiguous and not x.flags.c_contiguous else "C"
 
 
-def signed_sides(g: np.ndarray, signal: Signal) -> tuple[np.ndarray, np.ndarray]:
+def signed_sides(g: np.ndarray, signal: Signal, positive: np.ndarray | None = None
+                 ) -> tuple[np.ndarray, np.ndarray]:
     """(up, down): (hi, lo) where g >= 0, (-lo, -hi) where g < 0. The sign of g is nearly
-    always the same for every draw; the choice is then made once, not per element."""
-    positive = g >= 0
+    always the same for every draw; the choice is then made once, not per element.
+    `positive`: g >= 0 when the caller has it."""
+    positive = g >= 0 if positive is None else positive
     if positive.all():
         return signal.hi, signal.lo
     if not positive.any():

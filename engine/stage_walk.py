@@ -14,8 +14,9 @@ from railroom.engine.blocks.base import BlockResponse, InputLoad, OpAmpNodes
 from railroom.engine.checks import judge
 from railroom.engine.opamp import TWO_PI, input_window, output_window
 from railroom.engine.plan import StagePlan
-from railroom.engine.propagation import (NodeBounds, Signal, clamp, error_bound, merge,
-                                         node_bounds)
+from railroom.engine.propagation import (DifferentialSignal, NodeBounds, Signal, clamp, error_bound,
+                                         memory_order, merge, node_bounds, single_bounds,
+                                         single_terms)
 from railroom.engine.results import OpAmpMeasure, StageMeasure, StageResult
 
 
@@ -23,17 +24,30 @@ def span(bounds: NodeBounds) -> tuple[float, float]:
     return (float(np.min(bounds.lo)), float(np.max(bounds.hi)))
 
 
-def bounds_once(node, v: dict, signal, offsets, bias, known: dict) -> NodeBounds:
+def bounds_once(node, v: dict, signal, offsets, bias, known: dict,
+                memo: dict | None = None) -> NodeBounds:
     """The node's bounds, found once per stage: a stage's output node is usually its last op
-    amp's output node too. `known` holds the node with its bounds so that its id stays its own."""
-    if id(node) not in known:
-        known[id(node)] = (node, node_bounds(node, v, signal, error_bound(node, offsets, bias)))
-    return known[id(node)][1]
+    amp's output node too. `known` holds the node with its bounds so that its id stays its own.
+    `memo` keeps each node's own terms (propagation.NodeTerms) across walks of one Prepared:
+    the headroom search walks it again and again with only the source amplitude changed."""
+    if id(node) in known:
+        return known[id(node)][1]
+    if memo is None or isinstance(signal, DifferentialSignal):
+        bounds = node_bounds(node, v, signal, error_bound(node, offsets, bias))
+    else:
+        if id(node) not in memo:
+            memo[id(node)] = (node, single_terms(node, v, error_bound(node, offsets, bias),
+                                                 order=memory_order(signal.hi)))
+        bounds = single_bounds(node, v, signal, None, terms=memo[id(node)][1])
+    known[id(node)] = (node, bounds)
+    return bounds
 
 
 def walk_chain(prepared, signal, nominal: bool = False, notes=None) -> list[StageResult]:
     chain = prepared.chain
     rise = chain.conditions.worst_temperature_rise
+    # node terms depend on the offsets, which the nominal walk leaves out: one memo for each
+    memo = prepared.memo.setdefault(("terms", nominal), {})
     results: list[StageResult] = []
     for k, plan in enumerate(prepared.plans):
         following = prepared.responses[k + 1] if k + 1 < len(prepared.responses) else None
@@ -43,7 +57,7 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None) -> list[Stag
             measure, signal = saturated_stage(plan, v, signal)
         else:
             measure, bounds = linear_stage(plan, prepared.responses[k], v, signal, prepared.freqs,
-                                           next_load, rise, nominal)
+                                           next_load, rise, nominal, memo)
             signal = merge(bounds, getattr(signal, "fed_clipped", False))
         if notes is not None:
             measure = replace(measure, **notes[k])
@@ -55,22 +69,23 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None) -> list[Stag
 
 
 def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freqs: np.ndarray,
-                 next_load: InputLoad, rise: float, nominal: bool) -> tuple[StageMeasure, NodeBounds]:
+                 next_load: InputLoad, rise: float, nominal: bool,
+                 memo: dict | None = None) -> tuple[StageMeasure, NodeBounds]:
     part = plan.part
     count = len(response.opamps)
     offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
     bias = 0.0 if (nominal or part is None) else part.bias_current
     known: dict = {}
-    out = bounds_once(response.output, v, signal, offsets, bias, known)
+    out = bounds_once(response.output, v, signal, offsets, bias, known, memo)
     amps = tuple(
         opamp_measure(plan, amp, v, signal, offsets, bias, freqs,
-                      next_load if amp.output is response.output else InputLoad(), known)
+                      next_load if amp.output is response.output else InputLoad(), known, memo)
         for amp in response.opamps
     )
     window = amps[-1].window if amps else None
     if plan.block.window_only:
         window = (float(np.max(v["low"])), float(np.min(v["high"])))   # worst over tolerance
-    inner = {name: span(bounds_once(node, v, signal, offsets, bias, known))
+    inner = {name: span(bounds_once(node, v, signal, offsets, bias, known, memo))
              for name, node in response.inner.items()}
     measure = StageMeasure(
         index=plan.index, stage=plan.stage, output=span(out), nominal=span(out), opamps=amps,
@@ -81,12 +96,13 @@ def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freq
 
 
 def opamp_measure(plan: StagePlan, amp: OpAmpNodes, v: dict, signal, offsets, bias, freqs,
-                  load: InputLoad, known: dict | None = None) -> OpAmpMeasure:
+                  load: InputLoad, known: dict | None = None, memo: dict | None = None
+                  ) -> OpAmpMeasure:
     part = plan.part
     known = {} if known is None else known
-    out = bounds_once(amp.output, v, signal, offsets, bias, known)
-    plus = bounds_once(amp.plus, v, signal, offsets, bias, known)
-    current = bounds_once(amp.current, v, signal, offsets, bias, known)
+    out = bounds_once(amp.output, v, signal, offsets, bias, known, memo)
+    plus = bounds_once(amp.plus, v, signal, offsets, bias, known, memo)
+    current = bounds_once(amp.current, v, signal, offsets, bias, known, memo)
     out_span = span(out)
     needed = max(abs(float(np.max(current.hi))), abs(float(np.min(current.lo))))
     needed += load.conductance * max(abs(out_span[1] - load.returns[0]),

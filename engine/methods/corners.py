@@ -10,7 +10,7 @@ otherwise (ECSS-Q-HB-30-01A, extreme value analysis).
 from __future__ import annotations
 
 import itertools
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -33,6 +33,8 @@ class Prepared:
     freqs: np.ndarray
     values: list[dict[str, np.ndarray]]
     responses: list[BlockResponse | None]
+    # what walks of this Prepared may keep for the next walk (stage_walk: node terms)
+    memo: dict = field(default_factory=dict, compare=False, repr=False)
 
 
 def corner_values(plan: StagePlan, temperature_rise: float, nominal: bool = False,
