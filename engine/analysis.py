@@ -63,7 +63,7 @@ def analyse(chain: Chain, parts: Mapping[str, Part], *, method: str | None = Non
         layout = build_layout(chain, plans, freqs, prepared, corner_stages)
     if method_name == "rss" or design_aids:
         from railroom.engine.sensitivity import linearise
-        lin = linearise(layout)
+        lin = linearise(layout, decisive=method_name == "montecarlo")
     if method_name != "corners":
         from railroom.engine.methods import run_statistical
         stages, chain_yield = run_statistical(method_name, chain, plans, freqs, stages, progress,

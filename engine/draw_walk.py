@@ -238,10 +238,28 @@ def decisive_freqs(layout: Layout) -> np.ndarray:
     K = len(layout.variables)
     D = np.vstack([np.zeros(K), np.ones(K), -np.ones(K)])
     record: list = []
+    walk_draws(layout, D, np.full(3, decisive_rise(layout)), record)
+    return decisive_from(layout, record)
+
+
+def decisive_rise(layout: Layout) -> float:
     low, high = layout.chain.conditions.temperature
-    walk_draws(layout, D, np.full(3, max(abs(low - 25.0), abs(high - 25.0))), record)
+    return max(abs(low - 25.0), abs(high - 25.0))
+
+
+def decisive_from(layout: Layout, record: list) -> np.ndarray:
+    """The band frequencies a decisive walk's `record` names (see decisive_freqs)."""
+    freqs = layout.freqs
     picked = np.unique(np.concatenate([np.ravel(r) for r in record] + [[0, len(freqs) - 1]]))
     return freqs[picked.astype(int)]
+
+
+def head_rows(draws: StageDraws, rows: int) -> StageDraws:
+    """The first `rows` rows of a stage's draws (views)."""
+    def cut(found: dict) -> dict:
+        return {k: (cut(x) if isinstance(x, dict) else x[:rows]) for k, x in found.items()}
+    return StageDraws(draws.out_lo[:rows], draws.out_hi[:rows], tuple(cut(a) for a in draws.amps),
+                      cut(draws.margins), draws.linear[:rows])
 
 
 def row_temperatures(chain: Chain, uniform: np.ndarray) -> np.ndarray:

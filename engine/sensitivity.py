@@ -29,6 +29,7 @@ SMALLEST_SHARE = 0.01
 class Linearised:
     layout: dw.Layout
     draws: list[dw.StageDraws]      # row 0 nominal, rows 2i+1 / 2i+2 at d_i = +h / -h
+    decisive: np.ndarray | None = None    # draw_walk.decisive_freqs(layout), when asked for
 
     def nominal(self, x: np.ndarray) -> float:
         return float(x[0])
@@ -37,14 +38,31 @@ class Linearised:
         return (x[1::2] - x[2::2]) / (2 * STEP)
 
 
-def linearise(layout: dw.Layout) -> Linearised:
-    """Margins at nominal and at +/-h on each column; drifts over the worst temperature rise."""
+def linearise(layout: dw.Layout, decisive: bool = False) -> Linearised:
+    """Margins at nominal and at +/-h on each column; drifts over the worst temperature rise.
+
+    `decisive`: also find draw_walk.decisive_freqs(layout) in the same walk. Its rows are the
+    nominal one (row 0 here already) and the all-high and all-low ones, appended; its
+    temperature rise is the same (the largest distance from 25 C). Each row is walked on its own (draw_walk module docstring),
+    so sharing the walk changes no row and saves one walk's per-stage overhead."""
     K = len(layout.variables)
-    D = np.zeros((2 * K + 1, K))
+    rows = 2 * K + 1
+    extra = 2 if decisive and len(layout.freqs) > 2 else 0
+    D = np.zeros((rows + extra, K))
     D[1 + 2 * np.arange(K), np.arange(K)] = STEP
     D[2 + 2 * np.arange(K), np.arange(K)] = -STEP
+    if extra:
+        D[rows], D[rows + 1] = 1.0, -1.0
     rise = layout.chain.conditions.worst_temperature_rise
-    return Linearised(layout, dw.walk_draws(layout, D, np.full(2 * K + 1, rise)))
+    if not decisive:
+        return Linearised(layout, dw.walk_draws(layout, D, np.full(rows, rise)))
+    record: list = []
+    draws = dw.walk_draws(layout, D, np.full(rows + extra, rise), record if extra else None)
+    freqs = layout.freqs
+    if extra:
+        freqs = dw.decisive_from(layout, [np.ravel(r)[[0, rows, rows + 1]] for r in record])
+        draws = [dw.head_rows(d, rows) for d in draws]
+    return Linearised(layout, draws, freqs)
 
 
 def spread_per_unit(distribution: str) -> float:

@@ -25,7 +25,8 @@ def run_statistical(method: str, chain, plans, freqs, corner_stages, progress=No
         return run(chain, plans, freqs, corner_stages, lin=lin), None
     if method == "montecarlo":
         from railroom.engine.methods.montecarlo import run
-        return run(chain, plans, freqs, corner_stages, progress=progress, layout=layout)
+        return run(chain, plans, freqs, corner_stages, progress=progress, layout=layout,
+                   decisive=None if lin is None else lin.decisive)
     raise NotImplementedError(f"method {method!r} is not built")
 
 

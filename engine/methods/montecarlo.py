@@ -50,10 +50,13 @@ def deviates(uniform: np.ndarray, distribution: str) -> np.ndarray:
 
 
 def layout_for(chain, plans, freqs, corner_stages, band: str = "decisive",
-               full: dw.Layout | None = None) -> dw.Layout:
-    """The draw walk's layout; `full`: the full-band layout when the caller has built it."""
+               full: dw.Layout | None = None, decisive: np.ndarray | None = None) -> dw.Layout:
+    """The draw walk's layout; `full`: the full-band layout and `decisive` its decisive
+    frequencies (sensitivity.linearise) when the caller has them."""
     layout = full or dw.build_layout(chain, plans, freqs, prepare(chain, plans, freqs), corner_stages)
-    return dw.with_freqs(layout, dw.decisive_freqs(layout)) if band == "decisive" else layout
+    if band != "decisive":
+        return layout
+    return dw.with_freqs(layout, dw.decisive_freqs(layout) if decisive is None else decisive)
 
 
 def chunks(layout: dw.Layout, samples: int, seed: int, chunk: int = CHUNK_ROWS
@@ -169,12 +172,12 @@ class Cancelled(Exception):
 
 
 def run(chain, plans, freqs, corner_stages, chunk: int = CHUNK_ROWS, progress=None,
-        layout: dw.Layout | None = None):
+        layout: dw.Layout | None = None, decisive: np.ndarray | None = None):
     """Stage results at the 0.1 % percentile, with probability and percentiles; chain yield.
     `progress(fraction_done) -> bool` is called after every chunk; False stops the run.
-    `layout`: the full-band layout when the caller has built it."""
+    `layout`, `decisive`: see layout_for."""
     samples, seed = chain.conditions.samples, chain.conditions.seed
-    layout = layout_for(chain, plans, freqs, corner_stages, full=layout)
+    layout = layout_for(chain, plans, freqs, corner_stages, full=layout, decisive=decisive)
     tail = None
     leaving = np.zeros(len(plans))
     all_linear = 0
