@@ -118,6 +118,7 @@ class LowTail:
         self.median_rows = [keys.index(key) for key in median_keys]
         self.head: list[np.ndarray] = []
         self.head_rows = 0
+        self.ordered: np.ndarray | None = None     # the kept tail sorted, once for every quote
 
     def add(self, series: dict[tuple, np.ndarray]) -> None:
         rows = np.shape(series[self.keys[0]])[0]
@@ -136,10 +137,13 @@ class LowTail:
             self.buffer[:, :end].partition(self.k - 1, axis=1)
             end = self.k
         self.filled = end
+        self.ordered = None
 
     def low(self, q: float) -> dict[tuple, float]:
         """numpy's linear-interpolation percentile of each series, from the kept low tail."""
-        ordered = np.sort(self.buffer[:, :self.filled], axis=1)
+        if self.ordered is None:
+            self.ordered = np.sort(self.buffer[:, :self.filled], axis=1)
+        ordered = self.ordered
         h = (self.samples - 1) * q
         lo = int(np.floor(h))
         hi = min(lo + 1, self.samples - 1)
