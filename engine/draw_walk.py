@@ -203,12 +203,15 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
     signal = start_signal(layout.chain, layout.freqs, rows)
     clipped = np.zeros(rows, dtype=bool)
     results = []
+    inverse_gains: dict = {}          # 1/A(s) per row, once per part: stages share parts
     for k, plan in enumerate(layout.plans):
         v = stage_values(layout, plan, D, dT)
         if plan.block.saturates:
             draws, signal = saturated_draws(layout, k, v, D, signal)
         else:
-            ig = per_row(inverse_open_loop(plan.part, grid), rows)
+            if plan.part not in inverse_gains:
+                inverse_gains[plan.part] = per_row(inverse_open_loop(plan.part, grid), rows)
+            ig = inverse_gains[plan.part]
             response = plan.block.respond(v, s, ig, layout.drives[k], k == 0 and
                                           layout.chain.source.differential)
             draws, signal = linear_draws(layout, k, response, v, D, dT, signal, record)

@@ -150,20 +150,27 @@ class LowTail:
         return dict(zip(self.keys, ordered[:, lo] + (h - lo) * (ordered[:, hi] - ordered[:, lo])))
 
     def median(self) -> dict[tuple, float]:
-        """np.percentile(head, 50, axis=1) of the median series, bit for bit."""
-        return dict(zip(self.median_keys, median_rows(np.concatenate(self.head, axis=1))))
+        """np.percentile(head, 50, axis=1) of the median series, bit for bit. The head is ours
+        alone: it is partitioned in place (an order statistic does not depend on the order)."""
+        head = self.head[0] if len(self.head) == 1 else np.concatenate(self.head, axis=1)
+        self.head = [head]
+        return dict(zip(self.median_keys, median_rows(head, overwrite=True)))
 
 
-def median_rows(x: np.ndarray) -> np.ndarray:
+def median_rows(x: np.ndarray, overwrite: bool = False) -> np.ndarray:
     """np.percentile(x, 50, axis=1) (linear method) by one single-index partition: numpy's own
     call partitions at both neighbours of the middle, several times slower. The two neighbours
     are the lo-th value and the least value above it; they are blended as numpy's _lerp does
-    (a + (b - a) t, or b - (b - a)(1 - t) when t >= 0.5), and a row holding NaN gives NaN."""
+    (a + (b - a) t, or b - (b - a)(1 - t) when t >= 0.5), and a row holding NaN gives NaN.
+    `overwrite`: partition x itself instead of a copy (x's rows keep their values, reordered)."""
     n = x.shape[1]
     h = (n - 1) * 0.5
     lo = int(np.floor(h))
     t = h - lo
-    x = np.partition(x, lo, axis=1)
+    if overwrite:
+        x.partition(lo, axis=1)
+    else:
+        x = np.partition(x, lo, axis=1)
     a = x[:, lo]
     b = x[:, lo + 1:].min(axis=1) if lo + 1 < n else a
     diff = b - a
