@@ -1,6 +1,8 @@
 """headroom_db against a plain bisection on the source amplitude and a hand calculation."""
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pytest
 
@@ -53,7 +55,7 @@ def test_headroom_none_when_dc_alone_fails():
     assert result.headroom_db is None
 
 
-@pytest.mark.parametrize("path", ["engine/demos/pump_vibration.toml"])
+@pytest.mark.parametrize("path", [Path(__file__).resolve().parents[2] / "engine/demos/pump_vibration.toml"])
 def test_headroom_agrees_with_plain_bisection(path):
     from railroom.engine.presets import load_library, search_order
     from railroom.engine.files import load_chain

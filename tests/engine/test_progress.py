@@ -1,6 +1,8 @@
 """Monte Carlo tells its caller how far it is, and stops when asked (the interface's worker)."""
 from __future__ import annotations
 
+from pathlib import Path
+
 import pytest
 
 from railroom.engine.analysis import analyse
@@ -8,7 +10,7 @@ from railroom.engine.files import load_chain
 from railroom.engine.methods.montecarlo import Cancelled
 from railroom.engine.presets import load_library, search_order
 
-DEMO = "engine/demos/pump_vibration.toml"
+DEMO = Path(__file__).resolve().parents[2] / "engine/demos/pump_vibration.toml"
 
 
 def demo():

@@ -1,7 +1,10 @@
 """engine/editing.py: edits keep every comment and the loader reads the result."""
 from __future__ import annotations
 
-import tomllib
+try:
+    import tomllib
+except ModuleNotFoundError:  # Python 3.10
+    import tomli as tomllib
 
 import pytest
 
