@@ -335,3 +335,18 @@ def test_no_action_is_reached_by_a_ctrl_key_alone():
     ctrl_only = [b for b in bindings if all(k.startswith("ctrl+") for k in b.key.split(","))]
     assert [b.id for b in ctrl_only] == ["preset-form.save"]
     assert ctrl_only[0].key_display.startswith("enter")
+
+
+async def test_bridge_bar_shows_the_clipping_first_stage(make_app):
+    # The bridge demo's instrumentation amplifier output stays inside its window while its lower
+    # input op amp goes below its swing (engine/demos/bridge_sensor.toml; REFERENCES.md: first-stage
+    # outputs V_cm -/+ (1 + 2 rf/rg) V_d/2): the row's bar draws that op amp, overshoot marked X.
+    from pathlib import Path
+    bridge = Path(__file__).resolve().parents[2] / "engine/demos/bridge_sensor.toml"
+    app = make_app(bridge)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.pause()
+        row = app.screen.query_one(StageList).get_row("1")
+        assert str(row[4]) == "clipping!"
+        assert str(row[-1]).startswith("X")
+        assert "X" not in str(app.screen.query_one(StageList).get_row("2")[-1])

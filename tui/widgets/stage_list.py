@@ -106,8 +106,9 @@ class StageList(DataTable):
 
     def _row_cells(self, stage: StageResult, row_cells: list[Text], widths: dict[str, int]) -> list[Text]:
         rails = self._result.chain.rails_for(stage.stage)
+        span, window, _ = stage.drawn        # the op amp inside the stage with the least room
         bar = margin_bar((rails.negative_range[0], rails.positive_range[1]),
-                         stage.measure.window, stage.measure.output, width=widths["rail span"])
+                         window, span, width=widths["rail span"])
         return [clipped(cell, width) for cell, width in zip(row_cells, widths.values())] + [bar]
 
     def _update_changed(self, rows: list[list[Text]]) -> None:
