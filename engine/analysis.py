@@ -187,10 +187,46 @@ def load_checked(path: str, extra_preset_dirs: tuple[str, ...] = ()):
     that stops the check (a broken preset file only matters when a stage needs its part)."""
     from railroom.engine.files import load_chain
     from railroom.engine.presets import load_library, search_order
-    chain = load_chain(path)
+    try:
+        chain = load_chain(path)
+    except InputError as err:       # name unknown parts in the same round as the other problems
+        found = [*err.problems, *unknown_parts_in_text(path, extra_preset_dirs)]
+        raise InputError(sorted(found, key=lambda p: (p.line or 0))) from None
     library = load_library(search_order(chain.preset_dirs, extra_preset_dirs))
     try:
         plan_chain(chain, library.parts)
     except InputError as err:
         raise InputError([*err.problems, *library.problems]) from None
     return chain, library
+
+
+def unknown_parts_in_text(path: str, extra_preset_dirs: tuple[str, ...] = ()) -> list:
+    """Unknown part ids of a chain file that does not load, read straight from its TOML."""
+    from pathlib import Path
+    from railroom.engine.blocks import BLOCKS
+    from railroom.engine.plan import unknown_part
+    from railroom.engine.presets import load_library, search_order
+    from railroom.engine.reading import parse_toml
+    from railroom.engine.toml_lines import key_lines
+    try:
+        text = Path(path).read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError):
+        return []
+    data, _ = parse_toml(text, path)
+    stages = data.get("stage") if isinstance(data, dict) else None
+    if not isinstance(stages, list):
+        return []
+    named = data.get("presets", [])
+    folders = tuple(str(Path(path).parent / p) for p in named if isinstance(p, str)) \
+        if isinstance(named, list) else ()
+    parts = load_library(search_order(folders, extra_preset_dirs)).parts
+    lines = key_lines(text)
+    found = []
+    for index, stage in enumerate(stages, start=1):
+        if not isinstance(stage, dict):
+            continue
+        block = BLOCKS.get(stage.get("block")) if isinstance(stage.get("block"), str) else None
+        part = stage.get("part")
+        if block is not None and block.uses_part and isinstance(part, str) and part not in parts:
+            found.append(unknown_part(path, lines.get(f"stage.{index}.part"), index, part, parts))
+    return found

@@ -49,18 +49,21 @@ def plan_chain(chain: Chain, parts: Mapping[str, Part]) -> list[StagePlan]:
         if block.uses_part:
             part = parts.get(stage.part or "")
             if part is None:
-                near = _near(stage.part or "", parts)
-                problems.append(Problem(chain.path, stage.lines.get("part", stage.line),
-                                        f"stage.{index}.part",
-                                        f"unknown part {stage.part!r}" +
-                                        (f"; did you mean {near!r}?" if near else
-                                         "; see `railroom presets list`")))
+                problems.append(unknown_part(chain.path, stage.lines.get("part", stage.line),
+                                             index, stage.part or "", parts))
         flags = {k: v for k, v in stage.values.items() if isinstance(v, bool)}
         plans.append(StagePlan(index, stage, block, part, chain.rails_for(stage),
                                stage_quantities(stage), flags))
     if problems:
         raise InputError(problems)
     return plans
+
+
+def unknown_part(path: str, line: int | None, index: int, name: str,
+                 parts: Mapping[str, Part]) -> Problem:
+    near = _near(name, parts)
+    return Problem(path, line, f"stage.{index}.part", f"unknown part {name!r}" +
+                   (f"; did you mean {near!r}?" if near else "; see `railroom presets list`"))
 
 
 def _near(name: str, parts: Mapping[str, Part]) -> str | None:

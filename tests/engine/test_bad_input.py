@@ -107,3 +107,15 @@ def test_good_base_reads():
     # the cases above are single edits of a file that is itself fine
     chain = chain_from_text(BASE)
     assert chain.stages[0].quantity("rf").value == 90e3
+
+
+def test_unknown_part_and_bad_value_come_out_in_one_round(tmp_path):
+    # the part check needs a loaded chain; a file that does not load still names its unknown
+    # parts beside its other problems, in line order
+    path = tmp_path / "chain.toml"
+    path.write_text(BASE.replace("generic-bipolar-15v", "generic-bipolar-15")
+                    .replace('rf = "90k"', 'rf = "9q"'), encoding="utf-8")
+    with pytest.raises(InputError) as caught:
+        load_checked(str(path))
+    located = [(p.line, p.field) for p in caught.value.problems]
+    assert located == [(10, "stage.1.part"), (11, "stage.1.rf")]
