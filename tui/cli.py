@@ -17,16 +17,22 @@ EXIT_GO, EXIT_NO_GO, EXIT_INPUT = 0, 1, 2
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="railroom",
-        description="Rail-headroom and regime checker for op-amp signal chains.")
+        usage="railroom [CHAIN] | railroom {check,presets,bench,schema} ...",
+        description="Rail-headroom and regime checker for op-amp signal chains. "
+                    "`railroom [CHAIN]` opens the terminal interface on the chain file "
+                    "(the built-in demo without one).",
+        epilog="Examples: railroom my-chain.toml   railroom check my-chain.toml --json   "
+               "railroom presets list")
     sub = parser.add_subparsers(dest="command")
 
     check = sub.add_parser("check", help="check a chain file: exit 0 GO, 1 NO-GO, 2 unreadable")
     check.add_argument("chain", nargs="+", help="chain file(s) or folder(s)")
     check.add_argument("--json", action="store_true", help="print the JSON report")
     check.add_argument("--markdown", action="store_true", help="print a Markdown review report")
-    check.add_argument("--method", choices=("corners", "rss", "montecarlo"))
-    check.add_argument("--samples", type=int)
-    check.add_argument("--seed", type=int)
+    check.add_argument("--method", choices=("corners", "rss", "montecarlo"),
+                       help="override the chain file's method")
+    check.add_argument("--samples", type=int, help="Monte Carlo draws")
+    check.add_argument("--seed", type=int, help="Monte Carlo seed")
     check.add_argument("--margin", help="room needed to every limit for GO, V (e.g. 50m)")
     check.add_argument("--presets", action="append", default=[], metavar="DIR",
                        help="extra preset folder (may repeat); searched last")
