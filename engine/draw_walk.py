@@ -31,7 +31,6 @@ from railroom.engine.plan import StagePlan
 from railroom.engine.propagation import DifferentialSignal, Signal, node_bounds
 from railroom.engine.results import StageResult
 
-OPAMP_CHECKS = ("output-high", "output-low", "input-high", "input-low", "slew", "current")
 SATURATED_CHECKS = ("input-high", "input-low", "current")
 
 
