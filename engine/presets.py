@@ -30,6 +30,9 @@ PART_FIELDS = {
     "bias_current": ("current", False, False),
     "output_current": ("current", False, True),
 }
+# What the two ends of each pair field mean, in file order (SPEC section 3).
+PAIR_SIDES = {"supply": ("low", "high"), "output_headroom": ("upper", "lower"),
+              "input_headroom": ("upper", "lower")}
 UNITS = {"supply": "V", "supply_abs_max": "V", "output_headroom": "V", "output_resistance": "Ω",
          "input_headroom": "V", "gbw": "Hz", "slew": "V/s", "open_loop_gain": "V/V", "offset": "V",
          "offset_drift": "V/°C", "bias_current": "A", "output_current": "A"}
@@ -126,7 +129,7 @@ def _read_part(part_id: str, t, r: FieldReader) -> Part | None:
         elif pair:
             headroom = "headroom" in key
             values[key] = (r.span(t, w, key, kind, None, check_order=not headroom,
-                                  ordered="upper, lower" if headroom else "low, high")
+                                  ordered=", ".join(PAIR_SIDES[key]))
                            if key in t else _missing(r, w, key))
         elif key == "output_resistance":
             raw = t.get(key, 0)

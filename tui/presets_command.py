@@ -10,13 +10,11 @@ import sys
 from pathlib import Path
 
 from railroom.engine.model import Part
-from railroom.engine.presets import (PART_FIELDS, UNITS, Library, load_library, read_preset_file,
+from railroom.engine.presets import (PAIR_SIDES, PART_FIELDS, UNITS, Library, load_library, read_preset_file,
                                      search_order, shipped_folder, user_folder)
 from railroom.engine.values import format_si
 from railroom.tui.cli import EXIT_GO, EXIT_INPUT
 
-PAIR_NAMES = {"supply": ("low", "high"), "output_headroom": ("upper", "lower"),
-              "input_headroom": ("upper", "lower")}
 
 
 def run_presets(args) -> int:
@@ -87,7 +85,7 @@ def part_lines(part: Part) -> list[str]:
         if key == "description":
             text = value or "-"
         elif isinstance(value, tuple):
-            a, b = PAIR_NAMES[key]
+            a, b = PAIR_SIDES[key]
             text = f"{a} {format_si(value[0], UNITS[key])}, {b} {format_si(value[1], UNITS[key])}"
         elif key == "open_loop_gain":
             text = f"{format_si(value, 'dB')} ({value:.3g} V/V)"

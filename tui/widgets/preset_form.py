@@ -18,11 +18,9 @@ from rich.text import Text
 
 from railroom.engine.model import InputError
 from railroom.engine.preset_editing import ChangedOnDisk, EditSession, PresetEditError, Raw
-from railroom.engine.presets import PART_FIELDS, UNITS
+from railroom.engine.presets import PAIR_SIDES, PART_FIELDS, UNITS
 from railroom.engine.values import ValueTextError, parse_quantity
 
-PAIR_NAMES = {"supply": ("low", "high"), "output_headroom": ("upper", "lower"),
-              "input_headroom": ("upper", "lower")}
 
 
 class QuantityText(Validator):
@@ -89,7 +87,7 @@ class PresetForm(ModalScreen[bool]):
         label = key + ("" if required else " (optional)")
         with Horizontal(classes="form-row"):
             yield Label(label, classes="form-key")
-            for side, name in enumerate(PAIR_NAMES.get(key, ("",))):
+            for side, name in enumerate(PAIR_SIDES.get(key, ("",))):
                 if pair:
                     yield Label(name, classes="form-pair-name")
                 yield Input(id=f"field-{key}-{side}" if pair else f"field-{key}",
