@@ -7,6 +7,8 @@ violated (SPEC section 5).
 from __future__ import annotations
 
 from railroom.engine.blocks import BLOCKS
+from railroom.engine.margins import met_at_equality
+from railroom.engine.margins import supply_margin as kernel_supply_margin
 from railroom.engine.model import Chain, Part, Rails
 from railroom.engine.results import VOLTAGE_CHECKS, StageMeasure, StageResult
 
@@ -39,7 +41,17 @@ def opamp_margins(measure: StageMeasure) -> tuple[dict[str, float], dict[str, st
 
 def supply_margin(part: Part, rails: Rails) -> float:
     low, high = rails.span_range
-    return min(low - part.supply[0], part.supply[1] - high)
+    return float(kernel_supply_margin(part, low, high))
+
+
+def check_scale(check: str, part: Part | None, rails: Rails) -> float:
+    """The size a check's margin is measured against: the rail span for voltages, the part's
+    own limit for slew, current and supply."""
+    if part is not None:
+        own = {"slew": part.slew, "current": part.output_current, "supply": part.supply[1]}
+        if check in own:
+            return own[check]
+    return rails.positive - rails.negative
 
 
 def judge(measure: StageMeasure, part: Part | None, rails: Rails, required: float) -> StageResult:
@@ -47,6 +59,7 @@ def judge(measure: StageMeasure, part: Part | None, rails: Rails, required: floa
     margins, nodes = opamp_margins(measure)
     if part is not None:
         margins["supply"] = supply_margin(part, rails)
+    margins = {c: met_at_equality(m, check_scale(c, part, rails)) for c, m in margins.items()}
     leaves_linear = any(margins.get(c, 0.0) < 0 for c in LINEAR_CHECKS
                         if not (block.saturates and c not in ("input-high", "input-low", "current")))
     if block.saturates:

@@ -25,6 +25,7 @@ from functools import cached_property
 import numpy as np
 
 from railroom.engine.blocks.base import InputLoad
+from railroom.engine.margins import load_currents, opamp_margins, output_drops
 from railroom.engine.model import Chain
 from railroom.engine.opamp import TWO_PI, inverse_open_loop, laplace_grid
 from railroom.engine.plan import StagePlan
@@ -304,23 +305,16 @@ def opamp_draws(part, amp, v, signal, offsets, bias, freqs, load: InputLoad, pos
     plus = bounds_of(amp.plus, v, signal, offsets, bias, known)
     current = bounds_of(amp.current, v, signal, offsets, bias, known)
     out_hi, out_lo = band_max(out.hi), band_min(out.lo)
-    needed = band_max(np.maximum(np.abs(current.hi), np.abs(current.lo)))
     if record is not None:
         record += [out.hi.argmax(-1), out.lo.argmin(-1), plus.hi.argmax(-1), plus.lo.argmin(-1),
                    np.maximum(np.abs(current.hi), np.abs(current.lo)).argmax(-1),
                    (freqs * out.amp_hi).argmax(-1)]
-    needed = needed + load.conductance * np.maximum(np.abs(out_hi - load.returns[0]),
-                                                    np.abs(out_lo - load.returns[1]))
-    drop = part.output_resistance * needed
-    low, high = neg + part.output_headroom[1] + drop, pos - part.output_headroom[0] - drop
+    sourced, sunk = load_currents(band_max(current.hi), band_min(current.lo), out_hi, out_lo, load)
+    drop_high, drop_low = output_drops(part, sourced, sunk)
+    low, high = neg + part.output_headroom[1] + drop_low, pos - part.output_headroom[0] - drop_high
     in_hi, in_lo = band_max(plus.hi), band_min(plus.lo)
-    margins = {
-        "output-high": high - out_hi, "output-low": out_lo - low,
-        "input-high": pos - part.input_headroom[0] - in_hi,
-        "input-low": in_lo - (neg + part.input_headroom[1]),
-        "slew": part.slew - slew_needed(freqs, out.amp_hi),
-        "current": part.output_current - needed,
-    }
+    margins = opamp_margins(part, pos, neg, out_hi, out_lo, in_hi, in_lo, sourced, sunk,
+                            slew_needed(freqs, out.amp_hi))
     spans = {"out-low": out_lo, "out-high": out_hi, "in-low": in_lo, "in-high": in_hi,
              "window-low": low, "window-high": high}
     return margins, spans

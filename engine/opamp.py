@@ -59,6 +59,12 @@ class LoopSolution:
     bias_plus_gain: np.ndarray         # Vout per ampere into the + input, at DC
     bias_minus_gain: np.ndarray        # Vout per ampere into the - input, at DC
     noise_gain: np.ndarray             # 1 / (beta - gamma) at DC, the ideal noise gain
+    # the + pin's own error gains at DC: V+ = gamma Vout - Ib+ Z+ (module docstring), so bias
+    # current through the resistance at + moves the pin itself, and positive feedback carries
+    # every output error back to it
+    plus_offset_gain: np.ndarray | None = None
+    plus_bias_plus_gain: np.ndarray | None = None
+    plus_bias_minus_gain: np.ndarray | None = None
 
 
 def solve_loop(loop: Loop, inverse_gain: np.ndarray) -> LoopSolution:
@@ -74,13 +80,21 @@ def solve_loop(loop: Loop, inverse_gain: np.ndarray) -> LoopSolution:
                               for z in (loop.z_plus, loop.z_minus)))
     dc = np.broadcast_to(dc, (rows,))     # a driving resistance may vary where the loop does not
     ideal = np.atleast_2d(np.broadcast_to(loop.beta - loop.gamma, np.shape(denominator)))[..., 0].real
+    gamma = _column(np.atleast_2d(np.broadcast_to(loop.gamma, np.shape(denominator)))[..., 0].real
+                    if np.ndim(loop.gamma) else float(loop.gamma), dc.shape)
+    z_plus = _column(loop.z_plus, dc.shape)
+    bias_plus = -z_plus / dc
+    bias_minus = _column(loop.z_minus, dc.shape) / dc
     return LoopSolution(
         output=output,
         plus=plus,
         offset_gain=1.0 / dc,
-        bias_plus_gain=-_column(loop.z_plus, dc.shape) / dc,
-        bias_minus_gain=_column(loop.z_minus, dc.shape) / dc,
+        bias_plus_gain=bias_plus,
+        bias_minus_gain=bias_minus,
         noise_gain=1.0 / ideal,
+        plus_offset_gain=gamma / dc,
+        plus_bias_plus_gain=gamma * bias_plus - z_plus,
+        plus_bias_minus_gain=gamma * bias_minus,
     )
 
 
@@ -92,12 +106,13 @@ def _column(value, shape: tuple[int, ...]) -> np.ndarray:
     return np.broadcast_to(value, shape)
 
 
-def output_window(part: Part, rails: Rails, current: float) -> tuple[float, float]:
-    """Worst-case output swing: the lowest positive rail less the headroom, which grows by the
-    output resistance times the output current (common practice for rail-to-rail outputs)."""
-    drop = part.output_resistance * abs(current)
-    return (rails.negative_range[1] + part.output_headroom[1] + drop,
-            rails.positive_range[0] - part.output_headroom[0] - drop)
+def output_window(part: Part, rails: Rails, sourced: float, sunk: float) -> tuple[float, float]:
+    """Worst-case output swing: the lowest positive rail less the upper headroom, which grows by
+    the output resistance times the current SOURCED at the top; the highest negative rail plus
+    the lower headroom, grown by the current SUNK at the bottom (common practice for
+    rail-to-rail outputs; each direction on its own, as datasheets give swing per direction)."""
+    return (rails.negative_range[1] + part.output_headroom[1] + part.output_resistance * sunk,
+            rails.positive_range[0] - part.output_headroom[0] - part.output_resistance * sourced)
 
 
 def input_window(part: Part, rails: Rails) -> tuple[float, float]:

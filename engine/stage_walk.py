@@ -12,6 +12,7 @@ import numpy as np
 
 from railroom.engine.blocks.base import BlockResponse, InputLoad, OpAmpNodes
 from railroom.engine.checks import judge
+from railroom.engine.margins import load_currents
 from railroom.engine.opamp import TWO_PI, input_window, output_window
 from railroom.engine.plan import StagePlan
 from railroom.engine.propagation import (DifferentialSignal, NodeBounds, Signal, clamp, error_bound,
@@ -104,12 +105,13 @@ def opamp_measure(plan: StagePlan, amp: OpAmpNodes, v: dict, signal, offsets, bi
     plus = bounds_once(amp.plus, v, signal, offsets, bias, known, memo)
     current = bounds_once(amp.current, v, signal, offsets, bias, known, memo)
     out_span = span(out)
-    needed = max(abs(float(np.max(current.hi))), abs(float(np.min(current.lo))))
-    needed += load.conductance * max(abs(out_span[1] - load.returns[0]),
-                                     abs(out_span[0] - load.returns[1]))
+    sourced, sunk = load_currents(float(np.max(current.hi)), float(np.min(current.lo)),
+                                  out_span[1], out_span[0], load)
+    needed = float(max(sourced, sunk))
     slew = float(np.max(TWO_PI * freqs * out.amp_hi)) if out.amp_hi.size else 0.0
     return OpAmpMeasure(
-        label=amp.label, output=out_span, window=output_window(part, plan.rails, needed),
+        label=amp.label, output=out_span,
+        window=output_window(part, plan.rails, float(sourced), float(sunk)),
         input=span(plus), input_window=input_window(part, plan.rails),
         slew_needed=slew, slew_available=part.slew,
         current_needed=needed, current_available=part.output_current,

@@ -93,6 +93,17 @@ def opamp_node(solution: LoopSolution, transfers: Transfers, index: int, count: 
     return Node(transfers=transfers, offset_gain=offset, bias_gain=bias)
 
 
+def plus_node(solution: LoopSolution, index: int, count: int) -> Node:
+    """The + input pin of op amp `index` of `count`, with the bias current through the resistance
+    at that pin (and, with positive feedback, the output's errors) as its error gains."""
+    rows = solution.offset_gain.shape[0]
+    offset = np.zeros((rows, count))
+    bias = np.zeros((rows, count))
+    offset[:, index] = solution.plus_offset_gain
+    bias[:, index] = np.abs(solution.plus_bias_plus_gain) + np.abs(solution.plus_bias_minus_gain)
+    return Node(transfers=solution.plus, offset_gain=offset, bias_gain=bias)
+
+
 def scaled(node: Node, factor: np.ndarray | float, extra: Transfers | None = None) -> Node:
     """factor * node (+ extra transfers), keeping the error gains consistent."""
     factor = np.asarray(factor)

@@ -19,7 +19,8 @@ from typing import Mapping
 import numpy as np
 
 from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputLoad, Node,
-                                         OpAmpNodes, combined, load_conductance, opamp_node)
+                                         OpAmpNodes, combined, load_conductance, opamp_node,
+                                         plus_node)
 from railroom.engine.blocks.gain import virtual_earth_load
 from railroom.engine.opamp import TWO_PI, Loop, solve_loop
 
@@ -81,7 +82,7 @@ def sallen_key(y_in, y_plus, y_out, y_ground, ground: str | None, v, inverse_gai
                 z_minus=minus.z_minus, z_plus=z_plus)
     solution = solve_loop(loop, inverse_gain)
     output = opamp_node(solution, solution.output, 0, 1)
-    plus = Node(transfers=solution.plus)
+    plus = plus_node(solution, 0, 1)
     node_a = combined([(y_plus / total, plus), (y_out / total, output)],
                       extra={"in": y_in / total})
     current = combined([(load_conductance(v) + y_out + divider, output), (-y_out, node_a)],
@@ -183,7 +184,7 @@ def multiple_feedback(y_in, y_out, y_ref, y_minus, y_feedback, v, inverse_gain) 
                 a_plus={"ref": one}, z_minus=(total / det)[:, :1].real)
     solution = solve_loop(loop, inverse_gain)
     output = opamp_node(solution, solution.output, 0, 1)
-    plus = Node(transfers=solution.plus)
+    plus = plus_node(solution, 0, 1)
     minus = combined([(loop.beta, output)], extra=loop.a_minus)
     node_a = combined([(y_out / total, output), (y_minus / total, minus)],
                       extra={"in": y_in / total, "ref": y_ref / total})

@@ -14,7 +14,7 @@ from typing import Mapping
 import numpy as np
 
 from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputLoad, Node, OpAmpNodes,
-                                         load_conductance, opamp_node, scaled)
+                                         load_conductance, opamp_node, plus_node, scaled)
 from railroom.engine.opamp import Loop, solve_loop
 
 
@@ -28,7 +28,7 @@ def single_opamp(loop: Loop, inverse_gain: np.ndarray, feedback_conductance: np.
     """
     solution = solve_loop(loop, inverse_gain)
     output = opamp_node(solution, solution.output, 0, 1)
-    plus = Node(transfers=solution.plus)     # offset and bias act inside the op amp, not on V+
+    plus = plus_node(solution, 0, 1)
     extra = {k: -feedback_conductance * t for k, t in loop.a_minus.items()}
     factor = load_conductance(v) + feedback_conductance * (1.0 - loop.beta)
     current = scaled(output, factor, extra)

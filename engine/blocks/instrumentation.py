@@ -90,6 +90,16 @@ def input_minus(output: Node, inverse_gain, source: str, index: int) -> Node:
     return combined([(-inverse_gain, output), (1.0, own)], extra={source: np.ones_like(inverse_gain)})
 
 
+def input_pin(source: str, ones: np.ndarray, drive, index: int) -> Node:
+    """An input op amp's + pin: the source side itself, moved by its bias current through the
+    source's own resistance `drive`."""
+    rows = ones.shape[0]
+    offset = np.zeros((rows, OPAMPS))
+    bias = np.zeros_like(offset)
+    bias[:, index] = np.broadcast_to(np.asarray(drive, dtype=float).reshape(-1), (rows,))
+    return Node(transfers={source: ones}, offset_gain=offset, bias_gain=bias)
+
+
 class Instrumentation(Block):
     name = "instrumentation"
     summary = "three-op-amp instrumentation amplifier, gain 1 + 2 rf/rg, unity difference stage"
@@ -121,8 +131,9 @@ class Instrumentation(Block):
                                   (-1.0 / rf, input_minus(lower, inverse_gain, negative, 1))])
         ones = np.ones_like(upper.transfers[positive])
         opamps = (
-            OpAmpNodes(LABELS[0], upper, Node(transfers={positive: ones}), upper_current),
-            OpAmpNodes(LABELS[1], lower, Node(transfers={negative: ones}), lower_current),
+            OpAmpNodes(LABELS[0], upper, input_pin(positive, ones, drive, 0), upper_current),
+            OpAmpNodes(LABELS[1], lower,
+                       input_pin(negative, ones, drive if differential else 0.0, 1), lower_current),
             OpAmpNodes(LABELS[2], output, diff_plus, substitute(amp.current, inputs, 2)),
         )
         return BlockResponse(output=output, opamps=opamps)

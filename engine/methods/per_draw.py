@@ -15,6 +15,8 @@ from __future__ import annotations
 import numpy as np
 
 from railroom.engine import draw_walk as dw
+from railroom.engine.margins import load_currents, supply_margin
+from railroom.engine.margins import opamp_margins as kernel_margins
 from railroom.engine.opamp import TWO_PI, inverse_open_loop, laplace_grid
 
 GROUND = "0"
@@ -158,25 +160,17 @@ def draw_margins(layout: dw.Layout, D: np.ndarray, dT: float) -> list[dict[str, 
 
 
 def opamp_margins(plan, x, index, branch, out, signal, load, freqs, pos, neg) -> dict[str, float]:
+    """The margins of one circuit's op amp, through the engine's margin kernel (the circuit
+    solution above is the part that is independent of the blocks)."""
     part = plan.part
-    plus_x = x[:, index["+"]].copy()
-    plus_x[:, 2] = 0.0                     # the contract checks the + input without the errors
-    plus = envelope(plus_x, signal)
-    current = envelope(x[:, branch], signal)
+    plus = envelope(x[:, index["+"]], signal)      # the + pin with its bias current drop
+    current = envelope(-x[:, branch], signal)      # the MNA branch current flows into the op amp
     out_hi, out_lo = out[0].max(), out[1].min()
-    needed = max(np.abs(current[0]).max(), np.abs(current[1]).max())
-    needed += load.conductance * max(abs(out_hi - load.returns[0]), abs(out_lo - load.returns[1]))
-    drop = part.output_resistance * needed
-    span = pos - neg
-    return {
-        "output-high": pos - part.output_headroom[0] - drop - out_hi,
-        "output-low": out_lo - (neg + part.output_headroom[1] + drop),
-        "input-high": pos - part.input_headroom[0] - plus[0].max(),
-        "input-low": plus[1].min() - (neg + part.input_headroom[1]),
-        "slew": part.slew - float(np.max(TWO_PI * freqs * out[2])),
-        "current": part.output_current - needed,
-        "supply": min(span - part.supply[0], part.supply[1] - span),
-    }
+    sourced, sunk = load_currents(current[0].max(), current[1].min(), out_hi, out_lo, load)
+    margins = kernel_margins(part, pos, neg, out_hi, out_lo, plus[0].max(), plus[1].min(),
+                             sourced, sunk, float(np.max(TWO_PI * freqs * out[2])))
+    margins["supply"] = supply_margin(part, pos - neg, pos - neg)
+    return {check: float(m) for check, m in margins.items()}
 
 
 def comparator(plan, v, signal, pos, neg, count):
