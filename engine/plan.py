@@ -23,6 +23,7 @@ class StagePlan:
     rails: Rails
     quantities: Mapping[str, Quantity]      # every numeric field, flattened ("inputs.1.r")
     flags: Mapping[str, object]             # booleans such as invert
+    path: str = "<chain>"                   # the chain file, for located messages
 
 
 def stage_quantities(stage: Stage) -> dict[str, Quantity]:
@@ -53,7 +54,7 @@ def plan_chain(chain: Chain, parts: Mapping[str, Part]) -> list[StagePlan]:
                                              index, stage.part or "", parts))
         flags = {k: v for k, v in stage.values.items() if isinstance(v, bool)}
         plans.append(StagePlan(index, stage, block, part, chain.rails_for(stage),
-                               stage_quantities(stage), flags))
+                               stage_quantities(stage), flags, chain.path))
     if problems:
         raise InputError(problems)
     return plans

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from railroom.engine.blocks.base import BlockResponse
-from railroom.engine.model import Chain
+from railroom.engine.model import Chain, InputError, Problem
 from railroom.engine.opamp import inverse_open_loop, laplace_grid
 from railroom.engine.plan import StagePlan, spread
 from railroom.engine.propagation import DifferentialSignal, Signal, source_signal
@@ -37,6 +37,19 @@ class Prepared:
     memo: dict = field(default_factory=dict, compare=False, repr=False)
 
 
+class TooManyCorners(InputError):
+    """A stage with more toleranced values than its corners can be enumerated for."""
+
+    def __init__(self, plan: StagePlan, count: int):
+        stage = plan.stage
+        super().__init__([Problem(
+            plan.path, stage.line, f"stage.{plan.index}",
+            f"stage {plan.index} ({stage.name!r}) has {count} toleranced values (with the source "
+            f"impedance and tempcos); the worst case enumerates every corner of at most "
+            f"{MAX_CORNER_BITS} per stage ({2 ** MAX_CORNER_BITS} corners) and never holds one "
+            "fixed: give fewer values a tolerance, or split the stage")])
+
+
 def corner_values(plan: StagePlan, temperature_rise: float, nominal: bool = False,
                   drive: tuple[float, float] | None = None) -> dict[str, np.ndarray]:
     """Every corner of the stage's own toleranced values as column arrays (J, 1).
@@ -48,7 +61,10 @@ def corner_values(plan: StagePlan, temperature_rise: float, nominal: bool = Fals
             for name, q in plan.quantities.items()}
     if drive is not None:
         ends["drive"] = drive
-    varying = [name for name, (lo, hi) in ends.items() if lo != hi][:MAX_CORNER_BITS]
+    varying = [name for name, (lo, hi) in ends.items() if lo != hi]
+    if len(varying) > MAX_CORNER_BITS:
+        # never hold a toleranced value fixed: a value left at one end can hide the worst case
+        raise TooManyCorners(plan, len(varying))
     count = 2 ** len(varying)
     values = {name: np.full((count, 1), ends[name][0]) for name in ends}
     if varying:

@@ -1,0 +1,119 @@
+"""Worst-case numbers that were optimistic (or falsely alarming) before, each against a hand
+calculation named beside it. The circuits are written in the chain format of the README."""
+from __future__ import annotations
+
+import pytest
+
+from railroom.engine.analysis import analyse
+from railroom.engine.files import chain_from_text
+from railroom.engine.model import InputError, Part
+
+# An illustrative part with no offset, so that each test sees only the effect it is about.
+CLEAN = dict(id="clean", description="test part", supply=(2.7, 40.0), supply_abs_max=44.0,
+             output_headroom=(0.03, 0.03), output_resistance=40.0, input_headroom=(-0.1, -0.1),
+             gbw=10e6, slew=10e6, open_loop_gain=1e7, offset=0.0, offset_drift=0.0,
+             bias_current=0.0, output_current=50e-3)
+
+
+def part(**changes) -> dict[str, Part]:
+    return {"clean": Part(**{**CLEAN, **changes})}
+
+
+def result(text: str, parts: dict[str, Part]):
+    return analyse(chain_from_text(text), parts, design_aids=False, headroom=False)
+
+
+def summing(count: int, low: str) -> str:
+    inputs = ", ".join('{ r = "100k 10%", v = "-0.5" }' for _ in range(count))
+    return f'''format = 1
+title = "many toleranced inputs"
+[rails.main]
+positive = "15"
+negative = "-15"
+[source]
+level = ["0", "0"]
+[[stage]]
+name = "sum"
+block = "summing"
+part = "clean"
+rin = "100k"
+rf = "100k"
+inputs = [{inputs}]
+[[stage]]
+name = "adc"
+block = "adc"
+low = "{low}"
+high = "14"
+'''
+
+
+def test_every_toleranced_value_reaches_its_corner():
+    # Inverting summer (Sedra & Smith, ch. 2): Vout = -sum (rf / r_i) v_i. With 13 inputs of
+    # -0.5 V through 100k +10 % each, the lowest output is 13 x 0.5 x 100/110 = 5.90909 V.
+    stages = result(summing(13, "5.95"), part()).stages
+    low = stages[0].measure.output[0]
+    assert low == pytest.approx(13 * 0.5 * 100 / 110, abs=1e-4)
+    assert not stages[1].go                      # the converter window at 5.95 V is left
+
+
+def test_a_stage_with_too_many_corners_is_refused_not_sampled():
+    # 20 toleranced inputs: 2^20 corners. Holding any at one end could hide the worst case
+    # (all at 110k gives 20 x 0.5 x 100/110 = 9.0909 V, below the 9.291 V window).
+    with pytest.raises(InputError) as caught:
+        result(summing(20, "9.291"), part())
+    problem = caught.value.problems[0]
+    assert problem.field == "stage.1" and problem.line == 8
+    assert "20 toleranced values" in problem.message
+
+
+FOLLOWER = '''format = 1
+title = "buffer on a high-impedance source"
+[rails.main]
+positive = "5"
+negative = "0"
+[source]
+level = ["1", "3.8"]
+impedance = "1meg"
+[[stage]]
+name = "buffer"
+block = "follower"
+part = "clean"
+{load}
+'''
+
+
+def test_bias_current_through_the_source_moves_the_input_pin():
+    # Ohm's law: 250 nA through 1 Mohm moves the + pin by 0.25 V either way: 0.75 V to 4.05 V.
+    stage = result(FOLLOWER.format(load=""), part(bias_current=250e-9)).stages[0]
+    assert stage.measure.opamps[0].input == pytest.approx((0.75, 4.05), abs=1e-6)
+
+
+def test_output_current_grows_only_its_own_side_of_the_swing():
+    # A 1k load to 0 V on a 0-5 V supply only ever takes current the op amp sources: at 3.8 V
+    # out that is 3.8 mA, so the upper limit drops by 40 ohm x 3.8 mA = 0.152 V; the lower limit
+    # stays at the no-load 30 mV (the part's swing is given per direction).
+    stage = result(FOLLOWER.format(load='load = "1k"'), part()).stages[0]
+    low, high = stage.measure.opamps[0].window
+    assert low == pytest.approx(0.03, abs=1e-9)
+    assert high == pytest.approx(5 - 0.03 - 40 * 3.8e-3, abs=1e-6)
+
+
+def test_a_supply_exactly_at_the_rating_meets_it():
+    # +/-6 V with 5 %: the largest span is 6 x 1.05 x 2 = 12.6 V, which is 12.600000000000001 in
+    # floating point; a part rated to 12.6 V meets it (limits are met at equality).
+    text = '''format = 1
+title = "at the rating"
+[rails.main]
+positive = "6"
+negative = "-6"
+tolerance = "5%"
+[source]
+level = ["0", "0"]
+[[stage]]
+name = "buffer"
+block = "follower"
+part = "clean"
+'''
+    stage = result(text, part(supply=(2.7, 12.6), supply_abs_max=13.0)).stages[0]
+    assert stage.margins["supply"] == 0.0
+    assert stage.go
