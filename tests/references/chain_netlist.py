@@ -1,0 +1,118 @@
+"""Whole-chain nodal reference: the chain as ONE netlist, so every stage is loaded by the next.
+
+Imports nothing of railroom (only numpy and the independent MNA solver in references/nodal.py).
+Partial scope (issue 11): single-ended source with its impedance, and the stages follower,
+noninverting, inverting, divider and rc_lowpass, with the topologies as railroom's README
+describes them. Op amps: finite A0 and one pole, offset at +, bias current into both inputs.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from references.nodal import Circuit
+
+
+@dataclass(frozen=True)
+class OpAmp:
+    open_loop_gain: float | None = None   # None: ideal
+    gbw: float | None = None
+    offset: float = 0.0
+    bias: float = 0.0                     # amps flowing INTO each input pin
+
+
+@dataclass(frozen=True)
+class Stage:
+    block: str
+    values: dict = field(default_factory=dict)
+    load: float | None = None             # ohms to 0 V
+    opamp: OpAmp = OpAmp()
+
+
+def build(stages: list[Stage], source_volts: complex, impedance: float) -> tuple[Circuit, list[str]]:
+    """One circuit for the whole chain; returns it and the output node of each stage."""
+    c = Circuit()
+    c.source("src", source_volts)
+    node = "src"
+    if impedance > 0:
+        c.resistor("src", "s_out", impedance)
+        node = "s_out"
+    outs = []
+    for k, st in enumerate(stages):
+        node = _stage(c, st, node, f"n{k}")
+        if st.load:
+            c.resistor(node, "0", st.load)
+        outs.append(node)
+    return c, outs
+
+
+def _opamp(c: Circuit, op: OpAmp, plus: str, minus: str, out: str) -> None:
+    c.opamp(plus, minus, out, op.open_loop_gain, op.gbw, op.offset)
+    if op.bias:
+        c.current(plus, -op.bias)     # bias flows from the circuit into the pin
+        c.current(minus, -op.bias)
+
+
+def _stage(c: Circuit, st: Stage, inp: str, p: str) -> str:
+    v, out = st.values, f"{p}_out"
+    if st.block == "follower":
+        _opamp(c, st.opamp, inp, out, out)
+    elif st.block == "noninverting":            # rg from - to ref, rf from out to -
+        _ref(c, v, p)
+        c.resistor(f"{p}_m", f"{p}_ref", v["rg"])
+        c.resistor(out, f"{p}_m", v["rf"])
+        _opamp(c, st.opamp, inp, f"{p}_m", out)
+    elif st.block == "inverting":               # rin from input to -, ref drives +
+        _ref(c, v, p)
+        c.resistor(inp, f"{p}_m", v["rin"])
+        c.resistor(out, f"{p}_m", v["rf"])
+        _opamp(c, st.opamp, f"{p}_ref", f"{p}_m", out)
+    elif st.block == "divider":
+        c.resistor(inp, out, v["top"])
+        c.resistor(out, "0", v["bottom"])
+    elif st.block == "rc_lowpass":
+        c.resistor(inp, out, v["r"])
+        c.capacitor(out, "0", v["c"])
+    else:
+        raise ValueError(f"block {st.block!r} not in this reference yet")
+    return out
+
+
+def _ref(c: Circuit, v: dict, p: str) -> None:
+    c.source(f"{p}_ref", v.get("ref", 0.0))
+
+
+def response(stages: list[Stage], freqs: np.ndarray, impedance: float = 0.0) -> list[np.ndarray]:
+    """Complex output of every stage per 1 V AC at the source (DC terms zeroed: superposition)."""
+    ac = [Stage(s.block, {**s.values, "ref": 0.0}, s.load,
+                OpAmp(s.opamp.open_loop_gain, s.opamp.gbw)) for s in stages]
+    c, outs = build(ac, 1.0, impedance)
+    sol = c.solve(np.asarray(freqs, float))
+    return [sol[o] for o in outs]
+
+
+def dc(stages: list[Stage], level: float, impedance: float = 0.0) -> list[float]:
+    """DC output of every stage with offsets, bias currents and refs in place."""
+    c, outs = build(stages, level, impedance)
+    sol = c.solve(np.array([0.0]))
+    return [float(np.real(sol[o][0])) for o in outs]
+
+
+def peak(stages: list[Stage], band: tuple[float, float], impedance: float = 0.0,
+         points: int = 400) -> list[float]:
+    """Largest |V| of each stage over the band: dense log grid, then golden-section refinement."""
+    grid = np.geomspace(band[0], band[1], points)
+    mags = [np.abs(r) for r in response(stages, grid, impedance)]
+    best = []
+    for k, m in enumerate(mags):
+        i = int(np.argmax(m))
+        lo, hi = np.log(grid[max(i - 1, 0)]), np.log(grid[min(i + 1, points - 1)])
+        f = lambda x: -abs(response(stages, np.array([np.exp(x)]), impedance)[k][0])
+        g = (np.sqrt(5) - 1) / 2
+        for _ in range(40):
+            a, b = hi - g * (hi - lo), lo + g * (hi - lo)
+            lo, hi = (lo, b) if f(a) < f(b) else (a, hi)
+        best.append(max(float(m[i]), -f((lo + hi) / 2)))
+    return best
