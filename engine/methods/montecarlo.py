@@ -23,6 +23,7 @@ import numpy as np
 from railroom.engine import draw_walk as dw
 from railroom.engine.methods import judged
 from railroom.engine.methods.corners import prepare
+from railroom.engine.methods.normal import inverse_normal
 
 CHUNK_ROWS = 10_000        # the default sample count in one walk; larger chunks ran slower
 MEDIAN_ROWS = 16384
@@ -39,9 +40,8 @@ def deviates(uniform: np.ndarray, distribution: str) -> np.ndarray:
     if d is uniform:
         d = d.copy(order="F")
     if distribution == "normal":
-        from scipy.special import ndtri
         np.clip(d, 1e-16, 1.0 - 1e-16, out=d)
-        ndtri(d, out=d)
+        inverse_normal(d, out=d)
         d /= 3.0
         return d
     d *= 2.0
