@@ -1,1 +1,39 @@
-"""railroom engine: pure numeric core (no printing, no UI imports)."""
+"""railroom engine: pure numeric core (no printing, no UI imports).
+
+The names the interface and the command line use, loaded on first access so that importing a
+submodule (railroom.engine.model, say) stays cheap:
+
+    from railroom.engine import load_checked, analyse, chain_report
+    chain, library = load_checked("board.toml")
+    report = chain_report(analyse(chain, library.parts))
+"""
+from __future__ import annotations
+
+from importlib import import_module
+
+# exported name -> module under railroom.engine that defines it
+_EXPORTS = {
+    "load_checked": "analysis", "analyse": "analysis",
+    "load_chain": "files", "chain_from_text": "files",
+    "ChainResult": "results", "StageResult": "results",
+    "InputError": "model", "Problem": "model", "METHODS": "model",
+    "Cancelled": "methods.montecarlo",
+    "BLOCKS": "blocks",
+    "chain_report": "report", "markdown_report": "markdown",
+}
+
+__all__ = sorted(_EXPORTS)
+
+
+def __getattr__(name: str):
+    """PEP 562 module __getattr__: import the defining module only when a name is first used."""
+    module = _EXPORTS.get(name)
+    if module is None:
+        raise AttributeError(f"module 'railroom.engine' has no attribute {name!r}")
+    value = getattr(import_module(f"railroom.engine.{module}"), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted({*globals(), *__all__})
