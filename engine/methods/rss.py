@@ -19,8 +19,13 @@ SIGMAS = 3.0
 
 
 def three_sigma(lin: Linearised, x: np.ndarray, s: float) -> tuple[float, float]:
-    """(nominal, 3 sigma) of a per-row quantity."""
-    return lin.nominal(x), SIGMAS * float(np.sqrt(np.sum((lin.gradient(x) * s) ** 2)))
+    """(nominal, 3 sigma) of a per-row quantity, never wider than the extreme value of the same
+    linear model, sum |dm/dx_i| tol_i: 3 sigma of a uniform tolerance is sqrt(3) = 1.73 times
+    the tolerance itself, which no circuit can reach (root-sum-square never exceeds the extreme
+    values: sqrt(sum (S_i t_i)^2) <= sum |S_i t_i|)."""
+    gradient = lin.gradient(x)
+    width = SIGMAS * float(np.sqrt(np.sum((gradient * s) ** 2)))
+    return lin.nominal(x), min(width, float(np.sum(np.abs(gradient))))
 
 
 def quoted(lin: Linearised, name: str, x: np.ndarray, s: float) -> float:
