@@ -144,6 +144,8 @@ def headroom_db(prepared: corners.Prepared, at_full_scale=None) -> float | None:
     edge in a handful of passes; a final step keeps the answer on the linear side, to 0.01 dB."""
     if prepared.chain.source.amplitude <= 0:
         return None
+    if all(plan.block.saturates or plan.block.window_only for plan in prepared.plans):
+        return None        # no stage with a linear regime to leave: no headroom to quote
 
     def room(scale: float) -> float:
         return linear_room(corners.run(prepared, scale=scale))

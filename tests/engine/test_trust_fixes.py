@@ -137,3 +137,24 @@ def test_rss_never_reports_a_margin_below_the_worst_case():
     for worst, statistical in zip(corners.stages, rss.stages):
         for check, margin in worst.margins.items():
             assert statistical.margins[check] >= margin - 1e-9, (worst.measure.index, check)
+
+
+def test_no_headroom_is_quoted_for_a_chain_with_no_linear_stage():
+    # A comparator alone has no linear regime to leave; the search used to answer its 120 dB limit.
+    text = '''format = 1
+title = "comparator only"
+[rails.main]
+positive = "5"
+negative = "0"
+[source]
+level = ["1", "2"]
+amplitude = "0.5"
+band = ["10", "1k"]
+[[stage]]
+name = "alarm"
+block = "comparator"
+part = "clean"
+threshold = "1.5"
+'''
+    found = analyse(chain_from_text(text), part(), design_aids=False)
+    assert found.headroom_db is None
