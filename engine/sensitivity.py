@@ -89,7 +89,9 @@ def ranking(lin: Linearised, stage: int, check: str | None, statistical: bool
     for var, w in zip(lin.layout.variables, weight):
         name = quantity_name(var, stage)
         shares[name] = shares.get(name, 0.0) + float(w) / total
-    ordered = sorted(shares.items(), key=lambda item: -item[1])
+    # equal effects (identical inputs) differ only by rounding noise: rank by the share to 12
+    # digits, ties in the circuit's own order of quantities, so one chain gives one report
+    ordered = sorted(shares.items(), key=lambda item: -round(item[1], 12))
     return tuple(Sensitivity(name, share) for name, share in ordered[:SHOWN]
                  if share >= SMALLEST_SHARE)
 
