@@ -70,7 +70,8 @@ class LoopSolution:
 def solve_loop(loop: Loop, inverse_gain: np.ndarray) -> LoopSolution:
     """Close the loop with the finite open-loop gain (see the module docstring)."""
     denominator = inverse_gain + loop.beta - loop.gamma
-    sources = set(loop.a_plus) | set(loop.a_minus)
+    # sorted: the transfers are summed in this order, so it must not follow the hash seed
+    sources = sorted(set(loop.a_plus) | set(loop.a_minus))
     output = {
         k: (loop.a_plus.get(k, 0.0) - loop.a_minus.get(k, 0.0)) / denominator for k in sources
     }
