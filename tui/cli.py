@@ -3,6 +3,7 @@
     railroom [CHAIN]                       open the terminal interface (the built-in demo without CHAIN)
     railroom check CHAIN [--json] ...      go / no-go with an exit code: 0 GO, 1 NO-GO, 2 unreadable input
     railroom presets [list | show ID | check FILE]
+    railroom blocks [NAME]
     railroom bench [--json]
 """
 from __future__ import annotations
@@ -17,7 +18,7 @@ EXIT_GO, EXIT_NO_GO, EXIT_INPUT = 0, 1, 2
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="railroom",
-        usage="railroom [CHAIN] | railroom {check,presets,bench,schema} ...",
+        usage="railroom [CHAIN] | railroom {check,presets,blocks,bench,schema} ...",
         description="Rail-headroom and regime checker for op-amp signal chains. "
                     "`railroom [CHAIN]` opens the terminal interface on the chain file "
                     "(the built-in demo without one).",
@@ -46,6 +47,10 @@ def build_parser() -> argparse.ArgumentParser:
     bench = sub.add_parser("bench", help="time the engine on the reference chain")
     bench.add_argument("--json", action="store_true")
 
+    blocks = sub.add_parser("blocks", help="list the blocks, or show one's fields and formulas")
+    blocks.add_argument("name", nargs="?", help="a block name, e.g. noninverting")
+    blocks.add_argument("--json", action="store_true")
+
     schema = sub.add_parser("schema", help="print the JSON Schema of a file kind")
     schema.add_argument("kind", choices=("chain", "preset", "report"))
     return parser
@@ -53,7 +58,8 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv: list[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
-    if not argv or argv[0] not in ("check", "presets", "bench", "-h", "--help", "schema"):
+    if not argv or argv[0] not in ("check", "presets", "bench", "-h", "--help", "schema",
+                                    "blocks"):
         return open_interface(argv)
     args = build_parser().parse_args(argv)
     if args.command == "check":
@@ -65,6 +71,9 @@ def main(argv: list[str] | None = None) -> int:
     if args.command == "bench":
         from railroom.tui.bench_command import run_bench
         return run_bench(args)
+    if args.command == "blocks":
+        from railroom.tui.blocks_command import run_blocks
+        return run_blocks(args)
     if args.command == "schema":
         from railroom.tui.schema_command import run_schema
         return run_schema(args)

@@ -68,6 +68,7 @@ class Block:
 
     name: ClassVar[str]
     summary: ClassVar[str]
+    ideal: ClassVar[tuple[str, ...]] = ()   # ideal-op-amp formulas, shown by `railroom blocks NAME`
     fields: ClassVar[dict[str, FieldSpec]] = {}
     uses_part: ClassVar[bool] = True
     saturates: ClassVar[bool] = False          # saturated by design (comparator, Schmitt trigger)

@@ -36,6 +36,7 @@ def span_of(values: np.ndarray) -> Span:
 class Comparator(Block):
     name = "comparator"
     summary = "open loop against a threshold voltage: saturated by design"
+    ideal = ("out = upper swing limit while in > threshold, lower limit while in < threshold (invert swaps them)",)
     saturates = True
     fields = {
         "threshold": FieldSpec("voltage", help="voltage on the other input, V"),

@@ -99,6 +99,8 @@ def sallen_key_gain(v: Mapping[str, np.ndarray]) -> np.ndarray | float:
 class SallenKeyLowpass(Block):
     name = "sallen_key_lowpass"
     summary = "second-order low-pass; rf/rg optional (unity gain without them)"
+    ideal = ("H(s) = K / (1 + s (c2 (r1 + r2) + r1 c1 (1 - K)) + s^2 r1 r2 c1 c2), K = 1 + rf/rg",
+             "f0 = 1 / (2 pi sqrt(r1 r2 c1 c2))")
     fields = {
         "r1": FieldSpec("resistance", help="in to node A"),
         "r2": FieldSpec("resistance", help="node A to + input"),
@@ -126,6 +128,8 @@ class SallenKeyLowpass(Block):
 class SallenKeyHighpass(Block):
     name = "sallen_key_highpass"
     summary = "second-order high-pass; rf/rg optional (unity gain without them)"
+    ideal = ("H(s) = K s^2 r1 r2 c1 c2 / (1 + s (r1 (c1 + c2) + r2 c2 (1 - K)) + s^2 r1 r2 c1 c2), K = 1 + rf/rg",
+             "f0 = 1 / (2 pi sqrt(r1 r2 c1 c2))")
     fields = {
         "c1": FieldSpec("capacitance", help="in to node A"),
         "c2": FieldSpec("capacitance", help="node A to + input"),
@@ -198,6 +202,8 @@ def multiple_feedback(y_in, y_out, y_ref, y_minus, y_feedback, v, inverse_gain) 
 class MfbLowpass(Block):
     name = "mfb_lowpass"
     summary = "multiple-feedback low-pass (inverting)"
+    ideal = ("H(s) = -(r2/r1) / (1 + s c2 (r2 + r3 + r2 r3/r1) + s^2 r2 r3 c1 c2)",
+             "f0 = 1 / (2 pi sqrt(r2 r3 c1 c2))")
     fields = mfb_fields(r2="node A to the output", r3="node A to the - input",
                         c1="node A to ref", c2="output to the - input")
 
@@ -215,6 +221,8 @@ class MfbLowpass(Block):
 class MfbBandpass(Block):
     name = "mfb_bandpass"
     summary = "multiple-feedback band-pass (inverting)"
+    ideal = ("H(s) = -s c1 r2 rp/r1 / (1 + s rp (c1 + c2) + s^2 rp r2 c1 c2), rp = r1 r3/(r1 + r3)",
+             "f0 = 1 / (2 pi sqrt(rp r2 c1 c2)); centre gain -r2 c1/(r1 (c1 + c2))")
     fields = mfb_fields(r2="- input to the output", r3="node A to ref",
                         c1="node A to the - input", c2="node A to the output")
 

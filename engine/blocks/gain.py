@@ -38,6 +38,7 @@ def single_opamp(loop: Loop, inverse_gain: np.ndarray, feedback_conductance: np.
 class Follower(Block):
     name = "follower"
     summary = "unity-gain buffer"
+    ideal = ("out = in",)
     fields = {}
 
     def respond(self, v, s, inverse_gain, drive, differential):
@@ -50,6 +51,7 @@ class Follower(Block):
 class Noninverting(Block):
     name = "noninverting"
     summary = "gain 1 + rf/rg, rg returning to ref"
+    ideal = ("out = (1 + rf/rg) in - (rf/rg) ref",)
     fields = {
         "rf": FieldSpec("resistance", help="feedback resistor, output to - input"),
         "rg": FieldSpec("resistance", help="gain resistor, - input to ref"),
@@ -68,6 +70,7 @@ class Noninverting(Block):
 class Inverting(Block):
     name = "inverting"
     summary = "gain -rf/rin about ref"
+    ideal = ("out = -(rf/rin) in + (1 + rf/rin) ref",)
     fields = {
         "rin": FieldSpec("resistance", help="input resistor, in to - input"),
         "rf": FieldSpec("resistance", help="feedback resistor, - input to output"),
@@ -88,6 +91,7 @@ class Inverting(Block):
 class Summing(Block):
     name = "summing"
     summary = "inverting summer: the signal through rin plus fixed DC inputs (level shift)"
+    ideal = ("out = -rf (in/rin + sum v/r) + (1 + rf/rin + sum rf/r) ref", "each fixed input: r from the voltage v to the - input")
     fields = {
         "rin": FieldSpec("resistance", help="signal input resistor"),
         "rf": FieldSpec("resistance", help="feedback resistor"),

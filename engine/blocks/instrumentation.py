@@ -103,6 +103,7 @@ def input_pin(source: str, ones: np.ndarray, drive, index: int) -> Node:
 class Instrumentation(Block):
     name = "instrumentation"
     summary = "three-op-amp instrumentation amplifier, gain 1 + 2 rf/rg, unity difference stage"
+    ideal = ("out = (1 + 2 rf/rg)(in+ - in-) + ref",)
     takes_differential = True
     fields = {
         "rg": FieldSpec("resistance", help="gain resistor between the two input op amps' - inputs"),

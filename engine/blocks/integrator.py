@@ -21,6 +21,7 @@ from railroom.engine.opamp import TWO_PI, Loop
 class Integrator(Block):
     name = "integrator"
     summary = "inverting integrator with rf across c (finite DC gain)"
+    ideal = ("out - ref = -(rf/rin) / (1 + s rf c) (in - ref)", "DC gain -rf/rin, corner 1/(2 pi rf c)")
     fields = {
         "rin": FieldSpec("resistance", help="input resistor, in to - input"),
         "rf": FieldSpec("resistance", help="across c: sets the DC gain -rf/rin"),

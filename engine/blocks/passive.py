@@ -17,6 +17,7 @@ from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputL
 class Divider(Block):
     name = "divider"
     summary = "passive resistive divider (no part)"
+    ideal = ("out = in bottom/(top + bottom); it drives the next stage through top || bottom",)
     uses_part = False
     fields = {
         "top": FieldSpec("resistance", help="from in to output"),
@@ -39,6 +40,7 @@ class Divider(Block):
 class RcLowpass(Block):
     name = "rc_lowpass"
     summary = "passive first-order low-pass (no part)"
+    ideal = ("H(s) = 1 / (1 + s r c); it drives the next stage through r || 1/(s c)",)
     uses_part = False
     fields = {
         "r": FieldSpec("resistance", help="from in to output"),
@@ -69,6 +71,7 @@ class ConverterInput(Block):
 
     name = "adc"
     summary = "converter input window the signal must stay inside"
+    ideal = ("low <= in <= high: a window only, nothing is driven",)
     uses_part = False
     window_only = True
     fields = {

@@ -31,6 +31,8 @@ def thresholds(r1, r2, ref, level: Span, invert: bool) -> np.ndarray:
 class Schmitt(Block):
     name = "schmitt"
     summary = "comparator with positive feedback: saturated by design, with two thresholds"
+    ideal = ("invert = false: switches where in = ref (1 + r1/r2) - out r1/r2 (out at either level)",
+             "invert = true: switches where in = (ref r2 + out r1)/(r1 + r2)")
     saturates = True
     fields = {
         "r1": FieldSpec("resistance", help="invert = false: in to + input; true: + input to ref"),

@@ -1,0 +1,50 @@
+"""`railroom blocks [NAME]`: the block catalogue, printed from the engine's own block table."""
+from __future__ import annotations
+
+import sys
+
+from railroom.engine.block_help import block_names, describe
+from railroom.tui.cli import EXIT_GO, EXIT_INPUT, print_json
+
+
+def run_blocks(args) -> int:
+    if args.name is None:
+        rows = block_names()
+        if args.json:
+            print_json({"blocks": [{"name": n, "summary": s} for n, s in rows]})
+            return EXIT_GO
+        width = max(len(n) for n, _ in rows)
+        for name, summary in rows:
+            print(f"{name:<{width}}  {summary}")
+        print("\n`railroom blocks NAME` shows a block's fields, what each connects and its formulas.")
+        return EXIT_GO
+    info = describe(args.name)
+    if info is None:
+        known = ", ".join(n for n, _ in block_names())
+        print(f"railroom: unknown block {args.name!r}; the blocks are: {known}", file=sys.stderr)
+        return EXIT_INPUT
+    if args.json:
+        print_json(info)
+        return EXIT_GO
+    print(f"{info['name']}: {info['summary']}")
+    traits = ["needs a part preset" if info["uses_part"] else "passive (no part)"]
+    if info["saturates"]:
+        traits.append("saturated by design")
+    if info["differential_input"]:
+        traits.append("takes a differential input")
+    print("  " + "; ".join(traits))
+    if info["fields"]:
+        print("\nfields (value, then what it connects):")
+        width = max(len(f["key"]) for f in info["fields"])
+        for f in info["fields"]:
+            unit = f" [{f['unit']}]" if f["unit"] else ""
+            print(f"  {f['key']:<{width}}  {f['default']}{unit}: {f['connects']}")
+    print("\nfields every stage of this block accepts:")
+    width = max(len(f["key"]) for f in info["common_fields"])
+    for f in info["common_fields"]:
+        print(f"  {f['key']:<{width}}  {f['help']}")
+    if info["ideal"]:
+        print("\nideal op amp (railroom itself uses the part's finite gain, bandwidth and errors):")
+        for line in info["ideal"]:
+            print(f"  {line}")
+    return EXIT_GO
