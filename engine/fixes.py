@@ -1,6 +1,7 @@
 """Design aids on every result: sensitivity ranking per stage, fixes for failing or tight stages.
 
-A fix is the nearest IEC 60063 E24 and E96 value of one of the stage's own resistors that makes
+A stage fed a clipped signal gets no search, only a note to fix the first clipping stage: its
+margins are those of the clipped input. A fix is the nearest IEC 60063 E24 and E96 value of one of the stage's own resistors that makes
 the stage GO (every margin at least the required one, linear regime) without making any stage
 that was GO fail, checked by re-running the method on the changed chain (montecarlo candidates
 are checked with corners, which is stricter). Candidates lie on the side the limiting margin's
@@ -36,6 +37,12 @@ def needs_fix(result: StageResult, required: float) -> bool:
             and result.margins[check] < TIGHT * required)
 
 
+def fed_clipped(result: StageResult) -> bool:
+    """A stage fed a clipped signal: its margins are those of the clipped input, which changes
+    once the first clipping stage is fixed, so no value of its own is searched for it."""
+    return "fed-clipped" in result.reasons
+
+
 def design_aids(chain, plans, freqs, stages, corner_stages, headroom: float | None,
                 lin=None, baseline: list[StageResult] | None = None) -> list[StageResult]:
     """Stages with sensitivity (every stage) and fixes (failing or tight stages) filled in.
@@ -48,7 +55,9 @@ def design_aids(chain, plans, freqs, stages, corner_stages, headroom: float | No
     for plan, result in zip(plans, stages):
         sensitivity = ranking(lin, plan.index, result.limiting, statistical)
         fixes: tuple[Fix, ...] = ()
-        if needs_fix(result, chain.conditions.margin):
+        if fed_clipped(result):
+            fixes = (Fix(text="fed a clipped signal: fix the first clipping stage, then check again"),)
+        elif needs_fix(result, chain.conditions.margin):
             fixes = tuple(value_fixes(evaluate, plan, result, lin))
             if result.regime == "clipping" and headroom is not None and headroom < 0:
                 fixes += (amplitude_fix(chain, headroom),)
@@ -57,20 +66,39 @@ def design_aids(chain, plans, freqs, stages, corner_stages, headroom: float | No
 
 
 class Evaluator:
-    """Re-runs the chain's method with one stage value changed; remembers the unchanged verdicts."""
+    """Re-runs the chain's method with one stage value changed; remembers the unchanged verdicts.
+
+    Corners re-walks only what a change at stage k can move: stage k-1 (its load includes stage
+    k's input) and the stages after it up to the last one that was GO (only those can be broken),
+    fed the signal the unchanged walk had at stage k-1. The
+    corner values and responses of the stages before k are reused. rss re-runs its own method on
+    the whole chain (its sensitivities span the chain)."""
 
     def __init__(self, chain, plans, freqs, baseline: list[StageResult] | None = None):
         # `baseline`: results(plans) when the caller has them (corners results, or rss ones for
         # rss): only their GO verdicts are read, which the nominal notes do not touch.
         self.chain, self.plans, self.freqs = chain, plans, freqs
         self._baseline = baseline
+        self._prepared: corners.Prepared | None = None
+        self._entering: list = []
 
-    def results(self, plans) -> list[StageResult]:
-        found = corners.run(corners.prepare(self.chain, plans, self.freqs))
-        if self.chain.conditions.method == "rss":
-            from railroom.engine.methods.rss import run
-            found = run(self.chain, plans, self.freqs, found)
-        return found
+    def results(self, plans, changed: int | None = None, stop: int | None = None
+                ) -> list[StageResult]:
+        """Results of stages up to `stop` (all by default) of the chain with `plans`; `changed`:
+        the only stage whose plan differs from the unchanged chain's, when known."""
+        if self.chain.conditions.method == "rss" or changed is None:
+            found = corners.run(corners.prepare(self.chain, plans, self.freqs))
+            if self.chain.conditions.method == "rss":
+                from railroom.engine.methods.rss import run
+                found = run(self.chain, plans, self.freqs, found)
+            return found
+        if self._prepared is None:
+            self._prepared = corners.prepare(self.chain, self.plans, self.freqs)
+            self._unchanged = corners.run(self._prepared, entering=self._entering)
+        first = max(changed - 1, 0)
+        prepared = corners.prepare(self.chain, plans, self.freqs, reuse=self._prepared, first=changed)
+        return [*self._unchanged[:first],
+                *corners.run_from(prepared, first, self._entering[first], stop)]
 
     def works(self, k: int, field: str, value: float) -> StageResult | None:
         """The changed stage's result when the change makes it GO and breaks no other stage."""
@@ -79,7 +107,9 @@ class Evaluator:
         plan = self.plans[k]
         q = plan.quantities[field]
         changed = replace(plan, quantities={**plan.quantities, field: replace(q, value=value)})
-        found = self.results([*self.plans[:k], changed, *self.plans[k + 1:]])
+        # only stages that were GO can be broken: the walk stops after the last of them
+        stop = max([k, *(j for j in range(k + 1, len(self.plans)) if self._baseline[j].go)]) + 1
+        found = self.results([*self.plans[:k], changed, *self.plans[k + 1:]], changed=k, stop=stop)
         if found[k].go and all(new.go for new, old in zip(found, self._baseline) if old.go):
             return found[k]
         return None

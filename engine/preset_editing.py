@@ -111,9 +111,21 @@ def _put(table, key: str, raw: Raw) -> None:
     order = list(PART_FIELDS)
     before = [k for k in order[:order.index(key)] if k in table] or list(table.keys())
     if before:
-        table.value._insert_after(before[-1], key, value)
+        _insert_after(table.value, before[-1], key, value)
     else:
         table.add(key, value)
+
+
+def _insert_after(container, anchor: str, key: str, value) -> None:
+    """Insert `key` right after `anchor` in a tomlkit container. tomlkit has no public insert:
+    its `_insert_after` went away in 0.15, where `_insert_at` (an index into the body) remains;
+    both are tried, and the tests pin the result (test_preset_editing)."""
+    if hasattr(container, "_insert_after"):
+        container._insert_after(anchor, key, value)
+        return
+    index = next(i for i, (k, _item) in enumerate(container.body)
+                 if k is not None and k.key == anchor)
+    container._insert_at(index + 1, key, value)
 
 
 def _table(document, part_id: str):

@@ -44,13 +44,20 @@ def bounds_once(node, v: dict, signal, offsets, bias, known: dict,
     return bounds
 
 
-def walk_chain(prepared, signal, nominal: bool = False, notes=None) -> list[StageResult]:
+def walk_chain(prepared, signal, nominal: bool = False, notes=None, first: int = 0,
+               entering: list | None = None, stop: int | None = None) -> list[StageResult]:
+    """Results of stages `first` up to (not including) `stop`, the last by default, fed `signal`
+    at stage `first`. `entering`, when
+    given, receives the signal entering each walked stage (the fix search re-walks from there)."""
     chain = prepared.chain
     rise = chain.conditions.worst_temperature_rise
     # node terms depend on the offsets, which the nominal walk leaves out: one memo for each
     memo = prepared.memo.setdefault(("terms", nominal), {})
     results: list[StageResult] = []
-    for k, plan in enumerate(prepared.plans):
+    for k in range(first, len(prepared.plans) if stop is None else stop):
+        plan = prepared.plans[k]
+        if entering is not None:
+            entering.append(signal)
         following = prepared.responses[k + 1] if k + 1 < len(prepared.responses) else None
         next_load = following.input_load if following is not None else InputLoad()
         v = prepared.values[k]

@@ -76,13 +76,24 @@ def corner_values(plan: StagePlan, temperature_rise: float, nominal: bool = Fals
 
 
 def prepare(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, nominal: bool = False,
-            ideal: bool = False) -> Prepared:
+            ideal: bool = False, reuse: Prepared | None = None, first: int = 0) -> Prepared:
+    """Corner values and block responses of every stage. `reuse`: a Prepared of the same chain
+    whose stages before `first` are unchanged: theirs are kept and only `first` onwards are
+    recomputed (what a stage drives depends only on the stages before it)."""
     rise = chain.conditions.worst_temperature_rise
     s = laplace_grid(freqs)
     values, responses = [], []
     drive = (chain.source.impedance, chain.source.impedance)
     differential = chain.source.differential
-    for plan in plans:
+    if reuse is not None and first > 0:
+        values, responses = list(reuse.values[:first]), list(reuse.responses[:first])
+        before, response = plans[first - 1], reuse.responses[first - 1]
+        if response is not None:
+            drive = response.output_resistance_span or (response.output_resistance,) * 2
+        else:
+            drive = (before.part.output_resistance if before.part else 0.0,) * 2
+        differential = False
+    for plan in plans[len(values):]:
         v = corner_values(plan, rise, nominal, drive)
         inverse_gain = inverse_open_loop(None if ideal else plan.part, s)
         response = None
@@ -104,7 +115,15 @@ def start_signal(chain: Chain, freqs: np.ndarray, scale: float = 1.0) -> Signal 
     return source_signal(source.level, source.amplitude * scale, freqs)
 
 
-def run(prepared: Prepared, scale: float = 1.0, nominal: bool = False, notes=None):
+def run(prepared: Prepared, scale: float = 1.0, nominal: bool = False, notes=None,
+        entering: list | None = None):
     """Stage measures and verdicts for one source amplitude scale; `notes` are per-stage measure
-    fields known beforehand (nominal span, gain error)."""
-    return walk_chain(prepared, start_signal(prepared.chain, prepared.freqs, scale), nominal, notes)
+    fields known beforehand (nominal span, gain error); `entering` receives each stage's input."""
+    return walk_chain(prepared, start_signal(prepared.chain, prepared.freqs, scale), nominal, notes,
+                      entering=entering)
+
+
+def run_from(prepared: Prepared, first: int, signal, stop: int | None = None) -> list:
+    """Verdicts of stages `first` to `stop` (not included; the last by default), fed `signal`
+    (recorded by `run(..., entering=...)`)."""
+    return walk_chain(prepared, signal, first=first, stop=stop)

@@ -97,3 +97,75 @@ def test_sensitivity_names_the_gain_resistors():
     # equal tolerances on rf and rg move G = 1 + rf/rg equally: dG/drf * rf = -dG/drg * rg
     assert stage.sensitivity[0].share == pytest.approx(stage.sensitivity[1].share, rel=1e-3)
     assert sum(s.share for s in stage.sensitivity) <= 1.0 + 1e-12
+
+
+# Three stages, the middle one 30 mV short of a 100 mV margin (NO-GO but linear), the last one
+# loading it (rin 10k) and itself near its ceiling, so a bigger gain in the middle would break it.
+TIGHT_MIDDLE = """format = 1
+[conditions]
+margin = "100m"
+[rails.main]
+positive = "5"
+negative = "-5"
+[source]
+amplitude = "100m"
+band = ["10", "1k"]
+[[stage]]
+name = "buffer"
+block = "follower"
+part = "amp"
+[[stage]]
+name = "gain"
+block = "noninverting"
+part = "amp"
+rf = "{rf} 1%"
+rg = "1k 1%"
+[[stage]]
+name = "invert x3"
+block = "inverting"
+part = "amp"
+rin = "10k 1%"
+rf = "30k 1%"
+"""
+
+
+def test_partial_re_walk_agrees_with_a_walk_of_the_whole_chain():
+    # The fix search re-walks only from the stage before the change; the whole-chain walk of the
+    # changed chain is the reference: every verdict and margin the same.
+    from railroom.engine.analysis import band_grid
+    from railroom.engine.fixes import Evaluator
+    from railroom.engine.methods import corners
+    from railroom.engine.plan import plan_chain
+    chain = chain_from_text(TIGHT_MIDDLE.format(rf="36k"))
+    plans = plan_chain(chain, PARTS)
+    freqs = band_grid(chain, plans)
+    evaluate = Evaluator(chain, plans, freqs)
+    evaluate.results(plans, changed=1)        # builds the unchanged walk it reuses
+    for k, field, value in ((1, "rf", 33e3), (1, "rg", 1.2e3), (2, "rin", 12e3), (0, None, None)):
+        if field is None:
+            changed_plans = plans
+        else:
+            q = plans[k].quantities[field]
+            changed = replace(plans[k], quantities={**plans[k].quantities, field: replace(q, value=value)})
+            changed_plans = [*plans[:k], changed, *plans[k + 1:]]
+        whole = corners.run(corners.prepare(chain, changed_plans, freqs))
+        partial = evaluate.results(changed_plans, changed=k)
+        assert [r.margins for r in partial] == [r.margins for r in whole]
+        assert [r.go for r in partial] == [r.go for r in whole]
+        # stopped after stage k (no stage after it was GO): the same results, cut short
+        stopped = evaluate.results(changed_plans, changed=k, stop=k + 1)
+        assert [r.margins for r in stopped] == [r.margins for r in whole[:k + 1]]
+
+
+def test_a_stage_fed_a_clipped_signal_gets_a_note_not_a_search():
+    chain = chain_from_text(CLIPPING.format(method="corners") + """
+[[stage]]
+name = "after"
+block = "follower"
+part = "amp"
+""")
+    first, after = analyse(chain, PARTS).stages
+    assert "fed-clipped" in after.reasons
+    assert [f.field for f in after.fixes] == [None]
+    assert "fix the first clipping stage" in after.fixes[0].text
+    assert any(f.field in ("rf", "rg") for f in first.fixes)

@@ -1,7 +1,7 @@
 """The Markdown review report: snapshot of the demo, structure for every demo, hostile names.
 
 Regenerate the snapshot after an intended change of the report or of the engine's numbers:
-    RAILROOM_UPDATE_SNAPSHOTS=1 /work/venv/bin/pytest tests/engine/test_markdown.py
+    RAILROOM_UPDATE_SNAPSHOTS=1 .venv/bin/python -m pytest tests/engine/test_markdown.py
 then read the diff of tests/engine/snapshots/ before committing it.
 """
 from __future__ import annotations
