@@ -35,16 +35,32 @@ def run_check(args) -> int:
     except CheckRefused as err:
         report_refusal(err)
         return EXIT_INPUT
+    against = getattr(args, "against", None)
     if len(args.chain) > 1 or Path(args.chain[0]).is_dir():
+        if against:
+            report_refusal(CheckRefused(["--against compares one chain file with its old version; "
+                                         "give a single CHAIN"]))
+            return EXIT_INPUT
         from railroom.tui.batch_command import run_batch
         return run_batch(args, margin)
     try:
         result = check_file(args.chain[0], args, margin)
+        old = None
+        if against:
+            from railroom.tui.against_command import old_result
+            old = old_result(against, args, margin)
         if args.json:
-            output = json.dumps(chain_report(result), indent=2, ensure_ascii=False) + "\n"
+            report = chain_report(result)
+            if old is not None:
+                from railroom.engine.compare import against_report
+                report["against"] = against_report(old, result, against)
+            output = json.dumps(report, indent=2, ensure_ascii=False) + "\n"
         elif getattr(args, "markdown", False):
             from railroom.engine.markdown import markdown_report
             output = markdown_report(result)
+            if old is not None:
+                from railroom.engine.compare import against_markdown
+                output += "\n" + against_markdown(old, result, against) + "\n"
         else:
             output = None
     except CheckRefused as err:
@@ -56,6 +72,9 @@ def run_check(args) -> int:
         colour = not args.no_color
         console = Console(no_color=not colour, highlight=False, soft_wrap=False)
         print_result(console, result, colour)
+        if old is not None:
+            from railroom.tui.against_command import print_against
+            print_against(console, old, result, against, colour)
     return EXIT_GO if result.go else EXIT_NO_GO
 
 

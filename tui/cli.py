@@ -37,6 +37,9 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--presets", action="append", default=[], metavar="DIR",
                        help="extra preset folder (may repeat); searched last")
     check.add_argument("--no-color", action="store_true", help="plain characters only")
+    check.add_argument("--against", metavar="OLD",
+                       help="also check OLD (a file, or REV:PATH read with git show) and show "
+                            "what changed per stage; the exit status stays CHAIN's")
 
     presets = sub.add_parser("presets", help="list, show or check part presets")
     presets.add_argument("action", nargs="?", default="list", choices=("list", "show", "check"))
