@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import json
 import sys
+import time
 import warnings
 from pathlib import Path
 
@@ -41,8 +42,12 @@ def run_check(args) -> int:
             report_refusal(CheckRefused(["--against compares one chain file with its old version; "
                                          "give a single CHAIN"]))
             return EXIT_INPUT
+        if getattr(args, "junit", None):
+            from railroom.tui.junit_command import run_batch_junit
+            return run_batch_junit(args, margin)
         from railroom.tui.batch_command import run_batch
         return run_batch(args, margin)
+    started = time.perf_counter()
     try:
         result = check_file(args.chain[0], args, margin)
         old = None
@@ -65,7 +70,15 @@ def run_check(args) -> int:
             output = None
     except CheckRefused as err:
         report_refusal(err)
+        if getattr(args, "junit", None):
+            from railroom.tui.junit_command import refused_entry, write_junit
+            write_junit(args.junit, [refused_entry(args.chain[0], err.lines)])
         return EXIT_INPUT
+    if getattr(args, "junit", None):
+        from railroom.tui.junit_command import result_entry, write_junit
+        if not write_junit(args.junit, [result_entry(args.chain[0], result,
+                                                     time.perf_counter() - started)]):
+            return EXIT_INPUT
     if output is not None:
         sys.stdout.write(output)
     else:

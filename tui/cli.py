@@ -40,6 +40,8 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--against", metavar="OLD",
                        help="also check OLD (a file, or REV:PATH read with git show) and show "
                             "what changed per stage; the exit status stays CHAIN's")
+    check.add_argument("--junit", metavar="FILE",
+                       help="also write a JUnit XML report (a test case per stage and check)")
 
     presets = sub.add_parser("presets", help="list, show or check part presets")
     presets.add_argument("action", nargs="?", default="list", choices=("list", "show", "check"))
