@@ -37,6 +37,10 @@ def run_check(args) -> int:
         report_refusal(err)
         return EXIT_INPUT
     against = getattr(args, "against", None)
+    if getattr(args, "plots", None) and (not getattr(args, "markdown", False) or args.json
+                                         or len(args.chain) > 1 or Path(args.chain[0]).is_dir()):
+        report_refusal(CheckRefused(["--plots DIR goes with --markdown, for one chain file"]))
+        return EXIT_INPUT
     if len(args.chain) > 1 or Path(args.chain[0]).is_dir():
         if against:
             report_refusal(CheckRefused(["--against compares one chain file with its old version; "
@@ -66,6 +70,9 @@ def run_check(args) -> int:
             if old is not None:
                 from railroom.engine.compare import against_markdown
                 output += "\n" + against_markdown(old, result, against) + "\n"
+            if getattr(args, "plots", None):
+                from railroom.tui.plot_command import markdown_with_picture
+                output = markdown_with_picture(output, args.chain[0], args, result)
         else:
             output = None
     except CheckRefused as err:

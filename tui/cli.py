@@ -17,7 +17,7 @@ EXIT_GO, EXIT_NO_GO, EXIT_INPUT = 0, 1, 2
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="railroom",
-        usage="railroom [CHAIN] | railroom {check,presets,bench,schema} ...",
+        usage="railroom [CHAIN] | railroom {check,presets,bench,schema,plot} ...",
         description="Rail-headroom and regime checker for op-amp signal chains. "
                     "`railroom [CHAIN]` opens the terminal interface on the chain file "
                     "(the built-in demo without one).",
@@ -42,6 +42,8 @@ def build_parser() -> argparse.ArgumentParser:
                             "what changed per stage; the exit status stays CHAIN's")
     check.add_argument("--junit", metavar="FILE",
                        help="also write a JUnit XML report (a test case per stage and check)")
+    check.add_argument("--plots", metavar="DIR",
+                       help="with --markdown: write the level picture into DIR and embed it")
 
     presets = sub.add_parser("presets", help="list, show or check part presets")
     presets.add_argument("action", nargs="?", default="list", choices=("list", "show", "check"))
@@ -51,6 +53,12 @@ def build_parser() -> argparse.ArgumentParser:
     bench = sub.add_parser("bench", help="time the engine on the reference chain")
     bench.add_argument("--json", action="store_true")
 
+    plot = sub.add_parser("plot", help="draw the level picture of a chain (SVG or PNG)")
+    plot.add_argument("chain", help="chain file")
+    plot.add_argument("-o", "--output", metavar="FILE",
+                      help="FILE.svg or FILE.png (default: CHAIN's name with .svg, here)")
+    plot.add_argument("--presets", action="append", default=[], metavar="DIR")
+
     schema = sub.add_parser("schema", help="print the JSON Schema of a file kind")
     schema.add_argument("kind", choices=("chain", "preset", "report"))
     return parser
@@ -58,7 +66,8 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv: list[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
-    if not argv or argv[0] not in ("check", "presets", "bench", "-h", "--help", "schema"):
+    if not argv or argv[0] not in ("check", "presets", "bench", "-h", "--help", "schema",
+                                       "plot"):
         return open_interface(argv)
     args = build_parser().parse_args(argv)
     if args.command == "check":
@@ -70,6 +79,9 @@ def main(argv: list[str] | None = None) -> int:
     if args.command == "bench":
         from railroom.tui.bench_command import run_bench
         return run_bench(args)
+    if args.command == "plot":
+        from railroom.tui.plot_command import run_plot
+        return run_plot(args)
     if args.command == "schema":
         from railroom.tui.schema_command import run_schema
         return run_schema(args)
