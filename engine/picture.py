@@ -187,7 +187,8 @@ def _level_axes(result: ChainResult, axes) -> None:
     axes.tick_params(axis="x", labelsize=8)
     axes.axvline(0.0, color="#999999", lw=0.6, ls="--")
     verdict = "GO" if result.go else f"NO-GO ({result.failing} of {count} stages fail)"
-    axes.set_title(visible(f"{result.chain.title}: {verdict}", 110), fontsize=9, loc="left")
+    axes.set_title(visible(f"{result.chain.title}: {verdict}, {result.method}", 110), fontsize=9,
+                   loc="left")
 
 
 def write_picture(result: ChainResult, parts: Mapping[str, Part], path: str | Path) -> Path:
@@ -211,11 +212,26 @@ def write_picture(result: ChainResult, parts: Mapping[str, Part], path: str | Pa
                     if kind == ".svg" else {"Software": "railroom"})
         figure.savefig(buffer, format=kind[1:], metadata=metadata)
     data = buffer.getvalue()
+    existed = path.exists()
     if kind == ".svg":
         write_atomic(path, strip_doctype(data.decode("utf-8")))
     else:
         write_binary_atomic(path, data)
+    if not existed:
+        usual_mode(path)
     return path
+
+
+def usual_mode(path: Path) -> None:
+    """A new report or picture gets the mode any new file gets here (the umask's), not the
+    private 0600 of the temporary file it was written through: CI jobs hand them on."""
+    import os
+    mask = os.umask(0)
+    os.umask(mask)
+    try:
+        os.chmod(path, 0o666 & ~mask)
+    except OSError:
+        pass
 
 
 def strip_doctype(svg: str) -> str:

@@ -16,8 +16,14 @@ from railroom.tui.cli import EXIT_INPUT
 
 def write_junit(path: str, entries: list[SuiteInput]) -> bool:
     """Write the report; False (and a message on stderr) when the file cannot be written."""
+    from pathlib import Path
+
+    from railroom.engine.picture import usual_mode
+    existed = Path(path).exists()
     try:
         write_atomic(path, junit_xml(entries))
+        if not existed:
+            usual_mode(Path(path))
     except OSError as err:
         reason = err.strerror or str(err)
         print(f"railroom: --junit {visible(path, 500)}: cannot be written: {reason}",

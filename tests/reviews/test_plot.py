@@ -122,3 +122,15 @@ def test_band_spans_follow_the_first_order_low_pass():
     drop = gain.high[-1] - rc.high[-1]
     assert (1 - magnitude[0]) * amplitude * 0.99 <= drop <= (1 - magnitude[1]) * amplitude * 1.01
     assert np.all(np.diff(rc.high) <= 1e-12)              # a low-pass: never rising with f
+
+
+def test_new_picture_and_report_get_the_usual_file_mode(tmp_path):
+    """Not the 0600 of the temporary file they are written through (CI jobs hand them on)."""
+    import os
+    mask = os.umask(0o022)
+    os.umask(mask)
+    picture, junit = tmp_path / "p.svg", tmp_path / "r.xml"
+    railroom("plot", str(DEMOS / "bridge_sensor.toml"), "-o", str(picture), cwd=tmp_path)
+    railroom("check", str(DEMOS / "bridge_sensor.toml"), "--junit", str(junit), cwd=tmp_path)
+    for path in (picture, junit):
+        assert path.stat().st_mode & 0o777 == 0o666 & ~mask
