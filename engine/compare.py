@@ -26,6 +26,24 @@ from railroom.engine.results import CHECKS, ChainResult, StageResult
 
 RELATIVE_CHANGE = 1e-6
 CHANGES = ("changed", "same", "added", "removed")
+_NUMBER = {"type": ["number", "null"]}
+_PAIR = {"type": "array", "minItems": 2, "maxItems": 2}
+# JSON Schema (draft-07) of the report's "against" section; engine/schema.py's report schema
+# leaves extra top-level keys open, so a report with this section validates there too.
+AGAINST_SCHEMA = {
+    "type": "object", "required": ["file", "verdict", "stages"],
+    "properties": {
+        "file": {"type": "string"}, "verdict": {"enum": ["go", "no-go"]},
+        "stages": {"type": "array", "items": {
+            "type": "object", "required": ["name", "change", "margins"],
+            "properties": {
+                "name": {"type": "string"}, "change": {"enum": list(CHANGES)},
+                "margins": {"type": "object", "propertyNames": {"enum": list(CHECKS)},
+                            "additionalProperties": {**_PAIR, "items": _NUMBER}},
+                "go": {**_PAIR, "items": {"type": ["boolean", "null"]}},
+                "regime": {**_PAIR, "items": {"enum": ["linear", "clipping", "saturated", None]}},
+                "renamed_from": {"type": "string"}}}}},
+}
 
 
 @dataclass(frozen=True)

@@ -69,6 +69,12 @@ def test_alarm_load_changes_exactly_the_alarm_stage(tmp_path, old):
         assert CHANGE_KEYS <= set(entry) and entry["change"] in ("changed", "same", "added",
                                                                   "removed")
         assert all(len(pair) == 2 for pair in entry["margins"].values())
+    import jsonschema
+
+    from railroom.engine.compare import AGAINST_SCHEMA
+    from railroom.engine.schema import report_schema
+    jsonschema.validate(section, AGAINST_SCHEMA)
+    jsonschema.validate(report, report_schema())
     changed = [e for e in section["stages"] if e["change"] != "same"]
     assert [e["name"] for e in changed] == ["over-vibration alarm"]
     assert list(changed[0]["margins"]) == ["current"]
