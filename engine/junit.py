@@ -64,14 +64,14 @@ def check_figures(stage: dict, check: str) -> tuple[float | None, float | None, 
         return None, None, None
     named = stage.get("failing_nodes", {}).get(check)
     candidates = [n for n in nodes if n["label"] == named] or nodes
-    node = min(candidates, key=lambda n: _room(check, n, margin))
+    node = min(candidates, key=lambda n: _room(check, n))
     need, limit = _node_figures(check, node)
     if limit is None and need is not None and margin is not None:
         limit = need + margin
     return need, limit, node["label"] if len(nodes) > 1 else None
 
 
-def _room(check: str, node: dict, margin: float | None) -> float:
+def _room(check: str, node: dict) -> float:
     need, limit = _node_figures(check, node)
     if check in FIGURES and need is not None and limit is not None:
         return (limit - need) * FIGURES[check][4]
@@ -114,10 +114,9 @@ def _suite(entry: SuiteInput) -> ET.Element:
                 cases += 1
                 if check in stage["reasons"]:
                     failures += 1
+                    words = failure_message(stage, check, entry.required)
                     ET.SubElement(case, "failure", type="railroom.margin",
-                                  message=visible(failure_message(stage, check, entry.required),
-                                                  500)).text = failure_message(
-                        stage, check, entry.required)
+                                  message=visible(words, 500)).text = visible(words, 2000)
     suite.set("tests", str(cases))
     suite.set("failures", str(failures))
     suite.set("errors", str(errors))

@@ -154,3 +154,8 @@ def test_against_a_git_revision(tmp_path):
     missing = run(str(board), "--against", "HEAD:nothing.toml", cwd=repo)
     assert missing.returncode == 2
     assert "HEAD:nothing.toml" in missing.stderr and "--against" in missing.stderr
+
+
+def test_against_takes_one_chain(tmp_path, old):
+    done = run(str(old), str(old), "--against", str(old))
+    assert done.returncode == 2 and "--against" in done.stderr and "single CHAIN" in done.stderr
