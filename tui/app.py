@@ -273,7 +273,8 @@ class RailroomApp(App):
         self.push_screen(HelpScreen([b for room in rooms for b in room if b.id]))
 
     def action_screenshot(self) -> None:
-        path = self.save_screenshot(path=str(Path.cwd()))
+        from railroom.tui.screen_picture import save_screen_picture
+        path = save_screen_picture(self, Path.cwd())     # no web font in the picture
         self.notify(f"picture saved: {path}", markup=False)
 
     def action_presets(self) -> None:

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import json
 import sys
+import time
 import warnings
 from pathlib import Path
 
@@ -35,27 +36,65 @@ def run_check(args) -> int:
     except CheckRefused as err:
         report_refusal(err)
         return EXIT_INPUT
+    against = getattr(args, "against", None)
+    if getattr(args, "plots", None) and (not getattr(args, "markdown", False) or args.json
+                                         or len(args.chain) > 1 or Path(args.chain[0]).is_dir()):
+        report_refusal(CheckRefused(["--plots DIR goes with --markdown, for one chain file"]))
+        return EXIT_INPUT
     if len(args.chain) > 1 or Path(args.chain[0]).is_dir():
+        if against:
+            report_refusal(CheckRefused(["--against compares one chain file with its old version; "
+                                         "give a single CHAIN"]))
+            return EXIT_INPUT
+        if getattr(args, "junit", None):
+            from railroom.tui.junit_command import run_batch_junit
+            return run_batch_junit(args, margin)
         from railroom.tui.batch_command import run_batch
         return run_batch(args, margin)
+    started = time.perf_counter()
     try:
         result = check_file(args.chain[0], args, margin)
+        old = None
+        if against:
+            from railroom.tui.against_command import old_result
+            old = old_result(against, args, margin)
         if args.json:
-            output = json.dumps(chain_report(result), indent=2, ensure_ascii=False) + "\n"
+            report = chain_report(result)
+            if old is not None:
+                from railroom.engine.compare import against_report
+                report["against"] = against_report(old, result, against)
+            output = json.dumps(report, indent=2, ensure_ascii=False) + "\n"
         elif getattr(args, "markdown", False):
             from railroom.engine.markdown import markdown_report
             output = markdown_report(result)
+            if old is not None:
+                from railroom.engine.compare import against_markdown
+                output += "\n" + against_markdown(old, result, against) + "\n"
+            if getattr(args, "plots", None):
+                from railroom.tui.plot_command import markdown_with_picture
+                output = markdown_with_picture(output, args.chain[0], args, result)
         else:
             output = None
     except CheckRefused as err:
         report_refusal(err)
+        if getattr(args, "junit", None):
+            from railroom.tui.junit_command import refused_entry, write_junit
+            write_junit(args.junit, [refused_entry(args.chain[0], err.lines)])
         return EXIT_INPUT
+    if getattr(args, "junit", None):
+        from railroom.tui.junit_command import result_entry, write_junit
+        if not write_junit(args.junit, [result_entry(args.chain[0], result,
+                                                     time.perf_counter() - started)]):
+            return EXIT_INPUT
     if output is not None:
         sys.stdout.write(output)
     else:
         colour = not args.no_color
         console = Console(no_color=not colour, highlight=False, soft_wrap=False)
         print_result(console, result, colour)
+        if old is not None:
+            from railroom.tui.against_command import print_against
+            print_against(console, old, result, against, colour)
     return EXIT_GO if result.go else EXIT_NO_GO
 
 

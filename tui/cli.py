@@ -3,6 +3,7 @@
     railroom [CHAIN]                       open the terminal interface (the built-in demo without CHAIN)
     railroom check CHAIN [--json] ...      go / no-go with an exit code: 0 GO, 1 NO-GO, 2 unreadable input
     railroom presets [list | show ID | check FILE]
+    railroom plot CHAIN [-o FILE]
     railroom blocks [NAME]
     railroom bench [--json]
 """
@@ -18,7 +19,7 @@ EXIT_GO, EXIT_NO_GO, EXIT_INPUT = 0, 1, 2
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="railroom",
-        usage="railroom [CHAIN] | railroom {check,presets,blocks,bench,schema} ...",
+        usage="railroom [CHAIN] | railroom {check,presets,plot,blocks,bench,schema} ...",
         description="Rail-headroom and regime checker for op-amp signal chains. "
                     "`railroom [CHAIN]` opens the terminal interface on the chain file "
                     "(the built-in demo without one).",
@@ -38,6 +39,13 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--presets", action="append", default=[], metavar="DIR",
                        help="extra preset folder (may repeat); searched last")
     check.add_argument("--no-color", action="store_true", help="plain characters only")
+    check.add_argument("--against", metavar="OLD",
+                       help="also check OLD (a file, or REV:PATH read with git show) and show "
+                            "what changed per stage; the exit status stays CHAIN's")
+    check.add_argument("--junit", metavar="FILE",
+                       help="also write a JUnit XML report (a test case per stage and check)")
+    check.add_argument("--plots", metavar="DIR",
+                       help="with --markdown: write the level picture into DIR and embed it")
 
     presets = sub.add_parser("presets", help="list, show or check part presets")
     presets.add_argument("action", nargs="?", default="list", choices=("list", "show", "check"))
@@ -51,6 +59,12 @@ def build_parser() -> argparse.ArgumentParser:
     blocks.add_argument("name", nargs="?", help="a block name, e.g. noninverting")
     blocks.add_argument("--json", action="store_true")
 
+    plot = sub.add_parser("plot", help="draw the level picture of a chain (SVG or PNG)")
+    plot.add_argument("chain", help="chain file")
+    plot.add_argument("-o", "--output", metavar="FILE",
+                      help="FILE.svg or FILE.png (default: CHAIN's name with .svg, here)")
+    plot.add_argument("--presets", action="append", default=[], metavar="DIR")
+
     schema = sub.add_parser("schema", help="print the JSON Schema of a file kind")
     schema.add_argument("kind", choices=("chain", "preset", "report"))
     return parser
@@ -59,7 +73,7 @@ def build_parser() -> argparse.ArgumentParser:
 def main(argv: list[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
     if not argv or argv[0] not in ("check", "presets", "bench", "-h", "--help", "schema",
-                                    "blocks"):
+                                    "blocks", "plot"):
         return open_interface(argv)
     args = build_parser().parse_args(argv)
     if args.command == "check":
@@ -74,6 +88,9 @@ def main(argv: list[str] | None = None) -> int:
     if args.command == "blocks":
         from railroom.tui.blocks_command import run_blocks
         return run_blocks(args)
+    if args.command == "plot":
+        from railroom.tui.plot_command import run_plot
+        return run_plot(args)
     if args.command == "schema":
         from railroom.tui.schema_command import run_schema
         return run_schema(args)

@@ -1,0 +1,48 @@
+"""railroom: worst-case rail headroom of op-amp signal chains, as a Python library.
+
+This folder installs as the top-level package `railroom` (pyproject.toml, package-dir): the
+repository's top level holds only the project's own folders, so the package that names them
+lives here, beside the engine it fronts. Names load on first use, so `import railroom` and
+`import railroom.engine...` stay cheap.
+
+    import railroom
+    chain = railroom.load("board.toml")
+    result = railroom.analyse(chain)
+    result.go, railroom.to_dict(result)["verdict"], railroom.rows(result)[0]["margin"]
+"""
+from __future__ import annotations
+
+from importlib import import_module
+
+__version__ = "0.1.0"
+
+# exported name -> module that defines it
+_EXPORTS = {
+    "load": "railroom.engine.api", "analyse": "railroom.engine.api",
+    "parts_for": "railroom.engine.api", "to_dict": "railroom.engine.api",
+    "rows": "railroom.engine.api", "row": "railroom.engine.api",
+    "load_text": "railroom.engine.api",
+    "ChainResult": "railroom.engine.results", "StageResult": "railroom.engine.results",
+    "StageMeasure": "railroom.engine.results", "OpAmpMeasure": "railroom.engine.results",
+    "Chain": "railroom.engine.model", "Stage": "railroom.engine.model",
+    "Part": "railroom.engine.model", "InputError": "railroom.engine.model",
+    "Problem": "railroom.engine.model", "METHODS": "railroom.engine.model",
+    "Cancelled": "railroom.engine.methods.montecarlo", "BLOCKS": "railroom.engine.blocks",
+    "chain_report": "railroom.engine.report", "markdown_report": "railroom.engine.markdown",
+}
+
+__all__ = sorted(_EXPORTS)
+
+
+def __getattr__(name: str):
+    """PEP 562: import the defining module only when a name is first used."""
+    module = _EXPORTS.get(name)
+    if module is None:
+        raise AttributeError(f"module 'railroom' has no attribute {name!r}")
+    value = getattr(import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted({*globals(), *__all__})
