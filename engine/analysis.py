@@ -17,6 +17,7 @@ from railroom.engine.plan import frequency_grid, plan_chain
 from railroom.engine.results import ChainResult
 
 HEADROOM_LIMIT_DB = 120.0
+RARE_BELOW = 10         # fewer failing Monte Carlo draws: also estimate the small probability
 
 
 def with_overrides(chain: Chain, method: str | None = None, samples: int | None = None,
@@ -68,6 +69,13 @@ def analyse(chain: Chain, parts: Mapping[str, Part], *, method: str | None = Non
         from railroom.engine.methods import run_statistical
         stages, chain_yield = run_statistical(method_name, chain, plans, freqs, stages, progress,
                                               layout=layout, lin=lin)
+    rare = None
+    if method_name == "montecarlo" and chain_yield is not None and layout is not None:
+        failures = round((1.0 - chain_yield) * chain.conditions.samples)
+        if failures < RARE_BELOW:
+            from railroom.engine.methods.rare import estimate
+            from railroom.engine.sensitivity import linearise
+            rare = estimate(layout, lin or linearise(layout), seed=chain.conditions.seed)
     headroom = headroom_db(prepared, corner_stages) if headroom else None
     if design_aids:
         from railroom.engine.fixes import design_aids as aids
@@ -78,7 +86,7 @@ def analyse(chain: Chain, parts: Mapping[str, Part], *, method: str | None = Non
         samples=chain.conditions.samples if method_name == "montecarlo" else None,
         stages=tuple(stages), go=all(s.go for s in stages),
         headroom_db=headroom, cautions=tuple(chain_cautions(chain)),
-        chain_yield=chain_yield,
+        chain_yield=chain_yield, rare=rare,
     )
 
 

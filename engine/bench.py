@@ -87,6 +87,93 @@ def reference_chain():
     return chain_from_text(reference_text(), "<bench>")
 
 
+def long_chain_text(stages: int, failing: bool = False) -> str:
+    """`stages` stages on +/-15 V: followers, inverting x1 stages and RC low-passes in turn; with
+    `failing`, stage 3 is a gain of 191 that clips (the stages after it are fed the clipped signal)."""
+    text = """format = 1
+title = "bench: a long chain"
+[conditions]
+temperature = [0, 50]
+margin = "50m"
+default_tolerance = "1%"
+[rails.main]
+positive = "15"
+negative = "-15"
+tolerance = "5%"
+[source]
+level = ["-0.1", "0.1"]
+amplitude = "100m"
+band = ["10", "1k"]
+"""
+    cycle = (("follower", {}), ("inverting", {"rin": "10k", "rf": "10k"}),
+             ("follower", {}), ("rc_lowpass", {"r": "1k", "c": "10n"}))
+    for i in range(1, stages + 1):
+        block, fields = cycle[(i - 1) % len(cycle)]
+        if failing and i == 3:
+            block, fields = "noninverting", {"rf": "190k", "rg": "1k"}
+        text += f'[[stage]]\nname = "stage {i}"\nblock = "{block}"\n'
+        text += 'part = "bipolar"\n' if block != "rc_lowpass" else ""
+        text += "".join(f'{k} = "{v}"\n' for k, v in fields.items())
+    return text
+
+
+# A follower whose output-high margin is linear in the positive rail and the offset, normal
+# tolerances: m = 1.19 + 0.75 d_r - 0.003 d_o with d = 3 sigma, so P(m < 0) = Phi(-1.19 / 0.25)
+# = 9.68e-7 (tests/engine/test_rare_events.py derives it).
+RARE_PART = Part(id="rare", description="bench: a follower near its ceiling", supply=(1.0, 100.0),
+                 supply_abs_max=100.0, output_headroom=(1.5, 1.5), output_resistance=0.0,
+                 input_headroom=(0.5, 0.5), gbw=1e9, slew=1e9, open_loop_gain=1e9, offset=3e-3,
+                 offset_drift=0.0, bias_current=0.0, output_current=1.0)
+RARE_TEXT = """format = 1
+title = "bench: a one-in-a-million failure"
+[conditions]
+method = "montecarlo"
+samples = 10000
+distribution = "normal"
+[rails.main]
+positive = "15"
+negative = "-15"
+tolerance = "5%"
+[source]
+level = ["12.31", "12.31"]
+[[stage]]
+name = "buffer"
+block = "follower"
+part = "rare"
+"""
+RARE_EXACT = 9.681474535210985e-07
+
+
+def rare_figures() -> dict:
+    """Time of a Monte Carlo check that estimates a 1e-6 failure probability, and how close."""
+    chain = chain_from_text(RARE_TEXT, "<bench>")
+    parts = {"rare": RARE_PART}
+    analyse(chain, parts)
+    start = time.perf_counter()
+    result = analyse(chain, parts)
+    seconds = time.perf_counter() - start
+    rare = result.rare
+    return {"rare_1e6_ms": round(1e3 * seconds, 1),
+            "rare_1e6_ratio": None if rare is None else round(rare.probability / RARE_EXACT, 3),
+            "rare_1e6_interval_holds": None if rare is None else bool(rare.low <= RARE_EXACT <= rare.high)}
+
+
+def long_chain_figures(repeats: int = 3) -> dict:
+    """Engine time (ms, median) of corners and rss on 48- and 200-stage chains, passing and with
+    one clipping stage, and the cost exponent in stages between 48 and 200."""
+    figures: dict = {}
+    for failing in (False, True):
+        for method in ("corners", "rss"):
+            times = {}
+            for n in (48, 200):
+                chain = chain_from_text(long_chain_text(n, failing), "<bench>")
+                times[n] = median_seconds(lambda: analyse(chain, PARTS, method=method), repeats)
+                figures[f"{method}_{n}{'_failing' if failing else ''}_ms"] = round(1e3 * times[n], 1)
+            figures[f"{method}{'_failing' if failing else ''}_exponent"] = round(
+                float(np.log(times[200] / times[48]) / np.log(200 / 48)), 2)
+    return figures
+
+
 def median_seconds(call, repeats: int) -> float:
     times = []
     for _ in range(repeats):
@@ -132,7 +219,7 @@ def per_draw_comparison(chain, rows: int, reference_draws: int, repeats: int) ->
 
 
 def run(sizes: tuple[int, int, int] = (10_000, 100_000, 1_000_000), repeats: int = 5,
-        reference_draws: int = 200, memory: bool = True) -> dict:
+        reference_draws: int = 200, memory: bool = True, long_chains: bool = True) -> dict:
     """Engine figures of SPEC section 6; the keys the engine cannot measure are left out."""
     chain = reference_chain()
 
@@ -159,6 +246,9 @@ def run(sizes: tuple[int, int, int] = (10_000, 100_000, 1_000_000), repeats: int
     ratio, same = per_draw_comparison(chain, small, reference_draws, repeats)
     figures["per_draw_ratio"] = round(ratio, 1)
     figures["same_answers"] = bool(same)
+    if long_chains:
+        figures.update(long_chain_figures(max(1, repeats // 2)))
+    figures.update(rare_figures())
     return figures
 
 

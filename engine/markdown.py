@@ -86,7 +86,8 @@ def conditions(result: ChainResult) -> str:
                        f"band {band}, impedance {format_si(source.impedance, 'Ω')}"),
             ("headroom", headroom_words(result.headroom_db))]
     if result.chain_yield is not None:
-        rows.append(("yield", f"{result.chain_yield:.2%} of draws keep every stage linear"))
+        from railroom.engine.methods.rare import yield_words
+        rows.append(("yield", yield_words(result.chain_yield, result.samples or 0, result.rare)))
     lines = ["## Conditions and method", "", "| | |", "|---|---|"]
     return "\n".join(lines + [f"| {k} | {v} |" for k, v in rows])
 

@@ -79,5 +79,16 @@ def chain_report(result: ChainResult) -> dict:
         "stages": [stage_report(s) for s in result.stages],
     }
     if result.chain_yield is not None:
+        from railroom.engine.methods.rare import wilson
         report["yield"] = _number(result.chain_yield)
+        samples = result.samples or 0
+        report["yield_interval"] = [_number(x) for x in
+                                    wilson(round(result.chain_yield * samples), samples)]
+    rare = result.rare
+    if rare is not None:
+        report["failure_probability"] = {
+            "estimate": _number(rare.probability), "low": _number(rare.low),
+            "high": _number(rare.high), "draws": rare.draws, "beta": _number(rare.beta),
+            "method": "importance sampling" if rare.beta is not None else "impossible within tolerances",
+            "stages": [_number(p) for p in rare.stages]}
     return report

@@ -113,6 +113,7 @@ class ChainResult:
     headroom_db: float | None
     cautions: tuple[str, ...]
     chain_yield: float | None = None     # montecarlo: share of draws with every stage linear
+    rare: object | None = None           # montecarlo, few failing draws: methods.rare.RareEstimate
 
     @property
     def failing(self) -> int:

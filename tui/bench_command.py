@@ -15,7 +15,10 @@ from railroom.tui.cli import EXIT_GO, print_json
 
 CHECK_RUNS = 3
 TARGETS = {"corners_ms": "<= 20", "montecarlo_1e4_ms": "<= 50", "montecarlo_1e5_ms": "<= 400",
-           "montecarlo_1e6_peak_mb": "<= 300", "per_draw_ratio": ">= 100", "same_answers": "true"}
+           "montecarlo_1e6_peak_mb": "<= 300", "per_draw_ratio": ">= 100", "same_answers": "true",
+           "corners_200_ms": "<= 1500", "corners_200_failing_ms": "<= 1500", "rss_200_ms": "<= 2000",
+           "corners_exponent": "<= 1.1", "corners_failing_exponent": "<= 1.1", "rss_exponent": "<= 1.1",
+           "rss_failing_exponent": "<= 1.1", "rare_1e6_ms": "<= 2000", "rare_1e6_interval_holds": "true"}
 
 
 def check_process_seconds(runs: int = CHECK_RUNS) -> float:

@@ -180,7 +180,9 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
         console.print(f"headroom: the source amplitude may change by {result.headroom_db:+.2f} dB "
                       "before a stage leaves its linear regime")
     if result.chain_yield is not None:
-        console.print(f"yield: {result.chain_yield:.2%} of draws keep every stage linear")
+        from railroom.engine.methods.rare import yield_words
+        console.print(yield_words(result.chain_yield, result.samples or 0, result.rare),
+                      markup=False, highlight=False)
     for stage in result.stages:
         if stage.reasons:
             console.print(Text(f"stage {stage.index} ({stage.stage.name}): "
