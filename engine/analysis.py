@@ -188,17 +188,20 @@ def load_checked(path: str, extra_preset_dirs: tuple[str, ...] = ()):
     """Read a chain file and the preset library it searches; raises InputError on any problem
     that stops the check (a broken preset file only matters when a stage needs its part)."""
     from railroom.engine.files import load_chain
-    from railroom.engine.presets import load_library, search_order
+    from railroom.engine.presets import load_library, missing_folders, search_order
+    missing = missing_folders(extra_preset_dirs)
     try:
         chain = load_chain(path)
     except InputError as err:       # name unknown parts in the same round as the other problems
         found = [*err.problems, *unknown_parts_in_text(path, extra_preset_dirs)]
-        raise InputError(sorted(found, key=lambda p: (p.line or 0))) from None
+        raise InputError([*missing, *sorted(found, key=lambda p: (p.line or 0))]) from None
     library = load_library(search_order(chain.preset_dirs, extra_preset_dirs))
     try:
         plan_chain(chain, library.parts)
     except InputError as err:
-        raise InputError([*err.problems, *library.problems]) from None
+        raise InputError([*missing, *err.problems, *library.problems]) from None
+    if missing or library.fatal:
+        raise InputError([*missing, *library.fatal])
     return chain, library
 
 
@@ -208,11 +211,11 @@ def unknown_parts_in_text(path: str, extra_preset_dirs: tuple[str, ...] = ()) ->
     from railroom.engine.blocks import BLOCKS
     from railroom.engine.plan import unknown_part
     from railroom.engine.presets import load_library, search_order
-    from railroom.engine.reading import parse_toml
+    from railroom.engine.reading import FileUnreadable, parse_toml, read_user_file
     from railroom.engine.toml_lines import key_lines
     try:
-        text = Path(path).read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError):
+        text = read_user_file(path).removeprefix("\ufeff")
+    except FileUnreadable:
         return []
     data, _ = parse_toml(text, path)
     stages = data.get("stage") if isinstance(data, dict) else None

@@ -6,7 +6,7 @@ from pathlib import Path
 from railroom.engine.blocks import BLOCKS, COMMON_FIELDS
 from railroom.engine.model import (DISTRIBUTIONS, METHODS, Chain, Conditions, InputError, Rails,
                                    Source, Stage)
-from railroom.engine.reading import FieldReader, parse_toml
+from railroom.engine.reading import FieldReader, FileUnreadable, parse_toml, read_user_file
 from railroom.engine.values import Quantity, has_control
 
 TOP_KEYS = ("format", "title", "presets", "conditions", "rails", "source", "stage")
@@ -21,18 +21,25 @@ def load_chain(path: str | Path) -> Chain:
     """Read a chain file; raises InputError with every problem found."""
     path = Path(path)
     try:
-        text = path.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as err:
-        raise InputError([_file_problem(str(path), err)]) from None
-    return chain_from_text(text, str(path))
+        text = read_user_file(path)
+    except FileUnreadable as err:
+        raise InputError([err.problem]) from None
+    return chain_from_text(text, str(path), check_folders=True)
 
 
-def chain_from_text(text: str, path: str = "<chain>") -> Chain:
+def chain_from_text(text: str, path: str = "<chain>", check_folders: bool = False) -> Chain:
+    """The chain in `text`; `check_folders`: every folder named in `presets` must exist (a
+    missing one would silently drop the parts the chain expects from it)."""
+    text = text.removeprefix("\ufeff")         # a byte-order mark some editors write
     data, problems = parse_toml(text, path)
     if data is None:
         raise InputError(problems)
     reader = FieldReader(path, text)
     chain = _read_chain(data, reader, path)
+    if chain is not None and check_folders:
+        for named, folder in zip(data.get("presets", []), chain.preset_dirs):
+            if not Path(folder).is_dir():
+                reader.problem("presets", f"no preset folder {named!r} (looked for {folder})")
     if reader.problems:
         raise InputError(reader.problems)
     return chain

@@ -18,6 +18,90 @@ else:  # pragma: no cover - exercised on Python 3.10 only
     import tomli as tomllib
 
 _MISSING = object()
+MAX_FILE_BYTES = 1 << 20        # 1 MiB: a 200-stage chain is about 20 kB (README, "Limits")
+
+
+class FileUnreadable(Exception):
+    """A user's file that cannot be read as text; `problem` says why, located where it can be.
+    `skipped`: not a regular file at all (a FIFO, a device, a folder named *.toml)."""
+
+    def __init__(self, problem: Problem, skipped: bool = False) -> None:
+        self.problem, self.skipped = problem, skipped
+        super().__init__(str(problem))
+
+
+def read_user_file(path, limit: int = MAX_FILE_BYTES) -> str:
+    """The text of a chain or preset file: a regular file only (a FIFO would block, /dev/zero
+    never ends), at most `limit` bytes, UTF-8 with or without a byte-order mark. Raises
+    FileUnreadable with a located problem (a bad byte is named by its line)."""
+    import os
+    import stat
+    name = str(path)
+    try:
+        # O_NONBLOCK: opening a FIFO with no writer returns at once instead of waiting for one.
+        handle = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0))
+    except OSError as err:
+        raise FileUnreadable(Problem(name, None, "(file)", f"cannot be read: {_reason(err)}")) from None
+    try:
+        info = os.fstat(handle)
+        if not stat.S_ISREG(info.st_mode):
+            kind = ("a folder" if stat.S_ISDIR(info.st_mode) else
+                    "a FIFO (named pipe)" if stat.S_ISFIFO(info.st_mode) else
+                    "a device" if stat.S_ISCHR(info.st_mode) or stat.S_ISBLK(info.st_mode) else
+                    "a socket" if stat.S_ISSOCK(info.st_mode) else "not a plain file")
+            raise FileUnreadable(Problem(name, None, "(file)",
+                                         f"not read: {kind}, not a regular file"), skipped=True)
+        if info.st_size > limit:
+            raise FileUnreadable(Problem(name, None, "(file)", _too_large(info.st_size, limit)))
+        chunks, size = [], 0
+        while size <= limit:
+            chunk = os.read(handle, min(1 << 16, limit + 1 - size))
+            if not chunk:
+                break
+            chunks.append(chunk)
+            size += len(chunk)
+    except OSError as err:
+        raise FileUnreadable(Problem(name, None, "(file)", f"cannot be read: {_reason(err)}")) from None
+    finally:
+        os.close(handle)
+    data = b"".join(chunks)
+    if len(data) > limit:
+        raise FileUnreadable(Problem(name, None, "(file)", _too_large(len(data), limit)))
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError as err:
+        line = data[:err.start].count(b"\n") + 1
+        raise FileUnreadable(Problem(name, line, "(file)", "not UTF-8 text: byte "
+                                     f"0x{data[err.start]:02x} cannot be decoded; save the file as "
+                                     "UTF-8")) from None
+
+
+def undecodable_text(path, limit: int = MAX_FILE_BYTES) -> str:
+    """The text of a regular file that is not UTF-8, bad bytes replaced (to find its table
+    names for a message); empty when it cannot be read at all."""
+    import os
+    import stat
+    try:
+        handle = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
+    except OSError:
+        return ""
+    try:
+        if not stat.S_ISREG(os.fstat(handle).st_mode):
+            return ""
+        return os.read(handle, limit).decode("utf-8", errors="replace")
+    except OSError:
+        return ""
+    finally:
+        os.close(handle)
+
+
+def _reason(err: OSError) -> str:
+    return err.strerror or str(err)
+
+
+def _too_large(size: int, limit: int) -> str:
+    return (f"too large to be a chain or preset file ({size:,} bytes; the limit is "
+            f"{limit:,} bytes)")
 
 
 def parse_toml(text: str, path: str) -> tuple[dict | None, list[Problem]]:

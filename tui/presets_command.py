@@ -10,9 +10,10 @@ import sys
 from pathlib import Path
 
 from railroom.engine.model import Part
-from railroom.engine.presets import (PAIR_SIDES, PART_FIELDS, UNITS, Library, load_library, read_preset_file,
+from railroom.engine.presets import (PAIR_SIDES, PART_FIELDS, UNITS, Library, load_library, missing_folders,
+                                     read_preset_file,
                                      search_order, shipped_folder, user_folder)
-from railroom.engine.values import format_si
+from railroom.engine.values import format_si, visible
 from railroom.tui.cli import EXIT_GO, EXIT_INPUT
 
 
@@ -21,10 +22,15 @@ def run_presets(args) -> int:
     action = getattr(args, "action", None) or "list"
     if action == "check":
         return check_file(args.target)
-    library = load_library(search_order((), tuple(getattr(args, "presets", []) or ())))
+    extra = tuple(getattr(args, "presets", []) or ())
+    library = load_library(search_order((), extra))
+    missing = missing_folders(extra)
     if action == "show":
-        return show_part(library, args.target)
-    return list_parts(library)
+        status = show_part(library, args.target)
+    else:
+        status = list_parts(library)
+    report_problems(missing, "preset folder(s) given with --presets not found")
+    return EXIT_INPUT if missing or library.fatal else status
 
 
 def folder_label(folder: Path) -> str:
@@ -51,6 +57,11 @@ def list_parts(library: Library) -> int:
         if part.overrides:
             line += "  overrides " + ", ".join(part.overrides)
         print(line)
+    for part_id in sorted(library.parts.hidden):
+        where = library.parts.broken[part_id]
+        print(visible(f"railroom: {where.file}:{where.line or '?'}: part.{part_id}: could not be "
+                      f"read, so it is not listed; {library.parts.hidden[part_id]} is not used in "
+                      "its place", 2000), file=sys.stderr)
     report_problems(library.problems, "problem(s) in preset files (the good presets are listed)")
     return EXIT_GO
 
@@ -64,6 +75,12 @@ def report_problems(problems, heading: str) -> None:
 
 def show_part(library: Library, part_id: str | None) -> int:
     part = library.parts.get(part_id or "")
+    broken = library.parts.broken.get(part_id or "")
+    if broken is not None:
+        print(visible(f"railroom: preset {part_id!r} is defined in {broken.file}:{broken.line or '?'}"
+                      f", which could not be read ({broken.field}: {broken.message})", 2000),
+              file=sys.stderr)
+        return EXIT_INPUT
     if part is None:
         hint = difflib.get_close_matches(part_id or "", list(library.parts), n=3)
         print(f"railroom: no preset {part_id!r}" + (f"; did you mean {', '.join(hint)}?" if hint else
