@@ -5,6 +5,7 @@ One `FieldReader` serves one file: every accessor returns a value or None and re
 """
 from __future__ import annotations
 
+import re
 import sys
 from dataclasses import dataclass, field
 
@@ -104,21 +105,96 @@ def _too_large(size: int, limit: int) -> str:
             f"{limit:,} bytes)")
 
 
+MAX_NESTING = 16     # levels of tables and arrays; a chain needs 5 (stage.N.inputs.M.r), a preset 4
+
+
 def parse_toml(text: str, path: str) -> tuple[dict | None, list[Problem]]:
-    """Parse TOML text; a syntax error becomes one located problem."""
+    """Parse TOML text; a syntax error becomes one located problem, and so does nesting deeper
+    than MAX_NESTING (the parser and everything after it would recurse without bound)."""
     try:
-        return tomllib.loads(text), []
+        data = tomllib.loads(text)
+    except RecursionError:
+        data = None
     except tomllib.TOMLDecodeError as err:
-        line = getattr(err, "lineno", None)
-        message = str(err)
-        if line is None:
-            import re
-            found = re.search(r"line (\d+)", message)
-            line = int(found.group(1)) if found else None
-        if line is None and "end of document" in message:
-            line = max(1, text.count("\n") + (0 if text.endswith("\n") else 1))
-        reason = getattr(err, "msg", message.split(" (at ")[0])
-        return None, [Problem(path, line, "(file)", f"not valid TOML: {reason}")]
+        return None, [_syntax_problem(err, text, path)]
+    if data is None or nesting_depth(data) > MAX_NESTING:
+        return None, [Problem(path, deepest_line(text), "(file)",
+                              f"nested more than {MAX_NESTING} levels deep (tables and arrays); "
+                              "a chain file needs 5, a preset file 4")]
+    return data, []
+
+
+def nesting_depth(data) -> int:
+    """How deep tables and arrays nest, counted without recursion."""
+    deepest, stack = 0, [(data, 1)]
+    while stack:
+        item, depth = stack.pop()
+        deepest = max(deepest, depth)
+        if deepest > MAX_NESTING:
+            break
+        children = item.values() if isinstance(item, dict) else item
+        stack.extend((child, depth + 1) for child in children if isinstance(child, (dict, list)))
+    return deepest
+
+
+_NESTING_MARKS = re.compile(r"""[\[\]{}#\n"']""")
+
+
+def deepest_line(text: str) -> int | None:
+    """The first line where brackets and braces (outside strings and comments) nest past
+    MAX_NESTING, or failing that the first key or table header with that many dots."""
+    depth, line, at = 0, 1, 0
+    while (found := _NESTING_MARKS.search(text, at)) is not None:
+        mark, at = found[0], found.end()
+        if mark == "\n":
+            line += 1
+        elif mark == "#":
+            at = _end_of_line(text, at)
+        elif mark in "\"'":
+            quote = mark * 3 if text.startswith(mark * 3, at - 1) else mark
+            end = _string_end(text, at - 1 + len(quote), quote)
+            line += text.count("\n", at, end)
+            at = end
+        else:
+            depth += 1 if mark in "[{" else -1
+            if depth > MAX_NESTING:
+                return line
+    for number, row in enumerate(text.split("\n"), start=1):
+        if row.split("=", 1)[0].count(".") >= MAX_NESTING:
+            return number
+    return None
+
+
+def _end_of_line(text: str, at: int) -> int:
+    end = text.find("\n", at)
+    return len(text) if end < 0 else end
+
+
+def _string_end(text: str, at: int, quote: str) -> int:
+    """Just past the closing quote of a string opened before `at` (a basic string's escapes
+    skipped); the end of the line for a single-line string left open."""
+    while at < len(text):
+        if quote[0] == '"' and text[at] == "\\":
+            at += 2
+            continue
+        if text.startswith(quote, at):
+            return at + len(quote)
+        if len(quote) == 1 and text[at] == "\n":
+            return at
+        at += 1
+    return len(text)
+
+
+def _syntax_problem(err, text: str, path: str) -> Problem:
+    line = getattr(err, "lineno", None)
+    message = str(err)
+    if line is None:
+        found = re.search(r"line (\d+)", message)
+        line = int(found.group(1)) if found else None
+    if line is None and "end of document" in message:
+        line = max(1, text.count("\n") + (0 if text.endswith("\n") else 1))
+    reason = getattr(err, "msg", message.split(" (at ")[0])
+    return Problem(path, line, "(file)", f"not valid TOML: {reason}")
 
 
 @dataclass

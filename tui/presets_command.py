@@ -117,8 +117,8 @@ def check_file(target: str | None) -> int:
         print("railroom: presets check needs a FILE", file=sys.stderr)
         return EXIT_INPUT
     path = Path(target)
-    if not path.is_file():
-        print(f"railroom: {path}: no such file", file=sys.stderr)
+    if not path.exists():
+        print(visible(f"railroom: {path}: no such file", 2000), file=sys.stderr)
         return EXIT_INPUT
     parts, problems = read_preset_file(path)
     if problems:
