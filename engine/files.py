@@ -7,7 +7,7 @@ from railroom.engine.blocks import BLOCKS, COMMON_FIELDS
 from railroom.engine.model import (DISTRIBUTIONS, METHODS, Chain, Conditions, InputError, Rails,
                                    Source, Stage)
 from railroom.engine.reading import FieldReader, FileUnreadable, parse_toml, read_user_file
-from railroom.engine.values import Quantity, has_control
+from railroom.engine.values import Quantity, has_control, visible
 
 TOP_KEYS = ("format", "title", "presets", "conditions", "rails", "source", "stage")
 CONDITION_KEYS = ("temperature", "margin", "method", "samples", "seed", "distribution",
@@ -55,7 +55,9 @@ def _read_chain(data: dict, r: FieldReader, path: str) -> Chain | None:
     r.unknown_keys(data, "", TOP_KEYS, "a chain file")
     if data.get("format", 1) != 1:
         r.problem("format", f"expected 1, got {data.get('format')!r}")
-    title = r.text_field(data, "", "title", default=Path(path).stem)
+    # Without a title the file name stands in: it is user text like any other, so what a
+    # terminal would act on is shown escaped (a name may hold ESC, OSC or a direction override).
+    title = r.text_field(data, "", "title", default=visible(Path(path).stem, 200))
     conditions = _read_conditions(_table(data, "conditions", r), r)
     rails = _read_rails(data.get("rails"), r)
     source = _read_source(_table(data, "source", r), r)

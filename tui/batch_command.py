@@ -6,7 +6,6 @@ worst of them (2 unreadable > 1 NO-GO > 0 GO). Problems of unreadable files go t
 """
 from __future__ import annotations
 
-import json
 import os
 import sys
 from concurrent.futures import ProcessPoolExecutor
@@ -15,7 +14,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from railroom.engine.values import visible
-from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO
+from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO, json_text
 
 
 @dataclass(frozen=True)
@@ -138,8 +137,7 @@ def print_outcomes(outcomes: list[Outcome], output: str) -> None:
         files = [{"file": o.path, "exit": o.status,
                   "verdict": {EXIT_GO: "go", EXIT_NO_GO: "no-go"}.get(o.status, "unreadable"),
                   "problems": list(o.problems), "report": o.report} for o in outcomes]
-        sys.stdout.write(json.dumps({"format": 1, "files": files}, indent=2, ensure_ascii=False)
-                         + "\n")
+        sys.stdout.write(json_text({"format": 1, "files": files}))
         return
     for o in outcomes:
         if output == "markdown" and o.status != EXIT_INPUT:

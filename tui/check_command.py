@@ -1,7 +1,6 @@
 """`railroom check`: the go / no-go for scripts, a readable table for people."""
 from __future__ import annotations
 
-import json
 import sys
 import warnings
 from pathlib import Path
@@ -16,7 +15,7 @@ from railroom.engine.report import chain_report
 from railroom.engine.results import ChainResult, StageResult
 from railroom.engine.values import ValueTextError, format_si, parse_value, visible
 from railroom.tui.bars import LEGEND, margin_bar
-from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO
+from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO, json_text
 
 UNITS = {"slew": "V/s", "current": "A"}
 
@@ -41,7 +40,7 @@ def run_check(args) -> int:
     try:
         result = check_file(args.chain[0], args, margin)
         if args.json:
-            output = json.dumps(chain_report(result), indent=2, ensure_ascii=False) + "\n"
+            output = json_text(chain_report(result))
         elif getattr(args, "markdown", False):
             from railroom.engine.markdown import markdown_report
             output = markdown_report(result)
@@ -102,6 +101,11 @@ def report_refusal(err: CheckRefused) -> None:
         print(f"railroom: {visible(line, 2000)}", file=sys.stderr)
 
 
+def shown(text: str) -> str:
+    """User text for the terminal, whole: what `visible` escapes shown as escapes."""
+    return visible(text, len(text))
+
+
 def margin_text(result: StageResult) -> str:
     check = result.limiting
     if check is None:
@@ -113,7 +117,7 @@ def margin_text(result: StageResult) -> str:
 def print_result(console: Console, result: ChainResult, colour: bool = True) -> None:
     verdict = "GO" if result.go else f"NO-GO ({result.failing} of {len(result.stages)} stages fail)"
     header = Text()
-    header.append(result.chain.title, style="bold")
+    header.append(shown(result.chain.title), style="bold")
     header.append(f"  method {result.method}")
     if result.samples:
         header.append(f" ({result.samples} draws)")
@@ -129,9 +133,9 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
                          min_width=8 if column == "stage" else None)
     bar_width = 24 if wide else max(12, min(24, console.width - 58))
     for stage in result.stages:
-        cells = [str(stage.index), Text(stage.stage.name)]
+        cells = [str(stage.index), Text(shown(stage.stage.name))]
         if wide:
-            cells += [stage.stage.block, Text(stage.stage.part or "-")]
+            cells += [stage.stage.block, Text(shown(stage.stage.part or "-"))]
         cells += [regime_text(stage, colour), margin_text(stage),
                   stage_bar(result, stage, colour, bar_width)]
         table.add_row(*cells)
@@ -144,11 +148,11 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
         console.print(f"yield: {result.chain_yield:.2%} of draws keep every stage linear")
     for stage in result.stages:
         if stage.reasons:
-            console.print(Text(f"stage {stage.index} ({stage.stage.name}): "
-                               f"{stage.reason_words()}"))
+            console.print(Text(shown(f"stage {stage.index} ({stage.stage.name}): "
+                                     f"{stage.reason_words()}")))
         print_aids(console, stage)
     for caution in chain_cautions_text(result):
-        console.print(Text(f"caution: {caution}", style="yellow" if colour else ""))
+        console.print(Text(shown(f"caution: {caution}"), style="yellow" if colour else ""))
 
 
 def print_aids(console: Console, stage: StageResult) -> None:
@@ -159,9 +163,9 @@ def print_aids(console: Console, stage: StageResult) -> None:
         return
     if stage.sensitivity:
         shares = ", ".join(f"{s.quantity} {s.share:.0%}" for s in stage.sensitivity[:3])
-        console.print(Text(f"  sensitivity ({stage.limiting}): {shares}"))
+        console.print(Text(shown(f"  sensitivity ({stage.limiting}): {shares}")))
     for fix in stage.fixes:
-        console.print(Text(f"  fix: {fix.text}"))
+        console.print(Text(shown(f"  fix: {fix.text}")))
 
 
 def regime_text(stage: StageResult, colour: bool) -> Text:

@@ -84,8 +84,14 @@ def open_interface(argv: list[str]) -> int:
     return run_app(args.chain, tuple(args.presets))
 
 
+def json_text(data: dict) -> str:
+    """Indented JSON for stdout; characters that would act on a terminal are \\u escapes."""
+    from railroom.engine.values import terminal_json
+    return terminal_json(json.dumps(data, indent=2, ensure_ascii=False)) + "\n"
+
+
 def print_json(data: dict) -> None:
-    sys.stdout.write(json.dumps(data, indent=2, ensure_ascii=False) + "\n")
+    sys.stdout.write(json_text(data))
 
 
 if __name__ == "__main__":

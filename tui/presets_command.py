@@ -18,6 +18,12 @@ from railroom.tui.cli import EXIT_GO, EXIT_INPUT
 
 
 
+def say(text: str = "", file=None) -> None:
+    """print(), with every file name, id and message shown as text (control characters, escape
+    sequences, direction overrides and invisible marks as visible escapes)."""
+    print(visible(text, len(text)), file=file)
+
+
 def run_presets(args) -> int:
     action = getattr(args, "action", None) or "list"
     if action == "check":
@@ -42,13 +48,13 @@ def folder_label(folder: Path) -> str:
 
 
 def list_parts(library: Library) -> int:
-    print("Search order (a later folder overrides an earlier id):")
+    say("Search order (a later folder overrides an earlier id):")
     for number, folder in enumerate(library.folders, start=1):
         state = "" if folder.is_dir() else "  (not there yet)"
-        print(f"  {number}. {folder_label(folder):8} {folder}{state}")
-    print()
+        say(f"  {number}. {folder_label(folder):8} {folder}{state}")
+    say()
     if not library.parts:
-        print("No presets found.")
+        say("No presets found.")
     width = max((len(part_id) for part_id in library.parts), default=2)
     for part_id in sorted(library.parts):
         part = library.parts[part_id]
@@ -56,10 +62,10 @@ def list_parts(library: Library) -> int:
         line = f"{part_id:{width}}  {folder_label(origin.parent):8} {origin}"
         if part.overrides:
             line += "  overrides " + ", ".join(part.overrides)
-        print(line)
+        say(line)
     for part_id in sorted(library.parts.hidden):
         where = library.parts.broken[part_id]
-        print(visible(f"railroom: {where.file}:{where.line or '?'}: part.{part_id}: could not be "
+        say(visible(f"railroom: {where.file}:{where.line or '?'}: part.{part_id}: could not be "
                       f"read, so it is not listed; {library.parts.hidden[part_id]} is not used in "
                       "its place", 2000), file=sys.stderr)
     report_problems(library.problems, "problem(s) in preset files (the good presets are listed)")
@@ -68,29 +74,29 @@ def list_parts(library: Library) -> int:
 
 def report_problems(problems, heading: str) -> None:
     if problems:
-        print(f"railroom: {len(problems)} {heading}:", file=sys.stderr)
+        say(f"railroom: {len(problems)} {heading}:", file=sys.stderr)
         for problem in problems:
-            print(f"railroom: {problem}", file=sys.stderr)
+            say(f"railroom: {problem}", file=sys.stderr)
 
 
 def show_part(library: Library, part_id: str | None) -> int:
     part = library.parts.get(part_id or "")
     broken = library.parts.broken.get(part_id or "")
     if broken is not None:
-        print(visible(f"railroom: preset {part_id!r} is defined in {broken.file}:{broken.line or '?'}"
+        say(visible(f"railroom: preset {part_id!r} is defined in {broken.file}:{broken.line or '?'}"
                       f", which could not be read ({broken.field}: {broken.message})", 2000),
               file=sys.stderr)
         return EXIT_INPUT
     if part is None:
         hint = difflib.get_close_matches(part_id or "", list(library.parts), n=3)
-        print(f"railroom: no preset {part_id!r}" + (f"; did you mean {', '.join(hint)}?" if hint else
+        say(f"railroom: no preset {part_id!r}" + (f"; did you mean {', '.join(hint)}?" if hint else
               "; `railroom presets list` shows them all"), file=sys.stderr)
         return EXIT_INPUT
-    print(f"[part.{part.id}]  from {part.origin}")
+    say(f"[part.{part.id}]  from {part.origin}")
     for earlier in part.overrides:
-        print(f"  overrides {earlier}")
+        say(f"  overrides {earlier}")
     for line in part_lines(part):
-        print(line)
+        say(line)
     return EXIT_GO
 
 
@@ -114,15 +120,15 @@ def part_lines(part: Part) -> list[str]:
 
 def check_file(target: str | None) -> int:
     if not target:
-        print("railroom: presets check needs a FILE", file=sys.stderr)
+        say("railroom: presets check needs a FILE", file=sys.stderr)
         return EXIT_INPUT
     path = Path(target)
     if not path.exists():
-        print(visible(f"railroom: {path}: no such file", 2000), file=sys.stderr)
+        say(visible(f"railroom: {path}: no such file", 2000), file=sys.stderr)
         return EXIT_INPUT
     parts, problems = read_preset_file(path)
     if problems:
         report_problems(problems, f"problem(s) in {path}")
         return EXIT_INPUT
-    print(f"{path}: {len(parts)} preset(s), no problems: " + ", ".join(p.id for p in parts))
+    say(f"{path}: {len(parts)} preset(s), no problems: " + ", ".join(p.id for p in parts))
     return EXIT_GO
