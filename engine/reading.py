@@ -105,6 +105,7 @@ def _too_large(size: int, limit: int) -> str:
             f"{limit:,} bytes)")
 
 
+MAX_UNKNOWN = 20     # unknown keys named one by one in each table; the rest are counted
 MAX_NESTING = 16     # levels of tables and arrays; a chain needs 5 (stage.N.inputs.M.r), a preset 4
 
 
@@ -293,12 +294,20 @@ class FieldReader:
         return raw
 
     def unknown_keys(self, table: dict, where: str, known: tuple[str, ...] | set[str], what: str) -> None:
-        for key in table:
-            if key not in known:
-                hint = _closest(key, known)
-                self.problem(f"{where}.{key}" if where else key,
-                             f"unknown field for {what}" + (f"; did you mean {hint!r}?" if hint else
-                             f"; expected one of {', '.join(sorted(known))}"))
+        """One problem per unknown key, the first MAX_UNKNOWN of a table; then one that counts
+        the rest (50,000 mistyped keys are not 50,000 lines)."""
+        unknown = [key for key in table if key not in known]
+        for key in unknown[:MAX_UNKNOWN]:
+            hint = _closest(key, known)
+            self.problem(f"{where}.{key}" if where else key,
+                         f"unknown field for {what}" + (f"; did you mean {hint!r}?" if hint else
+                         f"; expected one of {', '.join(sorted(known))}"))
+        if len(unknown) > MAX_UNKNOWN:
+            rest = unknown[MAX_UNKNOWN:]
+            self.problem(f"{where}.{rest[0]}" if where else rest[0],
+                         f"{len(rest):,} more unknown fields for {what} from this line on "
+                         "(not listed one by one)",
+                         label=where or "(file)")
 
 
 def _expected(kind: str) -> str:

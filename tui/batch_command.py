@@ -144,5 +144,6 @@ def print_outcomes(outcomes: list[Outcome], output: str) -> None:
             sys.stdout.write(o.markdown + "\n---\n\n")
             continue
         print(visible(f"{VERDICT_WORDS[o.status]:<6} {o.summary}", 2000))
-        for line in o.problems:
+        from railroom.tui.check_command import capped
+        for line in capped(list(o.problems)):
             print(f"railroom: {visible(line, 2000)}", file=sys.stderr)

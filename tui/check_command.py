@@ -96,8 +96,18 @@ def check_file(path: str, args, margin: float | None) -> ChainResult:
                             "this is a railroom bug, please report it with the chain file"]) from None
 
 
+MAX_PROBLEM_LINES = 200
+
+
+def capped(lines: list[str], limit: int = MAX_PROBLEM_LINES) -> list[str]:
+    """The first `limit` lines, then one that counts the rest."""
+    if len(lines) <= limit:
+        return list(lines)
+    return [*lines[:limit], f"and {len(lines) - limit:,} more problems (fix these first)"]
+
+
 def report_refusal(err: CheckRefused) -> None:
-    for line in err.lines:
+    for line in capped(err.lines):
         print(f"railroom: {visible(line, 2000)}", file=sys.stderr)
 
 

@@ -16,6 +16,8 @@ from railroom.engine.presets import (PAIR_SIDES, PART_FIELDS, UNITS, Library, lo
 from railroom.engine.values import format_si, visible
 from railroom.tui.cli import EXIT_GO, EXIT_INPUT
 
+MAX_PROBLEM_LINES = 200        # as `railroom check`: the first lines, then a count
+
 
 
 def say(text: str = "", file=None) -> None:
@@ -75,8 +77,10 @@ def list_parts(library: Library) -> int:
 def report_problems(problems, heading: str) -> None:
     if problems:
         say(f"railroom: {len(problems)} {heading}:", file=sys.stderr)
-        for problem in problems:
+        for problem in problems[:MAX_PROBLEM_LINES]:
             say(f"railroom: {problem}", file=sys.stderr)
+        if len(problems) > MAX_PROBLEM_LINES:
+            say(f"railroom: and {len(problems) - MAX_PROBLEM_LINES:,} more problems", file=sys.stderr)
 
 
 def show_part(library: Library, part_id: str | None) -> int:
