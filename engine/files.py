@@ -6,7 +6,7 @@ from pathlib import Path
 from railroom.engine.blocks import BLOCKS, COMMON_FIELDS
 from railroom.engine.model import (DISTRIBUTIONS, METHODS, Chain, Conditions, InputError, Rails,
                                    Source, Stage)
-from railroom.engine.reading import FieldReader, FileUnreadable, parse_toml, read_user_file
+from railroom.engine.reading import MAX_TEXT, FieldReader, FileUnreadable, parse_toml, read_user_file
 from railroom.engine.values import Quantity, has_control, visible
 
 TOP_KEYS = ("format", "title", "presets", "conditions", "rails", "source", "stage")
@@ -14,6 +14,10 @@ CONDITION_KEYS = ("temperature", "margin", "method", "samples", "seed", "distrib
                   "default_tolerance")
 SOURCE_KEYS = ("kind", "level", "difference", "amplitude", "band", "impedance")
 DEFAULT_TOLERANCE_KINDS = ("resistance", "capacitance")
+# Sensible limits (README, "Limits"): a real chain has a handful of stages; the work grows with
+# stages x frequency points x corners, so a bound keeps one file from taking minutes and GiB.
+MAX_STAGES = 100
+MAX_INPUTS = 64             # fixed inputs of one summing stage
 ABSOLUTE_ZERO, HOTTEST = -273.15, 1000.0   # C; absolute zero: SI Brochure (2019) 2.3.1
 
 
@@ -130,8 +134,9 @@ def _read_rails(raw, r: FieldReader) -> dict[str, Rails]:
     rails = {}
     for name, t in raw.items():
         w = f"rails.{name}"
-        if has_control(name):
-            r.problem(w, "expected a rails name without control characters")
+        if has_control(name) or len(name) > MAX_TEXT:
+            r.problem(w, f"expected a rails name of at most {MAX_TEXT} characters, without "
+                         "control characters")
             continue
         if not isinstance(t, dict):
             r.problem(w, "expected a table with positive, negative and tolerance")
@@ -178,6 +183,10 @@ def _read_source(t: dict, r: FieldReader) -> Source | None:
 def _read_stages(raw, r: FieldReader, rails: dict, conditions: Conditions | None) -> list[Stage]:
     if not isinstance(raw, list) or not raw:
         r.problem("stage", "missing; expected one or more [[stage]] tables")
+        return []
+    if len(raw) > MAX_STAGES:
+        r.problem(f"stage.{MAX_STAGES + 1}", f"{len(raw):,} stages; railroom checks at most "
+                  f"{MAX_STAGES} in one chain: split the chain into files", label="stage")
         return []
     default_tolerance = conditions.default_tolerance if conditions else 0.0
     stages = [s for i, t in enumerate(raw, start=1)
@@ -246,6 +255,9 @@ def _component(r: FieldReader, t: dict, w: str, key: str, kind: str, default, de
 def _read_inputs(raw, w: str, r: FieldReader, default_tol: float) -> list[dict[str, Quantity]]:
     if not isinstance(raw, list) or not all(isinstance(item, dict) for item in raw):
         r.problem(w, "expected a list of tables such as [{r = \"10k\", v = \"2.5\"}]")
+        return []
+    if len(raw) > MAX_INPUTS:
+        r.problem(w, f"{len(raw):,} fixed inputs; a summing stage takes at most {MAX_INPUTS}")
         return []
     inputs = []
     for i, item in enumerate(raw, start=1):

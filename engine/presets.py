@@ -11,7 +11,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from railroom.engine.model import Part, Problem
-from railroom.engine.reading import (FieldReader, FileUnreadable, parse_toml, read_user_file,
+from railroom.engine.reading import (MAX_TEXT, FieldReader, FileUnreadable, parse_toml, read_user_file,
                                      undecodable_text)
 from railroom.engine.toml_lines import key_lines
 from railroom.engine.values import has_control, visible
@@ -200,6 +200,9 @@ def _read_part(part_id: str, t, r: FieldReader) -> Part | None:
     w = f"part.{part_id}"
     if has_control(part_id):
         r.problem(w, "expected a part id without control characters")
+        return None
+    if len(part_id) > MAX_TEXT:
+        r.problem(w, f"expected a part id of at most {MAX_TEXT} characters, got {len(part_id):,}")
         return None
     if not isinstance(t, dict):
         r.problem(w, "expected a table of part fields")

@@ -105,6 +105,7 @@ def _too_large(size: int, limit: int) -> str:
             f"{limit:,} bytes)")
 
 
+MAX_TEXT = 200       # characters in a title, name or description (README, "Limits")
 MAX_UNKNOWN = 20     # unknown keys named one by one in each table; the rest are counted
 MAX_NESTING = 16     # levels of tables and arrays; a chain needs 5 (stage.N.inputs.M.r), a preset 4
 
@@ -267,7 +268,7 @@ class FieldReader:
         return (values[0], values[1])
 
     def text_field(self, table: dict, where: str, key: str, default=_MISSING,
-                   choices: tuple[str, ...] | None = None) -> str | None:
+                   choices: tuple[str, ...] | None = None, longest: int = MAX_TEXT) -> str | None:
         raw = table.get(key, _MISSING)
         name = f"{where}.{key}" if where else key
         if raw is _MISSING:
@@ -283,6 +284,9 @@ class FieldReader:
             return None
         if has_control(raw):
             self.problem(name, f"expected text without control characters, got {raw!r}")
+            return None
+        if len(raw) > longest:
+            self.problem(name, f"expected at most {longest} characters, got {len(raw):,}")
             return None
         return raw
 

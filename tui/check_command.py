@@ -65,6 +65,9 @@ def command_line_numbers(args) -> float | None:
                                      ("--seed", args.seed, 0, 2**32 - 1)):
         if value is not None and not low <= value <= high:
             problems.append(f"{option}: expected a whole number from {low} to {high}, got {value}")
+    limit = getattr(args, "time_limit", None)
+    if limit is not None and not limit >= 0:
+        problems.append(f"--time-limit: expected 0 s (no limit) or more, got {limit:g}")
     margin = None
     if args.margin is not None:
         try:

@@ -37,6 +37,8 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--presets", action="append", default=[], metavar="DIR",
                        help="extra preset folder (may repeat); searched last")
     check.add_argument("--no-color", action="store_true", help="plain characters only")
+    check.add_argument("--time-limit", type=float, metavar="SECONDS",
+                       help="many files: stop checking one after this long (default 300; 0: none)")
 
     presets = sub.add_parser("presets", help="list, show or check part presets")
     presets.add_argument("action", nargs="?", default="list", choices=("list", "show", "check"))
@@ -97,6 +99,8 @@ def main(argv: list[str] | None = None) -> int:
     sys.stdout, sys.stderr = QuietPipe(sys.stdout), QuietPipe(sys.stderr)
     try:
         return run_command(argv)
+    except KeyboardInterrupt:           # Ctrl-C: stop quietly, with the shell's status for it
+        return 128 + 2
     finally:
         for stream in (sys.stdout, sys.stderr):
             stream.flush()
