@@ -184,14 +184,18 @@ def headroom_db(prepared: corners.Prepared, at_full_scale=None) -> float | None:
     return round(float(20 * np.log10(low)), 2)
 
 
-def load_checked(path: str, extra_preset_dirs: tuple[str, ...] = ()):
+def load_checked(path: str, extra_preset_dirs: tuple[str, ...] = (), strict: bool = False):
     """Read a chain file and the preset library it searches; raises InputError on any problem
-    that stops the check (a broken preset file only matters when a stage needs its part)."""
+    that stops the check (a broken preset file only matters when a stage needs its part, but a
+    part whose latest definition is broken is never served from an earlier folder).
+    `strict` (the check command): a preset folder that is missing (given with --presets or named
+    in the chain) or cannot be read stops the check too, since the parts it should hold would
+    silently be missing; the interface opens the chain and shows these as a notice instead."""
     from railroom.engine.files import load_chain
     from railroom.engine.presets import load_library, missing_folders, search_order
-    missing = missing_folders(extra_preset_dirs)
+    missing = missing_folders(extra_preset_dirs) if strict else []
     try:
-        chain = load_chain(path)
+        chain = load_chain(path, check_folders=strict)
     except InputError as err:       # name unknown parts in the same round as the other problems
         found = [*err.problems, *unknown_parts_in_text(path, extra_preset_dirs)]
         raise InputError([*missing, *sorted(found, key=lambda p: (p.line or 0))]) from None
@@ -200,7 +204,7 @@ def load_checked(path: str, extra_preset_dirs: tuple[str, ...] = ()):
         plan_chain(chain, library.parts)
     except InputError as err:
         raise InputError([*missing, *err.problems, *library.problems]) from None
-    if missing or library.fatal:
+    if strict and (missing or library.fatal):
         raise InputError([*missing, *library.fatal])
     return chain, library
 

@@ -21,14 +21,15 @@ MAX_INPUTS = 64             # fixed inputs of one summing stage
 ABSOLUTE_ZERO, HOTTEST = -273.15, 1000.0   # C; absolute zero: SI Brochure (2019) 2.3.1
 
 
-def load_chain(path: str | Path) -> Chain:
-    """Read a chain file; raises InputError with every problem found."""
+def load_chain(path: str | Path, check_folders: bool = False) -> Chain:
+    """Read a chain file; raises InputError with every problem found. `check_folders`: every
+    folder named in `presets` must be there."""
     path = Path(path)
     try:
         text = read_user_file(path)
     except FileUnreadable as err:
         raise InputError([err.problem]) from None
-    return chain_from_text(text, str(path), check_folders=True)
+    return chain_from_text(text, str(path), check_folders=check_folders)
 
 
 def chain_from_text(text: str, path: str = "<chain>", check_folders: bool = False) -> Chain:

@@ -87,7 +87,7 @@ def check_file(path: str, args, margin: float | None) -> ChainResult:
         with warnings.catch_warnings():
             # Overflow inside the arithmetic is judged by the checks; a warning line helps no one.
             warnings.simplefilter("ignore", RuntimeWarning)
-            chain, library = load_checked(path, tuple(args.presets))
+            chain, library = load_checked(path, tuple(args.presets), strict=True)
             return analyse(chain, library.parts, method=args.method, samples=args.samples,
                            seed=args.seed, margin=margin)
     except InputError as err:

@@ -136,7 +136,7 @@ def test_an_unreadable_folder_stops_the_check_in_process(chain, home, tmp_path, 
 
     monkeypatch.setattr(presets, "preset_files", listing)
     with pytest.raises(InputError) as err:
-        load_checked(str(chain), (str(locked),))
+        load_checked(str(chain), (str(locked),), strict=True)
     assert [str(p) for p in err.value.problems] == [
         f"{locked}: (folder): cannot be read: Permission denied"]
 
