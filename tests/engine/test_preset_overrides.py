@@ -161,3 +161,18 @@ def test_a_chain_file_with_a_byte_order_mark_is_read(chain, home):
     chain.write_bytes(b"\xef\xbb\xbf" + CHAIN.encode("utf-8"))
     done = railroom("check", str(chain), home=home)
     assert done.returncode == 0, done.stderr
+
+
+def test_presets_list_and_show_say_the_override_is_broken(home):
+    lab = home / "lab.toml"
+    lab.write_text(OVERRIDE, encoding="utf-8")
+    listed = railroom("presets", "list", home=home)
+    assert listed.returncode == 0
+    assert not any(line.startswith("generic-bipolar-15v ") for line in listed.stdout.splitlines())
+    assert (f"railroom: {lab}:7: part.generic-bipolar-15v: could not be read, so it is not "
+            f"listed; {shipped_folder() / 'generic.toml'} is not used in its place"
+            ) in listed.stderr.splitlines()
+    shown = railroom("presets", "show", "generic-bipolar-15v", home=home)
+    assert shown.returncode == 2 and shown.stdout == ""
+    assert shown.stderr.startswith(f"railroom: preset 'generic-bipolar-15v' is defined in {lab}:7, "
+                                   "which could not be read")
