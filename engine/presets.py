@@ -59,7 +59,8 @@ def search_order(chain_dirs: tuple[str, ...] = (), extra_dirs: tuple[str, ...] =
 
 def missing_folders(extra_dirs: tuple[str, ...]) -> list[Problem]:
     """A --presets folder that is not there: its parts would silently be missing."""
-    return [Problem("--presets", None, visible(folder, 400), "no such folder")
+    return [Problem("--presets", None, visible(folder, 400),
+                    "not a folder" if Path(folder).exists() else "no such folder")
             for folder in extra_dirs if not Path(folder).is_dir()]
 
 

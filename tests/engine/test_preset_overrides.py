@@ -95,6 +95,9 @@ def test_a_missing_presets_folder_is_an_error(chain, home, tmp_path):
     assert done.returncode == 2, done.stdout
     assert "no-such" in done.stderr and "no such folder" in done.stderr
     assert "Traceback" not in done.stderr
+    done = railroom("check", str(chain), "--presets", str(chain), home=home)
+    assert done.returncode == 2
+    assert done.stderr.startswith(f"railroom: --presets: {chain}: not a folder")
 
 
 def test_a_missing_folder_named_in_the_chain_is_located(chain, home):
