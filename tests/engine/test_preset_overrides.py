@@ -179,3 +179,15 @@ def test_presets_list_and_show_say_the_override_is_broken(home):
     assert shown.returncode == 2 and shown.stdout == ""
     assert shown.stderr.startswith(f"railroom: preset 'generic-bipolar-15v' is defined in {lab}:7, "
                                    "which could not be read")
+
+
+def test_a_part_only_in_a_broken_file_is_said_to_be_there_not_unknown(chain, home):
+    lab = home / "lab.toml"
+    lab.write_text(OVERRIDE.replace("generic-bipolar-15v", "lab-bipolar"), encoding="utf-8")
+    chain.write_text(CHAIN.replace("generic-bipolar-15v", "lab-bipolar"), encoding="utf-8")
+    done = railroom("check", str(chain), home=home)
+    assert done.returncode == 2
+    lines = done.stderr.splitlines()
+    assert lines[0].startswith(f"railroom: {chain}:10: stage.1.part: part 'lab-bipolar' is "
+                               f"defined in {lab}:7, which could not be read")
+    assert not any("unknown part" in line for line in lines), done.stderr
