@@ -61,10 +61,14 @@ def time_limit(seconds: int = TIME_LIMIT_S):
 
 
 def run_check(*args: str) -> tuple[int, str, str]:
+    return run_command("check", *args, "--no-color")
+
+
+def run_command(*args: str) -> tuple[int, str, str]:
     out, err = io.StringIO(), io.StringIO()
     try:
         with time_limit(), redirect_stdout(out), redirect_stderr(err):
-            status = cli.main(["check", *args, "--no-color"])
+            status = cli.main(list(args))
     except TimeoutError:
         FIGURES["hangs"] += 1
         raise
@@ -103,6 +107,11 @@ def check_preset_text(folder: Path, text: str) -> None:
     preset.write_text(text, encoding="utf-8")
     before = preset.read_bytes()
     assert_well_behaved(*run_check(str(DEMO_CHAIN), "--presets", str(folder)))
+    for command in (("presets", "list", "--presets", str(folder)), ("presets", "check", str(preset))):
+        status, out, err = run_command(*command)
+        assert status in (0, 2), err
+        assert "Traceback" not in err + out and not has_control(out) and not has_control(err)
+        assert all(line.startswith("railroom: ") for line in err.splitlines()), err
     FIGURES["preset files"] += 1
     if preset.read_bytes() != before:
         FIGURES["changed files"] += 1
