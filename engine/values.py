@@ -112,9 +112,14 @@ _CONTROL = re.compile("[\x00-\x1f\x7f-\x9f\u00ad\u061c\u180e\u200b-\u200f\u2028-
 
 def visible(text: str, limit: int = 80) -> str:
     """User text made safe to echo in a message: control characters as \\xNN escapes, cut short."""
-    text = _CONTROL.sub(lambda m: f"\\x{ord(m[0]):02x}" if ord(m[0]) < 0x100
-                        else f"\\u{ord(m[0]):04x}", text)
+    text = escaped(text)
     return text if len(text) <= limit else text[:limit - 3] + "..."
+
+
+def escaped(text: str) -> str:
+    """The whole text, with what `visible` escapes shown as \\xNN or \\uNNNN."""
+    return _CONTROL.sub(lambda m: f"\\x{ord(m[0]):02x}" if ord(m[0]) < 0x100
+                        else f"\\u{ord(m[0]):04x}", text)
 
 
 def has_control(text: str) -> bool:

@@ -13,7 +13,7 @@ from railroom.engine.analysis import analyse, load_checked
 from railroom.engine.model import InputError
 from railroom.engine.report import chain_report
 from railroom.engine.results import ChainResult, StageResult
-from railroom.engine.values import ValueTextError, format_si, parse_value, visible
+from railroom.engine.values import ValueTextError, escaped, format_si, parse_value, visible
 from railroom.tui.bars import LEGEND, margin_bar
 from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO, json_text
 
@@ -116,7 +116,7 @@ def report_refusal(err: CheckRefused) -> None:
 
 def shown(text: str) -> str:
     """User text for the terminal, whole: what `visible` escapes shown as escapes."""
-    return visible(text, len(text))
+    return escaped(text)
 
 
 def margin_text(result: StageResult) -> str:

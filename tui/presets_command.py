@@ -13,7 +13,7 @@ from railroom.engine.model import Part
 from railroom.engine.presets import (PAIR_SIDES, PART_FIELDS, UNITS, Library, load_library, missing_folders,
                                      read_preset_file,
                                      search_order, shipped_folder, user_folder)
-from railroom.engine.values import format_si, visible
+from railroom.engine.values import escaped, format_si, visible
 from railroom.tui.cli import EXIT_GO, EXIT_INPUT
 
 MAX_PROBLEM_LINES = 200        # as `railroom check`: the first lines, then a count
@@ -23,7 +23,7 @@ MAX_PROBLEM_LINES = 200        # as `railroom check`: the first lines, then a co
 def say(text: str = "", file=None) -> None:
     """print(), with every file name, id and message shown as text (control characters, escape
     sequences, direction overrides and invisible marks as visible escapes)."""
-    print(visible(text, len(text)), file=file)
+    print(escaped(text), file=file)
 
 
 def run_presets(args) -> int:

@@ -124,3 +124,9 @@ def test_markdown_makes_no_link_of_a_bare_address_and_escapes_entities(tmp_path,
     fence = re.search(r"^(`{3,})text$", done.stdout, re.MULTILINE)[1]
     outside_code = done.stdout.split(fence)[0] + done.stdout.split(fence)[-1]
     assert re.search(r"(?<!\\)&", outside_code) is None
+
+
+def test_a_problem_reads_as_text_whatever_its_file_name():
+    from railroom.engine.model import Problem
+    problem = Problem(f"/boards/{HOSTILE_NAME}.toml", 3, "stage.1.rf", "expected a resistance")
+    assert str(problem) == f"/boards/{SHOWN}.toml:3: stage.1.rf: expected a resistance"
