@@ -192,21 +192,28 @@ def headroom_db(prepared: corners.Prepared, at_full_scale=None) -> float | None:
     return round(float(20 * np.log10(low)), 2)
 
 
-def load_checked(path: str, extra_preset_dirs: tuple[str, ...] = ()):
+def load_checked(path: str, extra_preset_dirs: tuple[str, ...] = (), strict: bool = False):
     """Read a chain file and the preset library it searches; raises InputError on any problem
-    that stops the check (a broken preset file only matters when a stage needs its part)."""
+    that stops the check (a broken preset file only matters when a stage needs its part, but a
+    part whose latest definition is broken is never served from an earlier folder).
+    `strict` (the check command): a preset folder that is missing (given with --presets or named
+    in the chain) or cannot be read stops the check too, since the parts it should hold would
+    silently be missing; the interface opens the chain and shows these as a notice instead."""
     from railroom.engine.files import load_chain
-    from railroom.engine.presets import load_library, search_order
+    from railroom.engine.presets import load_library, missing_folders, search_order
+    missing = missing_folders(extra_preset_dirs) if strict else []
     try:
-        chain = load_chain(path)
+        chain = load_chain(path, check_folders=strict)
     except InputError as err:       # name unknown parts in the same round as the other problems
         found = [*err.problems, *unknown_parts_in_text(path, extra_preset_dirs)]
-        raise InputError(sorted(found, key=lambda p: (p.line or 0))) from None
+        raise InputError([*missing, *sorted(found, key=lambda p: (p.line or 0))]) from None
     library = load_library(search_order(chain.preset_dirs, extra_preset_dirs))
     try:
         plan_chain(chain, library.parts)
     except InputError as err:
-        raise InputError([*err.problems, *library.problems]) from None
+        raise InputError([*missing, *err.problems, *library.problems]) from None
+    if strict and (missing or library.fatal):
+        raise InputError([*missing, *library.fatal])
     return chain, library
 
 
@@ -216,11 +223,11 @@ def unknown_parts_in_text(path: str, extra_preset_dirs: tuple[str, ...] = ()) ->
     from railroom.engine.blocks import BLOCKS
     from railroom.engine.plan import unknown_part
     from railroom.engine.presets import load_library, search_order
-    from railroom.engine.reading import parse_toml
+    from railroom.engine.reading import FileUnreadable, parse_toml, read_user_file
     from railroom.engine.toml_lines import key_lines
     try:
-        text = Path(path).read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError):
+        text = read_user_file(path).removeprefix("\ufeff")
+    except FileUnreadable:
         return []
     data, _ = parse_toml(text, path)
     stages = data.get("stage") if isinstance(data, dict) else None

@@ -25,7 +25,11 @@ def write_atomic(path: str | Path, text: str, backup: bool = False) -> None:
     folder = path.parent
     if backup and path.exists():
         write_atomic(path.with_name(path.name + ".bak"), path.read_text(encoding="utf-8"))
-    handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
+    try:
+        handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
+    except OSError as err:      # name the file being saved, not the hidden temporary one
+        raise type(err)(err.errno, f"{err.strerror} (no new file can be made in {folder}, "
+                        "which the save needs)", str(path)) from None
     try:
         with os.fdopen(handle, "w", encoding="utf-8", newline="") as stream:
             stream.write(text)

@@ -6,33 +6,45 @@ from pathlib import Path
 from railroom.engine.blocks import BLOCKS, COMMON_FIELDS
 from railroom.engine.model import (DISTRIBUTIONS, METHODS, Chain, Conditions, InputError, Rails,
                                    Source, Stage)
-from railroom.engine.reading import FieldReader, parse_toml
-from railroom.engine.values import Quantity, has_control
+from railroom.engine.reading import MAX_TEXT, FieldReader, FileUnreadable, parse_toml, read_user_file
+from railroom.engine.values import Quantity, has_control, visible
 
 TOP_KEYS = ("format", "title", "presets", "conditions", "rails", "source", "stage")
 CONDITION_KEYS = ("temperature", "margin", "method", "samples", "seed", "distribution",
                   "default_tolerance")
 SOURCE_KEYS = ("kind", "level", "difference", "amplitude", "band", "impedance")
 DEFAULT_TOLERANCE_KINDS = ("resistance", "capacitance")
+# Sensible limits (README, "Limits"): a real chain has a handful of stages; the work grows with
+# stages x frequency points x corners, so a bound keeps one file from taking minutes and GiB.
+MAX_STAGES = 100
+MAX_INPUTS = 64             # fixed inputs of one summing stage
 ABSOLUTE_ZERO, HOTTEST = -273.15, 1000.0   # C; absolute zero: SI Brochure (2019) 2.3.1
 
 
-def load_chain(path: str | Path) -> Chain:
-    """Read a chain file; raises InputError with every problem found."""
+def load_chain(path: str | Path, check_folders: bool = False) -> Chain:
+    """Read a chain file; raises InputError with every problem found. `check_folders`: every
+    folder named in `presets` must be there."""
     path = Path(path)
     try:
-        text = path.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as err:
-        raise InputError([_file_problem(str(path), err)]) from None
-    return chain_from_text(text, str(path))
+        text = read_user_file(path)
+    except FileUnreadable as err:
+        raise InputError([err.problem]) from None
+    return chain_from_text(text, str(path), check_folders=check_folders)
 
 
-def chain_from_text(text: str, path: str = "<chain>") -> Chain:
+def chain_from_text(text: str, path: str = "<chain>", check_folders: bool = False) -> Chain:
+    """The chain in `text`; `check_folders`: every folder named in `presets` must exist (a
+    missing one would silently drop the parts the chain expects from it)."""
+    text = text.removeprefix("\ufeff")         # a byte-order mark some editors write
     data, problems = parse_toml(text, path)
     if data is None:
         raise InputError(problems)
     reader = FieldReader(path, text)
     chain = _read_chain(data, reader, path)
+    if chain is not None and check_folders:
+        for named, folder in zip(data.get("presets", []), chain.preset_dirs):
+            if not Path(folder).is_dir():
+                reader.problem("presets", f"no preset folder {named!r} (looked for {folder})")
     if reader.problems:
         raise InputError(reader.problems)
     return chain
@@ -48,7 +60,9 @@ def _read_chain(data: dict, r: FieldReader, path: str) -> Chain | None:
     r.unknown_keys(data, "", TOP_KEYS, "a chain file")
     if data.get("format", 1) != 1:
         r.problem("format", f"expected 1, got {data.get('format')!r}")
-    title = r.text_field(data, "", "title", default=Path(path).stem)
+    # Without a title the file name stands in: it is user text like any other, so what a
+    # terminal would act on is shown escaped (a name may hold ESC, OSC or a direction override).
+    title = r.text_field(data, "", "title", default=visible(Path(path).stem, 200))
     conditions = _read_conditions(_table(data, "conditions", r), r)
     rails = _read_rails(data.get("rails"), r)
     source = _read_source(_table(data, "source", r), r)
@@ -121,8 +135,9 @@ def _read_rails(raw, r: FieldReader) -> dict[str, Rails]:
     rails = {}
     for name, t in raw.items():
         w = f"rails.{name}"
-        if has_control(name):
-            r.problem(w, "expected a rails name without control characters")
+        if has_control(name) or len(name) > MAX_TEXT:
+            r.problem(w, f"expected a rails name of at most {MAX_TEXT} characters, without "
+                         "control characters")
             continue
         if not isinstance(t, dict):
             r.problem(w, "expected a table with positive, negative and tolerance")
@@ -169,6 +184,10 @@ def _read_source(t: dict, r: FieldReader) -> Source | None:
 def _read_stages(raw, r: FieldReader, rails: dict, conditions: Conditions | None) -> list[Stage]:
     if not isinstance(raw, list) or not raw:
         r.problem("stage", "missing; expected one or more [[stage]] tables")
+        return []
+    if len(raw) > MAX_STAGES:
+        r.problem(f"stage.{MAX_STAGES + 1}", f"{len(raw):,} stages; railroom checks at most "
+                  f"{MAX_STAGES} in one chain: split the chain into files", label="stage")
         return []
     default_tolerance = conditions.default_tolerance if conditions else 0.0
     stages = [s for i, t in enumerate(raw, start=1)
@@ -237,6 +256,9 @@ def _component(r: FieldReader, t: dict, w: str, key: str, kind: str, default, de
 def _read_inputs(raw, w: str, r: FieldReader, default_tol: float) -> list[dict[str, Quantity]]:
     if not isinstance(raw, list) or not all(isinstance(item, dict) for item in raw):
         r.problem(w, "expected a list of tables such as [{r = \"10k\", v = \"2.5\"}]")
+        return []
+    if len(raw) > MAX_INPUTS:
+        r.problem(w, f"{len(raw):,} fixed inputs; a summing stage takes at most {MAX_INPUTS}")
         return []
     inputs = []
     for i, item in enumerate(raw, start=1):

@@ -31,13 +31,27 @@ METHOD_WORDS = {
     "rss": "statistical: root sum of squares of the independent contributions",
     "montecarlo": "statistical: Monte Carlo draws of every toleranced value",
 }
-# Enough to keep user text literal: emphasis, code, links, HTML, table cells, strikethrough.
-_MARKDOWN_SPECIAL = re.compile(r"([\\`*_\[\]<|~])")
+# Enough to keep user text literal: emphasis, code, links, HTML and its entities (`&#x202E;`
+# would become a direction override), table cells, strikethrough.
+_MARKDOWN_SPECIAL = re.compile(r"([\\`*_\[\]<|~&])")
+# What GitHub-flavoured Markdown turns into a link without brackets (GFM spec 0.29, section 6.9,
+# "Autolinks (extension)": www., http://, https:// and e-mail addresses; GitHub also takes ftp://,
+# mailto: and xmpp:); such a run is shown as a code span, where nothing is a link.
+_BARE_LINK = re.compile(r"(?i)(?:\b(?:https?|ftp|file)://|\bwww\.|\b(?:mailto|xmpp):)[^\s|`]*"
+                        r"|[^\s|`@]+@[^\s|`@]+\.[^\s|`@]+")
 
 
 def md(text: str) -> str:
-    """User text as literal Markdown inline text: specials escaped, on one line."""
-    return _MARKDOWN_SPECIAL.sub(r"\\\1", visible(text.replace("\n", " "), 200))
+    """User text as literal Markdown inline text: specials escaped, on one line, a bare address
+    as a code span (no link)."""
+    text = visible(text.replace("\n", " "), 200)
+    pieces, at = [], 0
+    for found in _BARE_LINK.finditer(text):
+        pieces.append(_MARKDOWN_SPECIAL.sub(r"\\\1", text[at:found.start()]))
+        pieces.append(f"`{found[0]}`")
+        at = found.end()
+    pieces.append(_MARKDOWN_SPECIAL.sub(r"\\\1", text[at:]))
+    return "".join(pieces)
 
 
 def volts(value: float | None) -> str:

@@ -8,7 +8,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Mapping
 
-from railroom.engine.values import Quantity
+from railroom.engine.values import Quantity, escaped
 
 METHODS = ("corners", "rss", "montecarlo")
 DISTRIBUTIONS = ("uniform", "normal")
@@ -24,8 +24,9 @@ class Problem:
     message: str
 
     def __str__(self) -> str:
+        # The file name is user text too: what a terminal would act on is shown as escapes.
         where = f"{self.file}:{self.line}" if self.line else self.file
-        return f"{where}: {self.field}: {self.message}"
+        return escaped(f"{where}: {self.field}: {self.message}")
 
 
 class InputError(Exception):

@@ -9,7 +9,7 @@ import numpy as np
 from railroom.engine.blocks import BLOCKS
 from railroom.engine.blocks.base import Block
 from railroom.engine.model import Chain, InputError, Part, Problem, Rails, Stage
-from railroom.engine.values import Quantity
+from railroom.engine.values import Quantity, visible
 
 POINTS_PER_DECADE = 16
 
@@ -62,6 +62,13 @@ def plan_chain(chain: Chain, parts: Mapping[str, Part]) -> list[StagePlan]:
 
 def unknown_part(path: str, line: int | None, index: int, name: str,
                  parts: Mapping[str, Part]) -> Problem:
+    broken = getattr(parts, "broken", {}).get(name)
+    if broken is not None:          # presets.PartTable: its latest definition failed to read
+        where = f"{broken.file}:{broken.line}" if broken.line else broken.file
+        return Problem(path, line, f"stage.{index}.part",
+                       f"part {name!r} is defined in {where}, which could not be read "
+                       f"({broken.field}: {visible(broken.message, 120)}); no other "
+                       "definition is used in its place")
     near = _near(name, parts)
     return Problem(path, line, f"stage.{index}.part", f"unknown part {name!r}" +
                    (f"; did you mean {near!r}?" if near else "; see `railroom presets list`"))

@@ -11,8 +11,10 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from railroom.engine.model import Part, Problem
-from railroom.engine.reading import FieldReader, parse_toml
-from railroom.engine.values import has_control
+from railroom.engine.reading import (MAX_TEXT, FieldReader, FileUnreadable, parse_toml, read_user_file,
+                                     undecodable_text)
+from railroom.engine.toml_lines import key_lines
+from railroom.engine.values import has_control, visible
 
 PART_FIELDS = {
     # key: (kind, is a pair, required)
@@ -55,19 +57,55 @@ def search_order(chain_dirs: tuple[str, ...] = (), extra_dirs: tuple[str, ...] =
     return [shipped_folder(), user_folder(), *map(Path, chain_dirs), *map(Path, extra_dirs)]
 
 
+def missing_folders(extra_dirs: tuple[str, ...]) -> list[Problem]:
+    """A --presets folder that is not there: its parts would silently be missing."""
+    return [Problem("--presets", None, visible(folder, 400),
+                    "not a folder" if Path(folder).exists() else "no such folder")
+            for folder in extra_dirs if not Path(folder).is_dir()]
+
+
+class PartTable(dict):
+    """id -> Part, the later folder winning; `broken` holds the ids whose latest definition could
+    not be read, each with the problem that says where (file and line of its table). Such an id
+    is left out rather than served from an earlier folder: a user's override that fails to read
+    must never quietly bring back the part it was meant to replace."""
+
+    def __init__(self, *args, **kwargs) -> None:
+        super().__init__(*args, **kwargs)
+        self.broken: dict[str, Problem] = {}
+        self.hidden: dict[str, str] = {}        # broken id -> the earlier file no longer used
+
+
 @dataclass
 class Library:
-    """Every part found, the later folder winning, with the problems of broken files."""
+    """Every part found, the later folder winning, with the problems of broken files.
+    `fatal`: problems that stop a check whatever parts it uses (a folder or a file whose parts
+    cannot even be listed)."""
 
-    parts: dict[str, Part] = field(default_factory=dict)
+    parts: PartTable = field(default_factory=PartTable)
     problems: list[Problem] = field(default_factory=list)
     folders: list[Path] = field(default_factory=list)
+    fatal: list[Problem] = field(default_factory=list)
 
     def add(self, part: Part) -> None:
         earlier = self.parts.get(part.id)
         if earlier is not None:
             part = replace(part, overrides=(*earlier.overrides, earlier.origin))
         self.parts[part.id] = part
+        self.parts.broken.pop(part.id, None)
+        self.parts.hidden.pop(part.id, None)
+
+    def add_broken(self, part_id: str, where: Problem) -> None:
+        earlier = self.parts.pop(part_id, None)
+        if earlier is not None:
+            self.parts.hidden[part_id] = earlier.origin
+        self.parts.broken[part_id] = where
+
+
+def preset_files(folder: Path) -> list[Path]:
+    """The *.toml files of a folder, sorted; raises OSError when the folder cannot be listed."""
+    with os.scandir(folder) as entries:
+        return sorted(Path(e.path) for e in entries if e.name.endswith(".toml"))
 
 
 def load_library(folders: list[Path]) -> Library:
@@ -75,26 +113,68 @@ def load_library(folders: list[Path]) -> Library:
     for folder in folders:
         if not folder.is_dir():
             continue
-        for path in sorted(folder.glob("*.toml")):
-            parts, problems = read_preset_file(path)
+        try:
+            paths = preset_files(folder)
+        except OSError as err:
+            problem = Problem(str(folder), None, "(folder)",
+                              f"cannot be read: {err.strerror or err}")
+            library.problems.append(problem)
+            library.fatal.append(problem)
+            continue
+        for path in paths:
+            parts, problems, broken = read_presets(path)
             library.problems.extend(problems)
             for part in parts:
                 library.add(part)
+            if broken is None:
+                library.fatal.extend(problems)
+                continue
+            for part_id, where in broken.items():
+                library.add_broken(part_id, where)
     return library
 
 
 def read_preset_file(path: Path) -> tuple[list[Part], list[Problem]]:
     """Every good part in the file, and the problems of the others (a bad part never hides a good one)."""
+    parts, problems, _ = read_presets(path)
+    return parts, problems
+
+
+def read_presets(path: Path) -> tuple[list[Part], list[Problem], dict[str, Problem] | None]:
+    """The good parts, the problems, and the ids of the parts that could not be read, each with
+    the line of its table. A file that is not text still names the [part.ID] tables it holds; an
+    unreadable one gives `broken` None (its parts are unknown); a FIFO or folder named *.toml
+    gives an empty `broken` (it holds no presets)."""
     try:
-        text = path.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as err:
-        return [], [Problem(str(path), None, "(file)", f"cannot be read: {err}")]
-    return parts_from_text(text, str(path))
+        text = read_user_file(path)
+    except FileUnreadable as err:
+        if err.skipped:
+            return [], [err.problem], {}
+        if err.problem.line is None:
+            return [], [err.problem], None
+        return [], [err.problem], _tables_in(undecodable_text(path), str(path), err.problem)
+    broken: dict[str, Problem] = {}
+    parts, problems = parts_from_text(text, str(path), broken)
+    return parts, problems, broken
 
 
-def parts_from_text(text: str, path: str) -> tuple[list[Part], list[Problem]]:
+def _tables_in(text: str, path: str, problem: Problem) -> dict[str, Problem]:
+    """The [part.ID] tables a file that could not be read seems to hold, by their lines."""
+    found = {}
+    for key, line in key_lines(text).items():
+        head, _, part_id = key.partition(".")
+        if head == "part" and part_id and "." not in part_id:
+            found[part_id] = Problem(path, line, f"part.{visible(part_id)}", problem.message)
+    return found
+
+
+def parts_from_text(text: str, path: str, broken: dict[str, Problem] | None = None
+                    ) -> tuple[list[Part], list[Problem]]:
+    """The good parts and the problems; `broken` (when given) receives the ids that failed."""
+    broken = {} if broken is None else broken
     data, problems = parse_toml(text, path)
     if data is None:
+        broken.update(_tables_in(text, path, problems[0]) if problems else {})
         return [], problems
     reader = FieldReader(path, text)
     for key in data:
@@ -110,6 +190,10 @@ def parts_from_text(text: str, path: str) -> tuple[list[Part], list[Problem]]:
         part = _read_part(part_id, table, reader)
         if part is not None and len(reader.problems) == before:
             parts.append(replace(part, origin=path))
+        elif len(reader.problems) > before:
+            first = reader.problems[before]
+            broken[part_id] = Problem(path, reader.line(f"part.{part_id}") or first.line,
+                                      first.field, first.message)
     return parts, reader.problems
 
 
@@ -117,6 +201,9 @@ def _read_part(part_id: str, t, r: FieldReader) -> Part | None:
     w = f"part.{part_id}"
     if has_control(part_id):
         r.problem(w, "expected a part id without control characters")
+        return None
+    if len(part_id) > MAX_TEXT:
+        r.problem(w, f"expected a part id of at most {MAX_TEXT} characters, got {len(part_id):,}")
         return None
     if not isinstance(t, dict):
         r.problem(w, "expected a table of part fields")

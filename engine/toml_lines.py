@@ -42,15 +42,26 @@ def key_lines(text: str) -> dict[str, int]:
             continue
         if header:
             table = table_name(header["name"])
-            lines.setdefault(table, number)
+            _with_prefixes(lines, table, number)
             continue
         key = _KEY.match(line)
         if key:
             name = table_name(key["key"])
-            lines.setdefault(f"{table}.{name}" if table else name, number)
+            _with_prefixes(lines, f"{table}.{name}" if table else name, number)
             if line.count('"""') == 1 or line.count("'''") == 1:
                 in_multiline = True
     return lines
+
+
+def _with_prefixes(lines: dict[str, int], name: str, number: int) -> None:
+    """`[rail.analog]` or `rail.analog.positive = 1` also places `rail` (and `rail.analog`) at
+    this line when nothing earlier did, so a message about the outer name has a line too."""
+    lines.setdefault(name, number)
+    while "." in name:
+        name = name.rpartition(".")[0]
+        if name in lines:
+            break
+        lines[name] = number
 
 
 def line_of(lines: dict[str, int], path: str) -> int | None:

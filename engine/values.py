@@ -101,20 +101,36 @@ def _expected(kind: str) -> str:
     return f"{_article(kind)} such as {EXAMPLES[kind]}"
 
 
-# Characters a terminal acts on instead of showing (C0, DEL, C1) and the bidirectional overrides
-# that reorder what is shown (Unicode TR9 explicit formatting characters).
-_CONTROL = re.compile(r"[\x00-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
+# Characters a terminal acts on instead of showing (C0, DEL, C1), the line and paragraph
+# separators (U+2028, U+2029), the bidirectional marks, embeddings, overrides and isolates that
+# reorder what is shown (Unicode TR9: ALM, LRM, RLM, LRE..RLO, LRI..PDI), and the invisible
+# format characters (soft hyphen, zero-width space and joiners, word joiner and invisible
+# operators, the byte-order mark / zero-width no-break space, interlinear annotation marks).
+_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f\u00ad\u061c\u180e\u200b-\u200f\u2028-\u202e"
+                      "\u2060-\u2064\u2066-\u206f\ufeff\ufff9-\ufffb]")
 
 
 def visible(text: str, limit: int = 80) -> str:
     """User text made safe to echo in a message: control characters as \\xNN escapes, cut short."""
-    text = _CONTROL.sub(lambda m: f"\\x{ord(m[0]):02x}" if ord(m[0]) < 0x100
-                        else f"\\u{ord(m[0]):04x}", text)
+    text = escaped(text)
     return text if len(text) <= limit else text[:limit - 3] + "..."
+
+
+def escaped(text: str) -> str:
+    """The whole text, with what `visible` escapes shown as \\xNN or \\uNNNN."""
+    return _CONTROL.sub(lambda m: f"\\x{ord(m[0]):02x}" if ord(m[0]) < 0x100
+                        else f"\\u{ord(m[0]):04x}", text)
 
 
 def has_control(text: str) -> bool:
     return bool(_CONTROL.search(text))
+
+
+def terminal_json(text: str) -> str:
+    """JSON text whose strings show every character `visible` escapes as a \\uXXXX escape
+    (the same data: JSON reads it back unchanged), so printing it cannot drive a terminal. The
+    line breaks of indented output stay: json.dumps writes none inside a string."""
+    return _CONTROL.sub(lambda m: m[0] if m[0] == "\n" else f"\\u{ord(m[0]):04x}", text)
 
 
 def _shown(raw: object) -> str:

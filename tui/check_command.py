@@ -1,7 +1,6 @@
 """`railroom check`: the go / no-go for scripts, a readable table for people."""
 from __future__ import annotations
 
-import json
 import sys
 import time
 import warnings
@@ -15,9 +14,9 @@ from railroom.engine.analysis import analyse, load_checked
 from railroom.engine.model import InputError
 from railroom.engine.report import chain_report
 from railroom.engine.results import ChainResult, StageResult
-from railroom.engine.values import ValueTextError, format_si, parse_value, visible
+from railroom.engine.values import ValueTextError, escaped, format_si, parse_value, visible
 from railroom.tui.bars import LEGEND, margin_bar
-from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO
+from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO, json_text
 
 UNITS = {"slew": "V/s", "current": "A"}
 
@@ -63,7 +62,7 @@ def run_check(args) -> int:
             if old is not None:
                 from railroom.engine.compare import against_report
                 report["against"] = against_report(old, result, against)
-            output = json.dumps(report, indent=2, ensure_ascii=False) + "\n"
+            output = json_text(report)
         elif getattr(args, "markdown", False):
             from railroom.engine.markdown import markdown_report
             output = markdown_report(result)
@@ -105,6 +104,9 @@ def command_line_numbers(args) -> float | None:
                                      ("--seed", args.seed, 0, 2**32 - 1)):
         if value is not None and not low <= value <= high:
             problems.append(f"{option}: expected a whole number from {low} to {high}, got {value}")
+    limit = getattr(args, "time_limit", None)
+    if limit is not None and not limit >= 0:
+        problems.append(f"--time-limit: expected 0 s (no limit) or more, got {limit:g}")
     margin = None
     if args.margin is not None:
         try:
@@ -124,7 +126,7 @@ def check_file(path: str, args, margin: float | None) -> ChainResult:
         with warnings.catch_warnings():
             # Overflow inside the arithmetic is judged by the checks; a warning line helps no one.
             warnings.simplefilter("ignore", RuntimeWarning)
-            chain, library = load_checked(path, tuple(args.presets))
+            chain, library = load_checked(path, tuple(args.presets), strict=True)
             return analyse(chain, library.parts, method=args.method, samples=args.samples,
                            seed=args.seed, margin=margin)
     except InputError as err:
@@ -136,9 +138,24 @@ def check_file(path: str, args, margin: float | None) -> ChainResult:
                             "this is a railroom bug, please report it with the chain file"]) from None
 
 
+MAX_PROBLEM_LINES = 200
+
+
+def capped(lines: list[str], limit: int = MAX_PROBLEM_LINES) -> list[str]:
+    """The first `limit` lines, then one that counts the rest."""
+    if len(lines) <= limit:
+        return list(lines)
+    return [*lines[:limit], f"and {len(lines) - limit:,} more problems (fix these first)"]
+
+
 def report_refusal(err: CheckRefused) -> None:
-    for line in err.lines:
+    for line in capped(err.lines):
         print(f"railroom: {visible(line, 2000)}", file=sys.stderr)
+
+
+def shown(text: str) -> str:
+    """User text for the terminal, whole: what `visible` escapes shown as escapes."""
+    return escaped(text)
 
 
 def margin_text(result: StageResult) -> str:
@@ -152,7 +169,7 @@ def margin_text(result: StageResult) -> str:
 def print_result(console: Console, result: ChainResult, colour: bool = True) -> None:
     verdict = "GO" if result.go else f"NO-GO ({result.failing} of {len(result.stages)} stages fail)"
     header = Text()
-    header.append(result.chain.title, style="bold")
+    header.append(shown(result.chain.title), style="bold")
     header.append(f"  method {result.method}")
     if result.samples:
         header.append(f" ({result.samples} draws)")
@@ -168,9 +185,9 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
                          min_width=8 if column == "stage" else None)
     bar_width = 24 if wide else max(12, min(24, console.width - 58))
     for stage in result.stages:
-        cells = [str(stage.index), Text(stage.stage.name)]
+        cells = [str(stage.index), Text(shown(stage.stage.name))]
         if wide:
-            cells += [stage.stage.block, Text(stage.stage.part or "-")]
+            cells += [stage.stage.block, Text(shown(stage.stage.part or "-"))]
         cells += [regime_text(stage, colour), margin_text(stage),
                   stage_bar(result, stage, colour, bar_width)]
         table.add_row(*cells)
@@ -185,11 +202,11 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
                       markup=False, highlight=False)
     for stage in result.stages:
         if stage.reasons:
-            console.print(Text(f"stage {stage.index} ({stage.stage.name}): "
-                               f"{stage.reason_words()}"))
+            console.print(Text(shown(f"stage {stage.index} ({stage.stage.name}): "
+                                     f"{stage.reason_words()}")))
         print_aids(console, stage)
     for caution in chain_cautions_text(result):
-        console.print(Text(f"caution: {caution}", style="yellow" if colour else ""))
+        console.print(Text(shown(f"caution: {caution}"), style="yellow" if colour else ""))
 
 
 def print_aids(console: Console, stage: StageResult) -> None:
@@ -200,9 +217,9 @@ def print_aids(console: Console, stage: StageResult) -> None:
         return
     if stage.sensitivity:
         shares = ", ".join(f"{s.quantity} {s.share:.0%}" for s in stage.sensitivity[:3])
-        console.print(Text(f"  sensitivity ({stage.limiting}): {shares}"))
+        console.print(Text(shown(f"  sensitivity ({stage.limiting}): {shares}")))
     for fix in stage.fixes:
-        console.print(Text(f"  fix: {fix.text}"))
+        console.print(Text(shown(f"  fix: {fix.text}")))
 
 
 def regime_text(stage: StageResult, colour: bool) -> Text:

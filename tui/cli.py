@@ -46,6 +46,8 @@ def build_parser() -> argparse.ArgumentParser:
                        help="also write a JUnit XML report (a test case per stage and check)")
     check.add_argument("--plots", metavar="DIR",
                        help="with --markdown: write the level picture into DIR and embed it")
+    check.add_argument("--time-limit", type=float, metavar="SECONDS",
+                       help="many files: stop checking one after this long (default 300; 0: none)")
 
     presets = sub.add_parser("presets", help="list, show or check part presets")
     presets.add_argument("action", nargs="?", default="list", choices=("list", "show", "check"))
@@ -70,11 +72,62 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+class QuietPipe:
+    """A text stream whose reader may go away (`railroom check --json | head -c1`): the first
+    broken pipe silences the rest of the output instead of raising, so the command still ends
+    with its own exit status. The file descriptor is pointed at the null device, so Python's
+    flush at exit has nothing to complain about either."""
+
+    def __init__(self, stream) -> None:
+        self._stream, self.broken = stream, False
+
+    def write(self, text: str) -> int:
+        if not self.broken:
+            try:
+                return self._stream.write(text)
+            except BrokenPipeError:
+                self._silence()
+        return len(text)
+
+    def flush(self) -> None:
+        if not self.broken:
+            try:
+                self._stream.flush()
+            except BrokenPipeError:
+                self._silence()
+
+    def _silence(self) -> None:
+        import os
+        self.broken = True
+        try:
+            null = os.open(os.devnull, os.O_WRONLY)
+            os.dup2(null, self._stream.fileno())
+            os.close(null)
+        except (OSError, ValueError, AttributeError):
+            pass        # not a real file (a test's capture): the flag alone keeps it quiet
+
+    def __getattr__(self, name: str):
+        return getattr(self._stream, name)
+
+
 def main(argv: list[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
     if not argv or argv[0] not in ("check", "presets", "bench", "-h", "--help", "schema",
                                     "blocks", "plot"):
         return open_interface(argv)
+    streams = sys.stdout, sys.stderr
+    sys.stdout, sys.stderr = QuietPipe(sys.stdout), QuietPipe(sys.stderr)
+    try:
+        return run_command(argv)
+    except KeyboardInterrupt:           # Ctrl-C: stop quietly, with the shell's status for it
+        return 128 + 2
+    finally:
+        for stream in (sys.stdout, sys.stderr):
+            stream.flush()
+        sys.stdout, sys.stderr = streams
+
+
+def run_command(argv: list[str]) -> int:
     args = build_parser().parse_args(argv)
     if args.command == "check":
         from railroom.tui.check_command import run_check
@@ -110,8 +163,14 @@ def open_interface(argv: list[str]) -> int:
     return run_app(args.chain, tuple(args.presets))
 
 
+def json_text(data: dict) -> str:
+    """Indented JSON for stdout; characters that would act on a terminal are \\u escapes."""
+    from railroom.engine.values import terminal_json
+    return terminal_json(json.dumps(data, indent=2, ensure_ascii=False)) + "\n"
+
+
 def print_json(data: dict) -> None:
-    sys.stdout.write(json.dumps(data, indent=2, ensure_ascii=False) + "\n")
+    sys.stdout.write(json_text(data))
 
 
 if __name__ == "__main__":

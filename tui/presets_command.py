@@ -10,21 +10,35 @@ import sys
 from pathlib import Path
 
 from railroom.engine.model import Part
-from railroom.engine.presets import (PAIR_SIDES, PART_FIELDS, UNITS, Library, load_library, read_preset_file,
+from railroom.engine.presets import (PAIR_SIDES, PART_FIELDS, UNITS, Library, load_library, missing_folders,
+                                     read_preset_file,
                                      search_order, shipped_folder, user_folder)
-from railroom.engine.values import format_si
+from railroom.engine.values import escaped, format_si, visible
 from railroom.tui.cli import EXIT_GO, EXIT_INPUT
 
+MAX_PROBLEM_LINES = 200        # as `railroom check`: the first lines, then a count
+
+
+
+def say(text: str = "", file=None) -> None:
+    """print(), with every file name, id and message shown as text (control characters, escape
+    sequences, direction overrides and invisible marks as visible escapes)."""
+    print(escaped(text), file=file)
 
 
 def run_presets(args) -> int:
     action = getattr(args, "action", None) or "list"
     if action == "check":
         return check_file(args.target)
-    library = load_library(search_order((), tuple(getattr(args, "presets", []) or ())))
+    extra = tuple(getattr(args, "presets", []) or ())
+    library = load_library(search_order((), extra))
+    missing = missing_folders(extra)
     if action == "show":
-        return show_part(library, args.target)
-    return list_parts(library)
+        status = show_part(library, args.target)
+    else:
+        status = list_parts(library)
+    report_problems(missing, "preset folder(s) given with --presets not found")
+    return EXIT_INPUT if missing or library.fatal else status
 
 
 def folder_label(folder: Path) -> str:
@@ -36,13 +50,13 @@ def folder_label(folder: Path) -> str:
 
 
 def list_parts(library: Library) -> int:
-    print("Search order (a later folder overrides an earlier id):")
+    say("Search order (a later folder overrides an earlier id):")
     for number, folder in enumerate(library.folders, start=1):
         state = "" if folder.is_dir() else "  (not there yet)"
-        print(f"  {number}. {folder_label(folder):8} {folder}{state}")
-    print()
+        say(f"  {number}. {folder_label(folder):8} {folder}{state}")
+    say()
     if not library.parts:
-        print("No presets found.")
+        say("No presets found.")
     width = max((len(part_id) for part_id in library.parts), default=2)
     for part_id in sorted(library.parts):
         part = library.parts[part_id]
@@ -50,30 +64,43 @@ def list_parts(library: Library) -> int:
         line = f"{part_id:{width}}  {folder_label(origin.parent):8} {origin}"
         if part.overrides:
             line += "  overrides " + ", ".join(part.overrides)
-        print(line)
+        say(line)
+    for part_id in sorted(library.parts.hidden):
+        where = library.parts.broken[part_id]
+        say(visible(f"railroom: {where.file}:{where.line or '?'}: part.{part_id}: could not be "
+                      f"read, so it is not listed; {library.parts.hidden[part_id]} is not used in "
+                      "its place", 2000), file=sys.stderr)
     report_problems(library.problems, "problem(s) in preset files (the good presets are listed)")
     return EXIT_GO
 
 
 def report_problems(problems, heading: str) -> None:
     if problems:
-        print(f"railroom: {len(problems)} {heading}:", file=sys.stderr)
-        for problem in problems:
-            print(f"railroom: {problem}", file=sys.stderr)
+        say(f"railroom: {len(problems)} {heading}:", file=sys.stderr)
+        for problem in problems[:MAX_PROBLEM_LINES]:
+            say(f"railroom: {problem}", file=sys.stderr)
+        if len(problems) > MAX_PROBLEM_LINES:
+            say(f"railroom: and {len(problems) - MAX_PROBLEM_LINES:,} more problems", file=sys.stderr)
 
 
 def show_part(library: Library, part_id: str | None) -> int:
     part = library.parts.get(part_id or "")
+    broken = library.parts.broken.get(part_id or "")
+    if broken is not None:
+        say(visible(f"railroom: preset {part_id!r} is defined in {broken.file}:{broken.line or '?'}"
+                      f", which could not be read ({broken.field}: {broken.message})", 2000),
+              file=sys.stderr)
+        return EXIT_INPUT
     if part is None:
         hint = difflib.get_close_matches(part_id or "", list(library.parts), n=3)
-        print(f"railroom: no preset {part_id!r}" + (f"; did you mean {', '.join(hint)}?" if hint else
+        say(f"railroom: no preset {part_id!r}" + (f"; did you mean {', '.join(hint)}?" if hint else
               "; `railroom presets list` shows them all"), file=sys.stderr)
         return EXIT_INPUT
-    print(f"[part.{part.id}]  from {part.origin}")
+    say(f"[part.{part.id}]  from {part.origin}")
     for earlier in part.overrides:
-        print(f"  overrides {earlier}")
+        say(f"  overrides {earlier}")
     for line in part_lines(part):
-        print(line)
+        say(line)
     return EXIT_GO
 
 
@@ -97,15 +124,15 @@ def part_lines(part: Part) -> list[str]:
 
 def check_file(target: str | None) -> int:
     if not target:
-        print("railroom: presets check needs a FILE", file=sys.stderr)
+        say("railroom: presets check needs a FILE", file=sys.stderr)
         return EXIT_INPUT
     path = Path(target)
-    if not path.is_file():
-        print(f"railroom: {path}: no such file", file=sys.stderr)
+    if not path.exists():
+        say(visible(f"railroom: {path}: no such file", 2000), file=sys.stderr)
         return EXIT_INPUT
     parts, problems = read_preset_file(path)
     if problems:
         report_problems(problems, f"problem(s) in {path}")
         return EXIT_INPUT
-    print(f"{path}: {len(parts)} preset(s), no problems: " + ", ".join(p.id for p in parts))
+    say(f"{path}: {len(parts)} preset(s), no problems: " + ", ".join(p.id for p in parts))
     return EXIT_GO
