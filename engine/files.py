@@ -16,7 +16,7 @@ SOURCE_KEYS = ("kind", "level", "difference", "amplitude", "band", "impedance")
 DEFAULT_TOLERANCE_KINDS = ("resistance", "capacitance")
 # Sensible limits (README, "Limits"): a real chain has a handful of stages; the work grows with
 # stages x frequency points x corners, so a bound keeps one file from taking minutes and GiB.
-MAX_STAGES = 100
+MAX_STAGES = 300
 MAX_INPUTS = 64             # fixed inputs of one summing stage
 ABSOLUTE_ZERO, HOTTEST = -273.15, 1000.0   # C; absolute zero: SI Brochure (2019) 2.3.1
 
