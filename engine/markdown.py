@@ -232,7 +232,7 @@ def cautions(result: ChainResult) -> str:
 
 
 def sensitivity(result: ChainResult) -> str:
-    rows = [f"| {s.index} | {md(s.stage.name)} | {s.limiting or '-'} | {md(x.quantity)} | "
+    rows = [f"| {s.index} | {md(s.stage.name)} | {s.limiting or '-'} | {md(x.words)} | "
             f"{x.share:.0%} |" for s in result.stages for x in s.sensitivity]
     if not rows:
         return ""

@@ -28,8 +28,13 @@ class OpAmpMeasure:
 
 @dataclass(frozen=True)
 class Sensitivity:
-    quantity: str                    # "rf", "rails.main", "offset", ...
+    quantity: str                    # "rf", "rails.main.positive", "stage.2.offset", ... (an id)
     share: float                     # fraction of the limiting margin's spread it explains
+    label: str = ""                  # the same in words: "rf", "main rail +", "stage 2 offset"
+
+    @property
+    def words(self) -> str:
+        return self.label or self.quantity
 
 
 @dataclass(frozen=True)

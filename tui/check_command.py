@@ -216,7 +216,7 @@ def print_aids(console: Console, stage: StageResult) -> None:
     if not stage.fixes:
         return
     if stage.sensitivity:
-        shares = ", ".join(f"{s.quantity} {s.share:.0%}" for s in stage.sensitivity[:3])
+        shares = ", ".join(f"{s.words} {s.share:.0%}" for s in stage.sensitivity[:3])
         console.print(Text(shown(f"  sensitivity ({stage.limiting}): {shares}")))
     for fix in stage.fixes:
         console.print(Text(shown(f"  fix: {fix.text}")))

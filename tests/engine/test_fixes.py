@@ -169,3 +169,22 @@ part = "amp"
     assert [f.field for f in after.fixes] == [None]
     assert "fix the first clipping stage" in after.fixes[0].text
     assert any(f.field in ("rf", "rg") for f in first.fixes)
+
+
+def test_a_value_in_both_series_is_offered_once(monkeypatch):
+    # rg must reach 14.9k: the nearest E24 value up is 15k and so is the nearest E96 one
+    # (IEC 60063: 15 is in E24, 14.7 and 15.0 in E96), so one fix names both series.
+    from types import SimpleNamespace
+    from railroom.engine import fixes
+    from railroom.engine.plan import plan_chain
+    plan = plan_chain(chain_from_text(CLIPPING.format(method="corners")), PARTS)[0]
+    done = SimpleNamespace(limiting="output-high", margins={"output-high": 0.2})
+
+    class Stub:
+        def works(self, k, field, value):
+            return done if field == "rg" and value >= 14.9e3 else None
+
+    monkeypatch.setattr(fixes, "direction", lambda lin, index, check, field: 1.0 if field == "rg" else -1.0)
+    found = fixes.value_fixes(Stub(), plan, SimpleNamespace(limiting="output-high"), None)
+    assert [(f.field, f.value) for f in found] == [("rg", pytest.approx(15e3))]
+    assert "(E24, E96)" in found[0].text
