@@ -21,7 +21,7 @@ from textual.worker import get_current_worker
 
 from railroom.engine.analysis import analyse
 from railroom.engine.methods.montecarlo import Cancelled
-from railroom.engine.model import InputError
+from railroom.engine.model import InputError, Problem
 from railroom.engine.results import ChainResult
 from railroom.tui.screens.chain import ChainScreen
 from railroom.tui.screens.dialogs import ConfirmScreen, SaveAsScreen
@@ -33,6 +33,11 @@ WATCH_SECONDS = 1.0
 # While values are being typed, the full check (the file's method with the design aids) waits for a
 # pause in the typing: started on every keystroke it would compete with the repaint for the CPU.
 TYPING_PAUSE_SECONDS = 0.3
+
+
+def problem_words(problems: list[Problem]) -> str:
+    first = problems[0]
+    return f"{first.field}: {first.message}" if first.field != "(edit)" else first.message
 
 
 def key(keys: str, action: str, words: str, ident: str, tooltip: str, show: bool = True) -> Binding:
@@ -66,6 +71,8 @@ class RailroomApp(App):
         self.result: ChainResult | None = None
         self._generation = 0
         self._full_timer: Timer | None = None
+        # field edits typed but not yet checked: (form, field) -> (edit, where its verdict goes)
+        self._pending: dict[tuple[str, str], tuple[Callable[[str], str], Callable]] = {}
 
     def get_default_screen(self) -> ChainScreen | ProblemsScreen:
         if self.waiting is not None:
@@ -86,32 +93,115 @@ class RailroomApp(App):
 
     # the engine
     def apply_edit(self, change: Callable[[str], str], typing: bool = False) -> str | None:
-        """Apply an edit of the chain text; on success re-check, else return the problem.
-        `typing`: the edit is a keystroke in a form, so the full check waits for a pause."""
+        """Apply an edit of the chain text at once (a command: add, move, method ...); on success
+        re-check, else return the problem. Values typed in a form go through `type_edit`."""
+        self.settle()
         problems = self.session.edit(change)
         if problems:
-            first = problems[0]
-            return f"{first.field}: {first.message}" if first.field != "(edit)" else first.message
+            return problem_words(problems)
         self.recheck(TYPING_PAUSE_SECONDS if typing else 0.0)
         return None
+
+    def type_edit(self, step: tuple[str, str], change: Callable[[str], str],
+                  judged: Callable[[str | None], None]) -> None:
+        """A keystroke's edit of one field (`step`: form and field): loaded and checked in a
+        worker thread, so the event loop never waits on the engine while the user types. A newer
+        keystroke supersedes it; `judged(problem or None)` runs when the newest result is in."""
+        self._pending[step] = (change, judged)
+        self._generation += 1
+        self._stop_full_timer()
+        self.run_worker(partial(self._edit_job, self._generation, self.session.text,
+                                list(self._pending.items())),
+                        thread=True, exclusive=True, group="edit", exit_on_error=False)
+
+    def _edit_job(self, generation: int, base: str, steps: list) -> None:
+        """In a worker thread: every pending field edit applied to `base`, loaded and checked
+        (corners, without design aids). Only reads the session; the app thread keeps the result."""
+        worker = get_current_worker()
+        text, prepared, outcomes = base, None, {}
+        for step, (change, _) in steps:
+            if worker.is_cancelled:
+                return
+            try:
+                found = self.session.prepare(text, change)
+            except Exception as err:       # never lose the app (and the typing) to a bug here
+                found = [Problem(str(self.session.path), None, "(edit)", repr(err))]
+            if isinstance(found, list):
+                outcomes[step] = problem_words(found)
+            else:
+                text, prepared, outcomes[step] = found[0], found, None
+        result = None
+        if prepared is not None and not worker.is_cancelled:
+            try:
+                result = analyse(prepared[1], prepared[2].parts, method="corners",
+                                 design_aids=False, headroom=False)
+            except Exception as err:
+                for step in outcomes:
+                    outcomes[step] = f"the check failed: {err!r}"
+                prepared = None
+        if worker.is_cancelled:
+            return
+        try:
+            self.call_from_thread(self._edit_done, generation, base, steps, prepared, outcomes,
+                                  result)
+        except RuntimeError:
+            pass                           # the app closed meanwhile
+
+    def _edit_done(self, generation: int, base: str, steps: list, prepared, outcomes: dict,
+                   result: ChainResult | None) -> None:
+        if generation != self._generation or base != self.session.text:
+            return                         # a newer keystroke (or command) owns the screen
+        self._pending.clear()
+        if prepared is not None:
+            step = steps[0][0] if len(steps) == 1 else None
+            self.session.commit(*prepared, step=step)
+        for step, (_, judged) in steps:
+            judged(outcomes[step])
+        if prepared is not None and result is not None:
+            self._show_corners(result)
+            self._schedule_full(TYPING_PAUSE_SECONDS)
+
+    def settle(self) -> None:
+        """Keep the field edits still being checked, at once (before a save, an undo, a command):
+        the last thing typed is what counts."""
+        if not self._pending:
+            return
+        pending, self._pending = list(self._pending.values()), {}
+        self._generation += 1                # drops the worker's (now older) answer
+        changed = False
+        for change, judged in pending:
+            problems = self.session.edit(change)
+            changed |= not problems
+            judged(problem_words(problems) if problems else None)
+        if changed:
+            self.recheck()
 
     def recheck(self, full_after: float = 0.0) -> None:
         """Corners at once on this thread; then, in a worker, the file's own method with the
         design aids (sensitivity, fixes), after `full_after` seconds. A newer edit cancels the
         older run (and a full run still waiting to start)."""
         self._generation += 1
-        self.result = self.session.corners()
+        self._show_corners(self.session.corners())
+        self._schedule_full(full_after)
+
+    def _show_corners(self, result: ChainResult) -> None:
+        self.result = result
         method = self.session.chain.conditions.method
         note = f"{method} running..." if method != "corners" else ""
         self.chain_screen.show(self.result, note)
         self.chain_screen.query_one("StatusLine").running(method != "corners")
+
+    def _stop_full_timer(self) -> None:
         if self._full_timer is not None:
             self._full_timer.stop()
             self._full_timer = None
+
+    def _schedule_full(self, after: float) -> None:
+        self._stop_full_timer()
         start = partial(self.run_full, self._generation, self.session.chain,
                         self.session.library.parts)
-        if full_after > 0:
-            self._full_timer = self.set_timer(full_after, start)
+        if after > 0:
+            self._full_timer = self.set_timer(after, start)
         else:
             start()
 
@@ -202,6 +292,7 @@ class RailroomApp(App):
         if self.session is None:
             self.try_open(asked=True)
             return
+        self.settle()
         problems = self.session.reload()
         if problems:
             self.notify("\n".join(str(p) for p in problems[:4]), title="not reloaded",
@@ -212,6 +303,7 @@ class RailroomApp(App):
         self.notify("reloaded from disk")
 
     def action_save(self, then: Callable[[], None] | None = None) -> None:
+        self.settle()
         if self.session.read_only:
             self.action_save_as(then)
             return
@@ -230,6 +322,7 @@ class RailroomApp(App):
                 ("r", "reload", "reload it and drop the changes on screen")]), answered)
 
     def action_save_as(self, then: Callable[[], None] | None = None) -> None:
+        self.settle()
         why = ("The built-in demo is read-only. Save a copy as:" if self.session.read_only
                else "Save the chain as:")
 
@@ -250,6 +343,8 @@ class RailroomApp(App):
             then()
 
     async def action_quit(self) -> None:
+        if self.session is not None:
+            self.settle()
         if self.session is None or not self.session.modified:
             self.exit(0)
             return
@@ -288,6 +383,7 @@ class RailroomApp(App):
 
     def presets_changed(self) -> None:
         """A preset was edited: read the library again and check the chain against it."""
+        self.settle()
         problems = self.session.reload_library()
         if problems:
             self.notify("\n".join(str(p) for p in problems[:4]), title="presets",

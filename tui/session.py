@@ -37,6 +37,7 @@ class Session:
     ignored_print: tuple[int, int] | None = None     # a newer file the user chose not to load
     drafts: dict[str, dict[str, str]] = field(default_factory=dict)   # form -> field -> bad text
     history: list[str] = field(default_factory=list)
+    _last_step: object = None                         # the field the last kept keystroke was in
 
     @classmethod
     def open(cls, path: str | Path | None, extra_preset_dirs: tuple[str, ...] = ()) -> "Session":
@@ -64,24 +65,40 @@ class Session:
 
     def edit(self, change: Callable[[str], str]) -> list[Problem]:
         """Apply an edit of the text; keep it only when it loads. Returns the problems, if any."""
+        prepared = self.prepare(self.text, change)
+        if isinstance(prepared, list):
+            return prepared
+        self.commit(*prepared)
+        return []
+
+    def prepare(self, text: str, change: Callable[[str], str]
+                ) -> tuple[str, Chain, Library] | list[Problem]:
+        """The edited text with its loaded chain and library, or the problems; changes nothing,
+        so a worker thread may run it while the user goes on typing."""
         try:
-            text = change(self.text)
-            chain = checked(text, str(self.path))
+            edited = change(text)
+            chain = checked(edited, str(self.path))
             library = self._library_for(chain)
             plan_chain(chain, library.parts)
         except InputError as err:
             return list(err.problems)
-        except (ValueError, IndexError, KeyError) as err:
+        except (ValueError, IndexError, KeyError, RecursionError) as err:
             return [Problem(str(self.path), None, "(edit)", str(err))]
-        if text != self.text:
+        return edited, chain, library
+
+    def commit(self, text: str, chain: Chain, library: Library, step: object = None) -> None:
+        """Keep a prepared edit. Successive edits with the same `step` (keystrokes in one field)
+        are one step for undo."""
+        if text != self.text and (step is None or step != self._last_step):
             self.history.append(self.text)
+        self._last_step = step
         self.text, self.chain, self.library = text, chain, library
-        return []
 
     def undo(self) -> bool:
         if not self.history:
             return False
         text = self.history.pop()
+        self._last_step = None
         self.chain = checked(text, str(self.path))
         self.library = self._library_for(self.chain)
         self.text = text

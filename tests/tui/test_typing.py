@@ -6,13 +6,16 @@ waits after every key, which would hide any reordering).
 """
 from __future__ import annotations
 
+import threading
 import time
 
 import pytest
 from textual import events
 from textual.widgets import Input
 
+from railroom.tui import app as app_module
 from railroom.tui import session as session_module
+from railroom.tui.widgets.status_line import StatusLine
 
 SIZE = (80, 24)
 NAMES = {" ": "space", ".": "full_stop", "%": "percent_sign"}
@@ -42,6 +45,7 @@ def slow_engine(monkeypatch):
         time.sleep(0.06)
         return real(*args, **kwargs)
     monkeypatch.setattr(session_module, "analyse", slowed)
+    monkeypatch.setattr(app_module, "analyse", slowed)
 
 
 async def open_gain_stage_rf(pilot):
@@ -89,3 +93,36 @@ async def test_letters_typed_right_after_esc_are_not_typed_into_the_field(make_a
         await settle(pilot)
         assert box.value == "10"                          # not "10ml"
         assert app.session.chain.stages[1].quantity("rf").value == 10.0
+
+
+async def test_the_engine_never_runs_on_the_event_loop_while_typing(make_app, two_stage,
+                                                                  monkeypatch):
+    """The engine is held until the test lets it go: the keys are all in and shown meanwhile,
+    each check ran in a worker thread, the older answers are dropped and the newest one is shown."""
+    real = session_module.analyse
+    release = threading.Event()
+    threads = []
+
+    def held(*args, **kwargs):
+        threads.append(threading.current_thread() is threading.main_thread())
+        if not threads[-1]:
+            release.wait(30)
+        return real(*args, **kwargs)
+    app = make_app(two_stage)
+    async with app.run_test(size=SIZE) as pilot:
+        box = await open_gain_stage_rf(pilot)
+        monkeypatch.setattr(session_module, "analyse", held)
+        monkeypatch.setattr(app_module, "analyse", held)
+        threads.clear()
+        await pilot.press(*list("2M"))                   # gain 201: clips on +/-12 V
+        assert box.value == "2M"
+        assert app.session.chain.stages[1].quantity("rf").value == 10e3   # not checked yet
+        assert str(app.screen.query_one(StatusLine).query_one("#status-verdict").content).startswith("GO")
+        release.set()
+        await settle(pilot)
+        assert threads and not any(threads)              # every check of a keystroke: a worker
+        assert app.session.chain.stages[1].quantity("rf").value == 2e6
+        assert app.result.stages[1].regime == "clipping"
+        assert len(app.session.history) == 1             # "2" then "2M": one step for undo
+        await pilot.press("escape", "u")
+        assert app.session.chain.stages[1].quantity("rf").value == 10e3

@@ -143,10 +143,10 @@ class ChainScreen(Screen):
         drafts = self.session.drafts.setdefault(form_id, {})
         fields = [FormField(f.key, f.shape, drafts.get(f.key, f.text), f.choices) for f in fields]
 
-        def apply(field_key: str, text: str) -> str | None:
+        def apply(field_key: str, text: str, judged) -> None:
             shape = next(f.shape for f in fields if f.key == field_key)
-            return self.app.apply_edit(change(field_key, editing.toml_value(text, shape)),
-                                       typing=True)
+            self.app.type_edit((form_id, field_key),
+                               change(field_key, editing.toml_value(text, shape)), judged)
 
         self.close_form()
         self.add_class("editing")
@@ -237,6 +237,7 @@ class ChainScreen(Screen):
         self._show_detail()
 
     def action_undo(self) -> None:
+        self.app.settle()
         if self.session.undo():
             self.close_form()                # its fields would show the text before the undo
             self.app.recheck()

@@ -26,7 +26,8 @@ from railroom.engine.editing import FieldShape, value_problem
 CONTROL_PICTURES = {code: 0x2400 + code for code in range(32)} | {127: 0x2421}
 CONTROL_PROBLEM = "control characters are not allowed here (shown as ␛ and the like)"
 
-Apply = Callable[[str, str], str | None]     # (field key, typed text) -> problem or None
+# (field key, typed text, verdict): the verdict is called with the problem or None, at once or later
+Apply = Callable[[str, str, Callable[[str | None], None]], None]
 
 
 class FieldInput(Input):
@@ -172,17 +173,28 @@ class FieldForm(VerticalScroll):
         if any(0x2400 <= ord(c) <= 0x2421 for c in text):
             problem = CONTROL_PROBLEM
         else:
-            problem = value_problem(text, field.shape) or self.apply(key, text)
-        message = self.query_one(f"#message-{key}", Label)
+            problem = value_problem(text, field.shape)
+        if problem:
+            self._judged(key, text, problem)
+            return
+        # kept as a draft until the engine has read it: closing the form meanwhile loses nothing
+        self.drafts[key] = text
+        self.apply(key, text, lambda problem: self._judged(key, text, problem))
+
+    def _judged(self, key: str, text: str, problem: str | None) -> None:
+        """The verdict on `text` in field `key` (at once, or when the engine's answer is in)."""
+        field = self.fields[key]
         if problem:
             self.drafts[key] = text
-            message.update(Text(problem))
-            message.add_class("problem")
         else:
-            self.drafts.pop(key, None)
+            if self.drafts.get(key) == text:
+                del self.drafts[key]
             self.fields[key] = FormField(key, field.shape, text, field.choices)
-            message.update(Text(field.shape.help))
-            message.remove_class("problem")
+        if not self.is_mounted:
+            return                            # the form was closed meanwhile: the draft stays
+        message = self.query_one(f"#message-{key}", Label)
+        message.update(Text(problem or field.shape.help))
+        message.set_class(bool(problem), "problem")
 
     def action_close(self) -> None:
         self.closing = True
