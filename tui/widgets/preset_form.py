@@ -165,7 +165,8 @@ class PresetForm(ModalScreen[bool]):
         except (PresetEditError, OSError) as err:
             self.show_problems([str(err)])
             return
-        self.app.notify(f"Saved {self.session.part_id} to {path} (previous version kept as .bak)")
+        self.app.notify(f"Saved {self.session.part_id} to {path} (previous version kept as .bak)",
+                        markup=False)
         self.dismiss(True)
 
     def resolve_change(self, choice: str | None) -> None:
