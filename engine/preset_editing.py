@@ -16,7 +16,7 @@ from pathlib import Path
 import tomlkit
 from tomlkit.exceptions import TOMLKitError
 
-from railroom.engine.atomic import fingerprint, write_atomic
+from railroom.engine.atomic import Fingerprint, fingerprint, write_atomic
 from railroom.engine.model import InputError, Problem
 from railroom.engine.presets import PART_FIELDS, parts_from_text, shipped_folder
 from railroom.engine.toml_lines import key_lines
@@ -45,7 +45,7 @@ class OpenedPresetFile:
 
     path: Path
     text: str
-    stamp: tuple[int, int] | None
+    stamp: Fingerprint | None
 
 
 def open_preset_file(path: str | Path) -> OpenedPresetFile:

@@ -8,6 +8,7 @@ soon as the file loads.
 """
 from __future__ import annotations
 
+import os
 import time
 from functools import partial
 from pathlib import Path
@@ -33,6 +34,10 @@ WATCH_SECONDS = 1.0
 # While values are being typed, the full check (the file's method with the design aids) waits for a
 # pause in the typing: started on every keystroke it would compete with the repaint for the CPU.
 TYPING_PAUSE_SECONDS = 0.3
+
+
+def same_file(one: Path, other: Path) -> bool:
+    return os.path.realpath(one) == os.path.realpath(other)
 
 
 def problem_words(problems: list[Problem]) -> str:
@@ -297,6 +302,8 @@ class RailroomApp(App):
         if problems:
             self.notify("\n".join(str(p) for p in problems[:4]), title="not reloaded",
                         severity="error", markup=False)
+            if self.result is not None:
+                self.chain_screen.show(self.result)
             return
         self.chain_screen.close_form()        # its fields showed the text before the reload
         self.recheck()
@@ -316,20 +323,38 @@ class RailroomApp(App):
                 self._write(None, then)
             elif answer == "reload":
                 self.action_reload()
+        broken = (" The version on disk does not load: " + str(self.session.disk_problems[0])
+                  if self.session.disk_problems else "")
         self.push_screen(ConfirmScreen(
-            f"{self.session.path.name} changed on disk since it was read.", [
-                ("o", "overwrite", "overwrite it with what is on screen"),
+            f"{self.session.path.name} changed on disk since it was read.{broken}", [
+                ("o", "overwrite", "overwrite it with what is on screen (the old file is kept "
+                                   "as .bak)"),
                 ("r", "reload", "reload it and drop the changes on screen")]), answered)
 
     def action_save_as(self, then: Callable[[], None] | None = None) -> None:
         self.settle()
+        # a name typed without a folder goes beside the open file (the demo's copy: here)
+        folder = Path.cwd() if self.session.read_only else self.session.path.parent
         why = ("The built-in demo is read-only. Save a copy as:" if self.session.read_only
                else "Save the chain as:")
 
         def named(name: str | None) -> None:
-            if name:
-                self._write(Path(name).expanduser().resolve(), then)
-        self.push_screen(SaveAsScreen(self.session.path.name, why), named)
+            if not name:
+                return
+            target = Path(name).expanduser()
+            target = Path(os.path.abspath(target if target.is_absolute() else folder / target))
+            if not self.session.read_only and same_file(target, self.session.path):
+                self.action_save(then)
+            elif target.exists():
+                def answered(answer: str) -> None:
+                    if answer == "overwrite":
+                        self._write(target, then)
+                self.push_screen(ConfirmScreen(f"{target} exists.", [
+                    ("o", "overwrite", f"overwrite it (the old file is kept as {target.name}.bak)")]),
+                    answered)
+            else:
+                self._write(target, then)
+        self.push_screen(SaveAsScreen(self.session.path.name, f"{why}  (in {folder})"), named)
 
     def _write(self, path: Path | None, then: Callable[[], None] | None) -> None:
         try:

@@ -10,7 +10,7 @@ from pathlib import Path
 from typing import Callable
 
 from railroom.engine.analysis import analyse, load_checked
-from railroom.engine.atomic import fingerprint, write_atomic
+from railroom.engine.atomic import Fingerprint, fingerprint, write_atomic
 from railroom.engine.editing import checked
 from railroom.engine.model import Chain, InputError, Problem
 from railroom.engine.plan import plan_chain
@@ -33,8 +33,9 @@ class Session:
     library: Library
     extra_preset_dirs: tuple[str, ...] = ()
     saved_text: str = ""
-    known_print: tuple[int, int] | None = None       # the file as we last read or wrote it
-    ignored_print: tuple[int, int] | None = None     # a newer file the user chose not to load
+    known_print: Fingerprint | None = None           # the file as we last read or wrote it
+    ignored_print: Fingerprint | None = None         # a newer file the user chose not to load
+    disk_problems: list[Problem] = field(default_factory=list)   # the file on disk does not load
     drafts: dict[str, dict[str, str]] = field(default_factory=dict)   # form -> field -> bad text
     history: list[str] = field(default_factory=list)
     _last_step: object = None                         # the field the last kept keystroke was in
@@ -137,8 +138,9 @@ class Session:
         if target != self.path:
             self.chain = checked(self.text, str(target))
             self.library = self._library_for(self.chain)
-        write_atomic(target, self.text)
+        write_atomic(target, self.text, backup=True)
         self.path, self.read_only, self.saved_text = target, False, self.text
+        self.disk_problems = []
         self.known_print = fingerprint(target)
 
     def reload(self) -> list[Problem]:
@@ -147,8 +149,13 @@ class Session:
             chain, library = load_checked(str(self.path), self.extra_preset_dirs)
             text = self.path.read_text(encoding="utf-8")
         except InputError as err:
-            self.known_print = fingerprint(self.path)
+            # not read: the watcher stops asking about this version, but saving still asks before
+            # overwriting it (it holds someone's edit, perhaps half done)
+            self.ignored_print = fingerprint(self.path)
+            self.disk_problems = list(err.problems)
             return list(err.problems)
+        self.disk_problems = []
+        self._last_step = None
         self.history.append(self.text)
         self.text = self.saved_text = text
         self.chain, self.library = chain, library

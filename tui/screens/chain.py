@@ -84,6 +84,11 @@ class ChainScreen(Screen):
     def show(self, result: ChainResult, note: str = "") -> None:
         session = self.session
         label = "built-in demo (read-only)" if session.read_only else str(session.path)
+        if session.disk_problems:
+            problem = session.disk_problems[0]
+            where = f"line {problem.line}: " if problem.line else ""
+            note = "; ".join(filter(None, [f"NOT RELOADED: the file on disk has problems "
+                                           f"({where}{problem.field}); r tries again", note]))
         self.query_one(StatusLine).show(result, label, session.modified, note)
         self.query_one(StageList).show(result)
         self._show_view()
