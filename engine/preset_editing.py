@@ -111,7 +111,17 @@ def _put(table, key: str, raw: Raw) -> None:
     order = list(PART_FIELDS)
     before = [k for k in order[:order.index(key)] if k in table] or list(table.keys())
     if before:
-        table.value._insert_after(before[-1], key, value)
+        insert_after(table, before[-1], key, value)
+    else:
+        table.add(key, value)
+
+
+def insert_after(table, after: str, key: str, value) -> None:
+    """Put a new key on the line after `after` (whose own comment stays on its line)."""
+    body = table.value.body
+    at = next(i for i, (k, _) in enumerate(body) if k is not None and k.key == after)
+    if at + 1 < len(body):
+        table.value._insert_at(at + 1, key, value)
     else:
         table.add(key, value)
 

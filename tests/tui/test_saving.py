@@ -129,3 +129,27 @@ async def test_saving_through_a_symlink_edits_the_target(make_app, two_stage, tm
         await pilot.press("escape", "w")
         await pilot.pause()
     assert link.is_symlink() and 'rf = "20k"' in two_stage.read_text()
+
+
+async def test_clearing_an_optional_field_and_typing_again_keeps_its_line_and_comment(
+        make_app, two_stage):
+    text = two_stage.read_text().replace(
+        'part = "generic-bipolar-15v"\nrf = "10k"',
+        'part = "generic-bipolar-15v"\nload = "2k"         # the next board\'s input\nrf = "10k"')
+    two_stage.write_text(text)
+    app = make_app(two_stage)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.pause()
+        await pilot.press("j", "e")
+        await retype(pilot, "load", "")
+        await pilot.press(*"3k")
+        await pilot.pause()
+        await app.workers.wait_for_complete()
+        await pilot.pause()
+        assert app.session.text == text.replace('load = "2k"  ', 'load = "3k"  ')
+        await retype(pilot, "load", "")
+        await pilot.press("escape")                        # left empty: removed
+        await pilot.pause()
+        assert app.session.text == text.replace('load = "2k"         # the next board\'s input\n',
+                                                "")
+        assert app.session.chain.stages[1].load is None

@@ -118,7 +118,7 @@ class ChainScreen(Screen):
 
     # views
     def action_show_view(self, view: str) -> None:
-        self.close_form()
+        self.close_form(leave=True)
         self.query_one(ContentSwitcher).current = view
         self._show_view()
 
@@ -127,14 +127,17 @@ class ChainScreen(Screen):
         self.action_show_view("level" if current == "detail" else "detail")
 
     def action_focus_stages(self) -> None:
-        self.close_form()
+        self.close_form(leave=True)
         self.query_one(StageList).focus()
 
-    def close_form(self) -> None:
-        """Put the detail or level view back; drafts stay in the session, edits in the chain."""
+    def close_form(self, leave: bool = False) -> None:
+        """Put the detail or level view back; drafts stay in the session, edits in the chain.
+        `leave`: the user left the form, so the fields they emptied are removed from the file."""
         if not self.has_class("editing"):
             return
         for form in self.query(FieldForm):
+            if leave:
+                form.remove_emptied(form.remove_field)
             form.remove()
         self.remove_class("editing")
         self._show_view()
@@ -155,7 +158,9 @@ class ChainScreen(Screen):
 
         self.close_form()
         self.add_class("editing")
-        self.mount(FieldForm(title, fields, apply, drafts, focus, form_id), before=self.query_one(Footer))
+        form = FieldForm(title, fields, apply, drafts, focus, form_id)
+        form.remove_field = lambda field_key: self.app.apply_edit(change(field_key, None))
+        self.mount(form, before=self.query_one(Footer))
 
     def action_edit_stage(self, focus: str | None = None) -> None:
         index = self.highlighted()

@@ -28,6 +28,8 @@ CONTROL_PROBLEM = "control characters are not allowed here (shown as ␛ and the
 
 # (field key, typed text, verdict): the verdict is called with the problem or None, at once or later
 Apply = Callable[[str, str, Callable[[str | None], None]], None]
+EMPTY_NOTE = ("empty: leaving the form removes it (when it may be left out); a value typed "
+              "now keeps its line and comment")
 
 
 class FieldInput(Input):
@@ -177,6 +179,12 @@ class FieldForm(VerticalScroll):
         if problem:
             self._judged(key, text, problem)
             return
+        if not text.strip():
+            # the key stays in the file, with its place and comment, while the box is empty:
+            # typing a value again sets it in place; leaving the form empty removes it
+            self.drafts[key] = text
+            self._message(key, EMPTY_NOTE, False)
+            return
         # kept as a draft until the engine has read it: closing the form meanwhile loses nothing
         self.drafts[key] = text
         self.apply(key, text, lambda problem: self._judged(key, text, problem))
@@ -190,11 +198,20 @@ class FieldForm(VerticalScroll):
             if self.drafts.get(key) == text:
                 del self.drafts[key]
             self.fields[key] = FormField(key, field.shape, text, field.choices)
-        if not self.is_mounted:
-            return                            # the form was closed meanwhile: the draft stays
+        if self.is_mounted:                   # else the form was closed meanwhile: the draft stays
+            self._message(key, problem or field.shape.help, bool(problem))
+
+    def _message(self, key: str, words: str, problem: bool) -> None:
         message = self.query_one(f"#message-{key}", Label)
-        message.update(Text(problem or field.shape.help))
-        message.set_class(bool(problem), "problem")
+        message.update(Text(words))
+        message.set_class(problem, "problem")
+
+    def remove_emptied(self, remove: Callable[[str], str | None]) -> None:
+        """The form is closing: a field left empty is removed from the file now (`remove` gives
+        the problem when the field may not be left out; the empty draft then stays)."""
+        for key, text in list(self.drafts.items()):
+            if key in self.fields and not text.strip() and remove(key) is None:
+                del self.drafts[key]
 
     def action_close(self) -> None:
         self.closing = True
