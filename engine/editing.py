@@ -120,12 +120,22 @@ def shown(value) -> str:
 
 
 def stage_field(text: str, index: int, key: str) -> str:
-    table = _stages(tomlkit.parse(text))[index - 1]
-    return shown(table.get(key))
+    return stage_fields(text, index, [key])[key]
 
 
 def section_field(text: str, section: str, key: str) -> str:
-    return shown(tomlkit.parse(text).get(section, {}).get(key))
+    return section_fields(text, section, [key])[key]
+
+
+def stage_fields(text: str, index: int, keys) -> dict[str, str]:
+    """Several fields of stage `index` as a form shows them, from one reading of the text."""
+    table = _stages(tomlkit.parse(text))[index - 1]
+    return {key: shown(table.get(key)) for key in keys}
+
+
+def section_fields(text: str, section: str, keys) -> dict[str, str]:
+    table = tomlkit.parse(text).get(section, {})
+    return {key: shown(table.get(key)) for key in keys}
 
 
 def set_stage_field(text: str, index: int, key: str, value) -> str:

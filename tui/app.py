@@ -362,7 +362,13 @@ class RailroomApp(App):
         except (OSError, InputError) as err:
             self.notify(str(err), title="not saved", severity="error", markup=False)
             return
-        self.notify(f"saved {self.session.path}", markup=False)
+        drafts = self.session.draft_lines()
+        if drafts:
+            self.notify(f"saved {self.session.path}, without the values still in the forms that "
+                        "are not in the chain: " + "; ".join(drafts[:4]), severity="warning",
+                        markup=False, timeout=8)
+        else:
+            self.notify(f"saved {self.session.path}", markup=False)
         self.chain_screen.show(self.result)
         if then is not None:
             then()
@@ -370,7 +376,8 @@ class RailroomApp(App):
     async def action_quit(self) -> None:
         if self.session is not None:
             self.settle()
-        if self.session is None or not self.session.modified:
+        drafts = self.session.draft_lines() if self.session is not None else []
+        if self.session is None or not (self.session.modified or drafts):
             self.exit(0)
             return
 
@@ -379,8 +386,13 @@ class RailroomApp(App):
                 self.action_save(then=lambda: self.exit(0))
             elif answer == "discard":
                 self.exit(0)
-        self.push_screen(ConfirmScreen("The chain has unsaved changes.", [
-            ("s", "save", "save, then quit"), ("d", "discard", "quit without saving")]), answered)
+        question = "The chain has unsaved changes." if self.session.modified else ""
+        if drafts:
+            question += (" Values typed into forms are not in the chain (they have a problem) "
+                         "and are lost on quitting: " + "; ".join(drafts[:4]))
+        answers = [("s", "save", "save, then quit")] if self.session.modified else []
+        self.push_screen(ConfirmScreen(question.strip(), answers + [
+            ("d", "discard", "quit without saving")]), answered)
 
     # other rooms
     def action_help(self) -> None:

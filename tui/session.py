@@ -95,6 +95,12 @@ class Session:
         self._last_step = step
         self.text, self.chain, self.library = text, chain, library
 
+    def draft_lines(self) -> list[str]:
+        """The values typed into forms that are not in the chain (they have a problem, or the
+        field was emptied), as "stage.2 rf: '4q7'"; saving writes the chain without them."""
+        return [f"{form} {key}: {text!r}" for form, fields in self.drafts.items()
+                for key, text in fields.items()]
+
     def undo(self) -> bool:
         if not self.history:
             return False

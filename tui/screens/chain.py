@@ -174,14 +174,16 @@ class ChainScreen(Screen):
         if len(self.session.chain.rails) > 1:
             shapes["rails"] = FieldShape("text", "choice", tuple(self.session.chain.rails),
                                          "which supply")
-        fields = [FormField(k, s, editing.stage_field(text, index, k)) for k, s in shapes.items()]
+        shown = editing.stage_fields(text, index, shapes)
+        fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
         self._form(f"stage {index}: {stage.name} ({stage.block})", f"stage.{index}", fields,
                    lambda k, v: lambda t: editing.set_stage_field(t, index, k, v), focus)
 
     def _section_form(self, section: str, focus: str | None = None) -> None:
         shapes = editing.SECTIONS[section]
         text = self.session.text
-        fields = [FormField(k, s, editing.section_field(text, section, k)) for k, s in shapes.items()]
+        shown = editing.section_fields(text, section, shapes)
+        fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
         self._form(f"[{section}]", section, fields,
                    lambda k, v: lambda t: editing.set_section_field(t, section, k, v), focus)
 
@@ -208,14 +210,27 @@ class ChainScreen(Screen):
                 return
             parts = self.session.part_ids
             part = near.part if near.part else (parts[0] if parts else None)
-            fields = editing.starter_stage(block, f"new {block}", part, near.rails)
-            if self.app.apply_edit(lambda t: editing.add_stage(t, after + 1, fields)) is None:
+            fields = editing.starter_stage(block, f"new {block}", part, self._rails_near(after))
+            problem = self.app.apply_edit(lambda t: editing.add_stage(t, after + 1, fields))
+            if problem is None:
                 self._structure_changed(after + 1)
                 self.action_edit_stage()
+            else:
+                self.notify(f"the new {block} stage was not added: {problem}", title="add",
+                            severity="error", markup=False)
 
         blocks = [(name, f"{name}: {block.summary}") for name, block in BLOCKS.items()]
         self.app.push_screen(ChoiceScreen("Add which block after the highlighted stage?", blocks),
                              chosen)
+
+    def _rails_near(self, index: int) -> str | None:
+        """The supply for a stage added after stage `index`: that stage's, else the nearest
+        earlier stage's (a passive stage names none), else the chain's first, when it has several."""
+        chain = self.session.chain
+        if len(chain.rails) < 2:
+            return None
+        named = [s.rails for s in chain.stages[:index] if s.rails is not None]
+        return named[-1] if named else next(iter(chain.rails))
 
     def action_remove_stage(self) -> None:
         index = self.highlighted()

@@ -82,9 +82,18 @@ class ConfirmDialog(ModalScreen[bool]):
     ConfirmDialog Horizontal { height: auto; align-horizontal: right; }
     """
 
+    BINDINGS = [Binding("escape", "keep", "keep it", id="confirm-dialog.keep",
+                        tooltip="Close without doing anything")]
+
     def __init__(self, question: str, yes: str = "Delete"):
         super().__init__()
         self.question, self.yes = question, yes
+
+    def on_mount(self) -> None:
+        self.query_one("#confirm-no", Button).focus()      # enter alone never deletes
+
+    def action_keep(self) -> None:
+        self.dismiss(False)
 
     def compose(self) -> ComposeResult:
         with Vertical():
@@ -103,9 +112,18 @@ class ChangedOnDiskDialog(ModalScreen[str]):
 
     DEFAULT_CSS = ConfirmDialog.DEFAULT_CSS.replace("ConfirmDialog", "ChangedOnDiskDialog")
 
+    BINDINGS = [Binding("escape", "keep", "keep editing", id="changed-dialog.keep",
+                        tooltip="Keep editing; nothing is written")]
+
     def __init__(self, path: Path):
         super().__init__()
         self.path = path
+
+    def on_mount(self) -> None:
+        self.query_one("#changed-keep", Button).focus()
+
+    def action_keep(self) -> None:
+        self.dismiss("keep")
 
     def compose(self) -> ComposeResult:
         with Vertical():
@@ -126,6 +144,9 @@ class NameDialog(ModalScreen[str | None]):
     DEFAULT_CSS = ConfirmDialog.DEFAULT_CSS.replace("ConfirmDialog", "NameDialog") + """
     NameDialog #name-error { color: $error; height: auto; }
     """
+
+    BINDINGS = [Binding("escape", "cancel", "cancel", id="name-dialog.cancel",
+                        tooltip="Close without naming anything")]
 
     def __init__(self, question: str, suggestion: str, taken: set[str]):
         super().__init__()
@@ -151,7 +172,7 @@ class NameDialog(ModalScreen[str | None]):
             self.dismiss(name)
 
     @on(Button.Pressed, "#name-cancel")
-    def cancel(self) -> None:
+    def action_cancel(self) -> None:
         self.dismiss(None)
 
 
