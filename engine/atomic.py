@@ -15,23 +15,40 @@ import errno
 import hashlib
 import os
 import re
+import stat
 import tempfile
 from pathlib import Path
 
 Fingerprint = tuple[int, int, str]
 
 
+HASHED_BYTES = 16 << 20      # a file's first 16 MiB are hashed (every second, by the watcher)
+
+
 def fingerprint(path: str | Path) -> Fingerprint | None:
     """(modification time in ns, size, content hash) to notice a change made by someone else,
-    even one that keeps the size and the modification time; None if absent or unreadable."""
+    even one that keeps the size and the modification time; None if absent or unreadable. Only a
+    regular file is read (a FIFO or a device is never opened, so nothing can hang here)."""
     try:
-        info = os.stat(path)
-        digest = hashlib.blake2b(digest_size=16)
-        with open(path, "rb") as stream:
-            for block in iter(lambda: stream.read(1 << 20), b""):
-                digest.update(block)
+        handle = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
     except OSError:
         return None
+    try:
+        info = os.fstat(handle)
+        if not stat.S_ISREG(info.st_mode):
+            return (info.st_mtime_ns, info.st_size, "")
+        digest = hashlib.blake2b(digest_size=16)
+        left = HASHED_BYTES
+        while left > 0:
+            block = os.read(handle, min(left, 1 << 20))
+            if not block:
+                break
+            digest.update(block)
+            left -= len(block)
+    except OSError:
+        return None
+    finally:
+        os.close(handle)
     return (info.st_mtime_ns, info.st_size, digest.hexdigest())
 
 

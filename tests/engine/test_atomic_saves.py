@@ -71,3 +71,10 @@ def test_a_rewrite_keeping_size_and_time_is_still_a_change(tmp_path):
     path.write_text('rf = "20k"\n')                       # same size
     os.utime(path, ns=(10**18, 10**18))                   # same modification time
     assert fingerprint(path) != before
+
+
+def test_a_fifo_is_fingerprinted_without_being_opened_for_a_read_that_waits(tmp_path):
+    fifo = tmp_path / "parts.toml"
+    os.mkfifo(fifo)                    # open(2) for reading would wait for a writer forever
+    found = fingerprint(fifo)
+    assert found is not None and found[2] == ""
