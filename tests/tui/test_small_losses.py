@@ -119,3 +119,18 @@ async def test_opening_a_form_reads_the_file_once(make_app, two_stage, monkeypat
         await pilot.pause()
         assert app.screen.query_one("#field-rf", Input).value == "10k"
         assert len(reads) == 1                             # not once per field
+
+
+@synchronous
+async def test_a_long_question_is_wrapped_to_be_read_whole_at_80_columns():
+    question = "/a/long/folder/" * 12 + "chain.toml changed on disk since it was read."
+    dialog = ConfirmScreen(question, [("o", "overwrite", "overwrite it with what is on screen "
+                                                         "(the old file is kept as .bak)")])
+    app = DialogApp(dialog)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.pause()
+        labels = [str(label.content) for label in dialog.query("Label")]
+        assert "".join(labels[0].split()) == "".join(question.split())      # every word kept
+        frame = dialog.query_one(".dialog")
+        inner = frame.content_region.width
+        assert all(len(line) <= inner for text in labels for line in text.split("\n"))

@@ -85,10 +85,11 @@ class ChainScreen(Screen):
         session = self.session
         label = "built-in demo (read-only)" if session.read_only else str(session.path)
         if session.disk_problems:
+            # first on the line, so a long file name cannot push it out of an 80-column view
             problem = session.disk_problems[0]
-            where = f"line {problem.line}: " if problem.line else ""
-            note = "; ".join(filter(None, [f"NOT RELOADED: the file on disk has problems "
-                                           f"({where}{problem.field}); r tries again", note]))
+            where = f"line {problem.line} " if problem.line else ""
+            label = (f"NOT RELOADED: disk version has problems ({where}{problem.field}; r retries)"
+                     f"  {label}")
         self.query_one(StatusLine).show(result, label, session.modified, note)
         self.query_one(StageList).show(result)
         self._show_view()
