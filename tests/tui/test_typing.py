@@ -126,3 +126,18 @@ async def test_the_engine_never_runs_on_the_event_loop_while_typing(make_app, tw
         assert len(app.session.history) == 1             # "2" then "2M": one step for undo
         await pilot.press("escape", "u")
         assert app.session.chain.stages[1].quantity("rf").value == 10e3
+
+
+async def test_keys_typed_before_a_dialog_opened_are_not_typed_into_it(make_app, two_stage):
+    from railroom.tui.screens.dialogs import SaveAsScreen
+    app = make_app(two_stage)
+    async with app.run_test(size=SIZE) as pilot:
+        box = await open_gain_stage_rf(pilot)
+        box.selection = box.selection.cursor(len(box.value))
+        dialog = SaveAsScreen("copy.toml")
+        app.push_screen(dialog)
+        await pilot.pause()
+        box._forward_event(events.Key("x", "x"))   # typed before the dialog, queued at the field
+        await pilot.pause()
+        assert dialog.query_one(Input).value == "copy.toml"
+        assert box.value == "10kx"

@@ -47,7 +47,8 @@ class FieldInput(Input):
 
     async def _on_key(self, event: events.Key) -> None:
         focused = self.app.focused
-        if focused is not None and focused is not self:
+        if focused is not None and focused is not self and focused.screen is self.screen:
+            # (a dialog that opened meanwhile is another screen: it never gets keys typed here)
             event.stop()
             event.prevent_default()
             focused._forward_event(events.Key(event.key, event.character))
