@@ -10,7 +10,7 @@ from pathlib import Path
 
 from hypothesis import HealthCheck, given, settings
 
-from fuzz_inputs import chain_files
+from fuzz_inputs import DEMO_CHAIN, chain_files, extreme_values
 from railroom.engine import editing
 from railroom.engine.blocks import BLOCKS
 from railroom.tui.session import Session, open_chain
@@ -52,10 +52,23 @@ def exercise(session: Session) -> None:
         pass
 
 
-@settings(max_examples=EXAMPLES, deadline=None, database=None, derandomize=True,
-          suppress_health_check=list(HealthCheck))
+FUZZ = settings(max_examples=EXAMPLES, deadline=None, database=None, derandomize=True,
+                suppress_health_check=list(HealthCheck))
+
+
+@FUZZ
 @given(chain_files())
 def test_generated_chains_through_the_edit_paths(text):
+    through_the_edit_paths(text)
+
+
+@FUZZ
+@given(extreme_values(DEMO_CHAIN))
+def test_chains_that_load_with_extreme_values_through_the_edit_paths(text):
+    through_the_edit_paths(text)
+
+
+def through_the_edit_paths(text: str) -> None:
     with tempfile.TemporaryDirectory() as folder:
         path = Path(folder) / "chain.toml"
         path.write_bytes(text.encode("utf-8", "surrogatepass"))
