@@ -1,4 +1,4 @@
-"""Editing a preset file without losing anything the user wrote (SPEC section 3).
+"""Editing a preset file without losing anything the user wrote (see "Presets" in the README).
 
 Every edit takes the file's text and returns new text; nothing else in the file changes. Field
 values are replaced with tomlkit, which keeps each line's comment and the table's layout. Whole
@@ -106,7 +106,7 @@ def _put(table, key: str, raw: Raw) -> None:
     if key in table:
         table[key] = value
         return
-    # A new key goes after the field that precedes it in SPEC order, so the file reads in order;
+    # A new key goes after the field that precedes it in the order of PART_FIELDS, so the file reads in order;
     # tomlkit's public add() would put it after the blank lines and comments ending the table.
     order = list(PART_FIELDS)
     before = [k for k in order[:order.index(key)] if k in table] or list(table.keys())

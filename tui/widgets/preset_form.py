@@ -24,7 +24,7 @@ from railroom.engine.values import ValueTextError, parse_quantity
 
 
 class QuantityText(Validator):
-    """A value of SPEC section 1 of one kind ("0.5V/us" for a slew rate), read by the engine's parser."""
+    """A value of one kind as the files write it ("0.5V/us" for a slew rate), read by the engine's parser."""
 
     def __init__(self, kind: str):
         super().__init__()
