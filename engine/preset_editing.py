@@ -106,7 +106,8 @@ def _put(table, key: str, raw: Raw) -> None:
     if key in table:
         table[key] = value
         return
-    # A new key goes after the field that precedes it in the order of PART_FIELDS, so the file reads in order;
+    # A new key goes after the field that precedes it in the order of PART_FIELDS, so the file
+    # reads in order;
     # tomlkit's public add() would put it after the blank lines and comments ending the table.
     order = list(PART_FIELDS)
     before = [k for k in order[:order.index(key)] if k in table] or list(table.keys())
