@@ -1,7 +1,7 @@
 """The presets screen: the user's library, listed, viewed and edited without ever losing a line.
 
 Type to filter; Enter or ↓ moves to the list. e edits, c makes a new preset from a copy, r renames,
-d deletes (after a confirmation). Shipped presets are only read: an edit saves a copy into the user's
+x deletes (after a confirmation). Shipped presets are only read: an edit saves a copy into the user's
 folder, which overrides the shipped one. After every change the screen posts `PresetsChanged` and
 calls `on_change`, so the chains that use a preset are checked again at once.
 """
@@ -188,7 +188,8 @@ class PresetsScreen(Screen):
         Binding("e,enter", "edit", "Edit", id="presets.edit", tooltip="Edit the highlighted preset"),
         Binding("c", "copy", "New from copy", id="presets.copy", tooltip="New preset from a copy"),
         Binding("r", "rename", "Rename", id="presets.rename", tooltip="Rename the preset"),
-        Binding("d", "delete", "Delete", id="presets.delete", tooltip="Delete (asks first)"),
+        # x as on the chain screen (x removes a stage; d there shows the detail)
+        Binding("x", "delete", "Delete", id="presets.delete", tooltip="Delete (asks first)"),
         Binding("slash", "focus_filter", "Filter", id="presets.filter", tooltip="Type to filter"),
         Binding("escape", "focus_list", show=False),  # harmless: it only moves the focus
         Binding("q", "close", "Back", id="presets.close", tooltip="Back to the chain"),
