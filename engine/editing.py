@@ -12,7 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import tomlkit
-from tomlkit.items import AoT, Comment, Table, Whitespace
+from tomlkit.items import AoT, Array, Comment, InlineTable, Table, Whitespace
 
 from railroom.engine.blocks import BLOCKS
 from railroom.engine.files import chain_from_text
@@ -120,12 +120,22 @@ def shown(value) -> str:
 
 
 def stage_field(text: str, index: int, key: str) -> str:
-    table = _stages(tomlkit.parse(text))[index - 1]
-    return shown(table.get(key))
+    return stage_fields(text, index, [key])[key]
 
 
 def section_field(text: str, section: str, key: str) -> str:
-    return shown(tomlkit.parse(text).get(section, {}).get(key))
+    return section_fields(text, section, [key])[key]
+
+
+def stage_fields(text: str, index: int, keys) -> dict[str, str]:
+    """Several fields of stage `index` as a form shows them, from one reading of the text."""
+    table = _stages(tomlkit.parse(text))[index - 1]
+    return {key: shown(table.get(key)) for key in keys}
+
+
+def section_fields(text: str, section: str, keys) -> dict[str, str]:
+    table = tomlkit.parse(text).get(section, {})
+    return {key: shown(table.get(key)) for key in keys}
 
 
 def set_stage_field(text: str, index: int, key: str, value) -> str:
@@ -163,7 +173,7 @@ def starter_stage(block_name: str, name: str, part: str | None, rails: str | Non
 def add_stage(text: str, position: int, fields: dict) -> str:
     """Insert a stage so that it becomes stage `position` (1-based; past the end appends)."""
     document = tomlkit.parse(text)
-    table = tomlkit.table()
+    table = tomlkit.inline_table() if isinstance(_stages(document), Array) else tomlkit.table()
     for key, value in fields.items():
         table[key] = value
 
@@ -198,6 +208,8 @@ def _reordered(document, change) -> str:
     """Take every stage with its own comment lines (tomlkit keeps the lines above a table at the
     end of whatever comes before it), change their order, and put them back together."""
     stages = _stages(document)
+    if isinstance(stages, Array):
+        return _reordered_inline(document, stages, change)
     tables = list(stages.body)
     notes = [_detach_tail(_holder_before(document, stages, tables, i)) for i in range(len(tables))]
     change(tables, notes)
@@ -207,6 +219,27 @@ def _reordered(document, change) -> str:
         _end_with_blank_line(table)
         stages.append(table)
         _holder_before(document, stages, tables, i).extend(notes[i])
+    return _dumped(document)
+
+
+def _reordered_inline(document, stages: Array, change) -> str:
+    """The same for stages written as an array of inline tables (`stage = [{...}, {...}]`): one
+    insert, delete or move in place, so the other lines keep their comments."""
+    old = list(stages)
+    new = list(old)
+    change(new, [[] for _ in new])
+    if len(new) > len(old):
+        at = next(i for i, t in enumerate(new) if not any(t is o for o in old))
+        stages.insert(at, new[at])
+    elif len(new) < len(old):
+        del stages[next(i for i, o in enumerate(old) if not any(o is t for t in new))]
+    else:
+        first = next((i for i, (o, t) in enumerate(zip(old, new)) if o is not t), None)
+        if first is not None:
+            was = next(i for i, o in enumerate(old) if o is new[first])
+            moved = stages[was]
+            del stages[was]
+            stages.insert(first, moved)
     return _dumped(document)
 
 
@@ -241,11 +274,14 @@ class _DocumentSlot(list):
         self.body[at:at] = list(items)
 
 
-def _stages(document) -> AoT:
+def _stages(document) -> AoT | Array:
+    """The stages: [[stage]] tables, or an array of inline tables (`stage = [{...}, ...]`)."""
     stages = document.get("stage")
-    if not isinstance(stages, AoT):
-        raise ValueError("the chain has no [[stage]] tables to edit")
-    return stages
+    if isinstance(stages, AoT):
+        return stages
+    if isinstance(stages, Array) and all(isinstance(t, InlineTable) for t in stages):
+        return stages
+    raise ValueError("the chain has no [[stage]] tables to edit")
 
 
 def _put(table: Table, key: str, value) -> None:
