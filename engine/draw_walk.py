@@ -13,9 +13,11 @@ frequency evaluated), carried per row as Signal arrays (J, F) with no reduction 
 circuit the bound formulas of propagation.py are exact. Offsets and bias enter as a signed shift.
 A row whose stage leaves the linear regime passes its output clamped to its own window.
 
-Two blocks' figures are single numbers in the block interface (the resistance driving the next
-stage and the conductance its input presents); they are taken at their worst over the tolerance,
-as the corners method takes them, so a row never depends on the other rows beside it.
+What drives each stage is the row's own: the source impedance, a saturated stage's output
+resistance, or the Thevenin impedance of the passive stage before it per row and frequency
+(complex, blocks/passive.py), exact for the circuit. The conductance a stage's input presents is
+a single number in the block interface; it is taken at its worst over the tolerance, as the
+corners method takes it, so a row never depends on the other rows beside it.
 """
 from __future__ import annotations
 
@@ -61,7 +63,6 @@ class Layout:
     plans: list[StagePlan]
     freqs: np.ndarray
     variables: tuple[Variable, ...]
-    drives: tuple[float, ...]              # resistance driving each stage (worst over tolerance)
     loads: tuple[InputLoad, ...]           # what the next stage's input draws (worst)
     amps: tuple[int, ...]                  # op amps per stage
     corner: tuple[StageResult, ...]        # corners results: thresholds and reaches of saturated stages
@@ -112,18 +113,11 @@ def build_layout(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, prepar
             variables += [Variable(None, f"rails.{rails.name}.positive", "rail", rails.tolerance),
                           Variable(None, f"rails.{rails.name}.negative", "rail", rails.tolerance)]
     variables = [v for v in variables if v.scale]
-    drives, loads = [], []
-    drive = chain.source.impedance
+    loads = []
     for k, plan in enumerate(plans):
-        drives.append(drive)
-        response = prepared.responses[k]
-        if response is not None:
-            drive = response.output_resistance
-        else:
-            drive = plan.part.output_resistance if plan.part else 0.0
         following = prepared.responses[k + 1] if k + 1 < len(plans) else None
         loads.append(following.input_load if following is not None else InputLoad())
-    return Layout(chain, plans, np.asarray(freqs, dtype=float), tuple(variables), tuple(drives),
+    return Layout(chain, plans, np.asarray(freqs, dtype=float), tuple(variables),
                   tuple(loads), tuple(amps), tuple(corner))
 
 
@@ -204,17 +198,21 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
     clipped = np.zeros(rows, dtype=bool)
     results = []
     inverse_gains: dict = {}          # 1/A(s) per row, once per part: stages share parts
+    drive = layout.chain.source.impedance
     for k, plan in enumerate(layout.plans):
         v = stage_values(layout, plan, D, dT)
         if plan.block.saturates:
             draws, signal = saturated_draws(layout, k, v, D, signal)
+            drive = plan.part.output_resistance if plan.part else 0.0
         else:
             if plan.part not in inverse_gains:
                 inverse_gains[plan.part] = per_row(inverse_open_loop(plan.part, grid), rows)
             ig = inverse_gains[plan.part]
-            response = plan.block.respond(v, s, ig, layout.drives[k], k == 0 and
+            response = plan.block.respond(v, s, ig, drive, k == 0 and
                                           layout.chain.source.differential)
             draws, signal = linear_draws(layout, k, response, v, D, dT, signal, record)
+            drive = response.output_impedance if response.output_impedance is not None \
+                else response.output_resistance
         clipped |= ~draws.linear
         results.append(draws)
     return results

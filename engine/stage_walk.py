@@ -59,7 +59,10 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None) -> list[Stag
         else:
             measure, bounds = linear_stage(plan, prepared.responses[k], v, signal, prepared.freqs,
                                            next_load, rise, nominal, memo)
-            signal = merge(bounds, getattr(signal, "fed_clipped", False))
+            fed = getattr(signal, "fed_clipped", False)
+            pairs = k + 1 < len(prepared.plans) and prepared.joint[k + 1]
+            signal = paired(bounds, v["drive"].shape[0], prepared.values[k + 1]["drive"].shape[0],
+                            fed) if pairs else merge(bounds, fed)
         if notes is not None:
             measure = replace(measure, **notes[k])
         result = judge(measure, plan.part, plan.rails, chain.conditions.margin)
@@ -67,6 +70,17 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None) -> list[Stag
             signal = clamp(signal, measure.window)
         results.append(result)
     return results
+
+
+def paired(bounds: NodeBounds, rows: int, next_rows: int, fed_clipped: bool) -> Signal:
+    """A passive stage's bounds handed on row by row to the stage after it, whose row i*n + j
+    is its own corner i with this stage's row j (corners.stage_values): each row of the next
+    stage meets the voltage of the very circuit whose impedance drives it."""
+    def tiled(x: np.ndarray) -> np.ndarray:
+        x = np.broadcast_to(x, (rows, x.shape[-1]))
+        return np.tile(x, (next_rows // rows, 1))
+    return Signal(hi=tiled(bounds.hi), lo=tiled(bounds.lo), amp_lo=tiled(bounds.amp_lo),
+                  amp_hi=tiled(bounds.amp_hi), fed_clipped=fed_clipped)
 
 
 def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freqs: np.ndarray,

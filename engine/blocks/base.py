@@ -61,6 +61,9 @@ class BlockResponse:
     output_resistance: float = 0.0                              # drives the next stage's input
     output_resistance_span: tuple[float, float] | None = None   # its (min, max) over the corners
     input_load: InputLoad = InputLoad()
+    # a passive block's Thevenin impedance per corner and frequency, complex (J, F+1), DC first:
+    # the next stage is driven through it (None: the real output_resistance at every frequency)
+    output_impedance: np.ndarray | None = None
 
 
 class Block:
@@ -114,6 +117,23 @@ def scaled(node: Node, factor: np.ndarray | float, extra: Transfers | None = Non
     offset = None if node.offset_gain is None else node.offset_gain * dc
     bias = None if node.bias_gain is None else node.bias_gain * dc
     return Node(transfers=transfers, offset_gain=offset, bias_gain=bias)
+
+
+def dc_resistance(drive) -> np.ndarray | float:
+    """The DC part of a driving impedance: a (J, F+1) complex impedance (DC first) as its real
+    (J, 1) DC column; a resistance (scalar or (J, 1)) as it is. Bias currents meet this one."""
+    drive = np.asarray(drive)
+    if drive.ndim == 2:
+        drive = drive[:, :1]
+    return drive.real if np.iscomplexobj(drive) else drive
+
+
+def thevenin(impedance: np.ndarray) -> dict:
+    """BlockResponse fields of a passive block from its Thevenin impedance (J, F+1): the
+    impedance itself and its DC resistance (largest, and range over the corners)."""
+    resistance = np.asarray(impedance)[..., 0].real
+    return {"output_impedance": impedance, "output_resistance": float(np.max(resistance)),
+            "output_resistance_span": (float(np.min(resistance)), float(np.max(resistance)))}
 
 
 def load_conductance(v: Mapping[str, np.ndarray]) -> np.ndarray:

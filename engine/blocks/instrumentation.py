@@ -21,7 +21,7 @@ from __future__ import annotations
 import numpy as np
 
 from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, Node, OpAmpNodes,
-                                         combined)
+                                         combined, dc_resistance)
 from railroom.engine.blocks.difference import difference_loop, input_names
 from railroom.engine.blocks.gain import single_opamp
 
@@ -115,6 +115,7 @@ class Instrumentation(Block):
 
     def respond(self, v, s, inverse_gain, drive, differential):
         rf, rg, rdiff = v["rf"], v["rg"], v["rdiff"]
+        drive = dc_resistance(drive)      # only the bias currents meet it: the + pins draw nothing
         positive, negative = input_names(differential)
         upper, lower = first_stage(rf, rg, inverse_gain, positive, negative,
                                    (drive, drive if differential else 0.0))
