@@ -68,9 +68,10 @@ def judge(measure: StageMeasure, part: Part | None, rails: Rails, required: floa
         regime = "clipping" if leaves_linear else "linear"
     reasons = [c for c in VOLTAGE_CHECKS if c in margins and margins[c] < required]
     reasons += [c for c in ("slew", "current", "supply") if margins.get(c, 0.0) < 0]
-    go = not reasons and (regime == "saturated") == block.saturates
     if measure.fed_clipped:
+        # fed by a clipping stage: whatever this stage does, its signal is not the design's
         reasons.append("fed-clipped")
+    go = not reasons and (regime == "saturated") == block.saturates
     return StageResult(
         measure=measure, regime=regime, go=go, reasons=tuple(reasons), margins=margins,
         limiting=limiting_check(margins, rails, part), failing_nodes=nodes,

@@ -21,7 +21,7 @@ corners method takes it, so a row never depends on the other rows beside it.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import cached_property
 
 import numpy as np
@@ -31,8 +31,9 @@ from railroom.engine.margins import load_currents, opamp_margins, output_drops
 from railroom.engine.model import Chain
 from railroom.engine.opamp import TWO_PI, inverse_open_loop, laplace_grid
 from railroom.engine.plan import StagePlan
-from railroom.engine.propagation import DifferentialSignal, Signal, node_bounds
+from railroom.engine.propagation import DifferentialSignal, Signal, loaded_bounds, node_bounds
 from railroom.engine.results import StageResult
+from railroom.engine.stage_walk import passive_output, shows_input
 
 SATURATED_CHECKS = ("input-high", "input-low", "current")
 
@@ -199,6 +200,7 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
     results = []
     inverse_gains: dict = {}          # 1/A(s) per row, once per part: stages share parts
     drive = layout.chain.source.impedance
+    before = None                     # the previous stage's response (None: saturated, or none)
     for k, plan in enumerate(layout.plans):
         v = stage_values(layout, plan, D, dT)
         if plan.block.saturates:
@@ -210,12 +212,28 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
             ig = inverse_gains[plan.part]
             response = plan.block.respond(v, s, ig, drive, k == 0 and
                                           layout.chain.source.differential)
-            draws, signal = linear_draws(layout, k, response, v, D, dT, signal, record)
+            fed = signal
+            draws, signal = linear_draws(layout, k, response, v, D, dT, fed, record)
+            if k > 0 and shows_input(layout.plans[k - 1:k + 1], (before, response), 1):
+                # the passive stage before shows this stage's input terminal (stage_walk)
+                results[-1] = shown_input(layout, k, response, v, D, dT, fed, results[-1])
             drive = response.output_impedance if response.output_impedance is not None \
                 else response.output_resistance
+        before = None if plan.block.saturates else response
         clipped |= ~draws.linear
         results.append(draws)
     return results
+
+
+def shown_input(layout: Layout, k: int, response, v, D, dT, signal, passive: StageDraws) -> StageDraws:
+    """The passive stage's draws with its span read at stage k's input terminal, per row."""
+    plan, rows = layout.plans[k], D.shape[0]
+    if plan.part is not None:
+        offsets, bias = row_errors(layout, plan, D, dT)
+    else:
+        offsets = bias = np.zeros((rows, max(len(response.opamps), 1)))
+    node = bounds_of(response.input_node, v, signal, offsets, bias, {})
+    return replace(passive, out_lo=band_min(node.lo), out_hi=band_max(node.hi))
 
 
 def per_row(grid: np.ndarray, rows: int) -> np.ndarray:
@@ -345,6 +363,9 @@ def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None
              for amp in response.opamps]
     margins = stage_margins([m for m, _ in found], plan, pos, neg)
     out_hi, out_lo = band_max(out.hi), band_min(out.lo)
+    if passive_output(plan, response, layout.loads[k]):      # shown loaded (stage_walk)
+        shown = loaded_bounds(response.output, v, signal, response.output_impedance, layout.loads[k])
+        out_hi, out_lo = band_max(shown.hi), band_min(shown.lo)
     if record is not None:
         record += [out.hi.argmax(-1), out.lo.argmin(-1)]
     window = (found[-1][1]["window-low"], found[-1][1]["window-high"]) if found else None

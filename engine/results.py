@@ -82,6 +82,18 @@ class StageResult:
         return self.measure.index
 
     @property
+    def shown_regime(self) -> str:
+        """The regime word lists show: "fed-clipped" for a stage that does not clip itself but
+        is fed by one that does (its regime stays linear or saturated in the report)."""
+        return "fed-clipped" if self.measure.fed_clipped and self.regime != "clipping" else self.regime
+
+    @property
+    def regime_word(self) -> str:
+        """shown_regime with "!" when the stage is not GO ("fed-clipped" never is: no mark)."""
+        word = self.shown_regime
+        return word if self.go or word == "fed-clipped" else f"{word}!"
+
+    @property
     def drawn(self) -> tuple[Span, Span | None, str | None]:
         """(span, window, op amp label) to draw for the stage: the op amp inside it with the least
         room to its swing window, so a clipping first stage shows even when the output looks fine."""
@@ -116,4 +128,6 @@ class ChainResult:
 
     @property
     def failing(self) -> int:
-        return sum(not s.go for s in self.stages)
+        """Stages that fail on their own: a stage fed by a clipping one is not GO either
+        (reason "fed-clipped"), but it is not counted as one more failure."""
+        return sum(not s.go and list(s.reasons) != ["fed-clipped"] for s in self.stages)

@@ -16,8 +16,8 @@ from railroom.engine.margins import load_currents
 from railroom.engine.opamp import TWO_PI, input_window, output_window
 from railroom.engine.plan import StagePlan
 from railroom.engine.propagation import (DifferentialSignal, NodeBounds, Signal, clamp, error_bound,
-                                         memory_order, merge, node_bounds, single_bounds,
-                                         single_terms)
+                                         loaded_bounds, memory_order, merge, node_bounds,
+                                         single_bounds, single_terms)
 from railroom.engine.results import OpAmpMeasure, StageMeasure, StageResult
 
 
@@ -59,6 +59,12 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None) -> list[Stag
         else:
             measure, bounds = linear_stage(plan, prepared.responses[k], v, signal, prepared.freqs,
                                            next_load, rise, nominal, memo)
+            if shows_input(prepared.plans, prepared.responses, k) and prepared.joint[k]:
+                # the passive stage before shows the voltage at this stage's input terminal,
+                # each of its circuits paired with this stage's own (exact)
+                shown = input_span(plan, prepared.responses[k], v, signal, rise, nominal, memo)
+                before = results[-1]
+                results[-1] = replace(before, measure=replace(before.measure, output=shown))
             fed = getattr(signal, "fed_clipped", False)
             pairs = k + 1 < len(prepared.plans) and prepared.joint[k + 1]
             signal = paired(bounds, v["drive"].shape[0], prepared.values[k + 1]["drive"].shape[0],
@@ -102,12 +108,42 @@ def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freq
         window = (float(np.max(v["low"])), float(np.min(v["high"])))   # worst over tolerance
     inner = {name: span(bounds_once(node, v, signal, offsets, bias, known, memo))
              for name, node in response.inner.items()}
+    shown = span(out)
+    if passive_output(plan, response, next_load):
+        # what the stage shows is its output with the next stage's input on it; what it hands
+        # on is its Thevenin voltage (the next stage meets the impedance itself)
+        shown = span(loaded_bounds(response.output, v, signal, response.output_impedance, next_load))
     measure = StageMeasure(
-        index=plan.index, stage=plan.stage, output=span(out), nominal=span(out), opamps=amps,
+        index=plan.index, stage=plan.stage, output=shown, nominal=shown, opamps=amps,
         window=window, supply=plan.rails.span_range if part else None,
         fed_clipped=getattr(signal, "fed_clipped", False), inner=inner,
     )
     return measure, out
+
+
+def shows_input(plans, responses, k: int) -> bool:
+    """Stage k - 1 is passive (not a converter input, which is checked on what it shows) and
+    stage k knows its input terminal: stage k - 1 then shows that terminal's voltage."""
+    return (k > 0 and responses[k - 1] is not None and responses[k - 1].output_impedance is not None
+            and not plans[k - 1].block.window_only and responses[k] is not None
+            and responses[k].input_node is not None)
+
+
+def input_span(plan: StagePlan, response: BlockResponse, v: dict, signal, rise: float,
+               nominal: bool, memo: dict | None) -> tuple[float, float]:
+    """The span of the stage's input terminal (BlockResponse.input_node)."""
+    part = plan.part
+    count = max(len(response.opamps), 1)
+    offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
+    bias = 0.0 if (nominal or part is None) else part.bias_current
+    return span(bounds_once(response.input_node, v, signal, offsets, bias, {}, memo))
+
+
+def passive_output(plan: StagePlan, response: BlockResponse, load: InputLoad) -> bool:
+    """A passive stage whose shown output differs from its Thevenin voltage: the next stage
+    draws current from it (a converter input draws none and passes its input on)."""
+    return (response.output_impedance is not None and not plan.block.window_only
+            and load.conductance > 0)
 
 
 def opamp_measure(plan: StagePlan, amp: OpAmpNodes, v: dict, signal, offsets, bias, freqs,

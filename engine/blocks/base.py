@@ -51,6 +51,7 @@ class InputLoad:
 
     conductance: float = 0.0          # largest over the tolerance, S
     returns: tuple[float, float] = (0.0, 0.0)
+    least: float = 0.0                # smallest over the tolerance and band (0: not known), S
 
 
 @dataclass(frozen=True)
@@ -64,6 +65,9 @@ class BlockResponse:
     # a passive block's Thevenin impedance per corner and frequency, complex (J, F+1), DC first:
     # the next stage is driven through it (None: the real output_resistance at every frequency)
     output_impedance: np.ndarray | None = None
+    # the voltage at the block's input terminal when a Thevenin source drives it (the node
+    # between the driving impedance and the block's first element; None: not known)
+    input_node: Node | None = None
 
 
 class Block:
@@ -134,6 +138,27 @@ def thevenin(impedance: np.ndarray) -> dict:
     resistance = np.asarray(impedance)[..., 0].real
     return {"output_impedance": impedance, "output_resistance": float(np.max(resistance)),
             "output_resistance_span": (float(np.min(resistance)), float(np.max(resistance)))}
+
+
+def junction(series, drive, far: Node | None, share=None) -> Node:
+    """The input terminal of a block driven from the source "in" through the impedance `drive`
+    into its first element `series` (an impedance, per row and s) whose far end is the node
+    `far`: J = (series Vin + Z V_far) / (series + Z), a voltage divider (Horowitz & Hill ch. 1).
+    `far` None: the far end draws nothing (J = Vin). `share`: series / (series + Z) when the
+    caller has it in a form finite at DC (a series capacitor)."""
+    if far is None:
+        return Node(transfers={"in": np.ones((1, 1))})
+    share = series / (series + drive) if share is None else share
+    return combined([(1.0 - share, far)], extra={"in": share})
+
+
+def minus_pin(plus: Node, output: Node, inverse_gain, index: int = 0, count: int = 1) -> Node:
+    """An op amp's - pin from its + pin: V- = V+ + Vos - Vout / A (opamp.py's loop form)."""
+    rows = output.offset_gain.shape[0]
+    offset = np.zeros((rows, count))
+    offset[:, index] = 1.0
+    own = Node(transfers={}, offset_gain=offset, bias_gain=np.zeros_like(offset))
+    return combined([(1.0, plus), (-inverse_gain, output), (1.0, own)])
 
 
 def load_conductance(v: Mapping[str, np.ndarray]) -> np.ndarray:

@@ -14,11 +14,12 @@ is added to the frequency grid so the worst case over the band includes it.
 """
 from __future__ import annotations
 
+from dataclasses import replace
 from typing import Mapping
 
 import numpy as np
 
-from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputLoad, Node,
+from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputLoad, Node, junction,
                                          OpAmpNodes, combined, load_conductance, opamp_node,
                                          plus_node)
 from railroom.engine.blocks.gain import virtual_earth_load
@@ -113,7 +114,8 @@ class SallenKeyLowpass(Block):
         # the input current (Vin - V_A)/r1 is at most Vin/r1 (V_A falls away above f0)
         load = InputLoad(conductance=float(np.max(1.0 / v["r1"])))
         return BlockResponse(output=response.output, opamps=response.opamps,
-                             inner=response.inner, input_load=load)
+                             inner=response.inner, input_load=load,
+                             input_node=junction(v["r1"], drive, response.inner["node A"]))
 
     def critical_frequencies(self, v):
         r1, r2, c1, c2 = v["r1"], v["r2"], v["c1"], v["c2"]
@@ -144,8 +146,10 @@ class SallenKeyHighpass(Block):
         ref = np.atleast_1d(v.get("ref", np.zeros(1)))
         load = InputLoad(conductance=float(np.max(1.0 / v["r1"] + 1.0 / v["r2"])),
                          returns=(float(np.min(ref)), float(np.max(ref))))
+        share = 1.0 / (1.0 + s * v["c1"] * drive)       # Z_c1 / (Z_c1 + Z)
         return BlockResponse(output=response.output, opamps=response.opamps,
-                             inner=response.inner, input_load=load)
+                             inner=response.inner, input_load=load,
+                             input_node=junction(None, drive, response.inner["node A"], share))
 
     def critical_frequencies(self, v):
         r1, r2, c1, c2 = v["r1"], v["r2"], v["c1"], v["c2"]
@@ -195,6 +199,11 @@ def multiple_feedback(y_in, y_out, y_ref, y_minus, y_feedback, v, inverse_gain) 
                          input_load=virtual_earth_load(v["r1"], v))
 
 
+def mfb_response(response: BlockResponse, v, drive) -> BlockResponse:
+    """A multiple-feedback response with its input terminal (r1 from in to node A)."""
+    return replace(response, input_node=junction(v["r1"], drive, response.inner["node A"]))
+
+
 class MfbLowpass(Block):
     name = "mfb_lowpass"
     summary = "multiple-feedback low-pass (inverting)"
@@ -202,8 +211,8 @@ class MfbLowpass(Block):
                         c1="node A to ref", c2="output to the - input")
 
     def respond(self, v, s, inverse_gain, drive, differential):
-        return multiple_feedback(1.0 / (v["r1"] + drive), 1.0 / v["r2"], s * v["c1"],
-                                 1.0 / v["r3"], s * v["c2"], v, inverse_gain)
+        return mfb_response(multiple_feedback(1.0 / (v["r1"] + drive), 1.0 / v["r2"], s * v["c1"],
+                                              1.0 / v["r3"], s * v["c2"], v, inverse_gain), v, drive)
 
     def critical_frequencies(self, v):
         r1, r2, r3, c1, c2 = v["r1"], v["r2"], v["r3"], v["c1"], v["c2"]
@@ -219,8 +228,8 @@ class MfbBandpass(Block):
                         c1="node A to the - input", c2="node A to the output")
 
     def respond(self, v, s, inverse_gain, drive, differential):
-        return multiple_feedback(1.0 / (v["r1"] + drive), s * v["c2"], 1.0 / v["r3"],
-                                 s * v["c1"], 1.0 / v["r2"], v, inverse_gain)
+        return mfb_response(multiple_feedback(1.0 / (v["r1"] + drive), s * v["c2"], 1.0 / v["r3"],
+                                              s * v["c1"], 1.0 / v["r2"], v, inverse_gain), v, drive)
 
     def critical_frequencies(self, v):
         r1, r2, r3, c1, c2 = v["r1"], v["r2"], v["r3"], v["c1"], v["c2"]

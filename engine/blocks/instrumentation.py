@@ -137,4 +137,5 @@ class Instrumentation(Block):
                        input_pin(negative, ones, drive if differential else 0.0, 1), lower_current),
             OpAmpNodes(LABELS[2], output, diff_plus, substitute(amp.current, inputs, 2)),
         )
-        return BlockResponse(output=output, opamps=opamps)
+        return BlockResponse(output=output, opamps=opamps,
+                             input_node=None if differential else opamps[0].plus)

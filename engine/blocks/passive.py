@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 
 from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputLoad, Node,
-                                         load_conductance, thevenin)
+                                         junction, load_conductance, thevenin)
 
 
 class Divider(Block):
@@ -36,10 +36,12 @@ class Divider(Block):
         ones = np.ones_like(s) * np.ones_like(bottom)
         ratio = bottom / (top + bottom) * ones
         impedance = top * bottom / (top + bottom) * ones
+        output = Node(transfers={"in": ratio})
         return BlockResponse(
-            output=Node(transfers={"in": ratio}),
+            output=output, input_node=junction(v["top"], drive, output),
             **thevenin(impedance),
-            input_load=InputLoad(conductance=float(np.max(1.0 / (v["top"] + bottom)))),
+            input_load=InputLoad(conductance=float(np.max(1.0 / (v["top"] + bottom))),
+                                 least=float(np.min(1.0 / (v["top"] + bottom)))),
         )
 
 
@@ -55,8 +57,9 @@ class RcLowpass(Block):
     def respond(self, v, s, inverse_gain, drive, differential):
         r, c, g_load = v["r"] + drive, v["c"], load_conductance(v)
         # Its input draws at most Vin / r (at frequencies far above the corner): conservative.
+        output = Node(transfers={"in": 1.0 / (1.0 + r * g_load + s * r * c)})
         return BlockResponse(
-            output=Node(transfers={"in": 1.0 / (1.0 + r * g_load + s * r * c)}),
+            output=output, input_node=junction(v["r"], drive, output),
             **thevenin(r / (1.0 + r * g_load + s * r * c)),
             input_load=InputLoad(conductance=float(np.max(1.0 / v["r"]))),
         )
@@ -84,4 +87,5 @@ class ConverterInput(Block):
     def respond(self, v, s, inverse_gain, drive, differential):
         # the signal passes on unchanged, and so does what drives it
         ones = np.ones_like(s) * np.ones((1, 1))
-        return BlockResponse(output=Node(transfers={"in": ones}), **thevenin(drive * ones))
+        output = Node(transfers={"in": ones})
+        return BlockResponse(output=output, input_node=output, **thevenin(drive * ones))

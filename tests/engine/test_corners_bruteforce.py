@@ -173,22 +173,29 @@ def netlist(specs, resistors: dict, impedance: float, units: dict) -> Circuit:
 def brute_force(specs, level, amplitude, grid, impedance, op: Part, freqs_ac) -> np.ndarray:
     """(stages, 2): lowest and highest output of every stage over every joint corner.
 
-    Stage k's output is read with the chain cut after stage k: the engine reports a passive
-    stage's open-circuit (Thevenin) voltage and puts the next stage's input in series with its
-    output resistance, so a divider's own span is the one before the next stage loads it.
+    Stage k's output is read with the chain cut after stage k, or, for a passive stage, after the
+    stage that follows it: the engine shows a passive stage's output with the next stage's input
+    on it (the README: that stage taken as it is, unloaded by what comes after it).
     """
-    return np.array([stage_brute_force(specs[:k + 1], level, amplitude, impedance, op, freqs_ac)
+    return np.array([stage_brute_force(specs[:cut(specs, k)], level, amplitude, impedance, op,
+                                       freqs_ac, read=f"x{k + 1}")
                      for k in range(len(specs))])
 
 
-def stage_brute_force(specs, level, amplitude, impedance, op: Part, freqs_ac) -> np.ndarray:
+def cut(specs, k: int) -> int:
+    """How many stages to keep when reading stage k (brute_force)."""
+    return k + 2 if specs[k].block == "divider" and k + 1 < len(specs) else k + 1
+
+
+def stage_brute_force(specs, level, amplitude, impedance, op: Part, freqs_ac,
+                      read: str | None = None) -> np.ndarray:
     names = resistor_names(specs)
     ends = [specs[k].values[n].ends for k, n in names]
     combos = np.array(list(itertools.product(*ends)))               # (R, n_resistors)
     resistors = {key: combos[:, i] for i, key in enumerate(names)}
     sources = voltage_sources(specs, level, op.offset, op.bias_current)
     model = {"a0": op.open_loop_gain, "gbw": op.gbw}
-    out = f"x{len(specs)}"
+    out = read or f"x{len(specs)}"
     dc = np.empty((len(combos), len(sources)))
     for i, (label, *_) in enumerate(sources):
         dc[:, i] = netlist(specs, resistors, impedance, model | {label: 1.0}).solve(0.0)[out][..., 0].real
@@ -203,7 +210,7 @@ def stage_brute_force(specs, level, amplitude, impedance, op: Part, freqs_ac) ->
 
 def random_samples(specs, level, amplitude, band, impedance, op: Part, rng, count=200):
     """(stages, count, 4) outputs at random points inside the box, random in-band frequencies and
-    phases; each stage read with the chain cut after it, as in brute_force."""
+    phases; each stage read with the chain cut as in brute_force."""
     names = resistor_names(specs)
     resistors = {key: rng.uniform(*specs[key[0]].values[key[1]].ends, count) for key in names}
     sources = voltage_sources(specs, level, op.offset, op.bias_current)
@@ -213,7 +220,7 @@ def random_samples(specs, level, amplitude, band, impedance, op: Part, rng, coun
     model = {"a0": op.open_loop_gain, "gbw": op.gbw}
     found = []
     for k in range(len(specs)):
-        head, out = specs[:k + 1], f"x{k + 1}"
+        head, out = specs[:cut(specs, k)], f"x{k + 1}"
         total = np.zeros(count)
         for label, _, _ in voltage_sources(head, level, op.offset, op.bias_current):
             sol = netlist(head, resistors, impedance, model | {label: 1.0}).solve(0.0)

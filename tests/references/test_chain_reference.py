@@ -6,7 +6,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from references.chain_netlist import OpAmp, Stage, dc, peak, response
+from references.chain_netlist import OpAmp, Stage, build, dc, peak, response
 
 
 def test_black_formula():
@@ -193,3 +193,43 @@ def test_pump_demo_stage4_slew_need_item3():
     engine = result.stages[3].measure.opamps[0].slew_needed
     # exact here (flat gain ahead, the RC paired with the stage it drives); was 46886 V/s before
     assert engine == pytest.approx(need, rel=1e-6)
+
+
+DIVIDER_INTO_INVERTING = CHAIN.replace('band = ["10k", "10k"]', 'band = ["1", "1"]').replace(
+    'level = ["0", "0"]\namplitude = "1"', 'level = ["1", "1"]\namplitude = "0"').replace(
+    'block = "rc_lowpass"\nr = "10k"\nc = "1.5915494n"', 'block = "divider"\ntop = "10k"\nbottom = "10k"')
+
+
+@pytest.mark.parametrize("text, want", [
+    # the netlist's own node between the passive stage and the next stage's input resistor
+    (CHAIN, 1 / math.sqrt(5)),                   # RC at its corner into rin = R: 0.4472
+    (DIVIDER_INTO_INVERTING, 1 / 3),             # 10k/10k into 10k to a virtual earth
+])
+def test_passive_stage_shows_its_loaded_voltage_item11(tmp_path, text, want):
+    # issue 11 item 11: a passive stage shows the voltage at its output with the next stage's
+    # input on it (it showed the open-circuit voltage: 0.707 and 0.5 V here)
+    from railroom.engine.analysis import analyse, load_checked
+    path = tmp_path / "chain.toml"
+    path.write_text(text)
+    chain, library = load_checked(str(path))
+    first = analyse(chain, library.parts, design_aids=False, headroom=False).stages[0]
+    part = OpAmp(10 ** 6.5, 1.5e6)                    # generic-precision: 130 dB, 1.5 MHz
+    if "divider" in text:
+        st = [Stage("divider", {"top": 10e3, "bottom": 10e3}), Stage("inverting", {"rin": 10e3, "rf": 10e3})]
+        c, outs = build(st, 1.0, 0.0)
+        assert float(np.real(c.solve(np.array([0.0]))[outs[0]][0])) == pytest.approx(want, rel=1e-12)
+        st[1] = Stage("inverting", {"rin": 10e3, "rf": 10e3}, opamp=part)
+        c, outs = build(st, 1.0, 0.0)
+        node = float(np.real(c.solve(np.array([0.0]))[outs[0]][0]))
+        low, high = node, node
+    else:
+        r, cap = 10e3, 1.5915494e-9
+        st = [Stage("rc_lowpass", {"r": r, "c": cap}), Stage("inverting", {"rin": r, "rf": r})]
+        assert abs(response(st, np.array([10e3]))[0][0]) == pytest.approx(want, rel=1e-6)
+        st[1] = Stage("inverting", {"rin": r, "rf": r}, opamp=part)
+        node = abs(response(st, np.array([10e3]))[0][0])
+        low, high = -node, node
+    # the span holds the netlist's node (the part's own gain) and is wider only by the part's
+    # 50 uV offset and 2 nA bias seen at that node (< 0.1 mV)
+    assert first.measure.output[0] <= low + 1e-9 and first.measure.output[1] >= high - 1e-9
+    assert first.measure.output[0] >= low - 1e-4 and first.measure.output[1] <= high + 1e-4
