@@ -100,7 +100,7 @@ def stage_cautions(measure: StageMeasure, part: Part | None, rails: Rails) -> li
         cautions.append(f"the supply can reach {rails.span_range[1]:.3g} V, above the part's "
                         f"absolute maximum of {part.supply_abs_max:.3g} V: the part may be damaged")
     if measure.reaches is not None:
-        low, high = measure.reaches
+        low, high = measure.always if measure.always is not None else measure.reaches
         if not high:
             cautions.append("the input may never cross the threshold upward at every tolerance "
                             "corner, so the output can stick low")

@@ -54,7 +54,8 @@ class StageMeasure:
     fed_clipped: bool = False
     saturated: bool = False              # a saturated-by-design block
     thresholds: tuple[Span, Span] | None = None   # saturating blocks: to go high, to go low
-    reaches: tuple[bool, bool] | None = None
+    reaches: tuple[bool, bool] | None = None       # (low, high): reached at some corner
+    always: tuple[bool, bool] | None = None        # (low, high): crossed at every joint corner
     inner: dict[str, Span] = field(default_factory=dict)
     probability: float | None = None     # montecarlo: share of draws leaving the linear regime
     percentiles: dict[str, dict[str, float]] | None = None

@@ -55,7 +55,7 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None) -> list[Stag
         next_load = following.input_load if following is not None else InputLoad()
         v = prepared.values[k]
         if plan.block.saturates:
-            measure, signal = saturated_stage(plan, v, signal)
+            measure, signal = saturated_stage(plan, v, signal, rise, nominal)
         else:
             measure, bounds = linear_stage(plan, prepared.responses[k], v, signal, prepared.freqs,
                                            next_load, rise, nominal, memo)
@@ -168,10 +168,30 @@ def opamp_measure(plan: StagePlan, amp: OpAmpNodes, v: dict, signal, offsets, bi
     )
 
 
-def saturated_stage(plan: StagePlan, v: dict, signal) -> tuple[StageMeasure, Signal]:
+def crossed_always(switching, signal, invert: bool) -> tuple[bool, bool]:
+    """(low, high): the input crosses the threshold into each state at every joint corner and
+    band frequency. At one corner the input swings dc +/- a; dc - a >= lo at every corner, so
+    its top dc + a is at least lo + 2 a_lo (and its bottom at most hi - 2 a_lo): the worst
+    corner's excursion, per frequency, against the threshold's worst corner."""
+    to_high, to_low = switching.thresholds
+    if isinstance(signal, Signal):
+        top, bottom = signal.lo + 2 * signal.amp_lo, signal.hi - 2 * signal.amp_lo
+    else:                                   # a differential source: its common-mode range
+        top = bottom = np.array([signal.common[0], signal.common[1]])
+        top, bottom = np.min(top), np.max(bottom)
+    if invert:
+        return bool(np.all(top > to_low[1])), bool(np.all(bottom < to_high[0]))
+    return bool(np.all(bottom < to_low[0])), bool(np.all(top > to_high[1]))
+
+
+def saturated_stage(plan: StagePlan, v: dict, signal, rise: float = 0.0,
+                    nominal: bool = False) -> tuple[StageMeasure, Signal]:
     """A comparator-like stage: switch levels, thresholds and the two-level signal it passes on."""
     incoming = signal.span if isinstance(signal, Signal) else (signal.common[0], signal.common[1])
-    switching = plan.block.switch(v, plan.flags, plan.part, plan.rails, incoming)
+    part = plan.part
+    offset = 0.0 if nominal else part.offset_at(25.0 + rise)
+    bias = 0.0 if nominal else part.bias_current
+    switching = plan.block.switch(v, plan.flags, part, plan.rails, incoming, offset=offset, bias=bias)
     (low_min, low_max), (high_min, high_max) = switching.levels
     reach_low, reach_high = switching.reaches
     top = high_max if reach_high else low_max
@@ -187,6 +207,7 @@ def saturated_stage(plan: StagePlan, v: dict, signal) -> tuple[StageMeasure, Sig
         opamps=(amp,), window=(low_min, high_max), supply=plan.rails.span_range,
         fed_clipped=getattr(signal, "fed_clipped", False), saturated=True,
         thresholds=switching.thresholds, reaches=switching.reaches,
+        always=crossed_always(switching, signal, bool(plan.flags.get("invert"))),
     )
     freqs_shape = np.shape(signal.hi) if isinstance(signal, Signal) else (1,)
     zero = np.zeros(freqs_shape)

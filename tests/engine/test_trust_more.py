@@ -79,3 +79,86 @@ def test_a_dc_only_source_band_of_zero_is_accepted():
     found = result(DC_ONLY, part())
     assert found.stages[0].measure.output == pytest.approx((2.0, 4.0), abs=1e-5)
     assert found.stages[0].measure.opamps[0].slew_needed == 0.0
+
+
+def schmitt(level: str, amplitude: str, rails: str = 'positive = "5"\nnegative = "0"',
+            load: str = "") -> str:
+    return f'''format = 1
+title = "Schmitt trigger"
+[rails.main]
+{rails}
+[source]
+level = [{level}]
+amplitude = "{amplitude}"
+band = ["1k", "1k"]
+[[stage]]
+name = "trigger"
+block = "schmitt"
+part = "clean"
+r1 = "10k"
+r2 = "100k"
+ref = "2.5"
+{load}
+'''
+
+
+# Sedra & Smith, Microelectronic Circuits, ch. 18 (bistable circuit, non-inverting): the input
+# thresholds are V_TH = ref (1 + r1/r2) - V_L r1/r2 and V_TL = ref (1 + r1/r2) - V_H r1/r2.
+# With an ideal 0..5 V output (no headroom, no output resistance), r1/r2 = 0.1, ref = 2.5 V:
+# V_TH = 2.75 V, V_TL = 2.75 - 0.5 = 2.25 V.
+IDEAL_OUT = dict(output_headroom=(0.0, 0.0), output_resistance=0.0)
+
+
+def test_schmitt_thresholds_by_hand():
+    stage = result(schmitt('"2.5", "2.5"', "1"), part(**IDEAL_OUT)).stages[0]
+    to_high, to_low = stage.measure.thresholds
+    assert to_high == pytest.approx((2.75, 2.75), abs=1e-12)
+    assert to_low == pytest.approx((2.25, 2.25), abs=1e-12)
+
+
+def test_schmitt_may_stick_is_judged_at_joint_corners_item5():
+    # level anywhere in 1.2..3.4 V with a 0.1 V sine: at level 1.2 V the input tops out at 1.3 V,
+    # under V_TH = 2.75 V (it never goes high); at 3.4 V it never falls to V_TL = 2.25 V. The
+    # overall span 1.1..3.5 V crosses both, which is what the caution looked at before.
+    stuck = result(schmitt('"1.2", "3.4"', "0.1"), part(**IDEAL_OUT)).stages[0]
+    assert any("stick low" in c for c in stuck.cautions)
+    assert any("stick high" in c for c in stuck.cautions)
+    # a 1 V sine on 2.4..2.6 V crosses both at every level: 1.4..3.4 V at worst, no caution
+    free = result(schmitt('"2.4", "2.6"', "1"), part(**IDEAL_OUT)).stages[0]
+    assert not any("stick" in c for c in free.cautions)
+
+
+def test_schmitt_thresholds_carry_offset_and_bias_item5():
+    # the flip is V+ + Vos = ref with V+ = (Vin r2 + Vout r1)/(r1 + r2) - Ib (r1 || r2):
+    # Vin moves by Vos (1 + r1/r2) + Ib r1 = 1 mV x 1.1 + 100 nA x 10k = 2.1 mV either way
+    found = result(schmitt('"2.5", "2.5"', "1"),
+                   part(**IDEAL_OUT, offset=1e-3, bias_current=100e-9)).stages[0]
+    to_high, to_low = found.measure.thresholds
+    assert to_high == pytest.approx((2.75 - 2.1e-3, 2.75 + 2.1e-3), abs=1e-9)
+    assert to_low == pytest.approx((2.25 - 2.1e-3, 2.25 + 2.1e-3), abs=1e-9)
+
+
+def test_schmitt_high_level_drops_under_its_own_load_item9():
+    # 5.26 V rail, 30 mV headroom: 5.23 V unloaded; Ro = 100 ohm into 1 k: V = V0 / (1 + Ro/RL)
+    # = 5.23 / 1.1 = 4.7545 V (voltage divider); with the 110 k feedback pair as well
+    # 5.23 / (1 + 100 (1/1k + 1/110k)) = 4.7507 V
+    found = result(schmitt('"2.5", "2.5"', "1", rails='positive = "5.26"\nnegative = "0"',
+                           load='load = "1k"'),
+                   part(output_headroom=(0.03, 0.03), output_resistance=100.0)).stages[0]
+    assert found.measure.output[1] == pytest.approx(5.23 / 1.1, rel=1e-9)
+    assert found.measure.thresholds[1] == pytest.approx(
+        (2.75 - 0.1 * 5.23 / 1.1, 2.75 - 0.1 * 5.23 / (1 + 100 * (1e-3 + 1 / 110e3))), rel=1e-9)
+    # the current: 4.7545 V into 1 k plus (4.7545 - 1.5) V through the 110 k pair = 4.784 mA
+    high = 5.23 / 1.1
+    assert found.measure.opamps[0].current_needed == pytest.approx(high / 1e3 + (high - 1.5) / 110e3,
+                                                                   rel=1e-9)
+
+
+def test_schmitt_input_pairs_each_rail_corner_with_its_threshold_item9():
+    # 5 V +/- 5 %: the window's top is 4.75 V + 0.1 V (input headroom -0.1 V). At that rail the
+    # high level is 4.75 V, so V+ reaches (3.5 x 100k + 4.75 x 10k) / 110k = 3.6136 V; the
+    # highest rail's level (5.25 V) would give 3.6591 V, which never meets the 4.75 V window.
+    text = schmitt('"2.5", "2.5"', "1", rails='positive = "5"\nnegative = "0"\ntolerance = "5%"')
+    found = result(text, part(**IDEAL_OUT)).stages[0]
+    assert found.measure.opamps[0].input[1] == pytest.approx((3.5e5 + 4.75 * 1e4) / 110e3, rel=1e-9)
+    assert found.margins["input-high"] == pytest.approx(4.85 - (3.5e5 + 4.75e4) / 110e3, rel=1e-9)
