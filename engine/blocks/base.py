@@ -89,6 +89,10 @@ class Block:
         """Frequencies where the response may peak (added to the band grid)."""
         return np.empty(0)
 
+    def real_critical_frequencies(self, v: Mapping[str, np.ndarray], part) -> np.ndarray:
+        """Where the response peaks with the part's own gain (filters: found on the transfer)."""
+        return np.empty(0)
+
 
 def opamp_node(solution: LoopSolution, transfers: Transfers, index: int, count: int) -> Node:
     """A node driven by op amp `index` of `count`: error gains placed in that op amp's column."""
