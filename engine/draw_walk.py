@@ -201,8 +201,10 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
     inverse_gains: dict = {}          # 1/A(s) per row, once per part: stages share parts
     drive = layout.chain.source.impedance
     before = None                     # the previous stage's response (None: saturated, or none)
+    pending = None                    # a passive stage whose shown span the next stage settles
     for k, plan in enumerate(layout.plans):
         v = stage_values(layout, plan, D, dT)
+        fed, response = signal, None
         if plan.block.saturates:
             draws, signal = saturated_draws(layout, k, v, D, signal)
             drive = plan.part.output_resistance if plan.part else 0.0
@@ -212,14 +214,19 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
             ig = inverse_gains[plan.part]
             response = plan.block.respond(v, s, ig, drive, k == 0 and
                                           layout.chain.source.differential)
-            fed = signal
             draws, signal = linear_draws(layout, k, response, v, D, dT, fed, record)
+            drive = response.output_impedance if response.output_impedance is not None \
+                else response.output_resistance
+        if pending is not None:
             if k > 0 and shows_input(layout.plans[k - 1:k + 1], (before, response), 1):
                 # the passive stage before shows this stage's input terminal (stage_walk)
                 results[-1] = shown_input(layout, k, response, v, D, dT, fed, results[-1])
-            drive = response.output_impedance if response.output_impedance is not None \
-                else response.output_resistance
-        before = None if plan.block.saturates else response
+            else:                         # or its output loaded by this stage's conductance
+                results[-1] = shown_loaded(layout, *pending, results[-1])
+        pending = None
+        if response is not None and passive_output(plan, response, layout.loads[k]):
+            pending = (k, response, v, fed)
+        before = response
         clipped |= ~draws.linear
         results.append(draws)
     return results
@@ -232,8 +239,15 @@ def shown_input(layout: Layout, k: int, response, v, D, dT, signal, passive: Sta
         offsets, bias = row_errors(layout, plan, D, dT)
     else:
         offsets = bias = np.zeros((rows, max(len(response.opamps), 1)))
-    node = bounds_of(response.input_node, v, signal, offsets, bias, {})
+    node = bounds_of(response.terminal, v, signal, offsets, bias, {})
     return replace(passive, out_lo=band_min(node.lo), out_hi=band_max(node.hi))
+
+
+def shown_loaded(layout: Layout, k: int, response, v, signal, passive: StageDraws) -> StageDraws:
+    """The passive stage's draws with its span loaded by the next stage's input conductance
+    (propagation.loaded_bounds), where the next stage does not report its input terminal."""
+    shown = loaded_bounds(response.output, v, signal, response.output_impedance, layout.loads[k])
+    return replace(passive, out_lo=band_min(shown.lo), out_hi=band_max(shown.hi))
 
 
 def per_row(grid: np.ndarray, rows: int) -> np.ndarray:
@@ -363,9 +377,6 @@ def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None
              for amp in response.opamps]
     margins = stage_margins([m for m, _ in found], plan, pos, neg)
     out_hi, out_lo = band_max(out.hi), band_min(out.lo)
-    if passive_output(plan, response, layout.loads[k]):      # shown loaded (stage_walk)
-        shown = loaded_bounds(response.output, v, signal, response.output_impedance, layout.loads[k])
-        out_hi, out_lo = band_max(shown.hi), band_min(shown.lo)
     if record is not None:
         record += [out.hi.argmax(-1), out.lo.argmin(-1)]
     window = (found[-1][1]["window-low"], found[-1][1]["window-high"]) if found else None

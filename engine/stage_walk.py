@@ -57,8 +57,10 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None) -> list[Stag
         if plan.block.saturates:
             measure, signal = saturated_stage(plan, v, signal, rise, nominal)
         else:
+            later = k + 1 < len(prepared.plans) and prepared.joint[k + 1] and \
+                shows_input(prepared.plans, prepared.responses, k + 1)
             measure, bounds = linear_stage(plan, prepared.responses[k], v, signal, prepared.freqs,
-                                           next_load, rise, nominal, memo)
+                                           next_load, rise, nominal, memo, shown_later=later)
             if shows_input(prepared.plans, prepared.responses, k) and prepared.joint[k]:
                 # the passive stage before shows the voltage at this stage's input terminal,
                 # each of its circuits paired with this stage's own (exact)
@@ -82,16 +84,20 @@ def paired(bounds: NodeBounds, rows: int, next_rows: int, fed_clipped: bool) -> 
     """A passive stage's bounds handed on row by row to the stage after it, whose row i*n + j
     is its own corner i with this stage's row j (corners.stage_values): each row of the next
     stage meets the voltage of the very circuit whose impedance drives it."""
+    reps = next_rows // rows
+
     def tiled(x: np.ndarray) -> np.ndarray:
-        x = np.broadcast_to(x, (rows, x.shape[-1]))
-        return np.tile(x, (next_rows // rows, 1))
+        if reps == 1 and x.shape[0] == rows:
+            return x
+        return np.broadcast_to(x, (reps, rows, x.shape[-1])).reshape(next_rows, x.shape[-1])
     return Signal(hi=tiled(bounds.hi), lo=tiled(bounds.lo), amp_lo=tiled(bounds.amp_lo),
                   amp_hi=tiled(bounds.amp_hi), fed_clipped=fed_clipped)
 
 
 def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freqs: np.ndarray,
                  next_load: InputLoad, rise: float, nominal: bool,
-                 memo: dict | None = None) -> tuple[StageMeasure, NodeBounds]:
+                 memo: dict | None = None, shown_later: bool = False) -> tuple[StageMeasure, NodeBounds]:
+    """`shown_later`: the next stage will set what this (passive) stage shows (input_span)."""
     part = plan.part
     count = len(response.opamps)
     offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
@@ -109,7 +115,7 @@ def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freq
     inner = {name: span(bounds_once(node, v, signal, offsets, bias, known, memo))
              for name, node in response.inner.items()}
     shown = span(out)
-    if passive_output(plan, response, next_load):
+    if passive_output(plan, response, next_load) and not shown_later:
         # what the stage shows is its output with the next stage's input on it; what it hands
         # on is its Thevenin voltage (the next stage meets the impedance itself)
         shown = span(loaded_bounds(response.output, v, signal, response.output_impedance, next_load))
@@ -136,7 +142,7 @@ def input_span(plan: StagePlan, response: BlockResponse, v: dict, signal, rise: 
     count = max(len(response.opamps), 1)
     offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
     bias = 0.0 if (nominal or part is None) else part.bias_current
-    return span(bounds_once(response.input_node, v, signal, offsets, bias, {}, memo))
+    return span(bounds_once(response.terminal, v, signal, offsets, bias, {}, memo))
 
 
 def passive_output(plan: StagePlan, response: BlockResponse, load: InputLoad) -> bool:

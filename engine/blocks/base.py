@@ -9,7 +9,8 @@ offset and bias currents. The methods never look inside a block; they only combi
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import ClassVar, Mapping
+from functools import cached_property
+from typing import Callable, ClassVar, Mapping
 
 import numpy as np
 
@@ -66,8 +67,14 @@ class BlockResponse:
     # the next stage is driven through it (None: the real output_resistance at every frequency)
     output_impedance: np.ndarray | None = None
     # the voltage at the block's input terminal when a Thevenin source drives it (the node
-    # between the driving impedance and the block's first element; None: not known)
-    input_node: Node | None = None
+    # between the driving impedance and the block's first element; None: not known), or a
+    # function that builds it, called only when a passive stage before asks (`terminal`)
+    input_node: "Node | Callable[[], Node] | None" = None
+
+    @cached_property
+    def terminal(self) -> Node | None:
+        """The input terminal's node, built once on first use (input_node)."""
+        return self.input_node() if callable(self.input_node) else self.input_node
 
 
 class Block:
@@ -150,7 +157,7 @@ def junction(series, drive, far: Node | None, share=None) -> Node:
     `far`: J = (series Vin + Z V_far) / (series + Z), a voltage divider (Horowitz & Hill ch. 1).
     `far` None: the far end draws nothing (J = Vin). `share`: series / (series + Z) when the
     caller has it in a form finite at DC (a series capacitor)."""
-    if far is None:
+    if far is None or (np.ndim(drive) == 0 and drive == 0):     # nothing drops across Z
         return Node(transfers={"in": np.ones((1, 1))})
     share = series / (series + drive) if share is None else share
     return combined([(1.0 - share, far)], extra={"in": share})

@@ -57,7 +57,8 @@ class Difference(Block):
         amp, _ = single_opamp(loop, inverse_gain, 1.0 / v["r2"], v)
         return BlockResponse(output=amp.output, opamps=(amp,),
                              input_load=InputLoad() if differential else divider_load(v),
-                             input_node=None if differential else junction(v["r3"], drive, amp.plus))
+                             input_node=None if differential else
+                             (lambda: junction(v["r3"], drive, amp.plus)))
 
 
 def divider_load(v: Mapping[str, np.ndarray]) -> InputLoad:

@@ -157,7 +157,7 @@ class SallenKeyLowpass(Block):
         load = InputLoad(conductance=float(np.max(1.0 / v["r1"])))
         return BlockResponse(output=response.output, opamps=response.opamps,
                              inner=response.inner, input_load=load,
-                             input_node=junction(v["r1"], drive, response.inner["node A"]))
+                             input_node=lambda: junction(v["r1"], drive, response.inner["node A"]))
 
     def critical_frequencies(self, v):
         r1, r2, c1, c2 = v["r1"], v["r2"], v["c1"], v["c2"]
@@ -197,7 +197,7 @@ class SallenKeyHighpass(Block):
         share = 1.0 / (1.0 + s * v["c1"] * drive)       # Z_c1 / (Z_c1 + Z)
         return BlockResponse(output=response.output, opamps=response.opamps,
                              inner=response.inner, input_load=load,
-                             input_node=junction(None, drive, response.inner["node A"], share))
+                             input_node=lambda: junction(None, drive, response.inner["node A"], share))
 
     def critical_frequencies(self, v):
         r1, r2, c1, c2 = v["r1"], v["r2"], v["c1"], v["c2"]
@@ -255,7 +255,7 @@ def multiple_feedback(y_in, y_out, y_ref, y_minus, y_feedback, v, inverse_gain) 
 
 def mfb_response(response: BlockResponse, v, drive) -> BlockResponse:
     """A multiple-feedback response with its input terminal (r1 from in to node A)."""
-    return replace(response, input_node=junction(v["r1"], drive, response.inner["node A"]))
+    return replace(response, input_node=lambda: junction(v["r1"], drive, response.inner["node A"]))
 
 
 class MfbLowpass(Block):

@@ -84,7 +84,7 @@ class Inverting(Block):
         amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
         return BlockResponse(output=amp.output, opamps=(amp,),
                              input_load=virtual_earth_load(v["rin"], v),
-                             input_node=virtual_earth_input(v["rin"], drive, amp, inverse_gain))
+                             input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain))
 
 
 class Summing(Block):
@@ -110,11 +110,13 @@ class Summing(Block):
         amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
         return BlockResponse(output=amp.output, opamps=(amp,),
                              input_load=virtual_earth_load(v["rin"], v),
-                             input_node=virtual_earth_input(v["rin"], drive, amp, inverse_gain))
+                             input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain))
 
 
 def virtual_earth_input(rin, drive, amp: OpAmpNodes, inverse_gain) -> Node:
     """The input terminal of a stage whose input resistor rin returns to the - pin."""
+    if np.ndim(drive) == 0 and drive == 0:
+        return junction(rin, drive, None)
     return junction(rin, drive, minus_pin(amp.plus, amp.output, inverse_gain))
 
 

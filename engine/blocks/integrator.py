@@ -37,7 +37,7 @@ class Integrator(Block):
         amp, _ = single_opamp(loop, inverse_gain, y_feedback, v)
         return BlockResponse(output=amp.output, opamps=(amp,),
                              input_load=virtual_earth_load(v["rin"], v),
-                             input_node=virtual_earth_input(v["rin"], drive, amp, inverse_gain))
+                             input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain))
 
     def critical_frequencies(self, v):
         return np.ravel(1.0 / (TWO_PI * v["rf"] * v["c"]))

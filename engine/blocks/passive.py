@@ -38,7 +38,7 @@ class Divider(Block):
         impedance = top * bottom / (top + bottom) * ones
         output = Node(transfers={"in": ratio})
         return BlockResponse(
-            output=output, input_node=junction(v["top"], drive, output),
+            output=output, input_node=lambda: junction(v["top"], drive, output),
             **thevenin(impedance),
             input_load=InputLoad(conductance=float(np.max(1.0 / (v["top"] + bottom))),
                                  least=float(np.min(1.0 / (v["top"] + bottom)))),
@@ -59,7 +59,7 @@ class RcLowpass(Block):
         # Its input draws at most Vin / r (at frequencies far above the corner): conservative.
         output = Node(transfers={"in": 1.0 / (1.0 + r * g_load + s * r * c)})
         return BlockResponse(
-            output=output, input_node=junction(v["r"], drive, output),
+            output=output, input_node=lambda: junction(v["r"], drive, output),
             **thevenin(r / (1.0 + r * g_load + s * r * c)),
             input_load=InputLoad(conductance=float(np.max(1.0 / v["r"]))),
         )

@@ -117,13 +117,13 @@ def next_drive(plan: StagePlan, response: BlockResponse | None) -> np.ndarray:
 
 
 def stage_values(plan: StagePlan, rise: float, nominal: bool, before: BlockResponse | None,
-                 before_rows: int, drive: np.ndarray) -> tuple[dict[str, np.ndarray], bool]:
+                 before_rows: int, drive) -> tuple[dict[str, np.ndarray], bool]:
     """The stage's corner values and whether they pair with every row of the passive stage
     before it. After a passive stage (its Thevenin impedance known per row) the stage's own
     corners are enumerated jointly with that stage's: row i*n + j is own corner i with the
     passive stage's row j, its voltage and its impedance together, which is exact. When the
-    joint count passes the limit the impedance is enumerated apart (`drive`: its distinct
-    values), a bound from outside. A saturated stage takes no drive; it never pairs."""
+    joint count passes the limit the impedance is enumerated apart (`drive()`: its distinct
+    values, found only then), a bound from outside. A saturated stage never pairs."""
     if before is not None and before.output_impedance is not None and not plan.block.saturates:
         impedance = np.atleast_2d(before.output_impedance)
         impedance = np.broadcast_to(impedance, (before_rows, impedance.shape[-1]))
@@ -131,7 +131,7 @@ def stage_values(plan: StagePlan, rise: float, nominal: bool, before: BlockRespo
             return corner_values(plan, rise, nominal, impedance), True
         except TooManyCorners:
             pass
-    return corner_values(plan, rise, nominal, drive), False
+    return corner_values(plan, rise, nominal, drive()), False
 
 
 def prepare(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, nominal: bool = False,
@@ -139,7 +139,8 @@ def prepare(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, nominal: bo
     rise = chain.conditions.worst_temperature_rise
     s = laplace_grid(freqs)
     values, responses, joint = [], [], []
-    drive = np.array([[chain.source.impedance]])
+    source = np.array([[chain.source.impedance]])
+    drive = lambda: source                                   # noqa: E731
     before = None
     differential = chain.source.differential
     for plan in plans:
@@ -149,7 +150,8 @@ def prepare(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, nominal: bo
         response = None
         if not plan.block.saturates:
             response = plan.block.respond(v, s, inverse_gain, v["drive"], differential)
-        drive, before = next_drive(plan, response), response
+        drive = (lambda plan=plan, response=response: next_drive(plan, response))
+        before = response
         differential = False
         values.append(v)
         responses.append(response)
