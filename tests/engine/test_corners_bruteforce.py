@@ -233,18 +233,6 @@ def random_samples(specs, level, amplitude, band, impedance, op: Part, rng, coun
 
 # ---- the properties -------------------------------------------------------------------------
 
-def coupled_by_loading(specs, bias: float) -> bool:
-    """A toleranced divider whose output resistance the next stage sees (in series with its input
-    resistor, or carrying its bias current): the joint corner couples the divider's ratio with
-    that resistance, which the stage-by-stage corners cannot follow exactly."""
-    for k, spec in enumerate(specs[:-1]):
-        varies = spec.block == "divider" and any(v.tolerance for v in spec.values.values())
-        follows = specs[k + 1].block
-        if varies and (follows in ("inverting", "summing", "divider") or bias):
-            return True
-    return False
-
-
 def engine_spans(text: str, op: Part):
     chain = chain_from_text(text)
     result = analyse(chain, {"p": op})
@@ -265,7 +253,8 @@ def test_corner_spans_equal_every_joint_corner(case, exact_part, seed):
     specs, level, amplitude, band, impedance, offset, bias = case
     r_bits, m_bits = bits(specs, bias, offset)
     assume(r_bits <= 8 and m_bits <= 12)
-    assume(not coupled_by_loading(specs, bias))
+    # a toleranced divider into the next stage is exact too: the next stage's corners are
+    # enumerated jointly with the divider's (each with its own ratio and output resistance)
     assume(exact_part or amplitude == 0)          # where propagation.py says it is exact
     op = part(exact_part, offset, bias)
     text = chain_text(specs, level, amplitude, band, impedance)
@@ -286,9 +275,6 @@ def test_corner_spans_contain_every_joint_corner_and_sample(case, seed):
     specs, level, amplitude, band, impedance, offset, bias = case
     r_bits, m_bits = bits(specs, bias, offset)
     assume(r_bits <= 8 and m_bits <= 12)
-    # a toleranced divider into a low-resistance input is the known gap (xfail test below);
-    # the bias current through a divider's output resistance stays bounded (largest resistance)
-    assume(not coupled_by_loading(specs, bias=0.0))
     op = part(False, offset, bias)
     text = chain_text(specs, level, amplitude, band, impedance)
     spans, freqs = engine_spans(text, op)
@@ -302,15 +288,16 @@ def test_corner_spans_contain_every_joint_corner_and_sample(case, seed):
     assert np.all(samples <= spans[:, 1:, None] + slack[:, 1:, None])
 
 
-def test_toleranced_divider_into_inverting_stage_is_bounded():
-    # divider 1k 5% / 1k into an inverting -1 stage, 1 V DC. The next stage enumerates the
-    # divider's output resistance at both ends as a corner of its own (methods/corners.prepare),
-    # so the joint corners (nodal solver) stay inside the engine's span; before that fix the
-    # engine handed on one resistance and the span came out too narrow.
+def test_toleranced_divider_into_inverting_stage_is_exact():
+    # divider 1k 5% / 1k into an inverting -1 stage, 1 V DC. The inverting stage's corners are
+    # enumerated jointly with the divider's (methods/corners.stage_values), so the engine's span
+    # equals the joint corners of the nodal solver; before, the divider's output resistance was
+    # enumerated apart from its ratio (a bound from outside), and before that held at one value
+    # (too narrow).
     specs = [StageSpec("divider", {"top": Value(1e3, 0.05), "bottom": Value(1e3, 0.0)}),
              StageSpec("inverting", {"rin": Value(1e3, 0.0), "rf": Value(1e3, 0.0),
                                      "ref": Value(0.0, 0.0)})]
     op = part(True, 0.0, 0.0)
     spans, freqs = engine_spans(chain_text(specs, (1.0, 1.0), 0.0, (10.0, 20e3), 0.0), op)
     truth = brute_force(specs, (1.0, 1.0), 0.0, (10.0, 20e3), 0.0, op, freqs)
-    assert truth[1, 0] >= spans[1, 0] - 1e-9 and truth[1, 1] <= spans[1, 1] + 1e-9
+    assert np.allclose(spans, truth, rtol=1e-7, atol=1e-9), (spans, truth)
