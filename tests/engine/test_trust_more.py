@@ -162,3 +162,13 @@ def test_schmitt_input_pairs_each_rail_corner_with_its_threshold_item9():
     found = result(text, part(**IDEAL_OUT)).stages[0]
     assert found.measure.opamps[0].input[1] == pytest.approx((3.5e5 + 4.75 * 1e4) / 110e3, rel=1e-9)
     assert found.margins["input-high"] == pytest.approx(4.85 - (3.5e5 + 4.75e4) / 110e3, rel=1e-9)
+
+
+def test_an_ac_amplitude_with_no_band_is_a_located_caution_item11():
+    # issue 11 item 11: an amplitude with no band was checked at 1 Hz only, silently
+    text = DC_ONLY.replace('band = ["0", "0"]', 'amplitude = "0.5"')
+    found = analyse(chain_from_text(text, path="board.toml"), part(), design_aids=False,
+                    headroom=False)
+    assert any(c.startswith("board.toml: source.band:") and "1 Hz only" in c for c in found.cautions)
+    with_band = text.replace('amplitude = "0.5"', 'amplitude = "0.5"\nband = ["10", "1k"]')
+    assert not any("source.band" in c for c in result(with_band, part()).cautions)
