@@ -96,6 +96,10 @@ class Evaluator:
             self._prepared = corners.prepare(self.chain, self.plans, self.freqs)
             self._unchanged = corners.run(self._prepared, entering=self._entering)
         first = max(changed - 1, 0)
+        # a passive stage shows (and hands on) what the stage after it loads it to, row by row
+        # with that stage's corners: start from the last stage before them that stands alone
+        while first > 0 and (self._prepared.joint[first] or not self.plans[first].block.uses_part):
+            first -= 1
         prepared = corners.prepare(self.chain, plans, self.freqs, reuse=self._prepared, first=changed)
         return [*self._unchanged[:first],
                 *corners.run_from(prepared, first, self._entering[first], stop)]

@@ -223,7 +223,7 @@ def print_aids(console: Console, stage: StageResult) -> None:
 
 
 def regime_text(stage: StageResult, colour: bool) -> Text:
-    word = stage.regime if stage.go else f"{stage.regime}!"
+    word = stage.regime_word
     style = {"linear": "green", "clipping": "bold red", "saturated": "cyan"}[stage.regime]
     if not stage.go and stage.regime != "clipping":
         style = "yellow"
