@@ -45,10 +45,12 @@ def bounds_once(node, v: dict, signal, offsets, bias, known: dict,
 
 
 def walk_chain(prepared, signal, nominal: bool = False, notes=None, first: int = 0,
-               entering: list | None = None, stop: int | None = None) -> list[StageResult]:
+               entering: list | None = None, stop: int | None = None,
+               levels: dict | None = None) -> list[StageResult]:
     """Results of stages `first` up to (not including) `stop`, the last by default, fed `signal`
-    at stage `first`. `entering`, when
-    given, receives the signal entering each walked stage (the fix search re-walks from there)."""
+    at stage `first`. `entering`, when given, receives the signal entering each walked stage
+    (the fix search re-walks from there); `levels`, stage index -> the bounds per frequency of
+    what each linear stage shows (the level picture)."""
     chain = prepared.chain
     rise = chain.conditions.worst_temperature_rise
     # node terms depend on the offsets, which the nominal walk leaves out: one memo for each
@@ -71,9 +73,14 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None, first: int =
             if shows_input(prepared.plans, prepared.responses, k) and prepared.joint[k]:
                 # the passive stage before shows the voltage at this stage's input terminal,
                 # each of its circuits paired with this stage's own (exact)
-                shown = input_span(plan, prepared.responses[k], v, signal, rise, nominal, memo)
+                terminal = input_bounds(plan, prepared.responses[k], v, signal, rise, nominal, memo)
+                shown = span(terminal)
+                if levels is not None:
+                    levels[k - 1] = terminal
                 before = results[-1]
                 results[-1] = replace(before, measure=replace(before.measure, output=shown))
+            if levels is not None:
+                levels[k] = bounds
             fed = getattr(signal, "fed_clipped", False)
             pairs = k + 1 < len(prepared.plans) and prepared.joint[k + 1]
             signal = paired(bounds, v["drive"].shape[0], prepared.values[k + 1]["drive"].shape[0],
@@ -145,11 +152,17 @@ def shows_input(plans, responses, k: int) -> bool:
 def input_span(plan: StagePlan, response: BlockResponse, v: dict, signal, rise: float,
                nominal: bool, memo: dict | None) -> tuple[float, float]:
     """The span of the stage's input terminal (BlockResponse.input_node)."""
+    return span(input_bounds(plan, response, v, signal, rise, nominal, memo))
+
+
+def input_bounds(plan: StagePlan, response: BlockResponse, v: dict, signal, rise: float,
+                 nominal: bool, memo: dict | None):
+    """The bounds per frequency of the stage's input terminal (BlockResponse.input_node)."""
     part = plan.part
     count = max(len(response.opamps), 1)
     offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
     bias = 0.0 if (nominal or part is None) else part.bias_current
-    return span(bounds_once(response.terminal, v, signal, offsets, bias, {}, memo))
+    return bounds_once(response.terminal, v, signal, offsets, bias, {}, memo)
 
 
 def passive_output(plan: StagePlan, response: BlockResponse, load: InputLoad) -> bool:
