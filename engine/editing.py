@@ -48,6 +48,8 @@ CONDITION_FIELDS = {
     "default_tolerance": FieldShape("fraction", help="for values written without one"),
 }
 SECTIONS = {"source": SOURCE_FIELDS, "conditions": CONDITION_FIELDS}
+INPUTS_HELP = 'fixed inputs "r, v" (resistor from voltage v to the - input), ";" between: 82k, 0; 100k 1%, 5'
+
 STARTER_VALUES = {"resistance": "10k", "capacitance": "10n", "voltage": "0", "frequency": "1k"}
 STARTER_FIELDS = {("adc", "high"): "5"}
 
@@ -64,7 +66,8 @@ def stage_shapes(block_name: str) -> dict[str, FieldShape]:
     shapes["load"] = FieldShape("resistance", help="load from the output to 0 V (optional)")
     for key, spec in block.fields.items():
         if spec.kind == "inputs":
-            continue                   # lists of tables: edited in the file itself
+            shapes[key] = FieldShape("inputs", "inputs", help=INPUTS_HELP)
+            continue
         form = "flag" if spec.kind == "flag" else "value"
         shapes[key] = FieldShape(spec.kind, form, help=spec.help)
     return shapes
@@ -86,6 +89,13 @@ def value_problem(raw: str, shape: FieldShape) -> str | None:
         elif shape.form == "flag":
             if text not in ("true", "false"):
                 return f"expected true or false, got {raw!r}"
+        elif shape.form == "inputs":
+            for number, entry in enumerate(_entries(text), 1):
+                if len(entry) != 2:
+                    return (f'input {number}: expected "r, v" (a resistance, a voltage), '
+                            f"got {';'.join(entry)!r}")
+                parse_quantity(entry[0], "resistance")
+                parse_quantity(entry[1], "voltage")
         elif shape.form in ("choice", "text"):
             if shape.choices and text not in shape.choices:
                 return f"expected one of {', '.join(shape.choices)}, got {raw!r}"
@@ -105,7 +115,21 @@ def toml_value(raw: str, shape: FieldShape):
         return int(text)
     if shape.form == "flag":
         return text == "true"
+    if shape.form == "inputs":
+        if not text:
+            return None
+        inputs = tomlkit.array()
+        for r, v in _entries(text):
+            entry = tomlkit.inline_table()
+            entry.update({"r": r, "v": v})
+            inputs.append(entry)
+        return inputs
     return text or None
+
+
+def _entries(text: str) -> list[list[str]]:
+    """ "82k, 0; 100k, 5" -> [["82k", "0"], ["100k", "5"]] (empty entries skipped)."""
+    return [[p.strip() for p in part.split(",")] for part in text.split(";") if part.strip()]
 
 
 def shown(value) -> str:
@@ -114,6 +138,8 @@ def shown(value) -> str:
         return ""
     if isinstance(value, bool):
         return "true" if value else "false"
+    if isinstance(value, list) and value and all(isinstance(v, dict) for v in value):
+        return "; ".join(f"{shown(v.get('r'))}, {shown(v.get('v'))}" for v in value)
     if isinstance(value, list):
         return ", ".join(shown(v) for v in value)
     return str(value)

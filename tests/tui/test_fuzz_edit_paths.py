@@ -16,7 +16,7 @@ from railroom.engine.blocks import BLOCKS
 from railroom.tui.session import Session, open_chain
 
 EXAMPLES = int(os.environ.get("RAILROOM_FUZZ_EXAMPLES", "40"))
-TYPED = {"pair": "1, 2", "integer": "7", "flag": "true", "choice": "", "text": "renamed"}
+TYPED = {"inputs": "10k, 1; 22k 1%, -2", "pair": "1, 2", "integer": "7", "flag": "true", "choice": "", "text": "renamed"}
 
 
 def typed_value(shape: editing.FieldShape) -> str:

@@ -134,3 +134,23 @@ async def test_a_long_question_is_wrapped_to_be_read_whole_at_80_columns():
         frame = dialog.query_one(".dialog")
         inner = frame.content_region.width
         assert all(len(line) <= inner for text in labels for line in text.split("\n"))
+
+
+async def test_the_summing_stage_inputs_are_edited_in_the_form(make_app, tmp_path):
+    from railroom.tui.session import demo_path
+    path = tmp_path / "pump.toml"
+    path.write_text(demo_path().read_text(encoding="utf-8"), encoding="utf-8")
+    app = make_app(path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.pause()
+        await pilot.press("j", "j", "j", "e")              # stage 4: the level shift (summing)
+        await pilot.pause()
+        assert app.screen.query_one("#field-inputs", Input).value == "82k, 0"
+        await retype(pilot, "inputs", "82k, 0; 1M 1%, 5")
+        inputs = app.session.chain.stages[3].values["inputs"]
+        assert [(i["r"].value, i["v"].value) for i in inputs] == [(82e3, 0.0), (1e6, 5.0)]
+        assert ('inputs = [{r = "82k", v = "0"}, {r = "1M 1%", v = "5"}]   # sets the output'
+                in app.session.text)
+        await retype(pilot, "inputs", "82k")               # half typed: a draft with a message
+        assert "expected" in str(app.screen.query_one("#message-inputs").content)
+        assert len(app.session.chain.stages[3].values["inputs"]) == 2
