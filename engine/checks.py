@@ -113,12 +113,12 @@ def stage_cautions(measure: StageMeasure, part: Part | None, rails: Rails) -> li
 def chain_cautions(chain: Chain) -> list[str]:
     cautions = []
     source = chain.source
-    if source.amplitude > 0 and source.band == (1.0, 1.0):
-        # the loader's default band when none is written (a band of [1, 1] reads the same)
+    if source.amplitude > 0 and not source.band_given:
+        # the loader's default band when none is written; a band = [1, 1] written is meant
         cautions.append(
             f"{chain.path}: source.band: the AC amplitude of {source.amplitude:.3g} V is checked "
-            "at 1 Hz only (no band given, or band = [1, 1]): write band = [lowest, highest] for "
-            'the frequencies it has, or ["0", "0"] for a DC swing')
+            "at 1 Hz only (no band given): write band = [lowest, highest] for the frequencies "
+            'it has, or ["0", "0"] for a DC swing')
     for rails in chain.rails.values():
         top = rails.span_range[1]
         if top > SELV_DC_LIMIT:

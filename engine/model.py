@@ -111,6 +111,7 @@ class Source:
     amplitude: float = 0.0                            # AC peak (of the difference when differential)
     band: tuple[float, float] = (1.0, 1.0)            # Hz
     impedance: float = 0.0                            # ohm, in series with each source side
+    band_given: bool = True                           # False: no band in the file (1 Hz assumed)
 
     @property
     def differential(self) -> bool:

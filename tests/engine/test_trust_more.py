@@ -172,3 +172,11 @@ def test_an_ac_amplitude_with_no_band_is_a_located_caution_item11():
     assert any(c.startswith("board.toml: source.band:") and "1 Hz only" in c for c in found.cautions)
     with_band = text.replace('amplitude = "0.5"', 'amplitude = "0.5"\nband = ["10", "1k"]')
     assert not any("source.band" in c for c in result(with_band, part()).cautions)
+
+
+def test_a_band_of_one_hertz_written_is_meant_not_cautioned():
+    # band = ["1", "1"] is a single frequency the user chose; only a missing band is cautioned
+    text = DC_ONLY.replace('band = ["0", "0"]', 'amplitude = "0.5"\nband = ["1", "1"]')
+    found = analyse(chain_from_text(text, path="board.toml"), part(), design_aids=False,
+                    headroom=False)
+    assert not any("source.band" in c for c in found.cautions)
