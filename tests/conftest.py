@@ -16,3 +16,11 @@ def _own_presets_folder(tmp_path_factory, monkeypatch):
     folder = tmp_path_factory.mktemp("user-presets")
     monkeypatch.setenv("RAILROOM_PRESETS_HOME", str(folder))
     yield folder
+
+
+@pytest.fixture
+def home(tmp_path):
+    """An empty preset folder of the user's own, for command-line runs (command_line.railroom)."""
+    folder = tmp_path / "home"
+    folder.mkdir()
+    return folder

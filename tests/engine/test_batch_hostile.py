@@ -13,6 +13,7 @@ from pathlib import Path
 import pytest
 
 from fuzz_inputs import DEMO_CHAIN
+from command_line import railroom as run_railroom
 
 DEMO = DEMO_CHAIN.read_text(encoding="utf-8")
 GO_CHAIN = DEMO.replace('amplitude = "200m"', 'amplitude = "20m"')
@@ -22,16 +23,7 @@ GUARD_S = 120          # a hang guard for waiting on processes, not a timing che
 
 
 def railroom(*args: str, home: Path) -> subprocess.CompletedProcess:
-    env = {**os.environ, "RAILROOM_PRESETS_HOME": str(home)}
-    return subprocess.run([sys.executable, "-m", "railroom.tui.cli", *args], capture_output=True,
-                          text=True, env=env, timeout=GUARD_S, stdin=subprocess.DEVNULL)
-
-
-@pytest.fixture
-def home(tmp_path):
-    folder = tmp_path / "home"
-    folder.mkdir()
-    return folder
+    return run_railroom(*args, home=home, timeout=GUARD_S, columns=None)
 
 
 def test_the_slow_chain_loads_and_asks_for_ten_million_draws():

@@ -11,21 +11,11 @@ from pathlib import Path
 import pytest
 
 import railroom.engine.demos
+from command_line import X10_CHAIN
 
 DEMOS = Path(railroom.engine.demos.__file__).parent
 PUMP, BRIDGE = str(DEMOS / "pump_vibration.toml"), str(DEMOS / "bridge_sensor.toml")
-GO_CHAIN = '''format = 1
-[rails.main]
-positive = "15"
-negative = "-15"
-[source]
-level = ["-0.1", "0.1"]
-[[stage]]
-block = "noninverting"
-part = "generic-bipolar-15v"
-rf = "90k 1%"
-rg = "10k 1%"
-'''
+GO_CHAIN = X10_CHAIN
 
 
 def closed_reader(*args: str, home: Path) -> tuple[int, str]:

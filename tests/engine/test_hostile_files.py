@@ -5,31 +5,18 @@ from __future__ import annotations
 
 import os
 import subprocess
-import sys
 from pathlib import Path
 
 import pytest
 
-import railroom.engine.demos
+import railroom.engine.demos as demos_package
 from railroom.engine.presets import shipped_folder
+from command_line import railroom
 
-DEMO = Path(railroom.engine.demos.__file__).parent / "pump_vibration.toml"
+DEMO = Path(demos_package.__file__).parent / "pump_vibration.toml"
 DEMO_TEXT = DEMO.read_text(encoding="utf-8")
 SHIPPED = (shipped_folder() / "generic.toml").read_text(encoding="utf-8")
 DEEP = 500
-
-
-def railroom(*args: str, home: Path, timeout: float = 60) -> subprocess.CompletedProcess:
-    env = {**os.environ, "RAILROOM_PRESETS_HOME": str(home), "COLUMNS": "200"}
-    return subprocess.run([sys.executable, "-m", "railroom.tui.cli", *args], capture_output=True,
-                          text=True, env=env, timeout=timeout, stdin=subprocess.DEVNULL)
-
-
-@pytest.fixture
-def home(tmp_path):
-    folder = tmp_path / "home"
-    folder.mkdir()
-    return folder
 
 
 def assert_clean(done: subprocess.CompletedProcess) -> None:

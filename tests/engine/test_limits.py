@@ -2,15 +2,14 @@
 located message instead of taking minutes and gigabytes."""
 from __future__ import annotations
 
-import os
 import subprocess
-import sys
 from pathlib import Path
 
 import pytest
 
 from railroom.engine.files import MAX_INPUTS, MAX_STAGES
 from railroom.engine.reading import MAX_FILE_BYTES, MAX_TEXT
+from command_line import railroom as run_railroom
 
 HEAD = '''format = 1
 [rails.main]
@@ -28,23 +27,14 @@ def summing(count: int) -> str:
             f'rf = "10k"\ninputs = [{inputs}]\n')
 
 
-def railroom(*args: str, home: Path) -> subprocess.CompletedProcess:
-    env = {**os.environ, "RAILROOM_PRESETS_HOME": str(home), "COLUMNS": "200"}
-    return subprocess.run([sys.executable, "-m", "railroom.tui.cli", *args], capture_output=True,
-                          text=True, env=env, timeout=120, stdin=subprocess.DEVNULL)
-
-
-@pytest.fixture
-def home(tmp_path):
-    folder = tmp_path / "home"
-    folder.mkdir()
-    return folder
-
-
 def write(tmp_path: Path, text: str) -> Path:
     path = tmp_path / "board.toml"
     path.write_text(text, encoding="utf-8")
     return path
+
+
+def railroom(*args: str, home: Path) -> subprocess.CompletedProcess:
+    return run_railroom(*args, home=home, timeout=120)
 
 
 def test_the_limits_are_the_documented_ones():

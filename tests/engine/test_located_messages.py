@@ -3,42 +3,18 @@ save into a read-only folder, and 50,000 unknown keys counted rather than listed
 from __future__ import annotations
 
 import os
-import subprocess
-import sys
 from pathlib import Path
 
 import pytest
 
-import railroom.engine.demos
+import railroom.engine.demos as demos_package
 from railroom.engine.presets import shipped_folder
+from command_line import X10_CHAIN
+from command_line import railroom
 
-DEMO_TEXT = (Path(railroom.engine.demos.__file__).parent / "pump_vibration.toml").read_text(
+DEMO_TEXT = (Path(demos_package.__file__).parent / "pump_vibration.toml").read_text(
     encoding="utf-8")
-CHAIN = '''format = 1
-[rails.main]
-positive = "15"
-negative = "-15"
-[source]
-level = ["-0.1", "0.1"]
-[[stage]]
-block = "noninverting"
-part = "generic-bipolar-15v"
-rf = "90k 1%"
-rg = "10k 1%"
-'''
-
-
-def railroom(*args: str, home: Path) -> subprocess.CompletedProcess:
-    env = {**os.environ, "RAILROOM_PRESETS_HOME": str(home), "COLUMNS": "200"}
-    return subprocess.run([sys.executable, "-m", "railroom.tui.cli", *args], capture_output=True,
-                          text=True, env=env, timeout=60, stdin=subprocess.DEVNULL)
-
-
-@pytest.fixture
-def home(tmp_path):
-    folder = tmp_path / "home"
-    folder.mkdir()
-    return folder
+CHAIN = X10_CHAIN
 
 
 def test_a_mistyped_table_is_named_with_its_line(tmp_path, home):

@@ -3,13 +3,11 @@ item 6, issue 18): `railroom check` exits 2 and says first where the broken part
 from __future__ import annotations
 
 import os
-import subprocess
-import sys
-from pathlib import Path
 
 import pytest
 
 from railroom.engine.presets import shipped_folder
+from command_line import railroom
 
 SHIPPED = (shipped_folder() / "generic.toml").read_text(encoding="utf-8")
 # generic-bipolar-15v as shipped, but derated by the user: its bias current is mistyped.
@@ -30,24 +28,11 @@ rg = "10k 1%"
 '''
 
 
-def railroom(*args: str, home: Path) -> subprocess.CompletedProcess:
-    env = {**os.environ, "RAILROOM_PRESETS_HOME": str(home), "COLUMNS": "200"}
-    return subprocess.run([sys.executable, "-m", "railroom.tui.cli", *args], capture_output=True,
-                          text=True, env=env, timeout=60, stdin=subprocess.DEVNULL)
-
-
 @pytest.fixture
 def chain(tmp_path):
     path = tmp_path / "board.toml"
     path.write_text(CHAIN, encoding="utf-8")
     return path
-
-
-@pytest.fixture
-def home(tmp_path):
-    folder = tmp_path / "home"
-    folder.mkdir()
-    return folder
 
 
 def test_the_chain_checks_with_the_shipped_part(chain, home):

@@ -4,13 +4,11 @@ Markdown report makes no link of a bare address and passes no HTML entity throug
 from __future__ import annotations
 
 import json
-import os
 import re
-import subprocess
-import sys
-from pathlib import Path
 
 import pytest
+from command_line import X10_CHAIN
+from command_line import railroom
 
 # Characters a terminal acts on or that change what is shown without being seen: C0 (newline
 # aside), DEL, C1 (ECMA-48), U+2028/2029 (Unicode line and paragraph separators), zero-width and
@@ -19,31 +17,7 @@ import pytest
 RAW = re.compile("[\x00-\x09\x0b-\x1f\x7f-\x9f\u2028\u2029\u200b-\u200f\u202a-\u202e"
                  "\u2066-\u2069\ufeff]")
 HOSTILE_NAME = "\x1b]52;c;aGVsbG8=\x07\x1b[2J\u2028\u202eevil\u200b"
-CHAIN = '''format = 1
-[rails.main]
-positive = "15"
-negative = "-15"
-[source]
-level = ["-0.1", "0.1"]
-[[stage]]
-block = "noninverting"
-part = "generic-bipolar-15v"
-rf = "90k 1%"
-rg = "10k 1%"
-'''
-
-
-def railroom(*args: str, home: Path) -> subprocess.CompletedProcess:
-    env = {**os.environ, "RAILROOM_PRESETS_HOME": str(home), "COLUMNS": "200"}
-    return subprocess.run([sys.executable, "-m", "railroom.tui.cli", *args], capture_output=True,
-                          text=True, env=env, timeout=60, stdin=subprocess.DEVNULL)
-
-
-@pytest.fixture
-def home(tmp_path):
-    folder = tmp_path / "home"
-    folder.mkdir()
-    return folder
+CHAIN = X10_CHAIN
 
 
 @pytest.fixture
