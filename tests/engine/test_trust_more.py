@@ -1,27 +1,18 @@
 """Issue 11, more of its items, each against a hand calculation named beside it. The circuits are
-written in the chain format of the README; CLEAN is an illustrative part with no offset."""
+written in the chain format of the README; `part()` is an illustrative part with no offset."""
 from __future__ import annotations
 
 import pytest
 
 from railroom.engine.analysis import analyse
 from railroom.engine.files import chain_from_text
-from railroom.engine.model import Part
 from railroom.engine.report import chain_report
 
-CLEAN = dict(id="clean", description="test part", supply=(2.7, 40.0), supply_abs_max=44.0,
-             output_headroom=(0.03, 0.03), output_resistance=40.0, input_headroom=(-0.1, -0.1),
-             gbw=10e6, slew=10e6, open_loop_gain=1e7, offset=0.0, offset_drift=0.0,
-             bias_current=0.0, output_current=50e-3)
+from clean_part import part
 
 
-def part(**changes) -> dict[str, Part]:
-    return {"clean": Part(**{**CLEAN, **changes})}
-
-
-def result(text: str, parts: dict[str, Part], **options):
+def result(text: str, parts: dict, **options):
     return analyse(chain_from_text(text), parts, design_aids=False, headroom=False, **options)
-
 
 CLIPPED = '''format = 1
 title = "a clipping gain, then a buffer"
