@@ -28,6 +28,7 @@ from railroom.engine.blocks.base import InputLoad
 from railroom.engine.margins import load_currents, opamp_margins, output_drops
 from railroom.engine.model import Chain
 from railroom.engine.opamp import TWO_PI, inverse_open_loop, laplace_grid
+from railroom.engine.part_limits import differential_margin, hot_bias, saturated_differential
 from railroom.engine.plan import StagePlan
 from railroom.engine.propagation import DifferentialSignal, Signal, node_bounds
 from railroom.engine.results import StageResult
@@ -106,7 +107,7 @@ def build_layout(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, prepar
             part = plan.part
             variables += [Variable(plan.index, "offset", "offset", part.offset, j),
                           Variable(plan.index, "offset", "drift", part.offset_drift, j),
-                          Variable(plan.index, "bias", "bias", part.bias_current, j)]
+                          Variable(plan.index, "bias", "bias", hot_bias(part, chain.conditions), j)]
     for rails in chain.rails.values():
         if rails.tolerance:
             variables += [Variable(None, f"rails.{rails.name}.positive", "rail", rails.tolerance),
@@ -166,7 +167,7 @@ def row_errors(layout: Layout, plan: StagePlan, D: np.ndarray, dT: np.ndarray):
     for j in range(count):
         offsets[:, j] = (part.offset * _deviate(layout, D, plan.index, "offset", "offset", j)
                          + part.offset_drift * dT * _deviate(layout, D, plan.index, "offset", "drift", j))
-        bias[:, j] = part.bias_current * _deviate(layout, D, plan.index, "bias", "bias", j)
+        bias[:, j] = hot_bias(part, layout.chain.conditions) * _deviate(layout, D, plan.index, "bias", "bias", j)
     return offsets, bias
 
 
@@ -412,6 +413,8 @@ def saturated_draws(layout: Layout, k: int, v, D, signal):
     margins = {"input-high": pos - part.input_headroom[0] - in_hi,
                "input-low": in_lo - (neg + part.input_headroom[1]),
                "current": part.output_current - np.maximum(np.abs(high), np.abs(low)) * conductance}
+    margins.update(differential_margin(part, saturated_differential(
+        plan.stage.block, v, plan.flags, (sig_lo, sig_hi), ((low, low), (high, high)))))
     amp = dict(margins)
     margins = stage_margins([margins], plan, pos, neg)
     linear = np.ones(rows, dtype=bool)

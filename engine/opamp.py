@@ -112,8 +112,10 @@ def output_window(part: Part, rails: Rails, sourced: float, sunk: float) -> tupl
     the output resistance times the current SOURCED at the top; the highest negative rail plus
     the lower headroom, grown by the current SUNK at the bottom (common practice for
     rail-to-rail outputs; each direction on its own, as datasheets give swing per direction)."""
-    return (rails.negative_range[1] + part.output_headroom[1] + part.output_resistance * sunk,
-            rails.positive_range[0] - part.output_headroom[0] - part.output_resistance * sourced)
+    from railroom.engine.margins import output_drops
+    drop_high, drop_low = output_drops(part, sourced, sunk)
+    return (rails.negative_range[1] + part.output_headroom[1] + drop_low,
+            rails.positive_range[0] - part.output_headroom[0] - drop_high)
 
 
 def input_window(part: Part, rails: Rails) -> tuple[float, float]:

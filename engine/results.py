@@ -8,7 +8,7 @@ from railroom.engine.model import Chain, Stage
 Span = tuple[float, float]
 
 VOLTAGE_CHECKS = ("output-high", "output-low", "input-high", "input-low")
-CHECKS = (*VOLTAGE_CHECKS, "slew", "current", "supply")
+CHECKS = (*VOLTAGE_CHECKS, "slew", "current", "supply", "input-differential")
 
 
 @dataclass(frozen=True)
@@ -56,6 +56,7 @@ class StageMeasure:
     thresholds: tuple[Span, Span] | None = None   # saturating blocks: to go high, to go low
     reaches: tuple[bool, bool] | None = None
     inner: dict[str, Span] = field(default_factory=dict)
+    input_differential: float | None = None   # saturating blocks: largest |V+ - V-|, V
     probability: float | None = None     # montecarlo: share of draws leaving the linear regime
     percentiles: dict[str, dict[str, float]] | None = None
 

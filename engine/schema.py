@@ -147,6 +147,13 @@ def part_field(key: str, kind: str, is_pair: bool) -> dict:
         return text(about)
     if is_pair:
         return pair(kind, about)
+    if kind == "flag":
+        return {"description": about, "type": "boolean"}
+    if kind == "curve":
+        point = {"type": "array", "minItems": 3, "maxItems": 3,
+                 "items": [value("current"), value("voltage"), value("voltage")]}
+        return {"description": f"{about}: points [current, upper headroom, lower headroom], "
+                               "currents rising", "type": "array", "minItems": 1, "items": point}
     if key == "output_resistance":
         return {"description": f"{about} (0 allowed)",
                 "anyOf": [{"type": "number", "minimum": 0},

@@ -14,6 +14,7 @@ from railroom.engine.blocks.base import BlockResponse, InputLoad, OpAmpNodes
 from railroom.engine.checks import judge
 from railroom.engine.margins import load_currents
 from railroom.engine.opamp import TWO_PI, input_window, output_window
+from railroom.engine.part_limits import bias_at, saturated_differential
 from railroom.engine.plan import StagePlan
 from railroom.engine.propagation import (DifferentialSignal, NodeBounds, Signal, clamp, error_bound,
                                          memory_order, merge, node_bounds, single_bounds,
@@ -65,7 +66,8 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None, first: int =
             measure, signal = saturated_stage(plan, v, signal)
         else:
             measure, bounds = linear_stage(plan, prepared.responses[k], v, signal, prepared.freqs,
-                                           next_load, rise, nominal, memo)
+                                           next_load, rise, nominal, memo,
+                                           max(chain.conditions.temperature) - 25.0)
             signal = merge(bounds, getattr(signal, "fed_clipped", False))
         if notes is not None:
             measure = replace(measure, **notes[k])
@@ -78,11 +80,11 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None, first: int =
 
 def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freqs: np.ndarray,
                  next_load: InputLoad, rise: float, nominal: bool,
-                 memo: dict | None = None) -> tuple[StageMeasure, NodeBounds]:
+                 memo: dict | None = None, hot_rise: float = 0.0) -> tuple[StageMeasure, NodeBounds]:
     part = plan.part
     count = len(response.opamps)
     offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
-    bias = 0.0 if (nominal or part is None) else part.bias_current
+    bias = 0.0 if (nominal or part is None) else bias_at(part, 25.0 + hot_rise)
     known: dict = {}
     out = bounds_once(response.output, v, signal, offsets, bias, known, memo)
     amps = tuple(
@@ -144,6 +146,8 @@ def saturated_stage(plan: StagePlan, v: dict, signal) -> tuple[StageMeasure, Sig
         opamps=(amp,), window=(low_min, high_max), supply=plan.rails.span_range,
         fed_clipped=getattr(signal, "fed_clipped", False), saturated=True,
         thresholds=switching.thresholds, reaches=switching.reaches,
+        input_differential=float(np.max(saturated_differential(
+            plan.stage.block, v, plan.flags, incoming, switching.levels))),
     )
     freqs_shape = np.shape(signal.hi) if isinstance(signal, Signal) else (1,)
     zero = np.zeros(freqs_shape)
