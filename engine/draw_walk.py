@@ -5,7 +5,7 @@ rails and its temperature. Every toleranced quantity is a column of a deviate ma
 d = +/-1 at the ends of its tolerance:
 
     value    = nominal (1 + tol d_tol) (1 + tempco dT d_tc)       dT = |T - 25 C| of the row
-    offset   = offset d_os + offset_drift dT d_dr      bias = bias_current d_b
+    offset   = offset d_os + offset_drift dT d_dr      bias = hot bias d_b (part_limits)
     rail     = nominal (1 + tol d)                      (positive and negative rails apart)
 
 The signal stays the operating envelope (both ends of the source ranges, +/- the AC peak, every

@@ -73,3 +73,59 @@ def test_a_rated_range_given_high_to_low_is_a_located_error():
     (problem,) = problems_of('temperature_range = ["85", "-40"]\n')
     assert problem.file == "lab.toml" and problem.line == 12
     assert problem.field == "part.p.temperature_range" and "reversed" in problem.message
+
+
+# --- 2. bias_current_doubling --------------------------------------------------------------
+
+def source_follower(temperature: str, method: str = "corners") -> str:
+    return f'''format = 1
+[conditions]
+temperature = {temperature}
+method = "{method}"
+samples = 4000
+[rails.main]
+positive = "12"
+negative = "-12"
+[source]
+level = ["0", "10.95"]
+impedance = "10M"
+[[stage]]
+name = "buffer"
+block = "follower"
+part = "p"
+'''
+
+
+def test_the_doubling_rule_gives_the_bias_at_the_hottest_temperature():
+    # common practice for FET inputs: Ib(T) = Ib(25 C) 2^((T - 25)/N); N = 10 C, 125 C: 2^10 = 1024
+    from railroom.engine.part_limits import bias_at
+    (part,) = part_of('bias_current = "10p"\nbias_current_doubling = "10"\n').values()
+    assert bias_at(part, 125.0) == pytest.approx(10e-12 * 1024, rel=1e-12)
+    assert bias_at(part, 35.0) == pytest.approx(20e-12, rel=1e-12)
+    assert bias_at(part, -40.0) == 10e-12          # no doubling below 25 C
+
+
+def test_the_doubled_bias_through_the_source_impedance_moves_the_output_and_the_verdict():
+    # a follower fed through 10 Mohm: the + input (and so the output) moves by Ib Rs. At 125 C the
+    # 10 pA bias is 10.24 nA (doubling every 10 C), 102.4 mV through 10 Mohm: the output's 11 V
+    # ceiling (12 V rail less 1 V headroom) is passed; without the doubling it is 0.1 mV
+    flat = part_of('bias_current = "10p"\n')
+    doubling = part_of('bias_current = "10p"\nbias_current_doubling = "10"\n')
+    cold = run(source_follower("[25, 125]"), flat).stages[0]
+    hot = run(source_follower("[25, 125]"), doubling).stages[0]
+    follow = 1e5 / (1 + 1e5)          # Black's formula A / (1 + A beta), beta = 1, A = 100 dB
+    assert cold.measure.output[1] == pytest.approx((10.95 + 10e-12 * 10e6) * follow, abs=1e-9)
+    assert hot.measure.output[1] == pytest.approx((10.95 + 10.24e-9 * 10e6) * follow, abs=1e-9)
+    assert cold.go and not hot.go and "output-high" in hot.reasons
+    # no doubling while the chain stays at or below 25 C
+    assert run(source_follower("[-40, 25]"), doubling).stages[0].go
+
+
+def test_every_method_uses_the_doubled_bias():
+    # rss and Monte Carlo take the bias at the hottest temperature as well (README: an outside bound)
+    doubling = part_of('bias_current = "10p"\nbias_current_doubling = "10"\n')
+    for method in ("rss", "montecarlo"):
+        stage = run(source_follower("[25, 125]", method), doubling).stages[0]
+        # the bias is drawn (or spread) within +/-10.24 nA: the output may reach 10.95 + 0.1024 V
+        assert 10.95 + 0.05 < stage.measure.output[1] <= 10.95 + 0.1024 + 1e-9, method
+        assert not stage.go, method
