@@ -129,3 +129,62 @@ def test_every_method_uses_the_doubled_bias():
         # the bias is drawn (or spread) within +/-10.24 nA: the output may reach 10.95 + 0.1024 V
         assert 10.95 + 0.05 < stage.measure.output[1] <= 10.95 + 0.1024 + 1e-9, method
         assert not stage.go, method
+
+
+# --- 3. input_differential_max -------------------------------------------------------------
+
+def alarm(block_fields: str, level='["0", "5"]', method="corners", part="p") -> str:
+    return f'''format = 1
+[conditions]
+method = "{method}"
+samples = 2000
+[rails.main]
+positive = "12"
+negative = "-12"
+[source]
+level = {level}
+[[stage]]
+name = "alarm"
+part = "{part}"
+{block_fields}
+'''
+
+
+COMPARATOR = 'block = "comparator"\nthreshold = "2.5"'
+
+
+@pytest.mark.parametrize("method", ["corners", "rss", "montecarlo"])
+def test_a_clamp_diode_comparator_fed_0_to_5_v_against_2_5_v_fails_input_differential(method):
+    # worked example: clamp diodes between the inputs conduct beyond about 0.7 V (a silicon
+    # junction's forward drop, [memory]); fed 0..5 V against 2.5 V the inputs differ by up to
+    # 2.5 V either way: margin 0.7 - 2.5 = -1.8 V, NO-GO although the comparator itself works
+    clamped = part_of('input_differential_max = "0.7"\n')
+    stage = run(alarm(COMPARATOR, method=method), clamped).stages[0]
+    assert stage.margins["input-differential"] == pytest.approx(-1.8, abs=1e-9)
+    assert "input-differential" in stage.reasons and not stage.go
+    assert stage.regime == "saturated"
+    # the same part without the rating, or fed within 0.7 V of the threshold, passes
+    assert "input-differential" not in run(alarm(COMPARATOR, method=method), part_of()).stages[0].margins
+    near = run(alarm(COMPARATOR, level='["2.0", "3.0"]', method=method), clamped).stages[0]
+    assert near.margins["input-differential"] == pytest.approx(0.2, abs=1e-9) and near.go
+
+
+def test_the_report_and_the_table_carry_the_input_differential_check():
+    result = run(alarm(COMPARATOR), part_of('input_differential_max = "0.7"\n'))
+    report = chain_report(result)
+    assert report["stages"][0]["margins"]["input-differential"] == pytest.approx(-1.8)
+    assert "input-differential" in report["stages"][0]["reasons"] and report["verdict"] == "no-go"
+    from railroom.engine.schema import report_schema
+    import jsonschema
+    jsonschema.validate(report, report_schema())
+
+
+def test_a_schmitt_trigger_plus_input_against_its_reference():
+    # non-inverting Schmitt trigger (Sedra & Smith, ch. 18): V+ = (Vin r2 + Vout r1)/(r1 + r2), the
+    # - input at ref = 0. Rails +/-12 V, 1 V headroom: the output sits at +/-11 V (no load). Fed
+    # +/-5 V with r1 = 10k, r2 = 100k: the + input reaches (5 x 100k + 11 x 10k)/110k = 5.545 V
+    # (superposition of the two sources through the divider)
+    fields = 'block = "schmitt"\nr1 = "10k"\nr2 = "100k"'
+    stage = run(alarm(fields, level='["-5", "5"]'), part_of('input_differential_max = "7"\n')).stages[0]
+    assert stage.measure.input_differential == pytest.approx((5 * 100e3 + 11 * 10e3) / 110e3, rel=1e-9)
+    assert stage.margins["input-differential"] == pytest.approx(7 - 610 / 110, rel=1e-9)

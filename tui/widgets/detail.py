@@ -39,6 +39,9 @@ def needed_and_limit(stage: StageResult, check: str, part: Part | None,
         rails = chain.rails_for(m.stage)
         allowed = span_words(part.supply) if part else "-"
         return span_words(m.supply or rails.span_range), allowed
+    if check == "input-differential":      # engine/part_limits.py: largest |V+ - V-|
+        return (volts(m.input_differential) if m.input_differential is not None else "-",
+                volts(part.input_differential_max) if part else "-")
     if amp is None:
         window = m.window or (float("nan"), float("nan"))
         side = 1 if check.endswith("high") else 0
