@@ -188,3 +188,26 @@ def test_a_schmitt_trigger_plus_input_against_its_reference():
     stage = run(alarm(fields, level='["-5", "5"]'), part_of('input_differential_max = "7"\n')).stages[0]
     assert stage.measure.input_differential == pytest.approx((5 * 100e3 + 11 * 10e3) / 110e3, rel=1e-9)
     assert stage.margins["input-differential"] == pytest.approx(7 - 610 / 110, rel=1e-9)
+
+
+# --- 4. phase_reversal ---------------------------------------------------------------------
+
+def test_phase_reversal_is_a_caution_where_the_input_range_check_fails():
+    # a follower on +/-12 V with 1 V input headroom: its common-mode range ends at 11 V (README,
+    # input_headroom); fed up to 11.5 V the input-high check fails by 0.5 V
+    reversing = part_of("phase_reversal = true\n")
+    over = run(follower(level='["0", "11.5"]'), reversing).stages[0]
+    assert over.margins["input-high"] == pytest.approx(-0.5, abs=1e-3)
+    (caution,) = over.cautions
+    assert "reverses phase" in caution and "'p'" in caution
+    assert run(follower(level='["0", "11.5"]'), part_of()).stages[0].cautions == ()
+    assert run(follower(level='["0", "10.5"]'), reversing).stages[0].cautions == ()
+    # below the range too
+    under = run(follower(level='["-11.5", "0"]'), reversing).stages[0]
+    assert under.margins["input-low"] < 0 and any("reverses phase" in c for c in under.cautions)
+
+
+def test_phase_reversal_takes_true_or_false_only():
+    (problem,) = problems_of('phase_reversal = "sometimes"\n')
+    assert problem.field == "part.p.phase_reversal" and problem.line == 12
+    assert "true or false" in problem.message
