@@ -28,7 +28,7 @@ from railroom.engine.blocks.base import InputLoad
 from railroom.engine.margins import load_currents, opamp_margins, output_drops
 from railroom.engine.model import Chain
 from railroom.engine.opamp import TWO_PI, inverse_open_loop, laplace_grid
-from railroom.engine.part_limits import differential_margin, hot_bias, saturated_differential
+from railroom.engine.part_limits import curve_level, differential_margin, hot_bias, saturated_differential
 from railroom.engine.plan import StagePlan
 from railroom.engine.propagation import DifferentialSignal, Signal, node_bounds
 from railroom.engine.results import StageResult
@@ -386,6 +386,8 @@ def saturated_levels_rows(part, pos, neg, conductance):
                              part.output_current)
         return level - np.sign(level) * part.output_resistance * current
     high_ideal, low_ideal = pos - part.output_headroom[0], neg + part.output_headroom[1]
+    if part.output_headroom_curve:
+        return curve_level(part, low_ideal, conductance, False), curve_level(part, high_ideal, conductance, True)
     return np.maximum(loaded(low_ideal), low_ideal), np.minimum(loaded(high_ideal), high_ideal)
 
 

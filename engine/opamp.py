@@ -140,6 +140,10 @@ def saturated_levels(part: Part, rails: Rails, load_conductance: float) -> tuple
                       part.output_current)
         return level - np.sign(level) * part.output_resistance * current
 
+    if part.output_headroom_curve:
+        from railroom.engine.part_limits import curve_level
+        return ((low_ideal[0], float(curve_level(part, low_ideal[1], load_conductance, False))),
+                (float(curve_level(part, high_ideal[0], load_conductance, True)), high_ideal[1]))
     high = (min(loaded(high_ideal[0]), high_ideal[0]), high_ideal[1])
     low = (low_ideal[0], max(loaded(low_ideal[1]), low_ideal[1]))
     return (low, high)

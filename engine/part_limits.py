@@ -241,3 +241,12 @@ def curve_from_text(text: str) -> tuple[tuple | None, str | None]:
     collect = _Collect()
     points = read_curve(text, "output_headroom_curve", collect, parse_quantity, ValueTextError)
     return points, (collect.messages[0] if collect.messages else None)
+
+
+def curve_level(part, level: Number, conductance: Number, upper: bool) -> Number:
+    """A saturated output level with a headroom curve: the unloaded level's current (|V| G,
+    capped by the current limit) read on the curve, its extra headroom taken off. The unloaded
+    level's current is the larger (the curve never falls), so the level is never optimistic."""
+    current = np.minimum(np.abs(level) * conductance, part.output_current)
+    drop_high, drop_low = output_drops(part, current, current)
+    return level - drop_high if upper else level + drop_low

@@ -211,3 +211,68 @@ def test_phase_reversal_takes_true_or_false_only():
     (problem,) = problems_of('phase_reversal = "sometimes"\n')
     assert problem.field == "part.p.phase_reversal" and problem.line == 12
     assert "true or false" in problem.message
+
+
+# --- 5. output_headroom_curve --------------------------------------------------------------
+
+CURVE = 'output_headroom_curve = [["0", "1", "1"], ["10m", "1.5", "2"], ["20m", "2.5", "3"]]\n'
+
+
+def loaded_follower(level: str) -> str:
+    return follower(level=level, stage_extra='load = "1k"')
+
+
+def test_a_swing_curve_read_at_two_currents():
+    # worked example: a datasheet's output swing against output current, read at the current the
+    # stage draws by linear interpolation between the points (README, output_headroom_curve).
+    # Fed -8..9 V into 1 kohm on +/-12 V: 9 mA sourced at the top, upper headroom
+    # 1 + (9/10)(1.5 - 1) = 1.45 V -> ceiling 10.55 V; 8 mA sunk at the bottom, lower headroom
+    # 1 + (8/10)(2 - 1) = 1.8 V -> floor -10.2 V. Each side by its own direction of current.
+    stage = run(loaded_follower('["-8", "9"]'), part_of(CURVE)).stages[0]
+    (amp,) = stage.measure.opamps
+    gain = 1e5 / (1 + 1e5)          # Black's formula: the follower's output is 9 A/(1 + A)
+    upper = 1 + (9 * gain / 10) * 0.5
+    lower = 1 + (8 * gain / 10) * 1.0
+    assert amp.window == pytest.approx((-12 + lower, 12 - upper), abs=1e-9)
+    assert stage.margins["output-high"] == pytest.approx(12 - upper - 9 * gain, abs=1e-9)
+
+
+def test_the_curve_replaces_the_output_resistance_and_can_change_the_verdict():
+    # 9 V into 1 kohm: with 50 ohm the headroom is 1 + 50 x 9 mA = 1.45 V (GO, 1.55 V of room);
+    # the curve below gives 1.5 + (4/5)(3.5 - 1.5) = 3.1 V at 9 mA: ceiling 8.9 V, NO-GO
+    resistive = part_of('output_resistance = "50"\n')
+    steep = part_of('output_resistance = "50"\noutput_headroom_curve = [["0", "1", "1"], '
+                    '["5m", "1.5", "1.5"], ["10m", "3.5", "3.5"]]\n')
+    text = loaded_follower('["0", "9"]')
+    gain = 1e5 / (1 + 1e5)
+    assert run(text, resistive).stages[0].margins["output-high"] == pytest.approx(
+        12 - 1 - 50 * 9e-3 * gain - 9 * gain, abs=1e-9)
+    bent = run(text, steep).stages[0]
+    assert bent.margins["output-high"] == pytest.approx(
+        12 - (1.5 + (9 * gain - 5) / 5 * 2.0) - 9 * gain, abs=1e-9)
+    assert not bent.go and run(text, resistive).stages[0].go
+    for method in ("rss", "montecarlo"):          # the draws use the same curve
+        assert not run(text, steep, method=method).stages[0].go, method
+
+
+@pytest.mark.parametrize("curve, words", [
+    ('[["0", "1", "1"], ["10m", "0.8", "2"]]', "not monotonic"),
+    ('[["-1m", "1", "1"], ["10m", "2", "2"]]', "negative current"),
+    ('[["10m", "2", "2"], ["0", "1", "1"]]', "must rise"),
+    ('[["0", "1"]]', "expected points"),
+])
+def test_a_bad_curve_is_a_located_error(curve, words):
+    (problem,) = problems_of(f"output_headroom_curve = {curve}\n")
+    assert problem.file == "lab.toml" and problem.line == 12
+    assert problem.field == "part.p.output_headroom_curve" and words in problem.message
+
+
+def test_a_comparator_level_follows_the_curve():
+    # saturated high at 11 V into 1 kohm: 11 mA read on the curve, 1.5 + (1/10)(2.5 - 1.5) = 1.6 V
+    # and at -11 V, 11 mA sunk: 2 + (1/10)(3 - 2) = 2.1 V above the negative rail
+    from railroom.engine.model import Rails
+    from railroom.engine.opamp import saturated_levels
+    (part,) = part_of(CURVE).values()
+    (low_min, low_max), (high_min, high_max) = saturated_levels(part, Rails("main", 12, -12), 1e-3)
+    assert high_min == pytest.approx(12 - 1.6, abs=1e-9) and high_max == 11.0
+    assert low_max == pytest.approx(-12 + 2.1, abs=1e-9) and low_min == -11.0
