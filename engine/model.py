@@ -130,6 +130,7 @@ class Stage:
     part: str | None = None
     rails: str | None = None
     load: Quantity | None = None
+    load_capacitance: Quantity | None = None     # from the output to 0 V: the phase-margin estimate
     values: Mapping[str, object] = field(default_factory=dict)   # the block's own fields, parsed
     line: int | None = None                                       # where the [[stage]] starts
     lines: Mapping[str, int] = field(default_factory=dict)       # field -> line, for messages

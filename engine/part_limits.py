@@ -215,14 +215,66 @@ def limit_cautions(measure, part, conditions, margins: dict) -> list[str]:
     return found
 
 
-def with_limit_cautions(chain, plans, stages) -> list:
-    """The stage results with the cautions of their parts' limits added."""
+def with_limit_cautions(chain, plans, stages, responses=None) -> list:
+    """The stage results with the cautions of their parts' limits added, and the phase-margin
+    estimate of every stage with a load_capacitance."""
     from dataclasses import replace
     found = []
-    for plan, result in zip(plans, stages):
+    for k, (plan, result) in enumerate(zip(plans, stages)):
         extra = limit_cautions(result.measure, plan.part, chain.conditions, result.margins)
+        response = responses[k] if responses is not None else None
+        margin = stage_phase_margin(plan, response)
+        if margin is not None:
+            result = replace(result, measure=replace(result.measure, phase_margin_deg=margin))
+            if margin < PHASE_MARGIN_CAUTION:
+                extra.append(f"estimated phase margin {margin:.0f}° with the "
+                             f"{format_capacitance(plan.stage.load_capacitance)} load capacitance, "
+                             f"under {PHASE_MARGIN_CAUTION:.0f}° (common practice): the output may "
+                             "ring or oscillate; isolate the load with a series resistor or use a "
+                             "part rated for it")
         found.append(replace(result, cautions=(*result.cautions, *extra)) if extra else result)
     return found
+
+
+# --- capacitive load: the phase-margin estimate ---------------------------------------------
+
+PHASE_MARGIN_CAUTION = 45.0      # degrees (common practice)
+
+
+def format_capacitance(q) -> str:
+    from railroom.engine.values import format_si
+    return format_si(q.value, "F")
+
+
+def phase_margin_deg(gbw: float, noise_gain: float, output_resistance: float,
+                     load_capacitance: float) -> float:
+    """Two-pole estimate: the loop crosses over near f_c = gbw / noise gain (the dominant pole
+    gives 90° there), and the output resistance with the load capacitance adds a pole at
+    f_p2 = 1 / (2 pi Ro CL): phase margin = 90° - atan(f_c / f_p2). Taking the crossover from
+    the one-pole asymptote puts it above the true two-pole crossover, so the estimate is low
+    (pessimistic): by 6.8° when f_p2 = f_c (51.8° exact, 45° estimated)."""
+    f_c = gbw / noise_gain
+    return 90.0 - float(np.degrees(np.arctan(f_c * 2.0 * np.pi * output_resistance
+                                             * load_capacitance)))
+
+
+def stage_phase_margin(plan, response) -> float | None:
+    """The stage's worst estimate over the tolerance: the smallest noise gain (the highest
+    crossover) of the op amp driving the output, and the largest load capacitance."""
+    c = getattr(plan.stage, "load_capacitance", None)
+    part = plan.part
+    if c is None or part is None or response is None or plan.block.saturates or not response.opamps:
+        return None
+    driving = next((j for j, a in enumerate(response.opamps) if a.output is response.output),
+                   len(response.opamps) - 1)
+    gains = response.opamps[driving].output.offset_gain
+    if gains is None:
+        return None
+    closed = np.abs(np.real(np.asarray(gains)[:, driving]))
+    # the finite-gain closed loop 1/(1/A0 + beta) back to the ideal noise gain 1/beta
+    beta = np.max(1.0 / closed - 1.0 / part.open_loop_gain)
+    largest = c.value * (1.0 + (c.tolerance or 0.0))
+    return phase_margin_deg(part.gbw, 1.0 / max(beta, 1e-300), part.output_resistance, largest)
 
 
 class _Collect:

@@ -57,6 +57,7 @@ class StageMeasure:
     reaches: tuple[bool, bool] | None = None
     inner: dict[str, Span] = field(default_factory=dict)
     input_differential: float | None = None   # saturating blocks: largest |V+ - V-|, V
+    phase_margin_deg: float | None = None     # with a load_capacitance: the loop's estimate
     probability: float | None = None     # montecarlo: share of draws leaving the linear regime
     percentiles: dict[str, dict[str, float]] | None = None
 

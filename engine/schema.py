@@ -92,6 +92,7 @@ COMMON = {
     "part": text("part preset id (op-amp blocks only)"),
     "rails": text("rails table name; may be left out when there is one"),
     "load": value("resistance", "resistive load from the output to 0 V"),
+    "load_capacitance": value("capacitance", "capacitive load from the output to 0 V (phase margin)"),
 }
 
 

@@ -1,6 +1,7 @@
 """Part limits as datasheets give them (engine/part_limits.py; README "File formats", the preset file)."""
 import math
 
+import numpy as np
 import pytest
 
 from railroom.engine.analysis import analyse
@@ -276,3 +277,62 @@ def test_a_comparator_level_follows_the_curve():
     (low_min, low_max), (high_min, high_max) = saturated_levels(part, Rails("main", 12, -12), 1e-3)
     assert high_min == pytest.approx(12 - 1.6, abs=1e-9) and high_max == 11.0
     assert low_max == pytest.approx(-12 + 2.1, abs=1e-9) and low_min == -11.0
+
+
+# --- 6. capacitive load: the phase-margin estimate -----------------------------------------
+
+def exact_two_pole_margin(gbw: float, noise_gain: float, f_p2: float, a0: float = 1e5) -> float:
+    """The phase margin of the loop T(s) = A(s)/NG/(1 + s/wp2), A one-pole (A0, gbw/A0), found
+    with scipy.signal on a dense grid: |T| = 1 by interpolation, margin = 180° + angle T."""
+    from scipy import signal
+    w1, w2 = 2 * math.pi * gbw / a0, 2 * math.pi * f_p2
+    loop = signal.TransferFunction([a0 / noise_gain * w1 * w2], [1, w1 + w2, w1 * w2])
+    w = np.logspace(math.log10(w1), math.log10(100 * 2 * math.pi * gbw), 200001)
+    _, h = signal.freqresp(loop, w)
+    k = np.argmax(np.abs(h) < 1.0)
+    return 180.0 + math.degrees(np.angle(h[k]))
+
+
+def test_the_estimate_against_the_textbook_two_pole_result():
+    # two-pole loop (Sedra & Smith, Microelectronic Circuits, the chapter on feedback: stability
+    # by Bode plots, [memory]): with the second pole at the one-pole crossover f_t/NG the
+    # estimate is 90° - atan(1) = 45°; the exact crossover is lower, at x f_c with
+    # x^4 + x^2 - 1 = 0 (|T| = 1: 1 / (x^2 (1 + x^2)) = 1), x = 0.786, margin 51.8°
+    from railroom.engine.part_limits import phase_margin_deg
+    ro = 100.0
+    c = 1 / (2 * math.pi * ro * 1e6)                     # f_p2 = 1 MHz
+    assert phase_margin_deg(1e6, 1.0, ro, c) == pytest.approx(45.0, abs=1e-9)
+    x = math.sqrt((math.sqrt(5) - 1) / 2)
+    exact = 90 - math.degrees(math.atan(x))
+    assert exact == pytest.approx(51.83, abs=0.01)
+    assert exact_two_pole_margin(1e6, 1.0, 1e6) == pytest.approx(exact, abs=0.05)
+    # the estimate is never above the exact margin (pessimistic), over a span of pole ratios
+    for ratio in (0.1, 0.3, 1.0, 3.0, 10.0):
+        estimate = phase_margin_deg(1e6, 2.0, ro, 1 / (2 * math.pi * ro * ratio * 0.5e6))
+        assert estimate <= exact_two_pole_margin(1e6, 2.0, ratio * 0.5e6) + 0.05, ratio
+
+
+def test_a_follower_with_a_capacitive_load_gets_the_estimate_and_the_caution():
+    # follower (noise gain 1) on a 1 MHz part with 100 ohm output resistance: 1.59 nF puts the
+    # second pole at 1 MHz, margin 45°; 10 nF: f_p2 = 159 kHz, 90° - atan(6.28) = 9.0°
+    parts = part_of('output_resistance = "100"\n')
+    at_45 = run(follower(stage_extra='load_capacitance = "1.59155n"'), parts).stages[0]
+    assert at_45.measure.phase_margin_deg == pytest.approx(45.0, abs=1e-3)
+    heavy = run(follower(stage_extra='load_capacitance = "10n"'), parts)
+    assert heavy.stages[0].measure.phase_margin_deg == pytest.approx(
+        90 - math.degrees(math.atan(2 * math.pi * 100 * 10e-9 * 1e6)), rel=1e-6)
+    assert any("phase margin 9°" in c for c in heavy.stages[0].cautions)
+    assert chain_report(heavy)["stages"][0]["phase_margin_deg"] == pytest.approx(9.04, abs=0.01)
+    light = run(follower(stage_extra='load_capacitance = "100p"'), parts).stages[0]
+    assert light.measure.phase_margin_deg > 45 and light.cautions == ()
+    assert "phase_margin_deg" not in chain_report(run(follower(), parts))["stages"][0]
+
+
+def test_a_gain_of_two_halves_the_crossover():
+    # noninverting, rf = rg: noise gain 2, crossover 500 kHz: with f_p2 = 159 kHz the margin is
+    # 90° - atan(3.14) = 17.7°
+    parts = part_of('output_resistance = "100"\n')
+    fields = 'rf = "10k"\nrg = "10k"\nload_capacitance = "10n"'
+    stage = run(follower(block="noninverting", stage_extra=fields), parts).stages[0]
+    assert stage.measure.phase_margin_deg == pytest.approx(
+        90 - math.degrees(math.atan(2 * math.pi * 100 * 10e-9 * 0.5e6)), abs=0.01)
