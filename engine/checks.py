@@ -60,10 +60,11 @@ def judge(measure: StageMeasure, part: Part | None, rails: Rails, required: floa
     margins, nodes = opamp_margins(measure)
     if part is not None:
         margins["supply"] = supply_margin(part, rails)
-        margins.update(differential_margin(part, measure.input_differential))
     margins = {c: met_at_equality(m, check_scale(c, part, rails)) for c, m in margins.items()}
     leaves_linear = any(margins.get(c, 0.0) < 0 for c in LINEAR_CHECKS
                         if not (block.saturates and c not in ("input-high", "input-low", "current")))
+    if part is not None and (block.saturates or leaves_linear):   # open loop, or broken by clipping
+        margins.update(differential_margin(part, measure.input_differential))
     if block.saturates:
         regime = "saturated"
     else:

@@ -302,3 +302,26 @@ def curve_level(part, level: Number, conductance: Number, upper: bool) -> Number
     current = np.minimum(np.abs(level) * conductance, part.output_current)
     drop_high, drop_low = output_drops(part, current, current)
     return level - drop_high if upper else level + drop_low
+
+
+def clipped_differential(part, response, amps, freqs) -> float | None:
+    """Largest |V+ - V-| of a feedback stage's op amps, for a part that rates it; judged only
+    when the stage clips (its loop broken). From the loop (opamp.py): V+ - V- = (beta - gamma)
+    (ideal output - output), so an output held at its window's edge leaves the overshoot over
+    the noise gain across the inputs; while linear, Vout / A(f), at most |Vout| (1/A0 + f/gbw)
+    for the single-pole model. Both are taken at their worst (largest overshoot over the
+    smallest closed-loop gain, largest swing at the top of the band): an outside bound."""
+    if part is None or part.input_differential_max <= 0 or response is None:
+        return None
+    top = float(np.max(freqs)) if np.size(freqs) else 0.0
+    worst = 0.0
+    for j, (nodes, amp) in enumerate(zip(response.opamps, amps)):
+        gains = nodes.output.offset_gain
+        if gains is None:
+            continue
+        gain = float(np.min(np.abs(np.real(np.asarray(gains)[:, j]))))
+        over = max(amp.output[1] - amp.window[1], amp.window[0] - amp.output[0], 0.0)
+        swing = max(abs(amp.output[0]), abs(amp.output[1]))
+        found = over / max(gain, 1e-300) + swing * (1.0 / part.open_loop_gain + top / part.gbw)
+        worst = max(worst, found)
+    return worst

@@ -14,7 +14,7 @@ from railroom.engine.blocks.base import BlockResponse, InputLoad, OpAmpNodes
 from railroom.engine.checks import judge
 from railroom.engine.margins import load_currents
 from railroom.engine.opamp import TWO_PI, input_window, output_window
-from railroom.engine.part_limits import bias_at, saturated_differential
+from railroom.engine.part_limits import bias_at, clipped_differential, saturated_differential
 from railroom.engine.plan import StagePlan
 from railroom.engine.propagation import (DifferentialSignal, NodeBounds, Signal, clamp, error_bound,
                                          memory_order, merge, node_bounds, single_bounds,
@@ -101,6 +101,7 @@ def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freq
         index=plan.index, stage=plan.stage, output=span(out), nominal=span(out), opamps=amps,
         window=window, supply=plan.rails.span_range if part else None,
         fed_clipped=getattr(signal, "fed_clipped", False), inner=inner,
+        input_differential=clipped_differential(part, response, amps, freqs),
     )
     return measure, out
 

@@ -336,3 +336,25 @@ def test_a_gain_of_two_halves_the_crossover():
     stage = run(follower(block="noninverting", stage_extra=fields), parts).stages[0]
     assert stage.measure.phase_margin_deg == pytest.approx(
         90 - math.degrees(math.atan(2 * math.pi * 100 * 10e-9 * 0.5e6)), abs=0.01)
+
+
+def test_a_clipping_feedback_stage_is_checked_against_input_differential_max():
+    # noninverting x10 (rf 90k, rg 10k) fed 1.5 V on +/-12 V: the output would be 15 V but is
+    # held at 11 V. With its loop broken the inputs differ by the overshoot over the noise gain
+    # (V+ - V- = beta (ideal - actual), from V- = beta Vout: Sedra & Smith's non-inverting
+    # amplifier), 4 V / 10 = 0.4 V, plus the linear error |Vout| (1/A0 + f/gbw) at 1 Hz
+    limit = 0.35
+    parts = part_of(f'input_differential_max = "{limit}"\n')
+    text = follower(block="noninverting", level='["0", "1.5"]', stage_extra='rf = "90k"\nrg = "10k"')
+    stage = run(text, parts).stages[0]
+    closed = 1 / (1e-5 + 0.1)                  # Black's formula, A0 = 1e5, beta = 0.1
+    ideal = 1.5 * closed
+    expected = (ideal - 11.0) / closed + ideal * (1e-5 + 1.0 / 1e6)
+    assert stage.regime == "clipping"
+    assert stage.margins["input-differential"] == pytest.approx(limit - expected, rel=1e-9)
+    assert expected == pytest.approx(0.4, abs=1e-3)
+    assert "input-differential" in stage.reasons
+    # the same stage in its linear range is not checked (its loop holds the inputs together)
+    linear = run(follower(block="noninverting", level='["0", "1.0"]',
+                          stage_extra='rf = "90k"\nrg = "10k"'), parts).stages[0]
+    assert linear.regime == "linear" and "input-differential" not in linear.margins
