@@ -60,6 +60,20 @@ class CurveText(Validator):
         return self.failure(message) if message else self.success()
 
 
+def key_label(key: str, width: int = 18) -> str:
+    """A long field name broken after an underscore so it fits the label column
+    ("bias_current_" over "doubling"); the name itself stays whole in the file and messages."""
+    lines, line = [], ""
+    for word in key.split("_"):
+        piece = (line + "_" if line else "") + word
+        if line and len(piece) > width - 1:
+            lines.append(line + "_")
+            line = word
+        else:
+            line = piece
+    return "\n".join([*lines, line])
+
+
 def validators_for(kind: str) -> list[Validator]:
     if kind == "text":
         return []
@@ -110,8 +124,11 @@ class PresetForm(ModalScreen[bool]):
 
     def _row(self, key: str, kind: str, pair: bool, required: bool) -> ComposeResult:
         validators = validators_for(kind)
-        label = key + ("" if required else " (optional)")
-        with Horizontal(classes="form-row"):
+        label = key_label(key) + ("" if required else " (optional)")
+        row = Horizontal(classes="form-row")
+        if "\n" in label:
+            row.styles.height = "auto"           # a long name takes two lines (key_label)
+        with row:
             yield Label(label, classes="form-key")
             for side, name in enumerate(PAIR_SIDES.get(key, ("",))):
                 if pair:
