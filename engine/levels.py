@@ -70,7 +70,8 @@ def frequency_levels(chain: Chain, parts: Mapping[str, Part]) -> list[StageLevel
             levels.append(None)
         else:
             measure, bounds = linear_stage(plan, prepared.responses[k], v, signal, freqs,
-                                           next_load, rise, False, memo)
+                                           next_load, rise, False, memo,
+                                           max(chain.conditions.temperature) - 25.0)
             low, high = bounds.lo.min(axis=0), bounds.hi.max(axis=0)
             levels.append(StageLevels(plan.index, np.asarray(freqs, dtype=float),
                                       np.broadcast_to(low, np.shape(freqs)).astype(float),
