@@ -135,6 +135,9 @@ def _insert_after(container, anchor: str, key: str, value) -> None:
         return
     index = next(i for i, (k, _item) in enumerate(container.body)
                  if k is not None and k.key == anchor)
+    if index + 1 >= len(container.body):      # the anchor ends the file: nothing to insert before
+        container.append(key, value)
+        return
     container._insert_at(index + 1, key, value)
 
 

@@ -358,3 +358,58 @@ def test_a_clipping_feedback_stage_is_checked_against_input_differential_max():
     linear = run(follower(block="noninverting", level='["0", "1.0"]',
                           stage_extra='rf = "90k"\nrg = "10k"'), parts).stages[0]
     assert linear.regime == "linear" and "input-differential" not in linear.margins
+
+
+# --- the fields in the tools -----------------------------------------------------------------
+
+@pytest.mark.parametrize("line, field, words", [
+    ('bias_current_doubling = "-10"\n', "bias_current_doubling", "0 (no doubling) or more"),
+    ('input_differential_max = "-1"\n', "input_differential_max", "0 (not rated) or more"),
+    ('input_differential_max = "lots"\n', "input_differential_max", "voltage"),
+])
+def test_a_bad_limit_is_a_located_error(line, field, words):
+    (problem,) = problems_of(line)
+    assert problem.field == f"part.p.{field}" and problem.line == 12 and words in problem.message
+
+
+def test_presets_show_prints_every_limit_in_units():
+    from railroom.tui.presets_command import part_lines
+    (part,) = part_of('temperature_range = ["-40", "125"]\nbias_current_doubling = "10"\n'
+                      'input_differential_max = "0.7"\nphase_reversal = true\n' + CURVE).values()
+    text = "\n".join(part_lines(part))
+    assert "temperature_range  -40 to 125 °C" in text
+    assert "doubles every 10 °C above 25 °C" in text
+    assert "input_differential_max 700 mV" in text
+    assert "phase_reversal     yes" in text
+    assert "10 mA: upper 1.5 V, lower 2 V" in text
+    (plain,) = part_of().values()
+    assert "phase_reversal" not in "\n".join(part_lines(plain))
+
+
+def test_the_shipped_presets_carry_the_limits_and_follow_the_schema():
+    import jsonschema
+    import tomllib
+    from railroom.engine.presets import read_preset_file, shipped_folder
+    from railroom.engine.schema import preset_schema
+    path = shipped_folder() / "generic.toml"
+    parts, problems = read_preset_file(path)
+    assert problems == []
+    assert all(p.temperature_range is not None for p in parts)
+    assert any(p.output_headroom_curve for p in parts) and any(p.phase_reversal for p in parts)
+    assert any(p.input_differential_max for p in parts) and any(p.bias_current_doubling for p in parts)
+    jsonschema.validate(tomllib.loads(path.read_text(encoding="utf-8")), preset_schema())
+
+
+def test_the_form_writes_a_flag_as_a_boolean_and_a_curve_as_points():
+    import tomlkit
+    from railroom.engine.preset_editing import raw_fields, set_fields
+    text = f"[part.p]\n{BASE}"
+    edited = set_fields(text, "p", {"phase_reversal": "true",
+                                    "output_headroom_curve": "0 1 1; 10m 1.5 2"})
+    table = tomlkit.parse(edited)["part"]["p"]
+    assert table["phase_reversal"] is True
+    assert table["output_headroom_curve"] == [["0", "1", "1"], ["10m", "1.5", "2"]]
+    assert raw_fields(edited, "p")["output_headroom_curve"] == "0 1 1; 10m 1.5 2"
+    assert raw_fields(edited, "p")["phase_reversal"] == "true"
+    parts, problems = parts_from_text(edited, "lab.toml")
+    assert problems == [] and parts[0].output_headroom_curve == ((0.0, 1.0, 1.0), (0.01, 1.5, 2.0))
