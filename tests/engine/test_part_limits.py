@@ -413,3 +413,12 @@ def test_the_form_writes_a_flag_as_a_boolean_and_a_curve_as_points():
     assert raw_fields(edited, "p")["phase_reversal"] == "true"
     parts, problems = parts_from_text(edited, "lab.toml")
     assert problems == [] and parts[0].output_headroom_curve == ((0.0, 1.0, 1.0), (0.01, 1.5, 2.0))
+
+
+def test_an_inverting_schmitt_trigger_input_against_its_threshold():
+    # invert = true (Sedra & Smith, ch. 18): the signal at -, V+ = (ref r2 + Vout r1)/(r1 + r2) =
+    # 11 x 10k / 110k = 1 V while the output is high; the input at -5 V leaves 6 V across the inputs
+    fields = 'block = "schmitt"\nr1 = "10k"\nr2 = "100k"\ninvert = true'
+    stage = run(alarm(fields, level='["-5", "5"]'), part_of('input_differential_max = "7"\n')).stages[0]
+    assert stage.measure.input_differential == pytest.approx(11 * 10e3 / 110e3 + 5, rel=1e-9)
+    assert stage.margins["input-differential"] == pytest.approx(1.0, rel=1e-9) and stage.go
