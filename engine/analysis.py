@@ -31,8 +31,12 @@ def with_overrides(chain: Chain, method: str | None = None, samples: int | None 
 def band_grid(chain: Chain, plans) -> np.ndarray:
     from railroom.engine.methods.corners import corner_values
     rise = chain.conditions.worst_temperature_rise
-    critical = [p.block.critical_frequencies(corner_values(p, rise)) for p in plans
-                if not p.block.saturates]
+    critical = []
+    for p in plans:
+        if not p.block.saturates:
+            v = corner_values(p, rise)
+            # the ideal-op-amp peaks and the real ones (finite gain-bandwidth)
+            critical += [p.block.critical_frequencies(v), p.block.real_critical_frequencies(v, p.part)]
     return frequency_grid(chain, critical, chain.source.amplitude)
 
 

@@ -72,9 +72,10 @@ def judge(measure: StageMeasure, part: Part | None, rails: Rails, required: floa
     reasons = [c for c in VOLTAGE_CHECKS if c in margins and margins[c] < required]
     reasons += [c for c in ("slew", "current", "supply") if margins.get(c, 0.0) < 0]
     reasons += [c for c in (DIFFERENTIAL_CHECK,) if c in margins and margins[c] < required]
-    go = not reasons and (regime == "saturated") == block.saturates
     if measure.fed_clipped:
+        # fed by a clipping stage: whatever this stage does, its signal is not the design's
         reasons.append("fed-clipped")
+    go = not reasons and (regime == "saturated") == block.saturates
     return StageResult(
         measure=measure, regime=regime, go=go, reasons=tuple(reasons), margins=margins,
         limiting=limiting_check(margins, rails, part), failing_nodes=nodes,
@@ -103,7 +104,7 @@ def stage_cautions(measure: StageMeasure, part: Part | None, rails: Rails) -> li
         cautions.append(f"the supply can reach {rails.span_range[1]:.3g} V, above the part's "
                         f"absolute maximum of {part.supply_abs_max:.3g} V: the part may be damaged")
     if measure.reaches is not None:
-        low, high = measure.reaches
+        low, high = measure.always if measure.always is not None else measure.reaches
         if not high:
             cautions.append("the input may never cross the threshold upward at every tolerance "
                             "corner, so the output can stick low")
@@ -115,6 +116,13 @@ def stage_cautions(measure: StageMeasure, part: Part | None, rails: Rails) -> li
 
 def chain_cautions(chain: Chain) -> list[str]:
     cautions = []
+    source = chain.source
+    if source.amplitude > 0 and source.band == (1.0, 1.0):
+        # the loader's default band when none is written (a band of [1, 1] reads the same)
+        cautions.append(
+            f"{chain.path}: source.band: the AC amplitude of {source.amplitude:.3g} V is checked "
+            "at 1 Hz only (no band given, or band = [1, 1]): write band = [lowest, highest] for "
+            'the frequencies it has, or ["0", "0"] for a DC swing')
     for rails in chain.rails.values():
         top = rails.span_range[1]
         if top > SELV_DC_LIMIT:

@@ -13,13 +13,15 @@ frequency evaluated), carried per row as Signal arrays (J, F) with no reduction 
 circuit the bound formulas of propagation.py are exact. Offsets and bias enter as a signed shift.
 A row whose stage leaves the linear regime passes its output clamped to its own window.
 
-Two blocks' figures are single numbers in the block interface (the resistance driving the next
-stage and the conductance its input presents); they are taken at their worst over the tolerance,
-as the corners method takes them, so a row never depends on the other rows beside it.
+What drives each stage is the row's own: the source impedance, a saturated stage's output
+resistance, or the Thevenin impedance of the passive stage before it per row and frequency
+(complex, blocks/passive.py), exact for the circuit. The conductance a stage's input presents is
+a single number in the block interface; it is taken at its worst over the tolerance, as the
+corners method takes it, so a row never depends on the other rows beside it.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import cached_property
 
 import numpy as np
@@ -30,8 +32,9 @@ from railroom.engine.model import Chain
 from railroom.engine.opamp import TWO_PI, inverse_open_loop, laplace_grid
 from railroom.engine.part_limits import curve_level, differential_margin, hot_bias, saturated_differential
 from railroom.engine.plan import StagePlan
-from railroom.engine.propagation import DifferentialSignal, Signal, node_bounds
+from railroom.engine.propagation import DifferentialSignal, Signal, loaded_bounds, node_bounds
 from railroom.engine.results import StageResult
+from railroom.engine.stage_walk import passive_output, shows_input
 
 SATURATED_CHECKS = ("input-high", "input-low", "current")
 
@@ -62,7 +65,6 @@ class Layout:
     plans: list[StagePlan]
     freqs: np.ndarray
     variables: tuple[Variable, ...]
-    drives: tuple[float, ...]              # resistance driving each stage (worst over tolerance)
     loads: tuple[InputLoad, ...]           # what the next stage's input draws (worst)
     amps: tuple[int, ...]                  # op amps per stage
     corner: tuple[StageResult, ...]        # corners results: thresholds and reaches of saturated stages
@@ -113,18 +115,11 @@ def build_layout(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, prepar
             variables += [Variable(None, f"rails.{rails.name}.positive", "rail", rails.tolerance),
                           Variable(None, f"rails.{rails.name}.negative", "rail", rails.tolerance)]
     variables = [v for v in variables if v.scale]
-    drives, loads = [], []
-    drive = chain.source.impedance
+    loads = []
     for k, plan in enumerate(plans):
-        drives.append(drive)
-        response = prepared.responses[k]
-        if response is not None:
-            drive = response.output_resistance
-        else:
-            drive = plan.part.output_resistance if plan.part else 0.0
         following = prepared.responses[k + 1] if k + 1 < len(plans) else None
         loads.append(following.input_load if following is not None else InputLoad())
-    return Layout(chain, plans, np.asarray(freqs, dtype=float), tuple(variables), tuple(drives),
+    return Layout(chain, plans, np.asarray(freqs, dtype=float), tuple(variables),
                   tuple(loads), tuple(amps), tuple(corner))
 
 
@@ -205,20 +200,55 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
     clipped = np.zeros(rows, dtype=bool)
     results = []
     inverse_gains: dict = {}          # 1/A(s) per row, once per part: stages share parts
+    drive = layout.chain.source.impedance
+    before = None                     # the previous stage's response (None: saturated, or none)
+    pending = None                    # a passive stage whose shown span the next stage settles
     for k, plan in enumerate(layout.plans):
         v = stage_values(layout, plan, D, dT)
+        fed, response = signal, None
         if plan.block.saturates:
             draws, signal = saturated_draws(layout, k, v, D, signal)
+            drive = plan.part.output_resistance if plan.part else 0.0
         else:
             if plan.part not in inverse_gains:
                 inverse_gains[plan.part] = per_row(inverse_open_loop(plan.part, grid), rows)
             ig = inverse_gains[plan.part]
-            response = plan.block.respond(v, s, ig, layout.drives[k], k == 0 and
+            response = plan.block.respond(v, s, ig, drive, k == 0 and
                                           layout.chain.source.differential)
-            draws, signal = linear_draws(layout, k, response, v, D, dT, signal, record)
+            draws, signal = linear_draws(layout, k, response, v, D, dT, fed, record)
+            drive = response.output_impedance if response.output_impedance is not None \
+                else response.output_resistance
+        if pending is not None:
+            if k > 0 and shows_input(layout.plans[k - 1:k + 1], (before, response), 1):
+                # the passive stage before shows this stage's input terminal (stage_walk)
+                results[-1] = shown_input(layout, k, response, v, D, dT, fed, results[-1])
+            else:                         # or its output loaded by this stage's conductance
+                results[-1] = shown_loaded(layout, *pending, results[-1])
+        pending = None
+        if response is not None and passive_output(plan, response, layout.loads[k]):
+            pending = (k, response, v, fed)
+        before = response
         clipped |= ~draws.linear
         results.append(draws)
     return results
+
+
+def shown_input(layout: Layout, k: int, response, v, D, dT, signal, passive: StageDraws) -> StageDraws:
+    """The passive stage's draws with its span read at stage k's input terminal, per row."""
+    plan, rows = layout.plans[k], D.shape[0]
+    if plan.part is not None:
+        offsets, bias = row_errors(layout, plan, D, dT)
+    else:
+        offsets = bias = np.zeros((rows, max(len(response.opamps), 1)))
+    node = bounds_of(response.terminal, v, signal, offsets, bias, {})
+    return replace(passive, out_lo=band_min(node.lo), out_hi=band_max(node.hi))
+
+
+def shown_loaded(layout: Layout, k: int, response, v, signal, passive: StageDraws) -> StageDraws:
+    """The passive stage's draws with its span loaded by the next stage's input conductance
+    (propagation.loaded_bounds), where the next stage does not report its input terminal."""
+    shown = loaded_bounds(response.output, v, signal, response.output_impedance, layout.loads[k])
+    return replace(passive, out_lo=band_min(shown.lo), out_hi=band_max(shown.hi))
 
 
 def per_row(grid: np.ndarray, rows: int) -> np.ndarray:

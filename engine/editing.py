@@ -12,7 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import tomlkit
-from tomlkit.items import AoT, Comment, Table, Whitespace
+from tomlkit.items import AoT, Array, Comment, InlineTable, Table, Whitespace
 
 from railroom.engine.blocks import BLOCKS
 from railroom.engine.files import chain_from_text
@@ -48,6 +48,8 @@ CONDITION_FIELDS = {
     "default_tolerance": FieldShape("fraction", help="for values written without one"),
 }
 SECTIONS = {"source": SOURCE_FIELDS, "conditions": CONDITION_FIELDS}
+INPUTS_HELP = 'fixed inputs "r, v" (resistor from voltage v to the - input), ";" between: 82k, 0; 100k 1%, 5'
+
 STARTER_VALUES = {"resistance": "10k", "capacitance": "10n", "voltage": "0", "frequency": "1k"}
 STARTER_FIELDS = {("adc", "high"): "5"}
 
@@ -67,7 +69,8 @@ def stage_shapes(block_name: str) -> dict[str, FieldShape]:
                                                 help="capacitive load to 0 V (optional)")
     for key, spec in block.fields.items():
         if spec.kind == "inputs":
-            continue                   # lists of tables: edited in the file itself
+            shapes[key] = FieldShape("inputs", "inputs", help=INPUTS_HELP)
+            continue
         form = "flag" if spec.kind == "flag" else "value"
         shapes[key] = FieldShape(spec.kind, form, help=spec.help)
     return shapes
@@ -89,6 +92,13 @@ def value_problem(raw: str, shape: FieldShape) -> str | None:
         elif shape.form == "flag":
             if text not in ("true", "false"):
                 return f"expected true or false, got {raw!r}"
+        elif shape.form == "inputs":
+            for number, entry in enumerate(_entries(text), 1):
+                if len(entry) != 2:
+                    return (f'input {number}: expected "r, v" (a resistance, a voltage), '
+                            f"got {';'.join(entry)!r}")
+                parse_quantity(entry[0], "resistance")
+                parse_quantity(entry[1], "voltage")
         elif shape.form in ("choice", "text"):
             if shape.choices and text not in shape.choices:
                 return f"expected one of {', '.join(shape.choices)}, got {raw!r}"
@@ -108,7 +118,21 @@ def toml_value(raw: str, shape: FieldShape):
         return int(text)
     if shape.form == "flag":
         return text == "true"
+    if shape.form == "inputs":
+        if not text:
+            return None
+        inputs = tomlkit.array()
+        for r, v in _entries(text):
+            entry = tomlkit.inline_table()
+            entry.update({"r": r, "v": v})
+            inputs.append(entry)
+        return inputs
     return text or None
+
+
+def _entries(text: str) -> list[list[str]]:
+    """ "82k, 0; 100k, 5" -> [["82k", "0"], ["100k", "5"]] (empty entries skipped)."""
+    return [[p.strip() for p in part.split(",")] for part in text.split(";") if part.strip()]
 
 
 def shown(value) -> str:
@@ -117,18 +141,30 @@ def shown(value) -> str:
         return ""
     if isinstance(value, bool):
         return "true" if value else "false"
+    if isinstance(value, list) and value and all(isinstance(v, dict) for v in value):
+        return "; ".join(f"{shown(v.get('r'))}, {shown(v.get('v'))}" for v in value)
     if isinstance(value, list):
         return ", ".join(shown(v) for v in value)
     return str(value)
 
 
 def stage_field(text: str, index: int, key: str) -> str:
-    table = _stages(tomlkit.parse(text))[index - 1]
-    return shown(table.get(key))
+    return stage_fields(text, index, [key])[key]
 
 
 def section_field(text: str, section: str, key: str) -> str:
-    return shown(tomlkit.parse(text).get(section, {}).get(key))
+    return section_fields(text, section, [key])[key]
+
+
+def stage_fields(text: str, index: int, keys) -> dict[str, str]:
+    """Several fields of stage `index` as a form shows them, from one reading of the text."""
+    table = _stages(tomlkit.parse(text))[index - 1]
+    return {key: shown(table.get(key)) for key in keys}
+
+
+def section_fields(text: str, section: str, keys) -> dict[str, str]:
+    table = tomlkit.parse(text).get(section, {})
+    return {key: shown(table.get(key)) for key in keys}
 
 
 def set_stage_field(text: str, index: int, key: str, value) -> str:
@@ -166,7 +202,7 @@ def starter_stage(block_name: str, name: str, part: str | None, rails: str | Non
 def add_stage(text: str, position: int, fields: dict) -> str:
     """Insert a stage so that it becomes stage `position` (1-based; past the end appends)."""
     document = tomlkit.parse(text)
-    table = tomlkit.table()
+    table = tomlkit.inline_table() if isinstance(_stages(document), Array) else tomlkit.table()
     for key, value in fields.items():
         table[key] = value
 
@@ -201,6 +237,8 @@ def _reordered(document, change) -> str:
     """Take every stage with its own comment lines (tomlkit keeps the lines above a table at the
     end of whatever comes before it), change their order, and put them back together."""
     stages = _stages(document)
+    if isinstance(stages, Array):
+        return _reordered_inline(document, stages, change)
     tables = list(stages.body)
     notes = [_detach_tail(_holder_before(document, stages, tables, i)) for i in range(len(tables))]
     change(tables, notes)
@@ -210,6 +248,27 @@ def _reordered(document, change) -> str:
         _end_with_blank_line(table)
         stages.append(table)
         _holder_before(document, stages, tables, i).extend(notes[i])
+    return _dumped(document)
+
+
+def _reordered_inline(document, stages: Array, change) -> str:
+    """The same for stages written as an array of inline tables (`stage = [{...}, {...}]`): one
+    insert, delete or move in place, so the other lines keep their comments."""
+    old = list(stages)
+    new = list(old)
+    change(new, [[] for _ in new])
+    if len(new) > len(old):
+        at = next(i for i, t in enumerate(new) if not any(t is o for o in old))
+        stages.insert(at, new[at])
+    elif len(new) < len(old):
+        del stages[next(i for i, o in enumerate(old) if not any(o is t for t in new))]
+    else:
+        first = next((i for i, (o, t) in enumerate(zip(old, new)) if o is not t), None)
+        if first is not None:
+            was = next(i for i, o in enumerate(old) if o is new[first])
+            moved = stages[was]
+            del stages[was]
+            stages.insert(first, moved)
     return _dumped(document)
 
 
@@ -244,11 +303,14 @@ class _DocumentSlot(list):
         self.body[at:at] = list(items)
 
 
-def _stages(document) -> AoT:
+def _stages(document) -> AoT | Array:
+    """The stages: [[stage]] tables, or an array of inline tables (`stage = [{...}, ...]`)."""
     stages = document.get("stage")
-    if not isinstance(stages, AoT):
-        raise ValueError("the chain has no [[stage]] tables to edit")
-    return stages
+    if isinstance(stages, AoT):
+        return stages
+    if isinstance(stages, Array) and all(isinstance(t, InlineTable) for t in stages):
+        return stages
+    raise ValueError("the chain has no [[stage]] tables to edit")
 
 
 def _put(table: Table, key: str, value) -> None:

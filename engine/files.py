@@ -163,7 +163,7 @@ def _read_source(t: dict, r: FieldReader) -> Source | None:
     amplitude = r.number(t, w, "amplitude", "voltage", default=0.0)
     impedance = (0.0 if t.get("impedance", 0) in (0, "0") else
                  r.number(t, w, "impedance", "resistance", default=0.0))
-    band = r.span(t, w, "band", "frequency", (1.0, 1.0), ordered="lowest, highest")
+    band = (0.0, 0.0) if t.get("band") in (["0", "0"], [0, 0]) else r.span(t, w, "band", "frequency", (1.0, 1.0), ordered="lowest, highest")  # noqa: E501  a DC-only source
     if amplitude is not None and amplitude < 0:
         r.problem(f"{w}.amplitude", f"expected a peak amplitude of 0 V or more, got {amplitude:g}")
     if impedance is not None and impedance < 0:

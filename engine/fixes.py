@@ -96,6 +96,10 @@ class Evaluator:
             self._prepared = corners.prepare(self.chain, self.plans, self.freqs)
             self._unchanged = corners.run(self._prepared, entering=self._entering)
         first = max(changed - 1, 0)
+        # a passive stage shows (and hands on) what the stage after it loads it to, row by row
+        # with that stage's corners: start from the last stage before them that stands alone
+        while first > 0 and (self._prepared.joint[first] or not self.plans[first].block.uses_part):
+            first -= 1
         prepared = corners.prepare(self.chain, plans, self.freqs, reuse=self._prepared, first=changed)
         return [*self._unchanged[:first],
                 *corners.run_from(prepared, first, self._entering[first], stop)]
@@ -174,6 +178,9 @@ def value_fixes(evaluate: Evaluator, plan, result: StageResult, lin) -> list[Fix
                     + (f": {check} margin {format_si(after.margins[check], unit(check))}"
                        if check else ""))
             fixes.append(Fix(text=text, field=field, value=new))
+    if len(fixes) == 2 and (fixes[0].field, fixes[0].value) == (fixes[1].field, fixes[1].value):
+        # the nearest E24 value is also the nearest E96 one (150k is in both): say it once
+        fixes = [replace(fixes[0], text=fixes[0].text.replace("(E24)", "(E24, E96)", 1))]
     return fixes
 
 

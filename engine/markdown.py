@@ -124,7 +124,7 @@ def stage_table(result: ChainResult) -> str:
         window = "-" if m.window is None else f"{volts(m.window[0])} to {volts(m.window[1])}"
         rails = result.chain.rails_for(s.stage).name if s.stage.part else "-"
         cells = [str(s.index), md(s.stage.name), s.stage.block, md(s.stage.part or "-"), md(rails),
-                 s.regime, "yes" if s.go else "**no**",
+                 s.shown_regime, "yes" if s.go else "**no**",
                  margin_words(s.limiting, s.margins.get(s.limiting) if s.limiting else None),
                  f"{volts(m.output[0])} to {volts(m.output[1])}", window]
         if probability:
@@ -232,7 +232,7 @@ def cautions(result: ChainResult) -> str:
 
 
 def sensitivity(result: ChainResult) -> str:
-    rows = [f"| {s.index} | {md(s.stage.name)} | {s.limiting or '-'} | {md(x.quantity)} | "
+    rows = [f"| {s.index} | {md(s.stage.name)} | {s.limiting or '-'} | {md(x.words)} | "
             f"{x.share:.0%} |" for s in result.stages for x in s.sensitivity]
     if not rows:
         return ""

@@ -100,11 +100,12 @@ def solve_loop(loop: Loop, inverse_gain: np.ndarray) -> LoopSolution:
 
 
 def _column(value, shape: tuple[int, ...]) -> np.ndarray:
-    """A per-corner DC quantity given as scalar, (J,) or (J, 1), as shape (J,)."""
-    value = np.asarray(value, dtype=float)
+    """A per-corner DC quantity given as scalar, (J,), (J, 1) or (J, F+1) over s (DC first, a
+    complex driving impedance), as shape (J,): the real DC part."""
+    value = np.asarray(value)
     if value.ndim == 2:
         value = value[:, 0]
-    return np.broadcast_to(value, shape)
+    return np.broadcast_to(value.real.astype(float), shape)
 
 
 def output_window(part: Part, rails: Rails, sourced: float, sunk: float) -> tuple[float, float]:

@@ -1,4 +1,4 @@
-"""Editing a preset file without losing anything the user wrote (SPEC section 3).
+"""Editing a preset file without losing anything the user wrote (see "Presets" in the README).
 
 Every edit takes the file's text and returns new text; nothing else in the file changes. Field
 values are replaced with tomlkit, which keeps each line's comment and the table's layout. Whole
@@ -16,7 +16,7 @@ from pathlib import Path
 import tomlkit
 from tomlkit.exceptions import TOMLKitError
 
-from railroom.engine.atomic import fingerprint, write_atomic
+from railroom.engine.atomic import Fingerprint, fingerprint, write_atomic
 from railroom.engine.model import InputError, Problem
 from railroom.engine.presets import PART_FIELDS, parts_from_text, shipped_folder
 from railroom.engine.toml_lines import key_lines
@@ -45,7 +45,7 @@ class OpenedPresetFile:
 
     path: Path
     text: str
-    stamp: tuple[int, int] | None
+    stamp: Fingerprint | None
 
 
 def open_preset_file(path: str | Path) -> OpenedPresetFile:
@@ -116,29 +116,25 @@ def _put(table, key: str, raw: Raw) -> None:
     if key in table:
         table[key] = value
         return
-    # A new key goes after the field that precedes it in SPEC order, so the file reads in order;
+    # A new key goes after the field that precedes it in the order of PART_FIELDS, so the file
+    # reads in order;
     # tomlkit's public add() would put it after the blank lines and comments ending the table.
     order = list(PART_FIELDS)
     before = [k for k in order[:order.index(key)] if k in table] or list(table.keys())
     if before:
-        _insert_after(table.value, before[-1], key, value)
+        insert_after(table, before[-1], key, value)
     else:
         table.add(key, value)
 
 
-def _insert_after(container, anchor: str, key: str, value) -> None:
-    """Insert `key` right after `anchor` in a tomlkit container. tomlkit has no public insert:
-    its `_insert_after` went away in 0.15, where `_insert_at` (an index into the body) remains;
-    both are tried, and the tests pin the result (test_preset_editing)."""
-    if hasattr(container, "_insert_after"):
-        container._insert_after(anchor, key, value)
-        return
-    index = next(i for i, (k, _item) in enumerate(container.body)
-                 if k is not None and k.key == anchor)
-    if index + 1 >= len(container.body):      # the anchor ends the file: nothing to insert before
-        container.append(key, value)
-        return
-    container._insert_at(index + 1, key, value)
+def insert_after(table, after: str, key: str, value) -> None:
+    """Put a new key on the line after `after` (whose own comment stays on its line)."""
+    body = table.value.body
+    at = next(i for i, (k, _) in enumerate(body) if k is not None and k.key == after)
+    if at + 1 < len(body):
+        table.value._insert_at(at + 1, key, value)
+    else:
+        table.add(key, value)
 
 
 def _table(document, part_id: str):

@@ -196,6 +196,25 @@ def node_bounds(node: Node, v: dict, signal, error, shift=0.0) -> NodeBounds:
     return single_bounds(node, v, signal, error, shift)
 
 
+def loaded_bounds(node: Node, v: dict, signal, impedance: np.ndarray, load,
+                  shift: np.ndarray | float = 0.0) -> NodeBounds:
+    """The voltage at a passive stage's output with the next stage's input on it. The node is
+    the open-circuit (Thevenin) voltage Vth, `impedance` the Thevenin impedance Z (J, F+1) and
+    `load` what the next stage draws (blocks.base.InputLoad: a conductance G to a return Vr):
+        V = Vr + (Vth - Vr) / (1 + Z G)          (a voltage divider, Horowitz & Hill ch. 1)
+    bounded from outside over both ends of G (load.least, load.conductance) and of Vr."""
+    found = []
+    for g in sorted({load.least, load.conductance}):
+        share = 1.0 / (1.0 + impedance * g)
+        divided = Node(transfers={k: t * share for k, t in node.transfers.items()})
+        for vr in sorted(set(load.returns)):
+            found.append(node_bounds(divided, v, signal, 0.0, shift + (1.0 - share[..., :1].real) * vr))
+    return NodeBounds(lo=np.minimum.reduce([b.lo for b in found]),
+                      hi=np.maximum.reduce([b.hi for b in found]),
+                      amp_lo=np.minimum.reduce([b.amp_lo for b in found]),
+                      amp_hi=np.maximum.reduce([b.amp_hi for b in found]))
+
+
 def merge(bounds: NodeBounds, fed_clipped: bool) -> Signal:
     """Worst case over a stage's own corners: the next stage's input (corners method)."""
     return Signal(hi=bounds.hi.max(axis=0), lo=bounds.lo.min(axis=0),

@@ -196,7 +196,12 @@ def _syntax_problem(err, text: str, path: str) -> Problem:
     if line is None and "end of document" in message:
         line = max(1, text.count("\n") + (0 if text.endswith("\n") else 1))
     reason = getattr(err, "msg", message.split(" (at ")[0])
-    return Problem(path, line, "(file)", f"not valid TOML: {reason}")
+    column = getattr(err, "colno", None)
+    if column is None:
+        found = re.search(r"column (\d+)", message)
+        column = int(found.group(1)) if found else None
+    where = f" at column {column}" if column is not None and line is not None else ""
+    return Problem(path, line, "(file)", f"not valid TOML{where}: {reason}")
 
 
 @dataclass

@@ -55,7 +55,7 @@ def stage_report(result: StageResult) -> dict:
         report["thresholds"] = {"to_high": [_number(x) for x in m.thresholds[0]],
                                 "to_low": [_number(x) for x in m.thresholds[1]]}
     if result.sensitivity:
-        report["sensitivity"] = [{"quantity": s.quantity, "share": _number(s.share, 3)}
+        report["sensitivity"] = [{"quantity": s.quantity, "label": s.words, "share": _number(s.share, 3)}
                                  for s in result.sensitivity]
     if result.fixes:
         report["fixes"] = [{"text": f.text, "field": f.field, "value": _number(f.value)}

@@ -28,8 +28,13 @@ class OpAmpMeasure:
 
 @dataclass(frozen=True)
 class Sensitivity:
-    quantity: str                    # "rf", "rails.main", "offset", ...
+    quantity: str                    # "rf", "rails.main.positive", "stage.2.offset", ... (an id)
     share: float                     # fraction of the limiting margin's spread it explains
+    label: str = ""                  # the same in words: "rf", "main rail +", "stage 2 offset"
+
+    @property
+    def words(self) -> str:
+        return self.label or self.quantity
 
 
 @dataclass(frozen=True)
@@ -54,7 +59,8 @@ class StageMeasure:
     fed_clipped: bool = False
     saturated: bool = False              # a saturated-by-design block
     thresholds: tuple[Span, Span] | None = None   # saturating blocks: to go high, to go low
-    reaches: tuple[bool, bool] | None = None
+    reaches: tuple[bool, bool] | None = None       # (low, high): reached at some corner
+    always: tuple[bool, bool] | None = None        # (low, high): crossed at every joint corner
     inner: dict[str, Span] = field(default_factory=dict)
     input_differential: float | None = None   # saturating blocks: largest |V+ - V-|, V
     phase_margin_deg: float | None = None     # with a load_capacitance: the loop's estimate
@@ -82,6 +88,18 @@ class StageResult:
     @property
     def index(self) -> int:
         return self.measure.index
+
+    @property
+    def shown_regime(self) -> str:
+        """The regime word lists show: "fed-clipped" for a stage that does not clip itself but
+        is fed by one that does (its regime stays linear or saturated in the report)."""
+        return "fed-clipped" if self.measure.fed_clipped and self.regime != "clipping" else self.regime
+
+    @property
+    def regime_word(self) -> str:
+        """shown_regime with "!" when the stage is not GO ("fed-clipped" never is: no mark)."""
+        word = self.shown_regime
+        return word if self.go or word == "fed-clipped" else f"{word}!"
 
     @property
     def drawn(self) -> tuple[Span, Span | None, str | None]:
@@ -119,4 +137,6 @@ class ChainResult:
 
     @property
     def failing(self) -> int:
-        return sum(not s.go for s in self.stages)
+        """Stages that fail on their own: a stage fed by a clipping one is not GO either
+        (reason "fed-clipped"), but it is not counted as one more failure."""
+        return sum(not s.go and list(s.reasons) != ["fed-clipped"] for s in self.stages)

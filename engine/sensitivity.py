@@ -74,6 +74,22 @@ def quantity_name(var: dw.Variable, stage: int) -> str:
     return var.quantity if var.stage == stage else var.label
 
 
+def quantity_words(name: str) -> str:
+    """A quantity id as the detail panel says it: "rails.analog.positive" -> "analog rail +",
+    "stage.2.offset" -> "stage 2 offset", "inputs.3.r" -> "input 3 r", "bias" -> "bias current"."""
+    parts = name.split(".")
+    if parts[0] == "rails" and len(parts) == 3:
+        return f"{parts[1]} rail {'+' if parts[2] == 'positive' else '-'}"
+    prefix = ""
+    if parts[0] == "stage" and len(parts) >= 3:
+        prefix, parts = f"stage {parts[1]} ", parts[2:]
+    if parts[0] == "inputs" and len(parts) == 3:
+        own = f"input {parts[1]} {parts[2]}"
+    else:
+        own = {"bias": "bias current"}.get(".".join(parts), ".".join(parts))
+    return prefix + own
+
+
 def ranking(lin: Linearised, stage: int, check: str | None, statistical: bool
             ) -> tuple[Sensitivity, ...]:
     """The quantities that move `check` of plan index `stage` most, largest share first."""
@@ -92,7 +108,7 @@ def ranking(lin: Linearised, stage: int, check: str | None, statistical: bool
     # equal effects (identical inputs) differ only by rounding noise: rank by the share to 12
     # digits, ties in the circuit's own order of quantities, so one chain gives one report
     ordered = sorted(shares.items(), key=lambda item: -round(item[1], 12))
-    return tuple(Sensitivity(name, share) for name, share in ordered[:SHOWN]
+    return tuple(Sensitivity(name, share, quantity_words(name)) for name, share in ordered[:SHOWN]
                  if share >= SMALLEST_SHARE)
 
 

@@ -17,8 +17,8 @@ from railroom.engine.opamp import TWO_PI, input_window, output_window
 from railroom.engine.part_limits import bias_at, clipped_differential, saturated_differential
 from railroom.engine.plan import StagePlan
 from railroom.engine.propagation import (DifferentialSignal, NodeBounds, Signal, clamp, error_bound,
-                                         memory_order, merge, node_bounds, single_bounds,
-                                         single_terms)
+                                         loaded_bounds, memory_order, merge, node_bounds,
+                                         single_bounds, single_terms)
 from railroom.engine.results import OpAmpMeasure, StageMeasure, StageResult
 
 
@@ -46,12 +46,15 @@ def bounds_once(node, v: dict, signal, offsets, bias, known: dict,
 
 
 def walk_chain(prepared, signal, nominal: bool = False, notes=None, first: int = 0,
-               entering: list | None = None, stop: int | None = None) -> list[StageResult]:
+               entering: list | None = None, stop: int | None = None,
+               levels: dict | None = None) -> list[StageResult]:
     """Results of stages `first` up to (not including) `stop`, the last by default, fed `signal`
-    at stage `first`. `entering`, when
-    given, receives the signal entering each walked stage (the fix search re-walks from there)."""
+    at stage `first`. `entering`, when given, receives the signal entering each walked stage
+    (the fix search re-walks from there); `levels`, stage index -> the bounds per frequency of
+    what each linear stage shows (the level picture)."""
     chain = prepared.chain
     rise = chain.conditions.worst_temperature_rise
+    hot = max(chain.conditions.temperature) - 25.0     # the bias current is taken there (part_limits)
     # node terms depend on the offsets, which the nominal walk leaves out: one memo for each
     memo = prepared.memo.setdefault(("terms", nominal), {})
     results: list[StageResult] = []
@@ -63,12 +66,29 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None, first: int =
         next_load = following.input_load if following is not None else InputLoad()
         v = prepared.values[k]
         if plan.block.saturates:
-            measure, signal = saturated_stage(plan, v, signal)
+            measure, signal = saturated_stage(plan, v, signal, rise, nominal, hot_rise=hot)
         else:
+            later = k + 1 < len(prepared.plans) and prepared.joint[k + 1] and \
+                shows_input(prepared.plans, prepared.responses, k + 1)
             measure, bounds = linear_stage(plan, prepared.responses[k], v, signal, prepared.freqs,
-                                           next_load, rise, nominal, memo,
-                                           max(chain.conditions.temperature) - 25.0)
-            signal = merge(bounds, getattr(signal, "fed_clipped", False))
+                                           next_load, rise, nominal, memo, shown_later=later,
+                                           hot_rise=hot)
+            if shows_input(prepared.plans, prepared.responses, k) and prepared.joint[k]:
+                # the passive stage before shows the voltage at this stage's input terminal,
+                # each of its circuits paired with this stage's own (exact)
+                terminal = input_bounds(plan, prepared.responses[k], v, signal, rise, nominal, memo,
+                                        hot_rise=hot)
+                shown = span(terminal)
+                if levels is not None:
+                    levels[k - 1] = terminal
+                before = results[-1]
+                results[-1] = replace(before, measure=replace(before.measure, output=shown))
+            if levels is not None:
+                levels[k] = bounds
+            fed = getattr(signal, "fed_clipped", False)
+            pairs = k + 1 < len(prepared.plans) and prepared.joint[k + 1]
+            signal = paired(bounds, v["drive"].shape[0], prepared.values[k + 1]["drive"].shape[0],
+                            fed) if pairs else merge(bounds, fed)
         if notes is not None:
             measure = replace(measure, **notes[k])
         result = judge(measure, plan.part, plan.rails, chain.conditions.margin)
@@ -78,9 +98,25 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None, first: int =
     return results
 
 
+def paired(bounds: NodeBounds, rows: int, next_rows: int, fed_clipped: bool) -> Signal:
+    """A passive stage's bounds handed on row by row to the stage after it, whose row i*n + j
+    is its own corner i with this stage's row j (corners.stage_values): each row of the next
+    stage meets the voltage of the very circuit whose impedance drives it."""
+    reps = next_rows // rows
+
+    def tiled(x: np.ndarray) -> np.ndarray:
+        if reps == 1 and x.shape[0] == rows:
+            return x
+        return np.broadcast_to(x, (reps, rows, x.shape[-1])).reshape(next_rows, x.shape[-1])
+    return Signal(hi=tiled(bounds.hi), lo=tiled(bounds.lo), amp_lo=tiled(bounds.amp_lo),
+                  amp_hi=tiled(bounds.amp_hi), fed_clipped=fed_clipped)
+
+
 def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freqs: np.ndarray,
                  next_load: InputLoad, rise: float, nominal: bool,
-                 memo: dict | None = None, hot_rise: float = 0.0) -> tuple[StageMeasure, NodeBounds]:
+                 memo: dict | None = None, shown_later: bool = False,
+                 hot_rise: float = 0.0) -> tuple[StageMeasure, NodeBounds]:
+    """`shown_later`: the next stage will set what this (passive) stage shows (input_span)."""
     part = plan.part
     count = len(response.opamps)
     offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
@@ -97,13 +133,50 @@ def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freq
         window = (float(np.max(v["low"])), float(np.min(v["high"])))   # worst over tolerance
     inner = {name: span(bounds_once(node, v, signal, offsets, bias, known, memo))
              for name, node in response.inner.items()}
+    shown = span(out)
+    if passive_output(plan, response, next_load) and not shown_later:
+        # what the stage shows is its output with the next stage's input on it; what it hands
+        # on is its Thevenin voltage (the next stage meets the impedance itself)
+        shown = span(loaded_bounds(response.output, v, signal, response.output_impedance, next_load))
     measure = StageMeasure(
-        index=plan.index, stage=plan.stage, output=span(out), nominal=span(out), opamps=amps,
+        index=plan.index, stage=plan.stage, output=shown, nominal=shown, opamps=amps,
         window=window, supply=plan.rails.span_range if part else None,
         fed_clipped=getattr(signal, "fed_clipped", False), inner=inner,
         input_differential=clipped_differential(part, response, amps, freqs),
     )
     return measure, out
+
+
+def shows_input(plans, responses, k: int) -> bool:
+    """Stage k - 1 is passive (not a converter input, which is checked on what it shows) and
+    stage k knows its input terminal: stage k - 1 then shows that terminal's voltage."""
+    return (k > 0 and responses[k - 1] is not None and responses[k - 1].output_impedance is not None
+            and not plans[k - 1].block.window_only and responses[k] is not None
+            and responses[k].input_node is not None)
+
+
+def input_span(plan: StagePlan, response: BlockResponse, v: dict, signal, rise: float,
+               nominal: bool, memo: dict | None, hot_rise: float = 0.0) -> tuple[float, float]:
+    """The span of the stage's input terminal (BlockResponse.input_node)."""
+    return span(input_bounds(plan, response, v, signal, rise, nominal, memo, hot_rise))
+
+
+def input_bounds(plan: StagePlan, response: BlockResponse, v: dict, signal, rise: float,
+                 nominal: bool, memo: dict | None, hot_rise: float = 0.0):
+    """The bounds per frequency of the stage's input terminal (BlockResponse.input_node);
+    `hot_rise`: the hottest temperature less 25 C, where the bias current is taken (part_limits)."""
+    part = plan.part
+    count = max(len(response.opamps), 1)
+    offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
+    bias = 0.0 if (nominal or part is None) else bias_at(part, 25.0 + hot_rise)
+    return bounds_once(response.terminal, v, signal, offsets, bias, {}, memo)
+
+
+def passive_output(plan: StagePlan, response: BlockResponse, load: InputLoad) -> bool:
+    """A passive stage whose shown output differs from its Thevenin voltage: the next stage
+    draws current from it (a converter input draws none and passes its input on)."""
+    return (response.output_impedance is not None and not plan.block.window_only
+            and load.conductance > 0)
 
 
 def opamp_measure(plan: StagePlan, amp: OpAmpNodes, v: dict, signal, offsets, bias, freqs,
@@ -128,10 +201,30 @@ def opamp_measure(plan: StagePlan, amp: OpAmpNodes, v: dict, signal, offsets, bi
     )
 
 
-def saturated_stage(plan: StagePlan, v: dict, signal) -> tuple[StageMeasure, Signal]:
+def crossed_always(switching, signal, invert: bool) -> tuple[bool, bool]:
+    """(low, high): the input crosses the threshold into each state at every joint corner and
+    band frequency. At one corner the input swings dc +/- a; dc - a >= lo at every corner, so
+    its top dc + a is at least lo + 2 a_lo (and its bottom at most hi - 2 a_lo): the worst
+    corner's excursion, per frequency, against the threshold's worst corner."""
+    to_high, to_low = switching.thresholds
+    if isinstance(signal, Signal):
+        top, bottom = signal.lo + 2 * signal.amp_lo, signal.hi - 2 * signal.amp_lo
+    else:                                   # a differential source: its common-mode range
+        top = bottom = np.array([signal.common[0], signal.common[1]])
+        top, bottom = np.min(top), np.max(bottom)
+    if invert:
+        return bool(np.all(top > to_low[1])), bool(np.all(bottom < to_high[0]))
+    return bool(np.all(bottom < to_low[0])), bool(np.all(top > to_high[1]))
+
+
+def saturated_stage(plan: StagePlan, v: dict, signal, rise: float = 0.0,
+                    nominal: bool = False, hot_rise: float = 0.0) -> tuple[StageMeasure, Signal]:
     """A comparator-like stage: switch levels, thresholds and the two-level signal it passes on."""
     incoming = signal.span if isinstance(signal, Signal) else (signal.common[0], signal.common[1])
-    switching = plan.block.switch(v, plan.flags, plan.part, plan.rails, incoming)
+    part = plan.part
+    offset = 0.0 if nominal else part.offset_at(25.0 + rise)
+    bias = 0.0 if nominal else bias_at(part, 25.0 + hot_rise)
+    switching = plan.block.switch(v, plan.flags, part, plan.rails, incoming, offset=offset, bias=bias)
     (low_min, low_max), (high_min, high_max) = switching.levels
     reach_low, reach_high = switching.reaches
     top = high_max if reach_high else low_max
@@ -149,6 +242,7 @@ def saturated_stage(plan: StagePlan, v: dict, signal) -> tuple[StageMeasure, Sig
         thresholds=switching.thresholds, reaches=switching.reaches,
         input_differential=float(np.max(saturated_differential(
             plan.stage.block, v, plan.flags, incoming, switching.levels))),
+        always=crossed_always(switching, signal, bool(plan.flags.get("invert"))),
     )
     freqs_shape = np.shape(signal.hi) if isinstance(signal, Signal) else (1,)
     zero = np.zeros(freqs_shape)

@@ -317,3 +317,13 @@ def format_si(value: float, unit: str, digits: int = 3) -> str:
     prefix = {-15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G"}
     mantissa = _significant(rounded / 10.0 ** exponent, digits)
     return f"{mantissa} {prefix[exponent]}{unit}" if unit else f"{mantissa}{prefix[exponent]}"
+
+
+def format_span(low: float, high: float, unit: str, digits: int = 3) -> str:
+    """"low .. high" with enough digits (up to 7) that two different ends never read the same:
+    a comparator threshold of 3.897 .. 3.903 V is not shown as "3.9 V .. 3.9 V"."""
+    for shown in range(digits, 8):
+        a, b = format_si(low, unit, shown), format_si(high, unit, shown)
+        if a != b or low == high:
+            return f"{a} .. {b}"
+    return f"{a} .. {b}"

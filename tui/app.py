@@ -8,6 +8,7 @@ soon as the file loads.
 """
 from __future__ import annotations
 
+import os
 import time
 from functools import partial
 from pathlib import Path
@@ -21,7 +22,7 @@ from textual.worker import get_current_worker
 
 from railroom.engine.analysis import analyse
 from railroom.engine.methods.montecarlo import Cancelled
-from railroom.engine.model import InputError
+from railroom.engine.model import InputError, Problem
 from railroom.engine.results import ChainResult
 from railroom.tui.screens.chain import ChainScreen
 from railroom.tui.screens.dialogs import ConfirmScreen, SaveAsScreen
@@ -33,6 +34,15 @@ WATCH_SECONDS = 1.0
 # While values are being typed, the full check (the file's method with the design aids) waits for a
 # pause in the typing: started on every keystroke it would compete with the repaint for the CPU.
 TYPING_PAUSE_SECONDS = 0.3
+
+
+def same_file(one: Path, other: Path) -> bool:
+    return os.path.realpath(one) == os.path.realpath(other)
+
+
+def problem_words(problems: list[Problem]) -> str:
+    first = problems[0]
+    return f"{first.field}: {first.message}" if first.field != "(edit)" else first.message
 
 
 def key(keys: str, action: str, words: str, ident: str, tooltip: str, show: bool = True) -> Binding:
@@ -66,6 +76,8 @@ class RailroomApp(App):
         self.result: ChainResult | None = None
         self._generation = 0
         self._full_timer: Timer | None = None
+        # field edits typed but not yet checked: (form, field) -> (edit, where its verdict goes)
+        self._pending: dict[tuple[str, str], tuple[Callable[[str], str], Callable]] = {}
 
     def get_default_screen(self) -> ChainScreen | ProblemsScreen:
         if self.waiting is not None:
@@ -86,32 +98,115 @@ class RailroomApp(App):
 
     # the engine
     def apply_edit(self, change: Callable[[str], str], typing: bool = False) -> str | None:
-        """Apply an edit of the chain text; on success re-check, else return the problem.
-        `typing`: the edit is a keystroke in a form, so the full check waits for a pause."""
+        """Apply an edit of the chain text at once (a command: add, move, method ...); on success
+        re-check, else return the problem. Values typed in a form go through `type_edit`."""
+        self.settle()
         problems = self.session.edit(change)
         if problems:
-            first = problems[0]
-            return f"{first.field}: {first.message}" if first.field != "(edit)" else first.message
+            return problem_words(problems)
         self.recheck(TYPING_PAUSE_SECONDS if typing else 0.0)
         return None
+
+    def type_edit(self, step: tuple[str, str], change: Callable[[str], str],
+                  judged: Callable[[str | None], None]) -> None:
+        """A keystroke's edit of one field (`step`: form and field): loaded and checked in a
+        worker thread, so the event loop never waits on the engine while the user types. A newer
+        keystroke supersedes it; `judged(problem or None)` runs when the newest result is in."""
+        self._pending[step] = (change, judged)
+        self._generation += 1
+        self._stop_full_timer()
+        self.run_worker(partial(self._edit_job, self._generation, self.session.text,
+                                list(self._pending.items())),
+                        thread=True, exclusive=True, group="edit", exit_on_error=False)
+
+    def _edit_job(self, generation: int, base: str, steps: list) -> None:
+        """In a worker thread: every pending field edit applied to `base`, loaded and checked
+        (corners, without design aids). Only reads the session; the app thread keeps the result."""
+        worker = get_current_worker()
+        text, prepared, outcomes = base, None, {}
+        for step, (change, _) in steps:
+            if worker.is_cancelled:
+                return
+            try:
+                found = self.session.prepare(text, change)
+            except Exception as err:       # never lose the app (and the typing) to a bug here
+                found = [Problem(str(self.session.path), None, "(edit)", repr(err))]
+            if isinstance(found, list):
+                outcomes[step] = problem_words(found)
+            else:
+                text, prepared, outcomes[step] = found[0], found, None
+        result = None
+        if prepared is not None and not worker.is_cancelled:
+            try:
+                result = analyse(prepared[1], prepared[2].parts, method="corners",
+                                 design_aids=False, headroom=False)
+            except Exception as err:
+                for step in outcomes:
+                    outcomes[step] = f"the check failed: {err!r}"
+                prepared = None
+        if worker.is_cancelled:
+            return
+        try:
+            self.call_from_thread(self._edit_done, generation, base, steps, prepared, outcomes,
+                                  result)
+        except RuntimeError:
+            pass                           # the app closed meanwhile
+
+    def _edit_done(self, generation: int, base: str, steps: list, prepared, outcomes: dict,
+                   result: ChainResult | None) -> None:
+        if generation != self._generation or base != self.session.text:
+            return                         # a newer keystroke (or command) owns the screen
+        self._pending.clear()
+        if prepared is not None:
+            step = steps[0][0] if len(steps) == 1 else None
+            self.session.commit(*prepared, step=step)
+        for step, (_, judged) in steps:
+            judged(outcomes[step])
+        if prepared is not None and result is not None:
+            self._show_corners(result)
+            self._schedule_full(TYPING_PAUSE_SECONDS)
+
+    def settle(self) -> None:
+        """Keep the field edits still being checked, at once (before a save, an undo, a command):
+        the last thing typed is what counts."""
+        if not self._pending:
+            return
+        pending, self._pending = list(self._pending.values()), {}
+        self._generation += 1                # drops the worker's (now older) answer
+        changed = False
+        for change, judged in pending:
+            problems = self.session.edit(change)
+            changed |= not problems
+            judged(problem_words(problems) if problems else None)
+        if changed:
+            self.recheck()
 
     def recheck(self, full_after: float = 0.0) -> None:
         """Corners at once on this thread; then, in a worker, the file's own method with the
         design aids (sensitivity, fixes), after `full_after` seconds. A newer edit cancels the
         older run (and a full run still waiting to start)."""
         self._generation += 1
-        self.result = self.session.corners()
+        self._show_corners(self.session.corners())
+        self._schedule_full(full_after)
+
+    def _show_corners(self, result: ChainResult) -> None:
+        self.result = result
         method = self.session.chain.conditions.method
         note = f"{method} running..." if method != "corners" else ""
         self.chain_screen.show(self.result, note)
         self.chain_screen.query_one("StatusLine").running(method != "corners")
+
+    def _stop_full_timer(self) -> None:
         if self._full_timer is not None:
             self._full_timer.stop()
             self._full_timer = None
+
+    def _schedule_full(self, after: float) -> None:
+        self._stop_full_timer()
         start = partial(self.run_full, self._generation, self.session.chain,
                         self.session.library.parts)
-        if full_after > 0:
-            self._full_timer = self.set_timer(full_after, start)
+        if after > 0:
+            self._full_timer = self.set_timer(after, start)
         else:
             start()
 
@@ -202,16 +297,20 @@ class RailroomApp(App):
         if self.session is None:
             self.try_open(asked=True)
             return
+        self.settle()
         problems = self.session.reload()
         if problems:
             self.notify("\n".join(str(p) for p in problems[:4]), title="not reloaded",
                         severity="error", markup=False)
+            if self.result is not None:
+                self.chain_screen.show(self.result)
             return
         self.chain_screen.close_form()        # its fields showed the text before the reload
         self.recheck()
         self.notify("reloaded from disk")
 
     def action_save(self, then: Callable[[], None] | None = None) -> None:
+        self.settle()
         if self.session.read_only:
             self.action_save_as(then)
             return
@@ -224,19 +323,38 @@ class RailroomApp(App):
                 self._write(None, then)
             elif answer == "reload":
                 self.action_reload()
+        broken = (" The version on disk does not load: " + str(self.session.disk_problems[0])
+                  if self.session.disk_problems else "")
         self.push_screen(ConfirmScreen(
-            f"{self.session.path.name} changed on disk since it was read.", [
-                ("o", "overwrite", "overwrite it with what is on screen"),
+            f"{self.session.path.name} changed on disk since it was read.{broken}", [
+                ("o", "overwrite", "overwrite it with what is on screen (the old file is kept "
+                                   "as .bak)"),
                 ("r", "reload", "reload it and drop the changes on screen")]), answered)
 
     def action_save_as(self, then: Callable[[], None] | None = None) -> None:
+        self.settle()
+        # a name typed without a folder goes beside the open file (the demo's copy: here)
+        folder = Path.cwd() if self.session.read_only else self.session.path.parent
         why = ("The built-in demo is read-only. Save a copy as:" if self.session.read_only
                else "Save the chain as:")
 
         def named(name: str | None) -> None:
-            if name:
-                self._write(Path(name).expanduser().resolve(), then)
-        self.push_screen(SaveAsScreen(self.session.path.name, why), named)
+            if not name:
+                return
+            target = Path(name).expanduser()
+            target = Path(os.path.abspath(target if target.is_absolute() else folder / target))
+            if not self.session.read_only and same_file(target, self.session.path):
+                self.action_save(then)
+            elif target.exists():
+                def answered(answer: str) -> None:
+                    if answer == "overwrite":
+                        self._write(target, then)
+                self.push_screen(ConfirmScreen(f"{target} exists.", [
+                    ("o", "overwrite", f"overwrite it (the old file is kept as {target.name}.bak)")]),
+                    answered)
+            else:
+                self._write(target, then)
+        self.push_screen(SaveAsScreen(self.session.path.name, f"{why}  (in {folder})"), named)
 
     def _write(self, path: Path | None, then: Callable[[], None] | None) -> None:
         try:
@@ -244,13 +362,22 @@ class RailroomApp(App):
         except (OSError, InputError) as err:
             self.notify(str(err), title="not saved", severity="error", markup=False)
             return
-        self.notify(f"saved {self.session.path}", markup=False)
+        drafts = self.session.draft_lines()
+        if drafts:
+            self.notify(f"saved {self.session.path}, without the values still in the forms that "
+                        "are not in the chain: " + "; ".join(drafts[:4]), severity="warning",
+                        markup=False, timeout=8)
+        else:
+            self.notify(f"saved {self.session.path}", markup=False)
         self.chain_screen.show(self.result)
         if then is not None:
             then()
 
     async def action_quit(self) -> None:
-        if self.session is None or not self.session.modified:
+        if self.session is not None:
+            self.settle()
+        drafts = self.session.draft_lines() if self.session is not None else []
+        if self.session is None or not (self.session.modified or drafts):
             self.exit(0)
             return
 
@@ -259,8 +386,13 @@ class RailroomApp(App):
                 self.action_save(then=lambda: self.exit(0))
             elif answer == "discard":
                 self.exit(0)
-        self.push_screen(ConfirmScreen("The chain has unsaved changes.", [
-            ("s", "save", "save, then quit"), ("d", "discard", "quit without saving")]), answered)
+        question = "The chain has unsaved changes." if self.session.modified else ""
+        if drafts:
+            question += (" Values typed into forms are not in the chain (they have a problem) "
+                         "and are lost on quitting: " + "; ".join(drafts[:4]))
+        answers = [("s", "save", "save, then quit")] if self.session.modified else []
+        self.push_screen(ConfirmScreen(question.strip(), answers + [
+            ("d", "discard", "quit without saving")]), answered)
 
     # other rooms
     def action_help(self) -> None:
@@ -289,6 +421,7 @@ class RailroomApp(App):
 
     def presets_changed(self) -> None:
         """A preset was edited: read the library again and check the chain against it."""
+        self.settle()
         problems = self.session.reload_library()
         if problems:
             self.notify("\n".join(str(p) for p in problems[:4]), title="presets",

@@ -216,14 +216,14 @@ def print_aids(console: Console, stage: StageResult) -> None:
     if not stage.fixes:
         return
     if stage.sensitivity:
-        shares = ", ".join(f"{s.quantity} {s.share:.0%}" for s in stage.sensitivity[:3])
+        shares = ", ".join(f"{s.words} {s.share:.0%}" for s in stage.sensitivity[:3])
         console.print(Text(shown(f"  sensitivity ({stage.limiting}): {shares}")))
     for fix in stage.fixes:
         console.print(Text(shown(f"  fix: {fix.text}")))
 
 
 def regime_text(stage: StageResult, colour: bool) -> Text:
-    word = stage.regime if stage.go else f"{stage.regime}!"
+    word = stage.regime_word
     style = {"linear": "green", "clipping": "bold red", "saturated": "cyan"}[stage.regime]
     if not stage.go and stage.regime != "clipping":
         style = "yellow"

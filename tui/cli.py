@@ -20,11 +20,16 @@ def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="railroom",
         usage="railroom [CHAIN] | railroom {check,presets,plot,blocks,bench,schema} ...",
-        description="Rail-headroom and regime checker for op-amp signal chains. "
-                    "`railroom [CHAIN]` opens the terminal interface on the chain file "
+        description="Rail-headroom and regime checker for op-amp signal chains.\n"
+                    "`railroom [CHAIN]` opens the terminal interface on the chain file\n"
                     "(the built-in demo without one).",
-        epilog="Examples: railroom my-chain.toml   railroom check my-chain.toml --json   "
-               "railroom presets list")
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+        epilog="examples:\n"
+               "  railroom my-chain.toml                 the interface on a chain\n"
+               "  railroom check my-chain.toml --json    the JSON report; exit 0 GO, 1 NO-GO, 2 unreadable\n"
+               "  railroom check NEW.toml --against OLD.toml\n"
+               "  railroom plot my-chain.toml -o levels.svg\n"
+               "  railroom presets list")
     sub = parser.add_subparsers(dest="command")
 
     check = sub.add_parser("check", help="check a chain file: exit 0 GO, 1 NO-GO, 2 unreadable")

@@ -10,7 +10,7 @@ from pathlib import Path
 from typing import Callable
 
 from railroom.engine.analysis import analyse, load_checked
-from railroom.engine.atomic import fingerprint, write_atomic
+from railroom.engine.atomic import Fingerprint, fingerprint, write_atomic
 from railroom.engine.editing import checked
 from railroom.engine.model import Chain, InputError, Problem
 from railroom.engine.plan import plan_chain
@@ -33,10 +33,12 @@ class Session:
     library: Library
     extra_preset_dirs: tuple[str, ...] = ()
     saved_text: str = ""
-    known_print: tuple[int, int] | None = None       # the file as we last read or wrote it
-    ignored_print: tuple[int, int] | None = None     # a newer file the user chose not to load
+    known_print: Fingerprint | None = None           # the file as we last read or wrote it
+    ignored_print: Fingerprint | None = None         # a newer file the user chose not to load
+    disk_problems: list[Problem] = field(default_factory=list)   # the file on disk does not load
     drafts: dict[str, dict[str, str]] = field(default_factory=dict)   # form -> field -> bad text
     history: list[str] = field(default_factory=list)
+    _last_step: object = None                         # the field the last kept keystroke was in
 
     @classmethod
     def open(cls, path: str | Path | None, extra_preset_dirs: tuple[str, ...] = ()) -> "Session":
@@ -64,24 +66,46 @@ class Session:
 
     def edit(self, change: Callable[[str], str]) -> list[Problem]:
         """Apply an edit of the text; keep it only when it loads. Returns the problems, if any."""
+        prepared = self.prepare(self.text, change)
+        if isinstance(prepared, list):
+            return prepared
+        self.commit(*prepared)
+        return []
+
+    def prepare(self, text: str, change: Callable[[str], str]
+                ) -> tuple[str, Chain, Library] | list[Problem]:
+        """The edited text with its loaded chain and library, or the problems; changes nothing,
+        so a worker thread may run it while the user goes on typing."""
         try:
-            text = change(self.text)
-            chain = checked(text, str(self.path))
+            edited = change(text)
+            chain = checked(edited, str(self.path))
             library = self._library_for(chain)
             plan_chain(chain, library.parts)
         except InputError as err:
             return list(err.problems)
-        except (ValueError, IndexError, KeyError) as err:
+        except (ValueError, IndexError, KeyError, RecursionError) as err:
             return [Problem(str(self.path), None, "(edit)", str(err))]
-        if text != self.text:
+        return edited, chain, library
+
+    def commit(self, text: str, chain: Chain, library: Library, step: object = None) -> None:
+        """Keep a prepared edit. Successive edits with the same `step` (keystrokes in one field)
+        are one step for undo."""
+        if text != self.text and (step is None or step != self._last_step):
             self.history.append(self.text)
+        self._last_step = step
         self.text, self.chain, self.library = text, chain, library
-        return []
+
+    def draft_lines(self) -> list[str]:
+        """The values typed into forms that are not in the chain (they have a problem, or the
+        field was emptied), as "stage.2 rf: '4q7'"; saving writes the chain without them."""
+        return [f"{form} {key}: {text!r}" for form, fields in self.drafts.items()
+                for key, text in fields.items()]
 
     def undo(self) -> bool:
         if not self.history:
             return False
         text = self.history.pop()
+        self._last_step = None
         self.chain = checked(text, str(self.path))
         self.library = self._library_for(self.chain)
         self.text = text
@@ -120,8 +144,9 @@ class Session:
         if target != self.path:
             self.chain = checked(self.text, str(target))
             self.library = self._library_for(self.chain)
-        write_atomic(target, self.text)
+        write_atomic(target, self.text, backup=True)
         self.path, self.read_only, self.saved_text = target, False, self.text
+        self.disk_problems = []
         self.known_print = fingerprint(target)
 
     def reload(self) -> list[Problem]:
@@ -130,8 +155,13 @@ class Session:
             chain, library = load_checked(str(self.path), self.extra_preset_dirs)
             text = self.path.read_text(encoding="utf-8")
         except InputError as err:
-            self.known_print = fingerprint(self.path)
+            # not read: the watcher stops asking about this version, but saving still asks before
+            # overwriting it (it holds someone's edit, perhaps half done)
+            self.ignored_print = fingerprint(self.path)
+            self.disk_problems = list(err.problems)
             return list(err.problems)
+        self.disk_problems = []
+        self._last_step = None
         self.history.append(self.text)
         self.text = self.saved_text = text
         self.chain, self.library = chain, library

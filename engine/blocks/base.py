@@ -9,7 +9,8 @@ offset and bias currents. The methods never look inside a block; they only combi
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import ClassVar, Mapping
+from functools import cached_property
+from typing import Callable, ClassVar, Mapping
 
 import numpy as np
 
@@ -51,6 +52,7 @@ class InputLoad:
 
     conductance: float = 0.0          # largest over the tolerance, S
     returns: tuple[float, float] = (0.0, 0.0)
+    least: float = 0.0                # smallest over the tolerance and band (0: not known), S
 
 
 @dataclass(frozen=True)
@@ -61,6 +63,18 @@ class BlockResponse:
     output_resistance: float = 0.0                              # drives the next stage's input
     output_resistance_span: tuple[float, float] | None = None   # its (min, max) over the corners
     input_load: InputLoad = InputLoad()
+    # a passive block's Thevenin impedance per corner and frequency, complex (J, F+1), DC first:
+    # the next stage is driven through it (None: the real output_resistance at every frequency)
+    output_impedance: np.ndarray | None = None
+    # the voltage at the block's input terminal when a Thevenin source drives it (the node
+    # between the driving impedance and the block's first element; None: not known), or a
+    # function that builds it, called only when a passive stage before asks (`terminal`)
+    input_node: "Node | Callable[[], Node] | None" = None
+
+    @cached_property
+    def terminal(self) -> Node | None:
+        """The input terminal's node, built once on first use (input_node)."""
+        return self.input_node() if callable(self.input_node) else self.input_node
 
 
 class Block:
@@ -81,6 +95,10 @@ class Block:
 
     def critical_frequencies(self, v: Mapping[str, np.ndarray]) -> np.ndarray:
         """Frequencies where the response may peak (added to the band grid)."""
+        return np.empty(0)
+
+    def real_critical_frequencies(self, v: Mapping[str, np.ndarray], part) -> np.ndarray:
+        """Where the response peaks with the part's own gain (filters: found on the transfer)."""
         return np.empty(0)
 
 
@@ -115,6 +133,44 @@ def scaled(node: Node, factor: np.ndarray | float, extra: Transfers | None = Non
     offset = None if node.offset_gain is None else node.offset_gain * dc
     bias = None if node.bias_gain is None else node.bias_gain * dc
     return Node(transfers=transfers, offset_gain=offset, bias_gain=bias)
+
+
+def dc_resistance(drive) -> np.ndarray | float:
+    """The DC part of a driving impedance: a (J, F+1) complex impedance (DC first) as its real
+    (J, 1) DC column; a resistance (scalar or (J, 1)) as it is. Bias currents meet this one."""
+    drive = np.asarray(drive)
+    if drive.ndim == 2:
+        drive = drive[:, :1]
+    return drive.real if np.iscomplexobj(drive) else drive
+
+
+def thevenin(impedance: np.ndarray) -> dict:
+    """BlockResponse fields of a passive block from its Thevenin impedance (J, F+1): the
+    impedance itself and its DC resistance (largest, and range over the corners)."""
+    resistance = np.asarray(impedance)[..., 0].real
+    return {"output_impedance": impedance, "output_resistance": float(np.max(resistance)),
+            "output_resistance_span": (float(np.min(resistance)), float(np.max(resistance)))}
+
+
+def junction(series, drive, far: Node | None, share=None) -> Node:
+    """The input terminal of a block driven from the source "in" through the impedance `drive`
+    into its first element `series` (an impedance, per row and s) whose far end is the node
+    `far`: J = (series Vin + Z V_far) / (series + Z), a voltage divider (Horowitz & Hill ch. 1).
+    `far` None: the far end draws nothing (J = Vin). `share`: series / (series + Z) when the
+    caller has it in a form finite at DC (a series capacitor)."""
+    if far is None or (np.ndim(drive) == 0 and drive == 0):     # nothing drops across Z
+        return Node(transfers={"in": np.ones((1, 1))})
+    share = series / (series + drive) if share is None else share
+    return combined([(1.0 - share, far)], extra={"in": share})
+
+
+def minus_pin(plus: Node, output: Node, inverse_gain, index: int = 0, count: int = 1) -> Node:
+    """An op amp's - pin from its + pin: V- = V+ + Vos - Vout / A (opamp.py's loop form)."""
+    rows = output.offset_gain.shape[0]
+    offset = np.zeros((rows, count))
+    offset[:, index] = 1.0
+    own = Node(transfers={}, offset_gain=offset, bias_gain=np.zeros_like(offset))
+    return combined([(1.0, plus), (-inverse_gain, output), (1.0, own)])
 
 
 def load_conductance(v: Mapping[str, np.ndarray]) -> np.ndarray:

@@ -45,7 +45,9 @@ class Comparator(Block):
     }
 
     def switch(self, v: Mapping[str, np.ndarray], flags: Mapping[str, object], part: Part,
-               rails: Rails, signal: Span) -> Switching:
+               rails: Rails, signal: Span, offset: float = 0.0, bias: float = 0.0) -> Switching:
+        # offset and bias are not applied to a comparator's threshold (the draw walk reads the
+        # threshold field directly); the Schmitt trigger applies them (schmitt.py)
         threshold = span_of(v["threshold"])
         load = v.get("load")
         conductance = 0.0 if load is None else float(np.max(1.0 / load))

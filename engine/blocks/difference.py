@@ -16,7 +16,7 @@ from typing import Mapping
 
 import numpy as np
 
-from railroom.engine.blocks.base import Block, BlockResponse, FieldSpec, InputLoad
+from railroom.engine.blocks.base import Block, BlockResponse, FieldSpec, InputLoad, junction
 from railroom.engine.blocks.gain import single_opamp
 from railroom.engine.opamp import Loop
 
@@ -57,12 +57,15 @@ class Difference(Block):
         loop = difference_loop(r1, v["r2"], r3, v["r4"], positive, negative)
         amp, _ = single_opamp(loop, inverse_gain, 1.0 / v["r2"], v)
         return BlockResponse(output=amp.output, opamps=(amp,),
-                             input_load=InputLoad() if differential else divider_load(v))
+                             input_load=InputLoad() if differential else divider_load(v),
+                             input_node=None if differential else
+                             (lambda: junction(v["r3"], drive, amp.plus)))
 
 
 def divider_load(v: Mapping[str, np.ndarray]) -> InputLoad:
     """Single-ended, `in` sees r3 + r4 returning to ref (the + input draws no current)."""
     ref = np.atleast_1d(v.get("ref", np.zeros(1)))
     return InputLoad(conductance=float(np.max(1.0 / (v["r3"] + v["r4"]))),
-                     returns=(float(np.min(ref)), float(np.max(ref))))
+                     returns=(float(np.min(ref)), float(np.max(ref))),
+                     least=float(np.min(1.0 / (v["r3"] + v["r4"]))))
 

@@ -14,7 +14,8 @@ from typing import Mapping
 import numpy as np
 
 from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputLoad, Node, OpAmpNodes,
-                                         load_conductance, opamp_node, plus_node, scaled)
+                                         junction, load_conductance, minus_pin, opamp_node,
+                                         plus_node, scaled)
 from railroom.engine.opamp import Loop, solve_loop
 
 
@@ -45,7 +46,7 @@ class Follower(Block):
         one = np.ones((1, 1))
         loop = Loop(beta=one, a_plus={"in": one}, z_plus=drive)
         amp, _ = single_opamp(loop, inverse_gain, np.zeros((1, 1)), v)
-        return BlockResponse(output=amp.output, opamps=(amp,))
+        return BlockResponse(output=amp.output, opamps=(amp,), input_node=amp.plus)
 
 
 class Noninverting(Block):
@@ -64,7 +65,7 @@ class Noninverting(Block):
         loop = Loop(beta=rg / total, a_plus={"in": np.ones_like(rf)},
                     a_minus={"ref": rf / total}, z_plus=drive, z_minus=rf * rg / total)
         amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
-        return BlockResponse(output=amp.output, opamps=(amp,))
+        return BlockResponse(output=amp.output, opamps=(amp,), input_node=amp.plus)
 
 
 class Inverting(Block):
@@ -85,7 +86,8 @@ class Inverting(Block):
                     z_minus=rin * rf / total)
         amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
         return BlockResponse(output=amp.output, opamps=(amp,),
-                             input_load=virtual_earth_load(v["rin"], v))
+                             input_load=virtual_earth_load(v["rin"], v),
+                             input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain))
 
 
 class Summing(Block):
@@ -111,11 +113,19 @@ class Summing(Block):
                     z_minus=1.0 / total)
         amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
         return BlockResponse(output=amp.output, opamps=(amp,),
-                             input_load=virtual_earth_load(v["rin"], v))
+                             input_load=virtual_earth_load(v["rin"], v),
+                             input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain))
+
+
+def virtual_earth_input(rin, drive, amp: OpAmpNodes, inverse_gain) -> Node:
+    """The input terminal of a stage whose input resistor rin returns to the - pin."""
+    if np.ndim(drive) == 0 and drive == 0:
+        return junction(rin, drive, None)
+    return junction(rin, drive, minus_pin(amp.plus, amp.output, inverse_gain))
 
 
 def virtual_earth_load(rin: np.ndarray, v: Mapping[str, np.ndarray]) -> InputLoad:
     """An inverting input resistor loads the stage before it to the + input's voltage (ref)."""
     ref = np.atleast_1d(v.get("ref", np.zeros(1)))
     return InputLoad(conductance=float(np.max(1.0 / rin)),
-                     returns=(float(np.min(ref)), float(np.max(ref))))
+                     returns=(float(np.min(ref)), float(np.max(ref))), least=float(np.min(1.0 / rin)))

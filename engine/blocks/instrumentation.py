@@ -21,7 +21,7 @@ from __future__ import annotations
 import numpy as np
 
 from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, Node, OpAmpNodes,
-                                         combined)
+                                         combined, dc_resistance)
 from railroom.engine.blocks.difference import difference_loop, input_names
 from railroom.engine.blocks.gain import single_opamp
 
@@ -116,6 +116,7 @@ class Instrumentation(Block):
 
     def respond(self, v, s, inverse_gain, drive, differential):
         rf, rg, rdiff = v["rf"], v["rg"], v["rdiff"]
+        drive = dc_resistance(drive)      # only the bias currents meet it: the + pins draw nothing
         positive, negative = input_names(differential)
         upper, lower = first_stage(rf, rg, inverse_gain, positive, negative,
                                    (drive, drive if differential else 0.0))
@@ -137,4 +138,5 @@ class Instrumentation(Block):
                        input_pin(negative, ones, drive if differential else 0.0, 1), lower_current),
             OpAmpNodes(LABELS[2], output, diff_plus, substitute(amp.current, inputs, 2)),
         )
-        return BlockResponse(output=output, opamps=opamps)
+        return BlockResponse(output=output, opamps=opamps,
+                             input_node=None if differential else opamps[0].plus)

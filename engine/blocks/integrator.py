@@ -14,7 +14,7 @@ from __future__ import annotations
 import numpy as np
 
 from railroom.engine.blocks.base import Block, BlockResponse, FieldSpec
-from railroom.engine.blocks.gain import single_opamp, virtual_earth_load
+from railroom.engine.blocks.gain import single_opamp, virtual_earth_input, virtual_earth_load
 from railroom.engine.opamp import TWO_PI, Loop
 
 
@@ -37,7 +37,8 @@ class Integrator(Block):
                     a_plus={"ref": np.ones((1, 1))}, z_minus=1.0 / (g_in + 1.0 / v["rf"]))
         amp, _ = single_opamp(loop, inverse_gain, y_feedback, v)
         return BlockResponse(output=amp.output, opamps=(amp,),
-                             input_load=virtual_earth_load(v["rin"], v))
+                             input_load=virtual_earth_load(v["rin"], v),
+                             input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain))
 
     def critical_frequencies(self, v):
         return np.ravel(1.0 / (TWO_PI * v["rf"] * v["c"]))

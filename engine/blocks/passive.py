@@ -2,16 +2,23 @@
 
     divider     Vout = Vin * bottom / (top + bottom),    output resistance top || bottom
     rc_lowpass  Vout = Vin / (1 + s r c),                 corner 1 / (2 pi r c)
-(Horowitz & Hill, The Art of Electronics, ch. 1.) The driving resistance adds to top and r; a
+(Horowitz & Hill, The Art of Electronics, ch. 1.) The driving impedance Zd adds to top and r; a
 stage `load` from the output to 0 V sits in parallel with bottom (divider) or with c (low-pass:
 Vout = Vin / (1 + r/load + s r c)).
+
+Each drives the next stage as a Thevenin source (Thevenin's theorem; Horowitz & Hill ch. 1.2):
+the output node is the open-circuit voltage, and the source impedance, per frequency,
+    divider     Z = (top + Zd) || bottom || load
+    rc_lowpass  Z = 1 / (1/(r + Zd) + 1/load + s c)
+sits in series with the next stage's input (a complex impedance, not its DC resistance: an RC
+low-pass into an inverting stage with rin = r reads 1/sqrt(5) at the corner, not 1/sqrt(8)).
 """
 from __future__ import annotations
 
 import numpy as np
 
 from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputLoad, Node,
-                                         load_conductance)
+                                         junction, load_conductance, thevenin)
 
 
 class Divider(Block):
@@ -27,13 +34,15 @@ class Divider(Block):
     def respond(self, v, s, inverse_gain, drive, differential):
         top = v["top"] + drive
         bottom = 1.0 / (1.0 / v["bottom"] + load_conductance(v))
-        ratio = bottom / (top + bottom) * np.ones_like(s)
-        resistance = top * bottom / (top + bottom)
+        ones = np.ones_like(s) * np.ones_like(bottom)
+        ratio = bottom / (top + bottom) * ones
+        impedance = top * bottom / (top + bottom) * ones
+        output = Node(transfers={"in": ratio})
         return BlockResponse(
-            output=Node(transfers={"in": ratio}),
-            output_resistance=float(np.max(resistance)),
-            output_resistance_span=(float(np.min(resistance)), float(np.max(resistance))),
-            input_load=InputLoad(conductance=float(np.max(1.0 / (v["top"] + bottom)))),
+            output=output, input_node=lambda: junction(v["top"], drive, output),
+            **thevenin(impedance),
+            input_load=InputLoad(conductance=float(np.max(1.0 / (v["top"] + bottom))),
+                                 least=float(np.min(1.0 / (v["top"] + bottom)))),
         )
 
 
@@ -50,11 +59,10 @@ class RcLowpass(Block):
     def respond(self, v, s, inverse_gain, drive, differential):
         r, c, g_load = v["r"] + drive, v["c"], load_conductance(v)
         # Its input draws at most Vin / r (at frequencies far above the corner): conservative.
-        resistance = r / (1.0 + r * g_load)
+        output = Node(transfers={"in": 1.0 / (1.0 + r * g_load + s * r * c)})
         return BlockResponse(
-            output=Node(transfers={"in": 1.0 / (1.0 + r * g_load + s * r * c)}),
-            output_resistance=float(np.max(resistance)),
-            output_resistance_span=(float(np.min(resistance)), float(np.max(resistance))),
+            output=output, input_node=lambda: junction(v["r"], drive, output),
+            **thevenin(r / (1.0 + r * g_load + s * r * c)),
             input_load=InputLoad(conductance=float(np.max(1.0 / v["r"]))),
         )
 
@@ -80,7 +88,7 @@ class ConverterInput(Block):
     }
 
     def respond(self, v, s, inverse_gain, drive, differential):
-        drive = np.asarray(drive, dtype=float)
-        return BlockResponse(output=Node(transfers={"in": np.ones_like(s) * np.ones((1, 1))}),
-                             output_resistance=float(np.max(drive)),
-                             output_resistance_span=(float(np.min(drive)), float(np.max(drive))))
+        # the signal passes on unchanged, and so does what drives it
+        ones = np.ones_like(s) * np.ones((1, 1))
+        output = Node(transfers={"in": ones})
+        return BlockResponse(output=output, input_node=output, **thevenin(drive * ones))

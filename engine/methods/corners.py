@@ -33,6 +33,9 @@ class Prepared:
     freqs: np.ndarray
     values: list[dict[str, np.ndarray]]
     responses: list[BlockResponse | None]
+    # per stage: its rows pair with every row of the passive stage before it (joint corners of
+    # the two: the walk hands that stage's bounds on row by row instead of merged)
+    joint: tuple[bool, ...] = ()
     # what walks of this Prepared may keep for the next walk (stage_walk: node terms)
     memo: dict = field(default_factory=dict, compare=False, repr=False)
 
@@ -51,28 +54,84 @@ class TooManyCorners(InputError):
 
 
 def corner_values(plan: StagePlan, temperature_rise: float, nominal: bool = False,
-                  drive: tuple[float, float] | None = None) -> dict[str, np.ndarray]:
+                  drive: np.ndarray | tuple[float, float] | None = None) -> dict[str, np.ndarray]:
     """Every corner of the stage's own toleranced values as column arrays (J, 1).
 
-    `drive` is the range of the resistance driving the stage (a toleranced divider before it):
-    its ends are enumerated as one more corner, key "drive", independent of the divider's own
-    values, which bounds the true extremes from outside."""
+    `drive` holds the impedances that may drive the stage (drive_candidates: the Thevenin
+    impedance of a passive stage before it at each of its corners, rows (n, F+1) over s, or a
+    resistance range (lo, hi)); each is enumerated against every corner of the stage's own
+    values, key "drive" (J, F+1), independent of the stage before, which bounds the true
+    extremes from outside."""
     ends = {name: ((q.value, q.value) if nominal else spread(q, temperature_rise))
             for name, q in plan.quantities.items()}
-    if drive is not None:
-        ends["drive"] = drive
     varying = [name for name, (lo, hi) in ends.items() if lo != hi]
-    if len(varying) > MAX_CORNER_BITS:
+    candidates = None
+    if drive is not None:
+        candidates = np.unique(np.atleast_1d(np.asarray(drive, dtype=float)))[:, None] \
+            if isinstance(drive, tuple) else np.asarray(drive)
+    choices = 1 if candidates is None else candidates.shape[0]
+    bits = len(varying) + int(np.ceil(np.log2(choices)))
+    if bits > MAX_CORNER_BITS:
         # never hold a toleranced value fixed: a value left at one end can hide the worst case
-        raise TooManyCorners(plan, len(varying))
+        raise TooManyCorners(plan, bits)
     count = 2 ** len(varying)
     values = {name: np.full((count, 1), ends[name][0]) for name in ends}
     if varying:
-        bits = np.array(list(itertools.product((0, 1), repeat=len(varying))), dtype=bool)
+        table = np.array(list(itertools.product((0, 1), repeat=len(varying))), dtype=bool)
         for column, name in enumerate(varying):
             lo, hi = ends[name]
-            values[name] = np.where(bits[:, column], hi, lo)[:, None]
+            values[name] = np.where(table[:, column], hi, lo)[:, None]
+    if candidates is not None:
+        # the driving impedance varies fastest: own corner i meets every candidate in turn
+        values = {name: np.repeat(x, choices, axis=0) for name, x in values.items()}
+        values["drive"] = np.tile(candidates, (count, 1))
     return values
+
+
+def drive_candidates(impedance: np.ndarray) -> np.ndarray:
+    """The distinct driving impedances over the corners of the stage before, rows (n, W).
+
+    A real impedance flat over frequency (a divider behind resistances) keeps its two ends as
+    (n, 1) rows, as a series resistance moves every response one way; a frequency-dependent one
+    (a Thevenin impedance with a capacitor in it) keeps every distinct corner's curve."""
+    z = np.atleast_2d(np.asarray(impedance))
+    scale = float(np.max(np.abs(z))) or 1.0
+    flat = np.allclose(z, z[:, :1], rtol=1e-12, atol=1e-12 * scale)
+    if flat and not np.any(np.abs(z.imag) > 1e-12 * scale):
+        resistance = z[:, 0].real
+        return np.unique([resistance.min(), resistance.max()])[:, None]
+    key = np.round(np.hstack((z.real, z.imag)) / scale, 12)
+    _, first = np.unique(key, axis=0, return_index=True)
+    return z[np.sort(first)]
+
+
+def next_drive(plan: StagePlan, response: BlockResponse | None) -> np.ndarray:
+    """What drives the stage after this one, taken apart from this stage's corners: its
+    distinct impedances (drive_candidates)."""
+    if response is None:          # saturated by design: the op amp's own output resistance
+        return np.array([[plan.part.output_resistance if plan.part else 0.0]])
+    if response.output_impedance is not None:
+        return drive_candidates(response.output_impedance)
+    low, high = response.output_resistance_span or (response.output_resistance,) * 2
+    return np.unique([low, high])[:, None]
+
+
+def stage_values(plan: StagePlan, rise: float, nominal: bool, before: BlockResponse | None,
+                 before_rows: int, drive) -> tuple[dict[str, np.ndarray], bool]:
+    """The stage's corner values and whether they pair with every row of the passive stage
+    before it. After a passive stage (its Thevenin impedance known per row) the stage's own
+    corners are enumerated jointly with that stage's: row i*n + j is own corner i with the
+    passive stage's row j, its voltage and its impedance together, which is exact. When the
+    joint count passes the limit the impedance is enumerated apart (`drive()`: its distinct
+    values, found only then), a bound from outside. A saturated stage never pairs."""
+    if before is not None and before.output_impedance is not None and not plan.block.saturates:
+        impedance = np.atleast_2d(before.output_impedance)
+        impedance = np.broadcast_to(impedance, (before_rows, impedance.shape[-1]))
+        try:
+            return corner_values(plan, rise, nominal, impedance), True
+        except TooManyCorners:
+            pass
+    return corner_values(plan, rise, nominal, drive()), False
 
 
 def prepare(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, nominal: bool = False,
@@ -82,30 +141,31 @@ def prepare(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, nominal: bo
     recomputed (what a stage drives depends only on the stages before it)."""
     rise = chain.conditions.worst_temperature_rise
     s = laplace_grid(freqs)
-    values, responses = [], []
-    drive = (chain.source.impedance, chain.source.impedance)
+    values, responses, joint = [], [], []
+    source = np.array([[chain.source.impedance]])
+    drive = lambda: source                                   # noqa: E731
+    before = None
     differential = chain.source.differential
     if reuse is not None and first > 0:
         values, responses = list(reuse.values[:first]), list(reuse.responses[:first])
-        before, response = plans[first - 1], reuse.responses[first - 1]
-        if response is not None:
-            drive = response.output_resistance_span or (response.output_resistance,) * 2
-        else:
-            drive = (before.part.output_resistance if before.part else 0.0,) * 2
+        joint = list(reuse.joint[:first])
+        prior, before = plans[first - 1], reuse.responses[first - 1]
+        drive = (lambda plan=prior, response=before: next_drive(plan, response))
         differential = False
     for plan in plans[len(values):]:
-        v = corner_values(plan, rise, nominal, drive)
+        rows = values[-1]["drive"].shape[0] if values else 1
+        v, paired = stage_values(plan, rise, nominal, before, rows, drive)
         inverse_gain = inverse_open_loop(None if ideal else plan.part, s)
         response = None
         if not plan.block.saturates:
             response = plan.block.respond(v, s, inverse_gain, v["drive"], differential)
-            drive = response.output_resistance_span or (response.output_resistance,) * 2
-        else:
-            drive = (plan.part.output_resistance if plan.part else 0.0,) * 2
+        drive = (lambda plan=plan, response=response: next_drive(plan, response))
+        before = response
         differential = False
         values.append(v)
         responses.append(response)
-    return Prepared(chain, plans, freqs, values, responses)
+        joint.append(paired)
+    return Prepared(chain, plans, freqs, values, responses, tuple(joint))
 
 
 def start_signal(chain: Chain, freqs: np.ndarray, scale: float = 1.0) -> Signal | DifferentialSignal:

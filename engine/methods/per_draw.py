@@ -66,9 +66,18 @@ class Nodal:
     def solve(self) -> np.ndarray:
         return np.linalg.solve(self.G, self.b)
 
+    def impedance(self, node: str) -> np.ndarray:
+        """Thevenin impedance at `node` per Laplace point: its voltage for 1 A injected there
+        with every source at zero (Thevenin's theorem)."""
+        b = np.zeros((len(self.s), self.n, 1), dtype=complex)
+        b[:, self.index[node], 0] = 1.0
+        return np.linalg.solve(self.G, b)[:, self.index[node], 0]
 
-def stage_circuit(plan, v: dict, s, drive: float, offset: float, bias: float):
-    """Nodal circuit of one stage (SPEC section 2, block topologies); returns (solution, nodes)."""
+
+def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float):
+    """Nodal circuit of one stage (SPEC section 2, block topologies); returns (solution, nodes,
+    the op amp's branch, the circuit). `drive`: the impedance driving the stage, a resistance or
+    one value per Laplace point (the Thevenin impedance of a passive stage before it)."""
     block = plan.block.name
     val = {k: float(x) for k, x in v.items()}
     extra = sorted({k.rsplit(".", 1)[0] for k in val if k.startswith("inputs.")})
@@ -82,10 +91,10 @@ def stage_circuit(plan, v: dict, s, drive: float, offset: float, bias: float):
     driven = lambda node, r: c.admittance("src", node, 1.0 / r)      # noqa: E731
     pins = ("plus", "minus", "out")
     if block == "follower":
-        driven("plus", max(drive, 1e-3))
+        driven("plus", np.where(np.abs(drive) < 1e-3, 1e-3, drive))
         pins = ("plus", "out", "out")
     elif block == "noninverting":
-        driven("plus", max(drive, 1e-3))
+        driven("plus", np.where(np.abs(drive) < 1e-3, 1e-3, drive))
         c.admittance("out", "minus", 1.0 / val["rf"])
         c.admittance("minus", "ref", 1.0 / val["rg"])
     elif block in ("inverting", "summing"):
@@ -113,7 +122,7 @@ def stage_circuit(plan, v: dict, s, drive: float, offset: float, bias: float):
     for name in ("plus", "minus", "out", "ref", "src"):
         if not np.any(c.G[0, c.index[name]]):
             c.admittance(name, GROUND, 1.0)       # an unused node, held at 0 V
-    return c.solve(), {**c.index, "+": c.index[pins[0]]}, branch
+    return c.solve(), {**c.index, "+": c.index[pins[0]]}, branch, c
 
 
 def envelope(x: np.ndarray, signal: tuple) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -135,18 +144,24 @@ def draw_margins(layout: dw.Layout, D: np.ndarray, dT: float) -> list[dict[str, 
     a = chain.source.amplitude * np.ones(len(layout.freqs))
     signal = (chain.source.level[1] + a, chain.source.level[0] - a, a)
     found = []
+    drive = chain.source.impedance
     for k, plan in enumerate(layout.plans):
         v = {name: x[0, 0] for name, x in dw.stage_values(layout, plan, D, np.array([dT])).items()}
         pos, neg = (float(x[0]) for x in dw.row_rails(layout, plan, D))
         if plan.block.saturates:
             margins, signal = comparator(plan, v, signal, pos, neg, len(layout.freqs))
             found.append(margins)
+            drive = plan.part.output_resistance
             continue
         offset = bias = 0.0
         if plan.part is not None:
             offsets, biases = dw.row_errors(layout, plan, D, np.array([dT]))
             offset, bias = float(offsets[0, 0]), float(biases[0, 0])
-        x, index, branch = stage_circuit(plan, v, s, layout.drives[k], offset, bias)
+        x, index, branch, circuit = stage_circuit(plan, v, s, drive, offset, bias)
+        if plan.block.name in ("divider", "rc_lowpass"):
+            drive = circuit.impedance("out")          # the next stage sees it per frequency
+        elif not plan.block.window_only:
+            drive = 0.0                               # an op amp's output (the engine's model)
         out = envelope(x[:, index["out"]], signal)
         margins = {}
         if plan.part is not None:

@@ -173,22 +173,29 @@ def netlist(specs, resistors: dict, impedance: float, units: dict) -> Circuit:
 def brute_force(specs, level, amplitude, grid, impedance, op: Part, freqs_ac) -> np.ndarray:
     """(stages, 2): lowest and highest output of every stage over every joint corner.
 
-    Stage k's output is read with the chain cut after stage k: the engine reports a passive
-    stage's open-circuit (Thevenin) voltage and puts the next stage's input in series with its
-    output resistance, so a divider's own span is the one before the next stage loads it.
+    Stage k's output is read with the chain cut after stage k, or, for a passive stage, after the
+    stage that follows it: the engine shows a passive stage's output with the next stage's input
+    on it (the README: that stage taken as it is, unloaded by what comes after it).
     """
-    return np.array([stage_brute_force(specs[:k + 1], level, amplitude, impedance, op, freqs_ac)
+    return np.array([stage_brute_force(specs[:cut(specs, k)], level, amplitude, impedance, op,
+                                       freqs_ac, read=f"x{k + 1}")
                      for k in range(len(specs))])
 
 
-def stage_brute_force(specs, level, amplitude, impedance, op: Part, freqs_ac) -> np.ndarray:
+def cut(specs, k: int) -> int:
+    """How many stages to keep when reading stage k (brute_force)."""
+    return k + 2 if specs[k].block == "divider" and k + 1 < len(specs) else k + 1
+
+
+def stage_brute_force(specs, level, amplitude, impedance, op: Part, freqs_ac,
+                      read: str | None = None) -> np.ndarray:
     names = resistor_names(specs)
     ends = [specs[k].values[n].ends for k, n in names]
     combos = np.array(list(itertools.product(*ends)))               # (R, n_resistors)
     resistors = {key: combos[:, i] for i, key in enumerate(names)}
     sources = voltage_sources(specs, level, op.offset, op.bias_current)
     model = {"a0": op.open_loop_gain, "gbw": op.gbw}
-    out = f"x{len(specs)}"
+    out = read or f"x{len(specs)}"
     dc = np.empty((len(combos), len(sources)))
     for i, (label, *_) in enumerate(sources):
         dc[:, i] = netlist(specs, resistors, impedance, model | {label: 1.0}).solve(0.0)[out][..., 0].real
@@ -203,7 +210,7 @@ def stage_brute_force(specs, level, amplitude, impedance, op: Part, freqs_ac) ->
 
 def random_samples(specs, level, amplitude, band, impedance, op: Part, rng, count=200):
     """(stages, count, 4) outputs at random points inside the box, random in-band frequencies and
-    phases; each stage read with the chain cut after it, as in brute_force."""
+    phases; each stage read with the chain cut as in brute_force."""
     names = resistor_names(specs)
     resistors = {key: rng.uniform(*specs[key[0]].values[key[1]].ends, count) for key in names}
     sources = voltage_sources(specs, level, op.offset, op.bias_current)
@@ -213,7 +220,7 @@ def random_samples(specs, level, amplitude, band, impedance, op: Part, rng, coun
     model = {"a0": op.open_loop_gain, "gbw": op.gbw}
     found = []
     for k in range(len(specs)):
-        head, out = specs[:k + 1], f"x{k + 1}"
+        head, out = specs[:cut(specs, k)], f"x{k + 1}"
         total = np.zeros(count)
         for label, _, _ in voltage_sources(head, level, op.offset, op.bias_current):
             sol = netlist(head, resistors, impedance, model | {label: 1.0}).solve(0.0)
@@ -225,18 +232,6 @@ def random_samples(specs, level, amplitude, band, impedance, op: Part, rng, coun
 
 
 # ---- the properties -------------------------------------------------------------------------
-
-def coupled_by_loading(specs, bias: float) -> bool:
-    """A toleranced divider whose output resistance the next stage sees (in series with its input
-    resistor, or carrying its bias current): the joint corner couples the divider's ratio with
-    that resistance, which the stage-by-stage corners cannot follow exactly."""
-    for k, spec in enumerate(specs[:-1]):
-        varies = spec.block == "divider" and any(v.tolerance for v in spec.values.values())
-        follows = specs[k + 1].block
-        if varies and (follows in ("inverting", "summing", "divider") or bias):
-            return True
-    return False
-
 
 def engine_spans(text: str, op: Part):
     chain = chain_from_text(text)
@@ -258,7 +253,8 @@ def test_corner_spans_equal_every_joint_corner(case, exact_part, seed):
     specs, level, amplitude, band, impedance, offset, bias = case
     r_bits, m_bits = bits(specs, bias, offset)
     assume(r_bits <= 8 and m_bits <= 12)
-    assume(not coupled_by_loading(specs, bias))
+    # a toleranced divider into the next stage is exact too: the next stage's corners are
+    # enumerated jointly with the divider's (each with its own ratio and output resistance)
     assume(exact_part or amplitude == 0)          # where propagation.py says it is exact
     op = part(exact_part, offset, bias)
     text = chain_text(specs, level, amplitude, band, impedance)
@@ -279,9 +275,6 @@ def test_corner_spans_contain_every_joint_corner_and_sample(case, seed):
     specs, level, amplitude, band, impedance, offset, bias = case
     r_bits, m_bits = bits(specs, bias, offset)
     assume(r_bits <= 8 and m_bits <= 12)
-    # a toleranced divider into a low-resistance input is the known gap (xfail test below);
-    # the bias current through a divider's output resistance stays bounded (largest resistance)
-    assume(not coupled_by_loading(specs, bias=0.0))
     op = part(False, offset, bias)
     text = chain_text(specs, level, amplitude, band, impedance)
     spans, freqs = engine_spans(text, op)
@@ -295,15 +288,16 @@ def test_corner_spans_contain_every_joint_corner_and_sample(case, seed):
     assert np.all(samples <= spans[:, 1:, None] + slack[:, 1:, None])
 
 
-def test_toleranced_divider_into_inverting_stage_is_bounded():
-    # divider 1k 5% / 1k into an inverting -1 stage, 1 V DC. The next stage enumerates the
-    # divider's output resistance at both ends as a corner of its own (methods/corners.prepare),
-    # so the joint corners (nodal solver) stay inside the engine's span; before that fix the
-    # engine handed on one resistance and the span came out too narrow.
+def test_toleranced_divider_into_inverting_stage_is_exact():
+    # divider 1k 5% / 1k into an inverting -1 stage, 1 V DC. The inverting stage's corners are
+    # enumerated jointly with the divider's (methods/corners.stage_values), so the engine's span
+    # equals the joint corners of the nodal solver; before, the divider's output resistance was
+    # enumerated apart from its ratio (a bound from outside), and before that held at one value
+    # (too narrow).
     specs = [StageSpec("divider", {"top": Value(1e3, 0.05), "bottom": Value(1e3, 0.0)}),
              StageSpec("inverting", {"rin": Value(1e3, 0.0), "rf": Value(1e3, 0.0),
                                      "ref": Value(0.0, 0.0)})]
     op = part(True, 0.0, 0.0)
     spans, freqs = engine_spans(chain_text(specs, (1.0, 1.0), 0.0, (10.0, 20e3), 0.0), op)
     truth = brute_force(specs, (1.0, 1.0), 0.0, (10.0, 20e3), 0.0, op, freqs)
-    assert truth[1, 0] >= spans[1, 0] - 1e-9 and truth[1, 1] <= spans[1, 1] + 1e-9
+    assert np.allclose(spans, truth, rtol=1e-7, atol=1e-9), (spans, truth)

@@ -1,6 +1,6 @@
 """The same chain, presets and seed give the same report, byte for byte.
 
-Each report form (JSON, Markdown, the table, and a batch over a folder) is produced for every chain
+Each report form (JSON, Markdown, the table, a batch over a folder, JUnit, --against) is produced for every chain
 kept under tests/ and for both shipped demos, in fresh interpreters whose string hash seeds differ,
 so no set or dict order, and no hash-dependent floating-point summation order, can leak into the
 output. The reports of each process are compared byte for byte with the first one's.
@@ -12,6 +12,7 @@ import json
 import os
 import subprocess
 import sys
+import tempfile
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -32,6 +33,9 @@ for key, argv in jobs:
         except SystemExit as stop:
             code = stop.code
     text = buf.getvalue()
+    if "--junit" in argv:      # the JUnit file is the report here
+        with open(argv[argv.index("--junit") + 1], encoding="utf-8") as written:
+            text = written.read()
     out[key] = [code, hashlib.sha256(text.encode()).hexdigest(), len(text)]
 print(json.dumps(out, sort_keys=True))
 """
@@ -47,6 +51,13 @@ def _jobs() -> list[tuple[str, list[str]]]:
     folder = str(ROOT / "tests" / "chains")
     jobs.append(("batch|table", ["check", folder, "--no-color"]))
     jobs.append(("batch|--json", ["check", folder, "--json"]))
+    # JUnit, one chain and a folder, and --against (the two demos' versions of the same chain)
+    demo = str(ROOT / "engine" / "demos" / "pump_vibration.toml")
+    junit = str(Path(tempfile.gettempdir()) / f"railroom-determinism-{os.getpid()}.xml")
+    jobs.append(("junit|chain", ["check", demo, "--junit", junit]))
+    jobs.append(("junit|batch", ["check", folder, "--junit", junit]))
+    jobs.append(("against|--json", ["check", demo, "--against",
+                                    str(ROOT / "tests" / "chains" / "alarms_nogo.toml"), "--json"]))
     return jobs
 
 

@@ -129,19 +129,37 @@ rf = "30k 1%"
 """
 
 
-def test_partial_re_walk_agrees_with_a_walk_of_the_whole_chain():
+# A passive stage between two amplifiers: the stage after it is enumerated jointly with it.
+WITH_PASSIVE = TIGHT_MIDDLE.replace(
+    '[[stage]]\nname = "invert x3"',
+    '[[stage]]\nname = "smooth"\nblock = "rc_lowpass"\nr = "4k7 5%"\nc = "10n 10%"\n'
+    '[[stage]]\nname = "invert x3"') + '''[[stage]]
+name = "last"
+block = "noninverting"
+part = "amp"
+rf = "1k 1%"
+rg = "100k 1%"
+'''
+
+
+@pytest.mark.parametrize("text, changes", [
+    (TIGHT_MIDDLE, ((1, "rf", 33e3), (1, "rg", 1.2e3), (2, "rin", 12e3), (0, None, None))),
+    (WITH_PASSIVE, ((1, "rf", 33e3), (2, "r", 5.6e3), (3, "rin", 12e3), (3, "rf", 27e3),
+                   (4, "rg", 82e3))),
+])
+def test_partial_re_walk_agrees_with_a_walk_of_the_whole_chain(text, changes):
     # The fix search re-walks only from the stage before the change; the whole-chain walk of the
     # changed chain is the reference: every verdict and margin the same.
     from railroom.engine.analysis import band_grid
     from railroom.engine.fixes import Evaluator
     from railroom.engine.methods import corners
     from railroom.engine.plan import plan_chain
-    chain = chain_from_text(TIGHT_MIDDLE.format(rf="36k"))
+    chain = chain_from_text(text.format(rf="36k"))
     plans = plan_chain(chain, PARTS)
     freqs = band_grid(chain, plans)
     evaluate = Evaluator(chain, plans, freqs)
     evaluate.results(plans, changed=1)        # builds the unchanged walk it reuses
-    for k, field, value in ((1, "rf", 33e3), (1, "rg", 1.2e3), (2, "rin", 12e3), (0, None, None)):
+    for k, field, value in changes:
         if field is None:
             changed_plans = plans
         else:
@@ -152,6 +170,7 @@ def test_partial_re_walk_agrees_with_a_walk_of_the_whole_chain():
         partial = evaluate.results(changed_plans, changed=k)
         assert [r.margins for r in partial] == [r.margins for r in whole]
         assert [r.go for r in partial] == [r.go for r in whole]
+        assert [r.measure.output for r in partial] == [r.measure.output for r in whole]
         # stopped after stage k (no stage after it was GO): the same results, cut short
         stopped = evaluate.results(changed_plans, changed=k, stop=k + 1)
         assert [r.margins for r in stopped] == [r.margins for r in whole[:k + 1]]
@@ -169,3 +188,22 @@ part = "amp"
     assert [f.field for f in after.fixes] == [None]
     assert "fix the first clipping stage" in after.fixes[0].text
     assert any(f.field in ("rf", "rg") for f in first.fixes)
+
+
+def test_a_value_in_both_series_is_offered_once(monkeypatch):
+    # rg must reach 14.9k: the nearest E24 value up is 15k and so is the nearest E96 one
+    # (IEC 60063: 15 is in E24, 14.7 and 15.0 in E96), so one fix names both series.
+    from types import SimpleNamespace
+    from railroom.engine import fixes
+    from railroom.engine.plan import plan_chain
+    plan = plan_chain(chain_from_text(CLIPPING.format(method="corners")), PARTS)[0]
+    done = SimpleNamespace(limiting="output-high", margins={"output-high": 0.2})
+
+    class Stub:
+        def works(self, k, field, value):
+            return done if field == "rg" and value >= 14.9e3 else None
+
+    monkeypatch.setattr(fixes, "direction", lambda lin, index, check, field: 1.0 if field == "rg" else -1.0)
+    found = fixes.value_fixes(Stub(), plan, SimpleNamespace(limiting="output-high"), None)
+    assert [(f.field, f.value) for f in found] == [("rg", pytest.approx(15e3))]
+    assert "(E24, E96)" in found[0].text

@@ -2,7 +2,7 @@
 
 Imports nothing of railroom (only numpy and the independent MNA solver in references/nodal.py).
 Partial scope (issue 11): single-ended source with its impedance, and the stages follower,
-noninverting, inverting, divider and rc_lowpass, with the topologies as railroom's README
+noninverting, inverting, summing (fixed inputs as `inputs`: [(r, volts)]), divider and rc_lowpass, with the topologies as railroom's README
 describes them. Op amps: finite A0 and one pole, offset at +, bias current into both inputs.
 """
 
@@ -69,6 +69,14 @@ def _stage(c: Circuit, st: Stage, inp: str, p: str) -> str:
         c.resistor(inp, f"{p}_m", v["rin"])
         c.resistor(out, f"{p}_m", v["rf"])
         _opamp(c, st.opamp, f"{p}_ref", f"{p}_m", out)
+    elif st.block == "summing":                 # inverting, plus each fixed input r from v to -
+        _ref(c, v, p)
+        c.resistor(inp, f"{p}_m", v["rin"])
+        c.resistor(out, f"{p}_m", v["rf"])
+        for k, (r, volts) in enumerate(v.get("inputs", ())):
+            c.source(f"{p}_in{k}", volts)
+            c.resistor(f"{p}_in{k}", f"{p}_m", r)
+        _opamp(c, st.opamp, f"{p}_ref", f"{p}_m", out)
     elif st.block == "divider":
         c.resistor(inp, out, v["top"])
         c.resistor(out, "0", v["bottom"])
@@ -86,7 +94,8 @@ def _ref(c: Circuit, v: dict, p: str) -> None:
 
 def response(stages: list[Stage], freqs: np.ndarray, impedance: float = 0.0) -> list[np.ndarray]:
     """Complex output of every stage per 1 V AC at the source (DC terms zeroed: superposition)."""
-    ac = [Stage(s.block, {**s.values, "ref": 0.0}, s.load,
+    ac = [Stage(s.block, {**s.values, "ref": 0.0,
+                          "inputs": [(r, 0.0) for r, _ in s.values.get("inputs", ())]}, s.load,
                 OpAmp(s.opamp.open_loop_gain, s.opamp.gbw)) for s in stages]
     c, outs = build(ac, 1.0, impedance)
     sol = c.solve(np.asarray(freqs, float))

@@ -44,6 +44,8 @@ async def type_into(pilot, field: str, text: str, paste: bool = False) -> None:
         editor.value = ""
         await pilot.press(*text)
     await pilot.pause()
+    await pilot.app.workers.wait_for_complete()    # the engine reads each keystroke in a worker
+    await pilot.pause()
 
 
 async def test_demo_opens_and_arrows_through_stages(make_app):

@@ -61,3 +61,16 @@ def test_loader_refuses_reversed_band():
     with pytest.raises(InputError) as err:
         editing.checked(edited, "x.toml")
     assert err.value.problems[0].field == "source.band"
+
+
+def test_inline_stage_tables_add_move_remove_in_place():
+    """`stage = [{...}, ...]` is a chain like any other (TOML 1.0 arrays of inline tables)."""
+    text = ('format = 1\nstage = [\n  {name = "a", block = "follower", part = "p"},  # first\n'
+            '  {name = "b", block = "follower", part = "p"},  # second\n]\n')
+    added = editing.add_stage(text, 2, {"name": "new", "block": "follower", "part": "p"})
+    assert [t["name"] for t in tomllib.loads(added)["stage"]] == ["a", "new", "b"]
+    assert "# first" in added and "# second" in added
+    assert editing.remove_stage(added, 2) == text
+    moved = editing.move_stage(text, 2, -1)
+    assert [t["name"] for t in tomllib.loads(moved)["stage"]] == ["b", "a"]
+    assert editing.set_stage_field(text, 2, "name", "c").count('name = "c"') == 1

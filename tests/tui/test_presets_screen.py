@@ -168,13 +168,16 @@ async def test_editing_a_shipped_preset_saves_a_copy_in_the_users_folder(lab):
 async def test_delete_asks_first(lab):
     async with PresetsApp().run_test(size=(120, 40)) as pilot:
         await pilot.pause()
-        await pilot.press(*"lab-spare", "enter", "d")
+        await pilot.press(*"lab-spare", "enter", "d")       # d shows the detail on the chain
+        await pilot.pause()                                  # screen: never a delete here
+        assert not isinstance(pilot.app.screen, ConfirmDialog)
+        await pilot.press("x")
         await pilot.pause()
         assert isinstance(pilot.app.screen, ConfirmDialog)
         await pilot.click("#confirm-no")
         await pilot.pause()
         assert lab.read_text(encoding="utf-8") == LAB
-        await pilot.press("d")
+        await pilot.press("x")
         await pilot.pause()
         await pilot.click("#confirm-yes")
         await pilot.pause()

@@ -84,6 +84,12 @@ class ChainScreen(Screen):
     def show(self, result: ChainResult, note: str = "") -> None:
         session = self.session
         label = "built-in demo (read-only)" if session.read_only else str(session.path)
+        if session.disk_problems:
+            # first on the line, so a long file name cannot push it out of an 80-column view
+            problem = session.disk_problems[0]
+            where = f"line {problem.line} " if problem.line else ""
+            label = (f"NOT RELOADED: disk version has problems ({where}{problem.field}; r retries)"
+                     f"  {label}")
         self.query_one(StatusLine).show(result, label, session.modified, note)
         self.query_one(StageList).show(result)
         self._show_view()
@@ -113,7 +119,7 @@ class ChainScreen(Screen):
 
     # views
     def action_show_view(self, view: str) -> None:
-        self.close_form()
+        self.close_form(leave=True)
         self.query_one(ContentSwitcher).current = view
         self._show_view()
 
@@ -122,14 +128,17 @@ class ChainScreen(Screen):
         self.action_show_view("level" if current == "detail" else "detail")
 
     def action_focus_stages(self) -> None:
-        self.close_form()
+        self.close_form(leave=True)
         self.query_one(StageList).focus()
 
-    def close_form(self) -> None:
-        """Put the detail or level view back; drafts stay in the session, edits in the chain."""
+    def close_form(self, leave: bool = False) -> None:
+        """Put the detail or level view back; drafts stay in the session, edits in the chain.
+        `leave`: the user left the form, so the fields they emptied are removed from the file."""
         if not self.has_class("editing"):
             return
         for form in self.query(FieldForm):
+            if leave:
+                form.remove_emptied(form.remove_field)
             form.remove()
         self.remove_class("editing")
         self._show_view()
@@ -143,14 +152,16 @@ class ChainScreen(Screen):
         drafts = self.session.drafts.setdefault(form_id, {})
         fields = [FormField(f.key, f.shape, drafts.get(f.key, f.text), f.choices) for f in fields]
 
-        def apply(field_key: str, text: str) -> str | None:
+        def apply(field_key: str, text: str, judged) -> None:
             shape = next(f.shape for f in fields if f.key == field_key)
-            return self.app.apply_edit(change(field_key, editing.toml_value(text, shape)),
-                                       typing=True)
+            self.app.type_edit((form_id, field_key),
+                               change(field_key, editing.toml_value(text, shape)), judged)
 
         self.close_form()
         self.add_class("editing")
-        self.mount(FieldForm(title, fields, apply, drafts, focus, form_id), before=self.query_one(Footer))
+        form = FieldForm(title, fields, apply, drafts, focus, form_id)
+        form.remove_field = lambda field_key: self.app.apply_edit(change(field_key, None))
+        self.mount(form, before=self.query_one(Footer))
 
     def action_edit_stage(self, focus: str | None = None) -> None:
         index = self.highlighted()
@@ -164,14 +175,16 @@ class ChainScreen(Screen):
         if len(self.session.chain.rails) > 1:
             shapes["rails"] = FieldShape("text", "choice", tuple(self.session.chain.rails),
                                          "which supply")
-        fields = [FormField(k, s, editing.stage_field(text, index, k)) for k, s in shapes.items()]
+        shown = editing.stage_fields(text, index, shapes)
+        fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
         self._form(f"stage {index}: {stage.name} ({stage.block})", f"stage.{index}", fields,
                    lambda k, v: lambda t: editing.set_stage_field(t, index, k, v), focus)
 
     def _section_form(self, section: str, focus: str | None = None) -> None:
         shapes = editing.SECTIONS[section]
         text = self.session.text
-        fields = [FormField(k, s, editing.section_field(text, section, k)) for k, s in shapes.items()]
+        shown = editing.section_fields(text, section, shapes)
+        fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
         self._form(f"[{section}]", section, fields,
                    lambda k, v: lambda t: editing.set_section_field(t, section, k, v), focus)
 
@@ -198,14 +211,27 @@ class ChainScreen(Screen):
                 return
             parts = self.session.part_ids
             part = near.part if near.part else (parts[0] if parts else None)
-            fields = editing.starter_stage(block, f"new {block}", part, near.rails)
-            if self.app.apply_edit(lambda t: editing.add_stage(t, after + 1, fields)) is None:
+            fields = editing.starter_stage(block, f"new {block}", part, self._rails_near(after))
+            problem = self.app.apply_edit(lambda t: editing.add_stage(t, after + 1, fields))
+            if problem is None:
                 self._structure_changed(after + 1)
                 self.action_edit_stage()
+            else:
+                self.notify(f"the new {block} stage was not added: {problem}", title="add",
+                            severity="error", markup=False)
 
         blocks = [(name, f"{name}: {block.summary}") for name, block in BLOCKS.items()]
         self.app.push_screen(ChoiceScreen("Add which block after the highlighted stage?", blocks),
                              chosen)
+
+    def _rails_near(self, index: int) -> str | None:
+        """The supply for a stage added after stage `index`: that stage's, else the nearest
+        earlier stage's (a passive stage names none), else the chain's first, when it has several."""
+        chain = self.session.chain
+        if len(chain.rails) < 2:
+            return None
+        named = [s.rails for s in chain.stages[:index] if s.rails is not None]
+        return named[-1] if named else next(iter(chain.rails))
 
     def action_remove_stage(self) -> None:
         index = self.highlighted()
@@ -237,6 +263,7 @@ class ChainScreen(Screen):
         self._show_detail()
 
     def action_undo(self) -> None:
+        self.app.settle()
         if self.session.undo():
             self.close_form()                # its fields would show the text before the undo
             self.app.recheck()

@@ -1,6 +1,8 @@
 """Small modal questions: confirm with lettered answers, pick one of a list, name a file."""
 from __future__ import annotations
 
+import textwrap
+
 from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -23,10 +25,14 @@ class ConfirmScreen(ModalScreen[str]):
         self.answers = answers
 
     def compose(self) -> ComposeResult:
+        # wrapped here: a label wider than the dialog would be cut off, and a long file name or
+        # a problem in the question must be read whole
+        width = max(40, min(80, self.app.size.width - 14))
         with Vertical(classes="dialog"):
-            yield Label(Text(self.question))
+            yield Label(Text(textwrap.fill(self.question, width)))
             for key, _, words in self.answers:
-                yield Label(Text(f"  {key}  {words}"))
+                yield Label(Text(textwrap.fill(f"  {key}  {words}", width,
+                                               subsequent_indent=" " * (len(key) + 4))))
             yield Label(Text("  esc  leave everything as it is"), classes="hint")
 
     def on_key(self, event) -> None:

@@ -1,7 +1,7 @@
 """The presets screen: the user's library, listed, viewed and edited without ever losing a line.
 
 Type to filter; Enter or ↓ moves to the list. e edits, c makes a new preset from a copy, r renames,
-d deletes (after a confirmation). Shipped presets are only read: an edit saves a copy into the user's
+x deletes (after a confirmation). Shipped presets are only read: an edit saves a copy into the user's
 folder, which overrides the shipped one. After every change the screen posts `PresetsChanged` and
 calls `on_change`, so the chains that use a preset are checked again at once.
 """
@@ -19,13 +19,55 @@ from textual.message import Message
 from textual.screen import ModalScreen, Screen
 from textual.widgets import Button, DataTable, Footer, Input, Label, Static
 
-from railroom.engine.model import InputError
+from railroom.engine.model import InputError, Problem
 from railroom.engine.preset_editing import (ChangedOnDisk, EditSession, PresetEditError, check_part_id,
                                             copy_part, delete_part, is_shipped, open_preset_file,
                                             rename_part, save_preset_text)
-from railroom.engine.presets import Library, load_library, shipped_folder
+from railroom.engine.presets import Library, load_library, read_preset_file, shipped_folder
 from railroom.tui.presets_command import part_lines
 from railroom.tui.widgets.preset_form import PresetForm
+
+
+NESTING_SHOWN = 100          # the line named for a file too deeply nested: where it passes this
+
+
+def library_of(folders: list[Path]) -> Library:
+    """The library of `folders`; a file nested too deeply for the reader (arrays in arrays ...)
+    is a located problem of its own and the other files are still read."""
+    try:
+        return load_library(folders)
+    except RecursionError:
+        pass
+    library = Library(folders=list(folders))
+    for folder in folders:
+        for path in sorted(folder.glob("*.toml")) if folder.is_dir() else ():
+            try:
+                parts, problems = read_preset_file(path)
+            except RecursionError:
+                parts, problems = [], [Problem(str(path), nesting_line(path), "(file)",
+                                               "nested too deeply to read (arrays or tables "
+                                               f"more than {NESTING_SHOWN} levels inside "
+                                               "each other)")]
+            library.problems.extend(problems)
+            for part in parts:
+                library.add(part)
+    return library
+
+
+def nesting_line(path: Path) -> int | None:
+    """The line where brackets and braces first nest deeper than NESTING_SHOWN."""
+    try:
+        text = path.read_text(encoding="utf-8", errors="replace")
+    except OSError:
+        return None
+    depth = 0
+    for number, line in enumerate(text.splitlines(), 1):
+        for char in line:
+            depth += char in "[{"
+            depth -= char in "]}"
+            if depth > NESTING_SHOWN:
+                return number
+    return None
 
 
 class PresetsChanged(Message):
@@ -40,9 +82,18 @@ class ConfirmDialog(ModalScreen[bool]):
     ConfirmDialog Horizontal { height: auto; align-horizontal: right; }
     """
 
+    BINDINGS = [Binding("escape", "keep", "keep it", id="confirm-dialog.keep",
+                        tooltip="Close without doing anything")]
+
     def __init__(self, question: str, yes: str = "Delete"):
         super().__init__()
         self.question, self.yes = question, yes
+
+    def on_mount(self) -> None:
+        self.query_one("#confirm-no", Button).focus()      # enter alone never deletes
+
+    def action_keep(self) -> None:
+        self.dismiss(False)
 
     def compose(self) -> ComposeResult:
         with Vertical():
@@ -61,9 +112,18 @@ class ChangedOnDiskDialog(ModalScreen[str]):
 
     DEFAULT_CSS = ConfirmDialog.DEFAULT_CSS.replace("ConfirmDialog", "ChangedOnDiskDialog")
 
+    BINDINGS = [Binding("escape", "keep", "keep editing", id="changed-dialog.keep",
+                        tooltip="Keep editing; nothing is written")]
+
     def __init__(self, path: Path):
         super().__init__()
         self.path = path
+
+    def on_mount(self) -> None:
+        self.query_one("#changed-keep", Button).focus()
+
+    def action_keep(self) -> None:
+        self.dismiss("keep")
 
     def compose(self) -> ComposeResult:
         with Vertical():
@@ -84,6 +144,9 @@ class NameDialog(ModalScreen[str | None]):
     DEFAULT_CSS = ConfirmDialog.DEFAULT_CSS.replace("ConfirmDialog", "NameDialog") + """
     NameDialog #name-error { color: $error; height: auto; }
     """
+
+    BINDINGS = [Binding("escape", "cancel", "cancel", id="name-dialog.cancel",
+                        tooltip="Close without naming anything")]
 
     def __init__(self, question: str, suggestion: str, taken: set[str]):
         super().__init__()
@@ -109,7 +172,7 @@ class NameDialog(ModalScreen[str | None]):
             self.dismiss(name)
 
     @on(Button.Pressed, "#name-cancel")
-    def cancel(self) -> None:
+    def action_cancel(self) -> None:
         self.dismiss(None)
 
 
@@ -125,7 +188,8 @@ class PresetsScreen(Screen):
         Binding("e,enter", "edit", "Edit", id="presets.edit", tooltip="Edit the highlighted preset"),
         Binding("c", "copy", "New from copy", id="presets.copy", tooltip="New preset from a copy"),
         Binding("r", "rename", "Rename", id="presets.rename", tooltip="Rename the preset"),
-        Binding("d", "delete", "Delete", id="presets.delete", tooltip="Delete (asks first)"),
+        # x as on the chain screen (x removes a stage; d there shows the detail)
+        Binding("x", "delete", "Delete", id="presets.delete", tooltip="Delete (asks first)"),
         Binding("slash", "focus_filter", "Filter", id="presets.filter", tooltip="Type to filter"),
         Binding("escape", "focus_list", show=False),  # harmless: it only moves the focus
         Binding("q", "close", "Back", id="presets.close", tooltip="Back to the chain"),
@@ -151,7 +215,7 @@ class PresetsScreen(Screen):
         self.query_one("#preset-filter", Input).focus()
 
     def reload_library(self, select: str | None = None) -> None:
-        self.library = load_library(self.folders)
+        self.library = library_of(self.folders)
         problems = self.library.problems
         self.query_one("#preset-problems", Static).update(Text("\n".join(
             [f"{len(problems)} problem(s) in preset files; the good presets are listed:"] +
@@ -238,7 +302,7 @@ class PresetsScreen(Screen):
         try:
             session = EditSession(part.origin, part_id, self.writable)
         except (PresetEditError, OSError) as err:
-            self.notify(str(err), severity="error")
+            self.notify(str(err), severity="error", markup=False)
             return
         title = f"Edit {part_id}" + (" (a copy in your folder; the shipped file stays as it is)"
                                      if is_shipped(part.origin) else "")
@@ -314,10 +378,10 @@ class PresetsScreen(Screen):
             opened = open_preset_file(path)
             save_preset_text(opened, edit(opened.text))
         except InputError as err:
-            self.notify("\n".join(str(p) for p in err.problems), severity="error")
+            self.notify("\n".join(str(p) for p in err.problems), severity="error", markup=False)
             return False
         except (ChangedOnDisk, PresetEditError, OSError) as err:
-            self.notify(str(err), severity="error")
+            self.notify(str(err), severity="error", markup=False)
             return False
-        self.notify(f"Saved {path} (previous version kept as .bak)")
+        self.notify(f"Saved {path} (previous version kept as .bak)", markup=False)
         return True

@@ -13,7 +13,7 @@ from railroom.engine.blocks import BLOCKS
 from railroom.engine.checks import GAIN_ERROR_CAUTION
 from railroom.engine.model import Chain, Part
 from railroom.engine.results import CHECKS, OpAmpMeasure, StageResult
-from railroom.engine.values import Quantity, format_si
+from railroom.engine.values import Quantity, format_si, format_span
 
 UNITS = {"resistance": "Ω", "capacitance": "F", "voltage": "V", "current": "A",
          "frequency": "Hz", "slew": "V/s"}
@@ -25,7 +25,7 @@ def volts(value: float, unit: str = "V") -> str:
 
 
 def span_words(span: tuple[float, float], unit: str = "V") -> str:
-    return f"{volts(span[0], unit)} .. {volts(span[1], unit)}"
+    return format_span(span[0], span[1], unit)
 
 
 def needed_and_limit(stage: StageResult, check: str, part: Part | None,
@@ -164,7 +164,7 @@ def notes(stage: StageResult) -> list[Text]:
     lines += [Text(f"caution: {c}", style="yellow") for c in stage.cautions]
     if stage.sensitivity:
         lines.append(Text("sensitivity: " + ", ".join(
-            f"{s.quantity} {s.share:.0%}" for s in stage.sensitivity)))
+            f"{s.words} {s.share:.0%}" for s in stage.sensitivity)))
     lines += [Text(f"fix: {f.text}") for f in stage.fixes]
     return lines
 

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from typing import Callable
 
 from rich.text import Text
+from textual import events
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, VerticalScroll
@@ -25,7 +26,51 @@ from railroom.engine.editing import FieldShape, value_problem
 CONTROL_PICTURES = {code: 0x2400 + code for code in range(32)} | {127: 0x2421}
 CONTROL_PROBLEM = "control characters are not allowed here (shown as ␛ and the like)"
 
-Apply = Callable[[str, str], str | None]     # (field key, typed text) -> problem or None
+# (field key, typed text, verdict): the verdict is called with the problem or None, at once or later
+Apply = Callable[[str, str, Callable[[str | None], None]], None]
+EMPTY_NOTE = ("empty: leaving the form removes it (when it may be left out); a value typed "
+              "now keeps its line and comment")
+
+
+class FieldInput(Input):
+    """An Input that runs its editing keys (backspace, delete, arrows, ...) and the form's tab,
+    shift+tab and Esc in the order they were typed.
+
+    Textual inserts a printable key in the focused Input's own queue but runs a bound key only when
+    the key has bubbled up to the app: when keys arrive in a burst (a slow link, a loaded machine,
+    key repeat) a backspace then lands after the letters typed behind it and deletes them. Here
+    every key is handled where it arrives, in order; a key that arrives after a tab (or Esc) moved
+    the focus away was typed for the new focus and goes there.
+    """
+
+    FORM_KEYS = {"tab": "next_field", "shift+tab": "previous_field", "escape": "close"}
+
+    async def _on_key(self, event: events.Key) -> None:
+        focused = self.app.focused
+        if focused is not None and focused is not self and focused.screen is self.screen:
+            # (a dialog that opened meanwhile is another screen: it never gets keys typed here)
+            event.stop()
+            event.prevent_default()
+            focused._forward_event(events.Key(event.key, event.character))
+            return
+        form = next((a for a in self.ancestors if isinstance(a, FieldForm)), None)
+        if form is not None and form.closing:
+            event.stop()                     # typed after Esc: a key for the chain screen
+            event.prevent_default()
+            self.screen._forward_event(events.Key(event.key, event.character))
+            return
+        if event.key in self.FORM_KEYS and form is not None:
+            event.stop()
+            event.prevent_default()
+            await form.run_action(self.FORM_KEYS[event.key])
+            return
+        bindings = self._bindings.key_to_bindings.get(event.key)
+        if bindings and not event.is_printable:
+            event.stop()
+            event.prevent_default()
+            await self.run_action(bindings[0].action)
+            return
+        await super()._on_key(event)
 
 
 @dataclass(frozen=True)
@@ -61,6 +106,7 @@ class FieldForm(VerticalScroll):
         self.apply = apply
         self.drafts = drafts
         self.focus_key = focus_key
+        self.closing = False
 
     def compose(self) -> ComposeResult:
         yield Label(Text(self.title_words), classes="form-title")
@@ -81,8 +127,8 @@ class FieldForm(VerticalScroll):
             return Select([(Text(c), c) for c in choices], value=value,
                           allow_blank=value is Select.NULL, id=f"field-{field.key}",
                           classes="form-value")
-        return Input(value=field.text, id=f"field-{field.key}", classes="form-value",
-                     placeholder=field.shape.help)
+        return FieldInput(value=field.text, id=f"field-{field.key}", classes="form-value",
+                          placeholder=field.shape.help)
 
     def on_mount(self) -> None:
         self.border_title = "edit"
@@ -101,7 +147,8 @@ class FieldForm(VerticalScroll):
         if not editors:
             return
         here = next((i for i, e in enumerate(editors) if e.has_focus_within), -offset)
-        editors[(here + offset) % len(editors)].focus()
+        # at once, not later as focus() does: the keys typed after the tab go to the next field
+        self.screen.set_focus(editors[(here + offset) % len(editors)])
 
     def action_next_field(self) -> None:
         self._step(1)
@@ -129,17 +176,44 @@ class FieldForm(VerticalScroll):
         if any(0x2400 <= ord(c) <= 0x2421 for c in text):
             problem = CONTROL_PROBLEM
         else:
-            problem = value_problem(text, field.shape) or self.apply(key, text)
-        message = self.query_one(f"#message-{key}", Label)
+            problem = value_problem(text, field.shape)
+        if problem:
+            self._judged(key, text, problem)
+            return
+        if not text.strip():
+            # the key stays in the file, with its place and comment, while the box is empty:
+            # typing a value again sets it in place; leaving the form empty removes it
+            self.drafts[key] = text
+            self._message(key, EMPTY_NOTE, False)
+            return
+        # kept as a draft until the engine has read it: closing the form meanwhile loses nothing
+        self.drafts[key] = text
+        self.apply(key, text, lambda problem: self._judged(key, text, problem))
+
+    def _judged(self, key: str, text: str, problem: str | None) -> None:
+        """The verdict on `text` in field `key` (at once, or when the engine's answer is in)."""
+        field = self.fields[key]
         if problem:
             self.drafts[key] = text
-            message.update(Text(problem))
-            message.add_class("problem")
         else:
-            self.drafts.pop(key, None)
+            if self.drafts.get(key) == text:
+                del self.drafts[key]
             self.fields[key] = FormField(key, field.shape, text, field.choices)
-            message.update(Text(field.shape.help))
-            message.remove_class("problem")
+        if self.is_mounted:                   # else the form was closed meanwhile: the draft stays
+            self._message(key, problem or field.shape.help, bool(problem))
+
+    def _message(self, key: str, words: str, problem: bool) -> None:
+        message = self.query_one(f"#message-{key}", Label)
+        message.update(Text(words))
+        message.set_class(problem, "problem")
+
+    def remove_emptied(self, remove: Callable[[str], str | None]) -> None:
+        """The form is closing: a field left empty is removed from the file now (`remove` gives
+        the problem when the field may not be left out; the empty draft then stays)."""
+        for key, text in list(self.drafts.items()):
+            if key in self.fields and not text.strip() and remove(key) is None:
+                del self.drafts[key]
 
     def action_close(self) -> None:
+        self.closing = True
         self.post_message(self.Closed())

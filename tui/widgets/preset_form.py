@@ -24,7 +24,7 @@ from railroom.engine.values import ValueTextError, parse_quantity
 
 
 class QuantityText(Validator):
-    """A value of SPEC section 1 of one kind ("0.5V/us" for a slew rate), read by the engine's parser."""
+    """A value of one kind as the files write it ("0.5V/us" for a slew rate), read by the engine's parser."""
 
     def __init__(self, kind: str):
         super().__init__()
@@ -208,7 +208,8 @@ class PresetForm(ModalScreen[bool]):
         except (PresetEditError, OSError) as err:
             self.show_problems([str(err)])
             return
-        self.app.notify(f"Saved {self.session.part_id} to {path} (previous version kept as .bak)")
+        self.app.notify(f"Saved {self.session.part_id} to {path} (previous version kept as .bak)",
+                        markup=False)
         self.dismiss(True)
 
     def resolve_change(self, choice: str | None) -> None:

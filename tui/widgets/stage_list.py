@@ -25,7 +25,7 @@ def margin_words(stage: StageResult) -> Text:
 
 
 def regime_words(stage: StageResult) -> Text:
-    word = stage.regime if stage.go else f"{stage.regime}!"
+    word = stage.regime_word
     style = REGIME_STYLES[stage.regime] if stage.go or stage.regime == "clipping" else "yellow"
     return Text(word, style=style)
 
