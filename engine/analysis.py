@@ -6,7 +6,7 @@
 from __future__ import annotations
 
 from dataclasses import replace
-from typing import Mapping
+from collections.abc import Mapping
 
 import numpy as np
 
@@ -80,10 +80,10 @@ def analyse(chain: Chain, parts: Mapping[str, Part], *, method: str | None = Non
             from railroom.engine.methods.rare import estimate
             from railroom.engine.sensitivity import linearise
             rare = estimate(layout, lin or linearise(layout), seed=chain.conditions.seed)
-    headroom = headroom_db(prepared, corner_stages) if headroom else None
+    headroom_found = headroom_db(prepared, corner_stages) if headroom else None
     if design_aids:
         from railroom.engine.fixes import design_aids as aids
-        stages = aids(chain, plans, freqs, stages, corner_stages, headroom, lin=lin,
+        stages = aids(chain, plans, freqs, stages, corner_stages, headroom_found, lin=lin,
                       baseline=corner_stages if method_name == "montecarlo" else stages)
     from railroom.engine.part_limits import with_limit_cautions
     stages = with_limit_cautions(chain, plans, stages, prepared.responses)
@@ -91,7 +91,7 @@ def analyse(chain: Chain, parts: Mapping[str, Part], *, method: str | None = Non
         chain=chain, method=method_name,
         samples=chain.conditions.samples if method_name == "montecarlo" else None,
         stages=tuple(stages), go=all(s.go for s in stages),
-        headroom_db=headroom, cautions=tuple(chain_cautions(chain)),
+        headroom_db=headroom_found, cautions=tuple(chain_cautions(chain)),
         chain_yield=chain_yield, rare=rare,
     )
 

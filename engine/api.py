@@ -8,7 +8,7 @@
 """
 from __future__ import annotations
 
-from typing import Mapping
+from collections.abc import Mapping
 
 from railroom.engine.model import Chain, Part
 from railroom.engine.results import CHECKS, ChainResult, StageResult

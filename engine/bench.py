@@ -105,7 +105,7 @@ level = ["-0.1", "0.1"]
 amplitude = "100m"
 band = ["10", "1k"]
 """
-    cycle = (("follower", {}), ("inverting", {"rin": "10k", "rf": "10k"}),
+    cycle: tuple[tuple[str, dict[str, str]], ...] = (("follower", {}), ("inverting", {"rin": "10k", "rf": "10k"}),
              ("follower", {}), ("rc_lowpass", {"r": "1k", "c": "10n"}))
     for i in range(1, stages + 1):
         block, fields = cycle[(i - 1) % len(cycle)]
@@ -167,7 +167,8 @@ def long_chain_figures(repeats: int = 3) -> dict:
             times = {}
             for n in (48, 200):
                 chain = chain_from_text(long_chain_text(n, failing), "<bench>")
-                times[n] = median_seconds(lambda: analyse(chain, PARTS, method=method), repeats)
+                times[n] = median_seconds(lambda chain=chain, method=method: analyse(chain, PARTS, method=method),
+                                          repeats)
                 figures[f"{method}_{n}{'_failing' if failing else ''}_ms"] = round(1e3 * times[n], 1)
             figures[f"{method}{'_failing' if failing else ''}_exponent"] = round(
                 float(np.log(times[200] / times[48]) / np.log(200 / 48)), 2)

@@ -117,10 +117,10 @@ def compare_results(old: ChainResult, new: ChainResult) -> list[StageChange]:
 
 
 def _mark_renames(changes: list[StageChange], removed: list[StageChange]) -> list[StageChange]:
-    gone = {(c.before.index, c.before.stage.block): c.name for c in removed}
+    gone = {(c.before.index, c.before.stage.block): c.name for c in removed if c.before is not None}
     marked = []
     for c in changes:
-        if c.change == "added":
+        if c.change == "added" and c.after is not None:
             old_name = gone.get((c.after.index, c.after.stage.block))
             if old_name is not None:
                 c = replace(c, renamed_from=old_name)
@@ -132,7 +132,7 @@ def against_report(old: ChainResult, new: ChainResult, label: str) -> dict:
     """The report's "against" section: the old file, its verdict, and every stage's change."""
     stages = []
     for c in compare_results(old, new):
-        entry = {"name": c.name, "change": c.change,
+        entry: dict[str, object] = {"name": c.name, "change": c.change,
                  "margins": {k: [_number(a), _number(b)] for k, (a, b) in c.margins.items()}}
         # extensions (README): the verdict and regime on each side, a probable rename
         entry["go"] = [None if c.before is None else c.before.go,
@@ -215,7 +215,7 @@ CHECK_UNITS = {"slew": "V/s", "current": "A"}
 def change_words(c: StageChange) -> str:
     """'changed, GO -> NO-GO', 'added (renamed from x?)', 'same', ..."""
     words = c.change
-    if c.verdict_flipped:
+    if c.verdict_flipped and c.before is not None and c.after is not None:
         words += f", {'GO' if c.before.go else 'NO-GO'} -> {'GO' if c.after.go else 'NO-GO'}"
     elif c.before is not None and c.after is not None and c.before.regime != c.after.regime:
         words += f", {c.before.regime} -> {c.after.regime}"

@@ -116,7 +116,7 @@ def build_layout(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, prepar
                           Variable(None, f"rails.{rails.name}.negative", "rail", rails.tolerance)]
     variables = [v for v in variables if v.scale]
     loads = []
-    for k, plan in enumerate(plans):
+    for k in range(len(plans)):
         following = prepared.responses[k + 1] if k + 1 < len(plans) else None
         loads.append(following.input_load if following is not None else InputLoad())
     return Layout(chain, plans, np.asarray(freqs, dtype=float), tuple(variables),

@@ -294,7 +294,7 @@ class _DocumentSlot(list):
         super().__init__(body[start:at])
         self.body, self.start, self.at = body, start, at
 
-    def __delitem__(self, item: slice) -> None:
+    def __delitem__(self, item: slice) -> None:  # type: ignore[override]
         del self.body[self.start + (item.start or 0):self.at]
         super().__delitem__(item)
 

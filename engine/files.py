@@ -262,7 +262,7 @@ def _read_inputs(raw, w: str, r: FieldReader, default_tol: float) -> list[dict[s
         r.problem(w, f"{len(raw):,} fixed inputs; a summing stage takes at most {MAX_INPUTS}")
         return []
     inputs = []
-    for i, item in enumerate(raw, start=1):
+    for item in raw:
         r.unknown_keys(item, w, ("r", "v"), "a fixed input")
         res = _component(r, item, w, "r", "resistance", ..., default_tol)
         volt = r.quantity(item, w, "v", "voltage")

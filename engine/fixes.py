@@ -1,8 +1,8 @@
 """Design aids on every result: sensitivity ranking per stage, fixes for failing or tight stages.
 
 A stage fed a clipped signal gets no search, only a note to fix the first clipping stage: its
-margins are those of the clipped input. A fix is the nearest IEC 60063 E24 and E96 value of one of the stage's own resistors that makes
-the stage GO (every margin at least the required one, linear regime) without making any stage
+margins are those of the clipped input. A fix is the nearest IEC 60063 E24 and E96 value of one
+of the stage's own resistors that makes the stage GO (every margin at least the required one, linear regime) without making any stage
 that was GO fail, checked by re-running the method on the changed chain (montecarlo candidates
 are checked with corners, which is stricter). Candidates lie on the side the limiting margin's
 sensitivity says helps, within a decade; the search steps out 1, 2, 4, ... values and bisects

@@ -10,7 +10,7 @@ FREQUENCY_DEPENDENT (1 %) across the band at some corner.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Mapping
+from collections.abc import Mapping
 
 import numpy as np
 

@@ -6,7 +6,7 @@ carry a tolerance are kept as `Quantity` so each method can decide how to spread
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Mapping
+from collections.abc import Mapping
 
 from railroom.engine.values import Quantity, escaped
 

@@ -125,7 +125,8 @@ def input_window(part: Part, rails: Rails) -> tuple[float, float]:
             rails.positive_range[0] - part.input_headroom[0])
 
 
-def saturated_levels(part: Part, rails: Rails, load_conductance: float) -> tuple[tuple[float, float], tuple[float, float]]:
+def saturated_levels(part: Part, rails: Rails, load_conductance: float
+                     ) -> tuple[tuple[float, float], tuple[float, float]]:
     """Output levels of an op amp driven hard into each rail: (low min, low max), (high min, high max).
 
     Without negative feedback the output sits at its swing limit (common practice); the level moves

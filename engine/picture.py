@@ -16,7 +16,7 @@ matplotlib is imported only here, and only when a picture is drawn.
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Mapping
+from collections.abc import Mapping
 
 from railroom.engine.levels import StageLevels, frequency_levels
 from railroom.engine.model import Part
@@ -84,7 +84,7 @@ def _row(result: ChainResult, stage: StageResult, y: float, figure, axes, text_x
     from matplotlib.patches import Rectangle
     from matplotlib.text import Text
     output, window, _ = stage.drawn       # the op amp with the least room to its window
-    parts = []
+    parts: list = []
     if stage.stage.part is not None:
         rails = result.chain.rails_for(stage.stage)
         low, high = rails.negative_range[0], rails.positive_range[1]
@@ -121,7 +121,7 @@ def _band_panel(result: ChainResult, stage: StageResult, levels: StageLevels, fi
     from matplotlib.lines import Line2D
     f, lo, hi = levels.freqs, levels.low, levels.high
     verts = [list(zip(f, hi)) + list(zip(f[::-1], lo[::-1]))]
-    parts = [PolyCollection(verts, facecolors=COLOURS["span"], alpha=0.6, lw=0)]
+    parts: list = [PolyCollection(verts, facecolors=COLOURS["span"], alpha=0.6, lw=0)]
     m = stage.measure
     ends = [float(lo.min()), float(hi.max())]
     if m.window is not None:

@@ -239,7 +239,8 @@ def _read_part(part_id: str, t, r: FieldReader) -> Part | None:
     return part
 
 
-def _missing(r: FieldReader, w: str, key: str) -> None:
+def _missing(r: FieldReader, w: str, key: str) -> tuple[float, float] | None:
+    """Record a missing pair; None stands for it among the part's values."""
     r.problem(f"{w}.{key}", "missing; expected a pair such as [\"30m\", \"30m\"]")
     return None
 

@@ -98,12 +98,14 @@ class NodeTerms:
 
     @cached_property
     def positive(self) -> np.ndarray:
-        return self.g >= 0
+        assert self.g is not None
+        return np.asarray(self.g >= 0)
 
     @cached_property
     def rising(self) -> np.ndarray:
         """Where |H| >= G: a_sel = amp_hi there."""
-        return self.spare >= 0
+        assert self.spare is not None
+        return np.asarray(self.spare >= 0)
 
 
 def single_terms(node: Node, v: dict, error: np.ndarray | float, shift: np.ndarray | float = 0.0,
@@ -115,7 +117,7 @@ def single_terms(node: Node, v: dict, error: np.ndarray | float, shift: np.ndarr
     if transfer is None:
         return NodeTerms(fixed, error)
     g = transfer[..., :1].real
-    magnitude = np.abs(transfer[..., 1:], order=order)
+    magnitude = np.abs(transfer[..., 1:], order=order)  # type: ignore[call-overload]
     gain = np.abs(g)
     return NodeTerms(fixed, error, g, gain, magnitude, magnitude - gain)
 
@@ -146,7 +148,7 @@ def single_bounds(node: Node, v: dict, signal: Signal, error: np.ndarray | float
 
 def as_column(x: np.ndarray | float) -> np.ndarray | float:
     """Per-row values (J,) as (J, 1), to meet (J, F) arrays row by row; others as they are."""
-    return x[:, None] if np.ndim(x) == 1 else x
+    return np.asarray(x)[:, None] if np.ndim(x) == 1 else x
 
 
 def memory_order(x: np.ndarray) -> str:

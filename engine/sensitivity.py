@@ -43,8 +43,8 @@ def linearise(layout: dw.Layout, decisive: bool = False) -> Linearised:
 
     `decisive`: also find draw_walk.decisive_freqs(layout) in the same walk. Its rows are the
     nominal one (row 0 here already) and the all-high and all-low ones, appended; its
-    temperature rise is the same (the largest distance from 25 C). Each row is walked on its own (draw_walk module docstring),
-    so sharing the walk changes no row and saves one walk's per-stage overhead."""
+    temperature rise is the same (the largest distance from 25 C). Each row is walked on its own
+    (draw_walk module docstring), so sharing the walk changes no row and saves one walk's per-stage overhead."""
     K = len(layout.variables)
     rows = 2 * K + 1
     extra = 2 if decisive and len(layout.freqs) > 2 else 0

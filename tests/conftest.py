@@ -7,7 +7,7 @@ _TESTS = str(Path(__file__).resolve().parent)
 if _TESTS not in sys.path:
     sys.path.insert(0, _TESTS)
 
-import pytest
+import pytest  # noqa: E402 (the tests folder goes on sys.path first)
 
 
 @pytest.fixture(autouse=True)

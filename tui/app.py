@@ -12,7 +12,7 @@ import os
 import time
 from functools import partial
 from pathlib import Path
-from typing import Callable
+from collections.abc import Callable
 
 from textual import work
 from textual.app import App

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Callable
+from collections.abc import Callable
 
 from railroom.engine.analysis import analyse, load_checked
 from railroom.engine.atomic import Fingerprint, fingerprint, write_atomic
@@ -41,7 +41,7 @@ class Session:
     _last_step: object = None                         # the field the last kept keystroke was in
 
     @classmethod
-    def open(cls, path: str | Path | None, extra_preset_dirs: tuple[str, ...] = ()) -> "Session":
+    def open(cls, path: str | Path | None, extra_preset_dirs: tuple[str, ...] = ()) -> Session:
         """Load a chain (the built-in demo, read-only, when path is None); raises InputError."""
         file = Path(path) if path is not None else demo_path()
         chain, library = load_checked(str(file), extra_preset_dirs)

@@ -10,7 +10,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from functools import cached_property
-from typing import Callable, ClassVar, Mapping
+from typing import ClassVar
+from collections.abc import Callable, Mapping
 
 import numpy as np
 
@@ -69,7 +70,7 @@ class BlockResponse:
     # the voltage at the block's input terminal when a Thevenin source drives it (the node
     # between the driving impedance and the block's first element; None: not known), or a
     # function that builds it, called only when a passive stage before asks (`terminal`)
-    input_node: "Node | Callable[[], Node] | None" = None
+    input_node: Node | Callable[[], Node] | None = None
 
     @cached_property
     def terminal(self) -> Node | None:
@@ -166,6 +167,7 @@ def junction(series, drive, far: Node | None, share=None) -> Node:
 
 def minus_pin(plus: Node, output: Node, inverse_gain, index: int = 0, count: int = 1) -> Node:
     """An op amp's - pin from its + pin: V- = V+ + Vos - Vout / A (opamp.py's loop form)."""
+    assert output.offset_gain is not None
     rows = output.offset_gain.shape[0]
     offset = np.zeros((rows, count))
     offset[:, index] = 1.0

@@ -7,7 +7,7 @@ the part's common-mode window, and the output levels carry the rail tolerance an
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Mapping
+from collections.abc import Mapping
 
 import numpy as np
 
@@ -36,7 +36,8 @@ def span_of(values: np.ndarray) -> Span:
 class Comparator(Block):
     name = "comparator"
     summary = "open loop against a threshold voltage: saturated by design"
-    ideal = ("out = upper swing limit while in > threshold, lower limit while in < threshold (invert swaps them)",)
+    ideal = ("out = upper swing limit while in > threshold, lower limit while in < threshold",
+             "invert = true swaps them")
     saturates = True
     fields = {
         "threshold": FieldSpec("voltage", help="voltage on the other input, V"),

@@ -12,7 +12,7 @@ impedance; after a single-ended stage `in` drives r3 and r1 returns to ref.
 """
 from __future__ import annotations
 
-from typing import Mapping
+from collections.abc import Mapping
 
 import numpy as np
 
@@ -39,7 +39,8 @@ def input_names(differential: bool) -> tuple[str, str]:
 class Difference(Block):
     name = "difference"
     summary = "four-resistor difference amplifier; r1/r2 on the inverting side"
-    ideal = ("out = (1 + r2/r1) (r4 in+ + r3 ref)/(r3 + r4) - (r2/r1) in-", "r1 = r3 and r2 = r4 gives out = (r2/r1)(in+ - in-) + ref")
+    ideal = ("out = (1 + r2/r1) (r4 in+ + r3 ref)/(r3 + r4) - (r2/r1) in-",
+             "r1 = r3 and r2 = r4 gives out = (r2/r1)(in+ - in-) + ref")
     takes_differential = True
     fields = {
         "r1": FieldSpec("resistance", help="negative input to the - input"),

@@ -15,11 +15,11 @@ is added to the frequency grid so the worst case over the band includes it.
 from __future__ import annotations
 
 from dataclasses import replace
-from typing import Mapping
+from collections.abc import Mapping
 
 import numpy as np
 
-from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputLoad, Node, junction,
+from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputLoad, junction,
                                          OpAmpNodes, combined, load_conductance, opamp_node,
                                          plus_node)
 from railroom.engine.blocks.gain import virtual_earth_load
@@ -178,7 +178,8 @@ class SallenKeyLowpass(Block):
 class SallenKeyHighpass(Block):
     name = "sallen_key_highpass"
     summary = "second-order high-pass; rf/rg optional (unity gain without them)"
-    ideal = ("H(s) = K s^2 r1 r2 c1 c2 / (1 + s (r1 (c1 + c2) + r2 c2 (1 - K)) + s^2 r1 r2 c1 c2), K = 1 + rf/rg",
+    ideal = ("H(s) = K s^2 r1 r2 c1 c2 / (1 + s (r1 (c1 + c2) + r2 c2 (1 - K)) + s^2 r1 r2 c1 c2), "
+             "K = 1 + rf/rg",
              "f0 = 1 / (2 pi sqrt(r1 r2 c1 c2))")
     fields = {
         "c1": FieldSpec("capacitance", help="in to node A"),

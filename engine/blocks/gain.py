@@ -9,7 +9,7 @@ Any resistance driving the stage (source impedance, a divider before it) is in s
 """
 from __future__ import annotations
 
-from typing import Mapping
+from collections.abc import Mapping
 
 import numpy as np
 
@@ -40,7 +40,6 @@ class Follower(Block):
     name = "follower"
     summary = "unity-gain buffer"
     ideal = ("out = in",)
-    fields = {}
 
     def respond(self, v, s, inverse_gain, drive, differential):
         one = np.ones((1, 1))
@@ -93,7 +92,8 @@ class Inverting(Block):
 class Summing(Block):
     name = "summing"
     summary = "inverting summer: the signal through rin plus fixed DC inputs (level shift)"
-    ideal = ("out = -rf (in/rin + sum v/r) + (1 + rf/rin + sum rf/r) ref", "each fixed input: r from the voltage v to the - input")
+    ideal = ("out = -rf (in/rin + sum v/r) + (1 + rf/rin + sum rf/r) ref",
+             "each fixed input: r from the voltage v to the - input")
     fields = {
         "rin": FieldSpec("resistance", help="signal input resistor"),
         "rf": FieldSpec("resistance", help="feedback resistor"),

@@ -23,12 +23,12 @@ negative one) is the worst, the corner the window is drawn at.
 """
 from __future__ import annotations
 
-from typing import Mapping
+from collections.abc import Mapping
 
 import numpy as np
 
 from railroom.engine.blocks.base import Block, FieldSpec, dc_resistance
-from railroom.engine.blocks.comparator import Span, Switching, span_of
+from railroom.engine.blocks.comparator import Span, Switching
 from railroom.engine.model import Part, Rails
 
 

@@ -10,6 +10,8 @@ otherwise (ECSS-Q-HB-30-01A, extreme value analysis).
 from __future__ import annotations
 
 import itertools
+from collections.abc import Callable
+from functools import partial
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -143,14 +145,14 @@ def prepare(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, nominal: bo
     s = laplace_grid(freqs)
     values, responses, joint = [], [], []
     source = np.array([[chain.source.impedance]])
-    drive = lambda: source                                   # noqa: E731
+    drive: Callable[[], np.ndarray] = partial(np.asarray, source)
     before = None
     differential = chain.source.differential
     if reuse is not None and first > 0:
         values, responses = list(reuse.values[:first]), list(reuse.responses[:first])
         joint = list(reuse.joint[:first])
         prior, before = plans[first - 1], reuse.responses[first - 1]
-        drive = (lambda plan=prior, response=before: next_drive(plan, response))
+        drive = partial(next_drive, prior, before)
         differential = False
     for plan in plans[len(values):]:
         rows = values[-1]["drive"].shape[0] if values else 1
@@ -159,7 +161,7 @@ def prepare(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, nominal: bo
         response = None
         if not plan.block.saturates:
             response = plan.block.respond(v, s, inverse_gain, v["drive"], differential)
-        drive = (lambda plan=plan, response=response: next_drive(plan, response))
+        drive = partial(next_drive, plan, response)
         before = response
         differential = False
         values.append(v)

@@ -16,7 +16,7 @@ draws beyond (its standard error there is about 1.25 sigma / 128, about 1 % of s
 """
 from __future__ import annotations
 
-from typing import Iterator
+from collections.abc import Iterator
 
 import numpy as np
 
@@ -83,7 +83,7 @@ def sample(layout: dw.Layout, samples: int, seed: int, chunk: int = CHUNK_ROWS
 def series_of(draws: list[dw.StageDraws]) -> dict[tuple, np.ndarray]:
     """Every quantity quoted, keyed (stage, amp or None, name); upper spans negated so every
     series is read at its low tail. Per-op-amp series only where a stage has several op amps."""
-    found = {}
+    found: dict[tuple, np.ndarray] = {}
     for k, stage in enumerate(draws):
         for j, amp in enumerate(stage.amps if len(stage.amps) > 1 else ()):
             for name, value in amp.items():
@@ -205,6 +205,7 @@ def run(chain, plans, freqs, corner_stages, chunk: int = CHUNK_ROWS, progress=No
         done += linear.shape[1]
         if progress is not None and not progress(done / samples):
             raise Cancelled()
+    assert tail is not None          # samples >= 1: at least one chunk was walked
     quoted = {name: tail.median() if q == 0.5 else tail.low(q) for name, q in QUOTED.items()}
     stages = stage_results(plans, corner_stages, quoted, leaving / samples, chain.conditions.margin)
     return stages, all_linear / samples

@@ -40,7 +40,7 @@ def test_folder_gives_one_line_per_file_in_order_and_the_worst_status(tmp_path):
         True] * 3
     assert run.returncode == 2
     # The broken file's problem is located on stderr: file, line of rf (demo line 44), field.
-    assert f"c-broken.toml:44: stage.2.rf:" in run.stderr
+    assert "c-broken.toml:44: stage.2.rf:" in run.stderr
     assert "Traceback" not in run.stderr
     assert {p.name: p.read_bytes() for p in folder.iterdir()} == before
 

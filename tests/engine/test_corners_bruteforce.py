@@ -19,7 +19,6 @@ import itertools
 from dataclasses import dataclass
 
 import numpy as np
-import pytest
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 

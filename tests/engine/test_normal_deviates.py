@@ -41,12 +41,12 @@ def test_inverse_normal_matches_scipy_across_the_range():
 def test_montecarlo_normal_runs_without_scipy_or_the_interface(tmp_path):
     chain = tmp_path / "normal.toml"
     chain.write_text(CHAIN, encoding="utf-8")
-    probe = ("import sys, runpy; sys.argv = ['railroom', 'check', %r, '--json'];"
+    probe = (f"import sys, runpy; sys.argv = ['railroom', 'check', {str(chain)!r}, '--json'];"
              "sys.modules['scipy'] = None\n"        # any import of scipy now fails
              "try:\n    runpy.run_module('railroom.tui.cli', run_name='__main__')\n"
              "except SystemExit as e:\n    code = e.code\n"
              "heavy = [m for m in ('textual', 'sympy', 'pytest', 'hypothesis') if m in sys.modules]\n"
-             "print('HEAVY', heavy, 'CODE', code, file=sys.stderr)") % str(chain)
+             "print('HEAVY', heavy, 'CODE', code, file=sys.stderr)")
     done = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, timeout=120)
     assert "HEAVY [] CODE 0" in done.stderr, done.stderr
     report = json.loads(done.stdout)

@@ -11,7 +11,7 @@ The caller picks the analysis: AC phasors with offset and bias left at 0, or DC 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Sequence, Union
+from collections.abc import Sequence
 
 import numpy as np
 
@@ -30,7 +30,7 @@ class OpAmpModel:
 
 
 IDEAL = OpAmpModel()
-OpAmps = Union[OpAmpModel, Sequence[OpAmpModel]]
+OpAmps = OpAmpModel | Sequence[OpAmpModel]
 
 
 def _opamp(c: Circuit, model: OpAmpModel, plus: str, minus: str, out: str) -> None:

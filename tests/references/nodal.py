@@ -19,13 +19,12 @@ f = 0 is DC, where a capacitor is open.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Union
 
 import numpy as np
 
 GROUND = "0"
 
-Value = Union[float, complex, np.ndarray]
+Value = float | complex | np.ndarray
 
 
 @dataclass(frozen=True, eq=False)

@@ -129,7 +129,7 @@ def test_error_gains_at_dc(seed):
                     lambda m, d: summing(rin + d, rf, 0.0, [(drive + rf, 0.0)], v_in=0.0,
                                          opamp=m)["out"]),
     }
-    for name, (block, values, build) in cases.items():
+    for _name, (block, values, build) in cases.items():
         for d in (0.0, float(drive[0])):     # the engine passes the driving resistance as a float
             node = engine(block, values | {"ref": np.zeros(DRAWS)}, grid, part(a0, 1e6),
                           drive=d).output

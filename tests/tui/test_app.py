@@ -11,7 +11,6 @@ from textual.widgets import Input
 from railroom.engine.values import ValueTextError, parse_quantity
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen, SaveAsScreen
 from railroom.tui.widgets.field_form import FieldForm
-from railroom.tui.widgets.detail import StageDetail
 from railroom.tui.widgets.stage_list import StageList
 from railroom.tui.widgets.status_line import StatusLine
 

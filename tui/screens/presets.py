@@ -8,7 +8,7 @@ calls `on_change`, so the chains that use a preset are checked again at once.
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Callable
+from collections.abc import Callable
 
 from rich.text import Text
 from textual import on

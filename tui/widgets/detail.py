@@ -1,7 +1,7 @@
 """The detail panel: every check of the highlighted stage with the engine's numbers."""
 from __future__ import annotations
 
-from typing import Mapping
+from collections.abc import Mapping
 
 from rich.console import Group
 from rich.table import Table

@@ -9,7 +9,7 @@ when the form closes), so nothing the user typed is lost.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Callable
+from collections.abc import Callable
 
 from rich.text import Text
 from textual import events

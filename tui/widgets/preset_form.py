@@ -232,6 +232,7 @@ class PresetForm(ModalScreen[bool]):
         # Esc is harmless: a slow link can split an escape sequence, so it never drops typed values.
         values, wrong = self.values()
         if wrong or any(self.session.started.get(key) != raw for key, raw in values.items()):
-            self.show_problems(["Unsaved values: enter or the Save button saves them, the Close button drops them."])
+            self.show_problems(["Unsaved values: enter or the Save button saves them, "
+                                "the Close button drops them."])
         else:
             self.dismiss(False)
