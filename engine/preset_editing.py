@@ -106,7 +106,7 @@ def set_fields(text: str, part_id: str, changes: dict[str, Raw | None]) -> str:
 
 
 def _put(table, key: str, raw: Raw) -> None:
-    value = list(raw) if isinstance(raw, tuple) else raw
+    value: object = list(raw) if isinstance(raw, tuple) else raw
     kind = PART_FIELDS[key][0]
     if kind == "flag" and isinstance(raw, str) and raw.strip().lower() in ("true", "false"):
         value = raw.strip().lower() == "true"            # a TOML boolean, as the file format says

@@ -111,8 +111,8 @@ def limit_text(key: str, value) -> str | None:
         return "yes: the output inverts beyond the input range" if value else None
     if key == "output_headroom_curve":
         return None if not value else "; ".join(
-            f"{format_si(c, 'A')}: upper {format_si(u, 'V')}, lower {format_si(l, 'V')}"
-            for c, u, l in value)
+            f"{format_si(c, 'A')}: upper {format_si(up, 'V')}, lower {format_si(down, 'V')}"
+            for c, up, down in value)
     if key == "temperature_range":
         return None if value is None else f"{value[0]:g} to {value[1]:g} °C"
     if key == "bias_current_doubling":
