@@ -85,6 +85,8 @@ def analyse(chain: Chain, parts: Mapping[str, Part], *, method: str | None = Non
         from railroom.engine.fixes import design_aids as aids
         stages = aids(chain, plans, freqs, stages, corner_stages, headroom_found, lin=lin,
                       baseline=corner_stages if method_name == "montecarlo" else stages)
+    from railroom.engine.part_limits import with_limit_cautions
+    stages = with_limit_cautions(chain, plans, stages, prepared.responses)
     return ChainResult(
         chain=chain, method=method_name,
         samples=chain.conditions.samples if method_name == "montecarlo" else None,

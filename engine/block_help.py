@@ -20,6 +20,7 @@ COMMON_HELP = {
     "part": "the op amp's part preset id (blocks with an op amp)",
     "rails": "which [rails.NAME] supplies the op amp (needed when a chain has more than one)",
     "load": "resistance from the output to 0 V, ohm (besides the next stage's input)",
+    "load_capacitance": "capacitance from the output to 0 V, F: the loop's phase margin is estimated",
 }
 
 

@@ -10,6 +10,7 @@ from railroom.engine.blocks import BLOCKS
 from railroom.engine.margins import met_at_equality
 from railroom.engine.margins import supply_margin as kernel_supply_margin
 from railroom.engine.model import Chain, Part, Rails
+from railroom.engine.part_limits import DIFFERENTIAL_CHECK, differential_margin
 from railroom.engine.results import VOLTAGE_CHECKS, StageMeasure, StageResult
 
 GAIN_ERROR_CAUTION = 0.01      # SPEC section 5: a caution above 1 %
@@ -62,12 +63,15 @@ def judge(measure: StageMeasure, part: Part | None, rails: Rails, required: floa
     margins = {c: met_at_equality(m, check_scale(c, part, rails)) for c, m in margins.items()}
     leaves_linear = any(margins.get(c, 0.0) < 0 for c in LINEAR_CHECKS
                         if not (block.saturates and c not in ("input-high", "input-low", "current")))
+    if part is not None and (block.saturates or leaves_linear):   # open loop, or broken by clipping
+        margins.update(differential_margin(part, measure.input_differential))
     if block.saturates:
         regime = "saturated"
     else:
         regime = "clipping" if leaves_linear else "linear"
     reasons = [c for c in VOLTAGE_CHECKS if c in margins and margins[c] < required]
     reasons += [c for c in ("slew", "current", "supply") if margins.get(c, 0.0) < 0]
+    reasons += [c for c in (DIFFERENTIAL_CHECK,) if c in margins and margins[c] < required]
     if measure.fed_clipped:
         # fed by a clipping stage: whatever this stage does, its signal is not the design's
         reasons.append("fed-clipped")

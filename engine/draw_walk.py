@@ -5,7 +5,7 @@ rails and its temperature. Every toleranced quantity is a column of a deviate ma
 d = +/-1 at the ends of its tolerance:
 
     value    = nominal (1 + tol d_tol) (1 + tempco dT d_tc)       dT = |T - 25 C| of the row
-    offset   = offset d_os + offset_drift dT d_dr      bias = bias_current d_b
+    offset   = offset d_os + offset_drift dT d_dr      bias = hot bias d_b (part_limits)
     rail     = nominal (1 + tol d)                      (positive and negative rails apart)
 
 The signal stays the operating envelope (both ends of the source ranges, +/- the AC peak, every
@@ -30,6 +30,7 @@ from railroom.engine.blocks.base import InputLoad
 from railroom.engine.margins import load_currents, opamp_margins, output_drops
 from railroom.engine.model import Chain
 from railroom.engine.opamp import TWO_PI, inverse_open_loop, laplace_grid
+from railroom.engine.part_limits import curve_level, differential_margin, hot_bias, saturated_differential
 from railroom.engine.plan import StagePlan
 from railroom.engine.propagation import DifferentialSignal, Signal, loaded_bounds, node_bounds
 from railroom.engine.results import StageResult
@@ -108,7 +109,7 @@ def build_layout(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, prepar
             part = plan.part
             variables += [Variable(plan.index, "offset", "offset", part.offset, j),
                           Variable(plan.index, "offset", "drift", part.offset_drift, j),
-                          Variable(plan.index, "bias", "bias", part.bias_current, j)]
+                          Variable(plan.index, "bias", "bias", hot_bias(part, chain.conditions), j)]
     for rails in chain.rails.values():
         if rails.tolerance:
             variables += [Variable(None, f"rails.{rails.name}.positive", "rail", rails.tolerance),
@@ -161,7 +162,7 @@ def row_errors(layout: Layout, plan: StagePlan, D: np.ndarray, dT: np.ndarray):
     for j in range(count):
         offsets[:, j] = (part.offset * _deviate(layout, D, plan.index, "offset", "offset", j)
                          + part.offset_drift * dT * _deviate(layout, D, plan.index, "offset", "drift", j))
-        bias[:, j] = part.bias_current * _deviate(layout, D, plan.index, "bias", "bias", j)
+        bias[:, j] = hot_bias(part, layout.chain.conditions) * _deviate(layout, D, plan.index, "bias", "bias", j)
     return offsets, bias
 
 
@@ -415,6 +416,8 @@ def saturated_levels_rows(part, pos, neg, conductance):
                              part.output_current)
         return level - np.sign(level) * part.output_resistance * current
     high_ideal, low_ideal = pos - part.output_headroom[0], neg + part.output_headroom[1]
+    if part.output_headroom_curve:
+        return curve_level(part, low_ideal, conductance, False), curve_level(part, high_ideal, conductance, True)
     return np.maximum(loaded(low_ideal), low_ideal), np.minimum(loaded(high_ideal), high_ideal)
 
 
@@ -442,6 +445,8 @@ def saturated_draws(layout: Layout, k: int, v, D, signal):
     margins = {"input-high": pos - part.input_headroom[0] - in_hi,
                "input-low": in_lo - (neg + part.input_headroom[1]),
                "current": part.output_current - np.maximum(np.abs(high), np.abs(low)) * conductance}
+    margins.update(differential_margin(part, saturated_differential(
+        plan.stage.block, v, plan.flags, (sig_lo, sig_hi), ((low, low), (high, high)))))
     amp = dict(margins)
     margins = stage_margins([margins], plan, pos, neg)
     linear = np.ones(rows, dtype=bool)

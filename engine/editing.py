@@ -64,6 +64,9 @@ def stage_shapes(block_name: str) -> dict[str, FieldShape]:
     block = BLOCKS[block_name]
     shapes = {"name": FieldShape("text", "text", help="the stage's name")}
     shapes["load"] = FieldShape("resistance", help="load from the output to 0 V (optional)")
+    if block.uses_part and not block.saturates:
+        shapes["load_capacitance"] = FieldShape("capacitance",
+                                                help="capacitive load to 0 V (optional)")
     for key, spec in block.fields.items():
         if spec.kind == "inputs":
             shapes[key] = FieldShape("inputs", "inputs", help=INPUTS_HELP)

@@ -226,6 +226,7 @@ def _read_stage(t: dict, index: int, r: FieldReader, rails: dict, default_tol: f
     elif rails_name is not None and rails and rails_name not in rails:
         r.problem(f"{w}.rails", f"no rails named {rails_name!r}; expected one of {', '.join(rails)}")
     load = _component(r, t, w, "load", "resistance", None, default_tol)
+    load_capacitance = _component(r, t, w, "load_capacitance", "capacitance", None, default_tol)
     values: dict[str, object] = {}
     for key, spec in block.fields.items():
         if spec.kind == "flag":
@@ -241,7 +242,7 @@ def _read_stage(t: dict, index: int, r: FieldReader, rails: dict, default_tol: f
             if q is not None:
                 values[key] = q
     return Stage(name=name or f"stage {index}", block=block_name, part=part, rails=rails_name,
-                 load=load, values=values, line=r.line(w),
+                 load=load, load_capacitance=load_capacitance, values=values, line=r.line(w),
                  lines={key: r.lines[f"{w}.{key}"] for key in t if f"{w}.{key}" in r.lines})
 
 

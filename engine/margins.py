@@ -36,7 +36,11 @@ def load_currents(current_hi: Number, current_lo: Number, out_hi: Number, out_lo
 
 
 def output_drops(part: Part, sourced: Number, sunk: Number) -> tuple[Number, Number]:
-    """(upper, lower) headroom added by the load current: each side by its own direction."""
+    """(upper, lower) headroom added by the load current: each side by its own direction
+    (the part's output_headroom_curve in place of its output resistance when it has one)."""
+    if part.output_headroom_curve:
+        from railroom.engine.part_limits import output_drops as curve_drops
+        return curve_drops(part, sourced, sunk)
     return part.output_resistance * sourced, part.output_resistance * sunk
 
 

@@ -57,6 +57,12 @@ class Part:
     output_current: float                  # A, limit
     origin: str = ""                       # file it was read from
     overrides: tuple[str, ...] = ()        # earlier files whose preset of the same id this replaces
+    # datasheet limits (engine/part_limits.py); the defaults leave the checks as they were
+    temperature_range: tuple[float, float] | None = None   # rated ambient [low, high], C
+    bias_current_doubling: float = 0.0     # C per doubling of the bias current above 25 C; 0: none
+    input_differential_max: float = 0.0    # largest |V+ - V-|, V; 0: not rated
+    phase_reversal: bool = False           # the output inverts beyond the common-mode range
+    output_headroom_curve: tuple[tuple[float, float, float], ...] = ()   # (A, upper V, lower V)
 
     def offset_at(self, temperature: float) -> float:
         """Worst offset magnitude at a temperature: initial plus drift away from 25 C."""
@@ -125,6 +131,7 @@ class Stage:
     part: str | None = None
     rails: str | None = None
     load: Quantity | None = None
+    load_capacitance: Quantity | None = None     # from the output to 0 V: the phase-margin estimate
     values: Mapping[str, object] = field(default_factory=dict)   # the block's own fields, parsed
     line: int | None = None                                       # where the [[stage]] starts
     lines: Mapping[str, int] = field(default_factory=dict)       # field -> line, for messages

@@ -113,8 +113,10 @@ def output_window(part: Part, rails: Rails, sourced: float, sunk: float) -> tupl
     the output resistance times the current SOURCED at the top; the highest negative rail plus
     the lower headroom, grown by the current SUNK at the bottom (common practice for
     rail-to-rail outputs; each direction on its own, as datasheets give swing per direction)."""
-    return (rails.negative_range[1] + part.output_headroom[1] + part.output_resistance * sunk,
-            rails.positive_range[0] - part.output_headroom[0] - part.output_resistance * sourced)
+    from railroom.engine.margins import output_drops
+    drop_high, drop_low = output_drops(part, sourced, sunk)
+    return (rails.negative_range[1] + part.output_headroom[1] + drop_low,
+            rails.positive_range[0] - part.output_headroom[0] - drop_high)
 
 
 def input_window(part: Part, rails: Rails) -> tuple[float, float]:
@@ -140,6 +142,10 @@ def saturated_levels(part: Part, rails: Rails, load_conductance: float
                       part.output_current)
         return level - np.sign(level) * part.output_resistance * current
 
+    if part.output_headroom_curve:
+        from railroom.engine.part_limits import curve_level
+        return ((low_ideal[0], float(curve_level(part, low_ideal[1], load_conductance, False))),
+                (float(curve_level(part, high_ideal[0], load_conductance, True)), high_ideal[1]))
     high = (min(loaded(high_ideal[0]), high_ideal[0]), high_ideal[1])
     low = (low_ideal[0], max(loaded(low_ideal[1]), low_ideal[1]))
     return (low, high)

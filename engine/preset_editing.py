@@ -74,7 +74,9 @@ def raw_fields(text: str, part_id: str) -> dict[str, Raw]:
     table = _table(tomlkit.parse(text), part_id)
     found: dict[str, Raw] = {}
     for key, value in table.unwrap().items():
-        if isinstance(value, list) and len(value) == 2:
+        if isinstance(value, list) and value and all(isinstance(p, list) for p in value):
+            found[key] = "; ".join(" ".join(_written(x) for x in p) for p in value)   # a curve
+        elif isinstance(value, list) and len(value) == 2:
             found[key] = (_written(value[0]), _written(value[1]))
         else:
             found[key] = _written(value)
@@ -82,6 +84,8 @@ def raw_fields(text: str, part_id: str) -> dict[str, Raw]:
 
 
 def _written(value) -> str:
+    if isinstance(value, bool):
+        return "true" if value else "false"
     return value if isinstance(value, str) else repr(value) if isinstance(value, float) else str(value)
 
 
@@ -102,7 +106,13 @@ def set_fields(text: str, part_id: str, changes: dict[str, Raw | None]) -> str:
 
 
 def _put(table, key: str, raw: Raw) -> None:
-    value = list(raw) if isinstance(raw, tuple) else raw
+    value: object = list(raw) if isinstance(raw, tuple) else raw
+    kind = PART_FIELDS[key][0]
+    if kind == "flag" and isinstance(raw, str) and raw.strip().lower() in ("true", "false"):
+        value = raw.strip().lower() == "true"            # a TOML boolean, as the file format says
+    elif kind == "curve" and isinstance(raw, str):
+        from railroom.engine.part_limits import parse_curve_text
+        value = parse_curve_text(raw)                    # "0 30m 30m; 10m 0.3 0.35" -> points
     if key in table:
         table[key] = value
         return

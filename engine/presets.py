@@ -11,6 +11,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from railroom.engine.model import Part, Problem
+from railroom.engine.part_limits import LIMIT_FIELDS, LIMIT_SIDES, LIMIT_UNITS, limit_problems, read_limits
 from railroom.engine.reading import (MAX_TEXT, FieldReader, FileUnreadable, parse_toml, read_user_file,
                                      undecodable_text)
 from railroom.engine.toml_lines import key_lines
@@ -31,13 +32,14 @@ PART_FIELDS = {
     "offset_drift": ("voltage", False, False),
     "bias_current": ("current", False, False),
     "output_current": ("current", False, True),
+    **LIMIT_FIELDS,                         # datasheet limits: engine/part_limits.py
 }
 # What the two ends of each pair field mean, in file order (SPEC section 3).
 PAIR_SIDES = {"supply": ("low", "high"), "output_headroom": ("upper", "lower"),
-              "input_headroom": ("upper", "lower")}
+              "input_headroom": ("upper", "lower"), **LIMIT_SIDES}
 UNITS = {"supply": "V", "supply_abs_max": "V", "output_headroom": "V", "output_resistance": "Ω",
          "input_headroom": "V", "gbw": "Hz", "slew": "V/s", "open_loop_gain": "V/V", "offset": "V",
-         "offset_drift": "V/°C", "bias_current": "A", "output_current": "A"}
+         "offset_drift": "V/°C", "bias_current": "A", "output_current": "A", **LIMIT_UNITS}
 
 
 def shipped_folder() -> Path:
@@ -211,6 +213,8 @@ def _read_part(part_id: str, t, r: FieldReader) -> Part | None:
     r.unknown_keys(t, w, set(PART_FIELDS), "a part preset")
     values: dict[str, object] = {}
     for key, (kind, pair, required) in PART_FIELDS.items():
+        if key in LIMIT_FIELDS:
+            continue
         if kind == "text":
             values[key] = r.text_field(t, w, key, default="")
         elif pair:
@@ -225,10 +229,12 @@ def _read_part(part_id: str, t, r: FieldReader) -> Part | None:
             default = 0.0 if not required else ...
             values[key] = (r.number(t, w, key, kind) if default is ... else
                            r.number(t, w, key, kind, default=default))
-    if any(v is None for v in values.values()):
+    limits = read_limits(t, w, r)
+    if any(v is None for v in values.values()) or any(
+            v is None for k, v in limits.items() if k != "temperature_range" or k in t):
         return None
-    part = Part(id=part_id, **values)
-    for key, message in sanity_problems(part):
+    part = Part(id=part_id, **values, **limits)
+    for key, message in sanity_problems(part) + limit_problems(part):
         r.problem(f"{w}.{key}", message)
     return part
 

@@ -47,6 +47,8 @@ def stage_report(result: StageResult) -> dict:
                           if k in result.failing_nodes and len(amps) > 1},
         "cautions": list(result.cautions),
     }
+    if m.phase_margin_deg is not None:
+        report["phase_margin_deg"] = _number(m.phase_margin_deg, 4)
     if m.thresholds is not None:
         # input levels at which the output switches high and switches low (either may be the
         # upper one: an inverting trigger goes high as its input falls)

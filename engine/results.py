@@ -8,7 +8,7 @@ from railroom.engine.model import Chain, Stage
 Span = tuple[float, float]
 
 VOLTAGE_CHECKS = ("output-high", "output-low", "input-high", "input-low")
-CHECKS = (*VOLTAGE_CHECKS, "slew", "current", "supply")
+CHECKS = (*VOLTAGE_CHECKS, "slew", "current", "supply", "input-differential")
 
 
 @dataclass(frozen=True)
@@ -62,6 +62,8 @@ class StageMeasure:
     reaches: tuple[bool, bool] | None = None       # (low, high): reached at some corner
     always: tuple[bool, bool] | None = None        # (low, high): crossed at every joint corner
     inner: dict[str, Span] = field(default_factory=dict)
+    input_differential: float | None = None   # saturating blocks: largest |V+ - V-|, V
+    phase_margin_deg: float | None = None     # with a load_capacitance: the loop's estimate
     probability: float | None = None     # montecarlo: share of draws leaving the linear regime
     percentiles: dict[str, dict[str, float]] | None = None
 

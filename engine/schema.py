@@ -92,6 +92,7 @@ COMMON = {
     "part": text("part preset id (op-amp blocks only)"),
     "rails": text("rails table name; may be left out when there is one"),
     "load": value("resistance", "resistive load from the output to 0 V"),
+    "load_capacitance": value("capacitance", "capacitive load from the output to 0 V (phase margin)"),
 }
 
 
@@ -147,6 +148,13 @@ def part_field(key: str, kind: str, is_pair: bool) -> dict:
         return text(about)
     if is_pair:
         return pair(kind, about)
+    if kind == "flag":
+        return {"description": about, "type": "boolean"}
+    if kind == "curve":
+        point = {"type": "array", "minItems": 3, "maxItems": 3,
+                 "items": [value("current"), value("voltage"), value("voltage")]}
+        return {"description": f"{about}: points [current, upper headroom, lower headroom], "
+                               "currents rising", "type": "array", "minItems": 1, "items": point}
     if key == "output_resistance":
         return {"description": f"{about} (0 allowed)",
                 "anyOf": [{"type": "number", "minimum": 0},

@@ -14,6 +14,7 @@ from railroom.engine.blocks.base import BlockResponse, InputLoad, OpAmpNodes
 from railroom.engine.checks import judge
 from railroom.engine.margins import load_currents
 from railroom.engine.opamp import TWO_PI, input_window, output_window
+from railroom.engine.part_limits import bias_at, clipped_differential, saturated_differential
 from railroom.engine.plan import StagePlan
 from railroom.engine.propagation import (DifferentialSignal, NodeBounds, Signal, clamp, error_bound,
                                          loaded_bounds, memory_order, merge, node_bounds,
@@ -53,6 +54,7 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None, first: int =
     what each linear stage shows (the level picture)."""
     chain = prepared.chain
     rise = chain.conditions.worst_temperature_rise
+    hot = max(chain.conditions.temperature) - 25.0     # the bias current is taken there (part_limits)
     # node terms depend on the offsets, which the nominal walk leaves out: one memo for each
     memo = prepared.memo.setdefault(("terms", nominal), {})
     results: list[StageResult] = []
@@ -64,16 +66,18 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None, first: int =
         next_load = following.input_load if following is not None else InputLoad()
         v = prepared.values[k]
         if plan.block.saturates:
-            measure, signal = saturated_stage(plan, v, signal, rise, nominal)
+            measure, signal = saturated_stage(plan, v, signal, rise, nominal, hot_rise=hot)
         else:
             later = k + 1 < len(prepared.plans) and prepared.joint[k + 1] and \
                 shows_input(prepared.plans, prepared.responses, k + 1)
             measure, bounds = linear_stage(plan, prepared.responses[k], v, signal, prepared.freqs,
-                                           next_load, rise, nominal, memo, shown_later=later)
+                                           next_load, rise, nominal, memo, shown_later=later,
+                                           hot_rise=hot)
             if shows_input(prepared.plans, prepared.responses, k) and prepared.joint[k]:
                 # the passive stage before shows the voltage at this stage's input terminal,
                 # each of its circuits paired with this stage's own (exact)
-                terminal = input_bounds(plan, prepared.responses[k], v, signal, rise, nominal, memo)
+                terminal = input_bounds(plan, prepared.responses[k], v, signal, rise, nominal, memo,
+                                        hot_rise=hot)
                 shown = span(terminal)
                 if levels is not None:
                     levels[k - 1] = terminal
@@ -110,12 +114,13 @@ def paired(bounds: NodeBounds, rows: int, next_rows: int, fed_clipped: bool) -> 
 
 def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freqs: np.ndarray,
                  next_load: InputLoad, rise: float, nominal: bool,
-                 memo: dict | None = None, shown_later: bool = False) -> tuple[StageMeasure, NodeBounds]:
+                 memo: dict | None = None, shown_later: bool = False,
+                 hot_rise: float = 0.0) -> tuple[StageMeasure, NodeBounds]:
     """`shown_later`: the next stage will set what this (passive) stage shows (input_span)."""
     part = plan.part
     count = len(response.opamps)
     offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
-    bias = 0.0 if (nominal or part is None) else part.bias_current
+    bias = 0.0 if (nominal or part is None) else bias_at(part, 25.0 + hot_rise)
     known: dict = {}
     out = bounds_once(response.output, v, signal, offsets, bias, known, memo)
     amps = tuple(
@@ -137,6 +142,7 @@ def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freq
         index=plan.index, stage=plan.stage, output=shown, nominal=shown, opamps=amps,
         window=window, supply=plan.rails.span_range if part else None,
         fed_clipped=getattr(signal, "fed_clipped", False), inner=inner,
+        input_differential=clipped_differential(part, response, amps, freqs),
     )
     return measure, out
 
@@ -150,18 +156,19 @@ def shows_input(plans, responses, k: int) -> bool:
 
 
 def input_span(plan: StagePlan, response: BlockResponse, v: dict, signal, rise: float,
-               nominal: bool, memo: dict | None) -> tuple[float, float]:
+               nominal: bool, memo: dict | None, hot_rise: float = 0.0) -> tuple[float, float]:
     """The span of the stage's input terminal (BlockResponse.input_node)."""
-    return span(input_bounds(plan, response, v, signal, rise, nominal, memo))
+    return span(input_bounds(plan, response, v, signal, rise, nominal, memo, hot_rise))
 
 
 def input_bounds(plan: StagePlan, response: BlockResponse, v: dict, signal, rise: float,
-                 nominal: bool, memo: dict | None):
-    """The bounds per frequency of the stage's input terminal (BlockResponse.input_node)."""
+                 nominal: bool, memo: dict | None, hot_rise: float = 0.0):
+    """The bounds per frequency of the stage's input terminal (BlockResponse.input_node);
+    `hot_rise`: the hottest temperature less 25 C, where the bias current is taken (part_limits)."""
     part = plan.part
     count = max(len(response.opamps), 1)
     offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
-    bias = 0.0 if (nominal or part is None) else part.bias_current
+    bias = 0.0 if (nominal or part is None) else bias_at(part, 25.0 + hot_rise)
     return bounds_once(response.terminal, v, signal, offsets, bias, {}, memo)
 
 
@@ -211,12 +218,12 @@ def crossed_always(switching, signal, invert: bool) -> tuple[bool, bool]:
 
 
 def saturated_stage(plan: StagePlan, v: dict, signal, rise: float = 0.0,
-                    nominal: bool = False) -> tuple[StageMeasure, Signal]:
+                    nominal: bool = False, hot_rise: float = 0.0) -> tuple[StageMeasure, Signal]:
     """A comparator-like stage: switch levels, thresholds and the two-level signal it passes on."""
     incoming = signal.span if isinstance(signal, Signal) else (signal.common[0], signal.common[1])
     part = plan.part
     offset = 0.0 if nominal else part.offset_at(25.0 + rise)
-    bias = 0.0 if nominal else part.bias_current
+    bias = 0.0 if nominal else bias_at(part, 25.0 + hot_rise)
     switching = plan.block.switch(v, plan.flags, part, plan.rails, incoming, offset=offset, bias=bias)
     (low_min, low_max), (high_min, high_max) = switching.levels
     reach_low, reach_high = switching.reaches
@@ -233,6 +240,8 @@ def saturated_stage(plan: StagePlan, v: dict, signal, rise: float = 0.0,
         opamps=(amp,), window=(low_min, high_max), supply=plan.rails.span_range,
         fed_clipped=getattr(signal, "fed_clipped", False), saturated=True,
         thresholds=switching.thresholds, reaches=switching.reaches,
+        input_differential=float(np.max(saturated_differential(
+            plan.stage.block, v, plan.flags, incoming, switching.levels))),
         always=crossed_always(switching, signal, bool(plan.flags.get("invert"))),
     )
     freqs_shape = np.shape(signal.hi) if isinstance(signal, Signal) else (1,)

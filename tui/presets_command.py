@@ -10,6 +10,7 @@ import sys
 from pathlib import Path
 
 from railroom.engine.model import Part
+from railroom.engine.part_limits import LIMIT_FIELDS
 from railroom.engine.presets import (PAIR_SIDES, PART_FIELDS, UNITS, Library, load_library, missing_folders,
                                      read_preset_file,
                                      search_order, shipped_folder, user_folder)
@@ -104,6 +105,21 @@ def show_part(library: Library, part_id: str | None) -> int:
     return EXIT_GO
 
 
+def limit_text(key: str, value) -> str | None:
+    """A datasheet limit as `presets show` prints it; None when the part leaves it out."""
+    if key == "phase_reversal":
+        return "yes: the output inverts beyond the input range" if value else None
+    if key == "output_headroom_curve":
+        return None if not value else "; ".join(
+            f"{format_si(c, 'A')}: upper {format_si(up, 'V')}, lower {format_si(down, 'V')}"
+            for c, up, down in value)
+    if key == "temperature_range":
+        return None if value is None else f"{value[0]:g} to {value[1]:g} °C"
+    if key == "bias_current_doubling":
+        return None if not value else f"doubles every {value:g} °C above 25 °C"
+    return None if not value else format_si(value, UNITS[key])
+
+
 def part_lines(part: Part) -> list[str]:
     """One line per field, in engineer's units ("0.6 V/µs", "100 dB (1e+05 V/V)")."""
     lines = []
@@ -111,6 +127,10 @@ def part_lines(part: Part) -> list[str]:
         value = getattr(part, key)
         if key == "description":
             text = value or "-"
+        elif key in LIMIT_FIELDS:
+            text = limit_text(key, value)
+            if text is None:
+                continue
         elif isinstance(value, tuple):
             a, b = PAIR_SIDES[key]
             text = f"{a} {format_si(value[0], UNITS[key])}, {b} {format_si(value[1], UNITS[key])}"

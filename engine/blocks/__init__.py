@@ -22,4 +22,4 @@ BLOCKS: dict[str, Block] = {
 }
 
 # Fields every block accepts besides its own (SPEC section 2).
-COMMON_FIELDS = ("name", "block", "part", "rails", "load")
+COMMON_FIELDS = ("name", "block", "part", "rails", "load", "load_capacitance")

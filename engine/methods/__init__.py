@@ -55,4 +55,7 @@ def judged(plan, corner: StageResult, amps: list[Stat], out_span: tuple[float, f
         window = (out_span[0] - window_margins["output-low"], out_span[1] + window_margins["output-high"])
     measure = replace(m, output=out_span, opamps=tuple(opamps), window=window,
                       fed_clipped=fed_clipped, probability=probability, percentiles=percentiles)
+    if amps and "input-differential" in amps[0]:      # the statistic's, as the other margins
+        measure = replace(measure, input_differential=plan.part.input_differential_max
+                          - amps[0]["input-differential"])
     return judge(measure, plan.part, plan.rails, required)

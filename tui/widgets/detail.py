@@ -39,6 +39,9 @@ def needed_and_limit(stage: StageResult, check: str, part: Part | None,
         rails = chain.rails_for(m.stage)
         allowed = span_words(part.supply) if part else "-"
         return span_words(m.supply or rails.span_range), allowed
+    if check == "input-differential":      # engine/part_limits.py: largest |V+ - V-|
+        return (volts(m.input_differential) if m.input_differential is not None else "-",
+                volts(part.input_differential_max) if part else "-")
     if amp is None:
         window = m.window or (float("nan"), float("nan"))
         side = 1 if check.endswith("high") else 0
@@ -91,6 +94,8 @@ def components(stage: StageResult) -> Text:
     kinds = {key: spec.kind for key, spec in BLOCKS[s.block].fields.items()}
     if s.load is not None:
         text.append(f"load {quantity_words(s.load, 'resistance')}   ")
+    if getattr(s, "load_capacitance", None) is not None:
+        text.append(f"load_capacitance {quantity_words(s.load_capacitance, 'capacitance')}   ")
     for key, value in s.values.items():
         if isinstance(value, Quantity):
             text.append(f"{key} {quantity_words(value, kinds.get(key, ''))}   ")
@@ -141,6 +146,9 @@ def stage_story(stage: StageResult, chain: Chain, parts: Mapping[str, Part]) -> 
         to_high, to_low = m.thresholds
         parts_shown.append(Text(f"switches: output goes high at input {span_words(to_high)}, "
                                 f"low at {span_words(to_low)}"))
+    if m.phase_margin_deg is not None:
+        parts_shown.append(Text(f"phase margin (estimate, capacitive load): {m.phase_margin_deg:.0f}°",
+                                style="yellow" if m.phase_margin_deg < 45 else ""))
     parts_shown.append(Text("components: ", style="bold") + components(stage))
     nodes = nodes_table(stage)
     if nodes is not None:

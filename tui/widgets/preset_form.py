@@ -40,6 +40,46 @@ class QuantityText(Validator):
         return self.success()
 
 
+class FlagText(Validator):
+    """true or false (a part limit such as phase_reversal)."""
+
+    def validate(self, value: str) -> ValidationResult:
+        if not value.strip() or value.strip().lower() in ("true", "false"):
+            return self.success()
+        return self.failure("expected true or false")
+
+
+class CurveText(Validator):
+    """Points of current, upper and lower headroom: "0 30m 30m; 10m 0.3 0.35" (engine's reader)."""
+
+    def validate(self, value: str) -> ValidationResult:
+        if not value.strip():
+            return self.success()
+        from railroom.engine.part_limits import curve_from_text
+        message = curve_from_text(value)[1]
+        return self.failure(message) if message else self.success()
+
+
+def key_label(key: str, width: int = 18) -> str:
+    """A long field name broken after an underscore so it fits the label column
+    ("bias_current_" over "doubling"); the name itself stays whole in the file and messages."""
+    lines, line = [], ""
+    for word in key.split("_"):
+        piece = (line + "_" if line else "") + word
+        if line and len(piece) > width - 1:
+            lines.append(line + "_")
+            line = word
+        else:
+            line = piece
+    return "\n".join([*lines, line])
+
+
+def validators_for(kind: str) -> list[Validator]:
+    if kind == "text":
+        return []
+    return [{"flag": FlagText, "curve": CurveText}.get(kind, lambda: QuantityText(kind))()]
+
+
 class PresetForm(ModalScreen[bool]):
     """Dismissed with True once saved, False when the user leaves without saving."""
 
@@ -83,9 +123,12 @@ class PresetForm(ModalScreen[bool]):
         yield Footer()
 
     def _row(self, key: str, kind: str, pair: bool, required: bool) -> ComposeResult:
-        validators = [] if kind == "text" else [QuantityText(kind)]
-        label = key + ("" if required else " (optional)")
-        with Horizontal(classes="form-row"):
+        validators = validators_for(kind)
+        label = key_label(key) + ("" if required else " (optional)")
+        row = Horizontal(classes="form-row")
+        if "\n" in label:
+            row.styles.height = "auto"           # a long name takes two lines (key_label)
+        with row:
             yield Label(label, classes="form-key")
             for side, name in enumerate(PAIR_SIDES.get(key, ("",))):
                 if pair:
