@@ -7,19 +7,26 @@ submodule (railroom.engine.model, say) stays cheap:
     chain, library = load_checked("board.toml")
     report = chain_report(analyse(chain, library.parts))
 """
+
 from __future__ import annotations
 
 from importlib import import_module
 
 # exported name -> module under railroom.engine that defines it
 _EXPORTS = {
-    "load_checked": "analysis", "analyse": "analysis",
-    "load_chain": "files", "chain_from_text": "files",
-    "ChainResult": "results", "StageResult": "results",
-    "InputError": "model", "Problem": "model", "METHODS": "model",
+    "load_checked": "analysis",
+    "analyse": "analysis",
+    "load_chain": "files",
+    "chain_from_text": "files",
+    "ChainResult": "results",
+    "StageResult": "results",
+    "InputError": "model",
+    "Problem": "model",
+    "METHODS": "model",
     "Cancelled": "methods.montecarlo",
     "BLOCKS": "blocks",
-    "chain_report": "report", "markdown_report": "markdown",
+    "chain_report": "report",
+    "markdown_report": "markdown",
 }
 
 __all__ = sorted(_EXPORTS)

@@ -1,8 +1,9 @@
 """The engine's one entry point: a loaded chain and its parts in, a judged result out.
 
-    result = analyse(chain, parts)                  # method, samples, seed, margin from the file
-    result = analyse(chain, parts, method="rss")    # or overridden by the caller
+result = analyse(chain, parts)                  # method, samples, seed, margin from the file
+result = analyse(chain, parts, method="rss")    # or overridden by the caller
 """
+
 from __future__ import annotations
 
 from dataclasses import replace
@@ -17,19 +18,28 @@ from railroom.engine.plan import frequency_grid, plan_chain
 from railroom.engine.results import ChainResult
 
 HEADROOM_LIMIT_DB = 120.0
-RARE_BELOW = 10         # fewer failing Monte Carlo draws: also estimate the small probability
+RARE_BELOW = 10  # fewer failing Monte Carlo draws: also estimate the small probability
 
 
-def with_overrides(chain: Chain, method: str | None = None, samples: int | None = None,
-                   seed: int | None = None, margin: float | None = None) -> Chain:
+def with_overrides(
+    chain: Chain,
+    method: str | None = None,
+    samples: int | None = None,
+    seed: int | None = None,
+    margin: float | None = None,
+) -> Chain:
     conditions = chain.conditions
-    changes = {k: v for k, v in (("method", method), ("samples", samples), ("seed", seed),
-                                 ("margin", margin)) if v is not None}
+    changes = {
+        k: v
+        for k, v in (("method", method), ("samples", samples), ("seed", seed), ("margin", margin))
+        if v is not None
+    }
     return replace(chain, conditions=replace(conditions, **changes)) if changes else chain
 
 
 def band_grid(chain: Chain, plans) -> np.ndarray:
     from railroom.engine.methods.corners import corner_values
+
     rise = chain.conditions.worst_temperature_rise
     critical = []
     for p in plans:
@@ -40,10 +50,18 @@ def band_grid(chain: Chain, plans) -> np.ndarray:
     return frequency_grid(chain, critical, chain.source.amplitude)
 
 
-def analyse(chain: Chain, parts: Mapping[str, Part], *, method: str | None = None,
-            samples: int | None = None, seed: int | None = None,
-            margin: float | None = None, design_aids: bool = True,
-            headroom: bool = True, progress=None) -> ChainResult:
+def analyse(
+    chain: Chain,
+    parts: Mapping[str, Part],
+    *,
+    method: str | None = None,
+    samples: int | None = None,
+    seed: int | None = None,
+    margin: float | None = None,
+    design_aids: bool = True,
+    headroom: bool = True,
+    progress=None,
+) -> ChainResult:
     """Check every stage of the chain; raises InputError for unknown parts. `design_aids`:
     sensitivity ranking and fixes (engine/fixes.py); `headroom`: the headroom_db search. The
     interface turns both off for the instant re-check and fills them in from a worker.
@@ -53,8 +71,9 @@ def analyse(chain: Chain, parts: Mapping[str, Part], *, method: str | None = Non
     plans = plan_chain(chain, parts)
     freqs = band_grid(chain, plans)
     nominal = corners.run(corners.prepare(chain, plans, freqs, nominal=True), nominal=True)
-    notes = [{"nominal": n.measure.output, "gain_error": e}
-             for n, e in zip(nominal, gain_errors(chain, plans))]
+    notes = [
+        {"nominal": n.measure.output, "gain_error": e} for n, e in zip(nominal, gain_errors(chain, plans))
+    ]
     prepared = corners.prepare(chain, plans, freqs)
     stages = corners.run(prepared, notes=notes)
     method_name = chain.conditions.method
@@ -65,34 +84,53 @@ def analyse(chain: Chain, parts: Mapping[str, Part], *, method: str | None = Non
     layout = lin = None
     if method_name != "corners" or design_aids:
         from railroom.engine.draw_walk import build_layout
+
         layout = build_layout(chain, plans, freqs, prepared, corner_stages)
     if method_name == "rss" or design_aids:
         from railroom.engine.sensitivity import linearise
+
         lin = linearise(layout, decisive=method_name == "montecarlo")
     if method_name != "corners":
         from railroom.engine.methods import run_statistical
-        stages, chain_yield = run_statistical(method_name, chain, plans, freqs, stages, progress,
-                                              layout=layout, lin=lin)
+
+        stages, chain_yield = run_statistical(
+            method_name, chain, plans, freqs, stages, progress, layout=layout, lin=lin
+        )
     rare = None
     if method_name == "montecarlo" and chain_yield is not None and layout is not None:
         failures = round((1.0 - chain_yield) * chain.conditions.samples)
         if failures < RARE_BELOW:
             from railroom.engine.methods.rare import estimate
             from railroom.engine.sensitivity import linearise
+
             rare = estimate(layout, lin or linearise(layout), seed=chain.conditions.seed)
     headroom_found = headroom_db(prepared, corner_stages) if headroom else None
     if design_aids:
         from railroom.engine.fixes import design_aids as aids
-        stages = aids(chain, plans, freqs, stages, corner_stages, headroom_found, lin=lin,
-                      baseline=corner_stages if method_name == "montecarlo" else stages)
+
+        stages = aids(
+            chain,
+            plans,
+            freqs,
+            stages,
+            corner_stages,
+            headroom_found,
+            lin=lin,
+            baseline=corner_stages if method_name == "montecarlo" else stages,
+        )
     from railroom.engine.part_limits import with_limit_cautions
+
     stages = with_limit_cautions(chain, plans, stages, prepared.responses)
     return ChainResult(
-        chain=chain, method=method_name,
+        chain=chain,
+        method=method_name,
         samples=chain.conditions.samples if method_name == "montecarlo" else None,
-        stages=tuple(stages), go=all(s.go for s in stages),
-        headroom_db=headroom_found, cautions=tuple(chain_cautions(chain)),
-        chain_yield=chain_yield, rare=rare,
+        stages=tuple(stages),
+        go=all(s.go for s in stages),
+        headroom_db=headroom_found,
+        cautions=tuple(chain_cautions(chain)),
+        chain_yield=chain_yield,
+        rare=rare,
     )
 
 
@@ -100,6 +138,7 @@ def gain_errors(chain: Chain, plans) -> list[float | None]:
     """Closed-loop gain shortfall at the top of the band against the ideal op amp, nominal values."""
     from railroom.engine.methods.corners import corner_values
     from railroom.engine.opamp import inverse_open_loop, laplace_grid
+
     s = laplace_grid(np.array([chain.source.band[1]]))
     errors: list[float | None] = []
     differential = chain.source.differential
@@ -115,8 +154,7 @@ def gain_errors(chain: Chain, plans) -> list[float | None]:
         h_real = sum(real.transfers.get(k, 0) * (-1) ** i for i, k in enumerate(signal))
         h_ideal = sum(ideal.transfers.get(k, 0) * (-1) ** i for i, k in enumerate(signal))
         magnitude = abs(complex(np.ravel(h_ideal)[-1]))
-        errors.append(None if magnitude == 0 else
-                      float(1.0 - abs(complex(np.ravel(h_real)[-1])) / magnitude))
+        errors.append(None if magnitude == 0 else float(1.0 - abs(complex(np.ravel(h_real)[-1])) / magnitude))
         differential = False
     return errors
 
@@ -125,6 +163,7 @@ def linear_room(results) -> float:
     """Least margin of the linear checks over the stages, each relative to its own scale;
     negative once any stage leaves its linear regime (saturated-by-design stages excepted)."""
     from railroom.engine.checks import LINEAR_CHECKS
+
     room = np.inf
     for result in results:
         if result.regime == "saturated":
@@ -159,7 +198,7 @@ def headroom_db(prepared: corners.Prepared, at_full_scale=None) -> float | None:
     if prepared.chain.source.amplitude <= 0:
         return None
     if all(plan.block.saturates or plan.block.window_only for plan in prepared.plans):
-        return None        # no stage with a linear regime to leave: no headroom to quote
+        return None  # no stage with a linear regime to leave: no headroom to quote
 
     def room(scale: float) -> float:
         return linear_room(corners.run(prepared, scale=scale))
@@ -180,7 +219,7 @@ def headroom_db(prepared: corners.Prepared, at_full_scale=None) -> float | None:
             break
         guess = high - room_high * (high - low) / (room_high - room_low)
         guess = min(max(guess, low + 1e-9 * high), high - 1e-9 * high)
-        if low > 0 and guess / low < 10 ** (0.004 / 20):     # creep: step past the edge
+        if low > 0 and guess / low < 10 ** (0.004 / 20):  # creep: step past the edge
             guess = low * 10 ** (0.005 / 20)
         value = room(guess)
         if value >= 0:
@@ -207,12 +246,13 @@ def load_checked(path: str, extra_preset_dirs: tuple[str, ...] = (), strict: boo
     silently be missing; the interface opens the chain and shows these as a notice instead."""
     from railroom.engine.files import load_chain
     from railroom.engine.presets import load_library, missing_folders, search_order
+
     missing = missing_folders(extra_preset_dirs) if strict else []
     try:
         chain = load_chain(path, check_folders=strict)
-    except InputError as err:       # name unknown parts in the same round as the other problems
+    except InputError as err:  # name unknown parts in the same round as the other problems
         found = [*err.problems, *unknown_parts_in_text(path, extra_preset_dirs)]
-        raise InputError([*missing, *sorted(found, key=lambda p: (p.line or 0))]) from None
+        raise InputError([*missing, *sorted(found, key=lambda p: p.line or 0)]) from None
     library = load_library(search_order(chain.preset_dirs, extra_preset_dirs))
     try:
         plan_chain(chain, library.parts)
@@ -231,6 +271,7 @@ def unknown_parts_in_text(path: str, extra_preset_dirs: tuple[str, ...] = ()) ->
     from railroom.engine.presets import load_library, search_order
     from railroom.engine.reading import FileUnreadable, parse_toml, read_user_file
     from railroom.engine.toml_lines import key_lines
+
     try:
         text = read_user_file(path).removeprefix("\ufeff")
     except FileUnreadable:
@@ -240,8 +281,11 @@ def unknown_parts_in_text(path: str, extra_preset_dirs: tuple[str, ...] = ()) ->
     if not isinstance(stages, list):
         return []
     named = data.get("presets", [])
-    folders = tuple(str(Path(path).parent / p) for p in named if isinstance(p, str)) \
-        if isinstance(named, list) else ()
+    folders = (
+        tuple(str(Path(path).parent / p) for p in named if isinstance(p, str))
+        if isinstance(named, list)
+        else ()
+    )
     parts = load_library(search_order(folders, extra_preset_dirs)).parts
     lines = key_lines(text)
     found = []

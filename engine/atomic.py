@@ -9,6 +9,7 @@ link stays. A read-only file is refused, never replaced. A new file gets the per
 user's umask gives (as any editor's new file would), an existing one keeps its own. Temporary files
 left by a save that was killed are removed by the next save of the same file.
 """
+
 from __future__ import annotations
 
 import errno
@@ -22,7 +23,7 @@ from pathlib import Path
 Fingerprint = tuple[int, int, str]
 
 
-HASHED_BYTES = 16 << 20      # a file's first 16 MiB are hashed (every second, by the watcher)
+HASHED_BYTES = 16 << 20  # a file's first 16 MiB are hashed (every second, by the watcher)
 
 
 def fingerprint(path: str | Path) -> Fingerprint | None:
@@ -62,20 +63,26 @@ def is_read_only(path: Path) -> bool:
 
 
 def write_atomic(path: str | Path, text: str, backup: bool = False) -> None:
-    path = Path(os.path.realpath(path))            # through a symbolic link, to its target
+    path = Path(os.path.realpath(path))  # through a symbolic link, to its target
     folder = path.parent
     exists = path.exists()
     if exists and is_read_only(path):
-        raise PermissionError(errno.EACCES, "the file is read-only, so it was not replaced "
-                              "(make it writable, or save under another name)", str(path))
+        raise PermissionError(
+            errno.EACCES,
+            "the file is read-only, so it was not replaced (make it writable, or save under another name)",
+            str(path),
+        )
     if backup and exists:
         write_atomic(path.with_name(path.name + ".bak"), path.read_text(encoding="utf-8"))
     remove_leftovers(path)
     try:
         handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
-    except OSError as err:      # name the file being saved, not the hidden temporary one
-        raise type(err)(err.errno, f"{err.strerror} (no new file can be made in {folder}, "
-                        "which the save needs)", str(path)) from None
+    except OSError as err:  # name the file being saved, not the hidden temporary one
+        raise type(err)(
+            err.errno,
+            f"{err.strerror} (no new file can be made in {folder}, which the save needs)",
+            str(path),
+        ) from None
     try:
         with os.fdopen(handle, "w", encoding="utf-8", newline="") as stream:
             stream.write(text)

@@ -7,6 +7,7 @@ reference (methods/per_draw.py: a Python loop with a nodal solve per stage and d
 `reference_draws` draws of the Monte Carlo sequence, checks that every margin agrees with the
 vectorised walk on the same draws, and scales its time per draw to the vectorised run's draw count.
 """
+
 from __future__ import annotations
 
 import statistics
@@ -23,20 +24,52 @@ from railroom.engine.model import Part
 from railroom.engine.plan import plan_chain
 
 BENCH_FORMAT = 1
-AGREE = 1e-6                 # relative agreement of every margin (plus the same in absolute)
+AGREE = 1e-6  # relative agreement of every margin (plus the same in absolute)
 
 _PART = dict(description="generic illustrative class", supply_abs_max=40.0, offset_drift=5e-6)
 PARTS = {
-    "bipolar": Part(id="bipolar", supply=(10.0, 36.0), output_headroom=(1.5, 1.5), output_resistance=75.0,
-                    input_headroom=(2.0, 2.0), gbw=1e6, slew=0.5e6, open_loop_gain=1e5, offset=3e-3,
-                    bias_current=100e-9, output_current=20e-3, **_PART),
-    "precision": Part(id="precision", supply=(4.5, 36.0), output_headroom=(1.2, 1.2), output_resistance=60.0,
-                      input_headroom=(1.5, 1.5), gbw=1.5e6, slew=0.5e6, open_loop_gain=3e6, offset=50e-6,
-                      bias_current=2e-9, output_current=15e-3, **_PART),
-    "rro": Part(id="rro", supply=(2.7, 5.5), output_headroom=(0.03, 0.03), output_resistance=40.0,
-                input_headroom=(-0.1, -0.1), gbw=1e6, slew=0.6e6, open_loop_gain=1e5, offset=2e-3,
-                bias_current=1e-12, output_current=20e-3,
-                **{**_PART, "supply_abs_max": 6.0}),
+    "bipolar": Part(
+        id="bipolar",
+        supply=(10.0, 36.0),
+        output_headroom=(1.5, 1.5),
+        output_resistance=75.0,
+        input_headroom=(2.0, 2.0),
+        gbw=1e6,
+        slew=0.5e6,
+        open_loop_gain=1e5,
+        offset=3e-3,
+        bias_current=100e-9,
+        output_current=20e-3,
+        **_PART,
+    ),
+    "precision": Part(
+        id="precision",
+        supply=(4.5, 36.0),
+        output_headroom=(1.2, 1.2),
+        output_resistance=60.0,
+        input_headroom=(1.5, 1.5),
+        gbw=1.5e6,
+        slew=0.5e6,
+        open_loop_gain=3e6,
+        offset=50e-6,
+        bias_current=2e-9,
+        output_current=15e-3,
+        **_PART,
+    ),
+    "rro": Part(
+        id="rro",
+        supply=(2.7, 5.5),
+        output_headroom=(0.03, 0.03),
+        output_resistance=40.0,
+        input_headroom=(-0.1, -0.1),
+        gbw=1e6,
+        slew=0.6e6,
+        open_loop_gain=1e5,
+        offset=2e-3,
+        bias_current=1e-12,
+        output_current=20e-3,
+        **{**_PART, "supply_abs_max": 6.0},
+    ),
 }
 
 STAGES = [
@@ -105,8 +138,12 @@ level = ["-0.1", "0.1"]
 amplitude = "100m"
 band = ["10", "1k"]
 """
-    cycle: tuple[tuple[str, dict[str, str]], ...] = (("follower", {}), ("inverting", {"rin": "10k", "rf": "10k"}),
-             ("follower", {}), ("rc_lowpass", {"r": "1k", "c": "10n"}))
+    cycle: tuple[tuple[str, dict[str, str]], ...] = (
+        ("follower", {}),
+        ("inverting", {"rin": "10k", "rf": "10k"}),
+        ("follower", {}),
+        ("rc_lowpass", {"r": "1k", "c": "10n"}),
+    )
     for i in range(1, stages + 1):
         block, fields = cycle[(i - 1) % len(cycle)]
         if failing and i == 3:
@@ -120,10 +157,22 @@ band = ["10", "1k"]
 # A follower whose output-high margin is linear in the positive rail and the offset, normal
 # tolerances: m = 1.19 + 0.75 d_r - 0.003 d_o with d = 3 sigma, so P(m < 0) = Phi(-1.19 / 0.25)
 # = 9.68e-7 (tests/engine/test_rare_events.py derives it).
-RARE_PART = Part(id="rare", description="bench: a follower near its ceiling", supply=(1.0, 100.0),
-                 supply_abs_max=100.0, output_headroom=(1.5, 1.5), output_resistance=0.0,
-                 input_headroom=(0.5, 0.5), gbw=1e9, slew=1e9, open_loop_gain=1e9, offset=3e-3,
-                 offset_drift=0.0, bias_current=0.0, output_current=1.0)
+RARE_PART = Part(
+    id="rare",
+    description="bench: a follower near its ceiling",
+    supply=(1.0, 100.0),
+    supply_abs_max=100.0,
+    output_headroom=(1.5, 1.5),
+    output_resistance=0.0,
+    input_headroom=(0.5, 0.5),
+    gbw=1e9,
+    slew=1e9,
+    open_loop_gain=1e9,
+    offset=3e-3,
+    offset_drift=0.0,
+    bias_current=0.0,
+    output_current=1.0,
+)
 RARE_TEXT = """format = 1
 title = "bench: a one-in-a-million failure"
 [conditions]
@@ -153,9 +202,11 @@ def rare_figures() -> dict:
     result = analyse(chain, parts)
     seconds = time.perf_counter() - start
     rare = result.rare
-    return {"rare_1e6_ms": round(1e3 * seconds, 1),
-            "rare_1e6_ratio": None if rare is None else round(rare.probability / RARE_EXACT, 3),
-            "rare_1e6_interval_holds": None if rare is None else bool(rare.low <= RARE_EXACT <= rare.high)}
+    return {
+        "rare_1e6_ms": round(1e3 * seconds, 1),
+        "rare_1e6_ratio": None if rare is None else round(rare.probability / RARE_EXACT, 3),
+        "rare_1e6_interval_holds": None if rare is None else bool(rare.low <= RARE_EXACT <= rare.high),
+    }
 
 
 def long_chain_figures(repeats: int = 3) -> dict:
@@ -167,11 +218,13 @@ def long_chain_figures(repeats: int = 3) -> dict:
             times = {}
             for n in (48, 200):
                 chain = chain_from_text(long_chain_text(n, failing), "<bench>")
-                times[n] = median_seconds(lambda chain=chain, method=method: analyse(chain, PARTS, method=method),
-                                          repeats)
+                times[n] = median_seconds(
+                    lambda chain=chain, method=method: analyse(chain, PARTS, method=method), repeats
+                )
                 figures[f"{method}_{n}{'_failing' if failing else ''}_ms"] = round(1e3 * times[n], 1)
             figures[f"{method}{'_failing' if failing else ''}_exponent"] = round(
-                float(np.log(times[200] / times[48]) / np.log(200 / 48)), 2)
+                float(np.log(times[200] / times[48]) / np.log(200 / 48)), 2
+            )
     return figures
 
 
@@ -219,15 +272,21 @@ def per_draw_comparison(chain, rows: int, reference_draws: int, repeats: int) ->
     return reference_s / vector_s, agree(vector, reference)
 
 
-def run(sizes: tuple[int, int, int] = (10_000, 100_000, 1_000_000), repeats: int = 5,
-        reference_draws: int = 200, memory: bool = True, long_chains: bool = True) -> dict:
+def run(
+    sizes: tuple[int, int, int] = (10_000, 100_000, 1_000_000),
+    repeats: int = 5,
+    reference_draws: int = 200,
+    memory: bool = True,
+    long_chains: bool = True,
+) -> dict:
     """Engine figures of SPEC section 6; the keys the engine cannot measure are left out."""
     chain = reference_chain()
 
     def timed(method: str, samples: int | None = None, count: int = repeats) -> float:
-        analyse(chain, PARTS, method=method, samples=samples)       # warm caches and imports
-        return round(1e3 * median_seconds(
-            lambda: analyse(chain, PARTS, method=method, samples=samples), count), 2)
+        analyse(chain, PARTS, method=method, samples=samples)  # warm caches and imports
+        return round(
+            1e3 * median_seconds(lambda: analyse(chain, PARTS, method=method, samples=samples), count), 2
+        )
 
     small, middle, large = sizes
     figures = {
@@ -237,13 +296,15 @@ def run(sizes: tuple[int, int, int] = (10_000, 100_000, 1_000_000), repeats: int
         "rss_ms": timed("rss"),
         "montecarlo_1e4_ms": timed("montecarlo", small),
         "montecarlo_1e5_ms": timed("montecarlo", middle, max(1, repeats // 2)),
-        "montecarlo_1e6_ms": round(1e3 * median_seconds(
-            lambda: analyse(chain, PARTS, method="montecarlo", samples=large), 1), 2),
+        "montecarlo_1e6_ms": round(
+            1e3 * median_seconds(lambda: analyse(chain, PARTS, method="montecarlo", samples=large), 1), 2
+        ),
         "montecarlo_1e6_peak_mb": None,
     }
     if memory:
-        figures["montecarlo_1e6_peak_mb"] = round(peak_megabytes(
-            lambda: analyse(chain, PARTS, method="montecarlo", samples=large)), 1)
+        figures["montecarlo_1e6_peak_mb"] = round(
+            peak_megabytes(lambda: analyse(chain, PARTS, method="montecarlo", samples=large)), 1
+        )
     ratio, same = per_draw_comparison(chain, small, reference_draws, repeats)
     figures["per_draw_ratio"] = round(ratio, 1)
     figures["same_answers"] = bool(same)

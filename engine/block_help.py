@@ -6,16 +6,22 @@ textbook ones for each circuit (node equations with an ideal op amp; the filter 
 Sallen and Key, IRE Trans. Circuit Theory, 1955, and the multiple-feedback forms of standard active
 filter texts); the engine itself solves every loop with the part's finite gain and bandwidth.
 """
+
 from __future__ import annotations
 
 from railroom.engine.blocks import BLOCKS, COMMON_FIELDS
 from railroom.engine.blocks.base import Block
 
-KIND_UNITS = {"resistance": "ohm", "capacitance": "F", "voltage": "V", "flag": "true/false",
-              "inputs": "list of {r, v}"}
+KIND_UNITS = {
+    "resistance": "ohm",
+    "capacitance": "F",
+    "voltage": "V",
+    "flag": "true/false",
+    "inputs": "list of {r, v}",
+}
 
 COMMON_HELP = {
-    "name": "the stage's name in reports (default \"stage N\")",
+    "name": 'the stage\'s name in reports (default "stage N")',
     "block": "which circuit the stage is (one of `railroom blocks`)",
     "part": "the op amp's part preset id (blocks with an op amp)",
     "rails": "which [rails.NAME] supplies the op amp (needed when a chain has more than one)",
@@ -51,9 +57,16 @@ def describe(name: str) -> dict | None:
         "uses_part": block.uses_part,
         "saturates": block.saturates,
         "differential_input": block.takes_differential,
-        "fields": [{"key": key, "kind": spec.kind, "unit": KIND_UNITS.get(spec.kind, ""),
-                    "default": _default(spec), "connects": spec.help}
-                   for key, spec in block.fields.items()],
+        "fields": [
+            {
+                "key": key,
+                "kind": spec.kind,
+                "unit": KIND_UNITS.get(spec.kind, ""),
+                "default": _default(spec),
+                "connects": spec.help,
+            }
+            for key, spec in block.fields.items()
+        ],
         "common_fields": [{"key": key, "help": COMMON_HELP[key]} for key in common],
         "ideal": list(block.ideal),
     }

@@ -4,6 +4,7 @@ Margins are volts for voltage checks, V/s for slew (available - needed), amperes
 (available - needed), volts for supply (room inside the part's allowed span); negative means
 violated (SPEC section 5).
 """
+
 from __future__ import annotations
 
 from railroom.engine.blocks import BLOCKS
@@ -13,8 +14,8 @@ from railroom.engine.model import Chain, Part, Rails
 from railroom.engine.part_limits import DIFFERENTIAL_CHECK, differential_margin
 from railroom.engine.results import VOLTAGE_CHECKS, StageMeasure, StageResult
 
-GAIN_ERROR_CAUTION = 0.01      # SPEC section 5: a caution above 1 %
-SELV_DC_LIMIT = 60.0           # V DC between conductors: SELV (IEC 60335-1, 3.4.2), ES1 (IEC 62368-1)
+GAIN_ERROR_CAUTION = 0.01  # SPEC section 5: a caution above 1 %
+SELV_DC_LIMIT = 60.0  # V DC between conductors: SELV (IEC 60335-1, 3.4.2), ES1 (IEC 62368-1)
 LINEAR_CHECKS = (*VOLTAGE_CHECKS, "slew", "current")
 
 
@@ -23,13 +24,19 @@ def opamp_margins(measure: StageMeasure) -> tuple[dict[str, float], dict[str, st
     margins: dict[str, float] = {}
     nodes: dict[str, str] = {}
     for amp in measure.opamps:
-        found = {"input-high": amp.input_window[1] - amp.input[1],
-                 "input-low": amp.input[0] - amp.input_window[0],
-                 "current": amp.current_available - amp.current_needed}
+        found = {
+            "input-high": amp.input_window[1] - amp.input[1],
+            "input-low": amp.input[0] - amp.input_window[0],
+            "current": amp.current_available - amp.current_needed,
+        }
         if not measure.saturated:
-            found.update({"output-high": amp.window[1] - amp.output[1],
-                          "output-low": amp.output[0] - amp.window[0],
-                          "slew": amp.slew_available - amp.slew_needed})
+            found.update(
+                {
+                    "output-high": amp.window[1] - amp.output[1],
+                    "output-low": amp.output[0] - amp.window[0],
+                    "slew": amp.slew_available - amp.slew_needed,
+                }
+            )
         for check, value in found.items():
             if check not in margins or value < margins[check]:
                 margins[check] = value
@@ -61,9 +68,12 @@ def judge(measure: StageMeasure, part: Part | None, rails: Rails, required: floa
     if part is not None:
         margins["supply"] = supply_margin(part, rails)
     margins = {c: met_at_equality(m, check_scale(c, part, rails)) for c, m in margins.items()}
-    leaves_linear = any(margins.get(c, 0.0) < 0 for c in LINEAR_CHECKS
-                        if not (block.saturates and c not in ("input-high", "input-low", "current")))
-    if part is not None and (block.saturates or leaves_linear):   # open loop, or broken by clipping
+    leaves_linear = any(
+        margins.get(c, 0.0) < 0
+        for c in LINEAR_CHECKS
+        if not (block.saturates and c not in ("input-high", "input-low", "current"))
+    )
+    if part is not None and (block.saturates or leaves_linear):  # open loop, or broken by clipping
         margins.update(differential_margin(part, measure.input_differential))
     if block.saturates:
         regime = "saturated"
@@ -77,8 +87,13 @@ def judge(measure: StageMeasure, part: Part | None, rails: Rails, required: floa
         reasons.append("fed-clipped")
     go = not reasons and (regime == "saturated") == block.saturates
     return StageResult(
-        measure=measure, regime=regime, go=go, reasons=tuple(reasons), margins=margins,
-        limiting=limiting_check(margins, rails, part), failing_nodes=nodes,
+        measure=measure,
+        regime=regime,
+        go=go,
+        reasons=tuple(reasons),
+        margins=margins,
+        limiting=limiting_check(margins, rails, part),
+        failing_nodes=nodes,
         cautions=tuple(stage_cautions(measure, part, rails)),
     )
 
@@ -98,19 +113,27 @@ def limiting_check(margins: dict[str, float], rails: Rails, part: Part | None) -
 def stage_cautions(measure: StageMeasure, part: Part | None, rails: Rails) -> list[str]:
     cautions = []
     if measure.gain_error is not None and measure.gain_error > GAIN_ERROR_CAUTION:
-        cautions.append(f"closed-loop gain falls {measure.gain_error:.1%} short at the top of the "
-                        "band: the part's gain-bandwidth is low for this noise gain")
+        cautions.append(
+            f"closed-loop gain falls {measure.gain_error:.1%} short at the top of the "
+            "band: the part's gain-bandwidth is low for this noise gain"
+        )
     if part is not None and rails.span_range[1] > part.supply_abs_max:
-        cautions.append(f"the supply can reach {rails.span_range[1]:.3g} V, above the part's "
-                        f"absolute maximum of {part.supply_abs_max:.3g} V: the part may be damaged")
+        cautions.append(
+            f"the supply can reach {rails.span_range[1]:.3g} V, above the part's "
+            f"absolute maximum of {part.supply_abs_max:.3g} V: the part may be damaged"
+        )
     if measure.reaches is not None:
         low, high = measure.always if measure.always is not None else measure.reaches
         if not high:
-            cautions.append("the input may never cross the threshold upward at every tolerance "
-                            "corner, so the output can stick low")
+            cautions.append(
+                "the input may never cross the threshold upward at every tolerance "
+                "corner, so the output can stick low"
+            )
         if not low:
-            cautions.append("the input may never cross the threshold downward at every tolerance "
-                            "corner, so the output can stick high")
+            cautions.append(
+                "the input may never cross the threshold downward at every tolerance "
+                "corner, so the output can stick high"
+            )
     return cautions
 
 
@@ -122,12 +145,14 @@ def chain_cautions(chain: Chain) -> list[str]:
         cautions.append(
             f"{chain.path}: source.band: the AC amplitude of {source.amplitude:.3g} V is checked "
             "at 1 Hz only (no band given): write band = [lowest, highest] for the frequencies "
-            'it has, or ["0", "0"] for a DC swing')
+            'it has, or ["0", "0"] for a DC swing'
+        )
     for rails in chain.rails.values():
         top = rails.span_range[1]
         if top > SELV_DC_LIMIT:
             cautions.append(
                 f"rails {rails.name!r} span up to {top:.3g} V between conductors, above the 60 V DC "
                 "limit of safety extra-low voltage (SELV in IEC 60335-1, ES1 in IEC 62368-1): "
-                "follow local codes and licensed practice for insulation, clearances and protection")
+                "follow local codes and licensed practice for insulation, clearances and protection"
+            )
     return cautions

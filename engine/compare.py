@@ -12,6 +12,7 @@ added entry says `renamed_from`). Entries whose verdict flipped come first, then
 new chain's order, removed stages last. Reading `REV:PATH` asks git (`git show REV:PATH`) when git
 is there; the old chain's preset folders are resolved against the working-tree location of PATH.
 """
+
 from __future__ import annotations
 
 import math
@@ -31,34 +32,46 @@ _PAIR = {"type": "array", "minItems": 2, "maxItems": 2}
 # JSON Schema (draft-07) of the report's "against" section; engine/schema.py's report schema
 # leaves extra top-level keys open, so a report with this section validates there too.
 AGAINST_SCHEMA = {
-    "type": "object", "required": ["file", "verdict", "stages"],
+    "type": "object",
+    "required": ["file", "verdict", "stages"],
     "properties": {
-        "file": {"type": "string"}, "verdict": {"enum": ["go", "no-go"]},
-        "stages": {"type": "array", "items": {
-            "type": "object", "required": ["name", "change", "margins"],
-            "properties": {
-                "name": {"type": "string"}, "change": {"enum": list(CHANGES)},
-                "margins": {"type": "object", "propertyNames": {"enum": list(CHECKS)},
-                            "additionalProperties": {**_PAIR, "items": _NUMBER}},
-                "go": {**_PAIR, "items": {"type": ["boolean", "null"]}},
-                "regime": {**_PAIR, "items": {"enum": ["linear", "clipping", "saturated", None]}},
-                "renamed_from": {"type": "string"}}}}},
+        "file": {"type": "string"},
+        "verdict": {"enum": ["go", "no-go"]},
+        "stages": {
+            "type": "array",
+            "items": {
+                "type": "object",
+                "required": ["name", "change", "margins"],
+                "properties": {
+                    "name": {"type": "string"},
+                    "change": {"enum": list(CHANGES)},
+                    "margins": {
+                        "type": "object",
+                        "propertyNames": {"enum": list(CHECKS)},
+                        "additionalProperties": {**_PAIR, "items": _NUMBER},
+                    },
+                    "go": {**_PAIR, "items": {"type": ["boolean", "null"]}},
+                    "regime": {**_PAIR, "items": {"enum": ["linear", "clipping", "saturated", None]}},
+                    "renamed_from": {"type": "string"},
+                },
+            },
+        },
+    },
 }
 
 
 @dataclass(frozen=True)
 class StageChange:
     name: str
-    change: str                                   # changed | same | added | removed
+    change: str  # changed | same | added | removed
     before: StageResult | None
     after: StageResult | None
-    margins: dict[str, tuple[float | None, float | None]]   # changed margins only
+    margins: dict[str, tuple[float | None, float | None]]  # changed margins only
     renamed_from: str | None = None
 
     @property
     def verdict_flipped(self) -> bool:
-        return (self.before is not None and self.after is not None
-                and self.before.go != self.after.go)
+        return self.before is not None and self.after is not None and self.before.go != self.after.go
 
 
 def _moved(a: float | None, b: float | None) -> bool:
@@ -71,8 +84,13 @@ def _moved(a: float | None, b: float | None) -> bool:
 
 def _definition(s: StageResult) -> tuple:
     stage = s.stage
-    return (stage.block, stage.part, stage.rails, repr(stage.load),
-            tuple(sorted((k, repr(v)) for k, v in stage.values.items())))
+    return (
+        stage.block,
+        stage.part,
+        stage.rails,
+        repr(stage.load),
+        tuple(sorted((k, repr(v)) for k, v in stage.values.items())),
+    )
 
 
 def _keyed(result: ChainResult) -> dict[tuple[str, int], StageResult]:
@@ -85,13 +103,17 @@ def _keyed(result: ChainResult) -> dict[tuple[str, int], StageResult]:
     return keyed
 
 
-def margin_changes(before: StageResult | None, after: StageResult | None
-                   ) -> dict[str, tuple[float | None, float | None]]:
+def margin_changes(
+    before: StageResult | None, after: StageResult | None
+) -> dict[str, tuple[float | None, float | None]]:
     """Each check whose margin moved (or exists on one side only): (before, after)."""
     old = before.margins if before is not None else {}
     new = after.margins if after is not None else {}
-    return {c: (old.get(c), new.get(c)) for c in CHECKS
-            if (c in old or c in new) and _moved(old.get(c), new.get(c))}
+    return {
+        c: (old.get(c), new.get(c))
+        for c in CHECKS
+        if (c in old or c in new) and _moved(old.get(c), new.get(c))
+    }
 
 
 def compare_results(old: ChainResult, new: ChainResult) -> list[StageChange]:
@@ -103,14 +125,21 @@ def compare_results(old: ChainResult, new: ChainResult) -> list[StageChange]:
         margins = margin_changes(before, after)
         if before is None:
             change = "added"
-        elif (margins or before.regime != after.regime or before.go != after.go
-              or _definition(before) != _definition(after)):
+        elif (
+            margins
+            or before.regime != after.regime
+            or before.go != after.go
+            or _definition(before) != _definition(after)
+        ):
             change = "changed"
         else:
             change = "same"
         changes.append(StageChange(key[0], change, before, after, margins))
-    removed = [StageChange(key[0], "removed", before, None, margin_changes(before, None))
-               for key, before in old_keyed.items() if key not in new_keyed]
+    removed = [
+        StageChange(key[0], "removed", before, None, margin_changes(before, None))
+        for key, before in old_keyed.items()
+        if key not in new_keyed
+    ]
     changes = _mark_renames(changes, removed) + removed
     flipped = [c for c in changes if c.verdict_flipped]
     return flipped + [c for c in changes if not c.verdict_flipped]
@@ -132,13 +161,17 @@ def against_report(old: ChainResult, new: ChainResult, label: str) -> dict:
     """The report's "against" section: the old file, its verdict, and every stage's change."""
     stages = []
     for c in compare_results(old, new):
-        entry: dict[str, object] = {"name": c.name, "change": c.change,
-                 "margins": {k: [_number(a), _number(b)] for k, (a, b) in c.margins.items()}}
+        entry: dict[str, object] = {
+            "name": c.name,
+            "change": c.change,
+            "margins": {k: [_number(a), _number(b)] for k, (a, b) in c.margins.items()},
+        }
         # extensions (README): the verdict and regime on each side, a probable rename
-        entry["go"] = [None if c.before is None else c.before.go,
-                       None if c.after is None else c.after.go]
-        entry["regime"] = [None if c.before is None else c.before.regime,
-                           None if c.after is None else c.after.regime]
+        entry["go"] = [None if c.before is None else c.before.go, None if c.after is None else c.after.go]
+        entry["regime"] = [
+            None if c.before is None else c.before.regime,
+            None if c.after is None else c.after.regime,
+        ]
         if c.renamed_from is not None:
             entry["renamed_from"] = c.renamed_from
         stages.append(entry)
@@ -147,13 +180,14 @@ def against_report(old: ChainResult, new: ChainResult, label: str) -> dict:
 
 # ---- reading the old version ------------------------------------------------------------------
 
+
 def split_revision(spec: str) -> tuple[str, str] | None:
     """`REV:PATH` -> (REV, PATH) when spec is not an existing file and looks like one."""
     if Path(spec).exists() or ":" not in spec:
         return None
     rev, _, path = spec.partition(":")
     if not rev or not path or (len(rev) == 1 and rev.isalpha() and path[:1] in "\\/"):
-        return None            # a Windows drive letter, not a revision
+        return None  # a Windows drive letter, not a revision
     return rev, path
 
 
@@ -164,15 +198,15 @@ def read_revision(spec: str, rev: str, path: str) -> tuple[str, Path]:
     if git is None:
         raise problem("is neither a file nor readable as REV:PATH: git is not installed")
     try:
-        top = subprocess.run([git, "rev-parse", "--show-toplevel"], capture_output=True,
-                             text=True, timeout=30)
+        top = subprocess.run(
+            [git, "rev-parse", "--show-toplevel"], capture_output=True, text=True, timeout=30
+        )
         shown = subprocess.run([git, "show", f"{rev}:{path}"], capture_output=True, timeout=30)
     except (OSError, subprocess.SubprocessError) as err:
         raise problem(f"git could not run: {err}") from None
     if shown.returncode != 0:
         reason = shown.stderr.decode("utf-8", "replace").strip().splitlines()
-        raise problem("is neither a file nor readable with git show"
-                      + (f": {reason[0]}" if reason else ""))
+        raise problem("is neither a file nor readable with git show" + (f": {reason[0]}" if reason else ""))
     try:
         text = shown.stdout.decode("utf-8")
     except UnicodeDecodeError as err:
@@ -189,6 +223,7 @@ def load_against(spec: str, extra_preset_dirs: tuple[str, ...] = ()):
     from railroom.engine.files import chain_from_text
     from railroom.engine.plan import plan_chain
     from railroom.engine.presets import load_library, search_order
+
     revision = split_revision(spec)
     if revision is None:
         return load_checked(spec, extra_preset_dirs)
@@ -202,8 +237,12 @@ def load_against(spec: str, extra_preset_dirs: tuple[str, ...] = ()):
     try:
         plan_chain(chain, library.parts)
     except InputError as err:
-        raise InputError([replace(p, file=spec) if p.file == str(worktree_path) else p
-                          for p in (*err.problems, *library.problems)]) from None
+        raise InputError(
+            [
+                replace(p, file=spec) if p.file == str(worktree_path) else p
+                for p in (*err.problems, *library.problems)
+            ]
+        ) from None
     return chain, library
 
 
@@ -226,6 +265,7 @@ def change_words(c: StageChange) -> str:
 
 def margin_value(check: str, value: float | None) -> str:
     from railroom.engine.values import format_si
+
     return "-" if value is None else format_si(value, CHECK_UNITS.get(check, "V"))
 
 
@@ -236,23 +276,40 @@ def change_rows(changes: list[StageChange]) -> list[tuple[str, str, str, str, st
         if not c.margins:
             rows.append((c.name, change_words(c), "-", "-", "-"))
         for i, (check, (a, b)) in enumerate(c.margins.items()):
-            rows.append((c.name if i == 0 else "", change_words(c) if i == 0 else "", check,
-                         margin_value(check, a), margin_value(check, b)))
+            rows.append(
+                (
+                    c.name if i == 0 else "",
+                    change_words(c) if i == 0 else "",
+                    check,
+                    margin_value(check, a),
+                    margin_value(check, b),
+                )
+            )
     return rows
 
 
 def verdict_line(old: ChainResult, new: ChainResult, label: str) -> str:
     before, after = ("GO" if old.go else "NO-GO"), ("GO" if new.go else "NO-GO")
     moved = sum(c.change != "same" for c in compare_results(old, new))
-    return (f"against {label}: verdict {before} -> {after}; {moved} of "
-            f"{len(_keyed(old).keys() | _keyed(new).keys())} stages changed, added or removed")
+    return (
+        f"against {label}: verdict {before} -> {after}; {moved} of "
+        f"{len(_keyed(old).keys() | _keyed(new).keys())} stages changed, added or removed"
+    )
 
 
 def against_markdown(old: ChainResult, new: ChainResult, label: str) -> str:
     """The Markdown section of the comparison (user text escaped as in the review report)."""
     from railroom.engine.markdown import md
-    lines = [f"## What changed against {md(label)}", "", md(verdict_line(old, new, label)) + ".",
-             "", "| stage | change | check | before | after |", "|---|---|---|---:|---:|"]
-    lines += ["| " + " | ".join(md(cell) for cell in row) + " |"
-              for row in change_rows(compare_results(old, new))]
+
+    lines = [
+        f"## What changed against {md(label)}",
+        "",
+        md(verdict_line(old, new, label)) + ".",
+        "",
+        "| stage | change | check | before | after |",
+        "|---|---|---|---:|---:|",
+    ]
+    lines += [
+        "| " + " | ".join(md(cell) for cell in row) + " |" for row in change_rows(compare_results(old, new))
+    ]
     return "\n".join(lines)

@@ -19,6 +19,7 @@ resistance, or the Thevenin impedance of the passive stage before it per row and
 a single number in the block interface; it is taken at its worst over the tolerance, as the
 corners method takes it, so a row never depends on the other rows beside it.
 """
+
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
@@ -43,11 +44,11 @@ SATURATED_CHECKS = ("input-high", "input-low", "current")
 class Variable:
     """One column of the deviate matrix."""
 
-    stage: int | None        # plan index (1-based); None for rails
-    quantity: str            # field name, "offset", "bias", or "rails.<name>.positive|negative"
-    kind: str                # tolerance | tempco | offset | drift | bias | rail
-    scale: float             # the deviation at d = 1: a fraction, or volts / amperes / V per C
-    amp: int = 0             # op amp index inside the stage (offset, drift, bias)
+    stage: int | None  # plan index (1-based); None for rails
+    quantity: str  # field name, "offset", "bias", or "rails.<name>.positive|negative"
+    kind: str  # tolerance | tempco | offset | drift | bias | rail
+    scale: float  # the deviation at d = 1: a fraction, or volts / amperes / V per C
+    amp: int = 0  # op amp index inside the stage (offset, drift, bias)
 
     @property
     def label(self) -> str:
@@ -65,9 +66,9 @@ class Layout:
     plans: list[StagePlan]
     freqs: np.ndarray
     variables: tuple[Variable, ...]
-    loads: tuple[InputLoad, ...]           # what the next stage's input draws (worst)
-    amps: tuple[int, ...]                  # op amps per stage
-    corner: tuple[StageResult, ...]        # corners results: thresholds and reaches of saturated stages
+    loads: tuple[InputLoad, ...]  # what the next stage's input draws (worst)
+    amps: tuple[int, ...]  # op amps per stage
+    corner: tuple[StageResult, ...]  # corners results: thresholds and reaches of saturated stages
 
     def column(self, stage: int | None, quantity: str, kind: str, amp: int = 0) -> int | None:
         return self.columns.get((stage, quantity, kind, amp))
@@ -87,13 +88,14 @@ class StageDraws:
 
     out_lo: np.ndarray
     out_hi: np.ndarray
-    amps: tuple[dict[str, np.ndarray], ...]    # per op amp: check margins, "out"/"in" spans
-    margins: dict[str, np.ndarray]             # per check: least over the stage's op amps
-    linear: np.ndarray                         # bool: no linear check violated (saturated: inputs, current)
+    amps: tuple[dict[str, np.ndarray], ...]  # per op amp: check margins, "out"/"in" spans
+    margins: dict[str, np.ndarray]  # per check: least over the stage's op amps
+    linear: np.ndarray  # bool: no linear check violated (saturated: inputs, current)
 
 
-def build_layout(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, prepared,
-                 corner: list[StageResult]) -> Layout:
+def build_layout(
+    chain: Chain, plans: list[StagePlan], freqs: np.ndarray, prepared, corner: list[StageResult]
+) -> Layout:
     """Columns for every toleranced quantity; drive and load figures from the corners pass."""
     variables: list[Variable] = []
     amps = []
@@ -107,24 +109,36 @@ def build_layout(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, prepar
         amps.append(count)
         for j in range(count):
             part = plan.part
-            variables += [Variable(plan.index, "offset", "offset", part.offset, j),
-                          Variable(plan.index, "offset", "drift", part.offset_drift, j),
-                          Variable(plan.index, "bias", "bias", hot_bias(part, chain.conditions), j)]
+            variables += [
+                Variable(plan.index, "offset", "offset", part.offset, j),
+                Variable(plan.index, "offset", "drift", part.offset_drift, j),
+                Variable(plan.index, "bias", "bias", hot_bias(part, chain.conditions), j),
+            ]
     for rails in chain.rails.values():
         if rails.tolerance:
-            variables += [Variable(None, f"rails.{rails.name}.positive", "rail", rails.tolerance),
-                          Variable(None, f"rails.{rails.name}.negative", "rail", rails.tolerance)]
+            variables += [
+                Variable(None, f"rails.{rails.name}.positive", "rail", rails.tolerance),
+                Variable(None, f"rails.{rails.name}.negative", "rail", rails.tolerance),
+            ]
     variables = [v for v in variables if v.scale]
     loads = []
     for k in range(len(plans)):
         following = prepared.responses[k + 1] if k + 1 < len(plans) else None
         loads.append(following.input_load if following is not None else InputLoad())
-    return Layout(chain, plans, np.asarray(freqs, dtype=float), tuple(variables),
-                  tuple(loads), tuple(amps), tuple(corner))
+    return Layout(
+        chain,
+        plans,
+        np.asarray(freqs, dtype=float),
+        tuple(variables),
+        tuple(loads),
+        tuple(amps),
+        tuple(corner),
+    )
 
 
 def with_freqs(layout: Layout, freqs: np.ndarray) -> Layout:
     from dataclasses import replace
+
     return replace(layout, freqs=np.asarray(freqs, dtype=float))
 
 
@@ -147,10 +161,12 @@ def stage_values(layout: Layout, plan: StagePlan, D: np.ndarray, dT: np.ndarray)
 
 def row_rails(layout: Layout, plan: StagePlan, D: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     rails = plan.rails
-    pos = rails.positive * (1 + rails.tolerance * _deviate(layout, D, None,
-                                                             f"rails.{rails.name}.positive", "rail"))
-    neg = rails.negative * (1 + rails.tolerance * _deviate(layout, D, None,
-                                                             f"rails.{rails.name}.negative", "rail"))
+    pos = rails.positive * (
+        1 + rails.tolerance * _deviate(layout, D, None, f"rails.{rails.name}.positive", "rail")
+    )
+    neg = rails.negative * (
+        1 + rails.tolerance * _deviate(layout, D, None, f"rails.{rails.name}.negative", "rail")
+    )
     shape = (D.shape[0],)
     return np.broadcast_to(pos, shape), np.broadcast_to(neg, shape)
 
@@ -160,9 +176,12 @@ def row_errors(layout: Layout, plan: StagePlan, D: np.ndarray, dT: np.ndarray):
     part, count, rows = plan.part, layout.amps[plan.index - 1], D.shape[0]
     offsets, bias = np.zeros((rows, count)), np.zeros((rows, count))
     for j in range(count):
-        offsets[:, j] = (part.offset * _deviate(layout, D, plan.index, "offset", "offset", j)
-                         + part.offset_drift * dT * _deviate(layout, D, plan.index, "offset", "drift", j))
-        bias[:, j] = hot_bias(part, layout.chain.conditions) * _deviate(layout, D, plan.index, "bias", "bias", j)
+        offsets[:, j] = part.offset * _deviate(
+            layout, D, plan.index, "offset", "offset", j
+        ) + part.offset_drift * dT * _deviate(layout, D, plan.index, "offset", "drift", j)
+        bias[:, j] = hot_bias(part, layout.chain.conditions) * _deviate(
+            layout, D, plan.index, "bias", "bias", j
+        )
     return offsets, bias
 
 
@@ -171,7 +190,7 @@ def shift_of(node, offsets: np.ndarray, bias: np.ndarray) -> np.ndarray | float:
     if node.offset_gain is None:
         return 0.0
     total = 0.0
-    for j in range(offsets.shape[1]):       # op amps of the stage, not draws
+    for j in range(offsets.shape[1]):  # op amps of the stage, not draws
         total = total + node.offset_gain[:, j] * offsets[:, j] + node.bias_gain[:, j] * bias[:, j]
     return total
 
@@ -184,25 +203,25 @@ def start_signal(chain: Chain, freqs: np.ndarray, rows: int):
     ones = np.ones((rows, len(freqs)), order="F")
     a = source.amplitude
     amplitude = a * ones
-    return Signal(hi=(source.level[1] + a) * ones, lo=(source.level[0] - a) * ones,
-                  amp_lo=amplitude, amp_hi=amplitude)
+    return Signal(
+        hi=(source.level[1] + a) * ones, lo=(source.level[0] - a) * ones, amp_lo=amplitude, amp_hi=amplitude
+    )
 
 
-def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | None = None
-               ) -> list[StageDraws]:
+def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | None = None) -> list[StageDraws]:
     """Every stage for every row of D (see the module docstring). `record` collects the band
     indices where each checked extreme falls (see decisive_freqs)."""
     rows = D.shape[0]
-    D = np.asfortranarray(D)       # each quantity's column contiguous: read column by column below
+    D = np.asfortranarray(D)  # each quantity's column contiguous: read column by column below
     grid = laplace_grid(layout.freqs)
     s = per_row(grid, rows)
     signal = start_signal(layout.chain, layout.freqs, rows)
     clipped = np.zeros(rows, dtype=bool)
     results = []
-    inverse_gains: dict = {}          # 1/A(s) per row, once per part: stages share parts
+    inverse_gains: dict = {}  # 1/A(s) per row, once per part: stages share parts
     drive = layout.chain.source.impedance
-    before = None                     # the previous stage's response (None: saturated, or none)
-    pending = None                    # a passive stage whose shown span the next stage settles
+    before = None  # the previous stage's response (None: saturated, or none)
+    pending = None  # a passive stage whose shown span the next stage settles
     for k, plan in enumerate(layout.plans):
         v = stage_values(layout, plan, D, dT)
         fed, response = signal, None
@@ -213,16 +232,18 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
             if plan.part not in inverse_gains:
                 inverse_gains[plan.part] = per_row(inverse_open_loop(plan.part, grid), rows)
             ig = inverse_gains[plan.part]
-            response = plan.block.respond(v, s, ig, drive, k == 0 and
-                                          layout.chain.source.differential)
+            response = plan.block.respond(v, s, ig, drive, k == 0 and layout.chain.source.differential)
             draws, signal = linear_draws(layout, k, response, v, D, dT, fed, record)
-            drive = response.output_impedance if response.output_impedance is not None \
+            drive = (
+                response.output_impedance
+                if response.output_impedance is not None
                 else response.output_resistance
+            )
         if pending is not None:
-            if k > 0 and shows_input(layout.plans[k - 1:k + 1], (before, response), 1):
+            if k > 0 and shows_input(layout.plans[k - 1 : k + 1], (before, response), 1):
                 # the passive stage before shows this stage's input terminal (stage_walk)
                 results[-1] = shown_input(layout, k, response, v, D, dT, fed, results[-1])
-            else:                         # or its output loaded by this stage's conductance
+            else:  # or its output loaded by this stage's conductance
                 results[-1] = shown_loaded(layout, *pending, results[-1])
         pending = None
         if response is not None and passive_output(plan, response, layout.loads[k]):
@@ -290,10 +311,17 @@ def decisive_from(layout: Layout, record: list) -> np.ndarray:
 
 def head_rows(draws: StageDraws, rows: int) -> StageDraws:
     """The first `rows` rows of a stage's draws (views)."""
+
     def cut(found: dict) -> dict:
         return {k: (cut(x) if isinstance(x, dict) else x[:rows]) for k, x in found.items()}
-    return StageDraws(draws.out_lo[:rows], draws.out_hi[:rows], tuple(cut(a) for a in draws.amps),
-                      cut(draws.margins), draws.linear[:rows])
+
+    return StageDraws(
+        draws.out_lo[:rows],
+        draws.out_hi[:rows],
+        tuple(cut(a) for a in draws.amps),
+        cut(draws.margins),
+        draws.linear[:rows],
+    )
 
 
 def row_temperatures(chain: Chain, uniform: np.ndarray) -> np.ndarray:
@@ -329,25 +357,38 @@ def bounds_of(node, v, signal, offsets, bias, known: dict):
     return known[id(node)][1]
 
 
-def opamp_draws(part, amp, v, signal, offsets, bias, freqs, load: InputLoad, pos, neg,
-                record: list | None, known: dict):
+def opamp_draws(
+    part, amp, v, signal, offsets, bias, freqs, load: InputLoad, pos, neg, record: list | None, known: dict
+):
     """One op amp's margins per row (the per-row twin of stage_walk.opamp_measure)."""
     out = bounds_of(amp.output, v, signal, offsets, bias, known)
     plus = bounds_of(amp.plus, v, signal, offsets, bias, known)
     current = bounds_of(amp.current, v, signal, offsets, bias, known)
     out_hi, out_lo = band_max(out.hi), band_min(out.lo)
     if record is not None:
-        record += [out.hi.argmax(-1), out.lo.argmin(-1), plus.hi.argmax(-1), plus.lo.argmin(-1),
-                   np.maximum(np.abs(current.hi), np.abs(current.lo)).argmax(-1),
-                   (freqs * out.amp_hi).argmax(-1)]
+        record += [
+            out.hi.argmax(-1),
+            out.lo.argmin(-1),
+            plus.hi.argmax(-1),
+            plus.lo.argmin(-1),
+            np.maximum(np.abs(current.hi), np.abs(current.lo)).argmax(-1),
+            (freqs * out.amp_hi).argmax(-1),
+        ]
     sourced, sunk = load_currents(band_max(current.hi), band_min(current.lo), out_hi, out_lo, load)
     drop_high, drop_low = output_drops(part, sourced, sunk)
     low, high = neg + part.output_headroom[1] + drop_low, pos - part.output_headroom[0] - drop_high
     in_hi, in_lo = band_max(plus.hi), band_min(plus.lo)
-    margins = opamp_margins(part, pos, neg, out_hi, out_lo, in_hi, in_lo, sourced, sunk,
-                            slew_needed(freqs, out.amp_hi))
-    spans = {"out-low": out_lo, "out-high": out_hi, "in-low": in_lo, "in-high": in_hi,
-             "window-low": low, "window-high": high}
+    margins = opamp_margins(
+        part, pos, neg, out_hi, out_lo, in_hi, in_lo, sourced, sunk, slew_needed(freqs, out.amp_hi)
+    )
+    spans = {
+        "out-low": out_lo,
+        "out-high": out_hi,
+        "in-low": in_lo,
+        "in-high": in_hi,
+        "window-low": low,
+        "window-high": high,
+    }
     return margins, spans
 
 
@@ -372,10 +413,23 @@ def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None
     known: dict = {}
     out = bounds_of(response.output, v, signal, offsets, bias, known)
     pos, neg = row_rails(layout, plan, D)
-    found = [opamp_draws(plan.part, amp, v, signal, offsets, bias, layout.freqs,
-                         layout.loads[k] if amp.output is response.output else InputLoad(), pos, neg,
-                         record, known)
-             for amp in response.opamps]
+    found = [
+        opamp_draws(
+            plan.part,
+            amp,
+            v,
+            signal,
+            offsets,
+            bias,
+            layout.freqs,
+            layout.loads[k] if amp.output is response.output else InputLoad(),
+            pos,
+            neg,
+            record,
+            known,
+        )
+        for amp in response.opamps
+    ]
     margins = stage_margins([m for m, _ in found], plan, pos, neg)
     out_hi, out_lo = band_max(out.hi), band_min(out.lo)
     if record is not None:
@@ -402,22 +456,33 @@ def clamp_rows(signal: Signal, window, rows: np.ndarray) -> Signal:
     half = np.maximum((high - low) / 2.0, 0.0)
     pick = rows[:, None]
     amp_lo = np.where(pick, np.minimum(signal.amp_lo, half), signal.amp_lo)
-    amp_hi = np.where(pick, np.minimum(signal.amp_hi, half), signal.amp_hi) \
-        if signal.amp_lo is not signal.amp_hi else amp_lo     # one stays one (propagation.py)
-    return Signal(hi=np.where(pick, np.clip(signal.hi, low, high), signal.hi),
-                  lo=np.where(pick, np.clip(signal.lo, low, high), signal.lo),
-                  amp_lo=amp_lo, amp_hi=amp_hi)
+    amp_hi = (
+        np.where(pick, np.minimum(signal.amp_hi, half), signal.amp_hi)
+        if signal.amp_lo is not signal.amp_hi
+        else amp_lo
+    )  # one stays one (propagation.py)
+    return Signal(
+        hi=np.where(pick, np.clip(signal.hi, low, high), signal.hi),
+        lo=np.where(pick, np.clip(signal.lo, low, high), signal.lo),
+        amp_lo=amp_lo,
+        amp_hi=amp_hi,
+    )
 
 
 def saturated_levels_rows(part, pos, neg, conductance):
     """opamp.saturated_levels for one circuit per row: the loaded level at each rail."""
+
     def loaded(level):
-        current = np.minimum(np.abs(level) * conductance / (1 + part.output_resistance * conductance),
-                             part.output_current)
+        current = np.minimum(
+            np.abs(level) * conductance / (1 + part.output_resistance * conductance), part.output_current
+        )
         return level - np.sign(level) * part.output_resistance * current
+
     high_ideal, low_ideal = pos - part.output_headroom[0], neg + part.output_headroom[1]
     if part.output_headroom_curve:
-        return curve_level(part, low_ideal, conductance, False), curve_level(part, high_ideal, conductance, True)
+        return curve_level(part, low_ideal, conductance, False), curve_level(
+            part, high_ideal, conductance, True
+        )
     return np.maximum(loaded(low_ideal), low_ideal), np.minimum(loaded(high_ideal), high_ideal)
 
 
@@ -442,11 +507,19 @@ def saturated_draws(layout: Layout, k: int, v, D, signal):
         thr_lo, thr_hi = min(rise_lo, fall_lo), max(rise_hi, fall_hi)
         reach_low, reach_high = (np.full(rows, r) for r in corner.reaches)
     in_lo, in_hi = np.minimum(sig_lo, thr_lo), np.maximum(sig_hi, thr_hi)
-    margins = {"input-high": pos - part.input_headroom[0] - in_hi,
-               "input-low": in_lo - (neg + part.input_headroom[1]),
-               "current": part.output_current - np.maximum(np.abs(high), np.abs(low)) * conductance}
-    margins.update(differential_margin(part, saturated_differential(
-        plan.stage.block, v, plan.flags, (sig_lo, sig_hi), ((low, low), (high, high)))))
+    margins = {
+        "input-high": pos - part.input_headroom[0] - in_hi,
+        "input-low": in_lo - (neg + part.input_headroom[1]),
+        "current": part.output_current - np.maximum(np.abs(high), np.abs(low)) * conductance,
+    }
+    margins.update(
+        differential_margin(
+            part,
+            saturated_differential(
+                plan.stage.block, v, plan.flags, (sig_lo, sig_hi), ((low, low), (high, high))
+            ),
+        )
+    )
     amp = dict(margins)
     margins = stage_margins([margins], plan, pos, neg)
     linear = np.ones(rows, dtype=bool)
@@ -454,8 +527,14 @@ def saturated_draws(layout: Layout, k: int, v, D, signal):
         linear &= margins[check] >= 0
     top = np.where(reach_high, high, low)
     bottom = np.where(reach_low, low, high)
-    zero = np.zeros((rows, len(layout.freqs)), order="F")     # column-major: propagation.py, Speed
-    spans = {"out-low": bottom, "out-high": top, "in-low": in_lo, "in-high": in_hi,
-             "window-low": low, "window-high": high}
+    zero = np.zeros((rows, len(layout.freqs)), order="F")  # column-major: propagation.py, Speed
+    spans = {
+        "out-low": bottom,
+        "out-high": top,
+        "in-low": in_lo,
+        "in-high": in_hi,
+        "window-low": low,
+        "window-high": high,
+    }
     passed = Signal(hi=zero + top[:, None], lo=zero + bottom[:, None], amp_lo=zero, amp_hi=zero)
     return StageDraws(bottom, top, (amp | {"spans": spans},), margins, linear), passed

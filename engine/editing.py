@@ -7,6 +7,7 @@ with `checked(text, path)` and keeps its old text when that raises InputError.
     text = set_stage_field(text, 2, "rf", "200k 0.1%")
     chain = checked(text, path)              # raises InputError with located problems
 """
+
 from __future__ import annotations
 
 from dataclasses import dataclass
@@ -25,7 +26,7 @@ class FieldShape:
     """How a field is written: kind of values.py (or "text"), and its form in TOML."""
 
     kind: str
-    form: str = "value"                # value | pair | choice | integer | flag | text
+    form: str = "value"  # value | pair | choice | integer | flag | text
     choices: tuple[str, ...] = ()
     help: str = ""
 
@@ -65,8 +66,7 @@ def stage_shapes(block_name: str) -> dict[str, FieldShape]:
     shapes = {"name": FieldShape("text", "text", help="the stage's name")}
     shapes["load"] = FieldShape("resistance", help="load from the output to 0 V (optional)")
     if block.uses_part and not block.saturates:
-        shapes["load_capacitance"] = FieldShape("capacitance",
-                                                help="capacitive load to 0 V (optional)")
+        shapes["load_capacitance"] = FieldShape("capacitance", help="capacitive load to 0 V (optional)")
     for key, spec in block.fields.items():
         if spec.kind == "inputs":
             shapes[key] = FieldShape("inputs", "inputs", help=INPUTS_HELP)
@@ -95,8 +95,9 @@ def value_problem(raw: str, shape: FieldShape) -> str | None:
         elif shape.form == "inputs":
             for number, entry in enumerate(_entries(text), 1):
                 if len(entry) != 2:
-                    return (f'input {number}: expected "r, v" (a resistance, a voltage), '
-                            f"got {';'.join(entry)!r}")
+                    return (
+                        f'input {number}: expected "r, v" (a resistance, a voltage), got {";".join(entry)!r}'
+                    )
                 parse_quantity(entry[0], "resistance")
                 parse_quantity(entry[1], "voltage")
         elif shape.form in ("choice", "text"):
@@ -210,13 +211,16 @@ def add_stage(text: str, position: int, fields: dict) -> str:
         at = min(position, len(tables) + 1) - 1
         tables.insert(at, table)
         notes.insert(at, [])
+
     return _reordered(document, insert)
 
 
 def remove_stage(text: str, index: int) -> str:
     """Remove stage `index` with the comment lines written just above it."""
+
     def remove(tables: list, notes: list) -> None:
         del tables[index - 1], notes[index - 1]
+
     return _reordered(tomlkit.parse(text), remove)
 
 
@@ -230,6 +234,7 @@ def move_stage(text: str, index: int, offset: int) -> str:
     def move(tables: list, notes: list) -> None:
         tables.insert(target, tables.pop(index - 1))
         notes.insert(target, notes.pop(index - 1))
+
     return _reordered(document, move)
 
 
@@ -288,14 +293,15 @@ class _DocumentSlot(list):
 
     def __init__(self, body: list, at: int) -> None:
         start = at
-        while start > 0 and body[start - 1][0] is None and isinstance(body[start - 1][1],
-                                                                      (Comment, Whitespace)):
+        while (
+            start > 0 and body[start - 1][0] is None and isinstance(body[start - 1][1], (Comment, Whitespace))
+        ):
             start -= 1
         super().__init__(body[start:at])
         self.body, self.start, self.at = body, start, at
 
     def __delitem__(self, item: slice) -> None:  # type: ignore[override]
-        del self.body[self.start + (item.start or 0):self.at]
+        del self.body[self.start + (item.start or 0) : self.at]
         super().__delitem__(item)
 
     def extend(self, items) -> None:
@@ -324,14 +330,13 @@ def _put(table: Table, key: str, value) -> None:
 def _detach_tail(body: list) -> list:
     """Remove and return the comment lines (with the blank lines among them) at the end of body."""
     start = len(body)
-    while start > 0 and body[start - 1][0] is None and isinstance(body[start - 1][1],
-                                                                  (Comment, Whitespace)):
+    while start > 0 and body[start - 1][0] is None and isinstance(body[start - 1][1], (Comment, Whitespace)):
         start -= 1
     tail = list(body[start:])
     first = next((i for i, (_, item) in enumerate(tail) if isinstance(item, Comment)), None)
     if first is None:
         return []
-    del body[start + first:]
+    del body[start + first :]
     return tail[first:]
 
 

@@ -11,8 +11,32 @@ from __future__ import annotations
 import numpy as np
 
 # IEC 60063:2015, E24 table.
-E24 = (1.0, 1.1, 1.2, 1.3, 1.5, 1.6, 1.8, 2.0, 2.2, 2.4, 2.7, 3.0,
-       3.3, 3.6, 3.9, 4.3, 4.7, 5.1, 5.6, 6.2, 6.8, 7.5, 8.2, 9.1)
+E24 = (
+    1.0,
+    1.1,
+    1.2,
+    1.3,
+    1.5,
+    1.6,
+    1.8,
+    2.0,
+    2.2,
+    2.4,
+    2.7,
+    3.0,
+    3.3,
+    3.6,
+    3.9,
+    4.3,
+    4.7,
+    5.1,
+    5.6,
+    6.2,
+    6.8,
+    7.5,
+    8.2,
+    9.1,
+)
 E96 = tuple(round(10 ** (i / 96), 2) for i in range(96))
 
 SERIES: dict[str, tuple[float, ...]] = {
@@ -36,8 +60,7 @@ def _mantissas(series: str) -> np.ndarray:
 
 def _scaled(mantissa: np.ndarray, decade: np.ndarray) -> np.ndarray:
     """mantissa * 10**decade, dividing for negative decades so 4.7 and -9 give exactly 4.7e-9."""
-    return np.where(decade >= 0, mantissa * 10.0 ** np.abs(decade),
-                    mantissa / 10.0 ** np.abs(decade))
+    return np.where(decade >= 0, mantissa * 10.0 ** np.abs(decade), mantissa / 10.0 ** np.abs(decade))
 
 
 def _neighbour_arrays(values: np.ndarray, series: str) -> tuple[np.ndarray, np.ndarray]:

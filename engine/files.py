@@ -1,24 +1,23 @@
 """Chain files (SPEC section 2) -> model, with every problem located by file, line and field."""
+
 from __future__ import annotations
 
 from pathlib import Path
 
 from railroom.engine.blocks import BLOCKS, COMMON_FIELDS
-from railroom.engine.model import (DISTRIBUTIONS, METHODS, Chain, Conditions, InputError, Rails,
-                                   Source, Stage)
+from railroom.engine.model import DISTRIBUTIONS, METHODS, Chain, Conditions, InputError, Rails, Source, Stage
 from railroom.engine.reading import MAX_TEXT, FieldReader, FileUnreadable, parse_toml, read_user_file
 from railroom.engine.values import Quantity, has_control, visible
 
 TOP_KEYS = ("format", "title", "presets", "conditions", "rails", "source", "stage")
-CONDITION_KEYS = ("temperature", "margin", "method", "samples", "seed", "distribution",
-                  "default_tolerance")
+CONDITION_KEYS = ("temperature", "margin", "method", "samples", "seed", "distribution", "default_tolerance")
 SOURCE_KEYS = ("kind", "level", "difference", "amplitude", "band", "impedance")
 DEFAULT_TOLERANCE_KINDS = ("resistance", "capacitance")
 # Sensible limits (README, "Limits"): a real chain has a handful of stages; the work grows with
 # stages x frequency points x corners, so a bound keeps one file from taking minutes and GiB.
 MAX_STAGES = 300
-MAX_INPUTS = 64             # fixed inputs of one summing stage
-ABSOLUTE_ZERO, HOTTEST = -273.15, 1000.0   # C; absolute zero: SI Brochure (2019) 2.3.1
+MAX_INPUTS = 64  # fixed inputs of one summing stage
+ABSOLUTE_ZERO, HOTTEST = -273.15, 1000.0  # C; absolute zero: SI Brochure (2019) 2.3.1
 
 
 def load_chain(path: str | Path, check_folders: bool = False) -> Chain:
@@ -35,7 +34,7 @@ def load_chain(path: str | Path, check_folders: bool = False) -> Chain:
 def chain_from_text(text: str, path: str = "<chain>", check_folders: bool = False) -> Chain:
     """The chain in `text`; `check_folders`: every folder named in `presets` must exist (a
     missing one would silently drop the parts the chain expects from it)."""
-    text = text.removeprefix("\ufeff")         # a byte-order mark some editors write
+    text = text.removeprefix("\ufeff")  # a byte-order mark some editors write
     data, problems = parse_toml(text, path)
     if data is None:
         raise InputError(problems)
@@ -52,6 +51,7 @@ def chain_from_text(text: str, path: str = "<chain>", check_folders: bool = Fals
 
 def _file_problem(path: str, err: Exception):
     from railroom.engine.model import Problem
+
     reason = err.strerror if isinstance(err, OSError) and err.strerror else str(err)
     return Problem(path, None, "(file)", f"cannot be read: {reason}")
 
@@ -75,13 +75,22 @@ def _read_chain(data: dict, r: FieldReader, path: str) -> Chain | None:
     if source is not None and stages and source.differential:
         first = BLOCKS.get(stages[0].block)
         if first is not None and not first.takes_differential:
-            r.problem("stage.1.block", "a differential source must be followed first by a "
-                      f"difference or instrumentation stage, got {stages[0].block!r}")
+            r.problem(
+                "stage.1.block",
+                "a differential source must be followed first by a "
+                f"difference or instrumentation stage, got {stages[0].block!r}",
+            )
     if r.problems or conditions is None or source is None:
         return None
-    return Chain(title=title or "", conditions=conditions, rails=rails, source=source,
-                 stages=tuple(stages), preset_dirs=tuple(str((base / p).resolve()) for p in presets),
-                 path=path)
+    return Chain(
+        title=title or "",
+        conditions=conditions,
+        rails=rails,
+        source=source,
+        stages=tuple(stages),
+        preset_dirs=tuple(str((base / p).resolve()) for p in presets),
+        path=path,
+    )
 
 
 def _tolerance(r: FieldReader, t: dict, w: str, key: str) -> float | None:
@@ -108,12 +117,13 @@ def _read_conditions(t: dict, r: FieldReader) -> Conditions | None:
     margin = r.number(t, w, "margin", "voltage", default=0.0)
     if margin is not None and margin < 0:
         r.problem(f"{w}.margin", f"expected a margin of 0 V or more, got {margin:g}")
-    temperature = r.span(t, w, "temperature", "temperature", default.temperature,
-                         ordered="coldest, hottest")
-    if temperature is not None and not (ABSOLUTE_ZERO <= temperature[0]
-                                        and temperature[1] <= HOTTEST):
-        r.problem(f"{w}.temperature", f"expected temperatures from {ABSOLUTE_ZERO:g} to "
-                                      f"{HOTTEST:g} C, got [{temperature[0]:g}, {temperature[1]:g}]")
+    temperature = r.span(t, w, "temperature", "temperature", default.temperature, ordered="coldest, hottest")
+    if temperature is not None and not (ABSOLUTE_ZERO <= temperature[0] and temperature[1] <= HOTTEST):
+        r.problem(
+            f"{w}.temperature",
+            f"expected temperatures from {ABSOLUTE_ZERO:g} to "
+            f"{HOTTEST:g} C, got [{temperature[0]:g}, {temperature[1]:g}]",
+        )
         temperature = None
     return Conditions(
         temperature=temperature or default.temperature,
@@ -121,23 +131,25 @@ def _read_conditions(t: dict, r: FieldReader) -> Conditions | None:
         method=r.text_field(t, w, "method", default="corners", choices=METHODS) or "corners",
         samples=r.integer(t, w, "samples", 10000, 1, 10_000_000) or 10000,
         seed=r.integer(t, w, "seed", 1, 0, 2**32 - 1) or 0,
-        distribution=r.text_field(t, w, "distribution", default="uniform",
-                                  choices=DISTRIBUTIONS) or "uniform",
+        distribution=r.text_field(t, w, "distribution", default="uniform", choices=DISTRIBUTIONS)
+        or "uniform",
         default_tolerance=tolerance or 0.0,
     )
 
 
 def _read_rails(raw, r: FieldReader) -> dict[str, Rails]:
     if not isinstance(raw, dict) or not raw:
-        r.problem("rails", "missing; expected at least one table such as [rails.main] with "
-                           "positive and negative")
+        r.problem(
+            "rails", "missing; expected at least one table such as [rails.main] with positive and negative"
+        )
         return {}
     rails = {}
     for name, t in raw.items():
         w = f"rails.{name}"
         if has_control(name) or len(name) > MAX_TEXT:
-            r.problem(w, f"expected a rails name of at most {MAX_TEXT} characters, without "
-                         "control characters")
+            r.problem(
+                w, f"expected a rails name of at most {MAX_TEXT} characters, without control characters"
+            )
             continue
         if not isinstance(t, dict):
             r.problem(w, "expected a table with positive, negative and tolerance")
@@ -149,8 +161,9 @@ def _read_rails(raw, r: FieldReader) -> dict[str, Rails]:
         if pos is None or neg is None or tol is None:
             continue
         if pos <= neg:
-            r.problem(f"{w}.positive", f"rails reversed: positive ({pos:g} V) must be above "
-                                       f"negative ({neg:g} V)")
+            r.problem(
+                f"{w}.positive", f"rails reversed: positive ({pos:g} V) must be above negative ({neg:g} V)"
+            )
             continue
         rails[name] = Rails(name, pos, neg, tol)
     return rails
@@ -161,10 +174,15 @@ def _read_source(t: dict, r: FieldReader) -> Source | None:
     r.unknown_keys(t, w, SOURCE_KEYS, "[source]")
     kind = r.text_field(t, w, "kind", default="single", choices=("single", "differential"))
     amplitude = r.number(t, w, "amplitude", "voltage", default=0.0)
-    impedance = (0.0 if t.get("impedance", 0) in (0, "0") else
-                 r.number(t, w, "impedance", "resistance", default=0.0))
-    band = ((0.0, 0.0) if t.get("band") in (["0", "0"], [0, 0]) else      # a DC-only source
-            r.span(t, w, "band", "frequency", (1.0, 1.0), ordered="lowest, highest"))
+    impedance = (
+        0.0 if t.get("impedance", 0) in (0, "0") else r.number(t, w, "impedance", "resistance", default=0.0)
+    )
+    band = (
+        (0.0, 0.0)
+        if t.get("band") in (["0", "0"], [0, 0])
+        # a DC-only source
+        else r.span(t, w, "band", "frequency", (1.0, 1.0), ordered="lowest, highest")
+    )
     if amplitude is not None and amplitude < 0:
         r.problem(f"{w}.amplitude", f"expected a peak amplitude of 0 V or more, got {amplitude:g}")
     if impedance is not None and impedance < 0:
@@ -188,12 +206,19 @@ def _read_stages(raw, r: FieldReader, rails: dict, conditions: Conditions | None
         r.problem("stage", "missing; expected one or more [[stage]] tables")
         return []
     if len(raw) > MAX_STAGES:
-        r.problem(f"stage.{MAX_STAGES + 1}", f"{len(raw):,} stages; railroom checks at most "
-                  f"{MAX_STAGES} in one chain: split the chain into files", label="stage")
+        r.problem(
+            f"stage.{MAX_STAGES + 1}",
+            f"{len(raw):,} stages; railroom checks at most "
+            f"{MAX_STAGES} in one chain: split the chain into files",
+            label="stage",
+        )
         return []
     default_tolerance = conditions.default_tolerance if conditions else 0.0
-    stages = [s for i, t in enumerate(raw, start=1)
-              if (s := _read_stage(t, i, r, rails, default_tolerance)) is not None]
+    stages = [
+        s
+        for i, t in enumerate(raw, start=1)
+        if (s := _read_stage(t, i, r, rails, default_tolerance)) is not None
+    ]
     rise = conditions.worst_temperature_rise if conditions else 0.0
     for index, stage in enumerate(stages, start=1):
         _drift_through_zero(stage, index, rise, r)
@@ -205,8 +230,11 @@ def _drift_through_zero(stage: Stage, index: int, rise: float, r: FieldReader) -
     range (plan.spread: value * (1 - tempco * rise)) has no physical meaning."""
     for key, q in (("load", stage.load), *stage.values.items()):
         if isinstance(q, Quantity) and q.tempco and q.tempco * rise >= 1:
-            r.problem(f"stage.{index}.{key}", f"the temperature coefficient ({q.tempco * 1e6:g}ppm) "
-                      f"over {rise:g} C from 25 C takes the value through zero")
+            r.problem(
+                f"stage.{index}.{key}",
+                f"the temperature coefficient ({q.tempco * 1e6:g}ppm) "
+                f"over {rise:g} C from 25 C takes the value through zero",
+            )
 
 
 def _read_stage(t: dict, index: int, r: FieldReader, rails: dict, default_tol: float) -> Stage | None:
@@ -241,9 +269,17 @@ def _read_stage(t: dict, index: int, r: FieldReader, rails: dict, default_tol: f
             q = _component(r, t, w, key, spec.kind, default, default_tol)
             if q is not None:
                 values[key] = q
-    return Stage(name=name or f"stage {index}", block=block_name, part=part, rails=rails_name,
-                 load=load, load_capacitance=load_capacitance, values=values, line=r.line(w),
-                 lines={key: r.lines[f"{w}.{key}"] for key in t if f"{w}.{key}" in r.lines})
+    return Stage(
+        name=name or f"stage {index}",
+        block=block_name,
+        part=part,
+        rails=rails_name,
+        load=load,
+        load_capacitance=load_capacitance,
+        values=values,
+        line=r.line(w),
+        lines={key: r.lines[f"{w}.{key}"] for key in t if f"{w}.{key}" in r.lines},
+    )
 
 
 def _component(r: FieldReader, t: dict, w: str, key: str, kind: str, default, default_tol: float):
@@ -258,7 +294,7 @@ def _component(r: FieldReader, t: dict, w: str, key: str, kind: str, default, de
 
 def _read_inputs(raw, w: str, r: FieldReader, default_tol: float) -> list[dict[str, Quantity]]:
     if not isinstance(raw, list) or not all(isinstance(item, dict) for item in raw):
-        r.problem(w, "expected a list of tables such as [{r = \"10k\", v = \"2.5\"}]")
+        r.problem(w, 'expected a list of tables such as [{r = "10k", v = "2.5"}]')
         return []
     if len(raw) > MAX_INPUTS:
         r.problem(w, f"{len(raw):,} fixed inputs; a summing stage takes at most {MAX_INPUTS}")

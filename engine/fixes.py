@@ -9,6 +9,7 @@ sensitivity says helps, within a decade; the search steps out 1, 2, 4, ... value
 back to the nearest one that works. When a stage clips and the source amplitude is to blame,
 the largest amplitude that keeps the chain linear (headroom_db) is offered as well.
 """
+
 from __future__ import annotations
 
 from dataclasses import replace
@@ -23,8 +24,8 @@ from railroom.engine.sensitivity import direction, linearise, ranking
 from railroom.engine.values import format_si
 
 SERIES = ("E24", "E96")
-TIGHT = 2.0          # a GO stage is tight when its limiting voltage margin is under 2 x the required
-REACH = 10.0         # candidates within a factor of 10 of the present value
+TIGHT = 2.0  # a GO stage is tight when its limiting voltage margin is under 2 x the required
+REACH = 10.0  # candidates within a factor of 10 of the present value
 
 
 def needs_fix(result: StageResult, required: float) -> bool:
@@ -33,8 +34,7 @@ def needs_fix(result: StageResult, required: float) -> bool:
     if not result.go:
         return True
     check = result.limiting
-    return (required > 0 and check in VOLTAGE_CHECKS
-            and result.margins[check] < TIGHT * required)
+    return required > 0 and check in VOLTAGE_CHECKS and result.margins[check] < TIGHT * required
 
 
 def fed_clipped(result: StageResult) -> bool:
@@ -43,8 +43,16 @@ def fed_clipped(result: StageResult) -> bool:
     return "fed-clipped" in result.reasons
 
 
-def design_aids(chain, plans, freqs, stages, corner_stages, headroom: float | None,
-                lin=None, baseline: list[StageResult] | None = None) -> list[StageResult]:
+def design_aids(
+    chain,
+    plans,
+    freqs,
+    stages,
+    corner_stages,
+    headroom: float | None,
+    lin=None,
+    baseline: list[StageResult] | None = None,
+) -> list[StageResult]:
     """Stages with sensitivity (every stage) and fixes (failing or tight stages) filled in.
     `lin`: the full-band linearisation when the caller has it; `baseline`: the verdicts the
     Evaluator would find for the unchanged chain (see Evaluator), when the caller has them."""
@@ -82,14 +90,14 @@ class Evaluator:
         self._prepared: corners.Prepared | None = None
         self._entering: list = []
 
-    def results(self, plans, changed: int | None = None, stop: int | None = None
-                ) -> list[StageResult]:
+    def results(self, plans, changed: int | None = None, stop: int | None = None) -> list[StageResult]:
         """Results of stages up to `stop` (all by default) of the chain with `plans`; `changed`:
         the only stage whose plan differs from the unchanged chain's, when known."""
         if self.chain.conditions.method == "rss" or changed is None:
             found = corners.run(corners.prepare(self.chain, plans, self.freqs))
             if self.chain.conditions.method == "rss":
                 from railroom.engine.methods.rss import run
+
                 found = run(self.chain, plans, self.freqs, found)
             return found
         if self._prepared is None:
@@ -101,8 +109,7 @@ class Evaluator:
         while first > 0 and (self._prepared.joint[first] or not self.plans[first].block.uses_part):
             first -= 1
         prepared = corners.prepare(self.chain, plans, self.freqs, reuse=self._prepared, first=changed)
-        return [*self._unchanged[:first],
-                *corners.run_from(prepared, first, self._entering[first], stop)]
+        return [*self._unchanged[:first], *corners.run_from(prepared, first, self._entering[first], stop)]
 
     def works(self, k: int, field: str, value: float) -> StageResult | None:
         """The changed stage's result when the change makes it GO and breaks no other stage."""
@@ -113,7 +120,7 @@ class Evaluator:
         changed = replace(plan, quantities={**plan.quantities, field: replace(q, value=value)})
         # only stages that were GO can be broken: the walk stops after the last of them
         stop = max([k, *(j for j in range(k + 1, len(self.plans)) if self._baseline[j].go)]) + 1
-        found = self.results([*self.plans[:k], changed, *self.plans[k + 1:]], changed=k, stop=stop)
+        found = self.results([*self.plans[:k], changed, *self.plans[k + 1 :]], changed=k, stop=stop)
         if found[k].go and all(new.go for new, old in zip(found, self._baseline) if old.go):
             return found[k]
         return None
@@ -168,15 +175,16 @@ def value_fixes(evaluate: Evaluator, plan, result: StageResult, lin) -> list[Fix
             old = plan.quantities[field].value
             sign = direction(lin, plan.index, result.limiting, field) if result.limiting else 0.0
             found = nearest_working(evaluate, k, field, candidates(old, series, sign))
-            if found is not None and (best is None or
-                                      abs(np.log(found[0] / old)) < abs(np.log(best[1] / best[2]))):
+            if found is not None and (
+                best is None or abs(np.log(found[0] / old)) < abs(np.log(best[1] / best[2]))
+            ):
                 best = (field, found[0], old, found[1])
         if best is not None:
             field, new, old, after = best
             check = after.limiting
-            text = (f"{field} {format_si(old, 'Ω')} -> {format_si(new, 'Ω')} ({series})"
-                    + (f": {check} margin {format_si(after.margins[check], unit(check))}"
-                       if check else ""))
+            text = f"{field} {format_si(old, 'Ω')} -> {format_si(new, 'Ω')} ({series})" + (
+                f": {check} margin {format_si(after.margins[check], unit(check))}" if check else ""
+            )
             fixes.append(Fix(text=text, field=field, value=new))
     if len(fixes) == 2 and (fixes[0].field, fixes[0].value) == (fixes[1].field, fixes[1].value):
         # the nearest E24 value is also the nearest E96 one (150k is in both): say it once
@@ -190,6 +198,9 @@ def unit(check: str) -> str:
 
 def amplitude_fix(chain, headroom: float) -> Fix:
     amplitude = chain.source.amplitude * 10 ** (headroom / 20)
-    return Fix(text=f"source amplitude at most {format_si(amplitude, 'V')} peak "
-                    f"({headroom:+.2f} dB) keeps every stage linear",
-               field="source.amplitude", value=amplitude)
+    return Fix(
+        text=f"source amplitude at most {format_si(amplitude, 'V')} peak "
+        f"({headroom:+.2f} dB) keeps every stage linear",
+        field="source.amplitude",
+        value=amplitude,
+    )

@@ -6,6 +6,7 @@ check that fails the verdict is a <failure> whose message gives what the circuit
 part's limit and the margin; a file that cannot be checked is a suite with one <error>.
 The class name of a stage's cases is "stage N: NAME", so a CI server groups them by stage.
 """
+
 from __future__ import annotations
 
 import xml.etree.ElementTree as ET
@@ -15,10 +16,12 @@ from railroom.engine.values import format_si, visible
 
 UNITS = {"slew": "V/s", "current": "A"}
 # check -> (node field of the need, node field of the limit, +1 when the limit is above the need)
-FIGURES = {"output-high": ("output", 1, "window", 1, 1),
-           "output-low": ("output", 0, "window", 0, -1),
-           "input-high": ("input", 1, "input_window", 1, 1),
-           "input-low": ("input", 0, "input_window", 0, -1)}
+FIGURES = {
+    "output-high": ("output", 1, "window", 1, 1),
+    "output-low": ("output", 0, "window", 0, -1),
+    "input-high": ("input", 1, "input_window", 1, 1),
+    "input-low": ("input", 0, "input_window", 0, -1),
+}
 
 
 @dataclass(frozen=True)
@@ -28,8 +31,8 @@ class SuiteInput:
     file: str
     report: dict | None
     problems: tuple[str, ...] = ()
-    required: float | None = None        # the chain's required voltage margin, V
-    time: float = 0.0                    # seconds the check took
+    required: float | None = None  # the chain's required voltage margin, V
+    time: float = 0.0  # seconds the check took
 
 
 def _value(check: str, value: float | None) -> str:
@@ -59,8 +62,11 @@ def check_figures(stage: dict, check: str) -> tuple[float | None, float | None, 
     if not nodes:
         if check in ("output-high", "output-low") and stage.get("window"):
             side = 1 if check == "output-high" else 0
-            return ((stage["output"]["max"], stage["window"]["high"]) if side else
-                    (stage["output"]["min"], stage["window"]["low"])) + (None,)
+            return (
+                (stage["output"]["max"], stage["window"]["high"])
+                if side
+                else (stage["output"]["min"], stage["window"]["low"])
+            ) + (None,)
         return None, None, None
     named = stage.get("failing_nodes", {}).get(check)
     candidates = [n for n in nodes if n["label"] == named] or nodes
@@ -82,11 +88,14 @@ def failure_message(stage: dict, check: str, required: float | None) -> str:
     """'output-high: needs 4.62 V, limit 4.57 V, margin -53 mV (50 mV required)'."""
     margin = stage["margins"].get(check)
     if check == "supply":
-        return (f"supply: the rails' span must lie inside the part's allowed supply span; "
-                f"margin {_value(check, margin)}")
-    need, limit, label = check_figures(stage, check)
-    words = f"{check}: needs {_value(check, need)}, limit {_value(check, limit)}, " \
+        return (
+            f"supply: the rails' span must lie inside the part's allowed supply span; "
             f"margin {_value(check, margin)}"
+        )
+    need, limit, label = check_figures(stage, check)
+    words = (
+        f"{check}: needs {_value(check, need)}, limit {_value(check, limit)}, margin {_value(check, margin)}"
+    )
     if required is not None and check not in ("slew", "current"):
         words += f" ({_value(check, required)} required)"
     return words + (f" [{label}]" if label else "")
@@ -98,15 +107,17 @@ def _suite(entry: SuiteInput) -> ET.Element:
     if entry.report is None:
         case = ET.SubElement(suite, "testcase", name="load", classname="chain file", time="0")
         message = visible(entry.problems[0] if entry.problems else "cannot be checked", 500)
-        ET.SubElement(case, "error", message=message, type="railroom.input").text = \
-            "\n".join(visible(p, 2000) for p in entry.problems)
+        ET.SubElement(case, "error", message=message, type="railroom.input").text = "\n".join(
+            visible(p, 2000) for p in entry.problems
+        )
         cases, errors = 1, 1
     else:
         for stage in entry.report["stages"]:
             classname = visible(f"stage {stage['index']}: {stage['name']}", 300)
             case = ET.SubElement(suite, "testcase", name="regime", classname=classname, time="0")
-            out = f"{stage['regime']}" + (f"; reasons: {', '.join(stage['reasons'])}"
-                                          if stage["reasons"] else "")
+            out = f"{stage['regime']}" + (
+                f"; reasons: {', '.join(stage['reasons'])}" if stage["reasons"] else ""
+            )
             ET.SubElement(case, "system-out").text = out
             cases += 1
             for check in stage["margins"]:
@@ -115,8 +126,9 @@ def _suite(entry: SuiteInput) -> ET.Element:
                 if check in stage["reasons"]:
                     failures += 1
                     words = failure_message(stage, check, entry.required)
-                    ET.SubElement(case, "failure", type="railroom.margin",
-                                  message=visible(words, 500)).text = visible(words, 2000)
+                    ET.SubElement(
+                        case, "failure", type="railroom.margin", message=visible(words, 500)
+                    ).text = visible(words, 2000)
     suite.set("tests", str(cases))
     suite.set("failures", str(failures))
     suite.set("errors", str(errors))

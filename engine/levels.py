@@ -7,6 +7,7 @@ are the stage's output span of the corners method (a test holds them equal). A s
 is frequency dependent when the magnitude of its signal transfer moves by more than
 FREQUENCY_DEPENDENT (1 %) across the band at some corner.
 """
+
 from __future__ import annotations
 
 from dataclasses import dataclass
@@ -23,9 +24,9 @@ SIGNAL_INPUTS = ("in", "pos", "neg")
 @dataclass(frozen=True)
 class StageLevels:
     index: int
-    freqs: np.ndarray          # Hz, the band grid
-    low: np.ndarray            # lowest worst-case output at each frequency, V
-    high: np.ndarray           # highest
+    freqs: np.ndarray  # Hz, the band grid
+    low: np.ndarray  # lowest worst-case output at each frequency, V
+    high: np.ndarray  # highest
     frequency_dependent: bool  # the stage's own gain moves across the band
 
 
@@ -53,6 +54,7 @@ def frequency_levels(chain: Chain, parts: Mapping[str, Part]) -> list[StageLevel
     from railroom.engine.methods import corners
     from railroom.engine.plan import plan_chain
     from railroom.engine.stage_walk import walk_chain
+
     plans = plan_chain(chain, parts)
     freqs = band_grid(chain, plans)
     prepared = corners.prepare(chain, plans, freqs)
@@ -65,8 +67,13 @@ def frequency_levels(chain: Chain, parts: Mapping[str, Part]) -> list[StageLevel
             levels.append(None)
             continue
         low, high = bounds.lo.min(axis=0), bounds.hi.max(axis=0)
-        levels.append(StageLevels(plan.index, np.asarray(freqs, dtype=float),
-                                  np.broadcast_to(low, np.shape(freqs)).astype(float),
-                                  np.broadcast_to(high, np.shape(freqs)).astype(float),
-                                  gain_moves(prepared.responses[k])))
+        levels.append(
+            StageLevels(
+                plan.index,
+                np.asarray(freqs, dtype=float),
+                np.broadcast_to(low, np.shape(freqs)).astype(float),
+                np.broadcast_to(high, np.shape(freqs)).astype(float),
+                gain_moves(prepared.responses[k]),
+            )
+        )
     return levels

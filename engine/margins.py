@@ -9,6 +9,7 @@ the current it SINKS at its lower extreme; current flowing the other way adds no
 side. The current check uses the larger of the two magnitudes. The model of the growth is the
 part's output resistance times the current (common practice for rail-to-rail outputs).
 """
+
 from __future__ import annotations
 
 from typing import Any
@@ -18,13 +19,14 @@ import numpy as np
 from railroom.engine.blocks.base import InputLoad
 from railroom.engine.model import Part
 
-Number = Any          # a float, or a numpy array of margins per circuit
+Number = Any  # a float, or a numpy array of margins per circuit
 
-MEETS_AT_EQUALITY = 1e-9      # a need within this fraction of its limit's scale meets it
+MEETS_AT_EQUALITY = 1e-9  # a need within this fraction of its limit's scale meets it
 
 
-def load_currents(current_hi: Number, current_lo: Number, out_hi: Number, out_lo: Number,
-                  load: InputLoad) -> tuple[Number, Number]:
+def load_currents(
+    current_hi: Number, current_lo: Number, out_hi: Number, out_lo: Number, load: InputLoad
+) -> tuple[Number, Number]:
     """(sourced, sunk): the largest current the op amp sources and sinks, A, from its own
     network's current bounds plus the next stage's input conductance to its return voltage.
 
@@ -40,13 +42,23 @@ def output_drops(part: Part, sourced: Number, sunk: Number) -> tuple[Number, Num
     (the part's output_headroom_curve in place of its output resistance when it has one)."""
     if part.output_headroom_curve:
         from railroom.engine.part_limits import output_drops as curve_drops
+
         return curve_drops(part, sourced, sunk)
     return part.output_resistance * sourced, part.output_resistance * sunk
 
 
-def opamp_margins(part: Part, positive: Number, negative: Number, out_hi: Number, out_lo: Number,
-                  in_hi: Number, in_lo: Number, sourced: Number, sunk: Number,
-                  slew_needed: Number) -> dict[str, Number]:
+def opamp_margins(
+    part: Part,
+    positive: Number,
+    negative: Number,
+    out_hi: Number,
+    out_lo: Number,
+    in_hi: Number,
+    in_lo: Number,
+    sourced: Number,
+    sunk: Number,
+    slew_needed: Number,
+) -> dict[str, Number]:
     """Every linear check's margin (limit - need, negative when violated) for one op amp.
     `positive` and `negative` are the rail voltages of the circuit (or the worst ends)."""
     drop_high, drop_low = output_drops(part, sourced, sunk)

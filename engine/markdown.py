@@ -5,6 +5,7 @@ chain in plain ASCII (it survives any font, diff tool or CI log), reasons, cauti
 method provides them sensitivity and fixes. Every piece of user text is escaped for Markdown and
 stripped of control characters, so a stage name can never change the document's structure.
 """
+
 from __future__ import annotations
 
 import re
@@ -27,7 +28,7 @@ REASON_WORDS = {
 }
 METHOD_WORDS = {
     "corners": "worst case: every combination of tolerance ends, rails, temperature ends, offset "
-               "and bias signs, source range ends and AC peak sign, at every band frequency",
+    "and bias signs, source range ends and AC peak sign, at every band frequency",
     "rss": "statistical: root sum of squares of the independent contributions",
     "montecarlo": "statistical: Monte Carlo draws of every toleranced value",
 }
@@ -37,8 +38,10 @@ _MARKDOWN_SPECIAL = re.compile(r"([\\`*_\[\]<|~&])")
 # What GitHub-flavoured Markdown turns into a link without brackets (GFM spec 0.29, section 6.9,
 # "Autolinks (extension)": www., http://, https:// and e-mail addresses; GitHub also takes ftp://,
 # mailto: and xmpp:); such a run is shown as a code span, where nothing is a link.
-_BARE_LINK = re.compile(r"(?i)(?:\b(?:https?|ftp|file)://|\bwww\.|\b(?:mailto|xmpp):)[^\s|`]*"
-                        r"|[^\s|`@]+@[^\s|`@]+\.[^\s|`@]+")
+_BARE_LINK = re.compile(
+    r"(?i)(?:\b(?:https?|ftp|file)://|\bwww\.|\b(?:mailto|xmpp):)[^\s|`]*"
+    r"|[^\s|`@]+@[^\s|`@]+\.[^\s|`@]+"
+)
 
 
 def md(text: str) -> str:
@@ -47,7 +50,7 @@ def md(text: str) -> str:
     text = visible(text.replace("\n", " "), 200)
     pieces, at = [], 0
     for found in _BARE_LINK.finditer(text):
-        pieces.append(_MARKDOWN_SPECIAL.sub(r"\\\1", text[at:found.start()]))
+        pieces.append(_MARKDOWN_SPECIAL.sub(r"\\\1", text[at : found.start()]))
         pieces.append(f"`{found[0]}`")
         at = found.end()
     pieces.append(_MARKDOWN_SPECIAL.sub(r"\\\1", text[at:]))
@@ -65,17 +68,28 @@ def margin_words(check: str | None, value: float | None) -> str:
 
 
 def markdown_report(result: ChainResult) -> str:
-    sections = [header(result), conditions(result), stage_table(result), margin_table(result),
-                level_diagram(result), reasons(result), cautions(result), sensitivity(result),
-                fixes(result)]
+    sections = [
+        header(result),
+        conditions(result),
+        stage_table(result),
+        margin_table(result),
+        level_diagram(result),
+        reasons(result),
+        cautions(result),
+        sensitivity(result),
+        fixes(result),
+    ]
     return "\n\n".join(s for s in sections if s) + "\n"
 
 
 def header(result: ChainResult) -> str:
     verdict = "GO" if result.go else "NO-GO"
     count = len(result.stages)
-    summary = (f"every one of the {count} stages stays in its intended regime with the required "
-               "margin" if result.go else f"{result.failing} of {count} stages fail")
+    summary = (
+        f"every one of the {count} stages stays in its intended regime with the required margin"
+        if result.go
+        else f"{result.failing} of {count} stages fail"
+    )
     return f"# Rail headroom review: {md(result.chain.title)}\n\n**Verdict: {verdict}**: {summary}."
 
 
@@ -86,21 +100,32 @@ def conditions(result: ChainResult) -> str:
         method += f"; {result.samples} draws, seed {c.seed}, {c.distribution} distribution"
     rails = "; ".join(
         f"{md(r.name)}: {format_si(r.positive, 'V')} / {format_si(r.negative, 'V')}"
-        f" ± {format_si(r.tolerance, '%')}" for r in chain.rails.values())
+        f" ± {format_si(r.tolerance, '%')}"
+        for r in chain.rails.values()
+    )
     level = f"{volts(source.level[0])} to {volts(source.level[1])}"
     if source.differential:
-        level = (f"common mode {level}, difference {volts(source.difference[0])} to "
-                 f"{volts(source.difference[1])}")
+        level = (
+            f"common mode {level}, difference {volts(source.difference[0])} to {volts(source.difference[1])}"
+        )
     band = f"{format_si(source.band[0], 'Hz')} to {format_si(source.band[1], 'Hz')}"
-    rows = [("file", md(Path(chain.path).name)), ("method", method),
-            ("temperature", f"{c.temperature[0]:g} °C to {c.temperature[1]:g} °C"),
-            ("required margin", volts(c.margin)),
-            ("default tolerance", format_si(c.default_tolerance, "%")), ("rails", rails),
-            ("source", f"{source.kind}, level {level}, AC {volts(source.amplitude)} peak, "
-                       f"band {band}, impedance {format_si(source.impedance, 'Ω')}"),
-            ("headroom", headroom_words(result.headroom_db))]
+    rows = [
+        ("file", md(Path(chain.path).name)),
+        ("method", method),
+        ("temperature", f"{c.temperature[0]:g} °C to {c.temperature[1]:g} °C"),
+        ("required margin", volts(c.margin)),
+        ("default tolerance", format_si(c.default_tolerance, "%")),
+        ("rails", rails),
+        (
+            "source",
+            f"{source.kind}, level {level}, AC {volts(source.amplitude)} peak, "
+            f"band {band}, impedance {format_si(source.impedance, 'Ω')}",
+        ),
+        ("headroom", headroom_words(result.headroom_db)),
+    ]
     if result.chain_yield is not None:
         from railroom.engine.methods.rare import yield_words
+
         rows.append(("yield", yield_words(result.chain_yield, result.samples or 0, result.rare)))
     lines = ["## Conditions and method", "", "| | |", "|---|---|"]
     return "\n".join(lines + [f"| {k} | {v} |" for k, v in rows])
@@ -115,18 +140,35 @@ def headroom_words(db: float | None) -> str:
 
 def stage_table(result: ChainResult) -> str:
     probability = result.method == "montecarlo"
-    columns = ["#", "stage", "block", "part", "rails", "regime", "GO", "limiting margin",
-               "output span", "window"] + (["P(leaves linear)"] if probability else [])
-    lines = ["## Stages", "", "| " + " | ".join(columns) + " |",
-             "|" + "|".join("---" for _ in columns) + "|"]
+    columns = [
+        "#",
+        "stage",
+        "block",
+        "part",
+        "rails",
+        "regime",
+        "GO",
+        "limiting margin",
+        "output span",
+        "window",
+    ] + (["P(leaves linear)"] if probability else [])
+    lines = ["## Stages", "", "| " + " | ".join(columns) + " |", "|" + "|".join("---" for _ in columns) + "|"]
     for s in result.stages:
         m = s.measure
         window = "-" if m.window is None else f"{volts(m.window[0])} to {volts(m.window[1])}"
         rails = result.chain.rails_for(s.stage).name if s.stage.part else "-"
-        cells = [str(s.index), md(s.stage.name), s.stage.block, md(s.stage.part or "-"), md(rails),
-                 s.shown_regime, "yes" if s.go else "**no**",
-                 margin_words(s.limiting, s.margins.get(s.limiting) if s.limiting else None),
-                 f"{volts(m.output[0])} to {volts(m.output[1])}", window]
+        cells = [
+            str(s.index),
+            md(s.stage.name),
+            s.stage.block,
+            md(s.stage.part or "-"),
+            md(rails),
+            s.shown_regime,
+            "yes" if s.go else "**no**",
+            margin_words(s.limiting, s.margins.get(s.limiting) if s.limiting else None),
+            f"{volts(m.output[0])} to {volts(m.output[1])}",
+            window,
+        ]
         if probability:
             cells.append("-" if m.probability is None else f"{m.probability:.2%}")
         lines.append("| " + " | ".join(cells) + " |")
@@ -137,11 +179,14 @@ def margin_table(result: ChainResult) -> str:
     used = [c for c in CHECKS if any(c in s.margins for s in result.stages)]
     if not used:
         return ""
-    lines = ["### Margins (negative: violated)", "", "| # | " + " | ".join(used) + " |",
-             "|---|" + "|".join("---:" for _ in used) + "|"]
+    lines = [
+        "### Margins (negative: violated)",
+        "",
+        "| # | " + " | ".join(used) + " |",
+        "|---|" + "|".join("---:" for _ in used) + "|",
+    ]
     for s in result.stages:
-        cells = [format_si(s.margins[c], CHECK_UNITS.get(c, "V")) if c in s.margins else ""
-                 for c in used]
+        cells = [format_si(s.margins[c], CHECK_UNITS.get(c, "V")) if c in s.margins else "" for c in used]
         lines.append(f"| {s.index} | " + " | ".join(cells) + " |")
     return "\n".join(lines)
 
@@ -149,8 +194,10 @@ def margin_table(result: ChainResult) -> str:
 def level_diagram(result: ChainResult) -> str:
     body = "\n".join(diagram_lines(result, DIAGRAM_WIDTH))
     fence = "`" * max(3, longest_backtick_run(body) + 1)
-    legend = ("`|` the op amp's rails (lowest negative, highest positive), `-` beyond the part's reach, "
-              "`.` free window, `#` worst-case output span, `X` past the window, `0` 0 V.")
+    legend = (
+        "`|` the op amp's rails (lowest negative, highest positive), `-` beyond the part's reach, "
+        "`.` free window, `#` worst-case output span, `X` past the window, `0` 0 V."
+    )
     return f"## Level diagram\n\n{fence}text\n{body}\n{fence}\n\n{legend}"
 
 
@@ -166,7 +213,7 @@ def diagram_lines(result: ChainResult, width: int) -> list[str]:
         if len(volts(low)) + 1 < zero < width - len(volts(high)) - 4:
             marks.append((zero, "0 V"))
     for at, text in marks:
-        axis[at:at + len(text)] = text
+        axis[at : at + len(text)] = text
     lines = [" " * label + "".join(axis).rstrip()]
     for s in result.stages:
         name = visible(s.stage.name, 200)
@@ -196,8 +243,11 @@ def stage_cells(result: ChainResult, s: StageResult, low: float, step: float, wi
     for i in range(width):
         a, b = low + i * step, low + (i + 1) * step
         if b > m.output[0] and a < m.output[1] or m.output[0] == m.output[1] and a <= m.output[0] < b:
-            past = m.window is not None and (a < m.window[0] or b > m.window[1]) and (
-                m.output[0] < m.window[0] or m.output[1] > m.window[1])
+            past = (
+                m.window is not None
+                and (a < m.window[0] or b > m.window[1])
+                and (m.output[0] < m.window[0] or m.output[1] > m.window[1])
+            )
             cells.append("X" if past else "#")
         elif m.window is not None and b > m.window[0] and a < m.window[1]:
             cells.append("0" if a <= 0.0 < b else ".")
@@ -218,30 +268,40 @@ def longest_backtick_run(text: str) -> int:
 
 
 def reasons(result: ChainResult) -> str:
-    lines = [f"- stage {s.index} ({md(s.stage.name)}): " +
-             "; ".join(f"{r} ({REASON_WORDS.get(r, r)})" for r in s.reasons)
-             for s in result.stages if s.reasons]
+    lines = [
+        f"- stage {s.index} ({md(s.stage.name)}): "
+        + "; ".join(f"{r} ({REASON_WORDS.get(r, r)})" for r in s.reasons)
+        for s in result.stages
+        if s.reasons
+    ]
     return "## Why stages fail\n\n" + "\n".join(lines) if lines else ""
 
 
 def cautions(result: ChainResult) -> str:
     lines = [f"- {md(c)}" for c in result.cautions]
-    lines += [f"- stage {s.index} ({md(s.stage.name)}): {md(c)}" for s in result.stages
-              for c in s.cautions]
+    lines += [f"- stage {s.index} ({md(s.stage.name)}): {md(c)}" for s in result.stages for c in s.cautions]
     return "## Cautions\n\n" + ("\n".join(lines) if lines else "None.")
 
 
 def sensitivity(result: ChainResult) -> str:
-    rows = [f"| {s.index} | {md(s.stage.name)} | {s.limiting or '-'} | {md(x.words)} | "
-            f"{x.share:.0%} |" for s in result.stages for x in s.sensitivity]
+    rows = [
+        f"| {s.index} | {md(s.stage.name)} | {s.limiting or '-'} | {md(x.words)} | {x.share:.0%} |"
+        for s in result.stages
+        for x in s.sensitivity
+    ]
     if not rows:
         return ""
-    return "\n".join(["## Sensitivity of the limiting margin", "",
-                      "| # | stage | check | quantity | share of the spread |",
-                      "|---|---|---|---|---:|", *rows])
+    return "\n".join(
+        [
+            "## Sensitivity of the limiting margin",
+            "",
+            "| # | stage | check | quantity | share of the spread |",
+            "|---|---|---|---|---:|",
+            *rows,
+        ]
+    )
 
 
 def fixes(result: ChainResult) -> str:
-    lines = [f"- stage {s.index} ({md(s.stage.name)}): {md(f.text)}"
-             for s in result.stages for f in s.fixes]
+    lines = [f"- stage {s.index} ({md(s.stage.name)}): {md(f.text)}" for s in result.stages for f in s.fixes]
     return "## Suggested fixes\n\n" + "\n".join(lines) if lines else ""

@@ -3,6 +3,7 @@
 Every number is SI (volts, amperes, ohms, farads, hertz, seconds, degrees Celsius). Values that may
 carry a tolerance are kept as `Quantity` so each method can decide how to spread them.
 """
+
 from __future__ import annotations
 
 from dataclasses import dataclass, field
@@ -43,26 +44,26 @@ class Part:
 
     id: str
     description: str
-    supply: tuple[float, float]            # allowed total supply span, V
-    supply_abs_max: float                  # damage threshold for the total span, V
-    output_headroom: tuple[float, float]   # (upper, lower) closest approach at no load, V
-    output_resistance: float               # headroom grows by this times the output current, ohm
-    input_headroom: tuple[float, float]    # (upper, lower) common-mode limit inside the rails, V
-    gbw: float                             # Hz
-    slew: float                            # V/s
-    open_loop_gain: float                  # V/V at DC
-    offset: float                          # V, maximum at 25 C
-    offset_drift: float                    # V per C
-    bias_current: float                    # A, maximum
-    output_current: float                  # A, limit
-    origin: str = ""                       # file it was read from
-    overrides: tuple[str, ...] = ()        # earlier files whose preset of the same id this replaces
+    supply: tuple[float, float]  # allowed total supply span, V
+    supply_abs_max: float  # damage threshold for the total span, V
+    output_headroom: tuple[float, float]  # (upper, lower) closest approach at no load, V
+    output_resistance: float  # headroom grows by this times the output current, ohm
+    input_headroom: tuple[float, float]  # (upper, lower) common-mode limit inside the rails, V
+    gbw: float  # Hz
+    slew: float  # V/s
+    open_loop_gain: float  # V/V at DC
+    offset: float  # V, maximum at 25 C
+    offset_drift: float  # V per C
+    bias_current: float  # A, maximum
+    output_current: float  # A, limit
+    origin: str = ""  # file it was read from
+    overrides: tuple[str, ...] = ()  # earlier files whose preset of the same id this replaces
     # datasheet limits (engine/part_limits.py); the defaults leave the checks as they were
-    temperature_range: tuple[float, float] | None = None   # rated ambient [low, high], C
-    bias_current_doubling: float = 0.0     # C per doubling of the bias current above 25 C; 0: none
-    input_differential_max: float = 0.0    # largest |V+ - V-|, V; 0: not rated
-    phase_reversal: bool = False           # the output inverts beyond the common-mode range
-    output_headroom_curve: tuple[tuple[float, float, float], ...] = ()   # (A, upper V, lower V)
+    temperature_range: tuple[float, float] | None = None  # rated ambient [low, high], C
+    bias_current_doubling: float = 0.0  # C per doubling of the bias current above 25 C; 0: none
+    input_differential_max: float = 0.0  # largest |V+ - V-|, V; 0: not rated
+    phase_reversal: bool = False  # the output inverts beyond the common-mode range
+    output_headroom_curve: tuple[tuple[float, float, float], ...] = ()  # (A, upper V, lower V)
 
     def offset_at(self, temperature: float) -> float:
         """Worst offset magnitude at a temperature: initial plus drift away from 25 C."""
@@ -111,13 +112,13 @@ class Conditions:
 
 @dataclass(frozen=True)
 class Source:
-    kind: str = "single"                              # single | differential
-    level: tuple[float, float] = (0.0, 0.0)           # single: DC level; differential: common mode
-    difference: tuple[float, float] = (0.0, 0.0)      # differential only: DC difference
-    amplitude: float = 0.0                            # AC peak (of the difference when differential)
-    band: tuple[float, float] = (1.0, 1.0)            # Hz
-    impedance: float = 0.0                            # ohm, in series with each source side
-    band_given: bool = True                           # False: no band in the file (1 Hz assumed)
+    kind: str = "single"  # single | differential
+    level: tuple[float, float] = (0.0, 0.0)  # single: DC level; differential: common mode
+    difference: tuple[float, float] = (0.0, 0.0)  # differential only: DC difference
+    amplitude: float = 0.0  # AC peak (of the difference when differential)
+    band: tuple[float, float] = (1.0, 1.0)  # Hz
+    impedance: float = 0.0  # ohm, in series with each source side
+    band_given: bool = True  # False: no band in the file (1 Hz assumed)
 
     @property
     def differential(self) -> bool:
@@ -131,10 +132,10 @@ class Stage:
     part: str | None = None
     rails: str | None = None
     load: Quantity | None = None
-    load_capacitance: Quantity | None = None     # from the output to 0 V: the phase-margin estimate
-    values: Mapping[str, object] = field(default_factory=dict)   # the block's own fields, parsed
-    line: int | None = None                                       # where the [[stage]] starts
-    lines: Mapping[str, int] = field(default_factory=dict)       # field -> line, for messages
+    load_capacitance: Quantity | None = None  # from the output to 0 V: the phase-margin estimate
+    values: Mapping[str, object] = field(default_factory=dict)  # the block's own fields, parsed
+    line: int | None = None  # where the [[stage]] starts
+    lines: Mapping[str, int] = field(default_factory=dict)  # field -> line, for messages
 
     def quantity(self, name: str) -> Quantity | None:
         value = self.values.get(name)

@@ -16,6 +16,7 @@
 
 Pure and numeric: floats or numpy arrays alike.
 """
+
 from __future__ import annotations
 
 from typing import Any
@@ -33,27 +34,33 @@ LIMIT_FIELDS = {
     "output_headroom_curve": ("curve", False, False),
 }
 LIMIT_SIDES = {"temperature_range": ("low", "high")}
-LIMIT_UNITS = {"temperature_range": "°C", "bias_current_doubling": "°C",
-               "input_differential_max": "V", "phase_reversal": "", "output_headroom_curve": "A V V"}
+LIMIT_UNITS = {
+    "temperature_range": "°C",
+    "bias_current_doubling": "°C",
+    "input_differential_max": "V",
+    "phase_reversal": "",
+    "output_headroom_curve": "A V V",
+}
 DIFFERENTIAL_CHECK = "input-differential"
 
 
 # --- reading -------------------------------------------------------------------------------
 
+
 def read_limits(t: dict, w: str, r) -> dict[str, object]:
     """The limit fields of one [part.ID] table; a missing key takes its default, a bad one is a
     located problem (and its value None)."""
     from railroom.engine.values import ValueTextError, parse_quantity
+
     values: dict[str, object] = {}
     if "temperature_range" in t:
-        values["temperature_range"] = r.span(t, w, "temperature_range", "temperature", None,
-                                             ordered="low, high")
+        values["temperature_range"] = r.span(
+            t, w, "temperature_range", "temperature", None, ordered="low, high"
+        )
         if values["temperature_range"] is None:
             values["temperature_range"] = ...
-    values["bias_current_doubling"] = r.number(t, w, "bias_current_doubling", "temperature",
-                                               default=0.0)
-    values["input_differential_max"] = r.number(t, w, "input_differential_max", "voltage",
-                                                default=0.0)
+    values["bias_current_doubling"] = r.number(t, w, "bias_current_doubling", "temperature", default=0.0)
+    values["input_differential_max"] = r.number(t, w, "input_differential_max", "voltage", default=0.0)
     raw = t.get("phase_reversal", False)
     if isinstance(raw, bool):
         values["phase_reversal"] = raw
@@ -63,13 +70,15 @@ def read_limits(t: dict, w: str, r) -> dict[str, object]:
         r.problem(f"{w}.phase_reversal", f"expected true or false, got {raw!r}")
         values["phase_reversal"] = None
     if "output_headroom_curve" in t:
-        values["output_headroom_curve"] = read_curve(t["output_headroom_curve"],
-                                                     f"{w}.output_headroom_curve", r,
-                                                     parse_quantity, ValueTextError)
+        values["output_headroom_curve"] = read_curve(
+            t["output_headroom_curve"], f"{w}.output_headroom_curve", r, parse_quantity, ValueTextError
+        )
     return {k: (None if v is ... else v) for k, v in values.items()}
 
 
-CURVE_HINT = 'expected points [[current, upper, lower], ...] such as [["0", "30m", "30m"], ["10m", "0.3", "0.35"]]'
+CURVE_HINT = (
+    'expected points [[current, upper, lower], ...] such as [["0", "30m", "30m"], ["10m", "0.3", "0.35"]]'
+)
 
 
 def read_curve(raw, where: str, r, parse_quantity, ValueTextError):
@@ -77,8 +86,7 @@ def read_curve(raw, where: str, r, parse_quantity, ValueTextError):
     each headroom never falling as the current rises."""
     if isinstance(raw, str):
         raw = parse_curve_text(raw)
-    if not isinstance(raw, list) or len(raw) < 1 or not all(isinstance(p, list) and len(p) == 3
-                                                             for p in raw):
+    if not isinstance(raw, list) or len(raw) < 1 or not all(isinstance(p, list) and len(p) == 3 for p in raw):
         r.problem(where, CURVE_HINT)
         return None
     points = []
@@ -106,6 +114,7 @@ def parse_curve_text(text: str):
 
 def curve_text(points) -> str:
     from railroom.engine.values import format_si
+
     return "; ".join(" ".join(format_si(x, "") for x in p) for p in points)
 
 
@@ -118,11 +127,12 @@ def curve_problem(points) -> str | None:
     for n in range(1, len(points)):
         (c0, u0, l0), (c1, u1, l1) = points[n - 1], points[n]
         if c1 <= c0:
-            return (f"point {n + 1}: currents must rise from point to point, got {c0:g} A then "
-                    f"{c1:g} A")
+            return f"point {n + 1}: currents must rise from point to point, got {c0:g} A then {c1:g} A"
         if u1 < u0 or l1 < l0:
-            return (f"point {n + 1}: not monotonic: headroom falls from ({u0:g}, {l0:g}) V to "
-                    f"({u1:g}, {l1:g}) V as the current rises")
+            return (
+                f"point {n + 1}: not monotonic: headroom falls from ({u0:g}, {l0:g}) V to "
+                f"({u1:g}, {l1:g}) V as the current rises"
+            )
     return None
 
 
@@ -137,6 +147,7 @@ def limit_problems(part) -> list[tuple[str, str]]:
 
 
 # --- what each limit changes ---------------------------------------------------------------
+
 
 def bias_at(part, temperature: float) -> float:
     """Bias current at a temperature: doubling every N °C above 25 °C (common practice for FET
@@ -179,8 +190,8 @@ def saturated_differential(block: str, v: dict, flags, signal: tuple, levels) ->
     r1, r2 = v["r1"][:, 0], v["r2"][:, 0]
     ref = v["ref"][:, 0] if "ref" in v else 0.0
     if flags.get("invert"):
-        to_low = (ref * r2 + high * r1) / (r1 + r2)       # + input while the output is high
-        to_high = (ref * r2 + low * r1) / (r1 + r2)       # + input while the output is low
+        to_low = (ref * r2 + high * r1) / (r1 + r2)  # + input while the output is high
+        to_high = (ref * r2 + low * r1) / (r1 + r2)  # + input while the output is low
         found = np.maximum(to_low - sig_lo, sig_hi - to_high)
     else:
         plus_high = (sig_hi * r2 + high * r1) / (r1 + r2)
@@ -204,14 +215,21 @@ def limit_cautions(measure, part, conditions, margins: dict) -> list[str]:
         low, high = conditions.temperature
         rated = part.temperature_range
         if low < rated[0] or high > rated[1]:
-            found.append(f"stage {name!r}: the chain's temperature range [{low:g}, {high:g}] °C "
-                         f"leaves the rated range [{rated[0]:g}, {rated[1]:g}] °C of part "
-                         f"{part.id!r}: its limits are not given there")
-    if part is not None and part.phase_reversal and (margins.get("input-high", 0.0) < 0
-                                                      or margins.get("input-low", 0.0) < 0):
-        found.append(f"stage {name!r}: the input leaves the common-mode range of part "
-                     f"{part.id!r}, whose output reverses phase there: the output may swing to "
-                     "the opposite rail, not just clip")
+            found.append(
+                f"stage {name!r}: the chain's temperature range [{low:g}, {high:g}] °C "
+                f"leaves the rated range [{rated[0]:g}, {rated[1]:g}] °C of part "
+                f"{part.id!r}: its limits are not given there"
+            )
+    if (
+        part is not None
+        and part.phase_reversal
+        and (margins.get("input-high", 0.0) < 0 or margins.get("input-low", 0.0) < 0)
+    ):
+        found.append(
+            f"stage {name!r}: the input leaves the common-mode range of part "
+            f"{part.id!r}, whose output reverses phase there: the output may swing to "
+            "the opposite rail, not just clip"
+        )
     return found
 
 
@@ -219,6 +237,7 @@ def with_limit_cautions(chain, plans, stages, responses=None) -> list:
     """The stage results with the cautions of their parts' limits added, and the phase-margin
     estimate of every stage with a load_capacitance."""
     from dataclasses import replace
+
     found = []
     for k, (plan, result) in enumerate(zip(plans, stages)):
         extra = limit_cautions(result.measure, plan.part, chain.conditions, result.margins)
@@ -227,35 +246,38 @@ def with_limit_cautions(chain, plans, stages, responses=None) -> list:
         if margin is not None:
             result = replace(result, measure=replace(result.measure, phase_margin_deg=margin))
             if margin < PHASE_MARGIN_CAUTION:
-                extra.append(f"estimated phase margin {margin:.0f}° with the "
-                             f"{format_capacitance(plan.stage.load_capacitance)} load capacitance, "
-                             f"under {PHASE_MARGIN_CAUTION:.0f}° (common practice): the output may "
-                             "ring or oscillate; isolate the load with a series resistor or use a "
-                             "part rated for it")
+                extra.append(
+                    f"estimated phase margin {margin:.0f}° with the "
+                    f"{format_capacitance(plan.stage.load_capacitance)} load capacitance, "
+                    f"under {PHASE_MARGIN_CAUTION:.0f}° (common practice): the output may "
+                    "ring or oscillate; isolate the load with a series resistor or use a "
+                    "part rated for it"
+                )
         found.append(replace(result, cautions=(*result.cautions, *extra)) if extra else result)
     return found
 
 
 # --- capacitive load: the phase-margin estimate ---------------------------------------------
 
-PHASE_MARGIN_CAUTION = 45.0      # degrees (common practice)
+PHASE_MARGIN_CAUTION = 45.0  # degrees (common practice)
 
 
 def format_capacitance(q) -> str:
     from railroom.engine.values import format_si
+
     return format_si(q.value, "F")
 
 
-def phase_margin_deg(gbw: float, noise_gain: float, output_resistance: float,
-                     load_capacitance: float) -> float:
+def phase_margin_deg(
+    gbw: float, noise_gain: float, output_resistance: float, load_capacitance: float
+) -> float:
     """Two-pole estimate: the loop crosses over near f_c = gbw / noise gain (the dominant pole
     gives 90° there), and the output resistance with the load capacitance adds a pole at
     f_p2 = 1 / (2 pi Ro CL): phase margin = 90° - atan(f_c / f_p2). Taking the crossover from
     the one-pole asymptote puts it above the true two-pole crossover, so the estimate is low
     (pessimistic): by 6.8° when f_p2 = f_c (51.8° exact, 45° estimated)."""
     f_c = gbw / noise_gain
-    return 90.0 - float(np.degrees(np.arctan(f_c * 2.0 * np.pi * output_resistance
-                                             * load_capacitance)))
+    return 90.0 - float(np.degrees(np.arctan(f_c * 2.0 * np.pi * output_resistance * load_capacitance)))
 
 
 def stage_phase_margin(plan, response) -> float | None:
@@ -265,8 +287,9 @@ def stage_phase_margin(plan, response) -> float | None:
     part = plan.part
     if c is None or part is None or response is None or plan.block.saturates or not response.opamps:
         return None
-    driving = next((j for j, a in enumerate(response.opamps) if a.output is response.output),
-                   len(response.opamps) - 1)
+    driving = next(
+        (j for j, a in enumerate(response.opamps) if a.output is response.output), len(response.opamps) - 1
+    )
     gains = response.opamps[driving].output.offset_gain
     if gains is None:
         return None
@@ -290,6 +313,7 @@ class _Collect:
 def curve_from_text(text: str) -> tuple[tuple | None, str | None]:
     """A curve written as the form writes it, and what is wrong with it (None when nothing)."""
     from railroom.engine.values import ValueTextError, parse_quantity
+
     collect = _Collect()
     points = read_curve(text, "output_headroom_curve", collect, parse_quantity, ValueTextError)
     return points, (collect.messages[0] if collect.messages else None)

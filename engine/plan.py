@@ -1,4 +1,5 @@
 """From a loaded chain to what the methods evaluate: parts resolved, values spread, grid built."""
+
 from __future__ import annotations
 
 from dataclasses import dataclass
@@ -21,9 +22,9 @@ class StagePlan:
     block: Block
     part: Part | None
     rails: Rails
-    quantities: Mapping[str, Quantity]      # every numeric field, flattened ("inputs.1.r")
-    flags: Mapping[str, object]             # booleans such as invert
-    path: str = "<chain>"                   # the chain file, for located messages
+    quantities: Mapping[str, Quantity]  # every numeric field, flattened ("inputs.1.r")
+    flags: Mapping[str, object]  # booleans such as invert
+    path: str = "<chain>"  # the chain file, for located messages
 
 
 def stage_quantities(stage: Stage) -> dict[str, Quantity]:
@@ -50,32 +51,46 @@ def plan_chain(chain: Chain, parts: Mapping[str, Part]) -> list[StagePlan]:
         if block.uses_part:
             part = parts.get(stage.part or "")
             if part is None:
-                problems.append(unknown_part(chain.path, stage.lines.get("part", stage.line),
-                                             index, stage.part or "", parts))
+                problems.append(
+                    unknown_part(
+                        chain.path, stage.lines.get("part", stage.line), index, stage.part or "", parts
+                    )
+                )
         flags = {k: v for k, v in stage.values.items() if isinstance(v, bool)}
-        plans.append(StagePlan(index, stage, block, part, chain.rails_for(stage),
-                               stage_quantities(stage), flags, chain.path))
+        plans.append(
+            StagePlan(
+                index, stage, block, part, chain.rails_for(stage), stage_quantities(stage), flags, chain.path
+            )
+        )
     if problems:
         raise InputError(problems)
     return plans
 
 
-def unknown_part(path: str, line: int | None, index: int, name: str,
-                 parts: Mapping[str, Part]) -> Problem:
+def unknown_part(path: str, line: int | None, index: int, name: str, parts: Mapping[str, Part]) -> Problem:
     broken = getattr(parts, "broken", {}).get(name)
-    if broken is not None:          # presets.PartTable: its latest definition failed to read
+    if broken is not None:  # presets.PartTable: its latest definition failed to read
         where = f"{broken.file}:{broken.line}" if broken.line else broken.file
-        return Problem(path, line, f"stage.{index}.part",
-                       f"part {name!r} is defined in {where}, which could not be read "
-                       f"({broken.field}: {visible(broken.message, 120)}); no other "
-                       "definition is used in its place")
+        return Problem(
+            path,
+            line,
+            f"stage.{index}.part",
+            f"part {name!r} is defined in {where}, which could not be read "
+            f"({broken.field}: {visible(broken.message, 120)}); no other "
+            "definition is used in its place",
+        )
     near = _near(name, parts)
-    return Problem(path, line, f"stage.{index}.part", f"unknown part {name!r}" +
-                   (f"; did you mean {near!r}?" if near else "; see `railroom presets list`"))
+    return Problem(
+        path,
+        line,
+        f"stage.{index}.part",
+        f"unknown part {name!r}" + (f"; did you mean {near!r}?" if near else "; see `railroom presets list`"),
+    )
 
 
 def _near(name: str, parts: Mapping[str, Part]) -> str | None:
     import difflib
+
     found = difflib.get_close_matches(name, list(parts), n=1, cutoff=0.5)
     return found[0] if found else None
 

@@ -7,6 +7,7 @@ them and the neighbouring parts stay byte-for-byte. Before anything is written t
 read back by the same loader as every other preset (`parts_from_text`), and saving goes through
 `write_atomic` with a backup, after checking that nobody changed the file since it was opened.
 """
+
 from __future__ import annotations
 
 import re
@@ -75,7 +76,7 @@ def raw_fields(text: str, part_id: str) -> dict[str, Raw]:
     found: dict[str, Raw] = {}
     for key, value in table.unwrap().items():
         if isinstance(value, list) and value and all(isinstance(p, list) for p in value):
-            found[key] = "; ".join(" ".join(_written(x) for x in p) for p in value)   # a curve
+            found[key] = "; ".join(" ".join(_written(x) for x in p) for p in value)  # a curve
         elif isinstance(value, list) and len(value) == 2:
             found[key] = (_written(value[0]), _written(value[1]))
         else:
@@ -109,10 +110,11 @@ def _put(table, key: str, raw: Raw) -> None:
     value: object = list(raw) if isinstance(raw, tuple) else raw
     kind = PART_FIELDS[key][0]
     if kind == "flag" and isinstance(raw, str) and raw.strip().lower() in ("true", "false"):
-        value = raw.strip().lower() == "true"            # a TOML boolean, as the file format says
+        value = raw.strip().lower() == "true"  # a TOML boolean, as the file format says
     elif kind == "curve" and isinstance(raw, str):
         from railroom.engine.part_limits import parse_curve_text
-        value = parse_curve_text(raw)                    # "0 30m 30m; 10m 0.3 0.35" -> points
+
+        value = parse_curve_text(raw)  # "0 30m 30m; 10m 0.3 0.35" -> points
     if key in table:
         table[key] = value
         return
@@ -120,7 +122,7 @@ def _put(table, key: str, raw: Raw) -> None:
     # reads in order;
     # tomlkit's public add() would put it after the blank lines and comments ending the table.
     order = list(PART_FIELDS)
-    before = [k for k in order[:order.index(key)] if k in table] or list(table.keys())
+    before = [k for k in order[: order.index(key)] if k in table] or list(table.keys())
     if before:
         insert_after(table, before[-1], key, value)
     else:

@@ -4,6 +4,7 @@ Search order, later wins: the presets shipped with railroom, the user's own fold
 config folder, `railroom/presets`; RAILROOM_PRESETS_HOME overrides it, which tests use to keep a
 developer's own folder out), folders named in the chain file, folders given with --presets.
 """
+
 from __future__ import annotations
 
 import os
@@ -12,8 +13,14 @@ from pathlib import Path
 
 from railroom.engine.model import Part, Problem
 from railroom.engine.part_limits import LIMIT_FIELDS, LIMIT_SIDES, LIMIT_UNITS, limit_problems, read_limits
-from railroom.engine.reading import (MAX_TEXT, FieldReader, FileUnreadable, parse_toml, read_user_file,
-                                     undecodable_text)
+from railroom.engine.reading import (
+    MAX_TEXT,
+    FieldReader,
+    FileUnreadable,
+    parse_toml,
+    read_user_file,
+    undecodable_text,
+)
 from railroom.engine.toml_lines import key_lines
 from railroom.engine.values import has_control, visible
 
@@ -32,18 +39,35 @@ PART_FIELDS = {
     "offset_drift": ("voltage", False, False),
     "bias_current": ("current", False, False),
     "output_current": ("current", False, True),
-    **LIMIT_FIELDS,                         # datasheet limits: engine/part_limits.py
+    **LIMIT_FIELDS,  # datasheet limits: engine/part_limits.py
 }
 # What the two ends of each pair field mean, in file order (SPEC section 3).
-PAIR_SIDES = {"supply": ("low", "high"), "output_headroom": ("upper", "lower"),
-              "input_headroom": ("upper", "lower"), **LIMIT_SIDES}
-UNITS = {"supply": "V", "supply_abs_max": "V", "output_headroom": "V", "output_resistance": "Ω",
-         "input_headroom": "V", "gbw": "Hz", "slew": "V/s", "open_loop_gain": "V/V", "offset": "V",
-         "offset_drift": "V/°C", "bias_current": "A", "output_current": "A", **LIMIT_UNITS}
+PAIR_SIDES = {
+    "supply": ("low", "high"),
+    "output_headroom": ("upper", "lower"),
+    "input_headroom": ("upper", "lower"),
+    **LIMIT_SIDES,
+}
+UNITS = {
+    "supply": "V",
+    "supply_abs_max": "V",
+    "output_headroom": "V",
+    "output_resistance": "Ω",
+    "input_headroom": "V",
+    "gbw": "Hz",
+    "slew": "V/s",
+    "open_loop_gain": "V/V",
+    "offset": "V",
+    "offset_drift": "V/°C",
+    "bias_current": "A",
+    "output_current": "A",
+    **LIMIT_UNITS,
+}
 
 
 def shipped_folder() -> Path:
     import railroom.presets
+
     return Path(railroom.presets.__file__).parent
 
 
@@ -52,6 +76,7 @@ def user_folder() -> Path:
     if home:
         return Path(home)
     from platformdirs import user_config_dir
+
     return Path(user_config_dir("railroom")) / "presets"
 
 
@@ -61,9 +86,16 @@ def search_order(chain_dirs: tuple[str, ...] = (), extra_dirs: tuple[str, ...] =
 
 def missing_folders(extra_dirs: tuple[str, ...]) -> list[Problem]:
     """A --presets folder that is not there: its parts would silently be missing."""
-    return [Problem("--presets", None, visible(folder, 400),
-                    "not a folder" if Path(folder).exists() else "no such folder")
-            for folder in extra_dirs if not Path(folder).is_dir()]
+    return [
+        Problem(
+            "--presets",
+            None,
+            visible(folder, 400),
+            "not a folder" if Path(folder).exists() else "no such folder",
+        )
+        for folder in extra_dirs
+        if not Path(folder).is_dir()
+    ]
 
 
 class PartTable(dict):
@@ -75,7 +107,7 @@ class PartTable(dict):
     def __init__(self, *args, **kwargs) -> None:
         super().__init__(*args, **kwargs)
         self.broken: dict[str, Problem] = {}
-        self.hidden: dict[str, str] = {}        # broken id -> the earlier file no longer used
+        self.hidden: dict[str, str] = {}  # broken id -> the earlier file no longer used
 
 
 @dataclass
@@ -118,8 +150,7 @@ def load_library(folders: list[Path]) -> Library:
         try:
             paths = preset_files(folder)
         except OSError as err:
-            problem = Problem(str(folder), None, "(folder)",
-                              f"cannot be read: {err.strerror or err}")
+            problem = Problem(str(folder), None, "(folder)", f"cannot be read: {err.strerror or err}")
             library.problems.append(problem)
             library.fatal.append(problem)
             continue
@@ -170,8 +201,9 @@ def _tables_in(text: str, path: str, problem: Problem) -> dict[str, Problem]:
     return found
 
 
-def parts_from_text(text: str, path: str, broken: dict[str, Problem] | None = None
-                    ) -> tuple[list[Part], list[Problem]]:
+def parts_from_text(
+    text: str, path: str, broken: dict[str, Problem] | None = None
+) -> tuple[list[Part], list[Problem]]:
     """The good parts and the problems; `broken` (when given) receives the ids that failed."""
     broken = {} if broken is None else broken
     data, problems = parse_toml(text, path)
@@ -194,8 +226,9 @@ def parts_from_text(text: str, path: str, broken: dict[str, Problem] | None = No
             parts.append(replace(part, origin=path))
         elif len(reader.problems) > before:
             first = reader.problems[before]
-            broken[part_id] = Problem(path, reader.line(f"part.{part_id}") or first.line,
-                                      first.field, first.message)
+            broken[part_id] = Problem(
+                path, reader.line(f"part.{part_id}") or first.line, first.field, first.message
+            )
     return parts, reader.problems
 
 
@@ -219,19 +252,23 @@ def _read_part(part_id: str, t, r: FieldReader) -> Part | None:
             values[key] = r.text_field(t, w, key, default="")
         elif pair:
             headroom = "headroom" in key
-            values[key] = (r.span(t, w, key, kind, None, check_order=not headroom,
-                                  ordered=", ".join(PAIR_SIDES[key]))
-                           if key in t else _missing(r, w, key))
+            values[key] = (
+                r.span(t, w, key, kind, None, check_order=not headroom, ordered=", ".join(PAIR_SIDES[key]))
+                if key in t
+                else _missing(r, w, key)
+            )
         elif key == "output_resistance":
             raw = t.get(key, 0)
             values[key] = 0.0 if raw in (0, "0") else r.number(t, w, key, "resistance")
         else:
             default = 0.0 if not required else ...
-            values[key] = (r.number(t, w, key, kind) if default is ... else
-                           r.number(t, w, key, kind, default=default))
+            values[key] = (
+                r.number(t, w, key, kind) if default is ... else r.number(t, w, key, kind, default=default)
+            )
     limits = read_limits(t, w, r)
     if any(v is None for v in values.values()) or any(
-            v is None for k, v in limits.items() if k != "temperature_range" or k in t):
+        v is None for k, v in limits.items() if k != "temperature_range" or k in t
+    ):
         return None
     part = Part(id=part_id, **values, **limits)
     for key, message in sanity_problems(part) + limit_problems(part):
@@ -241,7 +278,7 @@ def _read_part(part_id: str, t, r: FieldReader) -> Part | None:
 
 def _missing(r: FieldReader, w: str, key: str) -> tuple[float, float] | None:
     """Record a missing pair; None stands for it among the part's values."""
-    r.problem(f"{w}.{key}", "missing; expected a pair such as [\"30m\", \"30m\"]")
+    r.problem(f"{w}.{key}", 'missing; expected a pair such as ["30m", "30m"]')
     return None
 
 
@@ -257,11 +294,19 @@ def sanity_problems(part: Part) -> list[tuple[str, str]]:
     if part.supply_abs_max < high:
         found.append(("supply_abs_max", f"below the largest allowed supply ({high:g} V)"))
     if sum(part.output_headroom) >= low:
-        found.append(("output_headroom", "upper plus lower headroom leaves no output swing at the "
-                                         f"smallest supply ({low:g} V)"))
+        found.append(
+            (
+                "output_headroom",
+                f"upper plus lower headroom leaves no output swing at the smallest supply ({low:g} V)",
+            )
+        )
     if sum(part.input_headroom) >= low:
-        found.append(("input_headroom", "upper plus lower headroom leaves no input range at the "
-                                        f"smallest supply ({low:g} V)"))
+        found.append(
+            (
+                "input_headroom",
+                f"upper plus lower headroom leaves no input range at the smallest supply ({low:g} V)",
+            )
+        )
     if min(part.output_headroom) < 0:
         found.append(("output_headroom", "below 0: an output cannot swing beyond its own rails"))
     for key, unit in (("gbw", "Hz"), ("slew", "V/s")):

@@ -25,6 +25,7 @@ each row, which is 3-4 times faster for the (J, 1) x (J, F) products here; eleme
 not depend on the memory order. A source whose amplitude bounds are one array (amp_lo is amp_hi)
 keeps them one array, so a_sel needs no choice.
 """
+
 from __future__ import annotations
 
 from dataclasses import dataclass
@@ -61,9 +62,9 @@ class DifferentialSignal:
 
 @dataclass(frozen=True)
 class NodeBounds:
-    lo: np.ndarray        # (J, F) lowest instantaneous value at each frequency
+    lo: np.ndarray  # (J, F) lowest instantaneous value at each frequency
     hi: np.ndarray
-    amp_lo: np.ndarray    # (J, F) AC amplitude bounds
+    amp_lo: np.ndarray  # (J, F) AC amplitude bounds
     amp_hi: np.ndarray
 
 
@@ -91,7 +92,7 @@ class NodeTerms:
 
     fixed: np.ndarray | float
     error: np.ndarray | float
-    g: np.ndarray | None = None            # None: the node does not see the chain signal
+    g: np.ndarray | None = None  # None: the node does not see the chain signal
     gain: np.ndarray | None = None
     magnitude: np.ndarray | None = None
     spare: np.ndarray | None = None
@@ -108,8 +109,9 @@ class NodeTerms:
         return np.asarray(self.spare >= 0)
 
 
-def single_terms(node: Node, v: dict, error: np.ndarray | float, shift: np.ndarray | float = 0.0,
-                 order: str = "C") -> NodeTerms:
+def single_terms(
+    node: Node, v: dict, error: np.ndarray | float, shift: np.ndarray | float = 0.0, order: str = "C"
+) -> NodeTerms:
     """`order`: the memory order of the signal arrays the node will meet (see memory_order)."""
     transfer = node.transfers.get("in")
     fixed = as_column(fixed_part(node, v, ("in",)) + shift)
@@ -122,8 +124,14 @@ def single_terms(node: Node, v: dict, error: np.ndarray | float, shift: np.ndarr
     return NodeTerms(fixed, error, g, gain, magnitude, magnitude - gain)
 
 
-def single_bounds(node: Node, v: dict, signal: Signal, error: np.ndarray | float,
-                  shift: np.ndarray | float = 0.0, terms: NodeTerms | None = None) -> NodeBounds:
+def single_bounds(
+    node: Node,
+    v: dict,
+    signal: Signal,
+    error: np.ndarray | float,
+    shift: np.ndarray | float = 0.0,
+    terms: NodeTerms | None = None,
+) -> NodeBounds:
     """Bounds of a node fed by a single-ended signal (see the module docstring). `terms`: the
     node's own terms when the caller keeps them (then `error` and `shift` are not read)."""
     if terms is None:
@@ -152,12 +160,13 @@ def as_column(x: np.ndarray | float) -> np.ndarray | float:
 
 
 def memory_order(x: np.ndarray) -> str:
-    """"F" for a column-major (J, F) array, else "C" (see the module docstring)."""
+    """ "F" for a column-major (J, F) array, else "C" (see the module docstring)."""
     return "F" if x.flags.f_contiguous and not x.flags.c_contiguous else "C"
 
 
-def signed_sides(g: np.ndarray, signal: Signal, positive: np.ndarray | None = None
-                 ) -> tuple[np.ndarray, np.ndarray]:
+def signed_sides(
+    g: np.ndarray, signal: Signal, positive: np.ndarray | None = None
+) -> tuple[np.ndarray, np.ndarray]:
     """(up, down): (hi, lo) where g >= 0, (-lo, -hi) where g < 0. The sign of g is nearly
     always the same for every draw; the choice is then made once, not per element.
     `positive`: g >= 0 when the caller has it."""
@@ -169,8 +178,13 @@ def signed_sides(g: np.ndarray, signal: Signal, positive: np.ndarray | None = No
     return np.where(positive, signal.hi, -signal.lo), np.where(positive, signal.lo, -signal.hi)
 
 
-def differential_bounds(node: Node, v: dict, signal: DifferentialSignal,
-                        error: np.ndarray | float, shift: np.ndarray | float = 0.0) -> NodeBounds:
+def differential_bounds(
+    node: Node,
+    v: dict,
+    signal: DifferentialSignal,
+    error: np.ndarray | float,
+    shift: np.ndarray | float = 0.0,
+) -> NodeBounds:
     """Exact bounds of a node fed by the two sides of a differential source."""
     pos = node.transfers.get("pos", 0.0)
     neg = node.transfers.get("neg", 0.0)
@@ -188,8 +202,9 @@ def differential_bounds(node: Node, v: dict, signal: DifferentialSignal,
     d_hi = np.maximum(g_d * signal.difference[0], g_d * signal.difference[1])
     d_lo = np.minimum(g_d * signal.difference[0], g_d * signal.difference[1])
     amp = np.abs(diff[..., 1:]) * signal.amplitude
-    return NodeBounds(lo=fixed - error + cm_lo + d_lo - amp, hi=fixed + error + cm_hi + d_hi + amp,
-                      amp_lo=amp, amp_hi=amp)
+    return NodeBounds(
+        lo=fixed - error + cm_lo + d_lo - amp, hi=fixed + error + cm_hi + d_hi + amp, amp_lo=amp, amp_hi=amp
+    )
 
 
 def node_bounds(node: Node, v: dict, signal, error, shift=0.0) -> NodeBounds:
@@ -198,8 +213,9 @@ def node_bounds(node: Node, v: dict, signal, error, shift=0.0) -> NodeBounds:
     return single_bounds(node, v, signal, error, shift)
 
 
-def loaded_bounds(node: Node, v: dict, signal, impedance: np.ndarray, load,
-                  shift: np.ndarray | float = 0.0) -> NodeBounds:
+def loaded_bounds(
+    node: Node, v: dict, signal, impedance: np.ndarray, load, shift: np.ndarray | float = 0.0
+) -> NodeBounds:
     """The voltage at a passive stage's output with the next stage's input on it. The node is
     the open-circuit (Thevenin) voltage Vth, `impedance` the Thevenin impedance Z (J, F+1) and
     `load` what the next stage draws (blocks.base.InputLoad: a conductance G to a return Vr):
@@ -211,30 +227,39 @@ def loaded_bounds(node: Node, v: dict, signal, impedance: np.ndarray, load,
         divided = Node(transfers={k: t * share for k, t in node.transfers.items()})
         for vr in sorted(set(load.returns)):
             found.append(node_bounds(divided, v, signal, 0.0, shift + (1.0 - share[..., :1].real) * vr))
-    return NodeBounds(lo=np.minimum.reduce([b.lo for b in found]),
-                      hi=np.maximum.reduce([b.hi for b in found]),
-                      amp_lo=np.minimum.reduce([b.amp_lo for b in found]),
-                      amp_hi=np.maximum.reduce([b.amp_hi for b in found]))
+    return NodeBounds(
+        lo=np.minimum.reduce([b.lo for b in found]),
+        hi=np.maximum.reduce([b.hi for b in found]),
+        amp_lo=np.minimum.reduce([b.amp_lo for b in found]),
+        amp_hi=np.maximum.reduce([b.amp_hi for b in found]),
+    )
 
 
 def merge(bounds: NodeBounds, fed_clipped: bool) -> Signal:
     """Worst case over a stage's own corners: the next stage's input (corners method)."""
-    return Signal(hi=bounds.hi.max(axis=0), lo=bounds.lo.min(axis=0),
-                  amp_lo=bounds.amp_lo.min(axis=0), amp_hi=bounds.amp_hi.max(axis=0),
-                  fed_clipped=fed_clipped)
+    return Signal(
+        hi=bounds.hi.max(axis=0),
+        lo=bounds.lo.min(axis=0),
+        amp_lo=bounds.amp_lo.min(axis=0),
+        amp_hi=bounds.amp_hi.max(axis=0),
+        fed_clipped=fed_clipped,
+    )
 
 
 def clamp(signal: Signal, window: tuple[float, float]) -> Signal:
     """What a clipping stage passes on: its output held inside its swing window."""
     low, high = window
     half = max((high - low) / 2.0, 0.0)
-    return Signal(hi=np.clip(signal.hi, low, high), lo=np.clip(signal.lo, low, high),
-                  amp_lo=np.minimum(signal.amp_lo, half), amp_hi=np.minimum(signal.amp_hi, half),
-                  fed_clipped=True)
+    return Signal(
+        hi=np.clip(signal.hi, low, high),
+        lo=np.clip(signal.lo, low, high),
+        amp_lo=np.minimum(signal.amp_lo, half),
+        amp_hi=np.minimum(signal.amp_hi, half),
+        fed_clipped=True,
+    )
 
 
 def source_signal(level: tuple[float, float], amplitude: float, freqs: np.ndarray) -> Signal:
     ones = np.ones_like(freqs)
-    a = amplitude * ones           # one array for both amplitude bounds (module docstring, Speed)
-    return Signal(hi=(level[1] + amplitude) * ones, lo=(level[0] - amplitude) * ones,
-                  amp_lo=a, amp_hi=a)
+    a = amplitude * ones  # one array for both amplitude bounds (module docstring, Speed)
+    return Signal(hi=(level[1] + amplitude) * ones, lo=(level[0] - amplitude) * ones, amp_lo=a, amp_hi=a)

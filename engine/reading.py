@@ -3,6 +3,7 @@
 One `FieldReader` serves one file: every accessor returns a value or None and records a
 `Problem(file, line, field, message)` instead of raising, so a file's problems come out all at once.
 """
+
 from __future__ import annotations
 
 import re
@@ -19,7 +20,7 @@ else:  # pragma: no cover - exercised on Python 3.10 only
     import tomli as tomllib
 
 _MISSING = object()
-MAX_FILE_BYTES = 1 << 20        # 1 MiB: a 200-stage chain is about 20 kB (README, "Limits")
+MAX_FILE_BYTES = 1 << 20  # 1 MiB: a 200-stage chain is about 20 kB (README, "Limits")
 
 
 class FileUnreadable(Exception):
@@ -37,6 +38,7 @@ def read_user_file(path, limit: int = MAX_FILE_BYTES) -> str:
     FileUnreadable with a located problem (a bad byte is named by its line)."""
     import os
     import stat
+
     name = str(path)
     try:
         # O_NONBLOCK: opening a FIFO with no writer returns at once instead of waiting for one.
@@ -46,12 +48,20 @@ def read_user_file(path, limit: int = MAX_FILE_BYTES) -> str:
     try:
         info = os.fstat(handle)
         if not stat.S_ISREG(info.st_mode):
-            kind = ("a folder" if stat.S_ISDIR(info.st_mode) else
-                    "a FIFO (named pipe)" if stat.S_ISFIFO(info.st_mode) else
-                    "a device" if stat.S_ISCHR(info.st_mode) or stat.S_ISBLK(info.st_mode) else
-                    "a socket" if stat.S_ISSOCK(info.st_mode) else "not a plain file")
-            raise FileUnreadable(Problem(name, None, "(file)",
-                                         f"not read: {kind}, not a regular file"), skipped=True)
+            kind = (
+                "a folder"
+                if stat.S_ISDIR(info.st_mode)
+                else "a FIFO (named pipe)"
+                if stat.S_ISFIFO(info.st_mode)
+                else "a device"
+                if stat.S_ISCHR(info.st_mode) or stat.S_ISBLK(info.st_mode)
+                else "a socket"
+                if stat.S_ISSOCK(info.st_mode)
+                else "not a plain file"
+            )
+            raise FileUnreadable(
+                Problem(name, None, "(file)", f"not read: {kind}, not a regular file"), skipped=True
+            )
         if info.st_size > limit:
             raise FileUnreadable(Problem(name, None, "(file)", _too_large(info.st_size, limit)))
         chunks, size = [], 0
@@ -71,10 +81,15 @@ def read_user_file(path, limit: int = MAX_FILE_BYTES) -> str:
     try:
         return data.decode("utf-8-sig")
     except UnicodeDecodeError as err:
-        line = data[:err.start].count(b"\n") + 1
-        raise FileUnreadable(Problem(name, line, "(file)", "not UTF-8 text: byte "
-                                     f"0x{data[err.start]:02x} cannot be decoded; save the file as "
-                                     "UTF-8")) from None
+        line = data[: err.start].count(b"\n") + 1
+        raise FileUnreadable(
+            Problem(
+                name,
+                line,
+                "(file)",
+                f"not UTF-8 text: byte 0x{data[err.start]:02x} cannot be decoded; save the file as UTF-8",
+            )
+        ) from None
 
 
 def undecodable_text(path, limit: int = MAX_FILE_BYTES) -> str:
@@ -82,6 +97,7 @@ def undecodable_text(path, limit: int = MAX_FILE_BYTES) -> str:
     names for a message); empty when it cannot be read at all."""
     import os
     import stat
+
     try:
         handle = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
     except OSError:
@@ -101,13 +117,12 @@ def _reason(err: OSError) -> str:
 
 
 def _too_large(size: int, limit: int) -> str:
-    return (f"too large to be a chain or preset file ({size:,} bytes; the limit is "
-            f"{limit:,} bytes)")
+    return f"too large to be a chain or preset file ({size:,} bytes; the limit is {limit:,} bytes)"
 
 
-MAX_TEXT = 200       # characters in a title, name or description (README, "Limits")
-MAX_UNKNOWN = 20     # unknown keys named one by one in each table; the rest are counted
-MAX_NESTING = 16     # levels of tables and arrays; a chain needs 5 (stage.N.inputs.M.r), a preset 4
+MAX_TEXT = 200  # characters in a title, name or description (README, "Limits")
+MAX_UNKNOWN = 20  # unknown keys named one by one in each table; the rest are counted
+MAX_NESTING = 16  # levels of tables and arrays; a chain needs 5 (stage.N.inputs.M.r), a preset 4
 
 
 def parse_toml(text: str, path: str) -> tuple[dict | None, list[Problem]]:
@@ -120,9 +135,15 @@ def parse_toml(text: str, path: str) -> tuple[dict | None, list[Problem]]:
     except tomllib.TOMLDecodeError as err:
         return None, [_syntax_problem(err, text, path)]
     if data is None or nesting_depth(data) > MAX_NESTING:
-        return None, [Problem(path, deepest_line(text), "(file)",
-                              f"nested more than {MAX_NESTING} levels deep (tables and arrays); "
-                              "a chain file needs 5, a preset file 4")]
+        return None, [
+            Problem(
+                path,
+                deepest_line(text),
+                "(file)",
+                f"nested more than {MAX_NESTING} levels deep (tables and arrays); "
+                "a chain file needs 5, a preset file 4",
+            )
+        ]
     return data, []
 
 
@@ -218,11 +239,13 @@ class FieldReader:
 
     def problem(self, where: str, message: str, label: str | None = None) -> None:
         # Keys and echoed values are user text: never let a control character reach a terminal.
-        self.problems.append(Problem(self.path, self.line(where), visible(label or where),
-                                     visible(message, 400)))
+        self.problems.append(
+            Problem(self.path, self.line(where), visible(label or where), visible(message, 400))
+        )
 
-    def quantity(self, table: dict, where: str, key: str, kind: str, *, default=_MISSING,
-                 label: str | None = None) -> Quantity | None:
+    def quantity(
+        self, table: dict, where: str, key: str, kind: str, *, default=_MISSING, label: str | None = None
+    ) -> Quantity | None:
         """A value of SPEC section 1; `default` (a float) when the key is absent and allowed."""
         raw = table.get(key, _MISSING)
         name = f"{where}.{key}" if where else key
@@ -237,8 +260,9 @@ class FieldReader:
             self.problem(name, str(err), label)
             return None
 
-    def number(self, table: dict, where: str, key: str, kind: str, default=_MISSING,
-               label: str | None = None) -> float | None:
+    def number(
+        self, table: dict, where: str, key: str, kind: str, default=_MISSING, label: str | None = None
+    ) -> float | None:
         """A plain value: written tolerance is refused here (rails and ranges say theirs elsewhere)."""
         q = self.quantity(table, where, key, kind, default=default, label=label)
         if q is None:
@@ -248,8 +272,17 @@ class FieldReader:
             return None
         return q.value
 
-    def span(self, table: dict, where: str, key: str, kind: str, default, *,
-             ordered: str = "low, high", check_order: bool = True) -> tuple[float, float] | None:
+    def span(
+        self,
+        table: dict,
+        where: str,
+        key: str,
+        kind: str,
+        default,
+        *,
+        ordered: str = "low, high",
+        check_order: bool = True,
+    ) -> tuple[float, float] | None:
         """A [low, high] pair; a reversed pair is a problem."""
         raw = table.get(key, _MISSING)
         name = f"{where}.{key}" if where else key
@@ -267,13 +300,23 @@ class FieldReader:
                 return None
             values.append(q.value)
         if check_order and values[0] > values[1]:
-            self.problem(name, f"reversed: expected [{ordered}] with the first not above the second, "
-                               f"got [{values[0]:g}, {values[1]:g}]")
+            self.problem(
+                name,
+                f"reversed: expected [{ordered}] with the first not above the second, "
+                f"got [{values[0]:g}, {values[1]:g}]",
+            )
             return None
         return (values[0], values[1])
 
-    def text_field(self, table: dict, where: str, key: str, default=_MISSING,
-                   choices: tuple[str, ...] | None = None, longest: int = MAX_TEXT) -> str | None:
+    def text_field(
+        self,
+        table: dict,
+        where: str,
+        key: str,
+        default=_MISSING,
+        choices: tuple[str, ...] | None = None,
+        longest: int = MAX_TEXT,
+    ) -> str | None:
         raw = table.get(key, _MISSING)
         name = f"{where}.{key}" if where else key
         if raw is _MISSING:
@@ -308,24 +351,32 @@ class FieldReader:
         unknown = [key for key in table if key not in known]
         for key in unknown[:MAX_UNKNOWN]:
             hint = _closest(key, known)
-            self.problem(f"{where}.{key}" if where else key,
-                         f"unknown field for {what}" + (f"; did you mean {hint!r}?" if hint else
-                         f"; expected one of {', '.join(sorted(known))}"))
+            self.problem(
+                f"{where}.{key}" if where else key,
+                f"unknown field for {what}"
+                + (f"; did you mean {hint!r}?" if hint else f"; expected one of {', '.join(sorted(known))}"),
+            )
         if len(unknown) > MAX_UNKNOWN:
             rest = unknown[MAX_UNKNOWN:]
-            self.problem(f"{where}.{rest[0]}" if where else rest[0],
-                         f"{len(rest):,} more unknown fields for {what} from this line on "
-                         "(not listed one by one)",
-                         label=where or "(file)")
+            self.problem(
+                f"{where}.{rest[0]}" if where else rest[0],
+                f"{len(rest):,} more unknown fields for {what} from this line on (not listed one by one)",
+                label=where or "(file)",
+            )
 
 
 def _expected(kind: str) -> str:
-    return {"resistance": 'a resistance such as "4k7" or "10k 1%"',
-            "capacitance": 'a capacitance such as "4n7"', "voltage": 'a voltage such as "2.5" or "-15"',
-            "current": 'a current such as "20m"', "frequency": 'a frequency such as "20k"',
-            "gain": 'a gain such as "100dB"', "slew": 'a slew rate such as "0.5V/us"',
-            "fraction": 'a fraction such as "1%"', "temperature": "a temperature in C",
-            }.get(kind, f"a {kind}")
+    return {
+        "resistance": 'a resistance such as "4k7" or "10k 1%"',
+        "capacitance": 'a capacitance such as "4n7"',
+        "voltage": 'a voltage such as "2.5" or "-15"',
+        "current": 'a current such as "20m"',
+        "frequency": 'a frequency such as "20k"',
+        "gain": 'a gain such as "100dB"',
+        "slew": 'a slew rate such as "0.5V/us"',
+        "fraction": 'a fraction such as "1%"',
+        "temperature": "a temperature in C",
+    }.get(kind, f"a {kind}")
 
 
 def _one_of(choices: tuple[str, ...] | None) -> str:
@@ -334,5 +385,6 @@ def _one_of(choices: tuple[str, ...] | None) -> str:
 
 def _closest(word: str, known) -> str | None:
     import difflib
+
     found = difflib.get_close_matches(word, list(known), n=1, cutoff=0.6)
     return found[0] if found else None

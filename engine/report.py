@@ -1,4 +1,5 @@
 """Results -> the JSON report of SPEC section 5 (pure functions; the caller prints)."""
+
 from __future__ import annotations
 
 import math
@@ -27,24 +28,38 @@ def stage_report(result: StageResult) -> dict:
         "reasons": list(result.reasons),
         "gain_error": _number(m.gain_error),
         "limiting": result.limiting,
-        "output": {"min": _number(m.output[0]), "max": _number(m.output[1]),
-                   "nominal": [_number(m.nominal[0]), _number(m.nominal[1])]},
-        "window": (None if m.window is None else
-                   {"low": _number(m.window[0]), "high": _number(m.window[1])}),
-        "input": (None if not amps else
-                  {"min": _number(min(a.input[0] for a in amps)),
-                   "max": _number(max(a.input[1] for a in amps))}),
+        "output": {
+            "min": _number(m.output[0]),
+            "max": _number(m.output[1]),
+            "nominal": [_number(m.nominal[0]), _number(m.nominal[1])],
+        },
+        "window": (None if m.window is None else {"low": _number(m.window[0]), "high": _number(m.window[1])}),
+        "input": (
+            None
+            if not amps
+            else {
+                "min": _number(min(a.input[0] for a in amps)),
+                "max": _number(max(a.input[1] for a in amps)),
+            }
+        ),
         "margins": {k: _number(v) for k, v in result.margins.items()},
         "probability": _number(m.probability),
         # extensions beyond SPEC section 5 (documented in the README)
-        "nodes": [{"label": a.label, "output": [_number(a.output[0]), _number(a.output[1])],
-                   "window": [_number(a.window[0]), _number(a.window[1])],
-                   "input": [_number(a.input[0]), _number(a.input[1])],
-                   "input_window": [_number(a.input_window[0]), _number(a.input_window[1])],
-                   "slew_needed": _number(a.slew_needed), "current_needed": _number(a.current_needed)}
-                  for a in amps],
-        "failing_nodes": {k: result.failing_nodes[k] for k in result.reasons
-                          if k in result.failing_nodes and len(amps) > 1},
+        "nodes": [
+            {
+                "label": a.label,
+                "output": [_number(a.output[0]), _number(a.output[1])],
+                "window": [_number(a.window[0]), _number(a.window[1])],
+                "input": [_number(a.input[0]), _number(a.input[1])],
+                "input_window": [_number(a.input_window[0]), _number(a.input_window[1])],
+                "slew_needed": _number(a.slew_needed),
+                "current_needed": _number(a.current_needed),
+            }
+            for a in amps
+        ],
+        "failing_nodes": {
+            k: result.failing_nodes[k] for k in result.reasons if k in result.failing_nodes and len(amps) > 1
+        },
         "cautions": list(result.cautions),
     }
     if m.phase_margin_deg is not None:
@@ -52,17 +67,21 @@ def stage_report(result: StageResult) -> dict:
     if m.thresholds is not None:
         # input levels at which the output switches high and switches low (either may be the
         # upper one: an inverting trigger goes high as its input falls)
-        report["thresholds"] = {"to_high": [_number(x) for x in m.thresholds[0]],
-                                "to_low": [_number(x) for x in m.thresholds[1]]}
+        report["thresholds"] = {
+            "to_high": [_number(x) for x in m.thresholds[0]],
+            "to_low": [_number(x) for x in m.thresholds[1]],
+        }
     if result.sensitivity:
-        report["sensitivity"] = [{"quantity": s.quantity, "label": s.words, "share": _number(s.share, 3)}
-                                 for s in result.sensitivity]
+        report["sensitivity"] = [
+            {"quantity": s.quantity, "label": s.words, "share": _number(s.share, 3)}
+            for s in result.sensitivity
+        ]
     if result.fixes:
-        report["fixes"] = [{"text": f.text, "field": f.field, "value": _number(f.value)}
-                           for f in result.fixes]
+        report["fixes"] = [
+            {"text": f.text, "field": f.field, "value": _number(f.value)} for f in result.fixes
+        ]
     if m.percentiles:
-        report["percentiles"] = {k: {q: _number(v) for q, v in d.items()}
-                                 for k, d in m.percentiles.items()}
+        report["percentiles"] = {k: {q: _number(v) for q, v in d.items()} for k, d in m.percentiles.items()}
     return report
 
 
@@ -82,15 +101,19 @@ def chain_report(result: ChainResult) -> dict:
     }
     if result.chain_yield is not None:
         from railroom.engine.methods.rare import wilson
+
         report["yield"] = _number(result.chain_yield)
         samples = result.samples or 0
-        report["yield_interval"] = [_number(x) for x in
-                                    wilson(round(result.chain_yield * samples), samples)]
+        report["yield_interval"] = [_number(x) for x in wilson(round(result.chain_yield * samples), samples)]
     rare = result.rare
     if rare is not None:
         report["failure_probability"] = {
-            "estimate": _number(rare.probability), "low": _number(rare.low),
-            "high": _number(rare.high), "draws": rare.draws, "beta": _number(rare.beta),
+            "estimate": _number(rare.probability),
+            "low": _number(rare.low),
+            "high": _number(rare.high),
+            "draws": rare.draws,
+            "beta": _number(rare.beta),
             "method": "importance sampling" if rare.beta is not None else "impossible within tolerances",
-            "stages": [_number(p) for p in rare.stages]}
+            "stages": [_number(p) for p in rare.stages],
+        }
     return report

@@ -1,4 +1,5 @@
 """What the methods measure and what the checks conclude, as frozen values for the views."""
+
 from __future__ import annotations
 
 from dataclasses import dataclass, field
@@ -16,21 +17,21 @@ class OpAmpMeasure:
     """The worst case seen by one op amp inside a stage."""
 
     label: str
-    output: Span                     # worst-case output span, V
-    window: Span                     # allowed output swing at the worst-case current, V
-    input: Span                      # common-mode span at the + input, V
+    output: Span  # worst-case output span, V
+    window: Span  # allowed output swing at the worst-case current, V
+    input: Span  # common-mode span at the + input, V
     input_window: Span
-    slew_needed: float               # V/s
+    slew_needed: float  # V/s
     slew_available: float
-    current_needed: float            # A, magnitude
+    current_needed: float  # A, magnitude
     current_available: float
 
 
 @dataclass(frozen=True)
 class Sensitivity:
-    quantity: str                    # "rf", "rails.main.positive", "stage.2.offset", ... (an id)
-    share: float                     # fraction of the limiting margin's spread it explains
-    label: str = ""                  # the same in words: "rf", "main rail +", "stage 2 offset"
+    quantity: str  # "rf", "rails.main.positive", "stage.2.offset", ... (an id)
+    share: float  # fraction of the limiting margin's spread it explains
+    label: str = ""  # the same in words: "rf", "main rail +", "stage 2 offset"
 
     @property
     def words(self) -> str:
@@ -39,8 +40,8 @@ class Sensitivity:
 
 @dataclass(frozen=True)
 class Fix:
-    text: str                        # one sentence a practitioner can act on
-    field: str | None = None         # the stage field to change, when it is a value change
+    text: str  # one sentence a practitioner can act on
+    field: str | None = None  # the stage field to change, when it is a value change
     value: float | None = None
 
 
@@ -53,30 +54,30 @@ class StageMeasure:
     output: Span
     nominal: Span
     opamps: tuple[OpAmpMeasure, ...] = ()
-    window: Span | None = None           # the stage's allowed output window (op amp or converter)
+    window: Span | None = None  # the stage's allowed output window (op amp or converter)
     gain_error: float | None = None
-    supply: Span | None = None           # smallest and largest total supply, V
+    supply: Span | None = None  # smallest and largest total supply, V
     fed_clipped: bool = False
-    saturated: bool = False              # a saturated-by-design block
-    thresholds: tuple[Span, Span] | None = None   # saturating blocks: to go high, to go low
-    reaches: tuple[bool, bool] | None = None       # (low, high): reached at some corner
-    always: tuple[bool, bool] | None = None        # (low, high): crossed at every joint corner
+    saturated: bool = False  # a saturated-by-design block
+    thresholds: tuple[Span, Span] | None = None  # saturating blocks: to go high, to go low
+    reaches: tuple[bool, bool] | None = None  # (low, high): reached at some corner
+    always: tuple[bool, bool] | None = None  # (low, high): crossed at every joint corner
     inner: dict[str, Span] = field(default_factory=dict)
-    input_differential: float | None = None   # saturating blocks: largest |V+ - V-|, V
-    phase_margin_deg: float | None = None     # with a load_capacitance: the loop's estimate
-    probability: float | None = None     # montecarlo: share of draws leaving the linear regime
+    input_differential: float | None = None  # saturating blocks: largest |V+ - V-|, V
+    phase_margin_deg: float | None = None  # with a load_capacitance: the loop's estimate
+    probability: float | None = None  # montecarlo: share of draws leaving the linear regime
     percentiles: dict[str, dict[str, float]] | None = None
 
 
 @dataclass(frozen=True)
 class StageResult:
     measure: StageMeasure
-    regime: str                          # linear | clipping | saturated
+    regime: str  # linear | clipping | saturated
     go: bool
     reasons: tuple[str, ...]
     margins: dict[str, float]
     limiting: str | None
-    failing_nodes: dict[str, str]        # check -> op amp label, for multi-op-amp stages
+    failing_nodes: dict[str, str]  # check -> op amp label, for multi-op-amp stages
     cautions: tuple[str, ...] = ()
     sensitivity: tuple[Sensitivity, ...] = ()
     fixes: tuple[Fix, ...] = ()
@@ -110,7 +111,8 @@ class StageResult:
             return m.output, m.window, None
         worst = min(m.opamps, key=lambda a: min(a.window[1] - a.output[1], a.output[0] - a.window[0]))
         if min(worst.window[1] - worst.output[1], worst.output[0] - worst.window[0]) >= min(
-                (m.window[1] - m.output[1], m.output[0] - m.window[0]) if m.window else (0.0,)):
+            (m.window[1] - m.output[1], m.output[0] - m.window[0]) if m.window else (0.0,)
+        ):
             return m.output, m.window, None
         return worst.output, worst.window, worst.label
 
@@ -132,8 +134,8 @@ class ChainResult:
     go: bool
     headroom_db: float | None
     cautions: tuple[str, ...]
-    chain_yield: float | None = None     # montecarlo: share of draws with every stage linear
-    rare: object | None = None           # montecarlo, few failing draws: methods.rare.RareEstimate
+    chain_yield: float | None = None  # montecarlo: share of draws with every stage linear
+    rare: object | None = None  # montecarlo, few failing draws: methods.rare.RareEstimate
 
     @property
     def failing(self) -> int:

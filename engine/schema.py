@@ -6,6 +6,7 @@ Block fields come from BLOCKS[...].fields, part fields from presets.PART_FIELDS,
 tables from the key tuples of files.py (a key added there without a schema entry here fails fast).
 The schemas are draft-07: the newest dialect those editor tools read.
 """
+
 from __future__ import annotations
 
 from railroom.engine import files, presets
@@ -27,13 +28,11 @@ def value(kind: str, description: str = "") -> dict:
     number = {"type": "number", **({"exclusiveMinimum": 0} if positive else {})}
     text = {"type": "string", "pattern": POSITIVE_START if positive else VALUE_START}
     about = f"{kind}, e.g. {EXAMPLES[kind]}" if kind in EXAMPLES else kind
-    return {"description": f"{description} ({about})" if description else about,
-            "anyOf": [number, text]}
+    return {"description": f"{description} ({about})" if description else about, "anyOf": [number, text]}
 
 
 def pair(kind: str, description: str) -> dict:
-    return {"description": description, "type": "array", "minItems": 2, "maxItems": 2,
-            "items": value(kind)}
+    return {"description": description, "type": "array", "minItems": 2, "maxItems": 2, "items": value(kind)}
 
 
 def whole(low: int, high: int, description: str) -> dict:
@@ -60,8 +59,9 @@ def table(properties: dict, required: tuple[str, ...] = (), description: str = "
 def matching(fields: dict, keys: tuple[str, ...], where: str) -> dict:
     """The schema entries for exactly the loader's keys, in the loader's order."""
     if set(fields) != set(keys):
-        raise RuntimeError(f"schema of {where} out of step with the loader: "
-                           f"{sorted(set(fields) ^ set(keys))}")
+        raise RuntimeError(
+            f"schema of {where} out of step with the loader: {sorted(set(fields) ^ set(keys))}"
+        )
     return {key: fields[key] for key in keys}
 
 
@@ -82,10 +82,15 @@ SOURCE = {
     "band": pair("frequency", "[lowest, highest] frequency of the AC part, Hz"),
     "impedance": value("number", "source impedance, ohms"),
 }
-RAILS = table({"positive": value("voltage", "positive rail, V"),
-               "negative": value("voltage", "negative rail, V (default 0)"),
-               "tolerance": value("fraction", "moves each rail independently")},
-              ("positive",), "a named supply")
+RAILS = table(
+    {
+        "positive": value("voltage", "positive rail, V"),
+        "negative": value("voltage", "negative rail, V (default 0)"),
+        "tolerance": value("fraction", "moves each rail independently"),
+    },
+    ("positive",),
+    "a named supply",
+)
 COMMON = {
     "name": text("stage name shown in reports"),
     "block": choice(tuple(BLOCKS), "the block this stage is"),
@@ -100,8 +105,13 @@ def block_field(spec) -> dict:
     if spec.kind == "flag":
         schema = {"type": "boolean", "description": spec.help}
     elif spec.kind == "inputs":
-        item = table({"r": value("resistance", "from the fixed voltage to the - input"),
-                      "v": value("voltage", "the fixed voltage, V")}, ("r", "v"))
+        item = table(
+            {
+                "r": value("resistance", "from the fixed voltage to the - input"),
+                "v": value("voltage", "the fixed voltage, V"),
+            },
+            ("r", "v"),
+        )
         schema = {"type": "array", "items": item, "description": spec.help}
     else:
         schema = value(spec.kind, spec.help)
@@ -119,26 +129,46 @@ def stage_schema() -> dict:
         required = [k for k, spec in block.fields.items() if spec.required]
         required += ["part"] if block.uses_part else []
         then = table(allowed, tuple(required), f"{name}: {getattr(block, 'summary', '')}")
-        by_block.append({"if": {"properties": {"block": {"const": name}}, "required": ["block"]},
-                         "then": then})
-    return {"type": "object", "required": ["block"], "properties": common, "allOf": by_block,
-            "description": "one stage, in signal order"}
+        by_block.append(
+            {"if": {"properties": {"block": {"const": name}}, "required": ["block"]}, "then": then}
+        )
+    return {
+        "type": "object",
+        "required": ["block"],
+        "properties": common,
+        "allOf": by_block,
+        "description": "one stage, in signal order",
+    }
 
 
 def chain_schema() -> dict:
-    properties = matching({
-        "format": {"const": 1, "description": "file format (1)"},
-        "title": text("short description of the chain"),
-        "presets": {"type": "array", "items": {"type": "string"},
-                    "description": "extra preset folders, relative to this file"},
-        "conditions": table(matching(CONDITIONS, files.CONDITION_KEYS, "[conditions]")),
-        "rails": {"type": "object", "minProperties": 1, "additionalProperties": RAILS,
-                  "description": "one or more named supplies: [rails.main]"},
-        "source": table(matching(SOURCE, files.SOURCE_KEYS, "[source]")),
-        "stage": {"type": "array", "minItems": 1, "items": stage_schema()},
-    }, files.TOP_KEYS, "the chain file")
-    return {"$schema": DIALECT, "title": "railroom chain file (format 1)", **table(
-        properties, ("rails", "stage"))}
+    properties = matching(
+        {
+            "format": {"const": 1, "description": "file format (1)"},
+            "title": text("short description of the chain"),
+            "presets": {
+                "type": "array",
+                "items": {"type": "string"},
+                "description": "extra preset folders, relative to this file",
+            },
+            "conditions": table(matching(CONDITIONS, files.CONDITION_KEYS, "[conditions]")),
+            "rails": {
+                "type": "object",
+                "minProperties": 1,
+                "additionalProperties": RAILS,
+                "description": "one or more named supplies: [rails.main]",
+            },
+            "source": table(matching(SOURCE, files.SOURCE_KEYS, "[source]")),
+            "stage": {"type": "array", "minItems": 1, "items": stage_schema()},
+        },
+        files.TOP_KEYS,
+        "the chain file",
+    )
+    return {
+        "$schema": DIALECT,
+        "title": "railroom chain file (format 1)",
+        **table(properties, ("rails", "stage")),
+    }
 
 
 def part_field(key: str, kind: str, is_pair: bool) -> dict:
@@ -151,33 +181,50 @@ def part_field(key: str, kind: str, is_pair: bool) -> dict:
     if kind == "flag":
         return {"description": about, "type": "boolean"}
     if kind == "curve":
-        point = {"type": "array", "minItems": 3, "maxItems": 3,
-                 "items": [value("current"), value("voltage"), value("voltage")]}
-        return {"description": f"{about}: points [current, upper headroom, lower headroom], "
-                               "currents rising", "type": "array", "minItems": 1, "items": point}
+        point = {
+            "type": "array",
+            "minItems": 3,
+            "maxItems": 3,
+            "items": [value("current"), value("voltage"), value("voltage")],
+        }
+        return {
+            "description": f"{about}: points [current, upper headroom, lower headroom], currents rising",
+            "type": "array",
+            "minItems": 1,
+            "items": point,
+        }
     if key == "output_resistance":
-        return {"description": f"{about} (0 allowed)",
-                "anyOf": [{"type": "number", "minimum": 0},
-                          {"type": "string", "pattern": POSITIVE_START}]}
+        return {
+            "description": f"{about} (0 allowed)",
+            "anyOf": [{"type": "number", "minimum": 0}, {"type": "string", "pattern": POSITIVE_START}],
+        }
     return value(kind, about)
 
 
 def preset_schema() -> dict:
-    fields = {key: part_field(key, kind, is_pair)
-              for key, (kind, is_pair, _) in presets.PART_FIELDS.items()}
+    fields = {key: part_field(key, kind, is_pair) for key, (kind, is_pair, _) in presets.PART_FIELDS.items()}
     required = tuple(key for key, (_, _, req) in presets.PART_FIELDS.items() if req)
     part = table(fields, required, "one part preset: the limits an op amp is checked against")
-    return {"$schema": DIALECT, "title": "railroom part preset file", **table(
-        {"part": {"type": "object", "additionalProperties": part,
-                  "description": "[part.ID] tables, one per part"}})}
+    return {
+        "$schema": DIALECT,
+        "title": "railroom part preset file",
+        **table(
+            {
+                "part": {
+                    "type": "object",
+                    "additionalProperties": part,
+                    "description": "[part.ID] tables, one per part",
+                }
+            }
+        ),
+    }
 
 
 NUMBER = {"type": ["number", "null"]}
 
 
 def bounds(*names: str) -> dict:
-    return {"type": "object", "required": list(names),
-            "properties": {n: NUMBER for n in names}}
+    return {"type": "object", "required": list(names), "properties": {n: NUMBER for n in names}}
 
 
 def report_schema() -> dict:
@@ -185,8 +232,22 @@ def report_schema() -> dict:
     reasons = [*CHECKS, "fed-clipped"]
     stage = {
         "type": "object",
-        "required": ["index", "name", "block", "part", "regime", "go", "reasons", "gain_error",
-                     "limiting", "output", "window", "input", "margins", "probability"],
+        "required": [
+            "index",
+            "name",
+            "block",
+            "part",
+            "regime",
+            "go",
+            "reasons",
+            "gain_error",
+            "limiting",
+            "output",
+            "window",
+            "input",
+            "margins",
+            "probability",
+        ],
         "properties": {
             "index": {"type": "integer", "minimum": 1},
             "name": {"type": "string"},
@@ -197,26 +258,37 @@ def report_schema() -> dict:
             "reasons": {"type": "array", "items": {"enum": reasons}},
             "gain_error": NUMBER,
             "limiting": {"enum": [*CHECKS, None]},
-            "output": {**bounds("min", "max", "nominal"),
-                       "properties": {"min": NUMBER, "max": NUMBER,
-                                      "nominal": {"type": "array", "items": NUMBER,
-                                                  "minItems": 2, "maxItems": 2}}},
+            "output": {
+                **bounds("min", "max", "nominal"),
+                "properties": {
+                    "min": NUMBER,
+                    "max": NUMBER,
+                    "nominal": {"type": "array", "items": NUMBER, "minItems": 2, "maxItems": 2},
+                },
+            },
             "window": {"anyOf": [{"type": "null"}, bounds("low", "high")]},
             "input": {"anyOf": [{"type": "null"}, bounds("min", "max")]},
-            "margins": {"type": "object", "propertyNames": {"enum": list(CHECKS)},
-                        "additionalProperties": NUMBER},
+            "margins": {
+                "type": "object",
+                "propertyNames": {"enum": list(CHECKS)},
+                "additionalProperties": NUMBER,
+            },
             "probability": {"type": ["number", "null"], "minimum": 0, "maximum": 1},
         },
     }
     return {
-        "$schema": DIALECT, "title": "railroom check --json report (format 1)", "type": "object",
-        "required": ["format", "title", "verdict", "method", "samples", "headroom_db", "cautions",
-                     "stages"],
+        "$schema": DIALECT,
+        "title": "railroom check --json report (format 1)",
+        "type": "object",
+        "required": ["format", "title", "verdict", "method", "samples", "headroom_db", "cautions", "stages"],
         "properties": {
-            "format": {"const": 1}, "title": {"type": "string"},
-            "verdict": {"enum": ["go", "no-go"]}, "method": {"enum": list(METHODS)},
+            "format": {"const": 1},
+            "title": {"type": "string"},
+            "verdict": {"enum": ["go", "no-go"]},
+            "method": {"enum": list(METHODS)},
             "samples": {"type": ["integer", "null"], "minimum": 1},
-            "headroom_db": NUMBER, "cautions": {"type": "array", "items": {"type": "string"}},
+            "headroom_db": NUMBER,
+            "cautions": {"type": "array", "items": {"type": "string"}},
             "stages": {"type": "array", "items": stage},
             "yield": {"type": ["number", "null"], "minimum": 0, "maximum": 1},
         },

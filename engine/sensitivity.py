@@ -11,6 +11,7 @@ with s = 1/sqrt(3) for a uniform tolerance and 1/3 for a normal one (tolerance =
 field's tolerance and temperature coefficient, and an op amp's offset and its drift, are one
 quantity each (the thing a designer changes).
 """
+
 from __future__ import annotations
 
 from dataclasses import dataclass
@@ -20,16 +21,16 @@ import numpy as np
 from railroom.engine import draw_walk as dw
 from railroom.engine.results import Sensitivity
 
-STEP = 1e-3                # h, in units of the full tolerance
-SHOWN = 5                  # quantities listed per stage
+STEP = 1e-3  # h, in units of the full tolerance
+SHOWN = 5  # quantities listed per stage
 SMALLEST_SHARE = 0.01
 
 
 @dataclass(frozen=True)
 class Linearised:
     layout: dw.Layout
-    draws: list[dw.StageDraws]      # row 0 nominal, rows 2i+1 / 2i+2 at d_i = +h / -h
-    decisive: np.ndarray | None = None    # draw_walk.decisive_freqs(layout), when asked for
+    draws: list[dw.StageDraws]  # row 0 nominal, rows 2i+1 / 2i+2 at d_i = +h / -h
+    decisive: np.ndarray | None = None  # draw_walk.decisive_freqs(layout), when asked for
 
     def nominal(self, x: np.ndarray) -> float:
         return float(x[0])
@@ -90,14 +91,13 @@ def quantity_words(name: str) -> str:
     return prefix + own
 
 
-def ranking(lin: Linearised, stage: int, check: str | None, statistical: bool
-            ) -> tuple[Sensitivity, ...]:
+def ranking(lin: Linearised, stage: int, check: str | None, statistical: bool) -> tuple[Sensitivity, ...]:
     """The quantities that move `check` of plan index `stage` most, largest share first."""
     margins = lin.draws[stage - 1].margins
     if check is None or check not in margins:
         return ()
     grad = lin.gradient(margins[check])
-    weight = grad ** 2 if statistical else np.abs(grad)
+    weight = grad**2 if statistical else np.abs(grad)
     total = float(weight.sum())
     if total <= 0 or not np.isfinite(total):
         return ()
@@ -108,8 +108,11 @@ def ranking(lin: Linearised, stage: int, check: str | None, statistical: bool
     # equal effects (identical inputs) differ only by rounding noise: rank by the share to 12
     # digits, ties in the circuit's own order of quantities, so one chain gives one report
     ordered = sorted(shares.items(), key=lambda item: -round(item[1], 12))
-    return tuple(Sensitivity(name, share, quantity_words(name)) for name, share in ordered[:SHOWN]
-                 if share >= SMALLEST_SHARE)
+    return tuple(
+        Sensitivity(name, share, quantity_words(name))
+        for name, share in ordered[:SHOWN]
+        if share >= SMALLEST_SHARE
+    )
 
 
 def direction(lin: Linearised, stage: int, check: str, field: str) -> float:

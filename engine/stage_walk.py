@@ -4,6 +4,7 @@ Used by the corners method (and by the nominal pass, which is corners with no sp
 offsets). The next stage's input loads this stage's output: its conductance to its return voltage
 adds to the output current before the swing window is drawn.
 """
+
 from __future__ import annotations
 
 from dataclasses import replace
@@ -16,9 +17,19 @@ from railroom.engine.margins import load_currents
 from railroom.engine.opamp import TWO_PI, input_window, output_window
 from railroom.engine.part_limits import bias_at, clipped_differential, saturated_differential
 from railroom.engine.plan import StagePlan
-from railroom.engine.propagation import (DifferentialSignal, NodeBounds, Signal, clamp, error_bound,
-                                         loaded_bounds, memory_order, merge, node_bounds,
-                                         single_bounds, single_terms)
+from railroom.engine.propagation import (
+    DifferentialSignal,
+    NodeBounds,
+    Signal,
+    clamp,
+    error_bound,
+    loaded_bounds,
+    memory_order,
+    merge,
+    node_bounds,
+    single_bounds,
+    single_terms,
+)
 from railroom.engine.results import OpAmpMeasure, StageMeasure, StageResult
 
 
@@ -26,8 +37,7 @@ def span(bounds: NodeBounds) -> tuple[float, float]:
     return (float(np.min(bounds.lo)), float(np.max(bounds.hi)))
 
 
-def bounds_once(node, v: dict, signal, offsets, bias, known: dict,
-                memo: dict | None = None) -> NodeBounds:
+def bounds_once(node, v: dict, signal, offsets, bias, known: dict, memo: dict | None = None) -> NodeBounds:
     """The node's bounds, found once per stage: a stage's output node is usually its last op
     amp's output node too. `known` holds the node with its bounds so that its id stays its own.
     `memo` keeps each node's own terms (propagation.NodeTerms) across walks of one Prepared:
@@ -38,23 +48,32 @@ def bounds_once(node, v: dict, signal, offsets, bias, known: dict,
         bounds = node_bounds(node, v, signal, error_bound(node, offsets, bias))
     else:
         if id(node) not in memo:
-            memo[id(node)] = (node, single_terms(node, v, error_bound(node, offsets, bias),
-                                                 order=memory_order(signal.hi)))
+            memo[id(node)] = (
+                node,
+                single_terms(node, v, error_bound(node, offsets, bias), order=memory_order(signal.hi)),
+            )
         bounds = single_bounds(node, v, signal, None, terms=memo[id(node)][1])
     known[id(node)] = (node, bounds)
     return bounds
 
 
-def walk_chain(prepared, signal, nominal: bool = False, notes=None, first: int = 0,
-               entering: list | None = None, stop: int | None = None,
-               levels: dict | None = None) -> list[StageResult]:
+def walk_chain(
+    prepared,
+    signal,
+    nominal: bool = False,
+    notes=None,
+    first: int = 0,
+    entering: list | None = None,
+    stop: int | None = None,
+    levels: dict | None = None,
+) -> list[StageResult]:
     """Results of stages `first` up to (not including) `stop`, the last by default, fed `signal`
     at stage `first`. `entering`, when given, receives the signal entering each walked stage
     (the fix search re-walks from there); `levels`, stage index -> the bounds per frequency of
     what each linear stage shows (the level picture)."""
     chain = prepared.chain
     rise = chain.conditions.worst_temperature_rise
-    hot = max(chain.conditions.temperature) - 25.0     # the bias current is taken there (part_limits)
+    hot = max(chain.conditions.temperature) - 25.0  # the bias current is taken there (part_limits)
     # node terms depend on the offsets, which the nominal walk leaves out: one memo for each
     memo = prepared.memo.setdefault(("terms", nominal), {})
     results: list[StageResult] = []
@@ -68,16 +87,30 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None, first: int =
         if plan.block.saturates:
             measure, signal = saturated_stage(plan, v, signal, rise, nominal, hot_rise=hot)
         else:
-            later = k + 1 < len(prepared.plans) and prepared.joint[k + 1] and \
-                shows_input(prepared.plans, prepared.responses, k + 1)
-            measure, bounds = linear_stage(plan, prepared.responses[k], v, signal, prepared.freqs,
-                                           next_load, rise, nominal, memo, shown_later=later,
-                                           hot_rise=hot)
+            later = (
+                k + 1 < len(prepared.plans)
+                and prepared.joint[k + 1]
+                and shows_input(prepared.plans, prepared.responses, k + 1)
+            )
+            measure, bounds = linear_stage(
+                plan,
+                prepared.responses[k],
+                v,
+                signal,
+                prepared.freqs,
+                next_load,
+                rise,
+                nominal,
+                memo,
+                shown_later=later,
+                hot_rise=hot,
+            )
             if shows_input(prepared.plans, prepared.responses, k) and prepared.joint[k]:
                 # the passive stage before shows the voltage at this stage's input terminal,
                 # each of its circuits paired with this stage's own (exact)
-                terminal = input_bounds(plan, prepared.responses[k], v, signal, rise, nominal, memo,
-                                        hot_rise=hot)
+                terminal = input_bounds(
+                    plan, prepared.responses[k], v, signal, rise, nominal, memo, hot_rise=hot
+                )
                 shown = span(terminal)
                 if levels is not None:
                     levels[k - 1] = terminal
@@ -87,8 +120,11 @@ def walk_chain(prepared, signal, nominal: bool = False, notes=None, first: int =
                 levels[k] = bounds
             fed = getattr(signal, "fed_clipped", False)
             pairs = k + 1 < len(prepared.plans) and prepared.joint[k + 1]
-            signal = paired(bounds, v["drive"].shape[0], prepared.values[k + 1]["drive"].shape[0],
-                            fed) if pairs else merge(bounds, fed)
+            signal = (
+                paired(bounds, v["drive"].shape[0], prepared.values[k + 1]["drive"].shape[0], fed)
+                if pairs
+                else merge(bounds, fed)
+            )
         if notes is not None:
             measure = replace(measure, **notes[k])
         result = judge(measure, plan.part, plan.rails, chain.conditions.margin)
@@ -108,14 +144,29 @@ def paired(bounds: NodeBounds, rows: int, next_rows: int, fed_clipped: bool) -> 
         if reps == 1 and x.shape[0] == rows:
             return x
         return np.broadcast_to(x, (reps, rows, x.shape[-1])).reshape(next_rows, x.shape[-1])
-    return Signal(hi=tiled(bounds.hi), lo=tiled(bounds.lo), amp_lo=tiled(bounds.amp_lo),
-                  amp_hi=tiled(bounds.amp_hi), fed_clipped=fed_clipped)
+
+    return Signal(
+        hi=tiled(bounds.hi),
+        lo=tiled(bounds.lo),
+        amp_lo=tiled(bounds.amp_lo),
+        amp_hi=tiled(bounds.amp_hi),
+        fed_clipped=fed_clipped,
+    )
 
 
-def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freqs: np.ndarray,
-                 next_load: InputLoad, rise: float, nominal: bool,
-                 memo: dict | None = None, shown_later: bool = False,
-                 hot_rise: float = 0.0) -> tuple[StageMeasure, NodeBounds]:
+def linear_stage(
+    plan: StagePlan,
+    response: BlockResponse,
+    v: dict,
+    signal,
+    freqs: np.ndarray,
+    next_load: InputLoad,
+    rise: float,
+    nominal: bool,
+    memo: dict | None = None,
+    shown_later: bool = False,
+    hot_rise: float = 0.0,
+) -> tuple[StageMeasure, NodeBounds]:
     """`shown_later`: the next stage will set what this (passive) stage shows (input_span)."""
     part = plan.part
     count = len(response.opamps)
@@ -124,24 +175,42 @@ def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freq
     known: dict = {}
     out = bounds_once(response.output, v, signal, offsets, bias, known, memo)
     amps = tuple(
-        opamp_measure(plan, amp, v, signal, offsets, bias, freqs,
-                      next_load if amp.output is response.output else InputLoad(), known, memo)
+        opamp_measure(
+            plan,
+            amp,
+            v,
+            signal,
+            offsets,
+            bias,
+            freqs,
+            next_load if amp.output is response.output else InputLoad(),
+            known,
+            memo,
+        )
         for amp in response.opamps
     )
     window = amps[-1].window if amps else None
     if plan.block.window_only:
-        window = (float(np.max(v["low"])), float(np.min(v["high"])))   # worst over tolerance
-    inner = {name: span(bounds_once(node, v, signal, offsets, bias, known, memo))
-             for name, node in response.inner.items()}
+        window = (float(np.max(v["low"])), float(np.min(v["high"])))  # worst over tolerance
+    inner = {
+        name: span(bounds_once(node, v, signal, offsets, bias, known, memo))
+        for name, node in response.inner.items()
+    }
     shown = span(out)
     if passive_output(plan, response, next_load) and not shown_later:
         # what the stage shows is its output with the next stage's input on it; what it hands
         # on is its Thevenin voltage (the next stage meets the impedance itself)
         shown = span(loaded_bounds(response.output, v, signal, response.output_impedance, next_load))
     measure = StageMeasure(
-        index=plan.index, stage=plan.stage, output=shown, nominal=shown, opamps=amps,
-        window=window, supply=plan.rails.span_range if part else None,
-        fed_clipped=getattr(signal, "fed_clipped", False), inner=inner,
+        index=plan.index,
+        stage=plan.stage,
+        output=shown,
+        nominal=shown,
+        opamps=amps,
+        window=window,
+        supply=plan.rails.span_range if part else None,
+        fed_clipped=getattr(signal, "fed_clipped", False),
+        inner=inner,
         input_differential=clipped_differential(part, response, amps, freqs),
     )
     return measure, out
@@ -150,19 +219,40 @@ def linear_stage(plan: StagePlan, response: BlockResponse, v: dict, signal, freq
 def shows_input(plans, responses, k: int) -> bool:
     """Stage k - 1 is passive (not a converter input, which is checked on what it shows) and
     stage k knows its input terminal: stage k - 1 then shows that terminal's voltage."""
-    return (k > 0 and responses[k - 1] is not None and responses[k - 1].output_impedance is not None
-            and not plans[k - 1].block.window_only and responses[k] is not None
-            and responses[k].input_node is not None)
+    return (
+        k > 0
+        and responses[k - 1] is not None
+        and responses[k - 1].output_impedance is not None
+        and not plans[k - 1].block.window_only
+        and responses[k] is not None
+        and responses[k].input_node is not None
+    )
 
 
-def input_span(plan: StagePlan, response: BlockResponse, v: dict, signal, rise: float,
-               nominal: bool, memo: dict | None, hot_rise: float = 0.0) -> tuple[float, float]:
+def input_span(
+    plan: StagePlan,
+    response: BlockResponse,
+    v: dict,
+    signal,
+    rise: float,
+    nominal: bool,
+    memo: dict | None,
+    hot_rise: float = 0.0,
+) -> tuple[float, float]:
     """The span of the stage's input terminal (BlockResponse.input_node)."""
     return span(input_bounds(plan, response, v, signal, rise, nominal, memo, hot_rise))
 
 
-def input_bounds(plan: StagePlan, response: BlockResponse, v: dict, signal, rise: float,
-                 nominal: bool, memo: dict | None, hot_rise: float = 0.0):
+def input_bounds(
+    plan: StagePlan,
+    response: BlockResponse,
+    v: dict,
+    signal,
+    rise: float,
+    nominal: bool,
+    memo: dict | None,
+    hot_rise: float = 0.0,
+):
     """The bounds per frequency of the stage's input terminal (BlockResponse.input_node);
     `hot_rise`: the hottest temperature less 25 C, where the bias current is taken (part_limits)."""
     part = plan.part
@@ -175,29 +265,42 @@ def input_bounds(plan: StagePlan, response: BlockResponse, v: dict, signal, rise
 def passive_output(plan: StagePlan, response: BlockResponse, load: InputLoad) -> bool:
     """A passive stage whose shown output differs from its Thevenin voltage: the next stage
     draws current from it (a converter input draws none and passes its input on)."""
-    return (response.output_impedance is not None and not plan.block.window_only
-            and load.conductance > 0)
+    return response.output_impedance is not None and not plan.block.window_only and load.conductance > 0
 
 
-def opamp_measure(plan: StagePlan, amp: OpAmpNodes, v: dict, signal, offsets, bias, freqs,
-                  load: InputLoad, known: dict | None = None, memo: dict | None = None
-                  ) -> OpAmpMeasure:
+def opamp_measure(
+    plan: StagePlan,
+    amp: OpAmpNodes,
+    v: dict,
+    signal,
+    offsets,
+    bias,
+    freqs,
+    load: InputLoad,
+    known: dict | None = None,
+    memo: dict | None = None,
+) -> OpAmpMeasure:
     part = plan.part
     known = {} if known is None else known
     out = bounds_once(amp.output, v, signal, offsets, bias, known, memo)
     plus = bounds_once(amp.plus, v, signal, offsets, bias, known, memo)
     current = bounds_once(amp.current, v, signal, offsets, bias, known, memo)
     out_span = span(out)
-    sourced, sunk = load_currents(float(np.max(current.hi)), float(np.min(current.lo)),
-                                  out_span[1], out_span[0], load)
+    sourced, sunk = load_currents(
+        float(np.max(current.hi)), float(np.min(current.lo)), out_span[1], out_span[0], load
+    )
     needed = float(max(sourced, sunk))
     slew = float(np.max(TWO_PI * freqs * out.amp_hi)) if out.amp_hi.size else 0.0
     return OpAmpMeasure(
-        label=amp.label, output=out_span,
+        label=amp.label,
+        output=out_span,
         window=output_window(part, plan.rails, float(sourced), float(sunk)),
-        input=span(plus), input_window=input_window(part, plan.rails),
-        slew_needed=slew, slew_available=part.slew,
-        current_needed=needed, current_available=part.output_current,
+        input=span(plus),
+        input_window=input_window(part, plan.rails),
+        slew_needed=slew,
+        slew_available=part.slew,
+        current_needed=needed,
+        current_available=part.output_current,
     )
 
 
@@ -209,7 +312,7 @@ def crossed_always(switching, signal, invert: bool) -> tuple[bool, bool]:
     to_high, to_low = switching.thresholds
     if isinstance(signal, Signal):
         top, bottom = signal.lo + 2 * signal.amp_lo, signal.hi - 2 * signal.amp_lo
-    else:                                   # a differential source: its common-mode range
+    else:  # a differential source: its common-mode range
         top = bottom = np.array([signal.common[0], signal.common[1]])
         top, bottom = np.min(top), np.max(bottom)
     if invert:
@@ -217,8 +320,9 @@ def crossed_always(switching, signal, invert: bool) -> tuple[bool, bool]:
     return bool(np.all(bottom < to_low[0])), bool(np.all(top > to_high[1]))
 
 
-def saturated_stage(plan: StagePlan, v: dict, signal, rise: float = 0.0,
-                    nominal: bool = False, hot_rise: float = 0.0) -> tuple[StageMeasure, Signal]:
+def saturated_stage(
+    plan: StagePlan, v: dict, signal, rise: float = 0.0, nominal: bool = False, hot_rise: float = 0.0
+) -> tuple[StageMeasure, Signal]:
     """A comparator-like stage: switch levels, thresholds and the two-level signal it passes on."""
     incoming = signal.span if isinstance(signal, Signal) else (signal.common[0], signal.common[1])
     part = plan.part
@@ -230,22 +334,40 @@ def saturated_stage(plan: StagePlan, v: dict, signal, rise: float = 0.0,
     top = high_max if reach_high else low_max
     bottom = low_min if reach_low else high_min
     amp = OpAmpMeasure(
-        label="comparator", output=(bottom, top), window=(low_min, high_max),
-        input=switching.input_span, input_window=input_window(plan.part, plan.rails),
-        slew_needed=0.0, slew_available=plan.part.slew,
-        current_needed=switching.current, current_available=plan.part.output_current,
+        label="comparator",
+        output=(bottom, top),
+        window=(low_min, high_max),
+        input=switching.input_span,
+        input_window=input_window(plan.part, plan.rails),
+        slew_needed=0.0,
+        slew_available=plan.part.slew,
+        current_needed=switching.current,
+        current_available=plan.part.output_current,
     )
     measure = StageMeasure(
-        index=plan.index, stage=plan.stage, output=(bottom, top), nominal=(bottom, top),
-        opamps=(amp,), window=(low_min, high_max), supply=plan.rails.span_range,
-        fed_clipped=getattr(signal, "fed_clipped", False), saturated=True,
-        thresholds=switching.thresholds, reaches=switching.reaches,
-        input_differential=float(np.max(saturated_differential(
-            plan.stage.block, v, plan.flags, incoming, switching.levels))),
+        index=plan.index,
+        stage=plan.stage,
+        output=(bottom, top),
+        nominal=(bottom, top),
+        opamps=(amp,),
+        window=(low_min, high_max),
+        supply=plan.rails.span_range,
+        fed_clipped=getattr(signal, "fed_clipped", False),
+        saturated=True,
+        thresholds=switching.thresholds,
+        reaches=switching.reaches,
+        input_differential=float(
+            np.max(saturated_differential(plan.stage.block, v, plan.flags, incoming, switching.levels))
+        ),
         always=crossed_always(switching, signal, bool(plan.flags.get("invert"))),
     )
     freqs_shape = np.shape(signal.hi) if isinstance(signal, Signal) else (1,)
     zero = np.zeros(freqs_shape)
-    passed = Signal(hi=zero + top, lo=zero + bottom, amp_lo=zero, amp_hi=zero,
-                    fed_clipped=getattr(signal, "fed_clipped", False))
+    passed = Signal(
+        hi=zero + top,
+        lo=zero + bottom,
+        amp_lo=zero,
+        amp_hi=zero,
+        fed_clipped=getattr(signal, "fed_clipped", False),
+    )
     return measure, passed

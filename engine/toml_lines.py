@@ -4,6 +4,7 @@ tomllib returns plain dicts without positions; this scan of the text records the
 `key = value` under its table ("conditions", "rails.main", "stage.3", "part.some-id"). Arrays of
 tables are numbered from 1 in file order. It only needs to be right for files tomllib accepted.
 """
+
 from __future__ import annotations
 
 import re

@@ -16,13 +16,36 @@ import re
 import unicodedata
 from dataclasses import dataclass
 
-KINDS = ("resistance", "capacitance", "voltage", "current", "frequency", "gain", "slew",
-         "fraction", "temperature", "time", "number")
+KINDS = (
+    "resistance",
+    "capacitance",
+    "voltage",
+    "current",
+    "frequency",
+    "gain",
+    "slew",
+    "fraction",
+    "temperature",
+    "time",
+    "number",
+)
 
 # Powers of ten, SI Brochure table 7; "K" only because IEC 60062 writes its codes in upper case.
 # Text is NFKC-normalised first, so the micro sign becomes the Greek mu and the ohm sign omega.
-PREFIXES = {"f": -15, "p": -12, "n": -9, "u": -6, "\u03bc": -6, "m": -3,
-            "k": 3, "K": 3, "M": 6, "G": 9, "meg": 6, "MEG": 6}
+PREFIXES = {
+    "f": -15,
+    "p": -12,
+    "n": -9,
+    "u": -6,
+    "\u03bc": -6,
+    "m": -3,
+    "k": 3,
+    "K": 3,
+    "M": 6,
+    "G": 9,
+    "meg": 6,
+    "MEG": 6,
+}
 
 # Units accepted per kind, with their power of ten to SI. "dB" (gain) is logarithmic, handled apart.
 UNITS: dict[str, dict[str, int]] = {
@@ -62,11 +85,15 @@ NON_NEGATIVE_KINDS = ("fraction", "time")
 NUMBER = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
 PLAIN = re.compile(rf"(?P<number>{NUMBER})\s*(?P<rest>.*)")
 # IEC 60062: digits, a letter in place of the decimal point, digits ("4k7", "R47"), then a unit.
-CODE = re.compile(r"(?P<sign>[+-]?)(?P<whole>\d*)(?P<letter>[fpnu\u03bcmkKMGR])(?P<part>\d+)"
-                  r"(?P<unit>\D.*)?")
+CODE = re.compile(
+    r"(?P<sign>[+-]?)(?P<whole>\d*)(?P<letter>[fpnu\u03bcmkKMGR])(?P<part>\d+)"
+    r"(?P<unit>\D.*)?"
+)
 # A trailing "1%", "±1%", "+/-1%" or "50ppm", "50ppm/°C" after the value.
-EXTRA = re.compile(rf"(?:\s*(?:±|\+/-)\s*|\s+)(?P<number>{NUMBER})\s*"
-                   r"(?P<what>%|ppm(?:/°?C|/K)?)$")
+EXTRA = re.compile(
+    rf"(?:\s*(?:±|\+/-)\s*|\s+)(?P<number>{NUMBER})\s*"
+    r"(?P<what>%|ppm(?:/°?C|/K)?)$"
+)
 
 
 @dataclass(frozen=True)
@@ -106,20 +133,21 @@ def _expected(kind: str) -> str:
 # reorder what is shown (Unicode TR9: ALM, LRM, RLM, LRE..RLO, LRI..PDI), and the invisible
 # format characters (soft hyphen, zero-width space and joiners, word joiner and invisible
 # operators, the byte-order mark / zero-width no-break space, interlinear annotation marks).
-_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f\u00ad\u061c\u180e\u200b-\u200f\u2028-\u202e"
-                      "\u2060-\u2064\u2066-\u206f\ufeff\ufff9-\ufffb]")
+_CONTROL = re.compile(
+    "[\x00-\x1f\x7f-\x9f\u00ad\u061c\u180e\u200b-\u200f\u2028-\u202e"
+    "\u2060-\u2064\u2066-\u206f\ufeff\ufff9-\ufffb]"
+)
 
 
 def visible(text: str, limit: int = 80) -> str:
     """User text made safe to echo in a message: control characters as \\xNN escapes, cut short."""
     text = escaped(text)
-    return text if len(text) <= limit else text[:limit - 3] + "..."
+    return text if len(text) <= limit else text[: limit - 3] + "..."
 
 
 def escaped(text: str) -> str:
     """The whole text, with what `visible` escapes shown as \\xNN or \\uNNNN."""
-    return _CONTROL.sub(lambda m: f"\\x{ord(m[0]):02x}" if ord(m[0]) < 0x100
-                        else f"\\u{ord(m[0]):04x}", text)
+    return _CONTROL.sub(lambda m: f"\\x{ord(m[0]):02x}" if ord(m[0]) < 0x100 else f"\\u{ord(m[0]):04x}", text)
 
 
 def has_control(text: str) -> bool:
@@ -144,7 +172,7 @@ def _shown(raw: object) -> str:
 
 def _scaled(number: float, power: int) -> float:
     """number * 10**power; dividing for negative powers keeps "4n7" exactly 4.7e-9."""
-    return number * 10.0 ** power if power >= 0 else number / 10.0 ** -power
+    return number * 10.0**power if power >= 0 else number / 10.0**-power
 
 
 def parse_quantity(raw: object, kind: str) -> Quantity:
@@ -170,8 +198,7 @@ def parse_value(raw: object, kind: str) -> float:
     """parse_quantity(raw, kind).value, refusing a written tolerance or temperature coefficient."""
     quantity = parse_quantity(raw, kind)
     if quantity.tolerance is not None or quantity.tempco is not None:
-        raise ValueTextError(
-            f"{_article(kind)} without a tolerance or temperature coefficient", _shown(raw))
+        raise ValueTextError(f"{_article(kind)} without a tolerance or temperature coefficient", _shown(raw))
     return quantity.value
 
 
@@ -182,28 +209,35 @@ def _split_extras(text: str, kind: str, got: str) -> tuple[str, float | None, fl
         if match.start() == 0:
             break  # the whole text is one number with a unit: "5%" for a fraction
         if kind not in TOLERANCE_KINDS:
-            raise ValueTextError(_expected(kind), got, "a tolerance or temperature coefficient "
-                                 "is only allowed for resistance, capacitance, voltage and current")
+            raise ValueTextError(
+                _expected(kind),
+                got,
+                "a tolerance or temperature coefficient "
+                "is only allowed for resistance, capacitance, voltage and current",
+            )
         number = float(match["number"])
         if match["what"] == "%":
             if tolerance is not None:
                 raise ValueTextError(_expected(kind), got, "the tolerance is written twice")
             tolerance = number / 100
             if not 0 <= tolerance < 1:
-                raise ValueTextError(
-                    f"{_article(kind)} with a tolerance from 0% to below 100%", got)
+                raise ValueTextError(f"{_article(kind)} with a tolerance from 0% to below 100%", got)
         else:
             if tempco is not None:
-                raise ValueTextError(_expected(kind), got,
-                                     "the temperature coefficient is written twice")
+                raise ValueTextError(_expected(kind), got, "the temperature coefficient is written twice")
             tempco = number / 1e6
             if tempco > TEMPCO_LIMIT:
-                raise ValueTextError(f"{_article(kind)} with a temperature coefficient of at most "
-                                     f"{TEMPCO_LIMIT * 1e6:g}ppm", got)
+                raise ValueTextError(
+                    f"{_article(kind)} with a temperature coefficient of at most {TEMPCO_LIMIT * 1e6:g}ppm",
+                    got,
+                )
             if tempco < 0:
-                raise ValueTextError(f"{_article(kind)} with a temperature coefficient of zero or "
-                                     "more (a symmetric bound, such as 50ppm)", got)
-        text = text[:match.start()].rstrip()
+                raise ValueTextError(
+                    f"{_article(kind)} with a temperature coefficient of zero or "
+                    "more (a symmetric bound, such as 50ppm)",
+                    got,
+                )
+        text = text[: match.start()].rstrip()
     return text, tolerance, tempco
 
 
@@ -225,7 +259,7 @@ def _read_value(text: str, kind: str, got: str) -> float:
     if rest in UNITS[kind] or rest == "":
         return _scaled(number, UNITS[kind].get(rest, 0))
     prefix = next((word for word in ("meg", "MEG") if rest.startswith(word)), rest[0])
-    return _scaled(number, _prefix_and_unit(prefix, rest[len(prefix):], kind, got))
+    return _scaled(number, _prefix_and_unit(prefix, rest[len(prefix) :], kind, got))
 
 
 def _prefix_and_unit(prefix: str, unit: str, kind: str, got: str) -> int:
@@ -269,7 +303,7 @@ def _check_sign(value: float, kind: str, got: str) -> None:
 # capacitor): refused here, where the message can still name the field, instead of overflowing
 # the circuit arithmetic later. Nonzero magnitudes in SI units, whatever the kind.
 PLAUSIBLE_SIZE = (1e-18, 1e15)
-TEMPCO_LIMIT = 0.1                      # per C: 100000 ppm/C, beyond any component
+TEMPCO_LIMIT = 0.1  # per C: 100000 ppm/C, beyond any component
 
 
 def _check_plausible(value: float, kind: str, got: str) -> None:
@@ -288,7 +322,7 @@ def _significant(value: float, digits: int) -> str:
     """Plain decimal text with at most `digits` significant digits, trailing zeros dropped."""
     rounded, exponent = _decimal_exponent(value, digits)
     if not -5 <= exponent < 15:
-        mantissa = f"{rounded / 10.0 ** exponent:.{digits - 1}f}".rstrip("0").rstrip(".")
+        mantissa = f"{rounded / 10.0**exponent:.{digits - 1}f}".rstrip("0").rstrip(".")
         return f"{mantissa}e{exponent}"
     text = f"{rounded:.{max(0, digits - 1 - exponent)}f}"
     return text.rstrip("0").rstrip(".") if "." in text else text
@@ -315,12 +349,12 @@ def format_si(value: float, unit: str, digits: int = 3) -> str:
     rounded, power = _decimal_exponent(value, digits)
     exponent = 0 if rounded == 0 else min(max(power // 3 * 3, -15), 9)
     prefix = {-15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G"}
-    mantissa = _significant(rounded / 10.0 ** exponent, digits)
+    mantissa = _significant(rounded / 10.0**exponent, digits)
     return f"{mantissa} {prefix[exponent]}{unit}" if unit else f"{mantissa}{prefix[exponent]}"
 
 
 def format_span(low: float, high: float, unit: str, digits: int = 3) -> str:
-    """"low .. high" with enough digits (up to 7) that two different ends never read the same:
+    """ "low .. high" with enough digits (up to 7) that two different ends never read the same:
     a comparator threshold of 3.897 .. 3.903 V is not shown as "3.9 V .. 3.9 V"."""
     for shown in range(digits, 8):
         a, b = format_si(low, unit, shown), format_si(high, unit, shown)

@@ -10,6 +10,7 @@ lives here, beside the engine it fronts. Names load on first use, so `import rai
     result = railroom.analyse(chain)
     result.go, railroom.to_dict(result)["verdict"], railroom.rows(result)[0]["margin"]
 """
+
 from __future__ import annotations
 
 from importlib import import_module
@@ -18,17 +19,27 @@ __version__ = "0.1.0"
 
 # exported name -> module that defines it
 _EXPORTS = {
-    "load": "railroom.engine.api", "analyse": "railroom.engine.api",
-    "parts_for": "railroom.engine.api", "to_dict": "railroom.engine.api",
-    "rows": "railroom.engine.api", "row": "railroom.engine.api",
+    "load": "railroom.engine.api",
+    "analyse": "railroom.engine.api",
+    "parts_for": "railroom.engine.api",
+    "to_dict": "railroom.engine.api",
+    "rows": "railroom.engine.api",
+    "row": "railroom.engine.api",
     "load_text": "railroom.engine.api",
-    "ChainResult": "railroom.engine.results", "StageResult": "railroom.engine.results",
-    "StageMeasure": "railroom.engine.results", "OpAmpMeasure": "railroom.engine.results",
-    "Chain": "railroom.engine.model", "Stage": "railroom.engine.model",
-    "Part": "railroom.engine.model", "InputError": "railroom.engine.model",
-    "Problem": "railroom.engine.model", "METHODS": "railroom.engine.model",
-    "Cancelled": "railroom.engine.methods.montecarlo", "BLOCKS": "railroom.engine.blocks",
-    "chain_report": "railroom.engine.report", "markdown_report": "railroom.engine.markdown",
+    "ChainResult": "railroom.engine.results",
+    "StageResult": "railroom.engine.results",
+    "StageMeasure": "railroom.engine.results",
+    "OpAmpMeasure": "railroom.engine.results",
+    "Chain": "railroom.engine.model",
+    "Stage": "railroom.engine.model",
+    "Part": "railroom.engine.model",
+    "InputError": "railroom.engine.model",
+    "Problem": "railroom.engine.model",
+    "METHODS": "railroom.engine.model",
+    "Cancelled": "railroom.engine.methods.montecarlo",
+    "BLOCKS": "railroom.engine.blocks",
+    "chain_report": "railroom.engine.report",
+    "markdown_report": "railroom.engine.markdown",
 }
 
 __all__ = sorted(_EXPORTS)

@@ -1,4 +1,5 @@
 """The block catalogue: one small module per block family, registered here by name."""
+
 from __future__ import annotations
 
 from railroom.engine.blocks.base import Block
@@ -14,10 +15,22 @@ from railroom.engine.blocks.schmitt import Schmitt
 BLOCKS: dict[str, Block] = {
     block.name: block
     for block in (
-        Follower(), Noninverting(), Inverting(), Summing(),
-        Difference(), Instrumentation(), Integrator(),
-        SallenKeyLowpass(), SallenKeyHighpass(), MfbLowpass(), MfbBandpass(),
-        Comparator(), Schmitt(), Divider(), RcLowpass(), ConverterInput(),
+        Follower(),
+        Noninverting(),
+        Inverting(),
+        Summing(),
+        Difference(),
+        Instrumentation(),
+        Integrator(),
+        SallenKeyLowpass(),
+        SallenKeyHighpass(),
+        MfbLowpass(),
+        MfbBandpass(),
+        Comparator(),
+        Schmitt(),
+        Divider(),
+        RcLowpass(),
+        ConverterInput(),
     )
 }
 

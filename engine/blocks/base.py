@@ -6,6 +6,7 @@ volt of every driving source ("in" for the chain signal, "pos"/"neg" for the two
 differential source, or a fixed voltage field such as "ref"), plus the gains from each op amp's
 offset and bias currents. The methods never look inside a block; they only combine transfers.
 """
+
 from __future__ import annotations
 
 from dataclasses import dataclass, field
@@ -17,12 +18,12 @@ import numpy as np
 
 from railroom.engine.opamp import LoopSolution
 
-Transfers = dict[str, np.ndarray]   # source -> complex array (J, F+1); index 0 along F is DC
+Transfers = dict[str, np.ndarray]  # source -> complex array (J, F+1); index 0 along F is DC
 
 
 @dataclass(frozen=True)
 class FieldSpec:
-    kind: str                 # a value kind of values.py, or "flag" / "inputs"
+    kind: str  # a value kind of values.py, or "flag" / "inputs"
     required: bool = True
     default: float | bool | None = None
     help: str = ""
@@ -33,36 +34,36 @@ class Node:
     """A voltage (or a current) inside a block, as transfers plus op-amp error gains."""
 
     transfers: Transfers
-    offset_gain: np.ndarray | None = None       # (J, n_opamps): per volt of each op amp's offset
-    bias_gain: np.ndarray | None = None         # (J, n_opamps): per ampere, |+ input| + |- input|
+    offset_gain: np.ndarray | None = None  # (J, n_opamps): per volt of each op amp's offset
+    bias_gain: np.ndarray | None = None  # (J, n_opamps): per ampere, |+ input| + |- input|
 
 
 @dataclass(frozen=True)
 class OpAmpNodes:
     """The three things checked on each op amp inside a block."""
 
-    label: str                # "amplifier", "upper input op amp", ...
+    label: str  # "amplifier", "upper input op amp", ...
     output: Node
-    plus: Node                # non-inverting input, for the common-mode window
-    current: Node             # current the op amp delivers into its network and load, A
+    plus: Node  # non-inverting input, for the common-mode window
+    current: Node  # current the op amp delivers into its network and load, A
 
 
 @dataclass(frozen=True)
 class InputLoad:
     """What the block draws from the stage before it: a conductance to a return voltage."""
 
-    conductance: float = 0.0          # largest over the tolerance, S
+    conductance: float = 0.0  # largest over the tolerance, S
     returns: tuple[float, float] = (0.0, 0.0)
-    least: float = 0.0                # smallest over the tolerance and band (0: not known), S
+    least: float = 0.0  # smallest over the tolerance and band (0: not known), S
 
 
 @dataclass(frozen=True)
 class BlockResponse:
     output: Node
     opamps: tuple[OpAmpNodes, ...] = ()
-    inner: Mapping[str, Node] = field(default_factory=dict)   # informational internal nodes
-    output_resistance: float = 0.0                              # drives the next stage's input
-    output_resistance_span: tuple[float, float] | None = None   # its (min, max) over the corners
+    inner: Mapping[str, Node] = field(default_factory=dict)  # informational internal nodes
+    output_resistance: float = 0.0  # drives the next stage's input
+    output_resistance_span: tuple[float, float] | None = None  # its (min, max) over the corners
     input_load: InputLoad = InputLoad()
     # a passive block's Thevenin impedance per corner and frequency, complex (J, F+1), DC first:
     # the next stage is driven through it (None: the real output_resistance at every frequency)
@@ -83,15 +84,21 @@ class Block:
 
     name: ClassVar[str]
     summary: ClassVar[str]
-    ideal: ClassVar[tuple[str, ...]] = ()   # ideal-op-amp formulas, shown by `railroom blocks NAME`
+    ideal: ClassVar[tuple[str, ...]] = ()  # ideal-op-amp formulas, shown by `railroom blocks NAME`
     fields: ClassVar[dict[str, FieldSpec]] = {}
     uses_part: ClassVar[bool] = True
-    saturates: ClassVar[bool] = False          # saturated by design (comparator, Schmitt trigger)
+    saturates: ClassVar[bool] = False  # saturated by design (comparator, Schmitt trigger)
     takes_differential: ClassVar[bool] = False
-    window_only: ClassVar[bool] = False        # a converter input: only a window to stay inside
+    window_only: ClassVar[bool] = False  # a converter input: only a window to stay inside
 
-    def respond(self, v: Mapping[str, np.ndarray], s: np.ndarray, inverse_gain: np.ndarray,
-                drive: float, differential: bool) -> BlockResponse:
+    def respond(
+        self,
+        v: Mapping[str, np.ndarray],
+        s: np.ndarray,
+        inverse_gain: np.ndarray,
+        drive: float,
+        differential: bool,
+    ) -> BlockResponse:
         raise NotImplementedError
 
     def critical_frequencies(self, v: Mapping[str, np.ndarray]) -> np.ndarray:
@@ -149,8 +156,11 @@ def thevenin(impedance: np.ndarray) -> dict:
     """BlockResponse fields of a passive block from its Thevenin impedance (J, F+1): the
     impedance itself and its DC resistance (largest, and range over the corners)."""
     resistance = np.asarray(impedance)[..., 0].real
-    return {"output_impedance": impedance, "output_resistance": float(np.max(resistance)),
-            "output_resistance_span": (float(np.min(resistance)), float(np.max(resistance)))}
+    return {
+        "output_impedance": impedance,
+        "output_resistance": float(np.max(resistance)),
+        "output_resistance_span": (float(np.min(resistance)), float(np.max(resistance))),
+    }
 
 
 def junction(series, drive, far: Node | None, share=None) -> Node:
@@ -159,7 +169,7 @@ def junction(series, drive, far: Node | None, share=None) -> Node:
     `far`: J = (series Vin + Z V_far) / (series + Z), a voltage divider (Horowitz & Hill ch. 1).
     `far` None: the far end draws nothing (J = Vin). `share`: series / (series + Z) when the
     caller has it in a form finite at DC (a series capacitor)."""
-    if far is None or (np.ndim(drive) == 0 and drive == 0):     # nothing drops across Z
+    if far is None or (np.ndim(drive) == 0 and drive == 0):  # nothing drops across Z
         return Node(transfers={"in": np.ones((1, 1))})
     share = series / (series + drive) if share is None else share
     return combined([(1.0 - share, far)], extra={"in": share})

@@ -12,6 +12,7 @@ node both families have: its swing can exceed the output's (V_A = V_out (1 + s r
 Sallen-Key low-pass) and is reported as informational. The response peak of every tolerance corner
 is added to the frequency grid so the worst case over the band includes it.
 """
+
 from __future__ import annotations
 
 from dataclasses import replace
@@ -19,9 +20,18 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputLoad, junction,
-                                         OpAmpNodes, combined, load_conductance, opamp_node,
-                                         plus_node)
+from railroom.engine.blocks.base import (
+    Block,
+    BlockResponse,
+    FieldSpec,
+    InputLoad,
+    junction,
+    OpAmpNodes,
+    combined,
+    load_conductance,
+    opamp_node,
+    plus_node,
+)
 from railroom.engine.blocks.gain import virtual_earth_load
 from railroom.engine.opamp import TWO_PI, Loop, solve_loop
 
@@ -61,6 +71,7 @@ def real_peaks(block: Block, v: Mapping[str, np.ndarray], part, ideal: np.ndarra
     points (a vertex in log f). With a 2 MHz part a Q = 8 band-pass peaks some 0.4 % below its
     ideal f0, where a sharp peak is already 0.2 % lower (issue 11 item 4)."""
     from railroom.engine.opamp import inverse_open_loop
+
     rows = np.flatnonzero(np.isfinite(ideal))
     if part is None or rows.size == 0:
         return np.empty(0)
@@ -87,8 +98,12 @@ def real_peaks(block: Block, v: Mapping[str, np.ndarray], part, ideal: np.ndarra
 # --- Sallen-Key -------------------------------------------------------------------------------
 
 SALLEN_KEY_FEEDBACK = {
-    "rf": FieldSpec("resistance", required=False, default=None,
-                    help="output to - input (leave rf and rg out for unity gain)"),
+    "rf": FieldSpec(
+        "resistance",
+        required=False,
+        default=None,
+        help="output to - input (leave rf and rg out for unity gain)",
+    ),
     "rg": FieldSpec("resistance", required=False, default=None, help="- input to ref"),
     "ref": FieldSpec("voltage", required=False, default=0.0, help="where rg returns, V"),
 }
@@ -98,9 +113,9 @@ def gain_network(v: Mapping[str, np.ndarray]) -> tuple[Loop, np.ndarray, dict]:
     """The - input's loop part, and the current the divider draws: (beta, a_minus, z_minus),
     conductance from the output and the transfers of what it returns to."""
     rf, rg = v.get("rf"), v.get("rg")
-    if rg is None:   # output straight to - (rf alone only carries the pin's bias current)
+    if rg is None:  # output straight to - (rf alone only carries the pin's bias current)
         return Loop(beta=np.ones((1, 1)), z_minus=0.0 if rf is None else rf), np.zeros((1, 1)), {}
-    if rf is None:   # output tied to -, rg only loads the output
+    if rf is None:  # output tied to -, rg only loads the output
         return Loop(beta=np.ones((1, 1))), 1.0 / rg, {"ref": -1.0 / rg}
     total = rf + rg
     loop = Loop(beta=rg / total, a_minus={"ref": rf / total}, z_minus=rf * rg / total)
@@ -120,16 +135,22 @@ def sallen_key(y_in, y_plus, y_out, y_ground, ground: str | None, v, inverse_gai
     if ground is not None:
         a_plus[ground] = y_ground * total / det
     minus, divider, divider_return = gain_network(v)
-    z_plus = (total / det)[:, :1].real                # resistance the + input sees at DC
-    loop = Loop(beta=minus.beta, a_minus=minus.a_minus, a_plus=a_plus, gamma=y_plus * y_out / det,
-                z_minus=minus.z_minus, z_plus=z_plus)
+    z_plus = (total / det)[:, :1].real  # resistance the + input sees at DC
+    loop = Loop(
+        beta=minus.beta,
+        a_minus=minus.a_minus,
+        a_plus=a_plus,
+        gamma=y_plus * y_out / det,
+        z_minus=minus.z_minus,
+        z_plus=z_plus,
+    )
     solution = solve_loop(loop, inverse_gain)
     output = opamp_node(solution, solution.output, 0, 1)
     plus = plus_node(solution, 0, 1)
-    node_a = combined([(y_plus / total, plus), (y_out / total, output)],
-                      extra={"in": y_in / total})
-    current = combined([(load_conductance(v) + y_out + divider, output), (-y_out, node_a)],
-                       extra=divider_return)
+    node_a = combined([(y_plus / total, plus), (y_out / total, output)], extra={"in": y_in / total})
+    current = combined(
+        [(load_conductance(v) + y_out + divider, output), (-y_out, node_a)], extra=divider_return
+    )
     amp = OpAmpNodes("amplifier", output, plus, current)
     return BlockResponse(output=output, opamps=(amp,), inner={"node A": node_a})
 
@@ -142,8 +163,10 @@ def sallen_key_gain(v: Mapping[str, np.ndarray]) -> np.ndarray | float:
 class SallenKeyLowpass(Block):
     name = "sallen_key_lowpass"
     summary = "second-order low-pass; rf/rg optional (unity gain without them)"
-    ideal = ("H(s) = K / (1 + s (c2 (r1 + r2) + r1 c1 (1 - K)) + s^2 r1 r2 c1 c2), K = 1 + rf/rg",
-             "f0 = 1 / (2 pi sqrt(r1 r2 c1 c2))")
+    ideal = (
+        "H(s) = K / (1 + s (c2 (r1 + r2) + r1 c1 (1 - K)) + s^2 r1 r2 c1 c2), K = 1 + rf/rg",
+        "f0 = 1 / (2 pi sqrt(r1 r2 c1 c2))",
+    )
     fields = {
         "r1": FieldSpec("resistance", help="in to node A"),
         "r2": FieldSpec("resistance", help="node A to + input"),
@@ -153,13 +176,18 @@ class SallenKeyLowpass(Block):
     }
 
     def respond(self, v, s, inverse_gain, drive, differential):
-        response = sallen_key(1.0 / (v["r1"] + drive), 1.0 / v["r2"], s * v["c1"], s * v["c2"],
-                              None, v, inverse_gain)
+        response = sallen_key(
+            1.0 / (v["r1"] + drive), 1.0 / v["r2"], s * v["c1"], s * v["c2"], None, v, inverse_gain
+        )
         # the input current (Vin - V_A)/r1 is at most Vin/r1 (V_A falls away above f0)
         load = InputLoad(conductance=float(np.max(1.0 / v["r1"])))
-        return BlockResponse(output=response.output, opamps=response.opamps,
-                             inner=response.inner, input_load=load,
-                             input_node=lambda: junction(v["r1"], drive, response.inner["node A"]))
+        return BlockResponse(
+            output=response.output,
+            opamps=response.opamps,
+            inner=response.inner,
+            input_load=load,
+            input_node=lambda: junction(v["r1"], drive, response.inner["node A"]),
+        )
 
     def critical_frequencies(self, v):
         r1, r2, c1, c2 = v["r1"], v["r2"], v["c1"], v["c2"]
@@ -178,9 +206,10 @@ class SallenKeyLowpass(Block):
 class SallenKeyHighpass(Block):
     name = "sallen_key_highpass"
     summary = "second-order high-pass; rf/rg optional (unity gain without them)"
-    ideal = ("H(s) = K s^2 r1 r2 c1 c2 / (1 + s (r1 (c1 + c2) + r2 c2 (1 - K)) + s^2 r1 r2 c1 c2), "
-             "K = 1 + rf/rg",
-             "f0 = 1 / (2 pi sqrt(r1 r2 c1 c2))")
+    ideal = (
+        "H(s) = K s^2 r1 r2 c1 c2 / (1 + s (r1 (c1 + c2) + r2 c2 (1 - K)) + s^2 r1 r2 c1 c2), K = 1 + rf/rg",
+        "f0 = 1 / (2 pi sqrt(r1 r2 c1 c2))",
+    )
     fields = {
         "c1": FieldSpec("capacitance", help="in to node A"),
         "c2": FieldSpec("capacitance", help="node A to + input"),
@@ -193,16 +222,21 @@ class SallenKeyHighpass(Block):
     def respond(self, v, s, inverse_gain, drive, differential):
         # c1 in series with the driving resistance
         y_in = s * v["c1"] / (1.0 + s * v["c1"] * drive)
-        response = sallen_key(y_in, s * v["c2"], 1.0 / v["r1"], 1.0 / v["r2"], "ref", v,
-                              inverse_gain)
+        response = sallen_key(y_in, s * v["c2"], 1.0 / v["r1"], 1.0 / v["r2"], "ref", v, inverse_gain)
         # above f0 the input sees r2 to ref through the capacitors; near f0 r1 as well
         ref = np.atleast_1d(v.get("ref", np.zeros(1)))
-        load = InputLoad(conductance=float(np.max(1.0 / v["r1"] + 1.0 / v["r2"])),
-                         returns=(float(np.min(ref)), float(np.max(ref))))
-        share = 1.0 / (1.0 + s * v["c1"] * drive)       # Z_c1 / (Z_c1 + Z)
-        return BlockResponse(output=response.output, opamps=response.opamps,
-                             inner=response.inner, input_load=load,
-                             input_node=lambda: junction(None, drive, response.inner["node A"], share))
+        load = InputLoad(
+            conductance=float(np.max(1.0 / v["r1"] + 1.0 / v["r2"])),
+            returns=(float(np.min(ref)), float(np.max(ref))),
+        )
+        share = 1.0 / (1.0 + s * v["c1"] * drive)  # Z_c1 / (Z_c1 + Z)
+        return BlockResponse(
+            output=response.output,
+            opamps=response.opamps,
+            inner=response.inner,
+            input_load=load,
+            input_node=lambda: junction(None, drive, response.inner["node A"], share),
+        )
 
     def critical_frequencies(self, v):
         r1, r2, c1, c2 = v["r1"], v["r2"], v["c1"], v["c2"]
@@ -219,6 +253,7 @@ class SallenKeyHighpass(Block):
 
 
 # --- multiple feedback ------------------------------------------------------------------------
+
 
 def mfb_fields(r2: str, r3: str, c1: str, c2: str) -> dict[str, FieldSpec]:
     return {
@@ -242,20 +277,26 @@ def multiple_feedback(y_in, y_out, y_ref, y_minus, y_feedback, v, inverse_gain) 
     total = y_in + y_out + y_ref + y_minus
     det = (y_minus + y_feedback) * total - y_minus * y_minus
     one = np.ones((1, 1))
-    loop = Loop(beta=(y_minus * y_out + y_feedback * total) / det,
-                a_minus={"in": y_minus * y_in / det, "ref": y_minus * y_ref / det},
-                a_plus={"ref": one}, z_minus=(total / det)[:, :1].real)
+    loop = Loop(
+        beta=(y_minus * y_out + y_feedback * total) / det,
+        a_minus={"in": y_minus * y_in / det, "ref": y_minus * y_ref / det},
+        a_plus={"ref": one},
+        z_minus=(total / det)[:, :1].real,
+    )
     solution = solve_loop(loop, inverse_gain)
     output = opamp_node(solution, solution.output, 0, 1)
     plus = plus_node(solution, 0, 1)
     minus = combined([(loop.beta, output)], extra=loop.a_minus)
-    node_a = combined([(y_out / total, output), (y_minus / total, minus)],
-                      extra={"in": y_in / total, "ref": y_ref / total})
-    current = combined([(load_conductance(v) + y_out + y_feedback, output), (-y_out, node_a),
-                        (-y_feedback, minus)])
+    node_a = combined(
+        [(y_out / total, output), (y_minus / total, minus)], extra={"in": y_in / total, "ref": y_ref / total}
+    )
+    current = combined(
+        [(load_conductance(v) + y_out + y_feedback, output), (-y_out, node_a), (-y_feedback, minus)]
+    )
     amp = OpAmpNodes("amplifier", output, plus, current)
-    return BlockResponse(output=output, opamps=(amp,), inner={"node A": node_a},
-                         input_load=virtual_earth_load(v["r1"], v))
+    return BlockResponse(
+        output=output, opamps=(amp,), inner={"node A": node_a}, input_load=virtual_earth_load(v["r1"], v)
+    )
 
 
 def mfb_response(response: BlockResponse, v, drive) -> BlockResponse:
@@ -266,14 +307,28 @@ def mfb_response(response: BlockResponse, v, drive) -> BlockResponse:
 class MfbLowpass(Block):
     name = "mfb_lowpass"
     summary = "multiple-feedback low-pass (inverting)"
-    ideal = ("H(s) = -(r2/r1) / (1 + s c2 (r2 + r3 + r2 r3/r1) + s^2 r2 r3 c1 c2)",
-             "f0 = 1 / (2 pi sqrt(r2 r3 c1 c2))")
-    fields = mfb_fields(r2="node A to the output", r3="node A to the - input",
-                        c1="node A to ref", c2="output to the - input")
+    ideal = (
+        "H(s) = -(r2/r1) / (1 + s c2 (r2 + r3 + r2 r3/r1) + s^2 r2 r3 c1 c2)",
+        "f0 = 1 / (2 pi sqrt(r2 r3 c1 c2))",
+    )
+    fields = mfb_fields(
+        r2="node A to the output", r3="node A to the - input", c1="node A to ref", c2="output to the - input"
+    )
 
     def respond(self, v, s, inverse_gain, drive, differential):
-        return mfb_response(multiple_feedback(1.0 / (v["r1"] + drive), 1.0 / v["r2"], s * v["c1"],
-                                              1.0 / v["r3"], s * v["c2"], v, inverse_gain), v, drive)
+        return mfb_response(
+            multiple_feedback(
+                1.0 / (v["r1"] + drive),
+                1.0 / v["r2"],
+                s * v["c1"],
+                1.0 / v["r3"],
+                s * v["c2"],
+                v,
+                inverse_gain,
+            ),
+            v,
+            drive,
+        )
 
     def critical_frequencies(self, v):
         r1, r2, r3, c1, c2 = v["r1"], v["r2"], v["r3"], v["c1"], v["c2"]
@@ -291,14 +346,28 @@ class MfbLowpass(Block):
 class MfbBandpass(Block):
     name = "mfb_bandpass"
     summary = "multiple-feedback band-pass (inverting)"
-    ideal = ("H(s) = -s c1 r2 rp/r1 / (1 + s rp (c1 + c2) + s^2 rp r2 c1 c2), rp = r1 r3/(r1 + r3)",
-             "f0 = 1 / (2 pi sqrt(rp r2 c1 c2)); centre gain -r2 c1/(r1 (c1 + c2))")
-    fields = mfb_fields(r2="- input to the output", r3="node A to ref",
-                        c1="node A to the - input", c2="node A to the output")
+    ideal = (
+        "H(s) = -s c1 r2 rp/r1 / (1 + s rp (c1 + c2) + s^2 rp r2 c1 c2), rp = r1 r3/(r1 + r3)",
+        "f0 = 1 / (2 pi sqrt(rp r2 c1 c2)); centre gain -r2 c1/(r1 (c1 + c2))",
+    )
+    fields = mfb_fields(
+        r2="- input to the output", r3="node A to ref", c1="node A to the - input", c2="node A to the output"
+    )
 
     def respond(self, v, s, inverse_gain, drive, differential):
-        return mfb_response(multiple_feedback(1.0 / (v["r1"] + drive), s * v["c2"], 1.0 / v["r3"],
-                                              s * v["c1"], 1.0 / v["r2"], v, inverse_gain), v, drive)
+        return mfb_response(
+            multiple_feedback(
+                1.0 / (v["r1"] + drive),
+                s * v["c2"],
+                1.0 / v["r3"],
+                s * v["c1"],
+                1.0 / v["r2"],
+                v,
+                inverse_gain,
+            ),
+            v,
+            drive,
+        )
 
     def critical_frequencies(self, v):
         r1, r2, r3, c1, c2 = v["r1"], v["r2"], v["r3"], v["c1"], v["c2"]

@@ -7,20 +7,37 @@ Formulas (Sedra & Smith, Microelectronic Circuits, ch. 2; Franco, ch. 1):
 The finite open-loop gain enters through opamp.solve_loop (Black's feedback formula).
 Any resistance driving the stage (source impedance, a divider before it) is in series with its input.
 """
+
 from __future__ import annotations
 
 from collections.abc import Mapping
 
 import numpy as np
 
-from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputLoad, Node, OpAmpNodes,
-                                         junction, load_conductance, minus_pin, opamp_node,
-                                         plus_node, scaled)
+from railroom.engine.blocks.base import (
+    Block,
+    BlockResponse,
+    FieldSpec,
+    InputLoad,
+    Node,
+    OpAmpNodes,
+    junction,
+    load_conductance,
+    minus_pin,
+    opamp_node,
+    plus_node,
+    scaled,
+)
 from railroom.engine.opamp import Loop, solve_loop
 
 
-def single_opamp(loop: Loop, inverse_gain: np.ndarray, feedback_conductance: np.ndarray,
-                 v: Mapping[str, np.ndarray], label: str = "amplifier") -> tuple[OpAmpNodes, object]:
+def single_opamp(
+    loop: Loop,
+    inverse_gain: np.ndarray,
+    feedback_conductance: np.ndarray,
+    v: Mapping[str, np.ndarray],
+    label: str = "amplifier",
+) -> tuple[OpAmpNodes, object]:
     """Close one loop and build the three checked nodes.
 
     The op amp's output current is Vout G_load plus the feedback resistor's (Vout - V-) G_f, with
@@ -61,8 +78,13 @@ class Noninverting(Block):
     def respond(self, v, s, inverse_gain, drive, differential):
         rf, rg = v["rf"], v["rg"]
         total = rf + rg
-        loop = Loop(beta=rg / total, a_plus={"in": np.ones_like(rf)},
-                    a_minus={"ref": rf / total}, z_plus=drive, z_minus=rf * rg / total)
+        loop = Loop(
+            beta=rg / total,
+            a_plus={"in": np.ones_like(rf)},
+            a_minus={"ref": rf / total},
+            z_plus=drive,
+            z_minus=rf * rg / total,
+        )
         amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
         return BlockResponse(output=amp.output, opamps=(amp,), input_node=amp.plus)
 
@@ -81,25 +103,35 @@ class Inverting(Block):
         rin, rf = v["rin"] + drive, v["rf"]
         total = rin + rf
         one = np.ones_like(rf)
-        loop = Loop(beta=rin / total, a_minus={"in": rf / total}, a_plus={"ref": one},
-                    z_minus=rin * rf / total)
+        loop = Loop(
+            beta=rin / total, a_minus={"in": rf / total}, a_plus={"ref": one}, z_minus=rin * rf / total
+        )
         amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
-        return BlockResponse(output=amp.output, opamps=(amp,),
-                             input_load=virtual_earth_load(v["rin"], v),
-                             input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain))
+        return BlockResponse(
+            output=amp.output,
+            opamps=(amp,),
+            input_load=virtual_earth_load(v["rin"], v),
+            input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain),
+        )
 
 
 class Summing(Block):
     name = "summing"
     summary = "inverting summer: the signal through rin plus fixed DC inputs (level shift)"
-    ideal = ("out = -rf (in/rin + sum v/r) + (1 + rf/rin + sum rf/r) ref",
-             "each fixed input: r from the voltage v to the - input")
+    ideal = (
+        "out = -rf (in/rin + sum v/r) + (1 + rf/rin + sum rf/r) ref",
+        "each fixed input: r from the voltage v to the - input",
+    )
     fields = {
         "rin": FieldSpec("resistance", help="signal input resistor"),
         "rf": FieldSpec("resistance", help="feedback resistor"),
         "ref": FieldSpec("voltage", required=False, default=0.0, help="drives the + input, V"),
-        "inputs": FieldSpec("inputs", required=False, default=None,
-                            help="fixed inputs [{r, v}]: r from the voltage v to the - input"),
+        "inputs": FieldSpec(
+            "inputs",
+            required=False,
+            default=None,
+            help="fixed inputs [{r, v}]: r from the voltage v to the - input",
+        ),
     }
 
     def respond(self, v, s, inverse_gain, drive, differential):
@@ -109,12 +141,14 @@ class Summing(Block):
         minus = {"in": (1.0 / rin) / total}
         minus.update({f"{k}.v": (1.0 / v[f"{k}.r"]) / total for k in extra})
         one = np.ones_like(rf)
-        loop = Loop(beta=(1.0 / rf) / total, a_minus=minus, a_plus={"ref": one},
-                    z_minus=1.0 / total)
+        loop = Loop(beta=(1.0 / rf) / total, a_minus=minus, a_plus={"ref": one}, z_minus=1.0 / total)
         amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
-        return BlockResponse(output=amp.output, opamps=(amp,),
-                             input_load=virtual_earth_load(v["rin"], v),
-                             input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain))
+        return BlockResponse(
+            output=amp.output,
+            opamps=(amp,),
+            input_load=virtual_earth_load(v["rin"], v),
+            input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain),
+        )
 
 
 def virtual_earth_input(rin, drive, amp: OpAmpNodes, inverse_gain) -> Node:
@@ -127,5 +161,8 @@ def virtual_earth_input(rin, drive, amp: OpAmpNodes, inverse_gain) -> Node:
 def virtual_earth_load(rin: np.ndarray, v: Mapping[str, np.ndarray]) -> InputLoad:
     """An inverting input resistor loads the stage before it to the + input's voltage (ref)."""
     ref = np.atleast_1d(v.get("ref", np.zeros(1)))
-    return InputLoad(conductance=float(np.max(1.0 / rin)),
-                     returns=(float(np.min(ref)), float(np.max(ref))), least=float(np.min(1.0 / rin)))
+    return InputLoad(
+        conductance=float(np.max(1.0 / rin)),
+        returns=(float(np.min(ref)), float(np.max(ref))),
+        least=float(np.min(1.0 / rin)),
+    )

@@ -16,12 +16,20 @@ rf per ampere in common mode, rf || (rg/2) times the difference-mode gain in dif
 After a single-ended stage `in` drives the upper op amp and the lower op amp's + input sits on ref
 (as the difference block's r1 returns to ref).
 """
+
 from __future__ import annotations
 
 import numpy as np
 
-from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, Node, OpAmpNodes,
-                                         combined, dc_resistance)
+from railroom.engine.blocks.base import (
+    Block,
+    BlockResponse,
+    FieldSpec,
+    Node,
+    OpAmpNodes,
+    combined,
+    dc_resistance,
+)
 from railroom.engine.blocks.difference import difference_loop, input_names
 from railroom.engine.blocks.gain import single_opamp
 
@@ -34,8 +42,9 @@ def dc(transfer: np.ndarray) -> np.ndarray:
     return transfer[:, :1].real
 
 
-def first_stage(rf, rg, inverse_gain, positive: str, negative: str,
-                drives: tuple[float, float]) -> tuple[Node, Node]:
+def first_stage(
+    rf, rg, inverse_gain, positive: str, negative: str, drives: tuple[float, float]
+) -> tuple[Node, Node]:
     """Outputs of the upper and lower input op amps, with their offset and bias gains."""
     half = rg / 2.0
     difference = 1.0 / (inverse_gain + half / (rf + half))
@@ -48,14 +57,16 @@ def first_stage(rf, rg, inverse_gain, positive: str, negative: str,
     upper = Node(
         transfers={positive: same, negative: cross},
         offset_gain=np.hstack((dc(same), dc(cross), zero)),
-        bias_gain=np.hstack((np.abs(drives[0] * dc(same)) + minus_same,
-                             np.abs(drives[1] * dc(cross)) + minus_cross, zero)),
+        bias_gain=np.hstack(
+            (np.abs(drives[0] * dc(same)) + minus_same, np.abs(drives[1] * dc(cross)) + minus_cross, zero)
+        ),
     )
     lower = Node(
         transfers={positive: cross, negative: same},
         offset_gain=np.hstack((dc(cross), dc(same), zero)),
-        bias_gain=np.hstack((np.abs(drives[0] * dc(cross)) + minus_cross,
-                             np.abs(drives[1] * dc(same)) + minus_same, zero)),
+        bias_gain=np.hstack(
+            (np.abs(drives[0] * dc(cross)) + minus_cross, np.abs(drives[1] * dc(same)) + minus_same, zero)
+        ),
     )
     return upper, lower
 
@@ -108,18 +119,24 @@ class Instrumentation(Block):
     fields = {
         "rg": FieldSpec("resistance", help="gain resistor between the two input op amps' - inputs"),
         "rf": FieldSpec("resistance", help="feedback resistor of each input op amp"),
-        "ref": FieldSpec("voltage", required=False, default=0.0,
-                         help="reference of the difference stage (its output's zero), V"),
-        "rdiff": FieldSpec("resistance", required=False, default=10e3,
-                           help="the difference stage's four equal resistors"),
+        "ref": FieldSpec(
+            "voltage",
+            required=False,
+            default=0.0,
+            help="reference of the difference stage (its output's zero), V",
+        ),
+        "rdiff": FieldSpec(
+            "resistance", required=False, default=10e3, help="the difference stage's four equal resistors"
+        ),
     }
 
     def respond(self, v, s, inverse_gain, drive, differential):
         rf, rg, rdiff = v["rf"], v["rg"], v["rdiff"]
-        drive = dc_resistance(drive)      # only the bias currents meet it: the + pins draw nothing
+        drive = dc_resistance(drive)  # only the bias currents meet it: the + pins draw nothing
         positive, negative = input_names(differential)
-        upper, lower = first_stage(rf, rg, inverse_gain, positive, negative,
-                                   (drive, drive if differential else 0.0))
+        upper, lower = first_stage(
+            rf, rg, inverse_gain, positive, negative, (drive, drive if differential else 0.0)
+        )
         loop = difference_loop(rdiff, rdiff, rdiff, rdiff, "upper", "lower")
         amp, _ = single_opamp(loop, inverse_gain, 1.0 / rdiff, v, LABELS[2])
         inputs = {"upper": upper, "lower": lower}
@@ -127,16 +144,28 @@ class Instrumentation(Block):
         diff_plus = substitute(amp.plus, inputs, 2)
         diff_minus = combined([(loop.beta, output), (loop.a_minus["lower"], lower)])
         conductance = 1.0 / rf + 1.0 / rdiff
-        upper_current = combined([(conductance, upper), (-1.0 / rdiff, diff_plus),
-                                  (-1.0 / rf, input_minus(upper, inverse_gain, positive, 0))])
-        lower_current = combined([(conductance, lower), (-1.0 / rdiff, diff_minus),
-                                  (-1.0 / rf, input_minus(lower, inverse_gain, negative, 1))])
+        upper_current = combined(
+            [
+                (conductance, upper),
+                (-1.0 / rdiff, diff_plus),
+                (-1.0 / rf, input_minus(upper, inverse_gain, positive, 0)),
+            ]
+        )
+        lower_current = combined(
+            [
+                (conductance, lower),
+                (-1.0 / rdiff, diff_minus),
+                (-1.0 / rf, input_minus(lower, inverse_gain, negative, 1)),
+            ]
+        )
         ones = np.ones_like(upper.transfers[positive])
         opamps = (
             OpAmpNodes(LABELS[0], upper, input_pin(positive, ones, drive, 0), upper_current),
-            OpAmpNodes(LABELS[1], lower,
-                       input_pin(negative, ones, drive if differential else 0.0, 1), lower_current),
+            OpAmpNodes(
+                LABELS[1], lower, input_pin(negative, ones, drive if differential else 0.0, 1), lower_current
+            ),
             OpAmpNodes(LABELS[2], output, diff_plus, substitute(amp.current, inputs, 2)),
         )
-        return BlockResponse(output=output, opamps=opamps,
-                             input_node=None if differential else opamps[0].plus)
+        return BlockResponse(
+            output=output, opamps=opamps, input_node=None if differential else opamps[0].plus
+        )

@@ -9,6 +9,7 @@ ideal op amp (Franco, Design with Operational Amplifiers, ch. 3; REFERENCES.md):
 rf is what keeps the offset from ramping the output into a rail: at DC the offset sees the noise
 gain 1 + rf/rin and the - input's bias current flows through rf; both are part of the worst case.
 """
+
 from __future__ import annotations
 
 import numpy as np
@@ -33,12 +34,19 @@ class Integrator(Block):
         g_in = 1.0 / (v["rin"] + drive)
         y_feedback = 1.0 / v["rf"] + s * v["c"]
         total = g_in + y_feedback
-        loop = Loop(beta=y_feedback / total, a_minus={"in": g_in / total},
-                    a_plus={"ref": np.ones((1, 1))}, z_minus=1.0 / (g_in + 1.0 / v["rf"]))
+        loop = Loop(
+            beta=y_feedback / total,
+            a_minus={"in": g_in / total},
+            a_plus={"ref": np.ones((1, 1))},
+            z_minus=1.0 / (g_in + 1.0 / v["rf"]),
+        )
         amp, _ = single_opamp(loop, inverse_gain, y_feedback, v)
-        return BlockResponse(output=amp.output, opamps=(amp,),
-                             input_load=virtual_earth_load(v["rin"], v),
-                             input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain))
+        return BlockResponse(
+            output=amp.output,
+            opamps=(amp,),
+            input_load=virtual_earth_load(v["rin"], v),
+            input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain),
+        )
 
     def critical_frequencies(self, v):
         return np.ravel(1.0 / (TWO_PI * v["rf"] * v["c"]))

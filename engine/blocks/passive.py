@@ -13,12 +13,21 @@ the output node is the open-circuit voltage, and the source impedance, per frequ
 sits in series with the next stage's input (a complex impedance, not its DC resistance: an RC
 low-pass into an inverting stage with rin = r reads 1/sqrt(5) at the corner, not 1/sqrt(8)).
 """
+
 from __future__ import annotations
 
 import numpy as np
 
-from railroom.engine.blocks.base import (Block, BlockResponse, FieldSpec, InputLoad, Node,
-                                         junction, load_conductance, thevenin)
+from railroom.engine.blocks.base import (
+    Block,
+    BlockResponse,
+    FieldSpec,
+    InputLoad,
+    Node,
+    junction,
+    load_conductance,
+    thevenin,
+)
 
 
 class Divider(Block):
@@ -39,10 +48,13 @@ class Divider(Block):
         impedance = top * bottom / (top + bottom) * ones
         output = Node(transfers={"in": ratio})
         return BlockResponse(
-            output=output, input_node=lambda: junction(v["top"], drive, output),
+            output=output,
+            input_node=lambda: junction(v["top"], drive, output),
             **thevenin(impedance),
-            input_load=InputLoad(conductance=float(np.max(1.0 / (v["top"] + bottom))),
-                                 least=float(np.min(1.0 / (v["top"] + bottom)))),
+            input_load=InputLoad(
+                conductance=float(np.max(1.0 / (v["top"] + bottom))),
+                least=float(np.min(1.0 / (v["top"] + bottom))),
+            ),
         )
 
 
@@ -61,7 +73,8 @@ class RcLowpass(Block):
         # Its input draws at most Vin / r (at frequencies far above the corner): conservative.
         output = Node(transfers={"in": 1.0 / (1.0 + r * g_load + s * r * c)})
         return BlockResponse(
-            output=output, input_node=lambda: junction(v["r"], drive, output),
+            output=output,
+            input_node=lambda: junction(v["r"], drive, output),
             **thevenin(r / (1.0 + r * g_load + s * r * c)),
             input_load=InputLoad(conductance=float(np.max(1.0 / v["r"]))),
         )

@@ -21,6 +21,7 @@ common-mode check pairs each rail corner with the level, hence the threshold, at
 the + pin moves by r1/(r1 + r2) < 1 of a rail move, so the lowest positive rail (and the highest
 negative one) is the worst, the corner the window is drawn at.
 """
+
 from __future__ import annotations
 
 from collections.abc import Mapping
@@ -44,8 +45,9 @@ def loaded(part: Part, ideal, conductance):
     """A saturated output level under its load: V = V0 / (1 + Ro G), the drop capped by the
     current limit (opamp.saturated_levels)."""
     ideal = np.asarray(ideal, dtype=float)
-    current = np.minimum(np.abs(ideal) * conductance / (1 + part.output_resistance * conductance),
-                         part.output_current)
+    current = np.minimum(
+        np.abs(ideal) * conductance / (1 + part.output_resistance * conductance), part.output_current
+    )
     return ideal - np.sign(ideal) * part.output_resistance * current
 
 
@@ -60,24 +62,37 @@ def level_spans(part: Part, rails: Rails, least: float, most: float) -> tuple[Sp
 class Schmitt(Block):
     name = "schmitt"
     summary = "comparator with positive feedback: saturated by design, with two thresholds"
-    ideal = ("invert = false: switches where in = ref (1 + r1/r2) - out r1/r2 (out at either level)",
-             "invert = true: switches where in = (ref r2 + out r1)/(r1 + r2)")
+    ideal = (
+        "invert = false: switches where in = ref (1 + r1/r2) - out r1/r2 (out at either level)",
+        "invert = true: switches where in = (ref r2 + out r1)/(r1 + r2)",
+    )
     saturates = True
     fields = {
         "r1": FieldSpec("resistance", help="invert = false: in to + input; true: + input to ref"),
         "r2": FieldSpec("resistance", help="+ input to the output (positive feedback)"),
-        "ref": FieldSpec("voltage", required=False, default=0.0,
-                         help="invert = false: drives the - input; true: where r1 returns, V"),
-        "invert": FieldSpec("flag", required=False, default=False,
-                            help="true: signal to the - input"),
+        "ref": FieldSpec(
+            "voltage",
+            required=False,
+            default=0.0,
+            help="invert = false: drives the - input; true: where r1 returns, V",
+        ),
+        "invert": FieldSpec("flag", required=False, default=False, help="true: signal to the - input"),
     }
 
-    def switch(self, v: Mapping[str, np.ndarray], flags: Mapping[str, object], part: Part,
-               rails: Rails, signal: Span, offset: float = 0.0, bias: float = 0.0) -> Switching:
+    def switch(
+        self,
+        v: Mapping[str, np.ndarray],
+        flags: Mapping[str, object],
+        part: Part,
+        rails: Rails,
+        signal: Span,
+        offset: float = 0.0,
+        bias: float = 0.0,
+    ) -> Switching:
         r1, r2, ref = v["r1"], v["r2"], v.get("ref", np.zeros((1, 1)))
         drive = np.broadcast_to(dc_resistance(v.get("drive", 0.0)), np.shape(r1 + r2))
         invert = bool(flags.get("invert"))
-        series = r1 if invert else r1 + drive           # the input's own path to + (not inverted)
+        series = r1 if invert else r1 + drive  # the input's own path to + (not inverted)
         load = v.get("load")
         g_load = (0.0, 0.0) if load is None else (float(np.min(1.0 / load)), float(np.max(1.0 / load)))
         g_pair = 1.0 / (series + r2)
@@ -95,15 +110,22 @@ class Schmitt(Block):
             reaches = (signal[1] > to_low[0], signal[0] < to_high[1])
         else:
             reaches = (signal[0] < to_low[1], signal[1] > to_high[0])
-        input_span = self.input_span(series, r2, ref, part, rails, g_load, signal, invert,
-                                     bias, drive, to_high, to_low)
+        input_span = self.input_span(
+            series, r2, ref, part, rails, g_load, signal, invert, bias, drive, to_high, to_low
+        )
         current = output_current(levels, part, rails, g_load[1], g_pair, ref, signal, invert)
-        return Switching(levels=levels, thresholds=(to_high, to_low), input_span=input_span,
-                         reaches=reaches, current=current)
+        return Switching(
+            levels=levels,
+            thresholds=(to_high, to_low),
+            input_span=input_span,
+            reaches=reaches,
+            current=current,
+        )
 
     @staticmethod
-    def input_span(series, r2, ref, part, rails, g_load, signal, invert, bias, drive,
-                   to_high, to_low) -> Span:
+    def input_span(
+        series, r2, ref, part, rails, g_load, signal, invert, bias, drive, to_high, to_low
+    ) -> Span:
         """Both pins' common-mode span with each rail paired with its own level: the levels at
         the window's corner (lowest positive, highest negative rail), at their least load."""
         high = float(loaded(part, rails.positive_range[0] - part.output_headroom[0], g_load[0]))
@@ -121,8 +143,10 @@ class Schmitt(Block):
         shift = float(np.max(bias * series * r2 / (series + r2)))
         plus_high = (signal[1] * r2 + high * series) / (series + r2) + shift
         plus_low = (signal[0] * r2 + low * series) / (series + r2) - shift
-        return (min(float(np.min(ref)), float(np.min(plus_low))),
-                max(float(np.max(ref)), float(np.max(plus_high))))
+        return (
+            min(float(np.min(ref)), float(np.min(plus_low))),
+            max(float(np.max(ref)), float(np.max(plus_high))),
+        )
 
 
 def widened(values: np.ndarray, error) -> Span:
@@ -137,5 +161,7 @@ def output_current(levels, part, rails, g_load: float, g_pair, ref, signal, inve
     low = float(loaded(part, rails.negative_range[0] + part.output_headroom[1], g_load))
     far_low, far_high = (float(np.min(ref)), float(np.max(ref))) if invert else signal
     pair = float(np.max(g_pair))
-    return max(abs(high) * g_load + max(high - far_low, 0.0) * pair,
-               abs(low) * g_load + max(far_high - low, 0.0) * pair)
+    return max(
+        abs(high) * g_load + max(high - far_low, 0.0) * pair,
+        abs(low) * g_load + max(far_high - low, 0.0) * pair,
+    )

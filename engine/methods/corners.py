@@ -7,6 +7,7 @@ each range and the AC part at +/- its peak over every band frequency. The signal
 carried as bounds (see propagation.py): exact for DC and flat-band stages, outside bounds
 otherwise (ECSS-Q-HB-30-01A, extreme value analysis).
 """
+
 from __future__ import annotations
 
 import itertools
@@ -23,7 +24,7 @@ from railroom.engine.plan import StagePlan, spread
 from railroom.engine.propagation import DifferentialSignal, Signal, source_signal
 from railroom.engine.stage_walk import walk_chain
 
-MAX_CORNER_BITS = 14          # 16384 corners of one stage's own values
+MAX_CORNER_BITS = 14  # 16384 corners of one stage's own values
 
 
 @dataclass(frozen=True)
@@ -47,16 +48,27 @@ class TooManyCorners(InputError):
 
     def __init__(self, plan: StagePlan, count: int):
         stage = plan.stage
-        super().__init__([Problem(
-            plan.path, stage.line, f"stage.{plan.index}",
-            f"stage {plan.index} ({stage.name!r}) has {count} toleranced values (with the source "
-            f"impedance and tempcos); the worst case enumerates every corner of at most "
-            f"{MAX_CORNER_BITS} per stage ({2 ** MAX_CORNER_BITS} corners) and never holds one "
-            "fixed: give fewer values a tolerance, or split the stage")])
+        super().__init__(
+            [
+                Problem(
+                    plan.path,
+                    stage.line,
+                    f"stage.{plan.index}",
+                    f"stage {plan.index} ({stage.name!r}) has {count} toleranced values (with the source "
+                    f"impedance and tempcos); the worst case enumerates every corner of at most "
+                    f"{MAX_CORNER_BITS} per stage ({2**MAX_CORNER_BITS} corners) and never holds one "
+                    "fixed: give fewer values a tolerance, or split the stage",
+                )
+            ]
+        )
 
 
-def corner_values(plan: StagePlan, temperature_rise: float, nominal: bool = False,
-                  drive: np.ndarray | tuple[float, float] | None = None) -> dict[str, np.ndarray]:
+def corner_values(
+    plan: StagePlan,
+    temperature_rise: float,
+    nominal: bool = False,
+    drive: np.ndarray | tuple[float, float] | None = None,
+) -> dict[str, np.ndarray]:
     """Every corner of the stage's own toleranced values as column arrays (J, 1).
 
     `drive` holds the impedances that may drive the stage (drive_candidates: the Thevenin
@@ -64,13 +76,18 @@ def corner_values(plan: StagePlan, temperature_rise: float, nominal: bool = Fals
     resistance range (lo, hi)); each is enumerated against every corner of the stage's own
     values, key "drive" (J, F+1), independent of the stage before, which bounds the true
     extremes from outside."""
-    ends = {name: ((q.value, q.value) if nominal else spread(q, temperature_rise))
-            for name, q in plan.quantities.items()}
+    ends = {
+        name: ((q.value, q.value) if nominal else spread(q, temperature_rise))
+        for name, q in plan.quantities.items()
+    }
     varying = [name for name, (lo, hi) in ends.items() if lo != hi]
     candidates = None
     if drive is not None:
-        candidates = np.unique(np.atleast_1d(np.asarray(drive, dtype=float)))[:, None] \
-            if isinstance(drive, tuple) else np.asarray(drive)
+        candidates = (
+            np.unique(np.atleast_1d(np.asarray(drive, dtype=float)))[:, None]
+            if isinstance(drive, tuple)
+            else np.asarray(drive)
+        )
     choices = 1 if candidates is None else candidates.shape[0]
     bits = len(varying) + int(np.ceil(np.log2(choices)))
     if bits > MAX_CORNER_BITS:
@@ -110,7 +127,7 @@ def drive_candidates(impedance: np.ndarray) -> np.ndarray:
 def next_drive(plan: StagePlan, response: BlockResponse | None) -> np.ndarray:
     """What drives the stage after this one, taken apart from this stage's corners: its
     distinct impedances (drive_candidates)."""
-    if response is None:          # saturated by design: the op amp's own output resistance
+    if response is None:  # saturated by design: the op amp's own output resistance
         return np.array([[plan.part.output_resistance if plan.part else 0.0]])
     if response.output_impedance is not None:
         return drive_candidates(response.output_impedance)
@@ -118,8 +135,9 @@ def next_drive(plan: StagePlan, response: BlockResponse | None) -> np.ndarray:
     return np.unique([low, high])[:, None]
 
 
-def stage_values(plan: StagePlan, rise: float, nominal: bool, before: BlockResponse | None,
-                 before_rows: int, drive) -> tuple[dict[str, np.ndarray], bool]:
+def stage_values(
+    plan: StagePlan, rise: float, nominal: bool, before: BlockResponse | None, before_rows: int, drive
+) -> tuple[dict[str, np.ndarray], bool]:
     """The stage's corner values and whether they pair with every row of the passive stage
     before it. After a passive stage (its Thevenin impedance known per row) the stage's own
     corners are enumerated jointly with that stage's: row i*n + j is own corner i with the
@@ -136,8 +154,15 @@ def stage_values(plan: StagePlan, rise: float, nominal: bool, before: BlockRespo
     return corner_values(plan, rise, nominal, drive()), False
 
 
-def prepare(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, nominal: bool = False,
-            ideal: bool = False, reuse: Prepared | None = None, first: int = 0) -> Prepared:
+def prepare(
+    chain: Chain,
+    plans: list[StagePlan],
+    freqs: np.ndarray,
+    nominal: bool = False,
+    ideal: bool = False,
+    reuse: Prepared | None = None,
+    first: int = 0,
+) -> Prepared:
     """Corner values and block responses of every stage. `reuse`: a Prepared of the same chain
     whose stages before `first` are unchanged: theirs are kept and only `first` onwards are
     recomputed (what a stage drives depends only on the stages before it)."""
@@ -154,7 +179,7 @@ def prepare(chain: Chain, plans: list[StagePlan], freqs: np.ndarray, nominal: bo
         prior, before = plans[first - 1], reuse.responses[first - 1]
         drive = partial(next_drive, prior, before)
         differential = False
-    for plan in plans[len(values):]:
+    for plan in plans[len(values) :]:
         rows = values[-1]["drive"].shape[0] if values else 1
         v, paired = stage_values(plan, rise, nominal, before, rows, drive)
         inverse_gain = inverse_open_loop(None if ideal else plan.part, s)
@@ -177,12 +202,14 @@ def start_signal(chain: Chain, freqs: np.ndarray, scale: float = 1.0) -> Signal 
     return source_signal(source.level, source.amplitude * scale, freqs)
 
 
-def run(prepared: Prepared, scale: float = 1.0, nominal: bool = False, notes=None,
-        entering: list | None = None):
+def run(
+    prepared: Prepared, scale: float = 1.0, nominal: bool = False, notes=None, entering: list | None = None
+):
     """Stage measures and verdicts for one source amplitude scale; `notes` are per-stage measure
     fields known beforehand (nominal span, gain error); `entering` receives each stage's input."""
-    return walk_chain(prepared, start_signal(prepared.chain, prepared.freqs, scale), nominal, notes,
-                      entering=entering)
+    return walk_chain(
+        prepared, start_signal(prepared.chain, prepared.freqs, scale), nominal, notes, entering=entering
+    )
 
 
 def run_from(prepared: Prepared, first: int, signal, stop: int | None = None) -> list:

@@ -14,6 +14,7 @@ stage stays linear. The 0.1 % and 1 % percentiles are exact at any sample count 
 are kept); the median is exact up to MEDIAN_ROWS draws and taken from the first MEDIAN_ROWS
 draws beyond (its standard error there is about 1.25 sigma / 128, about 1 % of sigma).
 """
+
 from __future__ import annotations
 
 from collections.abc import Iterator
@@ -25,10 +26,10 @@ from railroom.engine.methods import judged
 from railroom.engine.methods.corners import prepare
 from railroom.engine.methods.normal import inverse_normal
 
-CHUNK_ROWS = 10_000        # the default sample count in one walk; larger chunks ran slower
+CHUNK_ROWS = 10_000  # the default sample count in one walk; larger chunks ran slower
 MEDIAN_ROWS = 16384
 QUOTED = {"0.1%": 0.001, "1%": 0.01, "50%": 0.5}
-TAIL = 0.01               # the highest quoted percentile read from the kept low tail
+TAIL = 0.01  # the highest quoted percentile read from the kept low tail
 
 
 def deviates(uniform: np.ndarray, distribution: str) -> np.ndarray:
@@ -49,8 +50,15 @@ def deviates(uniform: np.ndarray, distribution: str) -> np.ndarray:
     return d
 
 
-def layout_for(chain, plans, freqs, corner_stages, band: str = "decisive",
-               full: dw.Layout | None = None, decisive: np.ndarray | None = None) -> dw.Layout:
+def layout_for(
+    chain,
+    plans,
+    freqs,
+    corner_stages,
+    band: str = "decisive",
+    full: dw.Layout | None = None,
+    decisive: np.ndarray | None = None,
+) -> dw.Layout:
     """The draw walk's layout; `full`: the full-band layout and `decisive` its decisive
     frequencies (sensitivity.linearise) when the caller has them."""
     layout = full or dw.build_layout(chain, plans, freqs, prepare(chain, plans, freqs), corner_stages)
@@ -59,8 +67,9 @@ def layout_for(chain, plans, freqs, corner_stages, band: str = "decisive",
     return dw.with_freqs(layout, dw.decisive_freqs(layout) if decisive is None else decisive)
 
 
-def chunks(layout: dw.Layout, samples: int, seed: int, chunk: int = CHUNK_ROWS
-           ) -> Iterator[tuple[np.ndarray, np.ndarray]]:
+def chunks(
+    layout: dw.Layout, samples: int, seed: int, chunk: int = CHUNK_ROWS
+) -> Iterator[tuple[np.ndarray, np.ndarray]]:
     """(D, dT) blocks of rows, the same rows whatever `chunk` is."""
     rng = np.random.default_rng(seed)
     K = len(layout.variables)
@@ -73,8 +82,9 @@ def chunks(layout: dw.Layout, samples: int, seed: int, chunk: int = CHUNK_ROWS
         done += rows
 
 
-def sample(layout: dw.Layout, samples: int, seed: int, chunk: int = CHUNK_ROWS
-           ) -> Iterator[list[dw.StageDraws]]:
+def sample(
+    layout: dw.Layout, samples: int, seed: int, chunk: int = CHUNK_ROWS
+) -> Iterator[list[dw.StageDraws]]:
     """Per-chunk, per-stage draws (for tests and tools that want the raw rows)."""
     for D, dT in chunks(layout, samples, seed, chunk):
         yield dw.walk_draws(layout, D, dT)
@@ -118,20 +128,20 @@ class LowTail:
         self.median_rows = [keys.index(key) for key in median_keys]
         self.head: list[np.ndarray] = []
         self.head_rows = 0
-        self.ordered: np.ndarray | None = None     # the kept tail sorted, once for every quote
+        self.ordered: np.ndarray | None = None  # the kept tail sorted, once for every quote
 
     def add(self, series: dict[tuple, np.ndarray]) -> None:
         rows = np.shape(series[self.keys[0]])[0]
         end = self.filled + rows
         if self.buffer.shape[1] < end:
             grown = np.empty((len(self.keys), end))
-            grown[:, :self.filled] = self.buffer[:, :self.filled]
+            grown[:, : self.filled] = self.buffer[:, : self.filled]
             self.buffer = grown
         for row, key in enumerate(self.keys):
-            self.buffer[row, self.filled:end] = series[key]
+            self.buffer[row, self.filled : end] = series[key]
         if self.head_rows < MEDIAN_ROWS:
             take = min(rows, MEDIAN_ROWS - self.head_rows)
-            self.head.append(self.buffer[self.median_rows, self.filled:self.filled + take])
+            self.head.append(self.buffer[self.median_rows, self.filled : self.filled + take])
             self.head_rows += take
         if end > self.k:
             self.buffer[:, :end].partition(self.k - 1, axis=1)
@@ -142,7 +152,7 @@ class LowTail:
     def low(self, q: float) -> dict[tuple, float]:
         """numpy's linear-interpolation percentile of each series, from the kept low tail."""
         if self.ordered is None:
-            self.ordered = np.sort(self.buffer[:, :self.filled], axis=1)
+            self.ordered = np.sort(self.buffer[:, : self.filled], axis=1)
         ordered = self.ordered
         h = (self.samples - 1) * q
         lo = int(np.floor(h))
@@ -172,7 +182,7 @@ def median_rows(x: np.ndarray, overwrite: bool = False) -> np.ndarray:
     else:
         x = np.partition(x, lo, axis=1)
     a = x[:, lo]
-    b = x[:, lo + 1:].min(axis=1) if lo + 1 < n else a
+    b = x[:, lo + 1 :].min(axis=1) if lo + 1 < n else a
     diff = b - a
     found = b - diff * (1 - t) if t >= 0.5 else a + diff * t
     return np.where(np.isnan(x).any(axis=1), np.nan, found)
@@ -182,8 +192,16 @@ class Cancelled(Exception):
     """The caller's progress callback asked to stop (a newer edit made this run stale)."""
 
 
-def run(chain, plans, freqs, corner_stages, chunk: int = CHUNK_ROWS, progress=None,
-        layout: dw.Layout | None = None, decisive: np.ndarray | None = None):
+def run(
+    chain,
+    plans,
+    freqs,
+    corner_stages,
+    chunk: int = CHUNK_ROWS,
+    progress=None,
+    layout: dw.Layout | None = None,
+    decisive: np.ndarray | None = None,
+):
     """Stage results at the 0.1 % percentile, with probability and percentiles; chain yield.
     `progress(fraction_done) -> bool` is called after every chunk; False stops the run.
     `layout`, `decisive`: see layout_for."""
@@ -196,8 +214,11 @@ def run(chain, plans, freqs, corner_stages, chunk: int = CHUNK_ROWS, progress=No
     for draws in sample(layout, samples, seed, chunk):
         series = series_of(draws)
         if tail is None:
-            tail = LowTail(list(series), samples, [key for key in series if key[1] is None
-                                                   and not key[2].startswith(("out-", "in-"))])
+            tail = LowTail(
+                list(series),
+                samples,
+                [key for key in series if key[1] is None and not key[2].startswith(("out-", "in-"))],
+            )
         tail.add(series)
         linear = np.vstack([d.linear for d in draws])
         leaving += (~linear).sum(axis=1)
@@ -205,7 +226,7 @@ def run(chain, plans, freqs, corner_stages, chunk: int = CHUNK_ROWS, progress=No
         done += linear.shape[1]
         if progress is not None and not progress(done / samples):
             raise Cancelled()
-    assert tail is not None          # samples >= 1: at least one chunk was walked
+    assert tail is not None  # samples >= 1: at least one chunk was walked
     quoted = {name: tail.median() if q == 0.5 else tail.low(q) for name, q in QUOTED.items()}
     stages = stage_results(plans, corner_stages, quoted, leaving / samples, chain.conditions.margin)
     return stages, all_linear / samples
@@ -220,7 +241,7 @@ def stage_results(plans, corner_stages, quoted, probability, required):
         amps = []
         for j in range(len(corner.measure.opamps)):
             stat = {name: float(v) for (s, a, name), v in deciding.items() if s == k and a == j}
-            if not stat:       # one op amp: the stage's own series are its
+            if not stat:  # one op amp: the stage's own series are its
                 stat = {n: float(v) for n, v in stage.items() if n != "supply"}
             stat.setdefault("in-low", stage["in-low"])
             stat.setdefault("in-high", stage["in-high"])
@@ -229,10 +250,14 @@ def stage_results(plans, corner_stages, quoted, probability, required):
         window = None
         if plan.block.window_only:
             window = {c: float(stage[c]) for c in ("output-high", "output-low")}
-        percentiles = {check: {label: float(quoted[label][(k, None, check)]) for label in QUOTED}
-                       for check in stage if not check.startswith(("out-", "in-"))}
-        result = judged(plan, corner, amps, out_span, window, required, clipped_before,
-                        float(probability[k]), percentiles)
+        percentiles = {
+            check: {label: float(quoted[label][(k, None, check)]) for label in QUOTED}
+            for check in stage
+            if not check.startswith(("out-", "in-"))
+        }
+        result = judged(
+            plan, corner, amps, out_span, window, required, clipped_before, float(probability[k]), percentiles
+        )
         clipped_before = clipped_before or result.regime == "clipping"
         results.append(result)
     return results

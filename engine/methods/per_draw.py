@@ -10,6 +10,7 @@ the envelope bounds per circuit follow the contract (SPEC section 5) as the engi
 circuit solution is independent of the blocks' feedback formulas. It covers the blocks of the
 bench chain: follower, noninverting, inverting, summing, divider, rc_lowpass, adc, comparator.
 """
+
 from __future__ import annotations
 
 import numpy as np
@@ -88,7 +89,7 @@ def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float):
     c.source("ref", 1, val.get("ref", 0.0))
     if "load" in val:
         c.admittance("out", GROUND, 1.0 / val["load"])
-    driven = lambda node, r: c.admittance("src", node, 1.0 / r)      # noqa: E731
+    driven = lambda node, r: c.admittance("src", node, 1.0 / r)  # noqa: E731
     pins = ("plus", "minus", "out")
     if block == "follower":
         driven("plus", np.where(np.abs(drive) < 1e-3, 1e-3, drive))
@@ -121,7 +122,7 @@ def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float):
         c.inject(pins[0], bias)
     for name in ("plus", "minus", "out", "ref", "src"):
         if not np.any(c.G[0, c.index[name]]):
-            c.admittance(name, GROUND, 1.0)       # an unused node, held at 0 V
+            c.admittance(name, GROUND, 1.0)  # an unused node, held at 0 V
     return c.solve(), {**c.index, "+": c.index[pins[0]]}, branch, c
 
 
@@ -159,14 +160,15 @@ def draw_margins(layout: dw.Layout, D: np.ndarray, dT: float) -> list[dict[str, 
             offset, bias = float(offsets[0, 0]), float(biases[0, 0])
         x, index, branch, circuit = stage_circuit(plan, v, s, drive, offset, bias)
         if plan.block.name in ("divider", "rc_lowpass"):
-            drive = circuit.impedance("out")          # the next stage sees it per frequency
+            drive = circuit.impedance("out")  # the next stage sees it per frequency
         elif not plan.block.window_only:
-            drive = 0.0                               # an op amp's output (the engine's model)
+            drive = 0.0  # an op amp's output (the engine's model)
         out = envelope(x[:, index["out"]], signal)
         margins = {}
         if plan.part is not None:
-            margins = opamp_margins(plan, x, index, branch, out, signal, layout.loads[k],
-                                    layout.freqs, pos, neg)
+            margins = opamp_margins(
+                plan, x, index, branch, out, signal, layout.loads[k], layout.freqs, pos, neg
+            )
         if plan.block.window_only:
             margins = {"output-high": v["high"] - out[0].max(), "output-low": out[1].min() - v["low"]}
         found.append(margins)
@@ -178,12 +180,22 @@ def opamp_margins(plan, x, index, branch, out, signal, load, freqs, pos, neg) ->
     """The margins of one circuit's op amp, through the engine's margin kernel (the circuit
     solution above is the part that is independent of the blocks)."""
     part = plan.part
-    plus = envelope(x[:, index["+"]], signal)      # the + pin with its bias current drop
-    current = envelope(-x[:, branch], signal)      # the MNA branch current flows into the op amp
+    plus = envelope(x[:, index["+"]], signal)  # the + pin with its bias current drop
+    current = envelope(-x[:, branch], signal)  # the MNA branch current flows into the op amp
     out_hi, out_lo = out[0].max(), out[1].min()
     sourced, sunk = load_currents(current[0].max(), current[1].min(), out_hi, out_lo, load)
-    margins = kernel_margins(part, pos, neg, out_hi, out_lo, plus[0].max(), plus[1].min(),
-                             sourced, sunk, float(np.max(TWO_PI * freqs * out[2])))
+    margins = kernel_margins(
+        part,
+        pos,
+        neg,
+        out_hi,
+        out_lo,
+        plus[0].max(),
+        plus[1].min(),
+        sourced,
+        sunk,
+        float(np.max(TWO_PI * freqs * out[2])),
+    )
     margins["supply"] = supply_margin(part, pos - neg, pos - neg)
     return {check: float(m) for check, m in margins.items()}
 
@@ -194,8 +206,9 @@ def comparator(plan, v, signal, pos, neg, count):
     conductance = 1.0 / v["load"] if "load" in v else 0.0
     levels = []
     for ideal in (neg + part.output_headroom[1], pos - part.output_headroom[0]):
-        current = min(abs(ideal) * conductance / (1 + part.output_resistance * conductance),
-                      part.output_current)
+        current = min(
+            abs(ideal) * conductance / (1 + part.output_resistance * conductance), part.output_current
+        )
         levels.append(ideal - np.sign(ideal) * part.output_resistance * current)
     low, high = levels
     sig_lo, sig_hi = float(np.min(signal[1])), float(np.max(signal[0]))
@@ -204,14 +217,16 @@ def comparator(plan, v, signal, pos, neg, count):
     reach_low, reach_high = (above, below) if plan.flags.get("invert") else (below, above)
     top, bottom = (high if reach_high else low), (low if reach_low else high)
     span = pos - neg
-    margins = {"input-high": pos - part.input_headroom[0] - max(sig_hi, threshold),
-               "input-low": min(sig_lo, threshold) - (neg + part.input_headroom[1]),
-               "current": part.output_current - max(abs(high), abs(low)) * conductance,
-               "supply": min(span - part.supply[0], part.supply[1] - span)}
+    margins = {
+        "input-high": pos - part.input_headroom[0] - max(sig_hi, threshold),
+        "input-low": min(sig_lo, threshold) - (neg + part.input_headroom[1]),
+        "current": part.output_current - max(abs(high), abs(low)) * conductance,
+        "supply": min(span - part.supply[0], part.supply[1] - span),
+    }
     zero = np.zeros(count)
     return margins, (zero + top, zero + bottom, zero)
 
 
 def run_draws(layout: dw.Layout, D: np.ndarray, dT: np.ndarray) -> list[list[dict[str, float]]]:
     """The reference answer, draw by draw (a Python loop on purpose: this is the slow baseline)."""
-    return [draw_margins(layout, D[j:j + 1], float(dT[j])) for j in range(D.shape[0])]
+    return [draw_margins(layout, D[j : j + 1], float(dT[j])) for j in range(D.shape[0])]

@@ -21,6 +21,7 @@ The temperature is drawn as in Monte Carlo (uniform over the range, not shifted)
 unbiased whatever the design points are; a poor centre only widens the interval. It is the
 failure of the chain (any stage leaving its linear regime) and of each stage that is quoted.
 """
+
 from __future__ import annotations
 
 from dataclasses import dataclass
@@ -31,21 +32,21 @@ from railroom.engine import draw_walk as dw
 from railroom.engine.methods.normal import normal_tail
 
 MAX_CENTRES = 8
-BETA_BAND = 2.0           # centres within this of the smallest reliability index
+BETA_BAND = 2.0  # centres within this of the smallest reliability index
 DRAWS = 20_000
 CHUNK = 5_000
-Z95 = 1.959963984540054   # two-sided 95 % point of the standard normal
-NEGLIGIBLE = 1e-12        # quoted as "below" this: no board population makes it observable
+Z95 = 1.959963984540054  # two-sided 95 % point of the standard normal
+NEGLIGIBLE = 1e-12  # quoted as "below" this: no board population makes it observable
 
 
 @dataclass(frozen=True)
 class RareEstimate:
-    probability: float                 # some stage leaves its linear regime
-    low: float                         # 95 % interval
+    probability: float  # some stage leaves its linear regime
+    low: float  # 95 % interval
     high: float
     draws: int
-    stages: tuple[float, ...]          # per stage, the same estimator
-    beta: float | None                 # smallest reliability index (None: no margin can fail)
+    stages: tuple[float, ...]  # per stage, the same estimator
+    beta: float | None  # smallest reliability index (None: no margin can fail)
     centres: int
 
 
@@ -63,15 +64,16 @@ def _dd_du(u: np.ndarray, distribution: str) -> np.ndarray:
     return 2.0 * np.exp(-0.5 * u * u) / np.sqrt(2.0 * np.pi)
 
 
-def design_point(m0: float, g: np.ndarray, distribution: str, iterations: int = 60
-                 ) -> tuple[np.ndarray, float] | None:
+def design_point(
+    m0: float, g: np.ndarray, distribution: str, iterations: int = 60
+) -> tuple[np.ndarray, float] | None:
     """Nearest u with m0 + g.d(u) = 0 (HL-RF iteration); None when the margin cannot reach 0."""
     if m0 <= 0:
         return np.zeros_like(g), 0.0
     if not np.any(g):
         return None
     if distribution != "normal" and m0 - np.abs(g).sum() >= 0:
-        return None       # bounded tolerances: even the worst corner keeps the margin
+        return None  # bounded tolerances: even the worst corner keeps the margin
     u = np.zeros_like(g)
     for _ in range(iterations):
         grad = g * _dd_du(u, distribution)
@@ -81,7 +83,7 @@ def design_point(m0: float, g: np.ndarray, distribution: str, iterations: int = 
             return None
         new = (grad @ u - value) / norm2 * grad
         if distribution != "normal":
-            new = np.clip(new, -8.0, 8.0)     # d(u) is flat past 8: 2 Phi(8) - 1 = 1 - 1.2e-15
+            new = np.clip(new, -8.0, 8.0)  # d(u) is flat past 8: 2 Phi(8) - 1 = 1 - 1.2e-15
         if np.max(np.abs(new - u)) < 1e-9:
             u = new
             break
@@ -109,8 +111,7 @@ def centres(lin, distribution: str) -> tuple[list[np.ndarray], float | None]:
     return kept, beta
 
 
-def estimate(layout: dw.Layout, lin, draws: int = DRAWS, seed: int = 1, chunk: int = CHUNK
-             ) -> RareEstimate:
+def estimate(layout: dw.Layout, lin, draws: int = DRAWS, seed: int = 1, chunk: int = CHUNK) -> RareEstimate:
     """The chain's and each stage's probability of leaving the linear regime, with intervals."""
     chain = layout.chain
     distribution = chain.conditions.distribution
@@ -119,7 +120,7 @@ def estimate(layout: dw.Layout, lin, draws: int = DRAWS, seed: int = 1, chunk: i
     n_stages = len(layout.plans)
     if not points:
         return RareEstimate(0.0, 0.0, 0.0, 0, (0.0,) * n_stages, None, 0)
-    C = np.vstack(points)                              # (centres, K)
+    C = np.vstack(points)  # (centres, K)
     half_norm2 = 0.5 * np.einsum("ij,ij->i", C, C)
     rng = np.random.default_rng(seed)
     total = total2 = 0.0
@@ -130,7 +131,7 @@ def estimate(layout: dw.Layout, lin, draws: int = DRAWS, seed: int = 1, chunk: i
         pick = rng.integers(0, len(points), rows)
         u = C[pick] + rng.standard_normal((rows, K))
         # w = phi(u) / mean_c phi(u - c) = 1 / mean_c exp(u.c - |c|^2 / 2), formed stably
-        exponent = u @ C.T - half_norm2                # (rows, centres)
+        exponent = u @ C.T - half_norm2  # (rows, centres)
         top = exponent.max(axis=1)
         w = np.exp(-top) / np.exp(exponent - top[:, None]).mean(axis=1)
         D = np.asfortranarray(to_deviates(u, distribution))
@@ -145,8 +146,15 @@ def estimate(layout: dw.Layout, lin, draws: int = DRAWS, seed: int = 1, chunk: i
     p = total / draws
     variance = max(total2 / draws - p * p, 0.0) / draws
     half = Z95 * np.sqrt(variance)
-    return RareEstimate(p, max(p - half, 0.0), p + half, draws,
-                        tuple(float(t / draws) for t in stage_total), beta, len(points))
+    return RareEstimate(
+        p,
+        max(p - half, 0.0),
+        p + half,
+        draws,
+        tuple(float(t / draws) for t in stage_total),
+        beta,
+        len(points),
+    )
 
 
 def wilson(successes: int, n: int) -> tuple[float, float]:
@@ -168,15 +176,21 @@ def yield_words(chain_yield: float, samples: int, rare: RareEstimate | None) -> 
         words = f"no draw of {samples:,} left the linear regime"
     else:
         low, high = wilson(samples - failures, samples)
-        words = (f"{chain_yield:.2%} of draws keep every stage linear (95 %: {low:.2%} .. "
-                 f"{high:.2%}, {samples:,} draws)")
+        words = (
+            f"{chain_yield:.2%} of draws keep every stage linear (95 %: {low:.2%} .. "
+            f"{high:.2%}, {samples:,} draws)"
+        )
     if rare is not None:
         if rare.beta is None:
             words += "; no failure is possible within the tolerances (the worst case stays linear)"
         elif rare.high < NEGLIGIBLE:
-            words += (f"; failure probability below {NEGLIGIBLE:g} (nearest failure {rare.beta:.1f} "
-                      "standard deviations out)")
+            words += (
+                f"; failure probability below {NEGLIGIBLE:g} (nearest failure {rare.beta:.1f} "
+                "standard deviations out)"
+            )
         else:
-            words += (f"; failure probability {rare.probability:.2g} (95 %: {rare.low:.2g} .. "
-                      f"{rare.high:.2g}, importance sampling, {rare.draws:,} draws)")
+            words += (
+                f"; failure probability {rare.probability:.2g} (95 %: {rare.low:.2g} .. "
+                f"{rare.high:.2g}, importance sampling, {rare.draws:,} draws)"
+            )
     return words

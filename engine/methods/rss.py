@@ -7,6 +7,7 @@ with sigma_i = tol_i / sqrt(3) for a uniform tolerance, tol_i / 3 when the toler
 walk (engine/sensitivity.py), taken with temperature drifts over the worst temperature rise.
 Output and input spans are quoted the same way: nominal -/+ 3 sigma.
 """
+
 from __future__ import annotations
 
 import numpy as np
@@ -31,8 +32,11 @@ def three_sigma(lin: Linearised, x: np.ndarray, s: float) -> tuple[float, float]
 def quoted(lin: Linearised, name: str, x: np.ndarray, s: float) -> float:
     """Margins and lower spans at nominal - 3 sigma; upper spans at nominal + 3 sigma."""
     nominal, width = three_sigma(lin, x, s)
-    return nominal + width if name.endswith("high") and not name.startswith(("output", "input")) \
+    return (
+        nominal + width
+        if name.endswith("high") and not name.startswith(("output", "input"))
         else nominal - width
+    )
 
 
 def run(chain, plans, freqs, corner_stages, lin: Linearised | None = None):
@@ -45,8 +49,9 @@ def run(chain, plans, freqs, corner_stages, lin: Linearised | None = None):
         amps = []
         for amp in draws.amps:
             stat = {n: quoted(lin, n, x, s) for n, x in amp.items() if n != "spans"}
-            stat.update({n: quoted(lin, n, x, s) for n, x in amp["spans"].items()
-                         if not n.startswith("window")})
+            stat.update(
+                {n: quoted(lin, n, x, s) for n, x in amp["spans"].items() if not n.startswith("window")}
+            )
             amps.append(stat)
         out_span = (quoted(lin, "out-low", draws.out_lo, s), quoted(lin, "out-high", draws.out_hi, s))
         window = None

@@ -1,5 +1,6 @@
 """engine/atomic.py: saves through links, refusals, permissions, leftovers, change detection
 (issue 12, item 5). POSIX rename(2) and umask(2) semantics are the reference."""
+
 from __future__ import annotations
 
 import os
@@ -18,7 +19,7 @@ def test_a_symlink_is_saved_through_and_stays_a_link(tmp_path):
     link.symlink_to(real)
     write_atomic(link, "new\n", backup=True)
     assert link.is_symlink() and real.read_text() == "new\n"
-    assert (real.parent / "real.toml.bak").read_text() == "old\n"     # beside the target
+    assert (real.parent / "real.toml.bak").read_text() == "old\n"  # beside the target
 
 
 def test_a_read_only_file_is_refused_and_left_whole(tmp_path):
@@ -38,7 +39,7 @@ def test_a_new_file_gets_the_mode_the_umask_gives(tmp_path, mask, mode):
         write_atomic(tmp_path / "new.toml", "x\n")
     finally:
         os.umask(old)
-    assert stat.S_IMODE((tmp_path / "new.toml").stat().st_mode) == mode   # 0666 & ~umask (POSIX)
+    assert stat.S_IMODE((tmp_path / "new.toml").stat().st_mode) == mode  # 0666 & ~umask (POSIX)
 
 
 def test_an_existing_file_keeps_its_own_mode(tmp_path):
@@ -59,8 +60,7 @@ def test_temporary_files_of_killed_saves_are_removed_by_the_next_save(tmp_path):
     for file in keep:
         file.write_text("not ours")
     write_atomic(path, "new\n")
-    assert sorted(p.name for p in tmp_path.iterdir()) == sorted(
-        ["chain.toml"] + [k.name for k in keep])
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted(["chain.toml"] + [k.name for k in keep])
 
 
 def test_a_rewrite_keeping_size_and_time_is_still_a_change(tmp_path):
@@ -68,13 +68,13 @@ def test_a_rewrite_keeping_size_and_time_is_still_a_change(tmp_path):
     path.write_text('rf = "10k"\n')
     os.utime(path, ns=(10**18, 10**18))
     before = fingerprint(path)
-    path.write_text('rf = "20k"\n')                       # same size
-    os.utime(path, ns=(10**18, 10**18))                   # same modification time
+    path.write_text('rf = "20k"\n')  # same size
+    os.utime(path, ns=(10**18, 10**18))  # same modification time
     assert fingerprint(path) != before
 
 
 def test_a_fifo_is_fingerprinted_without_being_opened_for_a_read_that_waits(tmp_path):
     fifo = tmp_path / "parts.toml"
-    os.mkfifo(fifo)                    # open(2) for reading would wait for a writer forever
+    os.mkfifo(fifo)  # open(2) for reading would wait for a writer forever
     found = fingerprint(fifo)
     assert found is not None and found[2] == ""

@@ -4,6 +4,7 @@ Source: SPEC section 1 ("A value that cannot be read is an error naming the file
 field and the text") and section 4 (one clear message per problem, never a traceback). The line
 numbers below are counted by hand in BASE.
 """
+
 import pytest
 
 from railroom.engine.analysis import load_checked
@@ -12,7 +13,7 @@ from railroom.engine.model import InputError
 from railroom.engine.plan import plan_chain
 from railroom.engine.presets import load_library, search_order
 
-BASE = '''format = 1
+BASE = """format = 1
 [rails.main]
 positive = "15"
 negative = "-15"
@@ -24,7 +25,7 @@ block = "noninverting"
 part = "generic-bipolar-15v"
 rf = "90k"
 rg = "10k"
-'''
+"""
 # line numbers in BASE: 3 positive, 7 band, 8 [[stage]], 9 block, 10 part, 11 rf, 12 rg
 
 
@@ -36,24 +37,40 @@ def problems_of(text: str, path: str = "chain.toml"):
 
 CASES = {
     "bad TOML": (BASE.replace('rf = "90k"', 'rf = "90k'), 11, "(file)", ["not valid TOML"]),
-    "unknown block": (BASE.replace('"noninverting"', '"noninvertng"'), 9, "stage.1.block",
-                      ["noninvertng", "noninverting"]),
+    "unknown block": (
+        BASE.replace('"noninverting"', '"noninvertng"'),
+        9,
+        "stage.1.block",
+        ["noninvertng", "noninverting"],
+    ),
     "missing field": (BASE.replace('rf = "90k"\n', ""), 8, "stage.1.rf", ["missing"]),
-    "misspelled field": (BASE.replace('rf = "90k"', 'rf = "90k"\nrff = "1k"'), 12,
-                         "stage.1.rff", ["unknown field", "did you mean 'rf'"]),
-    "unreadable value": (BASE.replace('rf = "90k"', 'rf = "90q"'), 11, "stage.1.rf",
-                         ['"90q"', "resistance"]),
-    "negative resistor": (BASE.replace('rf = "90k"', 'rf = "-90k"'), 11, "stage.1.rf",
-                          ["greater than zero", '"-90k"']),
-    "zero resistor": (BASE.replace('rg = "10k"', 'rg = "0"'), 12, "stage.1.rg",
-                      ["greater than zero"]),
-    "rails reversed": (BASE.replace('positive = "15"', 'positive = "-20"'), 3,
-                       "rails.main.positive", ["reversed"]),
-    "band reversed": (BASE.replace('["10", "20k"]', '["20k", "10"]'), 7, "source.band",
-                      ["reversed"]),
+    "misspelled field": (
+        BASE.replace('rf = "90k"', 'rf = "90k"\nrff = "1k"'),
+        12,
+        "stage.1.rff",
+        ["unknown field", "did you mean 'rf'"],
+    ),
+    "unreadable value": (BASE.replace('rf = "90k"', 'rf = "90q"'), 11, "stage.1.rf", ['"90q"', "resistance"]),
+    "negative resistor": (
+        BASE.replace('rf = "90k"', 'rf = "-90k"'),
+        11,
+        "stage.1.rf",
+        ["greater than zero", '"-90k"'],
+    ),
+    "zero resistor": (BASE.replace('rg = "10k"', 'rg = "0"'), 12, "stage.1.rg", ["greater than zero"]),
+    "rails reversed": (
+        BASE.replace('positive = "15"', 'positive = "-20"'),
+        3,
+        "rails.main.positive",
+        ["reversed"],
+    ),
+    "band reversed": (BASE.replace('["10", "20k"]', '["20k", "10"]'), 7, "source.band", ["reversed"]),
     "differential into noninverting": (
-        BASE.replace('level = ["0", "1"]', 'kind = "differential"\nlevel = ["0", "1"]'), 10,
-        "stage.1.block", ["differential", "noninverting"]),
+        BASE.replace('level = ["0", "1"]', 'kind = "differential"\nlevel = ["0", "1"]'),
+        10,
+        "stage.1.block",
+        ["differential", "noninverting"],
+    ),
 }
 
 
@@ -70,13 +87,20 @@ def test_problem_names_file_line_and_field(case):
 
 
 def test_every_problem_in_a_file_is_reported_at_once():
-    text = (BASE.replace('positive = "15"', 'positive = "-20"')
-            .replace('["10", "20k"]', '["20k", "10"]')
-            .replace('rf = "90k"', 'rff = "90k"')
-            .replace('rg = "10k"', 'rg = "0"'))
+    text = (
+        BASE.replace('positive = "15"', 'positive = "-20"')
+        .replace('["10", "20k"]', '["20k", "10"]')
+        .replace('rf = "90k"', 'rff = "90k"')
+        .replace('rg = "10k"', 'rg = "0"')
+    )
     found = {(p.line, p.field) for p in problems_of(text)}
-    assert found == {(3, "rails.main.positive"), (7, "source.band"), (11, "stage.1.rff"),
-                     (8, "stage.1.rf"), (12, "stage.1.rg")}
+    assert found == {
+        (3, "rails.main.positive"),
+        (7, "source.band"),
+        (11, "stage.1.rff"),
+        (8, "stage.1.rf"),
+        (12, "stage.1.rg"),
+    }
 
 
 def test_unknown_part_is_located_by_load_checked_and_plan_chain(tmp_path):
@@ -85,7 +109,7 @@ def test_unknown_part_is_located_by_load_checked_and_plan_chain(tmp_path):
     with pytest.raises(InputError) as caught:
         load_checked(str(path))
     (problem,) = caught.value.problems
-    assert (problem.file, problem.line, problem.field) == (str(path), 10, "stage.1.part")   # the part = line
+    assert (problem.file, problem.line, problem.field) == (str(path), 10, "stage.1.part")  # the part = line
     assert "unknown part 'generic-bipolar-15'" in problem.message
     assert "did you mean 'generic-bipolar-15v'" in problem.message
     chain = load_chain(path)
@@ -113,8 +137,10 @@ def test_unknown_part_and_bad_value_come_out_in_one_round(tmp_path):
     # the part check needs a loaded chain; a file that does not load still names its unknown
     # parts beside its other problems, in line order
     path = tmp_path / "chain.toml"
-    path.write_text(BASE.replace("generic-bipolar-15v", "generic-bipolar-15")
-                    .replace('rf = "90k"', 'rf = "9q"'), encoding="utf-8")
+    path.write_text(
+        BASE.replace("generic-bipolar-15v", "generic-bipolar-15").replace('rf = "90k"', 'rf = "9q"'),
+        encoding="utf-8",
+    )
     with pytest.raises(InputError) as caught:
         load_checked(str(path))
     located = [(p.line, p.field) for p in caught.value.problems]

@@ -1,4 +1,5 @@
 """`railroom check` on many files: one line each, in order, worst exit status, files untouched."""
+
 from __future__ import annotations
 
 import json
@@ -17,8 +18,9 @@ BROKEN = DEMO.replace('rf = "90k9 0.1%"', 'rf = "90k9 0.1%%"')
 
 
 def railroom(*args: str, timeout: float = 120) -> subprocess.CompletedProcess:
-    return subprocess.run([sys.executable, "-m", "railroom.tui.cli", *args], capture_output=True,
-                          text=True, timeout=timeout)
+    return subprocess.run(
+        [sys.executable, "-m", "railroom.tui.cli", *args], capture_output=True, text=True, timeout=timeout
+    )
 
 
 def board_folder(tmp_path: Path, files: dict[str, str]) -> Path:
@@ -30,14 +32,15 @@ def board_folder(tmp_path: Path, files: dict[str, str]) -> Path:
 
 
 def test_folder_gives_one_line_per_file_in_order_and_the_worst_status(tmp_path):
-    folder = board_folder(tmp_path, {"a-go.toml": GO_CHAIN, "b-nogo.toml": DEMO,
-                                     "c-broken.toml": BROKEN, "notes.txt": "not a chain"})
+    folder = board_folder(
+        tmp_path,
+        {"a-go.toml": GO_CHAIN, "b-nogo.toml": DEMO, "c-broken.toml": BROKEN, "notes.txt": "not a chain"},
+    )
     before = {p.name: p.read_bytes() for p in folder.iterdir()}
     run = railroom("check", str(folder))
     lines = run.stdout.splitlines()
     assert [line.split()[0] for line in lines] == ["GO", "NO-GO", "ERROR"]
-    assert ["a-go.toml" in lines[0], "b-nogo.toml" in lines[1], "c-broken.toml" in lines[2]] == [
-        True] * 3
+    assert ["a-go.toml" in lines[0], "b-nogo.toml" in lines[1], "c-broken.toml" in lines[2]] == [True] * 3
     assert run.returncode == 2
     # The broken file's problem is located on stderr: file, line of rf (demo line 44), field.
     assert "c-broken.toml:44: stage.2.rf:" in run.stderr
@@ -56,7 +59,9 @@ def test_batch_json_lists_every_file_with_its_report(tmp_path):
     run = railroom("check", str(folder), "--json")
     files = json.loads(run.stdout)["files"]
     assert [(Path(f["file"]).name, f["exit"], f["verdict"]) for f in files] == [
-        ("a.toml", 0, "go"), ("b.toml", 2, "unreadable")]
+        ("a.toml", 0, "go"),
+        ("b.toml", 2, "unreadable"),
+    ]
     assert files[0]["report"]["verdict"] == "go" and files[1]["problems"]
     assert run.returncode == 2
 
@@ -71,8 +76,9 @@ def test_empty_folder_and_missing_file_are_input_errors(tmp_path):
 
 
 def test_parallel_workers_give_the_same_outcomes_as_one_process(tmp_path):
-    folder = board_folder(tmp_path, {f"{i}.toml": t for i, t in
-                                     enumerate([GO_CHAIN, DEMO, BROKEN, GO_CHAIN])})
+    folder = board_folder(
+        tmp_path, {f"{i}.toml": t for i, t in enumerate([GO_CHAIN, DEMO, BROKEN, GO_CHAIN])}
+    )
     paths, missing = chain_paths([str(folder)])
     assert not missing and len(paths) == 4
     options = Options((), None, None, None, None, "summary")

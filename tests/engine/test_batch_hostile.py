@@ -1,6 +1,7 @@
 """Many files at once against hostile folders (issue 12 item 13): entries named *.toml that are
 not files are skipped with a line, a file that runs too long is stopped at the time limit, and
 no worker outlives the batch (stopped by a signal, or killed outright)."""
+
 from __future__ import annotations
 
 import os
@@ -19,7 +20,7 @@ DEMO = DEMO_CHAIN.read_text(encoding="utf-8")
 GO_CHAIN = DEMO.replace('amplitude = "200m"', 'amplitude = "20m"')
 # Monte Carlo with the most draws a file may ask for (10^7): minutes of work on any machine.
 SLOW_CHAIN = GO_CHAIN.replace('method = "corners"', 'method = "montecarlo"\nsamples = 10000000')
-GUARD_S = 120          # a hang guard for waiting on processes, not a timing check
+GUARD_S = 120  # a hang guard for waiting on processes, not a timing check
 
 
 def railroom(*args: str, home: Path) -> subprocess.CompletedProcess:
@@ -28,6 +29,7 @@ def railroom(*args: str, home: Path) -> subprocess.CompletedProcess:
 
 def test_the_slow_chain_loads_and_asks_for_ten_million_draws():
     from railroom.engine.files import chain_from_text
+
     assert chain_from_text(SLOW_CHAIN, "slow.toml").conditions.samples == 10_000_000
 
 
@@ -40,10 +42,11 @@ def test_entries_that_are_not_files_are_skipped_with_a_line(tmp_path, home):
     done = railroom("check", str(boards), home=home)
     assert done.returncode == 0, done.stderr
     assert [line.split()[0] for line in done.stdout.splitlines()] == ["GO"]
-    assert f"railroom: {boards / 'b.toml'}: skipped: a FIFO (named pipe), not a regular file" \
+    assert (
+        f"railroom: {boards / 'b.toml'}: skipped: a FIFO (named pipe), not a regular file"
         in done.stderr.splitlines()
-    assert f"railroom: {boards / 'c.toml'}: skipped: a folder, not a regular file" \
-        in done.stderr.splitlines()
+    )
+    assert f"railroom: {boards / 'c.toml'}: skipped: a folder, not a regular file" in done.stderr.splitlines()
 
 
 def test_a_file_past_the_time_limit_is_stopped_and_the_others_checked(tmp_path, home):
@@ -87,17 +90,22 @@ def wait_until(condition, what: str) -> None:
 
 
 @pytest.mark.skipif(not Path("/proc/self/stat").exists(), reason="reads /proc (Linux)")
-@pytest.mark.parametrize("how", [signal.SIGTERM, signal.SIGINT, signal.SIGKILL],
-                         ids=["SIGTERM", "SIGINT", "SIGKILL"])
+@pytest.mark.parametrize(
+    "how", [signal.SIGTERM, signal.SIGINT, signal.SIGKILL], ids=["SIGTERM", "SIGINT", "SIGKILL"]
+)
 def test_no_worker_outlives_the_batch(tmp_path, home, how):
     paths = []
     for name in ("a.toml", "b.toml"):
         (tmp_path / name).write_text(SLOW_CHAIN, encoding="utf-8")
         paths.append(str(tmp_path / name))
     env = {**os.environ, "RAILROOM_PRESETS_HOME": str(home)}
-    batch = subprocess.Popen([sys.executable, "-m", "railroom.tui.cli", "check", *paths],
-                             stdout=subprocess.DEVNULL, stderr=subprocess.PIPE,
-                             stdin=subprocess.DEVNULL, env=env)
+    batch = subprocess.Popen(
+        [sys.executable, "-m", "railroom.tui.cli", "check", *paths],
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.PIPE,
+        stdin=subprocess.DEVNULL,
+        env=env,
+    )
     workers: set[int] = set()
     try:
         wait_until(lambda: len(children_of(batch.pid)) >= 1, "no worker started")
@@ -107,7 +115,7 @@ def test_no_worker_outlives_the_batch(tmp_path, home, how):
         wait_until(lambda: not any(alive(w) for w in workers), "a worker outlived the batch")
     finally:
         batch.kill()
-        for worker in workers | children_of(batch.pid):   # whatever a failure left behind
+        for worker in workers | children_of(batch.pid):  # whatever a failure left behind
             if alive(worker):
                 os.kill(worker, signal.SIGKILL)
     err = batch.stderr.read().decode()

@@ -1,14 +1,30 @@
 """The bench runs end to end with tiny sizes and reports its keys (no timing is asserted)."""
+
 from __future__ import annotations
 
 from railroom.engine import bench
 
-SPEC_KEYS = {"format", "stages", "corners_ms", "rss_ms", "montecarlo_1e4_ms", "montecarlo_1e5_ms",
-             "montecarlo_1e6_ms", "montecarlo_1e6_peak_mb", "per_draw_ratio", "same_answers",
-             "check_process_s", "interface_first_screen_s", "interface_edit_ms",
-             "rare_1e6_ms", "rare_1e6_ratio", "rare_1e6_interval_holds"}
+SPEC_KEYS = {
+    "format",
+    "stages",
+    "corners_ms",
+    "rss_ms",
+    "montecarlo_1e4_ms",
+    "montecarlo_1e5_ms",
+    "montecarlo_1e6_ms",
+    "montecarlo_1e6_peak_mb",
+    "per_draw_ratio",
+    "same_answers",
+    "check_process_s",
+    "interface_first_screen_s",
+    "interface_edit_ms",
+    "rare_1e6_ms",
+    "rare_1e6_ratio",
+    "rare_1e6_interval_holds",
+}
 LONG_KEYS = {f"{m}_{n}{f}_ms" for m in ("corners", "rss") for n in (48, 200) for f in ("", "_failing")} | {
-    f"{m}{f}_exponent" for m in ("corners", "rss") for f in ("", "_failing")}
+    f"{m}{f}_exponent" for m in ("corners", "rss") for f in ("", "_failing")
+}
 
 
 def test_engine_bench_tiny():
@@ -16,23 +32,26 @@ def test_engine_bench_tiny():
     assert figures["stages"] == 12
     # the one-in-a-million case: importance sampling within its interval of Phi(-4.76) = 9.68e-7
     assert figures["rare_1e6_interval_holds"] is True and 0.5 < figures["rare_1e6_ratio"] < 2
-    assert figures["same_answers"] is True          # nodal reference and vectorised walk agree
+    assert figures["same_answers"] is True  # nodal reference and vectorised walk agree
     assert figures["montecarlo_1e6_peak_mb"] > 0
     assert set(figures) <= SPEC_KEYS
 
 
 def test_bench_command_keys(monkeypatch):
     from railroom.tui import bench_command
+
     monkeypatch.setattr(bench_command, "check_process_seconds", lambda runs=3: 0.5)
     monkeypatch.setattr(bench_command, "interface_times", lambda: (None, None))
-    figures = bench_command.bench_figures(sizes=(100, 100, 100), repeats=1, reference_draws=3,
-                                          long_chains=False)
+    figures = bench_command.bench_figures(
+        sizes=(100, 100, 100), repeats=1, reference_draws=3, long_chains=False
+    )
     assert set(figures) == SPEC_KEYS
 
 
 def test_long_bench_chains_are_what_they_say():
     from railroom.engine.analysis import analyse
     from railroom.engine.files import chain_from_text
+
     passing = chain_from_text(bench.long_chain_text(48))
     failing = chain_from_text(bench.long_chain_text(48, failing=True))
     assert len(passing.stages) == 48

@@ -4,14 +4,19 @@ The ideal-op-amp transfers printed for the filters are checked against an indepe
 the node equations of each topology (as the block's field help describes it) solved with sympy,
 with the op amp ideal (a virtual earth for the inverting forms, V- = V+ = out/K for Sallen-Key).
 """
+
 from __future__ import annotations
 
 import json
 
 import pytest
 import sympy as sp
-from sympy.parsing.sympy_parser import (convert_xor, implicit_multiplication_application, parse_expr,
-                                        standard_transformations)
+from sympy.parsing.sympy_parser import (
+    convert_xor,
+    implicit_multiplication_application,
+    parse_expr,
+    standard_transformations,
+)
 
 from railroom.engine.blocks import BLOCKS
 from railroom.tui.cli import main
@@ -22,16 +27,24 @@ SYMBOLS = {str(x): x for x in (s, r1, r2, r3, c1, c2, K)}
 
 def _nodal(name: str):
     """Ideal-op-amp transfer out/in from Kirchhoff's current law at each node (sympy.solve)."""
-    if name == "sallen_key_lowpass":   # r1 in->A, r2 A->+, c1 A->out, c2 +->0, out = K V+
-        eqs = [(vi - va) / r1 + (vo - va) * s * c1 + (vp - va) / r2, (va - vp) / r2 - vp * s * c2, vo - K * vp]
+    if name == "sallen_key_lowpass":  # r1 in->A, r2 A->+, c1 A->out, c2 +->0, out = K V+
+        eqs = [
+            (vi - va) / r1 + (vo - va) * s * c1 + (vp - va) / r2,
+            (va - vp) / r2 - vp * s * c2,
+            vo - K * vp,
+        ]
         unknowns = [vo, va, vp]
-    elif name == "sallen_key_highpass":   # c1 in->A, c2 A->+, r1 A->out, r2 +->0, out = K V+
-        eqs = [(vi - va) * s * c1 + (vo - va) / r1 + (vp - va) * s * c2, (va - vp) * s * c2 - vp / r2, vo - K * vp]
+    elif name == "sallen_key_highpass":  # c1 in->A, c2 A->+, r1 A->out, r2 +->0, out = K V+
+        eqs = [
+            (vi - va) * s * c1 + (vo - va) / r1 + (vp - va) * s * c2,
+            (va - vp) * s * c2 - vp / r2,
+            vo - K * vp,
+        ]
         unknowns = [vo, va, vp]
-    elif name == "mfb_lowpass":   # r1 in->A, r2 A->out, r3 A->-, c1 A->0, c2 out->-, V- = 0
+    elif name == "mfb_lowpass":  # r1 in->A, r2 A->out, r3 A->-, c1 A->0, c2 out->-, V- = 0
         eqs = [(vi - va) / r1 + (vo - va) / r2 - va / r3 - va * s * c1, va / r3 + vo * s * c2]
         unknowns = [vo, va]
-    else:   # mfb_bandpass: r1 in->A, r2 - ->out, r3 A->0, c1 A->-, c2 A->out, V- = 0
+    else:  # mfb_bandpass: r1 in->A, r2 - ->out, r3 A->0, c1 A->-, c2 A->out, V- = 0
         eqs = [(vi - va) / r1 - va / r3 - va * s * c1 + (vo - va) * s * c2, va * s * c1 + vo / r2]
         unknowns = [vo, va]
     return sp.solve(eqs, unknowns, dict=True)[0][vo] / vi
@@ -41,8 +54,11 @@ def _printed_transfer(name: str):
     line = BLOCKS[name].ideal[0]
     expr, _, where = line.removeprefix("H(s) = ").partition(", ")
     local = dict(SYMBOLS, rp=sp.Symbol("rp"))
-    h = parse_expr(expr, local_dict=local,
-                   transformations=standard_transformations + (implicit_multiplication_application, convert_xor))
+    h = parse_expr(
+        expr,
+        local_dict=local,
+        transformations=standard_transformations + (implicit_multiplication_application, convert_xor),
+    )
     if where.startswith("rp = "):
         h = h.subs(sp.Symbol("rp"), r1 * r3 / (r1 + r3))
     return h
@@ -67,8 +83,13 @@ def test_list_and_one_block(capsys):
     assert main(["blocks", "mfb_bandpass", "--json"]) == 0
     info = json.loads(capsys.readouterr().out)
     assert [f["key"] for f in info["fields"]] == list(BLOCKS["mfb_bandpass"].fields)
-    assert info["fields"][0] == {"key": "r1", "kind": "resistance", "unit": "ohm", "default": "required",
-                                 "connects": "in to node A"}
+    assert info["fields"][0] == {
+        "key": "r1",
+        "kind": "resistance",
+        "unit": "ohm",
+        "default": "required",
+        "connects": "in to node A",
+    }
     assert main(["blocks", "noninverting"]) == 0
     text = capsys.readouterr().out
     assert "out = (1 + rf/rg) in - (rf/rg) ref" in text and "default 0 [V]" in text

@@ -1,5 +1,6 @@
 """The bridge demo end to end: `railroom check` on engine/demos/bridge_sensor.toml (SPEC sections 4
 and 5) finds the instrumentation amplifier's first stage clipping while its output looks fine."""
+
 import json
 import subprocess
 import sys
@@ -16,10 +17,14 @@ LOWER = "first stage, lower op amp"
 @pytest.fixture(scope="module")
 def report(tmp_path_factory):
     home = tmp_path_factory.mktemp("presets-home")
-    done = subprocess.run([sys.executable, "-m", "railroom.tui.cli", "check", str(DEMO), "--json"],
-                          capture_output=True, text=True, timeout=60,
-                          env={"RAILROOM_PRESETS_HOME": str(home), "PATH": "/usr/bin:/bin"})
-    assert done.returncode == 1, done.stderr          # SPEC section 4: 1 for NO-GO
+    done = subprocess.run(
+        [sys.executable, "-m", "railroom.tui.cli", "check", str(DEMO), "--json"],
+        capture_output=True,
+        text=True,
+        timeout=60,
+        env={"RAILROOM_PRESETS_HOME": str(home), "PATH": "/usr/bin:/bin"},
+    )
+    assert done.returncode == 1, done.stderr  # SPEC section 4: 1 for NO-GO
     return json.loads(done.stdout)
 
 
@@ -52,8 +57,7 @@ def test_first_stage_margin_against_the_textbook_worst_case(report):
     assert node["window"][0] == pytest.approx(window_low, abs=1e-6)
     # finite open-loop gain (100 dB) trims the closed-loop gain by about G/A0 = 0.1 %
     assert node["output"][0] == pytest.approx(lowest, abs=3e-3)
-    assert report["stages"][0]["margins"]["output-low"] == pytest.approx(lowest - window_low,
-                                                                          abs=3e-3)
+    assert report["stages"][0]["margins"]["output-low"] == pytest.approx(lowest - window_low, abs=3e-3)
 
 
 def test_downstream_stages_are_fed_the_clipped_signal(report):

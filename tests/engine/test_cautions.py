@@ -1,4 +1,5 @@
 """Safety and plausibility cautions on the result (engine/checks.py)."""
+
 from railroom.engine.analysis import analyse
 from railroom.engine.files import chain_from_text
 from railroom.engine.presets import load_library, search_order

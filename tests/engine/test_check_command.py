@@ -1,4 +1,5 @@
 """`railroom check` as a script sees it: exit codes, stderr, the JSON report (SPEC sections 4, 5)."""
+
 import json
 import subprocess
 import sys
@@ -10,12 +11,25 @@ import railroom.engine.demos
 
 DEMO = Path(railroom.engine.demos.__file__).parent / "pump_vibration.toml"
 SPEC_KEYS = {"format", "title", "verdict", "method", "samples", "headroom_db", "cautions", "stages"}
-STAGE_KEYS = {"index", "name", "block", "part", "regime", "go", "reasons", "gain_error", "limiting",
-              "output", "window", "input", "margins", "probability"}
-REASONS = {"output-high", "output-low", "input-high", "input-low", "slew", "current", "supply",
-           "fed-clipped"}
+STAGE_KEYS = {
+    "index",
+    "name",
+    "block",
+    "part",
+    "regime",
+    "go",
+    "reasons",
+    "gain_error",
+    "limiting",
+    "output",
+    "window",
+    "input",
+    "margins",
+    "probability",
+}
+REASONS = {"output-high", "output-low", "input-high", "input-low", "slew", "current", "supply", "fed-clipped"}
 
-GOOD = '''format = 1
+GOOD = """format = 1
 title = "x10 on a bipolar part"
 [rails.main]
 positive = "15"
@@ -29,14 +43,17 @@ block = "noninverting"
 part = "generic-bipolar-15v"
 rf = "90k 1%"
 rg = "10k 1%"
-'''
+"""
 
 
 def check(*args: str, env_home: Path) -> subprocess.CompletedProcess:
-    return subprocess.run([sys.executable, "-m", "railroom.tui.cli", "check", *args],
-                          capture_output=True, text=True, timeout=60,
-                          env={"RAILROOM_PRESETS_HOME": str(env_home), "PATH": "/usr/bin:/bin",
-                               "COLUMNS": "140"})
+    return subprocess.run(
+        [sys.executable, "-m", "railroom.tui.cli", "check", *args],
+        capture_output=True,
+        text=True,
+        timeout=60,
+        env={"RAILROOM_PRESETS_HOME": str(env_home), "PATH": "/usr/bin:/bin", "COLUMNS": "140"},
+    )
 
 
 @pytest.fixture
@@ -87,14 +104,16 @@ def test_json_report_has_the_spec_keys(home):
 
 def test_unreadable_input_exits_2_with_one_line_per_problem(tmp_path, home):
     path = tmp_path / "bad.toml"
-    path.write_text(GOOD.replace('rf = "90k 1%"', 'rff = "90k"')
-                    .replace('positive = "15"', 'positive = "-20"'), encoding="utf-8")
+    path.write_text(
+        GOOD.replace('rf = "90k 1%"', 'rff = "90k"').replace('positive = "15"', 'positive = "-20"'),
+        encoding="utf-8",
+    )
     done = check(str(path), env_home=home)
     assert done.returncode == 2
     assert done.stdout == ""
     lines = done.stderr.strip().splitlines()
     assert "Traceback" not in done.stderr
-    assert len(lines) == 3          # rails reversed, unknown rff, missing rf
+    assert len(lines) == 3  # rails reversed, unknown rff, missing rf
     assert all(line.startswith(f"railroom: {path}:") for line in lines)
     assert any(":4: rails.main.positive:" in line for line in lines)
     assert any(":13: stage.1.rff:" in line and "did you mean 'rf'" in line for line in lines)

@@ -13,6 +13,7 @@ Extreme value analysis (ECSS-Q-HB-30-01A): the engine's span must equal the brut
 propagation.py's docstring says it is exact (DC alone, or stages passing DC and AC alike) and must
 contain it everywhere; random samples inside the tolerance box must never fall outside it.
 """
+
 from __future__ import annotations
 
 import itertools
@@ -37,10 +38,22 @@ def part(exact: bool, offset: float, bias: float) -> Part:
     # exact: the pole far above the band (A0 1e7, GBW 1e13 Hz) so every stage passes DC and AC
     # alike to ~1e-14; otherwise a slow part (A0 1e5, GBW 1 MHz) whose gain falls in the band.
     # Rails, slew and current are out of reach on purpose: no stage may clip (clipping clamps).
-    return Part(id="p", description="", supply=(1.0, 3e5), supply_abs_max=3e5,
-                output_headroom=(1.0, 1.0), output_resistance=0.0, input_headroom=(1.0, 1.0),
-                gbw=1e13 if exact else 1e6, slew=1e18, open_loop_gain=1e7 if exact else 1e5,
-                offset=offset, offset_drift=0.0, bias_current=bias, output_current=1e6)
+    return Part(
+        id="p",
+        description="",
+        supply=(1.0, 3e5),
+        supply_abs_max=3e5,
+        output_headroom=(1.0, 1.0),
+        output_resistance=0.0,
+        input_headroom=(1.0, 1.0),
+        gbw=1e13 if exact else 1e6,
+        slew=1e18,
+        open_loop_gain=1e7 if exact else 1e5,
+        offset=offset,
+        offset_drift=0.0,
+        bias_current=bias,
+        output_current=1e6,
+    )
 
 
 @dataclass(frozen=True)
@@ -50,28 +63,32 @@ class Value:
 
     @property
     def ends(self) -> tuple[float, float]:
-        return tuple(sorted((self.nominal * (1 - self.tolerance),
-                             self.nominal * (1 + self.tolerance))))
+        return tuple(sorted((self.nominal * (1 - self.tolerance), self.nominal * (1 + self.tolerance))))
 
     def text(self) -> str:
-        return f'"{self.nominal:.9g} {self.tolerance * 100:g}%"' if self.tolerance else \
-            f'"{self.nominal:.9g}"'
+        return (
+            f'"{self.nominal:.9g} {self.tolerance * 100:g}%"' if self.tolerance else f'"{self.nominal:.9g}"'
+        )
 
 
 @dataclass(frozen=True)
 class StageSpec:
     block: str
-    values: dict                      # field -> Value ("inputs.1.r", "inputs.1.v" for summing)
+    values: dict  # field -> Value ("inputs.1.r", "inputs.1.v" for summing)
 
 
 @st.composite
 def stages(draw):
     block = draw(st.sampled_from(["follower", "noninverting", "inverting", "summing", "divider"]))
     resistor = lambda: Value(draw(st.sampled_from(RESISTORS)), draw(st.sampled_from(TOLERANCES)))
-    voltage = lambda: Value(draw(st.sampled_from((0.0, 0.5, -1.2, 2.5))),
-                            draw(st.sampled_from((0.0, 0.02))))
-    names = {"follower": [], "noninverting": ["rf", "rg"], "inverting": ["rin", "rf"],
-             "summing": ["rin", "rf"], "divider": ["top", "bottom"]}[block]
+    voltage = lambda: Value(draw(st.sampled_from((0.0, 0.5, -1.2, 2.5))), draw(st.sampled_from((0.0, 0.02))))
+    names = {
+        "follower": [],
+        "noninverting": ["rf", "rg"],
+        "inverting": ["rin", "rf"],
+        "summing": ["rin", "rf"],
+        "divider": ["top", "bottom"],
+    }[block]
     values = {name: resistor() for name in names}
     if block in ("noninverting", "inverting", "summing"):
         values["ref"] = voltage()
@@ -95,12 +112,19 @@ def chains(draw):
 
 
 def chain_text(specs, level, amplitude, band, impedance) -> str:
-    lines = ['format = 1', '[rails.main]', 'positive = "1e9"', 'negative = "-1e9"',
-             '[source]', f'level = ["{level[0]:.9g}", "{level[1]:.9g}"]',
-             f'amplitude = "{amplitude:g}"', f'band = ["{band[0]:g}", "{band[1]:g}"]',
-             f'impedance = "{impedance:g}"']
+    lines = [
+        "format = 1",
+        "[rails.main]",
+        'positive = "1e9"',
+        'negative = "-1e9"',
+        "[source]",
+        f'level = ["{level[0]:.9g}", "{level[1]:.9g}"]',
+        f'amplitude = "{amplitude:g}"',
+        f'band = ["{band[0]:g}", "{band[1]:g}"]',
+        f'impedance = "{impedance:g}"',
+    ]
     for spec in specs:
-        lines += ['[[stage]]', f'block = "{spec.block}"']
+        lines += ["[[stage]]", f'block = "{spec.block}"']
         if spec.block != "divider":
             lines.append('part = "p"')
         for name, value in spec.values.items():
@@ -114,9 +138,14 @@ def chain_text(specs, level, amplitude, band, impedance) -> str:
 
 # ---- the brute force ------------------------------------------------------------------------
 
+
 def resistor_names(specs):
-    return [(k, name) for k, spec in enumerate(specs) for name, value in spec.values.items()
-            if not (name == "ref" or name.endswith(".v"))]
+    return [
+        (k, name)
+        for k, spec in enumerate(specs)
+        for name, value in spec.values.items()
+        if not (name == "ref" or name.endswith(".v"))
+    ]
 
 
 def voltage_sources(specs, level, offset, bias):
@@ -127,8 +156,11 @@ def voltage_sources(specs, level, offset, bias):
             if name == "ref" or name.endswith(".v"):
                 found.append((f"{k}:{name}", *value.ends))
         if spec.block != "divider":
-            found += [(f"{k}:offset", -offset, offset), (f"{k}:bias+", -bias, bias),
-                      (f"{k}:bias-", -bias, bias)]
+            found += [
+                (f"{k}:offset", -offset, offset),
+                (f"{k}:bias+", -bias, bias),
+                (f"{k}:bias-", -bias, bias),
+            ]
     return [s for s in found if s[1] or s[2] or s[0] == "level"]
 
 
@@ -155,7 +187,7 @@ def netlist(specs, resistors: dict, impedance: float, units: dict) -> Circuit:
             c.source(f"ref{k}", u("ref"))
             c.resistor(out, minus, r["rf"])
             c.resistor(minus, f"ref{k}", r["rg"])
-        else:                                   # inverting, summing: ref drives +
+        else:  # inverting, summing: ref drives +
             c.source(plus, u("ref"))
             c.resistor(x, minus, r["rin"])
             c.resistor(minus, out, r["rf"])
@@ -165,7 +197,7 @@ def netlist(specs, resistors: dict, impedance: float, units: dict) -> Circuit:
         c.opamp(plus, minus, out, units["a0"], units["gbw"], u("offset"))
         for pin, name in ((plus, "bias+"), (minus, "bias-")):
             if u(name):
-                c.current(pin, -u(name))        # bias current flows from the node into the pin
+                c.current(pin, -u(name))  # bias current flows from the node into the pin
     return c
 
 
@@ -176,9 +208,14 @@ def brute_force(specs, level, amplitude, grid, impedance, op: Part, freqs_ac) ->
     stage that follows it: the engine shows a passive stage's output with the next stage's input
     on it (the README: that stage taken as it is, unloaded by what comes after it).
     """
-    return np.array([stage_brute_force(specs[:cut(specs, k)], level, amplitude, impedance, op,
-                                       freqs_ac, read=f"x{k + 1}")
-                     for k in range(len(specs))])
+    return np.array(
+        [
+            stage_brute_force(
+                specs[: cut(specs, k)], level, amplitude, impedance, op, freqs_ac, read=f"x{k + 1}"
+            )
+            for k in range(len(specs))
+        ]
+    )
 
 
 def cut(specs, k: int) -> int:
@@ -186,11 +223,12 @@ def cut(specs, k: int) -> int:
     return k + 2 if specs[k].block == "divider" and k + 1 < len(specs) else k + 1
 
 
-def stage_brute_force(specs, level, amplitude, impedance, op: Part, freqs_ac,
-                      read: str | None = None) -> np.ndarray:
+def stage_brute_force(
+    specs, level, amplitude, impedance, op: Part, freqs_ac, read: str | None = None
+) -> np.ndarray:
     names = resistor_names(specs)
     ends = [specs[k].values[n].ends for k, n in names]
-    combos = np.array(list(itertools.product(*ends)))               # (R, n_resistors)
+    combos = np.array(list(itertools.product(*ends)))  # (R, n_resistors)
     resistors = {key: combos[:, i] for i, key in enumerate(names)}
     sources = voltage_sources(specs, level, op.offset, op.bias_current)
     model = {"a0": op.open_loop_gain, "gbw": op.gbw}
@@ -199,7 +237,7 @@ def stage_brute_force(specs, level, amplitude, impedance, op: Part, freqs_ac,
     for i, (label, *_) in enumerate(sources):
         dc[:, i] = netlist(specs, resistors, impedance, model | {label: 1.0}).solve(0.0)[out][..., 0].real
     corners = np.array(list(itertools.product(*[(lo, hi) for _, lo, hi in sources])))
-    outputs = dc @ corners.T                                            # (R, 2^m)
+    outputs = dc @ corners.T  # (R, 2^m)
     ac = 0.0
     if amplitude:
         sol = netlist(specs, resistors, impedance, model | {"level": 1.0}).solve(freqs_ac)
@@ -219,23 +257,23 @@ def random_samples(specs, level, amplitude, band, impedance, op: Part, rng, coun
     model = {"a0": op.open_loop_gain, "gbw": op.gbw}
     found = []
     for k in range(len(specs)):
-        head, out = specs[:cut(specs, k)], f"x{k + 1}"
+        head, out = specs[: cut(specs, k)], f"x{k + 1}"
         total = np.zeros(count)
         for label, _, _ in voltage_sources(head, level, op.offset, op.bias_current):
             sol = netlist(head, resistors, impedance, model | {label: 1.0}).solve(0.0)
             total = total + np.broadcast_to(sol[out][..., 0].real, (count,)) * draws[label]
         sol = netlist(head, resistors, impedance, model | {"level": 1.0}).solve(freqs)
-        found.append(total[:, None] + (np.broadcast_to(sol[out], (count, 4)) * amplitude
-                                       * phase).real)
+        found.append(total[:, None] + (np.broadcast_to(sol[out], (count, 4)) * amplitude * phase).real)
     return np.array(found)
 
 
 # ---- the properties -------------------------------------------------------------------------
 
+
 def engine_spans(text: str, op: Part):
     chain = chain_from_text(text)
     result = analyse(chain, {"p": op})
-    assert all(s.regime == "linear" for s in result.stages)        # nothing clamped
+    assert all(s.regime == "linear" for s in result.stages)  # nothing clamped
     freqs = band_grid(chain, plan_chain(chain, {"p": op}))
     return np.array([s.measure.output for s in result.stages]), freqs
 
@@ -254,15 +292,14 @@ def test_corner_spans_equal_every_joint_corner(case, exact_part, seed):
     assume(r_bits <= 8 and m_bits <= 12)
     # a toleranced divider into the next stage is exact too: the next stage's corners are
     # enumerated jointly with the divider's (each with its own ratio and output resistance)
-    assume(exact_part or amplitude == 0)          # where propagation.py says it is exact
+    assume(exact_part or amplitude == 0)  # where propagation.py says it is exact
     op = part(exact_part, offset, bias)
     text = chain_text(specs, level, amplitude, band, impedance)
     spans, freqs = engine_spans(text, op)
     truth = brute_force(specs, level, amplitude, band, impedance, op, freqs)
     scale = 1e-7 * np.maximum(1.0, np.abs(truth))
     assert np.all(np.abs(spans - truth) <= scale), (text, spans, truth)
-    samples = random_samples(specs, level, amplitude, band, impedance, op,
-                             np.random.default_rng(seed))
+    samples = random_samples(specs, level, amplitude, band, impedance, op, np.random.default_rng(seed))
     assert np.all(samples >= spans[:, :1, None] - scale[:, :1, None])
     assert np.all(samples <= spans[:, 1:, None] + scale[:, 1:, None])
 
@@ -281,8 +318,7 @@ def test_corner_spans_contain_every_joint_corner_and_sample(case, seed):
     slack = 1e-9 * np.maximum(1.0, np.abs(truth))
     assert np.all(truth[:, 0] >= spans[:, 0] - slack[:, 0]), (text, spans, truth)
     assert np.all(truth[:, 1] <= spans[:, 1] + slack[:, 1]), (text, spans, truth)
-    samples = random_samples(specs, level, amplitude, band, impedance, op,
-                             np.random.default_rng(seed))
+    samples = random_samples(specs, level, amplitude, band, impedance, op, np.random.default_rng(seed))
     assert np.all(samples >= spans[:, :1, None] - slack[:, :1, None])
     assert np.all(samples <= spans[:, 1:, None] + slack[:, 1:, None])
 
@@ -293,9 +329,10 @@ def test_toleranced_divider_into_inverting_stage_is_exact():
     # equals the joint corners of the nodal solver; before, the divider's output resistance was
     # enumerated apart from its ratio (a bound from outside), and before that held at one value
     # (too narrow).
-    specs = [StageSpec("divider", {"top": Value(1e3, 0.05), "bottom": Value(1e3, 0.0)}),
-             StageSpec("inverting", {"rin": Value(1e3, 0.0), "rf": Value(1e3, 0.0),
-                                     "ref": Value(0.0, 0.0)})]
+    specs = [
+        StageSpec("divider", {"top": Value(1e3, 0.05), "bottom": Value(1e3, 0.0)}),
+        StageSpec("inverting", {"rin": Value(1e3, 0.0), "rf": Value(1e3, 0.0), "ref": Value(0.0, 0.0)}),
+    ]
     op = part(True, 0.0, 0.0)
     spans, freqs = engine_spans(chain_text(specs, (1.0, 1.0), 0.0, (10.0, 20e3), 0.0), op)
     truth = brute_force(specs, (1.0, 1.0), 0.0, (10.0, 20e3), 0.0, op, freqs)

@@ -56,8 +56,12 @@ def _jobs() -> list[tuple[str, list[str]]]:
     junit = str(Path(tempfile.gettempdir()) / f"railroom-determinism-{os.getpid()}.xml")
     jobs.append(("junit|chain", ["check", demo, "--junit", junit]))
     jobs.append(("junit|batch", ["check", folder, "--junit", junit]))
-    jobs.append(("against|--json", ["check", demo, "--against",
-                                    str(ROOT / "tests" / "chains" / "alarms_nogo.toml"), "--json"]))
+    jobs.append(
+        (
+            "against|--json",
+            ["check", demo, "--against", str(ROOT / "tests" / "chains" / "alarms_nogo.toml"), "--json"],
+        )
+    )
     return jobs
 
 
@@ -65,7 +69,12 @@ def _run(hash_seed: str) -> dict:
     env = dict(os.environ, PYTHONHASHSEED=hash_seed, NO_COLOR="1", COLUMNS="100")
     done = subprocess.run(
         [sys.executable, "-c", DRIVER, json.dumps(_jobs())],
-        cwd=ROOT, env=env, capture_output=True, text=True, timeout=600, check=False,
+        cwd=ROOT,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=600,
+        check=False,
     )
     assert done.returncode == 0, done.stderr[-2000:]
     return json.loads(done.stdout)
@@ -92,8 +101,20 @@ def test_sensitivity_ties_are_ordered_by_the_circuit():
     # in the ranking is the circuit's (input 1, 2, 3), whatever the hash seed.
     env = dict(os.environ, PYTHONHASHSEED="7")
     done = subprocess.run(
-        [sys.executable, "-m", "railroom.tui.cli", "check", str(ROOT / "tests/chains/summing_ties.toml"), "--json"],
-        cwd=ROOT, env=env, capture_output=True, text=True, timeout=300, check=False,
+        [
+            sys.executable,
+            "-m",
+            "railroom.tui.cli",
+            "check",
+            str(ROOT / "tests/chains/summing_ties.toml"),
+            "--json",
+        ],
+        cwd=ROOT,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=300,
+        check=False,
     )
     assert done.returncode == 0, done.stderr
     entries = json.loads(done.stdout)["stages"][1]["sensitivity"]

@@ -1,4 +1,5 @@
 """The engine facade (railroom.engine) exports what the interface and command line use, lazily."""
+
 import subprocess
 import sys
 
@@ -28,14 +29,17 @@ def test_unknown_name_is_an_attribute_error():
 
 
 def test_importing_a_submodule_does_not_load_the_analysis():
-    code = ("import sys, railroom.engine.model; "
-            "print('railroom.engine.analysis' in sys.modules, 'numpy' in sys.modules)")
+    code = (
+        "import sys, railroom.engine.model; "
+        "print('railroom.engine.analysis' in sys.modules, 'numpy' in sys.modules)"
+    )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.split()[0] == "False"
 
 
 def test_facade_loads_and_analyses_a_demo(tmp_path):
     from importlib.resources import files
+
     path = str(files("railroom.engine.demos") / "bridge_sensor.toml")
     chain, library = engine.load_checked(path)
     result = engine.analyse(chain, library.parts, design_aids=False, headroom=False)

@@ -1,5 +1,6 @@
 """Fixes land on IEC 60063 values and restore the margin when applied; sensitivity ranks the
 quantity that moves the limiting margin."""
+
 from __future__ import annotations
 
 from dataclasses import replace
@@ -13,10 +14,22 @@ from railroom.engine.files import chain_from_text
 from railroom.engine.model import Part
 from railroom.engine.values import Quantity
 
-PART = Part(id="amp", description="", supply=(1.0, 100.0), supply_abs_max=100.0,
-            output_headroom=(1.0, 1.0), output_resistance=0.0, input_headroom=(1.0, 1.0),
-            gbw=1e9, slew=1e9, open_loop_gain=1e7, offset=1e-3, offset_drift=0.0,
-            bias_current=0.0, output_current=1.0)
+PART = Part(
+    id="amp",
+    description="",
+    supply=(1.0, 100.0),
+    supply_abs_max=100.0,
+    output_headroom=(1.0, 1.0),
+    output_resistance=0.0,
+    input_headroom=(1.0, 1.0),
+    gbw=1e9,
+    slew=1e9,
+    open_loop_gain=1e7,
+    offset=1e-3,
+    offset_drift=0.0,
+    bias_current=0.0,
+    output_current=1.0,
+)
 PARTS = {"amp": PART}
 
 # Gain 11 on 0.5 V peak: 5.5 V against a 4 V ceiling (5 V rail less 1 V headroom): clips.
@@ -43,7 +56,7 @@ rg = "10k 1%"
 def in_series(value: float, series: str) -> bool:
     """IEC 60063: value = mantissa * 10^n with the mantissa in the series table."""
     decade = np.floor(np.log10(value))
-    mantissa = value / 10 ** decade
+    mantissa = value / 10**decade
     return any(abs(mantissa - m) < 1e-9 * m for m in SERIES[series])
 
 
@@ -75,6 +88,7 @@ def test_fixes_are_series_values_that_restore_the_margin(method):
 
 def _series_between(old: float, new: float, series: str) -> list[float]:
     from railroom.engine.eseries import values_between
+
     lo, hi = sorted((old, new))
     inside = [v for v in values_between(lo, hi, series) if lo * 1.000001 < v < hi / 1.000001]
     return sorted(inside, key=lambda v: abs(np.log(v / old)))
@@ -130,23 +144,32 @@ rf = "30k 1%"
 
 
 # A passive stage between two amplifiers: the stage after it is enumerated jointly with it.
-WITH_PASSIVE = TIGHT_MIDDLE.replace(
-    '[[stage]]\nname = "invert x3"',
-    '[[stage]]\nname = "smooth"\nblock = "rc_lowpass"\nr = "4k7 5%"\nc = "10n 10%"\n'
-    '[[stage]]\nname = "invert x3"') + '''[[stage]]
+WITH_PASSIVE = (
+    TIGHT_MIDDLE.replace(
+        '[[stage]]\nname = "invert x3"',
+        '[[stage]]\nname = "smooth"\nblock = "rc_lowpass"\nr = "4k7 5%"\nc = "10n 10%"\n'
+        '[[stage]]\nname = "invert x3"',
+    )
+    + """[[stage]]
 name = "last"
 block = "noninverting"
 part = "amp"
 rf = "1k 1%"
 rg = "100k 1%"
-'''
+"""
+)
 
 
-@pytest.mark.parametrize("text, changes", [
-    (TIGHT_MIDDLE, ((1, "rf", 33e3), (1, "rg", 1.2e3), (2, "rin", 12e3), (0, None, None))),
-    (WITH_PASSIVE, ((1, "rf", 33e3), (2, "r", 5.6e3), (3, "rin", 12e3), (3, "rf", 27e3),
-                   (4, "rg", 82e3))),
-])
+@pytest.mark.parametrize(
+    "text, changes",
+    [
+        (TIGHT_MIDDLE, ((1, "rf", 33e3), (1, "rg", 1.2e3), (2, "rin", 12e3), (0, None, None))),
+        (
+            WITH_PASSIVE,
+            ((1, "rf", 33e3), (2, "r", 5.6e3), (3, "rin", 12e3), (3, "rf", 27e3), (4, "rg", 82e3)),
+        ),
+    ],
+)
 def test_partial_re_walk_agrees_with_a_walk_of_the_whole_chain(text, changes):
     # The fix search re-walks only from the stage before the change; the whole-chain walk of the
     # changed chain is the reference: every verdict and margin the same.
@@ -154,18 +177,19 @@ def test_partial_re_walk_agrees_with_a_walk_of_the_whole_chain(text, changes):
     from railroom.engine.fixes import Evaluator
     from railroom.engine.methods import corners
     from railroom.engine.plan import plan_chain
+
     chain = chain_from_text(text.format(rf="36k"))
     plans = plan_chain(chain, PARTS)
     freqs = band_grid(chain, plans)
     evaluate = Evaluator(chain, plans, freqs)
-    evaluate.results(plans, changed=1)        # builds the unchanged walk it reuses
+    evaluate.results(plans, changed=1)  # builds the unchanged walk it reuses
     for k, field, value in changes:
         if field is None:
             changed_plans = plans
         else:
             q = plans[k].quantities[field]
             changed = replace(plans[k], quantities={**plans[k].quantities, field: replace(q, value=value)})
-            changed_plans = [*plans[:k], changed, *plans[k + 1:]]
+            changed_plans = [*plans[:k], changed, *plans[k + 1 :]]
         whole = corners.run(corners.prepare(chain, changed_plans, freqs))
         partial = evaluate.results(changed_plans, changed=k)
         assert [r.margins for r in partial] == [r.margins for r in whole]
@@ -173,16 +197,19 @@ def test_partial_re_walk_agrees_with_a_walk_of_the_whole_chain(text, changes):
         assert [r.measure.output for r in partial] == [r.measure.output for r in whole]
         # stopped after stage k (no stage after it was GO): the same results, cut short
         stopped = evaluate.results(changed_plans, changed=k, stop=k + 1)
-        assert [r.margins for r in stopped] == [r.margins for r in whole[:k + 1]]
+        assert [r.margins for r in stopped] == [r.margins for r in whole[: k + 1]]
 
 
 def test_a_stage_fed_a_clipped_signal_gets_a_note_not_a_search():
-    chain = chain_from_text(CLIPPING.format(method="corners") + """
+    chain = chain_from_text(
+        CLIPPING.format(method="corners")
+        + """
 [[stage]]
 name = "after"
 block = "follower"
 part = "amp"
-""")
+"""
+    )
     first, after = analyse(chain, PARTS).stages
     assert "fed-clipped" in after.reasons
     assert [f.field for f in after.fixes] == [None]
@@ -196,6 +223,7 @@ def test_a_value_in_both_series_is_offered_once(monkeypatch):
     from types import SimpleNamespace
     from railroom.engine import fixes
     from railroom.engine.plan import plan_chain
+
     plan = plan_chain(chain_from_text(CLIPPING.format(method="corners")), PARTS)[0]
     done = SimpleNamespace(limiting="output-high", margins={"output-high": 0.2})
 

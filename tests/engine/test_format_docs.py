@@ -3,6 +3,7 @@
 Keys come from the engine's own tables: the chain reader's key tuples, the block table, the part
 fields and the JSON report of a real run.
 """
+
 from __future__ import annotations
 
 import json
@@ -23,8 +24,15 @@ def _named(key: str) -> bool:
 
 
 def test_every_chain_key_is_documented():
-    keys = (*files.TOP_KEYS, *files.CONDITION_KEYS, *files.SOURCE_KEYS, "positive", "negative",
-            "tolerance", *COMMON_FIELDS)
+    keys = (
+        *files.TOP_KEYS,
+        *files.CONDITION_KEYS,
+        *files.SOURCE_KEYS,
+        "positive",
+        "negative",
+        "tolerance",
+        *COMMON_FIELDS,
+    )
     missing = [k for k in keys if not _named(k) and f"[{k}" not in SECTION]
     assert not missing
 

@@ -1,5 +1,6 @@
 """Hostile files through the real `railroom check` process: exit 0, 1 or 2, never a traceback,
 never a hang, never a changed file; an unreadable input is told on stderr with file and field."""
+
 from __future__ import annotations
 
 import os
@@ -13,16 +14,23 @@ from hypothesis import strategies as st
 from fuzz_inputs import DEMO_CHAIN, chain_files, extreme_values, has_control, preset_files
 
 EXPLORE = bool(os.environ.get("RAILROOM_FUZZ_EXPLORE"))
-PROCESS = settings(deadline=None, database=None, derandomize=not EXPLORE,
-                   suppress_health_check=list(HealthCheck))
+PROCESS = settings(
+    deadline=None, database=None, derandomize=not EXPLORE, suppress_health_check=list(HealthCheck)
+)
 TIMEOUT_S = 30
 BATCH_FILES = 200
 
 
 def railroom(*args: str, timeout: float = TIMEOUT_S) -> subprocess.CompletedProcess:
-    env = {**os.environ, "COLUMNS": "240"}   # a wide table: names are not wrapped
-    return subprocess.run([sys.executable, "-m", "railroom.tui.cli", *args], capture_output=True,
-                          text=True, timeout=timeout, stdin=subprocess.DEVNULL, env=env)
+    env = {**os.environ, "COLUMNS": "240"}  # a wide table: names are not wrapped
+    return subprocess.run(
+        [sys.executable, "-m", "railroom.tui.cli", *args],
+        capture_output=True,
+        text=True,
+        timeout=timeout,
+        stdin=subprocess.DEVNULL,
+        env=env,
+    )
 
 
 def assert_well_behaved(run: subprocess.CompletedProcess, chain: Path) -> None:
@@ -64,8 +72,7 @@ def test_check_process_with_a_hostile_preset_folder(tmp_path_factory, text):
 
 
 @settings(PROCESS, max_examples=1)
-@given(st.lists(chain_files() | extreme_values(DEMO_CHAIN), min_size=BATCH_FILES,
-                max_size=BATCH_FILES))
+@given(st.lists(chain_files() | extreme_values(DEMO_CHAIN), min_size=BATCH_FILES, max_size=BATCH_FILES))
 def test_batch_check_of_a_folder_of_hostile_files(tmp_path_factory, texts):
     folder = tmp_path_factory.mktemp("boards")
     before = {f"{i:03}.toml": write(folder / f"{i:03}.toml", t) for i, t in enumerate(texts)}
@@ -82,7 +89,8 @@ def test_batch_check_of_a_folder_of_hostile_files(tmp_path_factory, texts):
 def test_rich_markup_in_names_is_printed_as_written(tmp_path):
     chain = tmp_path / "markup.toml"
     text = DEMO_CHAIN.read_text(encoding="utf-8").replace(
-        'name = "gain x10"', 'name = "[bold red]gain[/] [link=http://e.example]x10[/link]"')
+        'name = "gain x10"', 'name = "[bold red]gain[/] [link=http://e.example]x10[/link]"'
+    )
     before = write(chain, text)
     run = railroom("check", str(chain))
     assert run.returncode == 1

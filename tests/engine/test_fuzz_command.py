@@ -4,6 +4,7 @@ alarm per file), 0 changed files, nothing on the terminal a terminal would act o
 
 The suite runs FUZZ_COUNT files of each kind; RAILROOM_FUZZ_LONG=1 runs the long test, 3,000
 chain files and 1,000 preset folders, and prints the figures (pytest -s)."""
+
 from __future__ import annotations
 
 import io
@@ -28,8 +29,13 @@ FIGURES: Counter = Counter()
 
 
 def settings_for(count: int):
-    return settings(max_examples=count, deadline=None, database=None, derandomize=not EXPLORE,
-                    suppress_health_check=list(HealthCheck))
+    return settings(
+        max_examples=count,
+        deadline=None,
+        database=None,
+        derandomize=not EXPLORE,
+        suppress_health_check=list(HealthCheck),
+    )
 
 
 # Structure a user could not type by hand but a file can hold: nesting past the limit, long
@@ -41,9 +47,11 @@ hostile_tails = st.one_of(
     st.integers(150, 400).map(lambda n: f'title = "{"t" * n}"\n'),
 )
 chains = st.one_of(
-    chain_files(), extreme_values(DEMO_CHAIN),
+    chain_files(),
+    extreme_values(DEMO_CHAIN),
     st.tuples(st.booleans(), hostile_tails).map(
-        lambda p: ("\ufeff" if p[0] else "") + DEMO_CHAIN.read_text(encoding="utf-8") + p[1]),
+        lambda p: ("\ufeff" if p[0] else "") + DEMO_CHAIN.read_text(encoding="utf-8") + p[1]
+    ),
 )
 
 
@@ -51,6 +59,7 @@ chains = st.one_of(
 def time_limit(seconds: int = TIME_LIMIT_S):
     def expired(signum, frame):
         raise TimeoutError(f"no answer within {seconds} s")
+
     previous = signal.signal(signal.SIGALRM, expired)
     signal.alarm(seconds)
     try:

@@ -4,6 +4,7 @@ The rule (project hardening brief): a broken chain or preset file gives problems
 file, the line and the field, in text a terminal shows as written (no raw control characters);
 nothing else is ever raised, nothing hangs, and a value that loads is a finite number.
 """
+
 from __future__ import annotations
 
 import json
@@ -16,8 +17,15 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from fuzz_inputs import (DEMO_CHAIN, GENERIC_PRESETS, chain_files, edited_file, extreme_values,
-                         has_control, preset_files)
+from fuzz_inputs import (
+    DEMO_CHAIN,
+    GENERIC_PRESETS,
+    chain_files,
+    edited_file,
+    extreme_values,
+    has_control,
+    preset_files,
+)
 from railroom.engine.analysis import analyse
 from railroom.engine.files import chain_from_text
 from railroom.engine.model import InputError
@@ -28,16 +36,19 @@ from railroom.engine.values import KINDS, ValueTextError, parse_quantity
 
 # A fixed sequence in the test run; RAILROOM_FUZZ_EXPLORE=1 draws fresh inputs for a longer hunt.
 EXPLORE = bool(os.environ.get("RAILROOM_FUZZ_EXPLORE"))
-FAST = settings(deadline=None, suppress_health_check=list(HealthCheck), derandomize=not EXPLORE,
-                database=None)
+FAST = settings(
+    deadline=None, suppress_health_check=list(HealthCheck), derandomize=not EXPLORE, database=None
+)
 TIME_LIMIT_S = 10
 
 
 @contextmanager
 def time_limit(seconds: int = TIME_LIMIT_S):
     """A hang shows as a failure instead of stalling the run (POSIX alarm)."""
+
     def expired(signum, frame):
         raise TimeoutError(f"no answer within {seconds} s")
+
     previous = signal.signal(signal.SIGALRM, expired)
     signal.alarm(seconds)
     try:
@@ -105,8 +116,7 @@ def test_preset_loader_answers_with_parts_or_located_problems(text):
 
 
 @settings(FAST, max_examples=1000)
-@given(st.one_of(st.text(max_size=40), st.floats(), st.integers(), st.booleans()),
-       st.sampled_from(KINDS))
+@given(st.one_of(st.text(max_size=40), st.floats(), st.integers(), st.booleans()), st.sampled_from(KINDS))
 def test_value_parser_refuses_with_a_sentence_or_gives_a_finite_value(raw, kind):
     try:
         q = parse_quantity(raw, kind)
@@ -192,7 +202,8 @@ def test_extreme_but_accepted_sizes_give_a_report_or_located_problems(text):
 
 def test_control_characters_in_a_part_id_are_refused_and_shown_escaped():
     text = GENERIC_PRESETS.read_text(encoding="utf-8").replace(
-        "[part.generic-fast]", '[part."fast\\u001b[2J"]')
+        "[part.generic-fast]", '[part."fast\\u001b[2J"]'
+    )
     parts, problems = parts_from_text(text, "lab.toml")
     assert "generic-fast" not in {p.id for p in parts} and len(parts) == 5
     assert [p.field for p in problems] == ["part.fast\\x1b[2J"]

@@ -4,6 +4,7 @@ Sources (REFERENCES.md): Sedra & Smith, Microelectronic Circuits, ch. 2; Franco,
 Operational Amplifiers and Analog Integrated Circuits, ch. 1-4; US Navy NEETS (NAVEDTRA 14180);
 Sivakumar, Linear Integrated Circuits, Ex. 5.1.
 """
+
 import numpy as np
 import pytest
 from scipy.optimize import brentq
@@ -18,10 +19,22 @@ TWO_PI = 2 * np.pi
 
 
 def part(**changes) -> Part:
-    fields = dict(id="test-part", description="test", supply=(1.0, 100.0), supply_abs_max=110.0,
-                  output_headroom=(0.5, 0.5), output_resistance=0.0, input_headroom=(0.5, 0.5),
-                  gbw=1e15, slew=1e12, open_loop_gain=1e12, offset=0.0, offset_drift=0.0,
-                  bias_current=0.0, output_current=10.0)
+    fields = dict(
+        id="test-part",
+        description="test",
+        supply=(1.0, 100.0),
+        supply_abs_max=110.0,
+        output_headroom=(0.5, 0.5),
+        output_resistance=0.0,
+        input_headroom=(0.5, 0.5),
+        gbw=1e15,
+        slew=1e12,
+        open_loop_gain=1e12,
+        offset=0.0,
+        offset_drift=0.0,
+        bias_current=0.0,
+        output_current=10.0,
+    )
     fields.update(changes)
     return Part(**fields)
 
@@ -37,6 +50,7 @@ def respond(block, values: dict, freqs=(), op: Part | None = None, drive: float 
 
 
 # ---- ideal gains ----------------------------------------------------------------------------
+
 
 @pytest.mark.parametrize("rf, rg", [(100e3, 10e3), (90.9e3, 10e3), (4.7e3, 1e3), (1e3, 1e6)])
 def test_noninverting_gain_is_one_plus_rf_over_rg(rf, rg):
@@ -63,8 +77,15 @@ def test_summing_amplifier_with_fixed_inputs_and_ref():
     # Franco ch. 1 (summing amplifier), superposition about ref:
     # Vout = -Rf (Vin/Rin + sum V_k/R_k) + Vref (1 + Rf (1/Rin + sum 1/R_k))
     rin, rf, ref, r1, v1, r2, v2 = 20e3, 16e3, 1.25, 82e3, 5.0, 47e3, -2.0
-    values = {"rin": rin, "rf": rf, "ref": ref, "inputs.1.r": r1, "inputs.1.v": v1,
-              "inputs.2.r": r2, "inputs.2.v": v2}
+    values = {
+        "rin": rin,
+        "rf": rf,
+        "ref": ref,
+        "inputs.1.r": r1,
+        "inputs.1.v": v1,
+        "inputs.2.r": r2,
+        "inputs.2.v": v2,
+    }
     t = respond(Summing(), values)
     vin = 0.3
     engine = sum(t[k][0, 0].real * (vin if k == "in" else values[k]) for k in t)
@@ -75,10 +96,10 @@ def test_summing_amplifier_with_fixed_inputs_and_ref():
 
 # ---- finite open-loop gain and bandwidth ----------------------------------------------------
 
+
 def test_finite_gain_follows_black():
     # REFERENCES.md, Black's feedback formula G = A/(1 + A beta): G0 = 10 with A = 1e4 -> 9.99001
-    t = respond(Noninverting(), {"rf": 90e3, "rg": 10e3, "ref": 0.0},
-                op=part(open_loop_gain=1e4, gbw=1e15))
+    t = respond(Noninverting(), {"rf": 90e3, "rg": 10e3, "ref": 0.0}, op=part(open_loop_gain=1e4, gbw=1e15))
     assert t["in"][0, 0].real == pytest.approx(9.99001, abs=1e-5)
     assert t["in"][0, 0].real == pytest.approx(1e4 / (1 + 1e4 / 10), rel=1e-9)
 
@@ -93,19 +114,23 @@ def corner(block, values, op) -> float:
     return brentq(excess, 1e2, 1e8, xtol=1e-3)
 
 
-@pytest.mark.parametrize("block, values, expected", [
-    # REFERENCES.md (NEETS NAVEDTRA 14180): bandwidth = GBW / noise gain, GBW 1 MHz
-    (Noninverting(), {"rf": 90e3, "rg": 10e3}, 100e3),       # gain 10 -> 100 kHz
-    (Noninverting(), {"rf": 100e3, "rg": 10e3}, 90.909e3),   # gain 11 -> 90.909 kHz
-    (Noninverting(), {"rf": 990e3, "rg": 10e3}, 10e3),       # gain 100 -> 10 kHz
-    (Inverting(), {"rin": 10e3, "rf": 10e3}, 500e3),         # -1: noise gain 2 -> 500 kHz
-])
+@pytest.mark.parametrize(
+    "block, values, expected",
+    [
+        # REFERENCES.md (NEETS NAVEDTRA 14180): bandwidth = GBW / noise gain, GBW 1 MHz
+        (Noninverting(), {"rf": 90e3, "rg": 10e3}, 100e3),  # gain 10 -> 100 kHz
+        (Noninverting(), {"rf": 100e3, "rg": 10e3}, 90.909e3),  # gain 11 -> 90.909 kHz
+        (Noninverting(), {"rf": 990e3, "rg": 10e3}, 10e3),  # gain 100 -> 10 kHz
+        (Inverting(), {"rin": 10e3, "rf": 10e3}, 500e3),  # -1: noise gain 2 -> 500 kHz
+    ],
+)
 def test_closed_loop_bandwidth_is_gbw_over_noise_gain(block, values, expected):
-    op = part(gbw=1e6, open_loop_gain=1e9)     # A0 large: the corner is GBW/NG to 1e-8
+    op = part(gbw=1e6, open_loop_gain=1e9)  # A0 large: the corner is GBW/NG to 1e-8
     assert corner(block, values, op) == pytest.approx(expected, rel=1e-4)
 
 
 # ---- whole-chain worst cases ----------------------------------------------------------------
+
 
 def chain_text(stage: str, level=("0", "0"), amplitude="0", band=("1", "1"), rails="15") -> str:
     return f"""
@@ -144,10 +169,13 @@ def test_full_power_bandwidth_is_where_the_slew_margin_crosses_zero():
     assert result.stages[0].regime == "clipping" and "slew" in result.stages[0].reasons
 
 
-@pytest.mark.parametrize("stage", [
-    'block = "inverting"\nrin = "5k"\nrf = "500k"',
-    'block = "noninverting"\nrg = "5k"\nrf = "500k"',
-])
+@pytest.mark.parametrize(
+    "stage",
+    [
+        'block = "inverting"\nrin = "5k"\nrf = "500k"',
+        'block = "noninverting"\nrg = "5k"\nrf = "500k"',
+    ],
+)
 def test_output_offset_is_vos_times_noise_gain_plus_bias_term(stage):
     # Sivakumar, Linear Integrated Circuits, Ex. 5.1: Vos 4 mV, R1 5k, R2 500k -> 404 mV;
     # Ios 150 nA -> 75 mV; total 479 mV. The engine's stages have no bias-compensation resistor,

@@ -1,4 +1,5 @@
 """headroom_db against a plain bisection on the source amplitude and a hand calculation."""
+
 from __future__ import annotations
 
 from pathlib import Path
@@ -13,10 +14,22 @@ from railroom.engine.model import Part
 from railroom.engine.plan import plan_chain
 from railroom.engine.analysis import band_grid
 
-PART = Part(id="p", description="", supply=(1.0, 100.0), supply_abs_max=100.0,
-            output_headroom=(1.0, 1.0), output_resistance=0.0, input_headroom=(1.0, 1.0),
-            gbw=1e12, slew=1e12, open_loop_gain=1e12, offset=0.0, offset_drift=0.0,
-            bias_current=0.0, output_current=1.0)
+PART = Part(
+    id="p",
+    description="",
+    supply=(1.0, 100.0),
+    supply_abs_max=100.0,
+    output_headroom=(1.0, 1.0),
+    output_resistance=0.0,
+    input_headroom=(1.0, 1.0),
+    gbw=1e12,
+    slew=1e12,
+    open_loop_gain=1e12,
+    offset=0.0,
+    offset_drift=0.0,
+    bias_current=0.0,
+    output_current=1.0,
+)
 
 
 def chain(gain_rf: str, amplitude: str, level: str = "0") -> str:
@@ -59,6 +72,7 @@ def test_headroom_none_when_dc_alone_fails():
 def test_headroom_agrees_with_plain_bisection(path):
     from railroom.engine.presets import load_library, search_order
     from railroom.engine.files import load_chain
+
     loaded = load_chain(path)
     parts = load_library(search_order()).parts
     plans = plan_chain(loaded, parts)

@@ -1,6 +1,7 @@
 """Hostile files through the real command (issue 12 items 8, 9): a FIFO, a device, a huge file,
 nesting 500 deep. Each gives a located line and exit 2 (or is skipped with a line), never a hang
 (the subprocess timeout is a guard against one, not a timing check) or a traceback."""
+
 from __future__ import annotations
 
 import os
@@ -37,7 +38,7 @@ def test_a_fifo_in_the_preset_folder_is_skipped_with_a_line(tmp_path, home):
     os.mkfifo(home / "lab.toml")
     (home / "folder.toml").mkdir()
     done = railroom("check", str(DEMO), home=home)
-    assert done.returncode == 1, done.stderr          # the demo's own verdict: NO-GO
+    assert done.returncode == 1, done.stderr  # the demo's own verdict: NO-GO
     assert_clean(done)
     listed = railroom("presets", "list", home=home)
     assert listed.returncode == 0
@@ -56,6 +57,7 @@ def test_dev_zero_is_refused_at_once(home):
 
 def test_a_file_past_the_size_limit_is_refused(tmp_path, home):
     from railroom.engine.reading import MAX_FILE_BYTES
+
     big = tmp_path / "big.toml"
     big.write_text(DEMO_TEXT + "#" * MAX_FILE_BYTES, encoding="utf-8")
     done = railroom("check", str(big), home=home)

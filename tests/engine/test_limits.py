@@ -1,5 +1,6 @@
 """Sensible limits (issue 12 item 13; the README's "Limits"): past them a file is refused with a
 located message instead of taking minutes and gigabytes."""
+
 from __future__ import annotations
 
 import subprocess
@@ -11,20 +12,22 @@ from railroom.engine.files import MAX_INPUTS, MAX_STAGES
 from railroom.engine.reading import MAX_FILE_BYTES, MAX_TEXT
 from command_line import railroom as run_railroom
 
-HEAD = '''format = 1
+HEAD = """format = 1
 [rails.main]
 positive = "15"
 negative = "-15"
 [source]
 level = ["-0.1", "0.1"]
-'''
+"""
 FOLLOWER = '[[stage]]\nblock = "follower"\npart = "generic-bipolar-15v"\n'
 
 
 def summing(count: int) -> str:
     inputs = ", ".join('{r = "100k", v = "0.01"}' for _ in range(count))
-    return (f'[[stage]]\nblock = "summing"\npart = "generic-bipolar-15v"\nrin = "10k"\n'
-            f'rf = "10k"\ninputs = [{inputs}]\n')
+    return (
+        f'[[stage]]\nblock = "summing"\npart = "generic-bipolar-15v"\nrin = "10k"\n'
+        f'rf = "10k"\ninputs = [{inputs}]\n'
+    )
 
 
 def write(tmp_path: Path, text: str) -> Path:
@@ -40,8 +43,14 @@ def railroom(*args: str, home: Path) -> subprocess.CompletedProcess:
 def test_the_limits_are_the_documented_ones():
     readme = (Path(__file__).parents[2] / "README.md").read_text(encoding="utf-8")
     limits = readme.split("**Limits.**")[1].split("\n\n")[0]
-    for figure in (f"{MAX_STAGES} stages", f"{MAX_INPUTS} fixed inputs", f"{MAX_TEXT} characters",
-                   f"{MAX_FILE_BYTES // 2**20} MiB", "16 levels", "300 s"):
+    for figure in (
+        f"{MAX_STAGES} stages",
+        f"{MAX_INPUTS} fixed inputs",
+        f"{MAX_TEXT} characters",
+        f"{MAX_FILE_BYTES // 2**20} MiB",
+        "16 levels",
+        "300 s",
+    ):
         assert figure in limits, figure
 
 
@@ -55,25 +64,31 @@ def test_past_the_stage_limit_the_first_extra_stage_is_named(tmp_path, home):
     done = railroom("check", str(path), home=home)
     assert done.returncode == 2
     line = HEAD.count("\n") + 3 * MAX_STAGES + 1
-    assert done.stderr == (f"railroom: {path}:{line}: stage: {MAX_STAGES + 1} stages; railroom "
-                           f"checks at most {MAX_STAGES} in one chain: split the chain into files\n")
+    assert done.stderr == (
+        f"railroom: {path}:{line}: stage: {MAX_STAGES + 1} stages; railroom "
+        f"checks at most {MAX_STAGES} in one chain: split the chain into files\n"
+    )
 
 
 def test_fixed_inputs_of_a_summing_stage(tmp_path, home):
-    assert railroom("check", str(write(tmp_path, HEAD + summing(MAX_INPUTS))),
-                    home=home).returncode in (0, 1)
+    assert railroom("check", str(write(tmp_path, HEAD + summing(MAX_INPUTS))), home=home).returncode in (0, 1)
     path = write(tmp_path, HEAD + summing(MAX_INPUTS + 1))
     done = railroom("check", str(path), home=home)
     assert done.returncode == 2
-    assert done.stderr == (f"railroom: {path}:12: stage.1.inputs: {MAX_INPUTS + 1} fixed inputs; "
-                           f"a summing stage takes at most {MAX_INPUTS}\n")
+    assert done.stderr == (
+        f"railroom: {path}:12: stage.1.inputs: {MAX_INPUTS + 1} fixed inputs; "
+        f"a summing stage takes at most {MAX_INPUTS}\n"
+    )
 
 
 @pytest.mark.parametrize("where", ["title", "name"])
 def test_a_title_or_name_past_the_limit(tmp_path, home, where):
     long = "x" * (MAX_TEXT + 1)
-    text = (f'title = "{long}"\n' + HEAD + FOLLOWER if where == "title" else
-            HEAD + FOLLOWER + f'name = "{long}"\n')
+    text = (
+        f'title = "{long}"\n' + HEAD + FOLLOWER
+        if where == "title"
+        else HEAD + FOLLOWER + f'name = "{long}"\n'
+    )
     path = write(tmp_path, text)
     done = railroom("check", str(path), home=home)
     assert done.returncode == 2

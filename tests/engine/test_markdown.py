@@ -4,6 +4,7 @@ Regenerate the snapshot after an intended change of the report or of the engine'
     RAILROOM_UPDATE_SNAPSHOTS=1 .venv/bin/python -m pytest tests/engine/test_markdown.py
 then read the diff of tests/engine/snapshots/ before committing it.
 """
+
 from __future__ import annotations
 
 import os
@@ -34,7 +35,8 @@ def test_demo_report_matches_the_stored_snapshot():
     if os.environ.get("RAILROOM_UPDATE_SNAPSHOTS"):
         stored.write_text(text, encoding="utf-8")
     assert text == stored.read_text(encoding="utf-8"), (
-        "the Markdown report changed; if intended, regenerate (see this module's docstring)")
+        "the Markdown report changed; if intended, regenerate (see this module's docstring)"
+    )
 
 
 def cells(row: str) -> list[str]:
@@ -67,15 +69,29 @@ def test_every_demo_report_has_its_verdict_and_one_row_per_stage(path):
     assert len(diagram) == 1 + len(result.stages)
 
 
-HOSTILE_NAMES = ["a | b", "`code` and ```fence```", "<script>x</script>", "[x](http://e.example)",
-                 "**bold** _em_ ~~gone~~", "[bold red]markup[/]", "# heading", "ü€😀 Ω"]
+HOSTILE_NAMES = [
+    "a | b",
+    "`code` and ```fence```",
+    "<script>x</script>",
+    "[x](http://e.example)",
+    "**bold** _em_ ~~gone~~",
+    "[bold red]markup[/]",
+    "# heading",
+    "ü€😀 Ω",
+]
 
 
 def hostile_chain() -> str:
-    stages = "".join(f'[[stage]]\nname = {name!r}\nblock = "follower"\npart = "generic-rro-5v"\n\n'
-                     .replace("'", '"') if '"' not in name else "" for name in HOSTILE_NAMES)
-    return ('format = 1\ntitle = "title | with `ticks` and <b>tags</b>"\n'
-            '[rails.main]\npositive = "5"\n[source]\nlevel = ["1", "2"]\n\n' + stages)
+    stages = "".join(
+        f'[[stage]]\nname = {name!r}\nblock = "follower"\npart = "generic-rro-5v"\n\n'.replace("'", '"')
+        if '"' not in name
+        else ""
+        for name in HOSTILE_NAMES
+    )
+    return (
+        'format = 1\ntitle = "title | with `ticks` and <b>tags</b>"\n'
+        '[rails.main]\npositive = "5"\n[source]\nlevel = ["1", "2"]\n\n' + stages
+    )
 
 
 def test_user_text_cannot_change_the_document_structure():
@@ -100,11 +116,13 @@ def test_markdown_escape_keeps_text_literal():
 
 
 def test_level_diagram_places_a_follower_span_between_its_rails():
-    text = ('format = 1\n[rails.main]\npositive = "10"\nnegative = "-10"\n[source]\n'
-            'level = ["0", "5"]\n[[stage]]\nblock = "follower"\npart = "generic-bipolar-15v"\n')
+    text = (
+        'format = 1\n[rails.main]\npositive = "10"\nnegative = "-10"\n[source]\n'
+        'level = ["0", "5"]\n[[stage]]\nblock = "follower"\npart = "generic-bipolar-15v"\n'
+    )
     result = analyse(chain_from_text(text, "f.toml"), load_library(search_order()).parts)
     line = markdown_report(result).split("```text\n")[1].splitlines()[1]
-    bar = line[26:26 + 56]
+    bar = line[26 : 26 + 56]
     # Axis -10 V .. 10 V over 56 cells of 20/56 V: the span [0 V - offset, 5 V + offset] covers
     # cells 27 (just below 0 V, from the part's offset) to floor(15.0x / (20/56)) = 42.
     low, high = result.stages[0].measure.output

@@ -4,6 +4,7 @@ Extreme value analysis bounds every built circuit when each output is monotone i
 toleranced value (ECSS-Q-HB-30-01A, extreme value analysis): gain stages and dividers are, up to
 the first stage that may clip.
 """
+
 from __future__ import annotations
 
 import numpy as np
@@ -16,10 +17,22 @@ from railroom.engine.methods import corners, montecarlo
 from railroom.engine.model import Part
 from railroom.engine.plan import plan_chain
 
-PART = Part(id="amp", description="", supply=(1.0, 100.0), supply_abs_max=100.0,
-            output_headroom=(1.0, 0.8), output_resistance=50.0, input_headroom=(1.5, 1.5),
-            gbw=1e6, slew=0.5e6, open_loop_gain=1e5, offset=2e-3, offset_drift=5e-6,
-            bias_current=50e-9, output_current=20e-3)
+PART = Part(
+    id="amp",
+    description="",
+    supply=(1.0, 100.0),
+    supply_abs_max=100.0,
+    output_headroom=(1.0, 0.8),
+    output_resistance=50.0,
+    input_headroom=(1.5, 1.5),
+    gbw=1e6,
+    slew=0.5e6,
+    open_loop_gain=1e5,
+    offset=2e-3,
+    offset_drift=5e-6,
+    bias_current=50e-9,
+    output_current=20e-3,
+)
 
 STAGES = {
     "noninverting": 'rf = "{a}k {t}% 50ppm"\nrg = "{b}k {t}%"',
@@ -52,11 +65,13 @@ impedance = "100"
 
 
 @settings(max_examples=25, deadline=None)
-@given(kinds=st.lists(st.sampled_from(sorted(STAGES)), min_size=1, max_size=4),
-       values=st.lists(st.tuples(st.integers(1, 100), st.integers(1, 100)), min_size=4, max_size=4),
-       tolerance=st.sampled_from([0.1, 1, 5]),
-       level=st.tuples(st.integers(-1000, 0), st.integers(0, 1000)),
-       amplitude=st.integers(0, 500))
+@given(
+    kinds=st.lists(st.sampled_from(sorted(STAGES)), min_size=1, max_size=4),
+    values=st.lists(st.tuples(st.integers(1, 100), st.integers(1, 100)), min_size=4, max_size=4),
+    tolerance=st.sampled_from([0.1, 1, 5]),
+    level=st.tuples(st.integers(-1000, 0), st.integers(0, 1000)),
+    amplitude=st.integers(0, 500),
+)
 def test_no_draw_outside_corners(kinds, values, tolerance, level, amplitude):
     chain = chain_from_text(chain_text(kinds, values, tolerance, level, f"{amplitude}m"))
     plans = plan_chain(chain, {"amp": PART})

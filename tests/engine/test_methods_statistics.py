@@ -1,4 +1,5 @@
 """rss and montecarlo against analytic tolerance results, and the Monte Carlo bookkeeping."""
+
 from __future__ import annotations
 
 import numpy as np
@@ -11,10 +12,22 @@ from railroom.engine.model import Part
 from railroom.engine.plan import plan_chain
 
 # An op amp close to ideal: huge open-loop gain and bandwidth, no headroom, no errors.
-IDEAL = Part(id="ideal", description="", supply=(1.0, 100.0), supply_abs_max=100.0,
-             output_headroom=(0.0, 0.0), output_resistance=0.0, input_headroom=(0.0, 0.0),
-             gbw=1e15, slew=1e15, open_loop_gain=1e15, offset=0.0, offset_drift=0.0,
-             bias_current=0.0, output_current=1.0)
+IDEAL = Part(
+    id="ideal",
+    description="",
+    supply=(1.0, 100.0),
+    supply_abs_max=100.0,
+    output_headroom=(0.0, 0.0),
+    output_resistance=0.0,
+    input_headroom=(0.0, 0.0),
+    gbw=1e15,
+    slew=1e15,
+    open_loop_gain=1e15,
+    offset=0.0,
+    offset_drift=0.0,
+    bias_current=0.0,
+    output_current=1.0,
+)
 PARTS = {"ideal": IDEAL}
 
 
@@ -54,7 +67,7 @@ def analytic_sigma(rf: float, rg: float, sigma_fraction: float, level: float = 1
 def test_montecarlo_uniform_sigma_converges_to_analytic():
     # Uniform +/-t has sigma t/sqrt(3) (REFERENCES.md, Methods).
     out = raw_outputs(gain_eleven(), 200_000)
-    expected = analytic_sigma(100e3, 10e3, 0.01 / np.sqrt(3))      # 0.0816497
+    expected = analytic_sigma(100e3, 10e3, 0.01 / np.sqrt(3))  # 0.0816497
     assert expected == pytest.approx(0.0816497, rel=1e-6)
     assert np.std(out) == pytest.approx(expected, rel=0.01)
     assert np.mean(out) == pytest.approx(11.0, abs=1e-3)
@@ -130,8 +143,9 @@ def test_montecarlo_report_independent_of_chunk_size_and_percentiles_exact():
     plans = plan_chain(chain, PARTS)
     freqs = band_grid(chain, plans)
     corner = corners.run(corners.prepare(chain, plans, freqs))
-    chain = chain.__class__(**{**chain.__dict__,
-                               "conditions": chain.conditions.__class__(samples=3000, seed=3)})
+    chain = chain.__class__(
+        **{**chain.__dict__, "conditions": chain.conditions.__class__(samples=3000, seed=3)}
+    )
     big, yield_big = montecarlo.run(chain, plans, freqs, corner, chunk=4096)
     small, yield_small = montecarlo.run(chain, plans, freqs, corner, chunk=250)
     assert big[0].margins == small[0].margins
@@ -139,7 +153,7 @@ def test_montecarlo_report_independent_of_chunk_size_and_percentiles_exact():
     assert yield_big == yield_small == 1.0
     # the kept low tail reproduces numpy.percentile (linear interpolation) over every draw
     out = raw_outputs(chain, 3000, seed=3)
-    margin = 15.0 - out                               # output-high margin of the ideal op amp
+    margin = 15.0 - out  # output-high margin of the ideal op amp
     quoted = big[0].measure.percentiles["output-high"]
     for label, q in (("0.1%", 0.1), ("1%", 1.0), ("50%", 50.0)):
         assert quoted[label] == pytest.approx(np.percentile(margin, q), abs=1e-9)

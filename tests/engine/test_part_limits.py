@@ -1,4 +1,5 @@
 """Part limits as datasheets give them (engine/part_limits.py; README "File formats", the preset file)."""
+
 import math
 
 import numpy as np
@@ -9,7 +10,7 @@ from railroom.engine.files import chain_from_text
 from railroom.engine.presets import parts_from_text
 from railroom.engine.report import chain_report
 
-BASE = '''description = "test class (illustrative values)"
+BASE = """description = "test class (illustrative values)"
 supply = ["4", "36"]
 supply_abs_max = "40"
 output_headroom = ["1", "1"]
@@ -19,7 +20,7 @@ slew = "1V/us"
 open_loop_gain = "100dB"
 offset = "0"
 output_current = "20m"
-'''
+"""
 
 
 def part_of(extra: str = "", part_id: str = "p"):
@@ -34,8 +35,14 @@ def problems_of(extra: str):
     return problems
 
 
-def follower(temperature="[25, 25]", level='["0", "1"]', stage_extra="", positive="12",
-             negative="-12", block="follower"):
+def follower(
+    temperature="[25, 25]",
+    level='["0", "1"]',
+    stage_extra="",
+    positive="12",
+    negative="-12",
+    block="follower",
+):
     return f'''format = 1
 [conditions]
 temperature = {temperature}
@@ -58,14 +65,16 @@ def run(text: str, parts, **kw):
 
 # --- 1. temperature_range ----------------------------------------------------------------
 
+
 def test_a_chain_range_outside_the_rated_range_is_a_caution_naming_part_and_stage():
     # the definition in the README: the rated ambient range must hold the chain's whole range
     parts = part_of('temperature_range = ["0", "70"]\n')
     hot = run(follower("[-40, 85]"), parts)
     (caution,) = hot.stages[0].cautions
     assert "'p'" in caution and "[0, 70]" in caution and "[-40, 85]" in caution
-    assert any(c.startswith("stage 1 (buffer):") and "rated range" in c
-               for c in chain_report(hot)["cautions"])
+    assert any(
+        c.startswith("stage 1 (buffer):") and "rated range" in c for c in chain_report(hot)["cautions"]
+    )
     assert run(follower("[0, 70]"), parts).stages[0].cautions == ()
     assert run(follower("[0, 71]"), parts).stages[0].cautions != ()
 
@@ -77,6 +86,7 @@ def test_a_rated_range_given_high_to_low_is_a_located_error():
 
 
 # --- 2. bias_current_doubling --------------------------------------------------------------
+
 
 def source_follower(temperature: str, method: str = "corners") -> str:
     return f'''format = 1
@@ -100,10 +110,11 @@ part = "p"
 def test_the_doubling_rule_gives_the_bias_at_the_hottest_temperature():
     # common practice for FET inputs: Ib(T) = Ib(25 C) 2^((T - 25)/N); N = 10 C, 125 C: 2^10 = 1024
     from railroom.engine.part_limits import bias_at
+
     (part,) = part_of('bias_current = "10p"\nbias_current_doubling = "10"\n').values()
     assert bias_at(part, 125.0) == pytest.approx(10e-12 * 1024, rel=1e-12)
     assert bias_at(part, 35.0) == pytest.approx(20e-12, rel=1e-12)
-    assert bias_at(part, -40.0) == 10e-12          # no doubling below 25 C
+    assert bias_at(part, -40.0) == 10e-12  # no doubling below 25 C
 
 
 def test_the_doubled_bias_through_the_source_impedance_moves_the_output_and_the_verdict():
@@ -114,7 +125,7 @@ def test_the_doubled_bias_through_the_source_impedance_moves_the_output_and_the_
     doubling = part_of('bias_current = "10p"\nbias_current_doubling = "10"\n')
     cold = run(source_follower("[25, 125]"), flat).stages[0]
     hot = run(source_follower("[25, 125]"), doubling).stages[0]
-    follow = 1e5 / (1 + 1e5)          # Black's formula A / (1 + A beta), beta = 1, A = 100 dB
+    follow = 1e5 / (1 + 1e5)  # Black's formula A / (1 + A beta), beta = 1, A = 100 dB
     assert cold.measure.output[1] == pytest.approx((10.95 + 10e-12 * 10e6) * follow, abs=1e-9)
     assert hot.measure.output[1] == pytest.approx((10.95 + 10.24e-9 * 10e6) * follow, abs=1e-9)
     assert cold.go and not hot.go and "output-high" in hot.reasons
@@ -133,6 +144,7 @@ def test_every_method_uses_the_doubled_bias():
 
 
 # --- 3. input_differential_max -------------------------------------------------------------
+
 
 def alarm(block_fields: str, level='["0", "5"]', method="corners", part="p") -> str:
     return f'''format = 1
@@ -177,6 +189,7 @@ def test_the_report_and_the_table_carry_the_input_differential_check():
     assert "input-differential" in report["stages"][0]["reasons"] and report["verdict"] == "no-go"
     from railroom.engine.schema import report_schema
     import jsonschema
+
     jsonschema.validate(report, report_schema())
 
 
@@ -192,6 +205,7 @@ def test_a_schmitt_trigger_plus_input_against_its_reference():
 
 
 # --- 4. phase_reversal ---------------------------------------------------------------------
+
 
 def test_phase_reversal_is_a_caution_where_the_input_range_check_fails():
     # a follower on +/-12 V with 1 V input headroom: its common-mode range ends at 11 V (README,
@@ -231,7 +245,7 @@ def test_a_swing_curve_read_at_two_currents():
     # 1 + (8/10)(2 - 1) = 1.8 V -> floor -10.2 V. Each side by its own direction of current.
     stage = run(loaded_follower('["-8", "9"]'), part_of(CURVE)).stages[0]
     (amp,) = stage.measure.opamps
-    gain = 1e5 / (1 + 1e5)          # Black's formula: the follower's output is 9 A/(1 + A)
+    gain = 1e5 / (1 + 1e5)  # Black's formula: the follower's output is 9 A/(1 + A)
     upper = 1 + (9 * gain / 10) * 0.5
     lower = 1 + (8 * gain / 10) * 1.0
     assert amp.window == pytest.approx((-12 + lower, 12 - upper), abs=1e-9)
@@ -242,26 +256,33 @@ def test_the_curve_replaces_the_output_resistance_and_can_change_the_verdict():
     # 9 V into 1 kohm: with 50 ohm the headroom is 1 + 50 x 9 mA = 1.45 V (GO, 1.55 V of room);
     # the curve below gives 1.5 + (4/5)(3.5 - 1.5) = 3.1 V at 9 mA: ceiling 8.9 V, NO-GO
     resistive = part_of('output_resistance = "50"\n')
-    steep = part_of('output_resistance = "50"\noutput_headroom_curve = [["0", "1", "1"], '
-                    '["5m", "1.5", "1.5"], ["10m", "3.5", "3.5"]]\n')
+    steep = part_of(
+        'output_resistance = "50"\noutput_headroom_curve = [["0", "1", "1"], '
+        '["5m", "1.5", "1.5"], ["10m", "3.5", "3.5"]]\n'
+    )
     text = loaded_follower('["0", "9"]')
     gain = 1e5 / (1 + 1e5)
     assert run(text, resistive).stages[0].margins["output-high"] == pytest.approx(
-        12 - 1 - 50 * 9e-3 * gain - 9 * gain, abs=1e-9)
+        12 - 1 - 50 * 9e-3 * gain - 9 * gain, abs=1e-9
+    )
     bent = run(text, steep).stages[0]
     assert bent.margins["output-high"] == pytest.approx(
-        12 - (1.5 + (9 * gain - 5) / 5 * 2.0) - 9 * gain, abs=1e-9)
+        12 - (1.5 + (9 * gain - 5) / 5 * 2.0) - 9 * gain, abs=1e-9
+    )
     assert not bent.go and run(text, resistive).stages[0].go
-    for method in ("rss", "montecarlo"):          # the draws use the same curve
+    for method in ("rss", "montecarlo"):  # the draws use the same curve
         assert not run(text, steep, method=method).stages[0].go, method
 
 
-@pytest.mark.parametrize("curve, words", [
-    ('[["0", "1", "1"], ["10m", "0.8", "2"]]', "not monotonic"),
-    ('[["-1m", "1", "1"], ["10m", "2", "2"]]', "negative current"),
-    ('[["10m", "2", "2"], ["0", "1", "1"]]', "must rise"),
-    ('[["0", "1"]]', "expected points"),
-])
+@pytest.mark.parametrize(
+    "curve, words",
+    [
+        ('[["0", "1", "1"], ["10m", "0.8", "2"]]', "not monotonic"),
+        ('[["-1m", "1", "1"], ["10m", "2", "2"]]', "negative current"),
+        ('[["10m", "2", "2"], ["0", "1", "1"]]', "must rise"),
+        ('[["0", "1"]]', "expected points"),
+    ],
+)
 def test_a_bad_curve_is_a_located_error(curve, words):
     (problem,) = problems_of(f"output_headroom_curve = {curve}\n")
     assert problem.file == "lab.toml" and problem.line == 12
@@ -273,6 +294,7 @@ def test_a_comparator_level_follows_the_curve():
     # and at -11 V, 11 mA sunk: 2 + (1/10)(3 - 2) = 2.1 V above the negative rail
     from railroom.engine.model import Rails
     from railroom.engine.opamp import saturated_levels
+
     (part,) = part_of(CURVE).values()
     (low_min, low_max), (high_min, high_max) = saturated_levels(part, Rails("main", 12, -12), 1e-3)
     assert high_min == pytest.approx(12 - 1.6, abs=1e-9) and high_max == 11.0
@@ -281,10 +303,12 @@ def test_a_comparator_level_follows_the_curve():
 
 # --- 6. capacitive load: the phase-margin estimate -----------------------------------------
 
+
 def exact_two_pole_margin(gbw: float, noise_gain: float, f_p2: float, a0: float = 1e5) -> float:
     """The phase margin of the loop T(s) = A(s)/NG/(1 + s/wp2), A one-pole (A0, gbw/A0), found
     with scipy.signal on a dense grid: |T| = 1 by interpolation, margin = 180° + angle T."""
     from scipy import signal
+
     w1, w2 = 2 * math.pi * gbw / a0, 2 * math.pi * f_p2
     loop = signal.TransferFunction([a0 / noise_gain * w1 * w2], [1, w1 + w2, w1 * w2])
     w = np.logspace(math.log10(w1), math.log10(100 * 2 * math.pi * gbw), 200001)
@@ -299,8 +323,9 @@ def test_the_estimate_against_the_textbook_two_pole_result():
     # estimate is 90° - atan(1) = 45°; the exact crossover is lower, at x f_c with
     # x^4 + x^2 - 1 = 0 (|T| = 1: 1 / (x^2 (1 + x^2)) = 1), x = 0.786, margin 51.8°
     from railroom.engine.part_limits import phase_margin_deg
+
     ro = 100.0
-    c = 1 / (2 * math.pi * ro * 1e6)                     # f_p2 = 1 MHz
+    c = 1 / (2 * math.pi * ro * 1e6)  # f_p2 = 1 MHz
     assert phase_margin_deg(1e6, 1.0, ro, c) == pytest.approx(45.0, abs=1e-9)
     x = math.sqrt((math.sqrt(5) - 1) / 2)
     exact = 90 - math.degrees(math.atan(x))
@@ -320,7 +345,8 @@ def test_a_follower_with_a_capacitive_load_gets_the_estimate_and_the_caution():
     assert at_45.measure.phase_margin_deg == pytest.approx(45.0, abs=1e-3)
     heavy = run(follower(stage_extra='load_capacitance = "10n"'), parts)
     assert heavy.stages[0].measure.phase_margin_deg == pytest.approx(
-        90 - math.degrees(math.atan(2 * math.pi * 100 * 10e-9 * 1e6)), rel=1e-6)
+        90 - math.degrees(math.atan(2 * math.pi * 100 * 10e-9 * 1e6)), rel=1e-6
+    )
     assert any("phase margin 9°" in c for c in heavy.stages[0].cautions)
     assert chain_report(heavy)["stages"][0]["phase_margin_deg"] == pytest.approx(9.04, abs=0.01)
     light = run(follower(stage_extra='load_capacitance = "100p"'), parts).stages[0]
@@ -335,7 +361,8 @@ def test_a_gain_of_two_halves_the_crossover():
     fields = 'rf = "10k"\nrg = "10k"\nload_capacitance = "10n"'
     stage = run(follower(block="noninverting", stage_extra=fields), parts).stages[0]
     assert stage.measure.phase_margin_deg == pytest.approx(
-        90 - math.degrees(math.atan(2 * math.pi * 100 * 10e-9 * 0.5e6)), abs=0.01)
+        90 - math.degrees(math.atan(2 * math.pi * 100 * 10e-9 * 0.5e6)), abs=0.01
+    )
 
 
 def test_a_clipping_feedback_stage_is_checked_against_input_differential_max():
@@ -347,7 +374,7 @@ def test_a_clipping_feedback_stage_is_checked_against_input_differential_max():
     parts = part_of(f'input_differential_max = "{limit}"\n')
     text = follower(block="noninverting", level='["0", "1.5"]', stage_extra='rf = "90k"\nrg = "10k"')
     stage = run(text, parts).stages[0]
-    closed = 1 / (1e-5 + 0.1)                  # Black's formula, A0 = 1e5, beta = 0.1
+    closed = 1 / (1e-5 + 0.1)  # Black's formula, A0 = 1e5, beta = 0.1
     ideal = 1.5 * closed
     expected = (ideal - 11.0) / closed + ideal * (1e-5 + 1.0 / 1e6)
     assert stage.regime == "clipping"
@@ -355,18 +382,23 @@ def test_a_clipping_feedback_stage_is_checked_against_input_differential_max():
     assert expected == pytest.approx(0.4, abs=1e-3)
     assert "input-differential" in stage.reasons
     # the same stage in its linear range is not checked (its loop holds the inputs together)
-    linear = run(follower(block="noninverting", level='["0", "1.0"]',
-                          stage_extra='rf = "90k"\nrg = "10k"'), parts).stages[0]
+    linear = run(
+        follower(block="noninverting", level='["0", "1.0"]', stage_extra='rf = "90k"\nrg = "10k"'), parts
+    ).stages[0]
     assert linear.regime == "linear" and "input-differential" not in linear.margins
 
 
 # --- the fields in the tools -----------------------------------------------------------------
 
-@pytest.mark.parametrize("line, field, words", [
-    ('bias_current_doubling = "-10"\n', "bias_current_doubling", "0 (no doubling) or more"),
-    ('input_differential_max = "-1"\n', "input_differential_max", "0 (not rated) or more"),
-    ('input_differential_max = "lots"\n', "input_differential_max", "voltage"),
-])
+
+@pytest.mark.parametrize(
+    "line, field, words",
+    [
+        ('bias_current_doubling = "-10"\n', "bias_current_doubling", "0 (no doubling) or more"),
+        ('input_differential_max = "-1"\n', "input_differential_max", "0 (not rated) or more"),
+        ('input_differential_max = "lots"\n', "input_differential_max", "voltage"),
+    ],
+)
 def test_a_bad_limit_is_a_located_error(line, field, words):
     (problem,) = problems_of(line)
     assert problem.field == f"part.p.{field}" and problem.line == 12 and words in problem.message
@@ -374,8 +406,11 @@ def test_a_bad_limit_is_a_located_error(line, field, words):
 
 def test_presets_show_prints_every_limit_in_units():
     from railroom.tui.presets_command import part_lines
-    (part,) = part_of('temperature_range = ["-40", "125"]\nbias_current_doubling = "10"\n'
-                      'input_differential_max = "0.7"\nphase_reversal = true\n' + CURVE).values()
+
+    (part,) = part_of(
+        'temperature_range = ["-40", "125"]\nbias_current_doubling = "10"\n'
+        'input_differential_max = "0.7"\nphase_reversal = true\n' + CURVE
+    ).values()
     text = "\n".join(part_lines(part))
     assert "temperature_range  -40 to 125 °C" in text
     assert "doubles every 10 °C above 25 °C" in text
@@ -391,6 +426,7 @@ def test_the_shipped_presets_carry_the_limits_and_follow_the_schema():
     import tomllib
     from railroom.engine.presets import read_preset_file, shipped_folder
     from railroom.engine.schema import preset_schema
+
     path = shipped_folder() / "generic.toml"
     parts, problems = read_preset_file(path)
     assert problems == []
@@ -403,9 +439,9 @@ def test_the_shipped_presets_carry_the_limits_and_follow_the_schema():
 def test_the_form_writes_a_flag_as_a_boolean_and_a_curve_as_points():
     import tomlkit
     from railroom.engine.preset_editing import raw_fields, set_fields
+
     text = f"[part.p]\n{BASE}"
-    edited = set_fields(text, "p", {"phase_reversal": "true",
-                                    "output_headroom_curve": "0 1 1; 10m 1.5 2"})
+    edited = set_fields(text, "p", {"phase_reversal": "true", "output_headroom_curve": "0 1 1; 10m 1.5 2"})
     table = tomlkit.parse(edited)["part"]["p"]
     assert table["phase_reversal"] is True
     assert table["output_headroom_curve"] == [["0", "1", "1"], ["10m", "1.5", "2"]]

@@ -1,4 +1,5 @@
 """Editing preset files: only the edited text changes, saves are atomic, nothing is ever lost."""
+
 from __future__ import annotations
 
 import os
@@ -9,11 +10,27 @@ import pytest
 
 from railroom.engine.model import InputError
 from railroom.engine.preset_editing import (
-    ChangedOnDisk, PresetEditError, check_part_id, copy_part, delete_part, editing_target,
-    open_preset_file, raw_fields, rename_part, save_preset_text, set_fields)
-from railroom.engine.presets import (load_library, parts_from_text, read_preset_file, sanity_problems,
-                                     search_order, shipped_folder,
-                                     user_folder)
+    ChangedOnDisk,
+    PresetEditError,
+    check_part_id,
+    copy_part,
+    delete_part,
+    editing_target,
+    open_preset_file,
+    raw_fields,
+    rename_part,
+    save_preset_text,
+    set_fields,
+)
+from railroom.engine.presets import (
+    load_library,
+    parts_from_text,
+    read_preset_file,
+    sanity_problems,
+    search_order,
+    shipped_folder,
+    user_folder,
+)
 
 LAB = """\
 # Our lab's parts. Derated 20 % on gbw and slew, house rule.
@@ -54,8 +71,11 @@ def changed_lines(old: str, new: str) -> list[tuple[str, str]]:
 def test_set_field_changes_only_that_line_and_keeps_its_comment():
     new = set_fields(LAB, "lab-audio", {"gbw": "2.5M"})
     assert changed_lines(LAB, new) == [
-        ('gbw = "3M"                       # derated from 4M',
-         'gbw = "2.5M"                       # derated from 4M')]
+        (
+            'gbw = "3M"                       # derated from 4M',
+            'gbw = "2.5M"                       # derated from 4M',
+        )
+    ]
     parts, problems = parts_from_text(new, "lab.toml")
     assert problems == []
     assert {p.id: p.gbw for p in parts} == {"lab-audio": 2.5e6, "lab-sensor": 1e6}
@@ -64,8 +84,9 @@ def test_set_field_changes_only_that_line_and_keeps_its_comment():
 def test_unedited_part_is_byte_for_byte_unchanged_and_same_value_is_no_edit():
     new = set_fields(LAB, "lab-audio", {"supply": ("12", "36"), "offset": "3m"})
     assert new.split("# single supply")[1] == LAB.split("# single supply")[1]
-    assert changed_lines(LAB, new) == [('supply = ["10", "36"]            # total span',
-                                        'supply = ["12", "36"]            # total span')]
+    assert changed_lines(LAB, new) == [
+        ('supply = ["10", "36"]            # total span', 'supply = ["12", "36"]            # total span')
+    ]
 
 
 def test_new_optional_field_goes_in_order_and_removing_it_restores_the_text():
@@ -86,8 +107,9 @@ def test_raw_fields_are_as_written():
 
 def test_rename_touches_only_the_header():
     new = rename_part(LAB, "lab-audio", "lab-audio-v2")
-    assert changed_lines(LAB, new) == [("[part.lab-audio]   # the usual audio part",
-                                        "[part.lab-audio-v2]   # the usual audio part")]
+    assert changed_lines(LAB, new) == [
+        ("[part.lab-audio]   # the usual audio part", "[part.lab-audio-v2]   # the usual audio part")
+    ]
 
 
 def test_delete_keeps_the_next_parts_comment_and_everything_else():
@@ -104,9 +126,10 @@ def test_delete_keeps_the_next_parts_comment_and_everything_else():
 def test_copy_carries_comments_and_reads_back():
     new = copy_part(LAB, "lab-sensor", LAB, "lab-sensor-b")
     assert new.startswith(LAB)
-    assert new[len(LAB):].startswith(
-        '\n# single supply sensor front end\n[part.lab-sensor-b]\ndescription = "sensor rro"\n')
-    assert "odd spacing on purpose" in new[len(LAB):]
+    assert new[len(LAB) :].startswith(
+        '\n# single supply sensor front end\n[part.lab-sensor-b]\ndescription = "sensor rro"\n'
+    )
+    assert "odd spacing on purpose" in new[len(LAB) :]
     assert [p.id for p in parts_from_text(new, "x")[0]] == ["lab-audio", "lab-sensor", "lab-sensor-b"]
     assert copy_part(LAB, "lab-audio", "", "x").startswith("[part.x]   # the usual audio part\n")
 
@@ -189,7 +212,8 @@ def test_editing_a_shipped_preset_writes_to_the_users_folder():
 def test_broken_file_is_reported_and_good_presets_still_load(tmp_path):
     (tmp_path / "good.toml").write_text(LAB, encoding="utf-8")
     (tmp_path / "broken.toml").write_text(
-        LAB.replace('gbw = "1M"', 'gbw = "fast"').replace("lab-", "other-"), encoding="utf-8")
+        LAB.replace('gbw = "1M"', 'gbw = "fast"').replace("lab-", "other-"), encoding="utf-8"
+    )
     (tmp_path / "garbled.toml").write_text("[part.x\n", encoding="utf-8")
     library = load_library([tmp_path])
     assert {"lab-audio", "lab-sensor", "other-audio"} <= set(library.parts)
@@ -203,7 +227,8 @@ def test_sanity_catches_the_implausible():
     (part,) = [p for p in parts_from_text(LAB, "x")[0] if p.id == "lab-audio"]
     assert sanity_problems(part) == []
     cases = {
-        "gbw": replace(part, gbw=0.0), "slew": replace(part, slew=-1.0),
+        "gbw": replace(part, gbw=0.0),
+        "slew": replace(part, slew=-1.0),
         "open_loop_gain": replace(part, open_loop_gain=0.5),
         "output_headroom": replace(part, output_headroom=(6.0, 5.0)),  # 11 V > the 10 V smallest supply
         "input_headroom": replace(part, input_headroom=(5.0, 5.0)),

@@ -1,4 +1,5 @@
 """`railroom presets` through the installed command, as a user runs it over SSH."""
+
 from __future__ import annotations
 
 import os
@@ -39,8 +40,13 @@ output_current = "20m"
 
 def railroom(*args: str, home: Path) -> subprocess.CompletedProcess:
     env = {**os.environ, "RAILROOM_PRESETS_HOME": str(home), "COLUMNS": "200"}
-    return subprocess.run([sys.executable, "-m", "railroom.tui.cli", "presets", *args],
-                          capture_output=True, text=True, env=env, timeout=30)
+    return subprocess.run(
+        [sys.executable, "-m", "railroom.tui.cli", "presets", *args],
+        capture_output=True,
+        text=True,
+        env=env,
+        timeout=30,
+    )
 
 
 def test_list_shows_folders_and_overrides(tmp_path):

@@ -1,4 +1,5 @@
 """Monte Carlo tells its caller how far it is, and stops when asked (the interface's worker)."""
+
 from __future__ import annotations
 
 from pathlib import Path

@@ -6,6 +6,7 @@ has, with normal tolerances (d = 3 sigma), P(m < 0) = Phi(-m0 / sd), sd = sqrt(0
 (a sum of independent normals is normal: any probability text). With uniform tolerances the
 offset term averages out of the linear case: P = (1 - m0 / 0.75) / 2 while |m0| <= 0.75 - 0.003.
 """
+
 from __future__ import annotations
 
 import math
@@ -24,10 +25,22 @@ from railroom.engine.plan import plan_chain
 from railroom.engine.report import chain_report
 from railroom.engine.sensitivity import linearise
 
-PART = Part(id="amp", description="", supply=(1.0, 100.0), supply_abs_max=100.0,
-            output_headroom=(1.5, 1.5), output_resistance=0.0, input_headroom=(0.5, 0.5),
-            gbw=1e9, slew=1e9, open_loop_gain=1e9, offset=3e-3, offset_drift=0.0,
-            bias_current=0.0, output_current=1.0)
+PART = Part(
+    id="amp",
+    description="",
+    supply=(1.0, 100.0),
+    supply_abs_max=100.0,
+    output_headroom=(1.5, 1.5),
+    output_resistance=0.0,
+    input_headroom=(0.5, 0.5),
+    gbw=1e9,
+    slew=1e9,
+    open_loop_gain=1e9,
+    offset=3e-3,
+    offset_drift=0.0,
+    bias_current=0.0,
+    output_current=1.0,
+)
 TEXT = """format = 1
 [conditions]
 method = "montecarlo"
@@ -59,24 +72,24 @@ def _layout(dist: str, level: float, samples: int = 10000):
 def test_erfc_matches_the_standard_library():
     x = np.linspace(-6.0, 9.0, 301)
     reference = np.array([math.erfc(v) for v in x])
-    assert np.max(np.abs(erfc(x) / reference - 1)) < 1.2e-7     # Numerical Recipes' stated bound
+    assert np.max(np.abs(erfc(x) / reference - 1)) < 1.2e-7  # Numerical Recipes' stated bound
 
 
 @pytest.mark.parametrize("level, m0", [(12.31, 1.19), (12.9, 0.6)])
 def test_normal_tolerances_against_the_closed_form(level, m0):
     _, layout, lin = _layout("normal", level)
     found = estimate(layout, lin, seed=5)
-    exact = float(normal_tail(np.array(m0 / SD)))      # 9.68e-7 and 8.20e-3
+    exact = float(normal_tail(np.array(m0 / SD)))  # 9.68e-7 and 8.20e-3
     assert found.low <= exact <= found.high
     assert exact / 2 < found.probability < exact * 2  # the target: a factor of 2 at 95 %
-    assert found.beta == pytest.approx(m0 / SD, rel=1e-6)   # the design point is exact (linear)
+    assert found.beta == pytest.approx(m0 / SD, rel=1e-6)  # the design point is exact (linear)
 
 
 @pytest.mark.parametrize("level", [12.9, 12.76])
 def test_uniform_tolerances_against_the_closed_form(level):
     _, layout, lin = _layout("uniform", level)
     found = estimate(layout, lin, seed=2)
-    exact = (1 - (13.5 - level) / 0.75) / 2           # 0.1 and 0.00667
+    exact = (1 - (13.5 - level) / 0.75) / 2  # 0.1 and 0.00667
     assert found.low <= exact <= found.high
 
 
@@ -111,7 +124,7 @@ def test_the_report_quotes_yield_with_its_interval_and_the_small_probability():
     assert report["yield"] == 1.0
     low, high = report["yield_interval"]
     # Wilson with no failure: low = n / (n + z^2), z = 1.96
-    assert high == 1.0 and 1 - low == pytest.approx(1.96 ** 2 / (5000 + 1.96 ** 2), rel=1e-3)
+    assert high == 1.0 and 1 - low == pytest.approx(1.96**2 / (5000 + 1.96**2), rel=1e-3)
     fp = report["failure_probability"]
     assert fp["method"] == "importance sampling" and fp["low"] <= 9.68e-7 <= fp["high"]
     assert "no draw of 5,000 left the linear regime" in yield_words(1.0, 5000, None)

@@ -3,6 +3,7 @@
 The report is checked twice: against a schema transcribed here by hand from SPEC section 5 (the
 contract, independent of the code), and against the schema `railroom schema report` prints.
 """
+
 from __future__ import annotations
 
 import copy
@@ -39,35 +40,93 @@ NUM = {"type": ["number", "null"]}
 # SPEC section 5, transcribed: keys, their types and the listed word choices.
 SPEC_REPORT = {
     "type": "object",
-    "required": ["format", "title", "verdict", "method", "samples", "headroom_db", "cautions",
-                 "stages"],
+    "required": ["format", "title", "verdict", "method", "samples", "headroom_db", "cautions", "stages"],
     "properties": {
-        "format": {"const": 1}, "title": {"type": "string"}, "verdict": {"enum": ["go", "no-go"]},
+        "format": {"const": 1},
+        "title": {"type": "string"},
+        "verdict": {"enum": ["go", "no-go"]},
         "method": {"enum": ["corners", "rss", "montecarlo"]},
-        "samples": {"type": ["integer", "null"]}, "headroom_db": NUM,
+        "samples": {"type": ["integer", "null"]},
+        "headroom_db": NUM,
         "cautions": {"type": "array", "items": {"type": "string"}},
-        "stages": {"type": "array", "items": {
-            "type": "object",
-            "required": ["index", "name", "block", "part", "regime", "go", "reasons", "gain_error",
-                         "limiting", "output", "window", "input", "margins", "probability"],
-            "properties": {
-                "index": {"type": "integer"}, "name": {"type": "string"},
-                "block": {"type": "string"}, "part": {"type": ["string", "null"]},
-                "regime": {"enum": ["linear", "clipping", "saturated"]}, "go": {"type": "boolean"},
-                "reasons": {"type": "array", "items": {"enum": [
-                    "output-high", "output-low", "input-high", "input-low", "slew", "current",
-                    "supply", "fed-clipped"]}},
-                "gain_error": NUM, "limiting": {"type": ["string", "null"]},
-                "output": {"type": "object", "required": ["min", "max", "nominal"],
-                           "properties": {"min": NUM, "max": NUM, "nominal": {
-                               "type": "array", "items": NUM, "minItems": 2, "maxItems": 2}}},
-                "window": {"anyOf": [{"type": "null"}, {"type": "object", "required": ["low", "high"],
-                                                        "properties": {"low": NUM, "high": NUM}}]},
-                "input": {"anyOf": [{"type": "null"}, {"type": "object", "required": ["min", "max"],
-                                                       "properties": {"min": NUM, "max": NUM}}]},
-                "margins": {"type": "object", "additionalProperties": NUM},
-                "probability": NUM,
-            }}},
+        "stages": {
+            "type": "array",
+            "items": {
+                "type": "object",
+                "required": [
+                    "index",
+                    "name",
+                    "block",
+                    "part",
+                    "regime",
+                    "go",
+                    "reasons",
+                    "gain_error",
+                    "limiting",
+                    "output",
+                    "window",
+                    "input",
+                    "margins",
+                    "probability",
+                ],
+                "properties": {
+                    "index": {"type": "integer"},
+                    "name": {"type": "string"},
+                    "block": {"type": "string"},
+                    "part": {"type": ["string", "null"]},
+                    "regime": {"enum": ["linear", "clipping", "saturated"]},
+                    "go": {"type": "boolean"},
+                    "reasons": {
+                        "type": "array",
+                        "items": {
+                            "enum": [
+                                "output-high",
+                                "output-low",
+                                "input-high",
+                                "input-low",
+                                "slew",
+                                "current",
+                                "supply",
+                                "fed-clipped",
+                            ]
+                        },
+                    },
+                    "gain_error": NUM,
+                    "limiting": {"type": ["string", "null"]},
+                    "output": {
+                        "type": "object",
+                        "required": ["min", "max", "nominal"],
+                        "properties": {
+                            "min": NUM,
+                            "max": NUM,
+                            "nominal": {"type": "array", "items": NUM, "minItems": 2, "maxItems": 2},
+                        },
+                    },
+                    "window": {
+                        "anyOf": [
+                            {"type": "null"},
+                            {
+                                "type": "object",
+                                "required": ["low", "high"],
+                                "properties": {"low": NUM, "high": NUM},
+                            },
+                        ]
+                    },
+                    "input": {
+                        "anyOf": [
+                            {"type": "null"},
+                            {
+                                "type": "object",
+                                "required": ["min", "max"],
+                                "properties": {"min": NUM, "max": NUM},
+                            },
+                        ]
+                    },
+                    "margins": {"type": "object", "additionalProperties": NUM},
+                    "probability": NUM,
+                },
+            },
+        },
     },
 }
 
@@ -77,8 +136,9 @@ def report_of(path: Path, **options) -> dict:
     return chain_report(analyse(chain, library.parts, **options))
 
 
-@pytest.mark.parametrize("options", [{}, {"method": "montecarlo", "samples": 2000, "seed": 3}],
-                         ids=["corners", "montecarlo"])
+@pytest.mark.parametrize(
+    "options", [{}, {"method": "montecarlo", "samples": 2000, "seed": 3}], ids=["corners", "montecarlo"]
+)
 @pytest.mark.parametrize("path", DEMOS, ids=lambda p: p.stem)
 def test_json_report_of_every_demo_follows_spec_section_5(path, options):
     report = json.loads(json.dumps(report_of(path, **options), allow_nan=False))
@@ -90,8 +150,13 @@ def test_json_report_of_every_demo_follows_spec_section_5(path, options):
 def test_every_schema_is_a_valid_draft_7_schema_and_printed_by_the_command():
     for kind, build in SCHEMAS.items():
         Draft7Validator.check_schema(build())
-        out = subprocess.run([sys.executable, "-m", "railroom.tui.cli", "schema", kind],
-                             capture_output=True, text=True, timeout=60, check=True)
+        out = subprocess.run(
+            [sys.executable, "-m", "railroom.tui.cli", "schema", kind],
+            capture_output=True,
+            text=True,
+            timeout=60,
+            check=True,
+        )
         assert json.loads(out.stdout) == build()
 
 
@@ -126,6 +191,7 @@ def broken_chains():
         data = demo()
         edit(data)
         return data
+
     yield "unknown top key", change(lambda d: d.update(colour="red"))
     yield "format 2", change(lambda d: d.update(format=2))
     yield "unknown method", change(lambda d: d["conditions"].update(method="fast"))
@@ -147,11 +213,13 @@ def broken_chains():
 def broken_presets():
     base = tomllib.loads(GENERIC_PRESETS.read_text(encoding="utf-8"))
     first = next(iter(base["part"]))
-    for name, edit in [("missing gbw", lambda p: p.pop("gbw")),
-                       ("unknown field", lambda p: p.update(gbw_typ="1M")),
-                       ("supply not a pair", lambda p: p.update(supply="5")),
-                       ("negative slew", lambda p: p.update(slew="-1V/us")),
-                       ("description not text", lambda p: p.update(description=3))]:
+    for name, edit in [
+        ("missing gbw", lambda p: p.pop("gbw")),
+        ("unknown field", lambda p: p.update(gbw_typ="1M")),
+        ("supply not a pair", lambda p: p.update(supply="5")),
+        ("negative slew", lambda p: p.update(slew="-1V/us")),
+        ("description not text", lambda p: p.update(description=3)),
+    ]:
         data = copy.deepcopy(base)
         edit(data["part"][first])
         yield name, data
@@ -159,6 +227,7 @@ def broken_presets():
 
 def to_toml(data: dict) -> str:
     import tomlkit
+
     return tomlkit.dumps(data)
 
 
@@ -175,8 +244,13 @@ def test_preset_schema_rejects_what_the_loader_refuses(name, data):
     assert parts_from_text(to_toml(data), "broken.toml")[1]
 
 
-SETTINGS = settings(max_examples=300, deadline=None, database=None, derandomize=not EXPLORE,
-                    suppress_health_check=list(HealthCheck))
+SETTINGS = settings(
+    max_examples=300,
+    deadline=None,
+    database=None,
+    derandomize=not EXPLORE,
+    suppress_health_check=list(HealthCheck),
+)
 
 
 @SETTINGS

@@ -1,6 +1,7 @@
 """Text that reaches a terminal (issue 12 item 10): a file name standing in for the title, titles,
 names, paths and messages are shown with what a terminal would act on as visible escapes; the
 Markdown report makes no link of a bare address and passes no HTML entity through."""
+
 from __future__ import annotations
 
 import json
@@ -14,8 +15,7 @@ from command_line import railroom
 # aside), DEL, C1 (ECMA-48), U+2028/2029 (Unicode line and paragraph separators), zero-width and
 # direction marks (U+200B..U+200F), embeddings and overrides (U+202A..U+202E), isolates
 # (U+2066..U+2069), the zero-width no-break space U+FEFF (Unicode TR9 and the Unicode standard, 23.2).
-RAW = re.compile("[\x00-\x09\x0b-\x1f\x7f-\x9f\u2028\u2029\u200b-\u200f\u202a-\u202e"
-                 "\u2066-\u2069\ufeff]")
+RAW = re.compile("[\x00-\x09\x0b-\x1f\x7f-\x9f\u2028\u2029\u200b-\u200f\u202a-\u202e\u2066-\u2069\ufeff]")
 HOSTILE_NAME = "\x1b]52;c;aGVsbG8=\x07\x1b[2J\u2028\u202eevil\u200b"
 CHAIN = X10_CHAIN
 
@@ -69,6 +69,7 @@ def test_an_error_about_a_hostile_file_name_is_escaped(tmp_path, home):
 
 def test_presets_list_and_show_escape_folder_and_file_names(tmp_path, home):
     from railroom.engine.presets import shipped_folder
+
     folder = tmp_path / f"lab{HOSTILE_NAME}"
     folder.mkdir()
     shipped = (shipped_folder() / "generic.toml").read_text(encoding="utf-8")
@@ -83,15 +84,18 @@ def test_presets_list_and_show_escape_folder_and_file_names(tmp_path, home):
 
 def test_markdown_makes_no_link_of_a_bare_address_and_escapes_entities(tmp_path, home):
     path = tmp_path / "board.toml"
-    path.write_text('title = "see https://evil.example/x and www.evil.example or a@evil.example"\n'
-                    + CHAIN.replace('[[stage]]\n', '[[stage]]\nname = "gain &#x202E; &amp; x"\n'),
-                    encoding="utf-8")
+    path.write_text(
+        'title = "see https://evil.example/x and www.evil.example or a@evil.example"\n'
+        + CHAIN.replace("[[stage]]\n", '[[stage]]\nname = "gain &#x202E; &amp; x"\n'),
+        encoding="utf-8",
+    )
     done = railroom("check", str(path), "--markdown", home=home)
     assert done.returncode == 0, done.stderr
     heading = done.stdout.splitlines()[0]
     # GFM spec 0.29, 6.9: text inside a code span is never an autolink.
-    assert heading == ("# Rail headroom review: see `https://evil.example/x` and "
-                       "`www.evil.example` or `a@evil.example`")
+    assert heading == (
+        "# Rail headroom review: see `https://evil.example/x` and `www.evil.example` or `a@evil.example`"
+    )
     # CommonMark 0.30, 2.4: a backslash-escaped & starts no entity reference; inside the
     # level diagram's fenced code block (4.5) text is literal anyway.
     assert r"gain \&#x202E; \&amp; x" in done.stdout
@@ -102,5 +106,6 @@ def test_markdown_makes_no_link_of_a_bare_address_and_escapes_entities(tmp_path,
 
 def test_a_problem_reads_as_text_whatever_its_file_name():
     from railroom.engine.model import Problem
+
     problem = Problem(f"/boards/{HOSTILE_NAME}.toml", 3, "stage.1.rf", "expected a resistance")
     assert str(problem) == f"/boards/{SHOWN}.toml:3: stage.1.rf: expected a resistance"

@@ -1,5 +1,6 @@
 """Worst-case numbers that were optimistic (or falsely alarming) before, each against a hand
 calculation named beside it. The circuits are written in the chain format of the README."""
+
 from __future__ import annotations
 
 import pytest
@@ -45,7 +46,7 @@ def test_every_toleranced_value_reaches_its_corner():
     stages = result(summing(13, "5.95"), part()).stages
     low = stages[0].measure.output[0]
     assert low == pytest.approx(13 * 0.5 * 100 / 110, abs=1e-4)
-    assert not stages[1].go                      # the converter window at 5.95 V is left
+    assert not stages[1].go  # the converter window at 5.95 V is left
 
 
 def test_a_stage_with_too_many_corners_is_refused_not_sampled():
@@ -58,7 +59,7 @@ def test_a_stage_with_too_many_corners_is_refused_not_sampled():
     assert "20 toleranced values" in problem.message
 
 
-FOLLOWER = '''format = 1
+FOLLOWER = """format = 1
 title = "buffer on a high-impedance source"
 [rails.main]
 positive = "5"
@@ -71,7 +72,7 @@ name = "buffer"
 block = "follower"
 part = "clean"
 {load}
-'''
+"""
 
 
 def test_bias_current_through_the_source_moves_the_input_pin():
@@ -93,7 +94,7 @@ def test_output_current_grows_only_its_own_side_of_the_swing():
 def test_a_supply_exactly_at_the_rating_meets_it():
     # +/-6 V with 5 %: the largest span is 6 x 1.05 x 2 = 12.6 V, which is 12.600000000000001 in
     # floating point; a part rated to 12.6 V meets it (limits are met at equality).
-    text = '''format = 1
+    text = """format = 1
 title = "at the rating"
 [rails.main]
 positive = "6"
@@ -105,7 +106,7 @@ level = ["0", "0"]
 name = "buffer"
 block = "follower"
 part = "clean"
-'''
+"""
     stage = result(text, part(supply=(2.7, 12.6), supply_abs_max=13.0)).stages[0]
     assert stage.margins["supply"] == 0.0
     assert stage.go
@@ -133,7 +134,7 @@ def test_rss_never_reports_a_margin_below_the_worst_case():
 
 def test_no_headroom_is_quoted_for_a_chain_with_no_linear_stage():
     # A comparator alone has no linear regime to leave; the search used to answer its 120 dB limit.
-    text = '''format = 1
+    text = """format = 1
 title = "comparator only"
 [rails.main]
 positive = "5"
@@ -147,6 +148,6 @@ name = "alarm"
 block = "comparator"
 part = "clean"
 threshold = "1.5"
-'''
+"""
     found = analyse(chain_from_text(text), part(), design_aids=False)
     assert found.headroom_db is None

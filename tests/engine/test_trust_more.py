@@ -1,5 +1,6 @@
 """Issue 11, more of its items, each against a hand calculation named beside it. The circuits are
 written in the chain format of the README; `part()` is an illustrative part with no offset."""
+
 from __future__ import annotations
 
 import pytest
@@ -14,7 +15,8 @@ from clean_part import part
 def result(text: str, parts: dict, **options):
     return analyse(chain_from_text(text), parts, design_aids=False, headroom=False, **options)
 
-CLIPPED = '''format = 1
+
+CLIPPED = """format = 1
 title = "a clipping gain, then a buffer"
 [rails.main]
 positive = "5"
@@ -31,7 +33,7 @@ rg = "10k"
 name = "buffer"
 block = "follower"
 part = "clean"
-'''
+"""
 
 
 @pytest.mark.parametrize("method", ["corners", "rss", "montecarlo"])
@@ -48,7 +50,7 @@ def test_a_stage_after_a_clipping_one_is_fed_clipped_everywhere(method):
     assert found.failing == 1
 
 
-DC_ONLY = '''format = 1
+DC_ONLY = """format = 1
 title = "DC only"
 [rails.main]
 positive = "15"
@@ -62,7 +64,7 @@ block = "noninverting"
 part = "clean"
 rf = "10k"
 rg = "10k"
-'''
+"""
 
 
 def test_a_dc_only_source_band_of_zero_is_accepted():
@@ -72,8 +74,7 @@ def test_a_dc_only_source_band_of_zero_is_accepted():
     assert found.stages[0].measure.opamps[0].slew_needed == 0.0
 
 
-def schmitt(level: str, amplitude: str, rails: str = 'positive = "5"\nnegative = "0"',
-            load: str = "") -> str:
+def schmitt(level: str, amplitude: str, rails: str = 'positive = "5"\nnegative = "0"', load: str = "") -> str:
     return f'''format = 1
 title = "Schmitt trigger"
 [rails.main]
@@ -122,8 +123,9 @@ def test_schmitt_may_stick_is_judged_at_joint_corners_item5():
 def test_schmitt_thresholds_carry_offset_and_bias_item5():
     # the flip is V+ + Vos = ref with V+ = (Vin r2 + Vout r1)/(r1 + r2) - Ib (r1 || r2):
     # Vin moves by Vos (1 + r1/r2) + Ib r1 = 1 mV x 1.1 + 100 nA x 10k = 2.1 mV either way
-    found = result(schmitt('"2.5", "2.5"', "1"),
-                   part(**IDEAL_OUT, offset=1e-3, bias_current=100e-9)).stages[0]
+    found = result(schmitt('"2.5", "2.5"', "1"), part(**IDEAL_OUT, offset=1e-3, bias_current=100e-9)).stages[
+        0
+    ]
     to_high, to_low = found.measure.thresholds
     assert to_high == pytest.approx((2.75 - 2.1e-3, 2.75 + 2.1e-3), abs=1e-9)
     assert to_low == pytest.approx((2.25 - 2.1e-3, 2.25 + 2.1e-3), abs=1e-9)
@@ -133,16 +135,19 @@ def test_schmitt_high_level_drops_under_its_own_load_item9():
     # 5.26 V rail, 30 mV headroom: 5.23 V unloaded; Ro = 100 ohm into 1 k: V = V0 / (1 + Ro/RL)
     # = 5.23 / 1.1 = 4.7545 V (voltage divider); with the 110 k feedback pair as well
     # 5.23 / (1 + 100 (1/1k + 1/110k)) = 4.7507 V
-    found = result(schmitt('"2.5", "2.5"', "1", rails='positive = "5.26"\nnegative = "0"',
-                           load='load = "1k"'),
-                   part(output_headroom=(0.03, 0.03), output_resistance=100.0)).stages[0]
+    found = result(
+        schmitt('"2.5", "2.5"', "1", rails='positive = "5.26"\nnegative = "0"', load='load = "1k"'),
+        part(output_headroom=(0.03, 0.03), output_resistance=100.0),
+    ).stages[0]
     assert found.measure.output[1] == pytest.approx(5.23 / 1.1, rel=1e-9)
     assert found.measure.thresholds[1] == pytest.approx(
-        (2.75 - 0.1 * 5.23 / 1.1, 2.75 - 0.1 * 5.23 / (1 + 100 * (1e-3 + 1 / 110e3))), rel=1e-9)
+        (2.75 - 0.1 * 5.23 / 1.1, 2.75 - 0.1 * 5.23 / (1 + 100 * (1e-3 + 1 / 110e3))), rel=1e-9
+    )
     # the current: 4.7545 V into 1 k plus (4.7545 - 1.5) V through the 110 k pair = 4.784 mA
     high = 5.23 / 1.1
-    assert found.measure.opamps[0].current_needed == pytest.approx(high / 1e3 + (high - 1.5) / 110e3,
-                                                                   rel=1e-9)
+    assert found.measure.opamps[0].current_needed == pytest.approx(
+        high / 1e3 + (high - 1.5) / 110e3, rel=1e-9
+    )
 
 
 def test_schmitt_input_pairs_each_rail_corner_with_its_threshold_item9():
@@ -158,8 +163,7 @@ def test_schmitt_input_pairs_each_rail_corner_with_its_threshold_item9():
 def test_an_ac_amplitude_with_no_band_is_a_located_caution_item11():
     # issue 11 item 11: an amplitude with no band was checked at 1 Hz only, silently
     text = DC_ONLY.replace('band = ["0", "0"]', 'amplitude = "0.5"')
-    found = analyse(chain_from_text(text, path="board.toml"), part(), design_aids=False,
-                    headroom=False)
+    found = analyse(chain_from_text(text, path="board.toml"), part(), design_aids=False, headroom=False)
     assert any(c.startswith("board.toml: source.band:") and "1 Hz only" in c for c in found.cautions)
     with_band = text.replace('amplitude = "0.5"', 'amplitude = "0.5"\nband = ["10", "1k"]')
     assert not any("source.band" in c for c in result(with_band, part()).cautions)
@@ -168,6 +172,5 @@ def test_an_ac_amplitude_with_no_band_is_a_located_caution_item11():
 def test_a_band_of_one_hertz_written_is_meant_not_cautioned():
     # band = ["1", "1"] is a single frequency the user chose; only a missing band is cautioned
     text = DC_ONLY.replace('band = ["0", "0"]', 'amplitude = "0.5"\nband = ["1", "1"]')
-    found = analyse(chain_from_text(text, path="board.toml"), part(), design_aids=False,
-                    headroom=False)
+    found = analyse(chain_from_text(text, path="board.toml"), part(), design_aids=False, headroom=False)
     assert not any("source.band" in c for c in found.cautions)

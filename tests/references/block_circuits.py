@@ -50,8 +50,9 @@ def _finish(c: Circuit, freqs: Value, load: Value | None, aliases: dict[str, str
     return sol
 
 
-def follower(*, v_in: Value = 1.0, opamp: OpAmpModel = IDEAL, load: Value | None = None,
-             freqs: Value = 0.0) -> Solution:
+def follower(
+    *, v_in: Value = 1.0, opamp: OpAmpModel = IDEAL, load: Value | None = None, freqs: Value = 0.0
+) -> Solution:
     """in to +; output to -."""
     c = Circuit()
     c.source("in", v_in)
@@ -59,9 +60,16 @@ def follower(*, v_in: Value = 1.0, opamp: OpAmpModel = IDEAL, load: Value | None
     return _finish(c, freqs, load, {"plus": "in", "minus": "out"})
 
 
-def noninverting(rf: Value, rg: Value, ref: Value = 0.0, *, v_in: Value = 1.0,
-                 opamp: OpAmpModel = IDEAL, load: Value | None = None,
-                 freqs: Value = 0.0) -> Solution:
+def noninverting(
+    rf: Value,
+    rg: Value,
+    ref: Value = 0.0,
+    *,
+    v_in: Value = 1.0,
+    opamp: OpAmpModel = IDEAL,
+    load: Value | None = None,
+    freqs: Value = 0.0,
+) -> Solution:
     """in to +; rf from output to -; rg from - to ref."""
     c = Circuit()
     c.source("in", v_in)
@@ -72,8 +80,7 @@ def noninverting(rf: Value, rg: Value, ref: Value = 0.0, *, v_in: Value = 1.0,
     return _finish(c, freqs, load, {"plus": "in"})
 
 
-def _inverting_core(c: Circuit, rin: Value, rf: Value, ref: Value, v_in: Value,
-                    opamp: OpAmpModel) -> None:
+def _inverting_core(c: Circuit, rin: Value, rf: Value, ref: Value, v_in: Value, opamp: OpAmpModel) -> None:
     c.source("in", v_in)
     c.source("plus", ref)
     c.resistor("in", "minus", rin)
@@ -81,19 +88,33 @@ def _inverting_core(c: Circuit, rin: Value, rf: Value, ref: Value, v_in: Value,
     _opamp(c, opamp, "plus", "minus", "out")
 
 
-def inverting(rin: Value, rf: Value, ref: Value = 0.0, *, v_in: Value = 1.0,
-              opamp: OpAmpModel = IDEAL, load: Value | None = None,
-              freqs: Value = 0.0) -> Solution:
+def inverting(
+    rin: Value,
+    rf: Value,
+    ref: Value = 0.0,
+    *,
+    v_in: Value = 1.0,
+    opamp: OpAmpModel = IDEAL,
+    load: Value | None = None,
+    freqs: Value = 0.0,
+) -> Solution:
     """rin from in to -; rf from - to output; ref drives +."""
     c = Circuit()
     _inverting_core(c, rin, rf, ref, v_in, opamp)
     return _finish(c, freqs, load, {"ref": "plus"})
 
 
-def summing(rin: Value, rf: Value, ref: Value = 0.0,
-            inputs: Sequence[tuple[Value, Value]] = (), *, v_in: Value = 1.0,
-            opamp: OpAmpModel = IDEAL, load: Value | None = None,
-            freqs: Value = 0.0) -> Solution:
+def summing(
+    rin: Value,
+    rf: Value,
+    ref: Value = 0.0,
+    inputs: Sequence[tuple[Value, Value]] = (),
+    *,
+    v_in: Value = 1.0,
+    opamp: OpAmpModel = IDEAL,
+    load: Value | None = None,
+    freqs: Value = 0.0,
+) -> Solution:
     """As inverting, plus each extra input (r, v): r from the fixed voltage v (node fixed_k) to -."""
     c = Circuit()
     _inverting_core(c, rin, rf, ref, v_in, opamp)
@@ -103,9 +124,19 @@ def summing(rin: Value, rf: Value, ref: Value = 0.0,
     return _finish(c, freqs, load, {"ref": "plus"})
 
 
-def difference(r1: Value, r2: Value, r3: Value, r4: Value, ref: Value = 0.0, *,
-               v_pos: Value, v_neg: Value, opamp: OpAmpModel = IDEAL,
-               load: Value | None = None, freqs: Value = 0.0) -> Solution:
+def difference(
+    r1: Value,
+    r2: Value,
+    r3: Value,
+    r4: Value,
+    ref: Value = 0.0,
+    *,
+    v_pos: Value,
+    v_neg: Value,
+    opamp: OpAmpModel = IDEAL,
+    load: Value | None = None,
+    freqs: Value = 0.0,
+) -> Solution:
     """r1 from neg to -; r2 from - to output; r3 from pos to +; r4 from + to ref."""
     c = Circuit()
     c.source("pos", v_pos)
@@ -119,9 +150,18 @@ def difference(r1: Value, r2: Value, r3: Value, r4: Value, ref: Value = 0.0, *,
     return _finish(c, freqs, load, {})
 
 
-def instrumentation(rg: Value, rf: Value, ref: Value = 0.0, rdiff: Value = 10e3, *,
-                    v_pos: Value, v_neg: Value, opamp: OpAmps = IDEAL,
-                    load: Value | None = None, freqs: Value = 0.0) -> Solution:
+def instrumentation(
+    rg: Value,
+    rf: Value,
+    ref: Value = 0.0,
+    rdiff: Value = 10e3,
+    *,
+    v_pos: Value,
+    v_neg: Value,
+    opamp: OpAmps = IDEAL,
+    load: Value | None = None,
+    freqs: Value = 0.0,
+) -> Solution:
     """Three op amps; `opamp` is one model for all or (upper, lower, difference).
 
     Upper + = pos, lower + = neg; rf from each input op amp's output to its own -; rg between the
@@ -146,9 +186,17 @@ def instrumentation(rg: Value, rf: Value, ref: Value = 0.0, rdiff: Value = 10e3,
     return _finish(c, freqs, load, {"upper_plus": "pos", "lower_plus": "neg"})
 
 
-def integrator(rin: Value, rf: Value, c: Value, ref: Value = 0.0, *, v_in: Value = 1.0,
-               opamp: OpAmpModel = IDEAL, load: Value | None = None,
-               freqs: Value = 0.0) -> Solution:
+def integrator(
+    rin: Value,
+    rf: Value,
+    c: Value,
+    ref: Value = 0.0,
+    *,
+    v_in: Value = 1.0,
+    opamp: OpAmpModel = IDEAL,
+    load: Value | None = None,
+    freqs: Value = 0.0,
+) -> Solution:
     """rin from in to -; c from - to output; rf across c; ref drives +."""
     circuit = Circuit()
     _inverting_core(circuit, rin, rf, ref, v_in, opamp)
@@ -156,8 +204,7 @@ def integrator(rin: Value, rf: Value, c: Value, ref: Value = 0.0, *, v_in: Value
     return _finish(circuit, freqs, load, {"ref": "plus"})
 
 
-def _sallen_key_feedback(c: Circuit, rf: Value | None, rg: Value | None,
-                         opamp: OpAmpModel) -> dict[str, str]:
+def _sallen_key_feedback(c: Circuit, rf: Value | None, rg: Value | None, opamp: OpAmpModel) -> dict[str, str]:
     """Output to - for unity gain, or rf from output to - and rg from - to ref."""
     if rf is None and rg is None:
         _opamp(c, opamp, "plus", "out", "out")
@@ -170,10 +217,20 @@ def _sallen_key_feedback(c: Circuit, rf: Value | None, rg: Value | None,
     return {}
 
 
-def sallen_key_lowpass(r1: Value, r2: Value, c1: Value, c2: Value, rf: Value | None = None,
-                       rg: Value | None = None, ref: Value = 0.0, *, v_in: Value = 1.0,
-                       opamp: OpAmpModel = IDEAL, load: Value | None = None,
-                       freqs: Value = 0.0) -> Solution:
+def sallen_key_lowpass(
+    r1: Value,
+    r2: Value,
+    c1: Value,
+    c2: Value,
+    rf: Value | None = None,
+    rg: Value | None = None,
+    ref: Value = 0.0,
+    *,
+    v_in: Value = 1.0,
+    opamp: OpAmpModel = IDEAL,
+    load: Value | None = None,
+    freqs: Value = 0.0,
+) -> Solution:
     """r1 from in to A; r2 from A to +; c1 from A to output; c2 from + to 0 V."""
     c = Circuit()
     c.source("in", v_in)
@@ -186,10 +243,20 @@ def sallen_key_lowpass(r1: Value, r2: Value, c1: Value, c2: Value, rf: Value | N
     return _finish(c, freqs, load, aliases)
 
 
-def sallen_key_highpass(c1: Value, c2: Value, r1: Value, r2: Value, rf: Value | None = None,
-                        rg: Value | None = None, ref: Value = 0.0, *, v_in: Value = 1.0,
-                        opamp: OpAmpModel = IDEAL, load: Value | None = None,
-                        freqs: Value = 0.0) -> Solution:
+def sallen_key_highpass(
+    c1: Value,
+    c2: Value,
+    r1: Value,
+    r2: Value,
+    rf: Value | None = None,
+    rg: Value | None = None,
+    ref: Value = 0.0,
+    *,
+    v_in: Value = 1.0,
+    opamp: OpAmpModel = IDEAL,
+    load: Value | None = None,
+    freqs: Value = 0.0,
+) -> Solution:
     """c1 from in to A; c2 from A to +; r1 from A to output; r2 from + to ref."""
     c = Circuit()
     c.source("in", v_in)
@@ -202,9 +269,19 @@ def sallen_key_highpass(c1: Value, c2: Value, r1: Value, r2: Value, rf: Value | 
     return _finish(c, freqs, load, aliases)
 
 
-def mfb_lowpass(r1: Value, r2: Value, r3: Value, c1: Value, c2: Value, ref: Value = 0.0, *,
-                v_in: Value = 1.0, opamp: OpAmpModel = IDEAL, load: Value | None = None,
-                freqs: Value = 0.0) -> Solution:
+def mfb_lowpass(
+    r1: Value,
+    r2: Value,
+    r3: Value,
+    c1: Value,
+    c2: Value,
+    ref: Value = 0.0,
+    *,
+    v_in: Value = 1.0,
+    opamp: OpAmpModel = IDEAL,
+    load: Value | None = None,
+    freqs: Value = 0.0,
+) -> Solution:
     """r1 from in to A; r2 from A to output; r3 from A to -; c1 from A to ref; c2 output to -."""
     c = Circuit()
     c.source("in", v_in)
@@ -218,9 +295,19 @@ def mfb_lowpass(r1: Value, r2: Value, r3: Value, c1: Value, c2: Value, ref: Valu
     return _finish(c, freqs, load, {"ref": "plus"})
 
 
-def mfb_bandpass(r1: Value, r2: Value, r3: Value, c1: Value, c2: Value, ref: Value = 0.0, *,
-                 v_in: Value = 1.0, opamp: OpAmpModel = IDEAL, load: Value | None = None,
-                 freqs: Value = 0.0) -> Solution:
+def mfb_bandpass(
+    r1: Value,
+    r2: Value,
+    r3: Value,
+    c1: Value,
+    c2: Value,
+    ref: Value = 0.0,
+    *,
+    v_in: Value = 1.0,
+    opamp: OpAmpModel = IDEAL,
+    load: Value | None = None,
+    freqs: Value = 0.0,
+) -> Solution:
     """r1 from in to A; r3 from A to ref; c1 from A to -; c2 from A to output; r2 - to output."""
     c = Circuit()
     c.source("in", v_in)
@@ -234,8 +321,9 @@ def mfb_bandpass(r1: Value, r2: Value, r3: Value, c1: Value, c2: Value, ref: Val
     return _finish(c, freqs, load, {"ref": "plus"})
 
 
-def divider(top: Value, bottom: Value, *, v_in: Value = 1.0, load: Value | None = None,
-            freqs: Value = 0.0) -> Solution:
+def divider(
+    top: Value, bottom: Value, *, v_in: Value = 1.0, load: Value | None = None, freqs: Value = 0.0
+) -> Solution:
     """top from in to output; bottom from output to 0 V."""
     c = Circuit()
     c.source("in", v_in)
@@ -244,8 +332,9 @@ def divider(top: Value, bottom: Value, *, v_in: Value = 1.0, load: Value | None 
     return _finish(c, freqs, load, {})
 
 
-def rc_lowpass(r: Value, c: Value, *, v_in: Value = 1.0, load: Value | None = None,
-               freqs: Value = 0.0) -> Solution:
+def rc_lowpass(
+    r: Value, c: Value, *, v_in: Value = 1.0, load: Value | None = None, freqs: Value = 0.0
+) -> Solution:
     """r from in to output; c from output to 0 V."""
     circuit = Circuit()
     circuit.source("in", v_in)

@@ -17,17 +17,17 @@ from references.nodal import Circuit
 
 @dataclass(frozen=True)
 class OpAmp:
-    open_loop_gain: float | None = None   # None: ideal
+    open_loop_gain: float | None = None  # None: ideal
     gbw: float | None = None
     offset: float = 0.0
-    bias: float = 0.0                     # amps flowing INTO each input pin
+    bias: float = 0.0  # amps flowing INTO each input pin
 
 
 @dataclass(frozen=True)
 class Stage:
     block: str
     values: dict = field(default_factory=dict)
-    load: float | None = None             # ohms to 0 V
+    load: float | None = None  # ohms to 0 V
     opamp: OpAmp = OpAmp()
 
 
@@ -51,7 +51,7 @@ def build(stages: list[Stage], source_volts: complex, impedance: float) -> tuple
 def _opamp(c: Circuit, op: OpAmp, plus: str, minus: str, out: str) -> None:
     c.opamp(plus, minus, out, op.open_loop_gain, op.gbw, op.offset)
     if op.bias:
-        c.current(plus, -op.bias)     # bias flows from the circuit into the pin
+        c.current(plus, -op.bias)  # bias flows from the circuit into the pin
         c.current(minus, -op.bias)
 
 
@@ -59,17 +59,17 @@ def _stage(c: Circuit, st: Stage, inp: str, p: str) -> str:
     v, out = st.values, f"{p}_out"
     if st.block == "follower":
         _opamp(c, st.opamp, inp, out, out)
-    elif st.block == "noninverting":            # rg from - to ref, rf from out to -
+    elif st.block == "noninverting":  # rg from - to ref, rf from out to -
         _ref(c, v, p)
         c.resistor(f"{p}_m", f"{p}_ref", v["rg"])
         c.resistor(out, f"{p}_m", v["rf"])
         _opamp(c, st.opamp, inp, f"{p}_m", out)
-    elif st.block == "inverting":               # rin from input to -, ref drives +
+    elif st.block == "inverting":  # rin from input to -, ref drives +
         _ref(c, v, p)
         c.resistor(inp, f"{p}_m", v["rin"])
         c.resistor(out, f"{p}_m", v["rf"])
         _opamp(c, st.opamp, f"{p}_ref", f"{p}_m", out)
-    elif st.block == "summing":                 # inverting, plus each fixed input r from v to -
+    elif st.block == "summing":  # inverting, plus each fixed input r from v to -
         _ref(c, v, p)
         c.resistor(inp, f"{p}_m", v["rin"])
         c.resistor(out, f"{p}_m", v["rf"])
@@ -94,9 +94,15 @@ def _ref(c: Circuit, v: dict, p: str) -> None:
 
 def response(stages: list[Stage], freqs: np.ndarray, impedance: float = 0.0) -> list[np.ndarray]:
     """Complex output of every stage per 1 V AC at the source (DC terms zeroed: superposition)."""
-    ac = [Stage(s.block, {**s.values, "ref": 0.0,
-                          "inputs": [(r, 0.0) for r, _ in s.values.get("inputs", ())]}, s.load,
-                OpAmp(s.opamp.open_loop_gain, s.opamp.gbw)) for s in stages]
+    ac = [
+        Stage(
+            s.block,
+            {**s.values, "ref": 0.0, "inputs": [(r, 0.0) for r, _ in s.values.get("inputs", ())]},
+            s.load,
+            OpAmp(s.opamp.open_loop_gain, s.opamp.gbw),
+        )
+        for s in stages
+    ]
     c, outs = build(ac, 1.0, impedance)
     sol = c.solve(np.asarray(freqs, float))
     return [sol[o] for o in outs]
@@ -109,8 +115,9 @@ def dc(stages: list[Stage], level: float, impedance: float = 0.0) -> list[float]
     return [float(np.real(sol[o][0])) for o in outs]
 
 
-def peak(stages: list[Stage], band: tuple[float, float], impedance: float = 0.0,
-         points: int = 400) -> list[float]:
+def peak(
+    stages: list[Stage], band: tuple[float, float], impedance: float = 0.0, points: int = 400
+) -> list[float]:
     """Largest |V| of each stage over the band: dense log grid, then golden-section refinement."""
     grid = np.geomspace(band[0], band[1], points)
     mags = [np.abs(r) for r in response(stages, grid, impedance)]

@@ -90,8 +90,15 @@ class Circuit:
         self._touch(node)
         self._currents.append((node, amps))
 
-    def opamp(self, plus: str, minus: str, out: str, open_loop_gain: Value | None = None,
-              gbw: Value | None = None, offset: Value = 0.0) -> None:
+    def opamp(
+        self,
+        plus: str,
+        minus: str,
+        out: str,
+        open_loop_gain: Value | None = None,
+        gbw: Value | None = None,
+        offset: Value = 0.0,
+    ) -> None:
         """Op amp as a VCVS; open_loop_gain=None and gbw=None is the ideal op amp (nullor)."""
         if out in self._opamps:
             raise ValueError(f"node {out!r} already driven by an op amp")
@@ -142,9 +149,11 @@ class Circuit:
         x = np.linalg.solve(matrix, rhs[..., np.newaxis])[..., 0]
         voltages = {node: x[..., k] for node, k in row.items()}
         voltages[GROUND] = np.zeros(shape, dtype=complex)
-        return Solution(voltages,
-                        {node: x[..., k] for node, k in source_rows.items()},
-                        {out: x[..., k] for out, k in opamp_rows.items()})
+        return Solution(
+            voltages,
+            {node: x[..., k] for node, k in source_rows.items()},
+            {out: x[..., k] for out, k in opamp_rows.items()},
+        )
 
     @staticmethod
     def _stamp_opamp(matrix, rhs, op: _OpAmp, row, k, s, per_freq) -> None:

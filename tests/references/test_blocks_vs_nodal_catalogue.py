@@ -6,12 +6,20 @@ references/block_circuits.py. Random component values and frequencies, finite op
 a single pole; each driving source in turn at 1 V (superposition); DC error gains from the solver
 with a 1 V offset or a 1 A bias current on one op amp at a time.
 """
+
 import numpy as np
 import pytest
 
-from references.block_circuits import (OpAmpModel, difference, instrumentation, integrator,
-                                       mfb_bandpass, mfb_lowpass, sallen_key_highpass,
-                                       sallen_key_lowpass)
+from references.block_circuits import (
+    OpAmpModel,
+    difference,
+    instrumentation,
+    integrator,
+    mfb_bandpass,
+    mfb_lowpass,
+    sallen_key_highpass,
+    sallen_key_lowpass,
+)
 from railroom.engine.blocks.difference import Difference
 from railroom.engine.blocks.filters import MfbBandpass, MfbLowpass, SallenKeyHighpass, SallenKeyLowpass
 from railroom.engine.blocks.instrumentation import Instrumentation
@@ -24,10 +32,22 @@ SEEDS = range(4)
 
 
 def part(a0: float, gbw: float) -> Part:
-    return Part(id="p", description="", supply=(1, 40), supply_abs_max=44, output_headroom=(1, 1),
-                output_resistance=0.0, input_headroom=(1, 1), gbw=gbw, slew=1e6,
-                open_loop_gain=a0, offset=1e-3, offset_drift=0.0, bias_current=1e-9,
-                output_current=0.02)
+    return Part(
+        id="p",
+        description="",
+        supply=(1, 40),
+        supply_abs_max=44,
+        output_headroom=(1, 1),
+        output_resistance=0.0,
+        input_headroom=(1, 1),
+        gbw=gbw,
+        slew=1e6,
+        open_loop_gain=a0,
+        offset=1e-3,
+        offset_drift=0.0,
+        bias_current=1e-9,
+        output_current=0.02,
+    )
 
 
 def setting(seed: int):
@@ -68,12 +88,20 @@ def test_difference_amplifier(seed, differential):
     rng, a0, gbw, grid = setting(seed)
     r1, r2, r3, r4, load = (resistors(rng) for _ in range(5))
     op = OpAmpModel(open_loop_gain=a0, gbw=gbw)
-    r = engine(Difference(), {"r1": r1, "r2": r2, "r3": r3, "r4": r4, "ref": 0 * r1, "load": load},
-               grid, part(a0, gbw), differential)
+    r = engine(
+        Difference(),
+        {"r1": r1, "r2": r2, "r3": r3, "r4": r4, "ref": 0 * r1, "load": load},
+        grid,
+        part(a0, gbw),
+        differential,
+    )
     amp = r.opamps[0]
     # single-ended (SPEC): in drives r3, r1 returns to ref -> the nodal "neg" side sits on ref
-    units = ({"pos": (1, 0, 0), "neg": (0, 1, 0), "ref": (0, 0, 1)} if differential else
-             {"in": (1, 0, 0), "ref": (0, 1, 1)})
+    units = (
+        {"pos": (1, 0, 0), "neg": (0, 1, 0), "ref": (0, 0, 1)}
+        if differential
+        else {"in": (1, 0, 0), "ref": (0, 1, 1)}
+    )
     for source, (p, n, ref) in units.items():
         sol = difference(r1, r2, r3, r4, ref, v_pos=p, v_neg=n, opamp=op, load=load, freqs=grid)
         close(r.output.transfers[source], sol["out"])
@@ -86,15 +114,22 @@ def test_instrumentation_amplifier_every_op_amp(seed):
     rng, a0, gbw, grid = setting(seed)
     rg, rf, rdiff, load = (resistors(rng) for _ in range(4))
     op = OpAmpModel(open_loop_gain=a0, gbw=gbw)
-    r = engine(Instrumentation(), {"rg": rg, "rf": rf, "rdiff": rdiff, "ref": 0 * rg,
-                                   "load": load}, grid, part(a0, gbw), differential=True)
+    r = engine(
+        Instrumentation(),
+        {"rg": rg, "rf": rf, "rdiff": rdiff, "ref": 0 * rg, "load": load},
+        grid,
+        part(a0, gbw),
+        differential=True,
+    )
     upper, lower, diff = r.opamps
     assert diff.output is r.output
     for source, (p, n, ref) in {"pos": (1, 0, 0), "neg": (0, 1, 0), "ref": (0, 0, 1)}.items():
-        sol = instrumentation(rg, rf, ref, rdiff, v_pos=p, v_neg=n, opamp=op, load=load,
-                              freqs=grid)
-        for amp, out, plus in ((upper, "upper_out", "upper_plus"),
-                               (lower, "lower_out", "lower_plus"), (diff, "out", "diff_plus")):
+        sol = instrumentation(rg, rf, ref, rdiff, v_pos=p, v_neg=n, opamp=op, load=load, freqs=grid)
+        for amp, out, plus in (
+            (upper, "upper_out", "upper_plus"),
+            (lower, "lower_out", "lower_plus"),
+            (diff, "out", "diff_plus"),
+        ):
             close(amp.output.transfers.get(source, 0.0), sol[out])
             close(amp.plus.transfers.get(source, 0.0), sol[plus])
             close(amp.current.transfers.get(source, 0.0), sol.opamp_currents[out], atol=1e-14)
@@ -105,22 +140,29 @@ def test_instrumentation_error_gains_at_dc(seed):
     rng, a0, _, _ = setting(seed)
     rg, rf, rdiff = (resistors(rng) for _ in range(3))
     grid = np.array([0.0, 1.0])
-    r = engine(Instrumentation(), {"rg": rg, "rf": rf, "rdiff": rdiff, "ref": 0 * rg},
-               grid, part(a0, 1e6), differential=True)
+    r = engine(
+        Instrumentation(),
+        {"rg": rg, "rf": rf, "rdiff": rdiff, "ref": 0 * rg},
+        grid,
+        part(a0, 1e6),
+        differential=True,
+    )
     for k in range(3):
+
         def solve(**error):
             models = [OpAmpModel(open_loop_gain=a0)] * 3
             models[k] = OpAmpModel(open_loop_gain=a0, **error)
             return instrumentation(rg, rf, 0.0, rdiff, v_pos=0.0, v_neg=0.0, opamp=models)
+
         offset, plus, minus = solve(offset=1.0), solve(bias_plus=1.0), solve(bias_minus=1.0)
         for amp, node in zip(r.opamps, ("upper_out", "lower_out", "out")):
-            close(amp.output.offset_gain[:, k:k + 1], offset[node].real)
+            close(amp.output.offset_gain[:, k : k + 1], offset[node].real)
             exact = np.abs(plus[node].real) + np.abs(minus[node].real)
             if node == "out":
                 # bias gains of a node built from other nodes add as magnitudes: an outside bound
-                assert np.all(amp.output.bias_gain[:, k:k + 1] >= exact * (1 - 1e-9))
+                assert np.all(amp.output.bias_gain[:, k : k + 1] >= exact * (1 - 1e-9))
             else:
-                close(amp.output.bias_gain[:, k:k + 1], exact)
+                close(amp.output.bias_gain[:, k : k + 1], exact)
 
 
 FILTERS = {
@@ -139,10 +181,17 @@ def filter_values(rng, names, gain: bool) -> dict:
 
 
 @pytest.mark.parametrize("seed", SEEDS)
-@pytest.mark.parametrize("name,gain", [("sallen_key_lowpass", False), ("sallen_key_lowpass", True),
-                                       ("sallen_key_highpass", False),
-                                       ("sallen_key_highpass", True), ("mfb_lowpass", False),
-                                       ("mfb_bandpass", False)])
+@pytest.mark.parametrize(
+    "name,gain",
+    [
+        ("sallen_key_lowpass", False),
+        ("sallen_key_lowpass", True),
+        ("sallen_key_highpass", False),
+        ("sallen_key_highpass", True),
+        ("mfb_lowpass", False),
+        ("mfb_bandpass", False),
+    ],
+)
 def test_filter_nodes_inner_node_and_current(seed, name, gain):
     block, reference, names = FILTERS[name]
     rng, a0, gbw, grid = setting(seed)
@@ -166,8 +215,10 @@ def test_single_op_amp_error_gains_at_dc(seed, name):
     grid = np.array([0.0, 1.0])
     if name == "integrator":
         values = {"rin": resistors(rng), "rf": resistors(rng), "c": capacitors(rng)}
-        block, reference = Integrator(), (lambda ref=0.0, **kw: integrator(
-            values["rin"], values["rf"], values["c"], ref, **kw))
+        block, reference = (
+            Integrator(),
+            (lambda ref=0.0, **kw: integrator(values["rin"], values["rf"], values["c"], ref, **kw)),
+        )
     else:
         block, build, names = FILTERS[name]
         values = filter_values(rng, names, gain=name.startswith("sallen"))
@@ -186,8 +237,7 @@ def test_integrator_response_and_current(seed):
     rng, a0, gbw, grid = setting(seed)
     rin, rf, load, c = resistors(rng), resistors(rng), resistors(rng), capacitors(rng)
     op = OpAmpModel(open_loop_gain=a0, gbw=gbw)
-    r = engine(Integrator(), {"rin": rin, "rf": rf, "c": c, "ref": 0 * c, "load": load}, grid,
-               part(a0, gbw))
+    r = engine(Integrator(), {"rin": rin, "rf": rf, "c": c, "ref": 0 * c, "load": load}, grid, part(a0, gbw))
     for source, (v_in, ref) in {"in": (1.0, 0.0), "ref": (0.0, 1.0)}.items():
         sol = integrator(rin, rf, c, ref, v_in=v_in, opamp=op, load=load, freqs=grid)
         close(r.output.transfers[source], sol["out"])

@@ -5,11 +5,19 @@ numpy.linalg.solve in references/nodal.py, netlists worded as SPEC section 2 "Bl
 references/block_circuits.py. Random component values, random frequencies, finite open-loop gain
 with a single pole; DC and AC; op-amp output current; offset and bias error gains at DC.
 """
+
 import numpy as np
 import pytest
 
-from references.block_circuits import (OpAmpModel, divider, follower, inverting, noninverting,
-                                       rc_lowpass, summing)
+from references.block_circuits import (
+    OpAmpModel,
+    divider,
+    follower,
+    inverting,
+    noninverting,
+    rc_lowpass,
+    summing,
+)
 from references.nodal import Circuit
 from railroom.engine.blocks.gain import Follower, Inverting, Noninverting, Summing
 from railroom.engine.blocks.passive import Divider, RcLowpass
@@ -21,14 +29,26 @@ SEEDS = range(6)
 
 
 def part(a0: float, gbw: float) -> Part:
-    return Part(id="p", description="", supply=(1, 40), supply_abs_max=44, output_headroom=(1, 1),
-                output_resistance=0.0, input_headroom=(1, 1), gbw=gbw, slew=1e6,
-                open_loop_gain=a0, offset=1e-3, offset_drift=0.0, bias_current=1e-9,
-                output_current=0.02)
+    return Part(
+        id="p",
+        description="",
+        supply=(1, 40),
+        supply_abs_max=44,
+        output_headroom=(1, 1),
+        output_resistance=0.0,
+        input_headroom=(1, 1),
+        gbw=gbw,
+        slew=1e6,
+        open_loop_gain=a0,
+        offset=1e-3,
+        offset_drift=0.0,
+        bias_current=1e-9,
+        output_current=0.02,
+    )
 
 
 def resistors(rng, n=DRAWS) -> np.ndarray:
-    return 10 ** rng.uniform(2.5, 6, n)        # 316 ohm .. 1 Mohm
+    return 10 ** rng.uniform(2.5, 6, n)  # 316 ohm .. 1 Mohm
 
 
 def setting(seed: int):
@@ -57,8 +77,9 @@ def test_noninverting_transfers_current_and_errors(seed):
     rng, a0, gbw, grid = setting(seed)
     rf, rg, load = resistors(rng), resistors(rng), resistors(rng)
     op = OpAmpModel(open_loop_gain=a0, gbw=gbw)
-    r = engine(Noninverting(), {"rf": rf, "rg": rg, "ref": np.zeros(DRAWS), "load": load},
-               grid, part(a0, gbw))
+    r = engine(
+        Noninverting(), {"rf": rf, "rg": rg, "ref": np.zeros(DRAWS), "load": load}, grid, part(a0, gbw)
+    )
     amp = r.opamps[0]
     for source, (v_in, ref) in {"in": (1.0, 0.0), "ref": (0.0, 1.0)}.items():
         sol = noninverting(rf, rg, ref, v_in=v_in, opamp=op, load=load, freqs=grid)
@@ -73,8 +94,7 @@ def test_inverting_transfers_current_and_errors(seed):
     rng, a0, gbw, grid = setting(seed)
     rin, rf, load = resistors(rng), resistors(rng), resistors(rng)
     op = OpAmpModel(open_loop_gain=a0, gbw=gbw)
-    r = engine(Inverting(), {"rin": rin, "rf": rf, "ref": np.zeros(DRAWS), "load": load},
-               grid, part(a0, gbw))
+    r = engine(Inverting(), {"rin": rin, "rf": rf, "ref": np.zeros(DRAWS), "load": load}, grid, part(a0, gbw))
     amp = r.opamps[0]
     for source, (v_in, ref) in {"in": (1.0, 0.0), "ref": (0.0, 1.0)}.items():
         sol = inverting(rin, rf, ref, v_in=v_in, opamp=op, load=load, freqs=grid)
@@ -88,15 +108,21 @@ def test_summing_transfers_current_and_errors(seed):
     rin, rf, r1, r2, load = (resistors(rng) for _ in range(5))
     op = OpAmpModel(open_loop_gain=a0, gbw=gbw)
     zero = np.zeros(DRAWS)
-    values = {"rin": rin, "rf": rf, "ref": zero, "inputs.1.r": r1, "inputs.1.v": zero,
-              "inputs.2.r": r2, "inputs.2.v": zero, "load": load}
+    values = {
+        "rin": rin,
+        "rf": rf,
+        "ref": zero,
+        "inputs.1.r": r1,
+        "inputs.1.v": zero,
+        "inputs.2.r": r2,
+        "inputs.2.v": zero,
+        "load": load,
+    }
     r = engine(Summing(), values, grid, part(a0, gbw))
     amp = r.opamps[0]
-    units = {"in": (1, 0, 0, 0), "ref": (0, 1, 0, 0), "inputs.1.v": (0, 0, 1, 0),
-             "inputs.2.v": (0, 0, 0, 1)}
+    units = {"in": (1, 0, 0, 0), "ref": (0, 1, 0, 0), "inputs.1.v": (0, 0, 1, 0), "inputs.2.v": (0, 0, 0, 1)}
     for source, (v_in, ref, v1, v2) in units.items():
-        sol = summing(rin, rf, ref, [(r1, v1), (r2, v2)], v_in=v_in, opamp=op, load=load,
-                      freqs=grid)
+        sol = summing(rin, rf, ref, [(r1, v1), (r2, v2)], v_in=v_in, opamp=op, load=load, freqs=grid)
         close(r.output.transfers[source], sol["out"])
         close(amp.current.transfers[source], sol.opamp_currents["out"])
 
@@ -119,20 +145,26 @@ def test_error_gains_at_dc(seed):
     rin, rf, drive = resistors(rng), resistors(rng), resistors(rng)
     grid = np.array([0.0, 1.0])
     cases = {
-        "noninverting": (Noninverting(), {"rf": rf, "rg": rin},
-                         lambda m, d: noninverting_driven(rf, rin, d, m)),
-        "inverting": (Inverting(), {"rin": rin, "rf": rf},
-                      lambda m, d: inverting(rin + d, rf, v_in=0.0, opamp=m)["out"]),
+        "noninverting": (
+            Noninverting(),
+            {"rf": rf, "rg": rin},
+            lambda m, d: noninverting_driven(rf, rin, d, m),
+        ),
+        "inverting": (
+            Inverting(),
+            {"rin": rin, "rf": rf},
+            lambda m, d: inverting(rin + d, rf, v_in=0.0, opamp=m)["out"],
+        ),
         "follower": (Follower(), {}, lambda m, d: follower_driven(d, m)),
-        "summing": (Summing(), {"rin": rin, "rf": rf, "inputs.1.r": drive + rf,
-                                "inputs.1.v": np.zeros(DRAWS)},
-                    lambda m, d: summing(rin + d, rf, 0.0, [(drive + rf, 0.0)], v_in=0.0,
-                                         opamp=m)["out"]),
+        "summing": (
+            Summing(),
+            {"rin": rin, "rf": rf, "inputs.1.r": drive + rf, "inputs.1.v": np.zeros(DRAWS)},
+            lambda m, d: summing(rin + d, rf, 0.0, [(drive + rf, 0.0)], v_in=0.0, opamp=m)["out"],
+        ),
     }
     for _name, (block, values, build) in cases.items():
-        for d in (0.0, float(drive[0])):     # the engine passes the driving resistance as a float
-            node = engine(block, values | {"ref": np.zeros(DRAWS)}, grid, part(a0, 1e6),
-                          drive=d).output
+        for d in (0.0, float(drive[0])):  # the engine passes the driving resistance as a float
+            node = engine(block, values | {"ref": np.zeros(DRAWS)}, grid, part(a0, 1e6), drive=d).output
             offset = build(OpAmpModel(open_loop_gain=a0, offset=1.0), d)[..., 0].real
             plus = build(OpAmpModel(open_loop_gain=a0, bias_plus=1.0), d)[..., 0].real
             minus = build(OpAmpModel(open_loop_gain=a0, bias_minus=1.0), d)[..., 0].real
@@ -180,10 +212,14 @@ def test_divider_and_rc_lowpass_with_drive_and_load(seed):
     rng, _, _, grid = setting(seed)
     top, bottom, drive, load = (resistors(rng) for _ in range(4))
     cap = 10 ** rng.uniform(-10, -6, DRAWS)
-    close(engine(Divider(), {"top": top, "bottom": bottom}, grid, None).output.transfers["in"],
-          divider(top, bottom, freqs=grid)["out"])
-    close(engine(RcLowpass(), {"r": top, "c": cap}, grid, None).output.transfers["in"],
-          rc_lowpass(top, cap, freqs=grid)["out"])
+    close(
+        engine(Divider(), {"top": top, "bottom": bottom}, grid, None).output.transfers["in"],
+        divider(top, bottom, freqs=grid)["out"],
+    )
+    close(
+        engine(RcLowpass(), {"r": top, "c": cap}, grid, None).output.transfers["in"],
+        rc_lowpass(top, cap, freqs=grid)["out"],
+    )
     for d, rl in ((float(drive[0]), None), (float(drive[1]), load), (0.0, load)):
         values = {"top": top, "bottom": bottom} | ({} if rl is None else {"load": rl})
         got = engine(Divider(), values, grid, None, drive=d)

@@ -91,6 +91,7 @@ ref = "0"
 def test_rc_lowpass_into_inverting_item3(tmp_path):
     from railroom.engine.analysis import analyse, load_checked
     from railroom.engine.report import chain_report
+
     path = tmp_path / "chain.toml"
     path.write_text(CHAIN)
     chain, library = load_checked(str(path))
@@ -104,25 +105,31 @@ def test_rc_lowpass_into_inverting_item3(tmp_path):
     # never optimistic: the reported span must reach the true peak
     assert engine_max >= truth - 1e-3
     # exact: the nominal equals the netlist with the part's own gain (130 dB, 1.5 MHz one pole)
-    real = [st[0], Stage("inverting", {"rin": r, "rf": r}, opamp=OpAmp(10 ** 6.5, 1.5e6))]
+    real = [st[0], Stage("inverting", {"rin": r, "rf": r}, opamp=OpAmp(10**6.5, 1.5e6))]
     nominal = abs(response(real, np.array([10e3]))[1][0])
     assert nominal == pytest.approx(0.447785, abs=1e-6)
     assert report["stages"][1]["output"]["nominal"][1] == pytest.approx(nominal, rel=1e-5)
 
 
-TOLERANCED = CHAIN.replace('band = ["10k", "10k"]', 'band = ["1k", "100k"]').replace(
-    'r = "10k"\nc = "1.5915494n"', 'r = "10k 5%"\nc = "1.5915494n 10%"').replace(
-    'rin = "10k"\nrf = "10k"', 'rin = "10k 1%"\nrf = "10k 1%"')
+TOLERANCED = (
+    CHAIN.replace('band = ["10k", "10k"]', 'band = ["1k", "100k"]')
+    .replace('r = "10k"\nc = "1.5915494n"', 'r = "10k 5%"\nc = "1.5915494n 10%"')
+    .replace('rin = "10k"\nrf = "10k"', 'rin = "10k 1%"\nrf = "10k 1%"')
+)
 
 
 def brute_force_peaks() -> dict[tuple, float]:
     """The netlist's largest |output| over the band at every joint corner of r, c, rin, rf."""
     found = {}
     for signs in np.array(np.meshgrid(*[[-1, 1]] * 4)).T.reshape(-1, 4):
-        r, c, rin, rf = (n * (1 + t * d) for n, t, d in
-                         zip((10e3, 1.5915494e-9, 10e3, 10e3), (0.05, 0.10, 0.01, 0.01), signs))
-        st = [Stage("rc_lowpass", {"r": r, "c": c}),
-              Stage("inverting", {"rin": rin, "rf": rf}, opamp=OpAmp(10 ** 6.5, 1.5e6))]
+        r, c, rin, rf = (
+            n * (1 + t * d)
+            for n, t, d in zip((10e3, 1.5915494e-9, 10e3, 10e3), (0.05, 0.10, 0.01, 0.01), signs)
+        )
+        st = [
+            Stage("rc_lowpass", {"r": r, "c": c}),
+            Stage("inverting", {"rin": rin, "rf": rf}, opamp=OpAmp(10**6.5, 1.5e6)),
+        ]
         found[tuple(int(d) for d in signs)] = peak(st, (1e3, 100e3))[1]
     return found
 
@@ -136,6 +143,7 @@ def test_passive_thevenin_every_method_item3(tmp_path):
     from railroom.engine.analysis import analyse, band_grid, load_checked
     from railroom.engine.methods import corners, montecarlo
     from railroom.engine.plan import plan_chain
+
     path = tmp_path / "chain.toml"
     path.write_text(TOLERANCED)
     chain, library = load_checked(str(path))
@@ -152,8 +160,7 @@ def test_passive_thevenin_every_method_item3(tmp_path):
     # rss and Monte Carlo read each drawn circuit: at the joint corners it is the netlist's value
     plans = plan_chain(chain, library.parts)
     freqs = band_grid(chain, plans)
-    layout = montecarlo.layout_for(chain, plans, freqs,
-                                   corners.run(corners.prepare(chain, plans, freqs)))
+    layout = montecarlo.layout_for(chain, plans, freqs, corners.run(corners.prepare(chain, plans, freqs)))
     names = [("r", 1), ("c", 1), ("rin", 2), ("rf", 2)]
     keys = list(truth)
     D = np.zeros((len(keys), len(layout.variables)))
@@ -173,18 +180,19 @@ def test_pump_demo_stage4_slew_need_item3():
     # low-power 95 dB / 100 kHz.
     from railroom.engine.analysis import analyse, load_checked
     import railroom.engine.demos as demos
-    bipolar, lowpower = OpAmp(10 ** 5, 1e6), OpAmp(10 ** 4.75, 100e3)
+
+    bipolar, lowpower = OpAmp(10**5, 1e6), OpAmp(10**4.75, 100e3)
     band = np.geomspace(10, 5e3, 120)
     need = 0.0
     for d in np.array(np.meshgrid(*[[-1, 1]] * 7)).T.reshape(-1, 7):
         rf2, rg2 = 90.9e3 * (1 + 1e-3 * d[0]), 10e3 * (1 + 1e-3 * d[1])
-        r3, c3, rin, rf, r_in = (n * (1 + 0.01 * x) for n, x in
-                                 zip((1e3, 10e-9, 20e3, 16e3, 82e3), d[2:]))
-        st = [Stage("follower", opamp=bipolar),
-              Stage("noninverting", {"rf": rf2, "rg": rg2}, opamp=bipolar),
-              Stage("rc_lowpass", {"r": r3, "c": c3}),
-              Stage("summing", {"rin": rin, "rf": rf, "inputs": [(r_in, 0.0)]}, load=10e3,
-                    opamp=lowpower)]
+        r3, c3, rin, rf, r_in = (n * (1 + 0.01 * x) for n, x in zip((1e3, 10e-9, 20e3, 16e3, 82e3), d[2:]))
+        st = [
+            Stage("follower", opamp=bipolar),
+            Stage("noninverting", {"rf": rf2, "rg": rg2}, opamp=bipolar),
+            Stage("rc_lowpass", {"r": r3, "c": c3}),
+            Stage("summing", {"rin": rin, "rf": rf, "inputs": [(r_in, 0.0)]}, load=10e3, opamp=lowpower),
+        ]
         out = response(st, band, impedance=100.0)[3]
         need = max(need, float(np.max(2 * np.pi * band * np.abs(out) * 0.2)))
     assert need == pytest.approx(47100, rel=1e-3)
@@ -195,25 +203,33 @@ def test_pump_demo_stage4_slew_need_item3():
     assert engine == pytest.approx(need, rel=1e-6)
 
 
-DIVIDER_INTO_INVERTING = CHAIN.replace('band = ["10k", "10k"]', 'band = ["1", "1"]').replace(
-    'level = ["0", "0"]\namplitude = "1"', 'level = ["1", "1"]\namplitude = "0"').replace(
-    'block = "rc_lowpass"\nr = "10k"\nc = "1.5915494n"', 'block = "divider"\ntop = "10k"\nbottom = "10k"')
+DIVIDER_INTO_INVERTING = (
+    CHAIN.replace('band = ["10k", "10k"]', 'band = ["1", "1"]')
+    .replace('level = ["0", "0"]\namplitude = "1"', 'level = ["1", "1"]\namplitude = "0"')
+    .replace(
+        'block = "rc_lowpass"\nr = "10k"\nc = "1.5915494n"', 'block = "divider"\ntop = "10k"\nbottom = "10k"'
+    )
+)
 
 
-@pytest.mark.parametrize("text, want", [
-    # the netlist's own node between the passive stage and the next stage's input resistor
-    (CHAIN, 1 / math.sqrt(5)),                   # RC at its corner into rin = R: 0.4472
-    (DIVIDER_INTO_INVERTING, 1 / 3),             # 10k/10k into 10k to a virtual earth
-])
+@pytest.mark.parametrize(
+    "text, want",
+    [
+        # the netlist's own node between the passive stage and the next stage's input resistor
+        (CHAIN, 1 / math.sqrt(5)),  # RC at its corner into rin = R: 0.4472
+        (DIVIDER_INTO_INVERTING, 1 / 3),  # 10k/10k into 10k to a virtual earth
+    ],
+)
 def test_passive_stage_shows_its_loaded_voltage_item11(tmp_path, text, want):
     # issue 11 item 11: a passive stage shows the voltage at its output with the next stage's
     # input on it (it showed the open-circuit voltage: 0.707 and 0.5 V here)
     from railroom.engine.analysis import analyse, load_checked
+
     path = tmp_path / "chain.toml"
     path.write_text(text)
     chain, library = load_checked(str(path))
     first = analyse(chain, library.parts, design_aids=False, headroom=False).stages[0]
-    part = OpAmp(10 ** 6.5, 1.5e6)                    # generic-precision: 130 dB, 1.5 MHz
+    part = OpAmp(10**6.5, 1.5e6)  # generic-precision: 130 dB, 1.5 MHz
     if "divider" in text:
         st = [Stage("divider", {"top": 10e3, "bottom": 10e3}), Stage("inverting", {"rin": 10e3, "rf": 10e3})]
         c, outs = build(st, 1.0, 0.0)

@@ -1,5 +1,6 @@
 """Issue 11 item 4: a filter's peak found with the real op amp (finite gain-bandwidth), checked
 against the nodal solver (tests/references/nodal.py, which imports nothing of railroom)."""
+
 from __future__ import annotations
 
 import math
@@ -13,11 +14,12 @@ from references.nodal import Circuit
 # Analog Integrated Circuits, ch. 3): f0 = sqrt((1/r1 + 1/r3) / (r2 c1 c2)) / (2 pi),
 # Q = (1/2) sqrt(r2 / (r1 || r3)); here f0 = 1.000 kHz, Q = 8.0
 R1, R2, R3, C = 127.3e3, 254.6e3, 1002.6, 10e-9
-A0, GBW = 1e5, 2e6                       # an illustrative 100 dB, 2 MHz part
+A0, GBW = 1e5, 2e6  # an illustrative 100 dB, 2 MHz part
 
 
 def nodal_peak(band=(500.0, 2000.0)) -> tuple[float, float]:
     """Largest |Vout| per volt in: dense grid, then golden-section in log f."""
+
     def mag(f):
         c = Circuit()
         c.source("in", 1.0)
@@ -28,6 +30,7 @@ def nodal_peak(band=(500.0, 2000.0)) -> tuple[float, float]:
         c.resistor("a", "0", R3)
         c.opamp("0", "m", "o", A0, GBW)
         return np.abs(c.solve(np.atleast_1d(f))["o"])
+
     grid = np.geomspace(*band, 2001)
     i = int(np.argmax(mag(grid)))
     lo, hi = math.log(grid[i - 1]), math.log(grid[i + 1])
@@ -43,15 +46,28 @@ def test_mfb_bandpass_peak_with_the_real_op_amp_item4():
     from railroom.engine.analysis import analyse
     from railroom.engine.files import chain_from_text
     from railroom.engine.model import Part
+
     f0 = math.sqrt((1 / R1 + 1 / R3) / (R2 * C * C)) / (2 * math.pi)
     q = 0.5 * math.sqrt(R2 * (1 / R1 + 1 / R3))
     assert f0 == pytest.approx(1000.07, abs=0.01) and q == pytest.approx(8.0, abs=0.01)
     f_peak, peak = nodal_peak()
-    assert f_peak / f0 - 1 == pytest.approx(-0.0039, abs=2e-4)     # 0.39 % below the ideal f0
-    part = Part(id="p", description="", supply=(1.0, 100.0), supply_abs_max=100.0,
-                output_headroom=(0.0, 0.0), output_resistance=0.0, input_headroom=(0.0, 0.0),
-                gbw=GBW, slew=1e12, open_loop_gain=A0, offset=0.0, offset_drift=0.0,
-                bias_current=0.0, output_current=1.0)
+    assert f_peak / f0 - 1 == pytest.approx(-0.0039, abs=2e-4)  # 0.39 % below the ideal f0
+    part = Part(
+        id="p",
+        description="",
+        supply=(1.0, 100.0),
+        supply_abs_max=100.0,
+        output_headroom=(0.0, 0.0),
+        output_resistance=0.0,
+        input_headroom=(0.0, 0.0),
+        gbw=GBW,
+        slew=1e12,
+        open_loop_gain=A0,
+        offset=0.0,
+        offset_drift=0.0,
+        bias_current=0.0,
+        output_current=1.0,
+    )
     text = f'''format = 1
 title = "band-pass Q = 8"
 [rails.main]

@@ -6,9 +6,20 @@ from scipy.optimize import brentq
 from scipy.signal import freqs as analog_response
 
 from references.block_circuits import (
-    OpAmpModel, difference, divider, follower, instrumentation, integrator, inverting,
-    mfb_bandpass, mfb_lowpass, noninverting, rc_lowpass, sallen_key_highpass,
-    sallen_key_lowpass, summing,
+    OpAmpModel,
+    difference,
+    divider,
+    follower,
+    instrumentation,
+    integrator,
+    inverting,
+    mfb_bandpass,
+    mfb_lowpass,
+    noninverting,
+    rc_lowpass,
+    sallen_key_highpass,
+    sallen_key_lowpass,
+    summing,
 )
 from references.nodal import Circuit
 
@@ -52,8 +63,9 @@ def test_single_pole_bandwidth_is_gbw_over_noise_gain():
     assert corner_frequency(unity_inverting, 1e3, 1e7) == pytest.approx(500e3, rel=1e-6)
     # with a finite A0 = 1e6 the corner moves by only about NG/A0
     finite = OpAmpModel(open_loop_gain=1e6, gbw=1e6)
-    assert corner_frequency(lambda f: noninverting(100e3, 10e3, opamp=finite, freqs=f)["out"][0],
-                            1e3, 1e6) == pytest.approx(90.909e3, rel=2e-4)
+    assert corner_frequency(
+        lambda f: noninverting(100e3, 10e3, opamp=finite, freqs=f)["out"][0], 1e3, 1e6
+    ) == pytest.approx(90.909e3, rel=2e-4)
 
 
 def sallen_key_unity(q: float, f0: float = 1e3, r: float = 10e3):
@@ -101,9 +113,9 @@ def test_sallen_key_highpass_matches_textbook():
     # R1 the feedback resistor, R2 to ref; compared through scipy.signal.freqs
     c1, c2, r1, r2 = 10e-9, 22e-9, 15e3, 47e3
     f = np.logspace(1, 6, 301)
-    _, expected = analog_response([1.0, 0.0, 0.0],
-                                  [1.0, (c1 + c2) / (r2 * c1 * c2), 1 / (r1 * r2 * c1 * c2)],
-                                  TWO_PI * f)
+    _, expected = analog_response(
+        [1.0, 0.0, 0.0], [1.0, (c1 + c2) / (r2 * c1 * c2), 1 / (r1 * r2 * c1 * c2)], TWO_PI * f
+    )
     got = sallen_key_highpass(c1, c2, r1, r2, freqs=f)["out"]
     np.testing.assert_allclose(got, expected, rtol=1e-10, atol=1e-15)
     assert sallen_key_highpass(c1, c2, r1, r2, freqs=0.0)["out"][0] == 0
@@ -225,12 +237,13 @@ def test_batched_draws_equal_one_at_a_time():
     c1 = 20e-9 * (1 + 0.05 * rng.uniform(-1, 1, n))
     gain = 10 ** rng.uniform(4, 6, n)
     f = np.logspace(1, 5, 40)
-    batch = sallen_key_lowpass(r1, r2, c1, 5e-9, opamp=OpAmpModel(open_loop_gain=gain, gbw=1e6),
-                               load=2e3, freqs=f)
+    batch = sallen_key_lowpass(
+        r1, r2, c1, 5e-9, opamp=OpAmpModel(open_loop_gain=gain, gbw=1e6), load=2e3, freqs=f
+    )
     assert batch["a"].shape == (n, f.size)
     for k in range(n):
-        one = sallen_key_lowpass(r1[k], r2[k], c1[k], 5e-9, load=2e3, freqs=f,
-                                 opamp=OpAmpModel(open_loop_gain=gain[k], gbw=1e6))
+        one = sallen_key_lowpass(
+            r1[k], r2[k], c1[k], 5e-9, load=2e3, freqs=f, opamp=OpAmpModel(open_loop_gain=gain[k], gbw=1e6)
+        )
         np.testing.assert_allclose(batch["a"][k], one["a"], rtol=1e-12)
-        np.testing.assert_allclose(batch.opamp_currents["out"][k], one.opamp_currents["out"],
-                                   rtol=1e-12)
+        np.testing.assert_allclose(batch.opamp_currents["out"][k], one.opamp_currents["out"], rtol=1e-12)

@@ -5,6 +5,7 @@ topologies", solved symbolically with sympy.solve; the ideal op amp is V+ = V- (
 and the finite-gain one Vout = A (V+ - V-). Substituted at random values and compared with the
 engine's transfers (an ideal op amp: inverse gain 0; finite A: inverse gain 1/A at DC).
 """
+
 import numpy as np
 import pytest
 import sympy as sp
@@ -26,41 +27,60 @@ def solve_output(equations, unknowns, gain=None):
 
 
 def symbolic(block: str, gain=None):
-    if block == "follower":                  # in to +; output to -
+    if block == "follower":  # in to +; output to -
         return solve_output([sp.Eq(vp, vin), sp.Eq(vm, vout)], [vp, vm], gain)
-    if block == "noninverting":              # rf output to -, rg - to ref
+    if block == "noninverting":  # rf output to -, rg - to ref
         kcl = sp.Eq((vout - vm) / rf + (vref - vm) / rg, 0)
         return solve_output([sp.Eq(vp, vin), kcl], [vp, vm], gain)
-    if block == "inverting":                 # rin in to -, rf - to output, ref on +
+    if block == "inverting":  # rin in to -, rf - to output, ref on +
         kcl = sp.Eq((vin - vm) / rin + (vout - vm) / rf, 0)
         return solve_output([sp.Eq(vp, vref), kcl], [vp, vm], gain)
-    if block == "summing":                   # as inverting plus r1 from v1 and r2 from v2 to -
+    if block == "summing":  # as inverting plus r1 from v1 and r2 from v2 to -
         kcl = sp.Eq((vin - vm) / rin + (vout - vm) / rf + (v1 - vm) / r1 + (v2 - vm) / r2, 0)
         return solve_output([sp.Eq(vp, vref), kcl], [vp, vm], gain)
-    if block == "divider":                   # top in to out, bottom out to 0 V
+    if block == "divider":  # top in to out, bottom out to 0 V
         return sp.solve(sp.Eq((vin - vout) / top - vout / bottom, 0), vout)[0]
-    if block == "rc_lowpass":                # r in to out, c out to 0 V (admittance s c)
+    if block == "rc_lowpass":  # r in to out, c out to 0 V (admittance s c)
         return sp.solve(sp.Eq((vin - vout) / r - vout * s * c, 0), vout)[0]
     raise ValueError(block)
 
 
-ENGINE = {"follower": Follower(), "noninverting": Noninverting(), "inverting": Inverting(),
-          "summing": Summing(), "divider": Divider(), "rc_lowpass": RcLowpass()}
+ENGINE = {
+    "follower": Follower(),
+    "noninverting": Noninverting(),
+    "inverting": Inverting(),
+    "summing": Summing(),
+    "divider": Divider(),
+    "rc_lowpass": RcLowpass(),
+}
 # engine field -> symbol; sources: engine transfer name -> symbol
-FIELDS = {"rf": rf, "rg": rg, "rin": rin, "inputs.1.r": r1, "inputs.2.r": r2, "top": top,
-          "bottom": bottom, "r": r, "c": c}
+FIELDS = {
+    "rf": rf,
+    "rg": rg,
+    "rin": rin,
+    "inputs.1.r": r1,
+    "inputs.2.r": r2,
+    "top": top,
+    "bottom": bottom,
+    "r": r,
+    "c": c,
+}
 SOURCES = {"in": vin, "ref": vref, "inputs.1.v": v1, "inputs.2.v": v2}
-NEEDS = {"follower": [], "noninverting": ["rf", "rg"], "inverting": ["rin", "rf"],
-         "summing": ["rin", "rf", "inputs.1.r", "inputs.2.r"], "divider": ["top", "bottom"],
-         "rc_lowpass": ["r", "c"]}
+NEEDS = {
+    "follower": [],
+    "noninverting": ["rf", "rg"],
+    "inverting": ["rin", "rf"],
+    "summing": ["rin", "rf", "inputs.1.r", "inputs.2.r"],
+    "divider": ["top", "bottom"],
+    "rc_lowpass": ["r", "c"],
+}
 
 
 def engine_transfers(block: str, values: dict, freq: float, inverse_gain: float):
     sgrid = laplace_grid(np.array([freq]))
     v = {k: np.array([[x]]) for k, x in values.items()}
     v.update({k: np.zeros((1, 1)) for k in ("ref", "inputs.1.v", "inputs.2.v")})
-    got = ENGINE[block].respond(v, sgrid, np.full(sgrid.shape, inverse_gain, dtype=complex),
-                                0.0, False)
+    got = ENGINE[block].respond(v, sgrid, np.full(sgrid.shape, inverse_gain, dtype=complex), 0.0, False)
     return got.output.transfers
 
 

@@ -5,6 +5,7 @@ The expected sets of changed stages come from outside the comparison: two plain,
 circuit reasoning (a load at the last stage's output changes only that stage's output current;
 Ohm's law gives by how much).
 """
+
 import json
 import shutil
 import subprocess
@@ -18,10 +19,18 @@ CHANGE_KEYS = {"name", "change", "margins"}
 
 
 def run(*args: str, cwd: Path | None = None) -> subprocess.CompletedProcess:
-    return subprocess.run([sys.executable, "-m", "railroom.tui.cli", "check", *args],
-                          capture_output=True, text=True, timeout=120, cwd=cwd,
-                          env={"PATH": "/usr/bin:/bin", "COLUMNS": "100",
-                               "RAILROOM_PRESETS_HOME": str(Path(cwd or ".").resolve())})
+    return subprocess.run(
+        [sys.executable, "-m", "railroom.tui.cli", "check", *args],
+        capture_output=True,
+        text=True,
+        timeout=120,
+        cwd=cwd,
+        env={
+            "PATH": "/usr/bin:/bin",
+            "COLUMNS": "100",
+            "RAILROOM_PRESETS_HOME": str(Path(cwd or ".").resolve()),
+        },
+    )
 
 
 def version(tmp_path: Path, name: str, old: str, new: str) -> Path:
@@ -41,10 +50,12 @@ def plain_report(path: Path) -> dict:
 def differing_stages(old: dict, new: dict) -> set[str]:
     """Stages whose regime, verdict or any margin differs between two separate reports."""
     before = {s["name"]: s for s in old["stages"]}
-    return {s["name"] for s in new["stages"]
-            if (s["regime"], s["go"], s["margins"]) != (before[s["name"]]["regime"],
-                                                        before[s["name"]]["go"],
-                                                        before[s["name"]]["margins"])}
+    return {
+        s["name"]
+        for s in new["stages"]
+        if (s["regime"], s["go"], s["margins"])
+        != (before[s["name"]]["regime"], before[s["name"]]["go"], before[s["name"]]["margins"])
+    }
 
 
 @pytest.fixture
@@ -66,13 +77,13 @@ def test_alarm_load_changes_exactly_the_alarm_stage(tmp_path, old):
     section = report["against"]
     assert section["file"] == str(old) and section["verdict"] == "no-go"
     for entry in section["stages"]:
-        assert CHANGE_KEYS <= set(entry) and entry["change"] in ("changed", "same", "added",
-                                                                  "removed")
+        assert CHANGE_KEYS <= set(entry) and entry["change"] in ("changed", "same", "added", "removed")
         assert all(len(pair) == 2 for pair in entry["margins"].values())
     import jsonschema
 
     from railroom.engine.compare import AGAINST_SCHEMA
     from railroom.engine.schema import report_schema
+
     jsonschema.validate(section, AGAINST_SCHEMA)
     jsonschema.validate(report, report_schema())
     changed = [e for e in section["stages"] if e["change"] != "same"]
@@ -85,7 +96,7 @@ def test_alarm_load_changes_exactly_the_alarm_stage(tmp_path, old):
     freed = after - before
     step = (1 / 4.7e3 - 1 / 10e3) / 0.99
     assert 4.5 * step <= freed <= 5.1 * step
-    assert status == 1                       # NEW is NO-GO (stage 4 still short of slew rate)
+    assert status == 1  # NEW is NO-GO (stage 4 still short of slew rate)
 
 
 def test_gain_resistor_names_the_stages_two_plain_runs_disagree_on(tmp_path, old):
@@ -121,8 +132,7 @@ def test_renamed_stage_is_removed_and_added(tmp_path, old):
     assert changes["band limit"]["change"] == "added"
     assert changes["band limit"]["renamed_from"] == "anti-alias"
     assert changes["anti-alias"]["change"] == "removed"
-    assert {e["change"] for n, e in changes.items() if n not in ("band limit", "anti-alias")} == {
-        "same"}
+    assert {e["change"] for n, e in changes.items() if n not in ("band limit", "anti-alias")} == {"same"}
 
 
 def test_table_and_markdown_show_before_and_after(tmp_path, old):
@@ -150,7 +160,8 @@ def test_against_a_git_revision(tmp_path):
     status, report = against(board, "HEAD:pump.toml", cwd=repo)
     assert status == 1 and report["against"]["file"] == "HEAD:pump.toml"
     assert [e["name"] for e in report["against"]["stages"] if e["change"] != "same"] == [
-        "over-vibration alarm"]
+        "over-vibration alarm"
+    ]
     missing = run(str(board), "--against", "HEAD:nothing.toml", cwd=repo)
     assert missing.returncode == 2
     assert "HEAD:nothing.toml" in missing.stderr and "--against" in missing.stderr

@@ -1,6 +1,7 @@
 """`railroom check ... --junit FILE`: validated against the common JUnit XML layout
 (tests/reviews/data/junit.xsd, written from memory, see its header) with xmlschema, and its counts
 checked against the JSON report of the same check."""
+
 import json
 import re
 import subprocess
@@ -18,9 +19,13 @@ PREFIX = {"": 1.0, "m": 1e-3, "µ": 1e-6, "u": 1e-6, "n": 1e-9, "k": 1e3}
 
 
 def run(*args: str, home: Path) -> subprocess.CompletedProcess:
-    return subprocess.run([sys.executable, "-m", "railroom.tui.cli", "check", *args],
-                          capture_output=True, text=True, timeout=120,
-                          env={"PATH": "/usr/bin:/bin", "RAILROOM_PRESETS_HOME": str(home)})
+    return subprocess.run(
+        [sys.executable, "-m", "railroom.tui.cli", "check", *args],
+        capture_output=True,
+        text=True,
+        timeout=120,
+        env={"PATH": "/usr/bin:/bin", "RAILROOM_PRESETS_HOME": str(home)},
+    )
 
 
 def volts(text: str) -> float:
@@ -32,7 +37,7 @@ def volts(text: str) -> float:
 def test_junit_validates_and_counts_match_the_json_report(demo, tmp_path):
     junit = tmp_path / "report.xml"
     done = run(str(DEMOS / demo), "--junit", str(junit), "--json", home=tmp_path)
-    assert done.returncode == 1, done.stderr          # both demos are NO-GO
+    assert done.returncode == 1, done.stderr  # both demos are NO-GO
     report = json.loads(done.stdout)
     SCHEMA.validate(str(junit))
     root = ET.parse(junit).getroot()
@@ -43,8 +48,7 @@ def test_junit_validates_and_counts_match_the_json_report(demo, tmp_path):
     failing = [(s, r) for s in report["stages"] for r in s["reasons"] if r != "fed-clipped"]
     assert len(cases) == int(suites[0].get("tests")) == checks + len(report["stages"])
     failures = [c for c in cases if c.find("failure") is not None]
-    assert len(failures) == int(suites[0].get("failures")) == int(root.get("failures")) == \
-        len(failing) > 0
+    assert len(failures) == int(suites[0].get("failures")) == int(root.get("failures")) == len(failing) > 0
     for case, (stage, reason) in zip(failures, failing):
         assert case.get("name") == reason
         assert case.get("classname") == f"stage {stage['index']}: {stage['name']}"
@@ -58,15 +62,18 @@ def test_failure_message_gives_need_limit_and_margin(tmp_path):
     assert stage["reasons"] == ["output-low"]
     node = next(n for n in stage["nodes"] if n["label"] == stage["failing_nodes"]["output-low"])
     failure = ET.parse(junit).getroot().find(".//failure")
-    found = re.fullmatch(r"output-low: needs (\S+ \S*V), limit (\S+ \S*V), margin (\S+ \S*V) "
-                         r"\((\S+ \S*V) required\) \[(.+)\]", failure.get("message"))
+    found = re.fullmatch(
+        r"output-low: needs (\S+ \S*V), limit (\S+ \S*V), margin (\S+ \S*V) "
+        r"\((\S+ \S*V) required\) \[(.+)\]",
+        failure.get("message"),
+    )
     assert found, failure.get("message")
     need, limit, margin, required = (volts(found.group(i)) for i in range(1, 5))
     # three significant digits of the report's numbers (the message's precision)
     assert need == pytest.approx(node["output"][0], rel=5e-3)
     assert limit == pytest.approx(node["window"][0], rel=5e-3)
     assert margin == pytest.approx(stage["margins"]["output-low"], rel=5e-3)
-    assert margin == pytest.approx(need - limit, rel=1e-2)     # room below: output minus limit
+    assert margin == pytest.approx(need - limit, rel=1e-2)  # room below: output minus limit
     assert required == pytest.approx(0.05)
     assert found.group(5) == node["label"]
 
@@ -79,14 +86,12 @@ def test_unreadable_file_is_an_error_suite_and_batch_gives_a_suite_per_chain(tmp
     SCHEMA.validate(str(junit))
     root = ET.parse(junit).getroot()
     names = [s.get("name") for s in root.findall("testsuite")]
-    assert names == [str(DEMOS / "bridge_sensor.toml"), str(DEMOS / "pump_vibration.toml"),
-                     str(missing)]
+    assert names == [str(DEMOS / "bridge_sensor.toml"), str(DEMOS / "pump_vibration.toml"), str(missing)]
     assert root.findall("testsuite")[2].get("errors") == "1"
     assert root.find(".//error").get("message").startswith(str(missing))
 
 
 def test_the_schema_rejects_a_case_without_a_name():
     """The schema is not a rubber stamp: the layout's required name is enforced."""
-    broken = ('<testsuites><testsuite name="x" tests="1"><testcase classname="c"/>'
-              "</testsuite></testsuites>")
+    broken = '<testsuites><testsuite name="x" tests="1"><testcase classname="c"/></testsuite></testsuites>'
     assert not SCHEMA.is_valid(broken)

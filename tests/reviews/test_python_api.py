@@ -1,5 +1,6 @@
 """`import railroom`: the README's notebook example runs as printed, and its data agree with the
 command line's JSON report (an independent process)."""
+
 import json
 import re
 import subprocess
@@ -22,24 +23,38 @@ def readme_example() -> tuple[str, str]:
 def test_readme_example_runs_and_prints_what_the_readme_says(tmp_path):
     code, output = readme_example()
     assert "import railroom" in code and "railroom.rows(" in code
-    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
-                          timeout=120, cwd=ROOT, env={"PATH": "/usr/bin:/bin",
-                                                      "RAILROOM_PRESETS_HOME": str(tmp_path)})
+    done = subprocess.run(
+        [sys.executable, "-c", code],
+        capture_output=True,
+        text=True,
+        timeout=120,
+        cwd=ROOT,
+        env={"PATH": "/usr/bin:/bin", "RAILROOM_PRESETS_HOME": str(tmp_path)},
+    )
     assert done.returncode == 0, done.stderr
     assert done.stdout.rstrip("\n") == output
 
 
 def test_dicts_and_rows_match_the_command_line_report(tmp_path):
     import railroom
+
     result = railroom.analyse(railroom.load(str(DEMO)))
-    done = subprocess.run([sys.executable, "-m", "railroom.tui.cli", "check", str(DEMO), "--json"],
-                          capture_output=True, text=True, timeout=120,
-                          env={"PATH": "/usr/bin:/bin", "RAILROOM_PRESETS_HOME": str(tmp_path)})
+    done = subprocess.run(
+        [sys.executable, "-m", "railroom.tui.cli", "check", str(DEMO), "--json"],
+        capture_output=True,
+        text=True,
+        timeout=120,
+        env={"PATH": "/usr/bin:/bin", "RAILROOM_PRESETS_HOME": str(tmp_path)},
+    )
     assert railroom.to_dict(result) == json.loads(done.stdout)
     assert json.loads(json.dumps(railroom.to_dict(result))) == railroom.to_dict(result)  # plain
     for row, stage in zip(railroom.rows(result), json.loads(done.stdout)["stages"]):
         assert (row["index"], row["name"], row["regime"], row["go"]) == (
-            stage["index"], stage["name"], stage["regime"], stage["go"])
+            stage["index"],
+            stage["name"],
+            stage["regime"],
+            stage["go"],
+        )
         for check, margin in stage["margins"].items():
             assert row[check] == margin
         assert row["margin"] == (stage["margins"][stage["limiting"]] if stage["limiting"] else None)
@@ -49,9 +64,11 @@ def test_dicts_and_rows_match_the_command_line_report(tmp_path):
 
 
 def test_import_railroom_is_cheap_and_names_its_api():
-    code = ("import sys, railroom\n"
-            "print(sorted(m for m in sys.modules if m.startswith('railroom.')))\n"
-            "print('numpy' in sys.modules, callable(railroom.load), callable(railroom.analyse))")
+    code = (
+        "import sys, railroom\n"
+        "print(sorted(m for m in sys.modules if m.startswith('railroom.')))\n"
+        "print('numpy' in sys.modules, callable(railroom.load), callable(railroom.analyse))"
+    )
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
     assert done.stdout.splitlines() == ["[]", "False True True"], done.stderr
 
@@ -60,6 +77,7 @@ def test_load_reports_located_problems(tmp_path):
     import pytest
 
     import railroom
+
     bad = tmp_path / "bad.toml"
     bad.write_text('format = 1\n[source]\nband = ["10", "x"]\n', encoding="utf-8")
     with pytest.raises(railroom.InputError) as caught:
