@@ -24,6 +24,7 @@ from railroom.engine.analysis import analyse
 from railroom.engine.methods.montecarlo import Cancelled
 from railroom.engine.model import InputError, Problem
 from railroom.engine.results import ChainResult
+from railroom.engine.values import escaped
 from railroom.tui.screens.chain import ChainScreen
 from railroom.tui.screens.dialogs import ConfirmScreen, SaveAsScreen
 from railroom.tui.screens.help import HelpScreen
@@ -266,7 +267,7 @@ class RailroomApp(App):
 
         lost = " (your unsaved changes would be lost)" if self.session.modified else ""
         self.push_screen(ConfirmScreen(
-            f"{self.session.path.name} changed on disk.", [
+            f"{escaped(self.session.path.name)} changed on disk.", [
                 ("r", "reload", f"reload it{lost}"),
                 ("k", "keep", "keep what is on screen (saving asks before overwriting)")]),
             answered)
@@ -284,7 +285,7 @@ class RailroomApp(App):
         # opened at once (the problems screen is the base of the default mode's stack)
         self.add_mode("chain", lambda: ChainScreen(id="chain"))
         self.switch_mode("chain")
-        self.notify(f"opened {session.path}", markup=False)
+        self.notify(f"opened {escaped(str(session.path))}", markup=False)
         self.warn_presets()
 
     def warn_presets(self) -> None:
@@ -326,7 +327,7 @@ class RailroomApp(App):
         broken = (" The version on disk does not load: " + str(self.session.disk_problems[0])
                   if self.session.disk_problems else "")
         self.push_screen(ConfirmScreen(
-            f"{self.session.path.name} changed on disk since it was read.{broken}", [
+            f"{escaped(self.session.path.name)} changed on disk since it was read.{broken}", [
                 ("o", "overwrite", "overwrite it with what is on screen (the old file is kept "
                                    "as .bak)"),
                 ("r", "reload", "reload it and drop the changes on screen")]), answered)
@@ -349,12 +350,13 @@ class RailroomApp(App):
                 def answered(answer: str) -> None:
                     if answer == "overwrite":
                         self._write(target, then)
-                self.push_screen(ConfirmScreen(f"{target} exists.", [
-                    ("o", "overwrite", f"overwrite it (the old file is kept as {target.name}.bak)")]),
+                self.push_screen(ConfirmScreen(f"{escaped(str(target))} exists.", [
+                    ("o", "overwrite", f"overwrite it (the old file is kept as {escaped(target.name)}.bak)")]),
                     answered)
             else:
                 self._write(target, then)
-        self.push_screen(SaveAsScreen(self.session.path.name, f"{why}  (in {folder})"), named)
+        self.push_screen(SaveAsScreen(self.session.path.name, f"{why}  (in {escaped(str(folder))})"),
+                         named)
 
     def _write(self, path: Path | None, then: Callable[[], None] | None) -> None:
         try:
@@ -364,11 +366,11 @@ class RailroomApp(App):
             return
         drafts = self.session.draft_lines()
         if drafts:
-            self.notify(f"saved {self.session.path}, without the values still in the forms that "
+            self.notify(f"saved {escaped(str(self.session.path))}, without the values still in the forms that "
                         "are not in the chain: " + "; ".join(drafts[:4]), severity="warning",
                         markup=False, timeout=8)
         else:
-            self.notify(f"saved {self.session.path}", markup=False)
+            self.notify(f"saved {escaped(str(self.session.path))}", markup=False)
         self.chain_screen.show(self.result)
         if then is not None:
             then()

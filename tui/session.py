@@ -45,7 +45,7 @@ class Session:
         """Load a chain (the built-in demo, read-only, when path is None); raises InputError."""
         file = Path(path) if path is not None else demo_path()
         chain, library = load_checked(str(file), extra_preset_dirs)
-        text = file.read_text(encoding="utf-8")
+        text = file.read_text(encoding="utf-8-sig")     # a byte-order mark is not text
         return cls(path=file, read_only=path is None, text=text, chain=chain, library=library,
                    extra_preset_dirs=extra_preset_dirs, saved_text=text,
                    known_print=fingerprint(file))
@@ -153,7 +153,7 @@ class Session:
         """Read the file again, dropping unsaved edits; on a problem keep everything as it was."""
         try:
             chain, library = load_checked(str(self.path), self.extra_preset_dirs)
-            text = self.path.read_text(encoding="utf-8")
+            text = self.path.read_text(encoding="utf-8-sig")
         except InputError as err:
             # not read: the watcher stops asking about this version, but saving still asks before
             # overwriting it (it holds someone's edit, perhaps half done)

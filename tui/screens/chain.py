@@ -15,6 +15,7 @@ from railroom.engine.blocks import BLOCKS
 from railroom.engine.editing import FieldShape
 from railroom.engine.model import METHODS
 from railroom.engine.results import ChainResult
+from railroom.engine.values import escaped
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen
 from railroom.tui.widgets.detail import StageDetail
 from railroom.tui.widgets.field_form import FieldForm, FormField
@@ -83,12 +84,12 @@ class ChainScreen(Screen):
 
     def show(self, result: ChainResult, note: str = "") -> None:
         session = self.session
-        label = "built-in demo (read-only)" if session.read_only else str(session.path)
+        label = "built-in demo (read-only)" if session.read_only else escaped(str(session.path))
         if session.disk_problems:
             # first on the line, so a long file name cannot push it out of an 80-column view
             problem = session.disk_problems[0]
             where = f"line {problem.line} " if problem.line else ""
-            label = (f"NOT RELOADED: disk version has problems ({where}{problem.field}; r retries)"
+            label = (f"NOT RELOADED: disk version has problems ({where}{escaped(problem.field)}; r retries)"
                      f"  {label}")
         self.query_one(StatusLine).show(result, label, session.modified, note)
         self.query_one(StageList).show(result)

@@ -13,6 +13,7 @@ from textual.screen import Screen
 from textual.widgets import Footer, Static
 
 from railroom.engine.model import Problem
+from railroom.engine.values import escaped
 from railroom.tui.session import WaitingFile
 
 
@@ -21,14 +22,15 @@ def key(keys: str, action: str, words: str, ident: str, tooltip: str, show: bool
 
 
 def problem_lines(problems: tuple[Problem, ...]) -> Text:
-    """One line per problem, file:line: field: message; the user's own text shown as it is."""
+    """One line per problem, file:line: field: message; the user's own text shown as it is, with
+    control characters escaped (a file name cannot drive the terminal)."""
     text = Text()
     for problem in problems:
         where = f"{problem.file}:{problem.line}" if problem.line else problem.file
-        text.append(where, style="bold")
+        text.append(escaped(str(where)), style="bold")
         text.append(": ")
-        text.append(problem.field, style="bold red")
-        text.append(f": {problem.message}\n")
+        text.append(escaped(problem.field), style="bold red")
+        text.append(f": {escaped(problem.message)}\n")
     return text
 
 
@@ -63,7 +65,7 @@ class ProblemsScreen(Screen):
     def show(self) -> None:
         """Paint the waiting file's problems as they stand after the last try."""
         waiting = self.waiting
-        name = str(waiting.file)
+        name = escaped(str(waiting.file))
         count = len(waiting.problems)
         if waiting.missing:
             title = Text.assemble("No chain file at ", (name, "bold"), ".")
