@@ -15,7 +15,7 @@ from railroom.engine.model import InputError
 from railroom.engine.report import chain_report
 from railroom.engine.results import ChainResult, StageResult
 from railroom.engine.values import ValueTextError, escaped, format_si, parse_value, visible
-from railroom.tui.bars import LEGEND, margin_bar
+from railroom.tui.bars import FAILS_GO, LEGEND, MARKS, legend, stage_bar as drawn_bar
 from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO, json_text
 
 UNITS = {"slew": "V/s", "current": "A"}
@@ -192,7 +192,11 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
                   stage_bar(result, stage, colour, bar_width)]
         table.add_row(*cells)
     console.print(table)
-    console.print(Text(LEGEND, style="dim" if colour else ""))
+    # the interface's legend words; on two lines when the terminal is narrower than one
+    lines = [LEGEND] if console.width >= len(LEGEND) else [legend(MARKS[:4]),
+                                                            legend(MARKS[4:] + (FAILS_GO,))]
+    for line in lines:
+        console.print(Text(line, style="dim" if colour else ""))
     if result.headroom_db is not None:
         console.print(f"headroom: the source amplitude may change by {result.headroom_db:+.2f} dB "
                       "before a stage leaves its linear regime")
@@ -232,10 +236,7 @@ def regime_text(stage: StageResult, colour: bool) -> Text:
 
 def stage_bar(result: ChainResult, stage: StageResult, colour: bool, width: int = 24) -> Text:
     """The bar of the op amp with the least room inside the stage (StageResult.drawn)."""
-    rails = result.chain.rails_for(stage.stage)
-    span, window, _ = stage.drawn
-    return margin_bar((rails.negative_range[0], rails.positive_range[1]), window, span,
-                      width=width, colour=colour)
+    return drawn_bar(result.chain, stage, width=width, colour=colour)
 
 
 def chain_cautions_text(result: ChainResult) -> list[str]:

@@ -304,9 +304,9 @@ async def test_form_sits_in_the_chain_screen_with_the_stage_list_live(make_app, 
         await pilot.pause()
         assert app.screen is app.screen_stack[0]              # no screen pushed over the chain
         rows = app.screen.query_one(StageList)
-        assert str(rows.get_row("2")[4]) == "linear"
+        assert str(rows.get_cell("2", "regime")) == "linear"
         await type_into(pilot, "rf", "2M")                    # gain 201 on 100 mV: clips
-        assert str(rows.get_row("2")[4]) == "clipping!"       # the row repainted under the form
+        assert str(rows.get_cell("2", "regime")) == "clipping!"       # the row repainted under the form
         names = [f.id for f in app.screen.query(".form-value")]
         await pilot.press(*["tab"] * len(names))              # tab goes round the form's fields
         assert app.focused.id == "field-rf"
@@ -348,7 +348,7 @@ async def test_bridge_bar_shows_the_clipping_first_stage(make_app):
     app = make_app(bridge)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
-        row = app.screen.query_one(StageList).get_row("1")
-        assert str(row[4]) == "clipping!"
-        assert str(row[-1]).startswith("X")
-        assert "X" not in str(app.screen.query_one(StageList).get_row("2")[-1])
+        rows = app.screen.query_one(StageList)
+        assert str(rows.get_cell("1", "regime")) == "clipping!"
+        assert str(rows.get_cell("1", "rail span")).startswith("X")
+        assert "X" not in str(rows.get_cell("2", "rail span"))

@@ -12,7 +12,7 @@ from railroom.engine.results import ChainResult
 def verdict_words(result: ChainResult) -> str:
     if result.go:
         return "GO"
-    return f"NO-GO: {result.failing} of {len(result.stages)} stages fail"
+    return f"NO-GO: {result.failing} of {len(result.stages)} stages fail (marked !)"
 
 
 class StatusLine(Vertical):
