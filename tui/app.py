@@ -193,9 +193,8 @@ class RailroomApp(App):
     def _show_corners(self, result: ChainResult) -> None:
         self.result = result
         method = self.session.chain.conditions.method
-        note = f"{method} running..." if method != "corners" else ""
-        self.chain_screen.show(self.result, note)
-        self.chain_screen.query_one("StatusLine").running(method != "corners")
+        self.chain_screen.query_one("StatusLine").running(method if method != "corners" else None)
+        self.chain_screen.show(self.result)
 
     def _stop_full_timer(self) -> None:
         if self._full_timer is not None:
@@ -241,7 +240,7 @@ class RailroomApp(App):
     def full_done(self, generation: int, result: ChainResult, problem: str) -> None:
         if generation != self._generation:
             return                       # the user changed something meanwhile: a newer run owns it
-        self.chain_screen.query_one("StatusLine").running(False)
+        self.chain_screen.query_one("StatusLine").running(None)
         self.result = result
         if problem:
             self.chain_screen.show(result, f"{problem}; showing corners")

@@ -246,15 +246,23 @@ async def test_markup_in_names_renders_literally_and_escape_codes_are_refused(ma
         assert "\x1b" not in app.export_screenshot()
 
 
-async def test_help_lists_every_key_with_its_id(make_app):
+async def test_help_lists_every_key_and_says_esc_closes_it(make_app):
+    # issue 17: the binding ids had no visible use (they are not shown); the help says how to
+    # close it and names the fixes key
+    from railroom.tui.screens.help import HelpScreen
     app = make_app(None)
     async with app.run_test(size=(100, 40)) as pilot:
         await pilot.pause()
         await pilot.press("question_mark")
-        svg = app.export_screenshot()
-        for ident in ("app.save", "app.quit", "chain.edit", "chain.add", "stage.down",
-                      "form.close", "preset-form.save"):
-            assert ident in svg
+        help_screen = app.screen
+        assert isinstance(help_screen, HelpScreen)
+        shown = {b.id: b.tooltip for b in help_screen.bindings}
+        for ident in ("app.save", "app.quit", "chain.edit", "chain.add", "chain.fixes",
+                      "stage.down", "form.close", "preset-form.save"):
+            assert ident in shown
+        svg = app.export_screenshot().replace("&#160;", " ")
+        assert "app.save" not in svg and "chain.edit" not in svg
+        assert "esc, q or ? closes this help" in svg
         await pilot.press("escape")
         assert app.screen is app.screen_stack[0]
 
@@ -352,3 +360,56 @@ async def test_bridge_bar_shows_the_clipping_first_stage(make_app):
         assert str(rows.get_cell("1", "regime")) == "clipping!"
         assert str(rows.get_cell("1", "rail span")).startswith("X")
         assert "X" not in str(rows.get_cell("2", "rail span"))
+
+
+async def test_dialogs_say_esc_closes_them_and_f_reaches_the_fixes(make_app):
+    # issue 17: the method and add dialogs did not say how to leave them; the fixes at the end
+    # of the detail panel needed tab then PageDown, which nothing mentioned
+    from pathlib import Path
+
+    from textual.widgets import Footer, Label
+
+    from railroom.tui.screens.dialogs import ChoiceScreen
+    from railroom.tui.widgets.detail import StageDetail
+    alarms = Path(__file__).resolve().parents[2] / "tests/chains/alarms_nogo.toml"
+    app = make_app(alarms)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await app.workers.wait_for_complete()
+        await pilot.pause()
+        for key in ("m", "a"):
+            await pilot.press(key)
+            await pilot.pause()
+            assert isinstance(app.screen, ChoiceScreen)
+            assert any("esc closes" in str(label.render()) for label in app.screen.query(Label))
+            await pilot.press("escape")
+            await pilot.pause()
+        keys = {k.key for k in app.screen.query_one(Footer).query("FooterKey")}
+        assert {"f", "q", "question_mark"} <= keys            # all in 80 columns
+        detail = app.screen.query_one(StageDetail)
+        assert detail.scroll_y == 0 and detail.max_scroll_y > 0
+        await pilot.press("f")
+        await pilot.pause()
+        assert app.focused is detail and detail.scroll_y == detail.max_scroll_y
+
+
+async def test_status_line_words_while_monte_carlo_runs(make_app):
+    # issue 17: it read "method corners montecarlo running"
+    from railroom.tui.widgets.status_line import StatusLine, short_yield
+    app = make_app(None)
+    async with app.run_test(size=(120, 24)) as pilot:
+        await app.workers.wait_for_complete()
+        await pilot.pause()
+        status = app.screen.query_one(StatusLine)
+        status.running("montecarlo")
+        status.progress(0.42)
+        await pilot.pause()
+        words = str(status.query_one("#status-facts").render())
+        assert "Monte Carlo running (42 %); corners shown" in words
+        assert "montecarlo" not in words and "method corners" not in words
+        status.running(None)
+        await pilot.pause()
+        assert "running" not in str(status.query_one("#status-facts").render())
+    # the yield with its 95 % Wilson interval (Wilson 1927): 9,900 of 10,000 draws,
+    # p = 0.99, z = 1.96 gives 0.9879 .. 0.9918 (worked by hand from the score formula)
+    assert short_yield(0.99, 10_000) == "yield 99.00% (95 %: 98.8% .. 99.2%)"
+    assert short_yield(1.0, 10_000) == "no failure in 10,000 draws"

@@ -83,7 +83,7 @@ def shown(app: App) -> list[str]:
 
 
 async def open_form(pilot, words: str) -> PresetForm:
-    await pilot.press(*words, "enter", "e")
+    await pilot.press("slash", *words, "enter", "e")
     await pilot.pause()
     assert isinstance(pilot.app.screen, PresetForm)
     return pilot.app.screen
@@ -94,7 +94,7 @@ async def test_typing_filters_the_list(lab):
     async with PresetsApp().run_test(size=(120, 40)) as pilot:
         await pilot.pause()
         assert "generic-rro-5v" in shown(pilot.app) and "lab-audio" in shown(pilot.app)
-        await pilot.press(*"rro")
+        await pilot.press("slash", *"rro")
         await pilot.pause()
         assert shown(pilot.app) == ["generic-rro-5v"]
         await pilot.press(*" zzz")
@@ -168,7 +168,7 @@ async def test_editing_a_shipped_preset_saves_a_copy_in_the_users_folder(lab):
 async def test_delete_asks_first(lab):
     async with PresetsApp().run_test(size=(120, 40)) as pilot:
         await pilot.pause()
-        await pilot.press(*"lab-spare", "enter", "d")       # d shows the detail on the chain
+        await pilot.press("slash", *"lab-spare", "enter", "d")       # d shows the detail on the chain
         await pilot.pause()                                  # screen: never a delete here
         assert not isinstance(pilot.app.screen, ConfirmDialog)
         await pilot.press("x")
@@ -210,7 +210,7 @@ async def test_file_changed_on_disk_is_never_silently_overwritten(lab):
 async def test_new_from_copy_then_rename(lab):
     async with PresetsApp().run_test(size=(80, 24)) as pilot:
         await pilot.pause()
-        await pilot.press(*"rro", "down", "c")
+        await pilot.press("slash", *"rro", "down", "c")
         await pilot.pause()
         name_box = pilot.app.screen.query_one("#name-input", Input)
         assert name_box.value == "generic-rro-5v-copy"
@@ -273,6 +273,17 @@ async def test_esc_then_q_goes_back_without_typing_into_the_filter(lab):
     # Esc leaves the filter for the list (what was typed stays), so q then closes the screen
     async with PresetsApp().run_test(size=(80, 24)) as pilot:
         await pilot.pause()
-        await pilot.press(*"rro", "escape", "q")
+        await pilot.press("slash", *"rro", "escape", "q")
         await pilot.pause()
         assert not isinstance(pilot.app.screen, PresetsScreen)
+
+
+@synchronous
+async def test_the_screen_opens_on_the_list_with_its_keys_in_the_footer(lab):
+    # issue 17: it opened in the filter, whose typing hides every letter key from the footer
+    from textual.widgets import Footer
+    async with PresetsApp().run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        assert isinstance(pilot.app.focused, DataTable)
+        keys = {k.key for k in pilot.app.screen.query_one(Footer).query("FooterKey")}
+        assert {"e", "c", "r", "x", "slash", "q"} <= keys

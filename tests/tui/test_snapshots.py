@@ -56,3 +56,13 @@ def test_alarms_120x40(snap_compare, make_app):
 def test_alarms_no_color_80x24(snap_compare, make_app, monkeypatch):
     monkeypatch.setenv("NO_COLOR", "1")
     assert snap_compare(alarms(make_app), terminal_size=(80, 24), run_before=settled)
+
+
+def test_alarms_method_dialog_80x24(snap_compare, make_app):
+    """The dialog says how to leave it (esc) above its list."""
+    assert snap_compare(alarms(make_app), press=["m"], terminal_size=(80, 24), run_before=settled)
+
+
+def test_alarms_fixes_80x24(snap_compare, make_app):
+    """f: the detail panel scrolled to its sensitivity and fixes."""
+    assert snap_compare(alarms(make_app), press=["f"], terminal_size=(80, 24), run_before=settled)

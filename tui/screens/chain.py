@@ -47,6 +47,8 @@ class ChainScreen(Screen):
         key("l", "show_view('level')", "levels", "levels",
             "Show the levels of every stage on one axis", show=False),
         key("v", "toggle_view", "view", "view", "Switch between the detail and the level view"),
+        key("f", "show_fixes", "fixes", "fixes",
+            "Jump to the highlighted stage's sensitivity and fixes (end of the detail panel)"),
         key("escape", "focus_stages", "stages", "stages",
             "Back to the stage list (never discards anything)", show=False),
     ]
@@ -60,7 +62,7 @@ class ChainScreen(Screen):
         with ContentSwitcher(initial="detail", id="views"):
             yield StageDetail(id="detail")
             yield LevelView(id="level")
-        yield Footer()
+        yield Footer(compact=True)       # every shown key fits 80 columns
 
     def on_mount(self) -> None:
         self.app.recheck()
@@ -127,6 +129,14 @@ class ChainScreen(Screen):
     def action_toggle_view(self) -> None:
         current = self.query_one(ContentSwitcher).current
         self.action_show_view("level" if current == "detail" else "detail")
+
+    def action_show_fixes(self) -> None:
+        """The detail panel, scrolled to its end (sensitivity and fixes) and focused, so the
+        arrows and PageUp scroll it; Esc goes back to the stage list."""
+        self.action_show_view("detail")
+        detail = self.query_one(StageDetail)
+        detail.focus()
+        detail.scroll_end(animate=False)
 
     def action_focus_stages(self) -> None:
         self.close_form(leave=True)

@@ -60,6 +60,9 @@ class ChoiceScreen(ModalScreen[str | None]):
     def compose(self) -> ComposeResult:
         with Vertical(classes="dialog"):
             yield Label(Text(self.title_words))
+            # above the list: a long list scrolls, and this line stays in sight
+            yield Label(Text("↑ ↓ move   enter chooses   esc closes without choosing"),
+                        classes="hint")
             yield OptionList(*[Option(Text(words), id=key) for key, words in self.choices],
                              id="choices")
 

@@ -202,7 +202,8 @@ class PresetsScreen(Screen):
         self.library = Library()
 
     def compose(self) -> ComposeResult:
-        yield Input(placeholder="type to filter presets (id, description, folder)", id="preset-filter")
+        yield Input(placeholder="type to filter (id, description, folder); enter or ↓ goes to the list",
+                    id="preset-filter")
         with Horizontal(id="preset-body"):
             yield DataTable(id="preset-table", cursor_type="row", zebra_stripes=True)
             yield Static("", id="preset-view")
@@ -212,7 +213,9 @@ class PresetsScreen(Screen):
     def on_mount(self) -> None:
         self.query_one(DataTable).add_columns("preset", "from", "file")
         self.reload_library()
-        self.query_one("#preset-filter", Input).focus()
+        # the list has the focus, so the footer shows its keys (typing in the filter hides every
+        # letter key from it); / goes to the filter
+        self.query_one(DataTable).focus()
 
     def reload_library(self, select: str | None = None) -> None:
         self.library = library_of(self.folders)
@@ -277,7 +280,9 @@ class PresetsScreen(Screen):
 
     def check_action(self, action: str, parameters: tuple) -> bool | None:
         if action in ("edit", "copy", "rename", "delete", "close") and isinstance(self.focused, Input):
-            return False  # letters typed in the filter are text, not commands
+            # letters typed in the filter are text, not commands: the keys are shown dimmed in
+            # the footer (enter or the down arrow goes to the list, where they work)
+            return None
         return True
 
     def action_focus_filter(self) -> None:

@@ -8,7 +8,7 @@ from textual.widgets import Static
 
 from railroom.engine.results import VOLTAGE_CHECKS, ChainResult
 from railroom.engine.values import format_si
-from railroom.tui.bars import LEGEND, margin_bar
+from railroom.tui.bars import LEGEND, OFF_RAILS, legend, margin_bar
 
 LABEL = 18
 NUMBERS = 22
@@ -62,7 +62,7 @@ def level_picture(result: ChainResult, width: int) -> Text:
     picture.append_text(axis_line(low, high, bar_width))
     picture.append("\n")
     picture.append_text(closest_approach(result))
-    picture.append("\n" + LEGEND + "   · outside this stage's rails", style="dim")
+    picture.append("\n" + LEGEND + "   " + legend((OFF_RAILS,)), style="dim")
     return picture
 
 
