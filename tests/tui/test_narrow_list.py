@@ -57,3 +57,30 @@ def test_the_bar_marks_the_input_range_and_its_overshoot():
     inside = margin_bar((0.0, 10.0), (0.5, 9.5), (4.0, 6.0), width=10, colour=False,
                         input_span=(4.0, 6.0), input_window=(1.5, 7.5))
     assert inside.plain == "┊[──██─]──"
+
+
+def test_the_changing_columns_keep_their_width():
+    # issue 17: the regime and margin columns took the width of what they held at the moment
+    from rich.text import Text
+
+    from railroom.tui.widgets.stage_list import column_widths
+
+    def row(regime: str, margin: str) -> dict[str, Text]:
+        return {"#": Text("1"), "stage": Text("buffer"), "block": Text("follower"),
+                "short": Text("follower"), "part": Text("-"), "regime": Text(regime),
+                "limiting margin": Text(margin)}
+    short, _ = column_widths(120, [row("linear", "slew 1 V/µs")])
+    long, _ = column_widths(120, [row("fed-clipped", "output-high -3.46 V")])
+    assert short == long
+
+
+async def test_an_empty_choice_says_what_to_pick(make_app, two_stage):
+    from textual.widgets import Select
+    app = make_app(two_stage)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        await pilot.press("o")
+        await pilot.pause()
+        box = app.screen.query_one("#field-distribution", Select)
+        assert box.is_blank()
+        assert "pick the distribution: uniform / normal" in str(box.prompt)

@@ -132,7 +132,7 @@ async def test_help_and_quit_on_the_problems_screen(make_app, tmp_path):
         await pilot.pause()
         await pilot.press("question_mark")
         await pilot.pause()
-        assert "Read the chain file again now" in plain(app.screen.query("Static")[1])
+        assert "Read the chain file again now" in plain(app.screen.query("Static")[2])   # after the esc line and the intro
         await pilot.press("escape")
         await pilot.pause()
         assert isinstance(app.screen, ProblemsScreen)

@@ -287,3 +287,35 @@ async def test_the_screen_opens_on_the_list_with_its_keys_in_the_footer(lab):
         assert isinstance(pilot.app.focused, DataTable)
         keys = {k.key for k in pilot.app.screen.query_one(Footer).query("FooterKey")}
         assert {"e", "c", "r", "x", "slash", "q"} <= keys
+
+
+@synchronous
+async def test_slew_is_shown_and_written_in_its_column_unit(lab):
+    # issue 17: "0.6V/us" sat under a column reading "V/s"; the column now reads V/µs
+    from textual.widgets import Label
+    async with PresetsApp().run_test(size=(120, 40)) as pilot:
+        await pilot.pause()
+        form = await open_form(pilot, "lab-audio")
+        box = form.query_one("#field-slew", Input)
+        assert box.value == "1"                                   # 1V/us from the file
+        units = [str(label.render()) for label in form.query(".form-unit")]
+        assert "V/µs" in units and "V/s" not in units
+        box.value = "2"
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        assert 'slew = "2V/us"' in lab.read_text(encoding="utf-8")
+        assert any("kept as lab.toml.bak" in str(n.message) for n in pilot.app._notifications)
+
+
+@synchronous
+async def test_a_first_save_does_not_claim_a_bak(tmp_path):
+    # editing a shipped preset writes a new file in the user's folder: there is no .bak to keep
+    async with PresetsApp().run_test(size=(120, 40)) as pilot:
+        await pilot.pause()
+        form = await open_form(pilot, "generic-rro-5v")
+        form.query_one("#field-gbw", Input).value = "2M"
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        saved = [str(n.message) for n in pilot.app._notifications if "Saved" in str(n.message)]
+        assert saved and not any(".bak" in s for s in saved)
+        assert not list(user_folder().glob("*.bak"))

@@ -56,8 +56,9 @@ def needed_and_limit(stage: StageResult, check: str, part: Part | None,
 
 def checks_table(stage: StageResult, part: Part | None, chain: Chain) -> Table:
     table = Table(box=None, pad_edge=False, show_edge=False, expand=False)
-    for column in ("check", "needed", "limit", "margin", ""):
-        table.add_column(column, no_wrap=True)
+    # steady widths: the columns do not jump as values are typed or stages highlighted
+    for column, width in (("check", 11), ("needed", 16), ("limit", 16), ("margin", 10), ("", 4)):
+        table.add_column(column, no_wrap=True, min_width=width)
     for check in CHECKS:
         if check not in stage.margins:
             continue

@@ -32,6 +32,12 @@ EMPTY_NOTE = ("empty: leaving the form removes it (when it may be left out); a v
               "now keeps its line and comment")
 
 
+def choice_prompt(key: str, choices) -> str:
+    """What an empty choice box says: which values there are to pick (enter opens the list)."""
+    shown = " / ".join(choices[:4]) + (" ..." if len(choices) > 4 else "")
+    return f"pick the {key}: {shown} (enter opens the list)"
+
+
 class FieldInput(Input):
     """An Input that runs its editing keys (backspace, delete, arrows, ...) and the form's tab,
     shift+tab and Esc in the order they were typed.
@@ -126,7 +132,7 @@ class FieldForm(VerticalScroll):
             value = field.text if field.text in choices else Select.NULL
             return Select([(Text(c), c) for c in choices], value=value,
                           allow_blank=value is Select.NULL, id=f"field-{field.key}",
-                          classes="form-value")
+                          classes="form-value", prompt=choice_prompt(field.key, choices))
         return FieldInput(value=field.text, id=f"field-{field.key}", classes="form-value",
                           placeholder=field.shape.help)
 

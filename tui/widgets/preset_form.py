@@ -7,6 +7,8 @@ notices a file changed on disk in the meantime. The form stays open until the sa
 """
 from __future__ import annotations
 
+import re
+
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -23,6 +25,33 @@ from railroom.engine.values import ValueTextError, parse_quantity
 
 
 
+# The slew rate is quoted in V/µs: its column says so, a value from the file is shown in it, and
+# a bare number typed there is written with that unit (a value typed with its own unit is kept).
+SLEW_COLUMN, SLEW_SUFFIX = "V/µs", "V/us"
+BARE = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)(e[+-]?\d+)?[pnuµmkMG]?$")
+
+
+def column_units(key: str) -> str:
+    return SLEW_COLUMN if key == "slew" else UNITS.get(key, "")
+
+
+def slew_shown(text: str) -> str:
+    """A slew rate from the file in the column's V/µs ("0.6V/us" -> "0.6", "500k" V/s -> "0.5");
+    text that does not read as a plain rate is shown as it is."""
+    try:
+        q = parse_quantity(text.strip(), "slew")
+    except ValueTextError:
+        return text
+    if q.tolerance or q.tempco:
+        return text
+    return f"{q.value / 1e6:.6g}"
+
+
+def slew_written(text: str) -> str:
+    """What a slew box's text means in the file: a bare number is in the column's V/µs."""
+    return text + SLEW_SUFFIX if BARE.match(text.strip()) else text
+
+
 class QuantityText(Validator):
     """A value of one kind as the files write it ("0.5V/us" for a slew rate), read by the engine's parser."""
 
@@ -34,7 +63,8 @@ class QuantityText(Validator):
         if not value.strip():
             return self.success()
         try:
-            parse_quantity(value.strip(), self.kind)
+            text = slew_written(value.strip()) if self.kind == "slew" else value.strip()
+            parse_quantity(text, self.kind)
         except ValueTextError as err:
             return self.failure(str(err))
         return self.success()
@@ -92,7 +122,7 @@ class PresetForm(ModalScreen[bool]):
                     yield Label(name, classes="form-pair-name")
                 yield Input(id=f"field-{key}-{side}" if pair else f"field-{key}",
                             validators=validators, validate_on=["changed", "submitted"], compact=True)
-            yield Label(UNITS.get(key, ""), classes="form-unit")
+            yield Label(column_units(key), classes="form-unit")
         yield Static("", id=f"error-{key}", classes="form-error")
 
     def on_mount(self) -> None:
@@ -101,6 +131,8 @@ class PresetForm(ModalScreen[bool]):
     def fill(self, raw: dict[str, Raw]) -> None:
         for key, (_, pair, _) in PART_FIELDS.items():
             value = raw.get(key, ("", "") if pair else "")
+            if key == "slew" and isinstance(value, str) and value:
+                value = slew_shown(value)
             for box, text in self._boxes(key, value):
                 box.value = text
             self.query_one(f"#error-{key}", Static).display = False
@@ -143,6 +175,11 @@ class PresetForm(ModalScreen[bool]):
                 wrong.append(f"{key}: needs both values")
             else:
                 found[key] = (texts[0], texts[1]) if pair else texts[0]
+        slew, started = found.get("slew"), self.session.started.get("slew")
+        if isinstance(slew, str):
+            # unchanged: the file's own text stays; else the column's unit is written
+            found["slew"] = (started if isinstance(started, str) and slew == slew_shown(started)
+                             else slew_written(slew))
         return found, wrong
 
     @on(Input.Submitted)
@@ -152,6 +189,7 @@ class PresetForm(ModalScreen[bool]):
         if wrong:
             self.show_problems(wrong)
             return
+        had_file = self.session.target.path.exists()
         try:
             path = self.session.save(values)
         except ChangedOnDisk as err:
@@ -165,8 +203,8 @@ class PresetForm(ModalScreen[bool]):
         except (PresetEditError, OSError) as err:
             self.show_problems([str(err)])
             return
-        self.app.notify(f"Saved {self.session.part_id} to {path} (previous version kept as .bak)",
-                        markup=False)
+        kept = f" (previous version kept as {path.name}.bak)" if had_file else ""
+        self.app.notify(f"Saved {self.session.part_id} to {path}{kept}", markup=False)
         self.dismiss(True)
 
     def resolve_change(self, choice: str | None) -> None:

@@ -38,6 +38,8 @@ BLOCK_SHORT = {"follower": "follower", "noninverting": "non-inv", "inverting": "
                "mfb_lowpass": "MFB low", "mfb_bandpass": "MFB band", "divider": "divider",
                "rc_lowpass": "RC low", "adc": "adc"}
 LABELS = ("#", "stage", "block", "part", "regime", "limiting margin")
+# "fed-clipped"; "output-high -3.46 V" and the like (a slew margin in V/µs may be longer)
+STEADY = {"regime": 11, "limiting margin": 19}
 
 
 def column_widths(total: int, cells: list[dict[str, Text]]) -> tuple[dict[str, int], bool]:
@@ -49,6 +51,9 @@ def column_widths(total: int, cells: list[dict[str, Text]]) -> tuple[dict[str, i
         return max([len(label)] + [c[key or label].cell_len for c in cells])
 
     widths = {label: wanted(label) for label in LABELS}
+    # the words that change as values are typed keep one width, so the columns do not jump
+    for label, steady in STEADY.items():
+        widths[label] = max(widths[label], steady)
     short = False
     room = total - 3                                  # the scrollbar and a little air
 
