@@ -25,6 +25,7 @@ from railroom.engine.methods.montecarlo import Cancelled
 from railroom.engine.model import InputError, Problem
 from railroom.engine.results import ChainResult
 from railroom.engine.values import escaped
+from railroom.tui.commands import RailroomCommands
 from railroom.tui.screens.chain import ChainScreen
 from railroom.tui.screens.dialogs import ConfirmScreen, SaveAsScreen
 from railroom.tui.screens.help import HelpScreen
@@ -53,6 +54,7 @@ def key(keys: str, action: str, words: str, ident: str, tooltip: str, show: bool
 class RailroomApp(App):
     TITLE = "railroom"
     CSS_PATH = "railroom.tcss"
+    COMMANDS = App.COMMANDS | {RailroomCommands}
     BINDINGS = [
         key("w", "save", "save", "save", "Save the chain file (keeps comments; atomic)"),
         key("W", "save_as", "save as", "save_as", "Save the chain under a new file name",
@@ -419,6 +421,21 @@ class RailroomApp(App):
         from railroom.engine.presets import user_folder
         self.push_screen(PresetsScreen(list(self.session.library.folders), user_folder(),
                                        on_change=self.presets_changed))
+
+    def open_preset(self, part_id: str) -> None:
+        """The presets screen with `part_id` highlighted (the command palette's "preset: ...")."""
+        self.action_presets()
+        screen = self.screen
+        if hasattr(screen, "refill"):
+            self.call_after_refresh(screen.refill, part_id)
+
+    def switch_method(self, method: str) -> None:
+        """The conditions' method set to `method` (the command palette's "method: ...")."""
+        from railroom.engine import editing
+        problem = self.apply_edit(lambda t: editing.set_section_field(t, "conditions", "method",
+                                                                      method))
+        if problem:
+            self.notify(problem, title="method", severity="error", markup=False)
 
     def presets_changed(self) -> None:
         """A preset was edited: read the library again and check the chain against it."""

@@ -130,6 +130,14 @@ class ChainScreen(Screen):
         current = self.query_one(ContentSwitcher).current
         self.action_show_view("level" if current == "detail" else "detail")
 
+    def jump_to_stage(self, index: int) -> None:
+        """Highlight stage `index` (1-based) and give the stage list the focus."""
+        self.close_form(leave=True)
+        table = self.query_one(StageList)
+        table.move_cursor(row=index - 1, animate=False)
+        table.focus()
+        self._show_detail()
+
     def action_show_fixes(self) -> None:
         """The detail panel, scrolled to its end (sensitivity and fixes) and focused, so the
         arrows and PageUp scroll it; Esc goes back to the stage list."""
