@@ -413,3 +413,6 @@ async def test_status_line_words_while_monte_carlo_runs(make_app):
     # p = 0.99, z = 1.96 gives 0.9879 .. 0.9918 (worked by hand from the score formula)
     assert short_yield(0.99, 10_000) == "yield 99.00% (95 %: 98.8% .. 99.2%)"
     assert short_yield(1.0, 10_000) == "no failure in 10,000 draws"
+        await pilot.press("escape", "j")                    # another stage: read from its top
+        await pilot.pause()
+        assert detail.scroll_y == 0

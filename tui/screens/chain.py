@@ -112,7 +112,10 @@ class ChainScreen(Screen):
         if result is None or not result.stages or self.has_class("editing"):
             return
         stage = result.stages[self.highlighted() - 1]
-        self.query_one(StageDetail).show(stage, result.chain, self.session.library.parts)
+        detail = self.query_one(StageDetail)
+        if detail.border_title != f"stage {stage.index} detail":
+            detail.scroll_home(animate=False)     # another stage: its story from the top
+        detail.show(stage, result.chain, self.session.library.parts)
 
     def on_data_table_row_highlighted(self, event: DataTable.RowHighlighted) -> None:
         self._show_detail()

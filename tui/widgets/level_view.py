@@ -54,9 +54,12 @@ def level_picture(result: ChainResult, width: int) -> Text:
         name.truncate(LABEL, overflow="ellipsis", pad=True)
         picture.append_text(name)
         picture.append(" ")
+        amp = stage.measure.opamps[0] if stage.measure.opamps else None
         picture.append_text(margin_bar((rails.negative_range[0], rails.positive_range[1]),
                                        stage.measure.window, stage.measure.output,
-                                       width=bar_width, scale=(low, high)))
+                                       width=bar_width, scale=(low, high),
+                                       input_span=amp.input if amp else None,
+                                       input_window=amp.input_window if amp else None))
         out = stage.measure.output
         picture.append(f" {format_si(out[0], 'V'):>9} ..{format_si(out[1], 'V'):>9}\n")
     picture.append_text(axis_line(low, high, bar_width))
