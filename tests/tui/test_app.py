@@ -390,6 +390,9 @@ async def test_dialogs_say_esc_closes_them_and_f_reaches_the_fixes(make_app):
         await pilot.press("f")
         await pilot.pause()
         assert app.focused is detail and detail.scroll_y == detail.max_scroll_y
+        await pilot.press("escape", "j")                    # another stage: read from its top
+        await pilot.pause()
+        assert detail.scroll_y == 0
 
 
 async def test_status_line_words_while_monte_carlo_runs(make_app):
@@ -413,6 +416,3 @@ async def test_status_line_words_while_monte_carlo_runs(make_app):
     # p = 0.99, z = 1.96 gives 0.9879 .. 0.9918 (worked by hand from the score formula)
     assert short_yield(0.99, 10_000) == "yield 99.00% (95 %: 98.8% .. 99.2%)"
     assert short_yield(1.0, 10_000) == "no failure in 10,000 draws"
-        await pilot.press("escape", "j")                    # another stage: read from its top
-        await pilot.pause()
-        assert detail.scroll_y == 0
