@@ -83,4 +83,4 @@ async def test_an_empty_choice_says_what_to_pick(make_app, two_stage):
         await pilot.pause()
         box = app.screen.query_one("#field-distribution", Select)
         assert box.is_blank()
-        assert "pick the distribution: uniform / normal" in str(box.prompt)
+        assert "pick one: uniform / normal" in str(box.prompt)

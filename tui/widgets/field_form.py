@@ -35,7 +35,7 @@ EMPTY_NOTE = ("empty: leaving the form removes it (when it may be left out); a v
 def choice_prompt(key: str, choices) -> str:
     """What an empty choice box says: which values there are to pick (enter opens the list)."""
     shown = " / ".join(choices[:4]) + (" ..." if len(choices) > 4 else "")
-    return f"pick the {key}: {shown} (enter opens the list)"
+    return f"pick one: {shown} (enter)"
 
 
 class FieldInput(Input):
