@@ -183,7 +183,13 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
     for column in columns:
         table.add_column(column, no_wrap=True, overflow="ellipsis",
                          min_width=8 if column == "stage" else None)
-    bar_width = 24 if wide else max(12, min(24, console.width - 58))
+    # the bar takes what the words leave (two spaces between columns), so no word is cut
+    used = sum(max([len(label)] + [len(text) for text in column]) for label, column in (
+        ("#", [str(s.index) for s in result.stages]),
+        ("stage", [shown(s.stage.name) for s in result.stages]),
+        ("regime", [s.regime_word for s in result.stages]),
+        ("limiting margin", [margin_text(s) for s in result.stages]))) + 2 * 4 + 1
+    bar_width = 24 if wide else max(12, min(24, console.width - used))
     for stage in result.stages:
         cells = [str(stage.index), Text(shown(stage.stage.name))]
         if wide:

@@ -84,3 +84,13 @@ async def test_an_empty_choice_says_what_to_pick(make_app, two_stage):
         box = app.screen.query_one("#field-distribution", Select)
         assert box.is_blank()
         assert "pick one: uniform / normal" in str(box.prompt)
+
+
+def test_check_at_80_columns_cuts_no_word(capsys, monkeypatch):
+    # the bar takes what the words leave: "fed-clipped" and the bar's end were cut with "…"
+    from railroom.tui.cli import main
+    monkeypatch.setenv("COLUMNS", "80")
+    main(["check", "--no-color", str(ALARMS)])
+    table = capsys.readouterr().out.splitlines()[2:6]
+    assert all(len(line) <= 80 for line in table)
+    assert "…" not in "".join(table) and sum("fed-clipped" in line for line in table) == 2
