@@ -195,8 +195,9 @@ def level_diagram(result: ChainResult) -> str:
     body = "\n".join(diagram_lines(result, DIAGRAM_WIDTH))
     fence = "`" * max(3, longest_backtick_run(body) + 1)
     legend = (
-        "`|` the op amp's rails (lowest negative, highest positive), `-` beyond the part's reach, "
-        "`.` free window, `#` worst-case output span, `X` past the window, `0` 0 V."
+        "`|` the op amp's rails (lowest negative, highest positive), `-` out of reach, "
+        "`.` room, `#` signal (the worst-case output span), `X` clips (past the window), "
+        "`0` 0 V (the interface's legend words)."
     )
     return f"## Level diagram\n\n{fence}text\n{body}\n{fence}\n\n{legend}"
 

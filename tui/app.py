@@ -6,6 +6,7 @@ A chain file that cannot be opened (missing, bad TOML, unknown part, bad value) 
 interface, on the problems screen; the file is watched and the chain screen takes its place as
 soon as the file loads.
 """
+
 from __future__ import annotations
 
 import os
@@ -24,6 +25,8 @@ from railroom.engine.analysis import analyse
 from railroom.engine.methods.montecarlo import Cancelled
 from railroom.engine.model import InputError, Problem
 from railroom.engine.results import ChainResult
+from railroom.engine.values import escaped
+from railroom.tui.commands import RailroomCommands
 from railroom.tui.screens.chain import ChainScreen
 from railroom.tui.screens.dialogs import ConfirmScreen, SaveAsScreen
 from railroom.tui.screens.help import HelpScreen
@@ -52,17 +55,22 @@ def key(keys: str, action: str, words: str, ident: str, tooltip: str, show: bool
 class RailroomApp(App):
     TITLE = "railroom"
     CSS_PATH = "railroom.tcss"
+    COMMANDS = App.COMMANDS | {RailroomCommands}
     BINDINGS = [
         key("w", "save", "save", "save", "Save the chain file (keeps comments; atomic)"),
-        key("W", "save_as", "save as", "save_as", "Save the chain under a new file name",
-            show=False),
+        key("W", "save_as", "save as", "save_as", "Save the chain under a new file name", show=False),
         key("r", "reload", "reload", "reload", "Read the file again from disk", show=False),
-        key("i", "screenshot", "picture", "screenshot",
-            "Save the screen as an SVG picture for reports", show=False),
+        key(
+            "i",
+            "screenshot",
+            "picture",
+            "screenshot",
+            "Save the screen as an SVG picture for reports",
+            show=False,
+        ),
         key("p", "presets", "presets", "presets", "Open the part presets screen", show=False),
         key("question_mark", "help", "help", "help", "Show every key"),
-        key("colon", "command_palette", "commands", "commands", "Open the command palette",
-            show=False),
+        key("colon", "command_palette", "commands", "commands", "Open the command palette", show=False),
         key("q", "quit", "quit", "quit", "Quit (asks first when there are unsaved changes)"),
     ]
 
@@ -107,17 +115,22 @@ class RailroomApp(App):
         self.recheck(TYPING_PAUSE_SECONDS if typing else 0.0)
         return None
 
-    def type_edit(self, step: tuple[str, str], change: Callable[[str], str],
-                  judged: Callable[[str | None], None]) -> None:
+    def type_edit(
+        self, step: tuple[str, str], change: Callable[[str], str], judged: Callable[[str | None], None]
+    ) -> None:
         """A keystroke's edit of one field (`step`: form and field): loaded and checked in a
         worker thread, so the event loop never waits on the engine while the user types. A newer
         keystroke supersedes it; `judged(problem or None)` runs when the newest result is in."""
         self._pending[step] = (change, judged)
         self._generation += 1
         self._stop_full_timer()
-        self.run_worker(partial(self._edit_job, self._generation, self.session.text,
-                                list(self._pending.items())),
-                        thread=True, exclusive=True, group="edit", exit_on_error=False)
+        self.run_worker(
+            partial(self._edit_job, self._generation, self.session.text, list(self._pending.items())),
+            thread=True,
+            exclusive=True,
+            group="edit",
+            exit_on_error=False,
+        )
 
     def _edit_job(self, generation: int, base: str, steps: list) -> None:
         """In a worker thread: every pending field edit applied to `base`, loaded and checked
@@ -129,7 +142,7 @@ class RailroomApp(App):
                 return
             try:
                 found = self.session.prepare(text, change)
-            except Exception as err:       # never lose the app (and the typing) to a bug here
+            except Exception as err:  # never lose the app (and the typing) to a bug here
                 found = [Problem(str(self.session.path), None, "(edit)", repr(err))]
             if isinstance(found, list):
                 outcomes[step] = problem_words(found)
@@ -138,8 +151,9 @@ class RailroomApp(App):
         result = None
         if prepared is not None and not worker.is_cancelled:
             try:
-                result = analyse(prepared[1], prepared[2].parts, method="corners",
-                                 design_aids=False, headroom=False)
+                result = analyse(
+                    prepared[1], prepared[2].parts, method="corners", design_aids=False, headroom=False
+                )
             except Exception as err:
                 for step in outcomes:
                     outcomes[step] = f"the check failed: {err!r}"
@@ -147,15 +161,15 @@ class RailroomApp(App):
         if worker.is_cancelled:
             return
         try:
-            self.call_from_thread(self._edit_done, generation, base, steps, prepared, outcomes,
-                                  result)
+            self.call_from_thread(self._edit_done, generation, base, steps, prepared, outcomes, result)
         except RuntimeError:
-            pass                           # the app closed meanwhile
+            pass  # the app closed meanwhile
 
-    def _edit_done(self, generation: int, base: str, steps: list, prepared, outcomes: dict,
-                   result: ChainResult | None) -> None:
+    def _edit_done(
+        self, generation: int, base: str, steps: list, prepared, outcomes: dict, result: ChainResult | None
+    ) -> None:
         if generation != self._generation or base != self.session.text:
-            return                         # a newer keystroke (or command) owns the screen
+            return  # a newer keystroke (or command) owns the screen
         self._pending.clear()
         if prepared is not None:
             step = steps[0][0] if len(steps) == 1 else None
@@ -172,7 +186,7 @@ class RailroomApp(App):
         if not self._pending:
             return
         pending, self._pending = list(self._pending.values()), {}
-        self._generation += 1                # drops the worker's (now older) answer
+        self._generation += 1  # drops the worker's (now older) answer
         changed = False
         for change, judged in pending:
             problems = self.session.edit(change)
@@ -192,9 +206,8 @@ class RailroomApp(App):
     def _show_corners(self, result: ChainResult) -> None:
         self.result = result
         method = self.session.chain.conditions.method
-        note = f"{method} running..." if method != "corners" else ""
-        self.chain_screen.show(self.result, note)
-        self.chain_screen.query_one("StatusLine").running(method != "corners")
+        self.chain_screen.query_one("StatusLine").running(method if method != "corners" else None)
+        self.chain_screen.show(self.result)
 
     def _stop_full_timer(self) -> None:
         if self._full_timer is not None:
@@ -203,8 +216,7 @@ class RailroomApp(App):
 
     def _schedule_full(self, after: float) -> None:
         self._stop_full_timer()
-        start = partial(self.run_full, self._generation, self.session.chain,
-                        self.session.library.parts)
+        start = partial(self.run_full, self._generation, self.session.chain, self.session.library.parts)
         if after > 0:
             self._full_timer = self.set_timer(after, start)
         else:
@@ -239,8 +251,8 @@ class RailroomApp(App):
 
     def full_done(self, generation: int, result: ChainResult, problem: str) -> None:
         if generation != self._generation:
-            return                       # the user changed something meanwhile: a newer run owns it
-        self.chain_screen.query_one("StatusLine").running(False)
+            return  # the user changed something meanwhile: a newer run owns it
+        self.chain_screen.query_one("StatusLine").running(None)
         self.result = result
         if problem:
             self.chain_screen.show(result, f"{problem}; showing corners")
@@ -265,11 +277,16 @@ class RailroomApp(App):
                 self.session.keep_mine()
 
         lost = " (your unsaved changes would be lost)" if self.session.modified else ""
-        self.push_screen(ConfirmScreen(
-            f"{self.session.path.name} changed on disk.", [
-                ("r", "reload", f"reload it{lost}"),
-                ("k", "keep", "keep what is on screen (saving asks before overwriting)")]),
-            answered)
+        self.push_screen(
+            ConfirmScreen(
+                f"{escaped(self.session.path.name)} changed on disk.",
+                [
+                    ("r", "reload", f"reload it{lost}"),
+                    ("k", "keep", "keep what is on screen (saving asks before overwriting)"),
+                ],
+            ),
+            answered,
+        )
 
     def try_open(self, asked: bool = False) -> None:
         """Open the waiting file if it loads now, on the chain screen; else show its problems."""
@@ -284,14 +301,19 @@ class RailroomApp(App):
         # opened at once (the problems screen is the base of the default mode's stack)
         self.add_mode("chain", lambda: ChainScreen(id="chain"))
         self.switch_mode("chain")
-        self.notify(f"opened {session.path}", markup=False)
+        self.notify(f"opened {escaped(str(session.path))}", markup=False)
         self.warn_presets()
 
     def warn_presets(self) -> None:
         warnings = self.session.preset_warnings()
         if warnings:
-            self.notify("\n".join(warnings[:4]) + ("\n..." if len(warnings) > 4 else ""),
-                        title="presets", severity="warning", markup=False, timeout=8)
+            self.notify(
+                "\n".join(warnings[:4]) + ("\n..." if len(warnings) > 4 else ""),
+                title="presets",
+                severity="warning",
+                markup=False,
+                timeout=8,
+            )
 
     def action_reload(self) -> None:
         if self.session is None:
@@ -300,12 +322,13 @@ class RailroomApp(App):
         self.settle()
         problems = self.session.reload()
         if problems:
-            self.notify("\n".join(str(p) for p in problems[:4]), title="not reloaded",
-                        severity="error", markup=False)
+            self.notify(
+                "\n".join(str(p) for p in problems[:4]), title="not reloaded", severity="error", markup=False
+            )
             if self.result is not None:
                 self.chain_screen.show(self.result)
             return
-        self.chain_screen.close_form()        # its fields showed the text before the reload
+        self.chain_screen.close_form()  # its fields showed the text before the reload
         self.recheck()
         self.notify("reloaded from disk")
 
@@ -323,20 +346,32 @@ class RailroomApp(App):
                 self._write(None, then)
             elif answer == "reload":
                 self.action_reload()
-        broken = (" The version on disk does not load: " + str(self.session.disk_problems[0])
-                  if self.session.disk_problems else "")
-        self.push_screen(ConfirmScreen(
-            f"{self.session.path.name} changed on disk since it was read.{broken}", [
-                ("o", "overwrite", "overwrite it with what is on screen (the old file is kept "
-                                   "as .bak)"),
-                ("r", "reload", "reload it and drop the changes on screen")]), answered)
+
+        broken = (
+            " The version on disk does not load: " + str(self.session.disk_problems[0])
+            if self.session.disk_problems
+            else ""
+        )
+        self.push_screen(
+            ConfirmScreen(
+                f"{escaped(self.session.path.name)} changed on disk since it was read.{broken}",
+                [
+                    ("o", "overwrite", "overwrite it with what is on screen (the old file is kept as .bak)"),
+                    ("r", "reload", "reload it and drop the changes on screen"),
+                ],
+            ),
+            answered,
+        )
 
     def action_save_as(self, then: Callable[[], None] | None = None) -> None:
         self.settle()
         # a name typed without a folder goes beside the open file (the demo's copy: here)
         folder = Path.cwd() if self.session.read_only else self.session.path.parent
-        why = ("The built-in demo is read-only. Save a copy as:" if self.session.read_only
-               else "Save the chain as:")
+        why = (
+            "The built-in demo is read-only. Save a copy as:"
+            if self.session.read_only
+            else "Save the chain as:"
+        )
 
         def named(name: str | None) -> None:
             if not name:
@@ -346,15 +381,28 @@ class RailroomApp(App):
             if not self.session.read_only and same_file(target, self.session.path):
                 self.action_save(then)
             elif target.exists():
+
                 def answered(answer: str) -> None:
                     if answer == "overwrite":
                         self._write(target, then)
-                self.push_screen(ConfirmScreen(f"{target} exists.", [
-                    ("o", "overwrite", f"overwrite it (the old file is kept as {target.name}.bak)")]),
-                    answered)
+
+                self.push_screen(
+                    ConfirmScreen(
+                        f"{escaped(str(target))} exists.",
+                        [
+                            (
+                                "o",
+                                "overwrite",
+                                f"overwrite it (the old file is kept as {escaped(target.name)}.bak)",
+                            )
+                        ],
+                    ),
+                    answered,
+                )
             else:
                 self._write(target, then)
-        self.push_screen(SaveAsScreen(self.session.path.name, f"{why}  (in {folder})"), named)
+
+        self.push_screen(SaveAsScreen(self.session.path.name, f"{why}  (in {escaped(str(folder))})"), named)
 
     def _write(self, path: Path | None, then: Callable[[], None] | None) -> None:
         try:
@@ -364,11 +412,15 @@ class RailroomApp(App):
             return
         drafts = self.session.draft_lines()
         if drafts:
-            self.notify(f"saved {self.session.path}, without the values still in the forms that "
-                        "are not in the chain: " + "; ".join(drafts[:4]), severity="warning",
-                        markup=False, timeout=8)
+            self.notify(
+                f"saved {escaped(str(self.session.path))}, without the values still in the forms that "
+                "are not in the chain: " + "; ".join(drafts[:4]),
+                severity="warning",
+                markup=False,
+                timeout=8,
+            )
         else:
-            self.notify(f"saved {self.session.path}", markup=False)
+            self.notify(f"saved {escaped(str(self.session.path))}", markup=False)
         self.chain_screen.show(self.result)
         if then is not None:
             then()
@@ -386,13 +438,17 @@ class RailroomApp(App):
                 self.action_save(then=lambda: self.exit(0))
             elif answer == "discard":
                 self.exit(0)
+
         question = "The chain has unsaved changes." if self.session.modified else ""
         if drafts:
-            question += (" Values typed into forms are not in the chain (they have a problem) "
-                         "and are lost on quitting: " + "; ".join(drafts[:4]))
+            question += (
+                " Values typed into forms are not in the chain (they have a problem) "
+                "and are lost on quitting: " + "; ".join(drafts[:4])
+            )
         answers = [("s", "save", "save, then quit")] if self.session.modified else []
-        self.push_screen(ConfirmScreen(question.strip(), answers + [
-            ("d", "discard", "quit without saving")]), answered)
+        self.push_screen(
+            ConfirmScreen(question.strip(), answers + [("d", "discard", "quit without saving")]), answered
+        )
 
     # other rooms
     def action_help(self) -> None:
@@ -400,13 +456,22 @@ class RailroomApp(App):
         from railroom.tui.widgets.field_form import FieldForm
         from railroom.tui.widgets.preset_form import PresetForm
         from railroom.tui.widgets.stage_list import StageList
-        rooms = (self.BINDINGS, ChainScreen.BINDINGS, StageList.BINDINGS, FieldForm.BINDINGS,
-                 PresetsScreen.BINDINGS, PresetForm.BINDINGS, ProblemsScreen.BINDINGS)
+
+        rooms = (
+            self.BINDINGS,
+            ChainScreen.BINDINGS,
+            StageList.BINDINGS,
+            FieldForm.BINDINGS,
+            PresetsScreen.BINDINGS,
+            PresetForm.BINDINGS,
+            ProblemsScreen.BINDINGS,
+        )
         self.push_screen(HelpScreen([b for room in rooms for b in room if b.id]))
 
     def action_screenshot(self) -> None:
         from railroom.tui.screen_picture import save_screen_picture
-        path = save_screen_picture(self, Path.cwd())     # no web font in the picture
+
+        path = save_screen_picture(self, Path.cwd())  # no web font in the picture
         self.notify(f"picture saved: {path}", markup=False)
 
     def action_presets(self) -> None:
@@ -416,23 +481,40 @@ class RailroomApp(App):
             self.notify("the presets screen is not available yet", severity="warning")
             return
         from railroom.engine.presets import user_folder
-        self.push_screen(PresetsScreen(list(self.session.library.folders), user_folder(),
-                                       on_change=self.presets_changed))
+
+        self.push_screen(
+            PresetsScreen(list(self.session.library.folders), user_folder(), on_change=self.presets_changed)
+        )
+
+    def open_preset(self, part_id: str) -> None:
+        """The presets screen with `part_id` highlighted (the command palette's "preset: ...")."""
+        self.action_presets()
+        screen = self.screen
+        if hasattr(screen, "refill"):
+            self.call_after_refresh(screen.refill, part_id)
+
+    def switch_method(self, method: str) -> None:
+        """The conditions' method set to `method` (the command palette's "method: ...")."""
+        from railroom.engine import editing
+
+        problem = self.apply_edit(lambda t: editing.set_section_field(t, "conditions", "method", method))
+        if problem:
+            self.notify(problem, title="method", severity="error", markup=False)
 
     def presets_changed(self) -> None:
         """A preset was edited: read the library again and check the chain against it."""
         self.settle()
         problems = self.session.reload_library()
         if problems:
-            self.notify("\n".join(str(p) for p in problems[:4]), title="presets",
-                        severity="error", markup=False)
+            self.notify(
+                "\n".join(str(p) for p in problems[:4]), title="presets", severity="error", markup=False
+            )
             return
-        self.chain_screen.close_form()        # its part choices came from the old library
+        self.chain_screen.close_form()  # its part choices came from the old library
         self.recheck()
 
 
-def build_app(chain_path: str | Path | None = None,
-              extra_preset_dirs: tuple[str, ...] = ()) -> RailroomApp:
+def build_app(chain_path: str | Path | None = None, extra_preset_dirs: tuple[str, ...] = ()) -> RailroomApp:
     """The app on a chain file (the built-in demo when None); on the problems screen when the
     file cannot be opened."""
     return RailroomApp(open_chain(chain_path, tuple(str(d) for d in extra_preset_dirs)))

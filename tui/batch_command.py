@@ -4,6 +4,7 @@ For continuous integration: every chain file given (a folder stands for its `*.t
 checked in its own worker process; the summary keeps the order given, and the exit status is the
 worst of them (2 unreadable > 1 NO-GO > 0 GO). Problems of unreadable files go to stderr in full.
 """
+
 from __future__ import annotations
 
 import os
@@ -27,15 +28,15 @@ class Options:
     samples: int | None
     seed: int | None
     margin: float | None
-    output: str            # "summary" | "json" | "markdown"
-    time_limit: float | None = None     # seconds per file; the worker is stopped past it
+    output: str  # "summary" | "json" | "markdown"
+    time_limit: float | None = None  # seconds per file; the worker is stopped past it
 
 
 @dataclass(frozen=True)
 class Outcome:
     path: str
-    status: int            # EXIT_GO, EXIT_NO_GO or EXIT_INPUT
-    summary: str           # the one line after the verdict word
+    status: int  # EXIT_GO, EXIT_NO_GO or EXIT_INPUT
+    summary: str  # the one line after the verdict word
     problems: tuple[str, ...] = ()
     report: dict | None = None
     markdown: str = ""
@@ -77,23 +78,33 @@ def _not_regular(path: Path) -> str | None:
         return f"cannot be read ({err.strerror or err})"
     if stat.S_ISREG(mode):
         return None
-    return ("a folder" if stat.S_ISDIR(mode) else "a FIFO (named pipe)" if stat.S_ISFIFO(mode)
-            else "a device" if stat.S_ISCHR(mode) or stat.S_ISBLK(mode) else "not a plain file")
+    return (
+        "a folder"
+        if stat.S_ISDIR(mode)
+        else "a FIFO (named pipe)"
+        if stat.S_ISFIFO(mode)
+        else "a device"
+        if stat.S_ISCHR(mode) or stat.S_ISBLK(mode)
+        else "not a plain file"
+    )
 
 
 def check_one(path: str, options: Options) -> Outcome:
     """One chain, in a worker process: never raises (the check command's guard turns every
     failure into located lines)."""
     from railroom.tui.check_command import CheckRefused, check_file, margin_text
+
     args = _Namespace(options)
     try:
         result = check_file(path, args, options.margin)
         report = markdown = None
         if options.output == "json":
             from railroom.engine.report import chain_report
+
             report = chain_report(result)
         elif options.output == "markdown":
             from railroom.engine.markdown import markdown_report
+
             markdown = markdown_report(result)
     except CheckRefused as err:
         first = err.lines[0] if err.lines else "cannot be checked"
@@ -102,16 +113,23 @@ def check_one(path: str, options: Options) -> Outcome:
     stages = len(result.stages)
     if result.go:
         worst = min(result.stages, key=_volts_of_room, default=None)
-        detail = (f"{stages} stages; least room: stage {worst.index} ({worst.stage.name}) "
-                  f"{margin_text(worst)}" if worst is not None and worst.limiting else
-                  f"{stages} stages")
+        detail = (
+            f"{stages} stages; least room: stage {worst.index} ({worst.stage.name}) {margin_text(worst)}"
+            if worst is not None and worst.limiting
+            else f"{stages} stages"
+        )
     else:
-        failing = [f"stage {s.index} ({s.stage.name}): {', '.join(s.reasons)}"
-                   for s in result.stages if not s.go]
+        failing = [
+            f"stage {s.index} ({s.stage.name}): {', '.join(s.reasons)}" for s in result.stages if not s.go
+        ]
         detail = f"{result.failing} of {stages} stages fail: " + "; ".join(failing)
-    return Outcome(path, EXIT_GO if result.go else EXIT_NO_GO,
-                   f"{path}  {result.chain.title}  ({detail})", report=report,
-                   markdown=markdown or "")
+    return Outcome(
+        path,
+        EXIT_GO if result.go else EXIT_NO_GO,
+        f"{path}  {result.chain.title}  ({detail})",
+        report=report,
+        markdown=markdown or "",
+    )
 
 
 def _volts_of_room(stage) -> float:
@@ -136,17 +154,19 @@ def check_all(paths: list[str], options: Options, workers: int | None = None) ->
         return [check_one(p, options) for p in paths]
     import multiprocessing
     from multiprocessing.connection import wait
+
     context = multiprocessing.get_context()
     outcomes: list[Outcome | None] = [None] * len(paths)
     waiting = list(range(len(paths)))
-    running: dict[int, tuple] = {}          # index -> (process, connection, started)
+    running: dict[int, tuple] = {}  # index -> (process, connection, started)
     try:
         while waiting or running:
             while waiting and len(running) < workers:
                 index = waiting.pop(0)
                 receive, send = context.Pipe(duplex=False)
-                process = context.Process(target=_work, args=(paths[index], options, send,
-                                                              os.getpid()), daemon=True)
+                process = context.Process(
+                    target=_work, args=(paths[index], options, send, os.getpid()), daemon=True
+                )
                 process.start()
                 send.close()
                 running[index] = (process, receive, time.monotonic())
@@ -182,17 +202,23 @@ def _collect(path: str, process, connection, started: float, options: Options) -
         connection.close()
         if outcome is not None:
             return outcome
-        return Outcome(path, EXIT_INPUT, f"{path}: the worker checking this file stopped "
-                       "unexpectedly", (f"{path}: worker stopped",))
+        return Outcome(
+            path,
+            EXIT_INPUT,
+            f"{path}: the worker checking this file stopped unexpectedly",
+            (f"{path}: worker stopped",),
+        )
     limit = options.time_limit
     if limit is not None and time.monotonic() - started > limit:
         process.kill()
         process.join()
         connection.close()
-        return Outcome(path, EXIT_INPUT, f"{path}: not finished within the time limit of "
-                       f"{limit:g} s per file; stopped",
-                       (f"{path}: not finished within the time limit of {limit:g} s per file "
-                        "(--time-limit); stopped",))
+        return Outcome(
+            path,
+            EXIT_INPUT,
+            f"{path}: not finished within the time limit of {limit:g} s per file; stopped",
+            (f"{path}: not finished within the time limit of {limit:g} s per file (--time-limit); stopped",),
+        )
     return None
 
 
@@ -207,14 +233,15 @@ def _die_with(parent: int) -> None:
     """Ask Linux to kill this worker when the batch process dies, even by SIGKILL
     (prctl(2), PR_SET_PDEATHSIG); elsewhere the batch's own clean-up stops it."""
     signal.signal(signal.SIGTERM, signal.SIG_DFL)
-    signal.signal(signal.SIGINT, signal.SIG_IGN)     # the batch decides; it kills us
+    signal.signal(signal.SIGINT, signal.SIG_IGN)  # the batch decides; it kills us
     try:
         import ctypes
+
         libc = ctypes.CDLL(None, use_errno=True)
-        libc.prctl(1, signal.SIGKILL)                # 1 = PR_SET_PDEATHSIG
+        libc.prctl(1, signal.SIGKILL)  # 1 = PR_SET_PDEATHSIG
     except (OSError, AttributeError):
         pass
-    if os.getppid() != parent:                       # the batch died before prctl took hold
+    if os.getppid() != parent:  # the batch died before prctl took hold
         os._exit(1)
 
 
@@ -232,20 +259,27 @@ def run_batch(args, margin: float | None) -> int:
     paths, missing = chain_paths(args.chain, skipped)
     output = "json" if args.json else "markdown" if getattr(args, "markdown", False) else "summary"
     limit = getattr(args, "time_limit", None)
-    options = Options(tuple(args.presets), args.method, args.samples, args.seed, margin, output,
-                      DEFAULT_TIME_LIMIT_S if limit is None else (limit or None))
+    options = Options(
+        tuple(args.presets),
+        args.method,
+        args.samples,
+        args.seed,
+        margin,
+        output,
+        DEFAULT_TIME_LIMIT_S if limit is None else (limit or None),
+    )
     for line in skipped:
         print(f"railroom: {visible(line, 2000)}", file=sys.stderr)
     handlers = {}
     for signum in (signal.SIGTERM, signal.SIGHUP):
         try:
             handlers[signum] = signal.signal(signum, _stop)
-        except (ValueError, OSError):    # not the main thread: the workers still die with us
+        except (ValueError, OSError):  # not the main thread: the workers still die with us
             pass
     try:
         outcomes = check_all(paths, options) if paths else []
     except _Stopped as stop:
-        return 128 + stop.signum         # the shell's status for a process ended by a signal
+        return 128 + stop.signum  # the shell's status for a process ended by a signal
     finally:
         for signum, handler in handlers.items():
             signal.signal(signum, handler)
@@ -258,9 +292,16 @@ def run_batch(args, margin: float | None) -> int:
 
 def print_outcomes(outcomes: list[Outcome], output: str) -> None:
     if output == "json":
-        files = [{"file": o.path, "exit": o.status,
-                  "verdict": {EXIT_GO: "go", EXIT_NO_GO: "no-go"}.get(o.status, "unreadable"),
-                  "problems": list(o.problems), "report": o.report} for o in outcomes]
+        files = [
+            {
+                "file": o.path,
+                "exit": o.status,
+                "verdict": {EXIT_GO: "go", EXIT_NO_GO: "no-go"}.get(o.status, "unreadable"),
+                "problems": list(o.problems),
+                "report": o.report,
+            }
+            for o in outcomes
+        ]
         sys.stdout.write(json_text({"format": 1, "files": files}))
         return
     for o in outcomes:
@@ -269,5 +310,6 @@ def print_outcomes(outcomes: list[Outcome], output: str) -> None:
             continue
         print(visible(f"{VERDICT_WORDS[o.status]:<6} {o.summary}", 2000))
         from railroom.tui.check_command import capped
+
         for line in capped(list(o.problems)):
             print(f"railroom: {visible(line, 2000)}", file=sys.stderr)

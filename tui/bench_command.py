@@ -1,4 +1,5 @@
 """`railroom bench [--json]`: the engine's figures plus the whole-process and interface times."""
+
 from __future__ import annotations
 
 import os
@@ -14,11 +15,23 @@ from rich.table import Table
 from railroom.tui.cli import EXIT_GO, print_json
 
 CHECK_RUNS = 3
-TARGETS = {"corners_ms": "<= 20", "montecarlo_1e4_ms": "<= 50", "montecarlo_1e5_ms": "<= 400",
-           "montecarlo_1e6_peak_mb": "<= 300", "per_draw_ratio": ">= 100", "same_answers": "true",
-           "corners_200_ms": "<= 1500", "corners_200_failing_ms": "<= 1500", "rss_200_ms": "<= 2000",
-           "corners_exponent": "<= 1.1", "corners_failing_exponent": "<= 1.1", "rss_exponent": "<= 1.1",
-           "rss_failing_exponent": "<= 1.1", "rare_1e6_ms": "<= 2000", "rare_1e6_interval_holds": "true"}
+TARGETS = {
+    "corners_ms": "<= 20",
+    "montecarlo_1e4_ms": "<= 50",
+    "montecarlo_1e5_ms": "<= 400",
+    "montecarlo_1e6_peak_mb": "<= 300",
+    "per_draw_ratio": ">= 100",
+    "same_answers": "true",
+    "corners_200_ms": "<= 1500",
+    "corners_200_failing_ms": "<= 1500",
+    "rss_200_ms": "<= 2000",
+    "corners_exponent": "<= 1.1",
+    "corners_failing_exponent": "<= 1.1",
+    "rss_exponent": "<= 1.1",
+    "rss_failing_exponent": "<= 1.1",
+    "rare_1e6_ms": "<= 2000",
+    "rare_1e6_interval_holds": "true",
+}
 
 
 def check_process_seconds(runs: int = CHECK_RUNS) -> float:
@@ -28,8 +41,9 @@ def check_process_seconds(runs: int = CHECK_RUNS) -> float:
     times = []
     for _ in range(runs):
         start = time.perf_counter()
-        subprocess.run(command, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
-                       env=dict(os.environ), check=False)
+        subprocess.run(
+            command, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env=dict(os.environ), check=False
+        )
         times.append(time.perf_counter() - start)
     return round(statistics.median(times), 3)
 
@@ -53,6 +67,7 @@ def measured(call, digits: int) -> float | None:
 
 def bench_figures(**engine_options) -> dict:
     from railroom.engine.bench import run
+
     figures = run(**engine_options)
     figures["check_process_s"] = check_process_seconds()
     figures["interface_first_screen_s"], figures["interface_edit_ms"] = interface_times()

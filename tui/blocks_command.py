@@ -1,4 +1,5 @@
 """`railroom blocks [NAME]`: the block catalogue, printed from the engine's own block table."""
+
 from __future__ import annotations
 
 import sys

@@ -1,4 +1,5 @@
 """`railroom check`: the go / no-go for scripts, a readable table for people."""
+
 from __future__ import annotations
 
 import sys
@@ -15,7 +16,7 @@ from railroom.engine.model import InputError
 from railroom.engine.report import chain_report
 from railroom.engine.results import ChainResult, StageResult
 from railroom.engine.values import ValueTextError, escaped, format_si, parse_value, visible
-from railroom.tui.bars import LEGEND, margin_bar
+from railroom.tui.bars import FAILS_GO, LEGEND, MARKS, legend, stage_bar as drawn_bar
 from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO, json_text
 
 UNITS = {"slew": "V/s", "current": "A"}
@@ -36,19 +37,26 @@ def run_check(args) -> int:
         report_refusal(err)
         return EXIT_INPUT
     against = getattr(args, "against", None)
-    if getattr(args, "plots", None) and (not getattr(args, "markdown", False) or args.json
-                                         or len(args.chain) > 1 or Path(args.chain[0]).is_dir()):
+    if getattr(args, "plots", None) and (
+        not getattr(args, "markdown", False)
+        or args.json
+        or len(args.chain) > 1
+        or Path(args.chain[0]).is_dir()
+    ):
         report_refusal(CheckRefused(["--plots DIR goes with --markdown, for one chain file"]))
         return EXIT_INPUT
     if len(args.chain) > 1 or Path(args.chain[0]).is_dir():
         if against:
-            report_refusal(CheckRefused(["--against compares one chain file with its old version; "
-                                         "give a single CHAIN"]))
+            report_refusal(
+                CheckRefused(["--against compares one chain file with its old version; give a single CHAIN"])
+            )
             return EXIT_INPUT
         if getattr(args, "junit", None):
             from railroom.tui.junit_command import run_batch_junit
+
             return run_batch_junit(args, margin)
         from railroom.tui.batch_command import run_batch
+
         return run_batch(args, margin)
     started = time.perf_counter()
     try:
@@ -56,21 +64,26 @@ def run_check(args) -> int:
         old = None
         if against:
             from railroom.tui.against_command import old_result
+
             old = old_result(against, args, margin)
         if args.json:
             report = chain_report(result)
             if old is not None:
                 from railroom.engine.compare import against_report
+
                 report["against"] = against_report(old, result, against)
             output = json_text(report)
         elif getattr(args, "markdown", False):
             from railroom.engine.markdown import markdown_report
+
             output = markdown_report(result)
             if old is not None:
                 from railroom.engine.compare import against_markdown
+
                 output += "\n" + against_markdown(old, result, against) + "\n"
             if getattr(args, "plots", None):
                 from railroom.tui.plot_command import markdown_with_picture
+
                 output = markdown_with_picture(output, args.chain[0], args, result)
         else:
             output = None
@@ -78,12 +91,13 @@ def run_check(args) -> int:
         report_refusal(err)
         if getattr(args, "junit", None):
             from railroom.tui.junit_command import refused_entry, write_junit
+
             write_junit(args.junit, [refused_entry(args.chain[0], err.lines)])
         return EXIT_INPUT
     if getattr(args, "junit", None):
         from railroom.tui.junit_command import result_entry, write_junit
-        if not write_junit(args.junit, [result_entry(args.chain[0], result,
-                                                     time.perf_counter() - started)]):
+
+        if not write_junit(args.junit, [result_entry(args.chain[0], result, time.perf_counter() - started)]):
             return EXIT_INPUT
     if output is not None:
         sys.stdout.write(output)
@@ -93,6 +107,7 @@ def run_check(args) -> int:
         print_result(console, result, colour)
         if old is not None:
             from railroom.tui.against_command import print_against
+
             print_against(console, old, result, against, colour)
     return EXIT_GO if result.go else EXIT_NO_GO
 
@@ -100,8 +115,10 @@ def run_check(args) -> int:
 def command_line_numbers(args) -> float | None:
     """--margin, --samples and --seed within the ranges a chain file allows (SPEC section 2)."""
     problems = []
-    for option, value, low, high in (("--samples", args.samples, 1, 10_000_000),
-                                     ("--seed", args.seed, 0, 2**32 - 1)):
+    for option, value, low, high in (
+        ("--samples", args.samples, 1, 10_000_000),
+        ("--seed", args.seed, 0, 2**32 - 1),
+    ):
         if value is not None and not low <= value <= high:
             problems.append(f"{option}: expected a whole number from {low} to {high}, got {value}")
     limit = getattr(args, "time_limit", None)
@@ -127,15 +144,20 @@ def check_file(path: str, args, margin: float | None) -> ChainResult:
             # Overflow inside the arithmetic is judged by the checks; a warning line helps no one.
             warnings.simplefilter("ignore", RuntimeWarning)
             chain, library = load_checked(path, tuple(args.presets), strict=True)
-            return analyse(chain, library.parts, method=args.method, samples=args.samples,
-                           seed=args.seed, margin=margin)
+            return analyse(
+                chain, library.parts, method=args.method, samples=args.samples, seed=args.seed, margin=margin
+            )
     except InputError as err:
         raise CheckRefused([str(p) for p in err.problems]) from None
     except NotImplementedError as err:
         raise CheckRefused([f"{path}: {err}"]) from None
     except Exception as err:  # noqa: BLE001 - the guard: an engine failure is one clear message
-        raise CheckRefused([f"{path}: the check could not finish ({type(err).__name__}: {err}); "
-                            "this is a railroom bug, please report it with the chain file"]) from None
+        raise CheckRefused(
+            [
+                f"{path}: the check could not finish ({type(err).__name__}: {err}); "
+                "this is a railroom bug, please report it with the chain file"
+            ]
+        ) from None
 
 
 MAX_PROBLEM_LINES = 200
@@ -178,32 +200,55 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
     console.print(header)
     wide = console.width >= 120
     table = Table(box=None, pad_edge=False, show_edge=False)
-    columns = ("#", "stage", "block", "part", "regime", "limiting margin", "rail span") if wide else (
-        "#", "stage", "regime", "limiting margin", "rail span")
+    columns = (
+        ("#", "stage", "block", "part", "regime", "limiting margin", "rail span")
+        if wide
+        else ("#", "stage", "regime", "limiting margin", "rail span")
+    )
     for column in columns:
-        table.add_column(column, no_wrap=True, overflow="ellipsis",
-                         min_width=8 if column == "stage" else None)
-    bar_width = 24 if wide else max(12, min(24, console.width - 58))
+        table.add_column(
+            column, no_wrap=True, overflow="ellipsis", min_width=8 if column == "stage" else None
+        )
+    # the bar takes what the words leave (two spaces between columns), so no word is cut
+    used = (
+        sum(
+            max([len(label)] + [len(text) for text in column])
+            for label, column in (
+                ("#", [str(s.index) for s in result.stages]),
+                ("stage", [shown(s.stage.name) for s in result.stages]),
+                ("regime", [s.regime_word for s in result.stages]),
+                ("limiting margin", [margin_text(s) for s in result.stages]),
+            )
+        )
+        + 2 * 4
+        + 1
+    )
+    bar_width = 24 if wide else max(12, min(24, console.width - used))
     for stage in result.stages:
         cells = [str(stage.index), Text(shown(stage.stage.name))]
         if wide:
             cells += [stage.stage.block, Text(shown(stage.stage.part or "-"))]
-        cells += [regime_text(stage, colour), margin_text(stage),
-                  stage_bar(result, stage, colour, bar_width)]
+        cells += [regime_text(stage, colour), margin_text(stage), stage_bar(result, stage, colour, bar_width)]
         table.add_row(*cells)
     console.print(table)
-    console.print(Text(LEGEND, style="dim" if colour else ""))
+    # the interface's legend words; on two lines when the terminal is narrower than one
+    lines = [LEGEND] if console.width >= len(LEGEND) else [legend(MARKS[:4]), legend(MARKS[4:] + (FAILS_GO,))]
+    for line in lines:
+        console.print(Text(line, style="dim" if colour else ""))
     if result.headroom_db is not None:
-        console.print(f"headroom: the source amplitude may change by {result.headroom_db:+.2f} dB "
-                      "before a stage leaves its linear regime")
+        console.print(
+            f"headroom: the source amplitude may change by {result.headroom_db:+.2f} dB "
+            "before a stage leaves its linear regime"
+        )
     if result.chain_yield is not None:
         from railroom.engine.methods.rare import yield_words
-        console.print(yield_words(result.chain_yield, result.samples or 0, result.rare),
-                      markup=False, highlight=False)
+
+        console.print(
+            yield_words(result.chain_yield, result.samples or 0, result.rare), markup=False, highlight=False
+        )
     for stage in result.stages:
         if stage.reasons:
-            console.print(Text(shown(f"stage {stage.index} ({stage.stage.name}): "
-                                     f"{stage.reason_words()}")))
+            console.print(Text(shown(f"stage {stage.index} ({stage.stage.name}): {stage.reason_words()}")))
         print_aids(console, stage)
     for caution in chain_cautions_text(result):
         console.print(Text(shown(f"caution: {caution}"), style="yellow" if colour else ""))
@@ -232,10 +277,7 @@ def regime_text(stage: StageResult, colour: bool) -> Text:
 
 def stage_bar(result: ChainResult, stage: StageResult, colour: bool, width: int = 24) -> Text:
     """The bar of the op amp with the least room inside the stage (StageResult.drawn)."""
-    rails = result.chain.rails_for(stage.stage)
-    span, window, _ = stage.drawn
-    return margin_bar((rails.negative_range[0], rails.positive_range[1]), window, span,
-                      width=width, colour=colour)
+    return drawn_bar(result.chain, stage, width=width, colour=colour)
 
 
 def chain_cautions_text(result: ChainResult) -> list[str]:

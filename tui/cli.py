@@ -1,12 +1,13 @@
 """The `railroom` command. `check`, `presets` and `bench` never import Textual (start-up time).
 
-    railroom [CHAIN]                       open the terminal interface (the built-in demo without CHAIN)
-    railroom check CHAIN [--json] ...      go / no-go with an exit code: 0 GO, 1 NO-GO, 2 unreadable input
-    railroom presets [list | show ID | check FILE]
-    railroom plot CHAIN [-o FILE]
-    railroom blocks [NAME]
-    railroom bench [--json]
+railroom [CHAIN]                       open the terminal interface (the built-in demo without CHAIN)
+railroom check CHAIN [--json] ...      go / no-go with an exit code: 0 GO, 1 NO-GO, 2 unreadable input
+railroom presets [list | show ID | check FILE]
+railroom plot CHAIN [-o FILE]
+railroom blocks [NAME]
+railroom bench [--json]
 """
+
 from __future__ import annotations
 
 import argparse
@@ -21,38 +22,54 @@ def build_parser() -> argparse.ArgumentParser:
         prog="railroom",
         usage="railroom [CHAIN] | railroom {check,presets,plot,blocks,bench,schema} ...",
         description="Rail-headroom and regime checker for op-amp signal chains.\n"
-                    "`railroom [CHAIN]` opens the terminal interface on the chain file\n"
-                    "(the built-in demo without one).",
+        "`railroom [CHAIN]` opens the terminal interface on the chain file\n"
+        "(the built-in demo without one).",
         formatter_class=argparse.RawDescriptionHelpFormatter,
         epilog="examples:\n"
-               "  railroom my-chain.toml                 the interface on a chain\n"
-               "  railroom check my-chain.toml --json    the JSON report; exit 0 GO, 1 NO-GO, 2 unreadable\n"
-               "  railroom check NEW.toml --against OLD.toml\n"
-               "  railroom plot my-chain.toml -o levels.svg\n"
-               "  railroom presets list")
+        "  railroom my-chain.toml                 the interface on a chain\n"
+        "  railroom check my-chain.toml --json    the JSON report; exit 0 GO, 1 NO-GO, 2 unreadable\n"
+        "  railroom check NEW.toml --against OLD.toml\n"
+        "  railroom plot my-chain.toml -o levels.svg\n"
+        "  railroom presets list",
+    )
     sub = parser.add_subparsers(dest="command")
 
     check = sub.add_parser("check", help="check a chain file: exit 0 GO, 1 NO-GO, 2 unreadable")
     check.add_argument("chain", nargs="+", help="chain file(s) or folder(s)")
     check.add_argument("--json", action="store_true", help="print the JSON report")
     check.add_argument("--markdown", action="store_true", help="print a Markdown review report")
-    check.add_argument("--method", choices=("corners", "rss", "montecarlo"),
-                       help="override the chain file's method")
+    check.add_argument(
+        "--method", choices=("corners", "rss", "montecarlo"), help="override the chain file's method"
+    )
     check.add_argument("--samples", type=int, help="Monte Carlo draws")
     check.add_argument("--seed", type=int, help="Monte Carlo seed")
     check.add_argument("--margin", help="room needed to every limit for GO, V (e.g. 50m)")
-    check.add_argument("--presets", action="append", default=[], metavar="DIR",
-                       help="extra preset folder (may repeat); searched last")
+    check.add_argument(
+        "--presets",
+        action="append",
+        default=[],
+        metavar="DIR",
+        help="extra preset folder (may repeat); searched last",
+    )
     check.add_argument("--no-color", action="store_true", help="plain characters only")
-    check.add_argument("--against", metavar="OLD",
-                       help="also check OLD (a file, or REV:PATH read with git show) and show "
-                            "what changed per stage; the exit status stays CHAIN's")
-    check.add_argument("--junit", metavar="FILE",
-                       help="also write a JUnit XML report (a test case per stage and check)")
-    check.add_argument("--plots", metavar="DIR",
-                       help="with --markdown: write the level picture into DIR and embed it")
-    check.add_argument("--time-limit", type=float, metavar="SECONDS",
-                       help="many files: stop checking one after this long (default 300; 0: none)")
+    check.add_argument(
+        "--against",
+        metavar="OLD",
+        help="also check OLD (a file, or REV:PATH read with git show) and show "
+        "what changed per stage; the exit status stays CHAIN's",
+    )
+    check.add_argument(
+        "--junit", metavar="FILE", help="also write a JUnit XML report (a test case per stage and check)"
+    )
+    check.add_argument(
+        "--plots", metavar="DIR", help="with --markdown: write the level picture into DIR and embed it"
+    )
+    check.add_argument(
+        "--time-limit",
+        type=float,
+        metavar="SECONDS",
+        help="many files: stop checking one after this long (default 300; 0: none)",
+    )
 
     presets = sub.add_parser("presets", help="list, show or check part presets")
     presets.add_argument("action", nargs="?", default="list", choices=("list", "show", "check"))
@@ -68,8 +85,9 @@ def build_parser() -> argparse.ArgumentParser:
 
     plot = sub.add_parser("plot", help="draw the level picture of a chain (SVG or PNG)")
     plot.add_argument("chain", help="chain file")
-    plot.add_argument("-o", "--output", metavar="FILE",
-                      help="FILE.svg or FILE.png (default: CHAIN's name with .svg, here)")
+    plot.add_argument(
+        "-o", "--output", metavar="FILE", help="FILE.svg or FILE.png (default: CHAIN's name with .svg, here)"
+    )
     plot.add_argument("--presets", action="append", default=[], metavar="DIR")
 
     schema = sub.add_parser("schema", help="print the JSON Schema of a file kind")
@@ -103,13 +121,14 @@ class QuietPipe:
 
     def _silence(self) -> None:
         import os
+
         self.broken = True
         try:
             null = os.open(os.devnull, os.O_WRONLY)
             os.dup2(null, self._stream.fileno())
             os.close(null)
         except (OSError, ValueError, AttributeError):
-            pass        # not a real file (a test's capture): the flag alone keeps it quiet
+            pass  # not a real file (a test's capture): the flag alone keeps it quiet
 
     def __getattr__(self, name: str):
         return getattr(self._stream, name)
@@ -117,14 +136,13 @@ class QuietPipe:
 
 def main(argv: list[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
-    if not argv or argv[0] not in ("check", "presets", "bench", "-h", "--help", "schema",
-                                    "blocks", "plot"):
+    if not argv or argv[0] not in ("check", "presets", "bench", "-h", "--help", "schema", "blocks", "plot"):
         return open_interface(argv)
     streams = sys.stdout, sys.stderr
     sys.stdout, sys.stderr = QuietPipe(sys.stdout), QuietPipe(sys.stderr)
     try:
         return run_command(argv)
-    except KeyboardInterrupt:           # Ctrl-C: stop quietly, with the shell's status for it
+    except KeyboardInterrupt:  # Ctrl-C: stop quietly, with the shell's status for it
         return 128 + 2
     finally:
         for stream in (sys.stdout, sys.stderr):
@@ -136,21 +154,27 @@ def run_command(argv: list[str]) -> int:
     args = build_parser().parse_args(argv)
     if args.command == "check":
         from railroom.tui.check_command import run_check
+
         return run_check(args)
     if args.command == "presets":
         from railroom.tui.presets_command import run_presets
+
         return run_presets(args)
     if args.command == "bench":
         from railroom.tui.bench_command import run_bench
+
         return run_bench(args)
     if args.command == "blocks":
         from railroom.tui.blocks_command import run_blocks
+
         return run_blocks(args)
     if args.command == "plot":
         from railroom.tui.plot_command import run_plot
+
         return run_plot(args)
     if args.command == "schema":
         from railroom.tui.schema_command import run_schema
+
         return run_schema(args)
     return EXIT_INPUT
 
@@ -171,6 +195,7 @@ def open_interface(argv: list[str]) -> int:
 def json_text(data: dict) -> str:
     """Indented JSON for stdout; characters that would act on a terminal are \\u escapes."""
     from railroom.engine.values import terminal_json
+
     return terminal_json(json.dumps(data, indent=2, ensure_ascii=False)) + "\n"
 
 

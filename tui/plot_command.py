@@ -3,6 +3,7 @@
 matplotlib is imported only on this path (and by `check --markdown --plots DIR`). Exit status:
 0 when the picture is written, 2 when the chain cannot be read or the file cannot be written.
 """
+
 from __future__ import annotations
 
 import warnings
@@ -23,9 +24,14 @@ def draw(path: str, presets: tuple[str, ...], target: Path, result=None) -> Path
     from railroom.engine.model import InputError
     from railroom.engine.picture import SUFFIXES, write_picture
     from railroom.tui.check_command import CheckRefused
+
     if target.suffix.lower() not in SUFFIXES:
-        raise CheckRefused([f"{target}: a picture is written as .svg or .png "
-                            f"(by the suffix), got {target.suffix or 'no suffix'!r}"])
+        raise CheckRefused(
+            [
+                f"{target}: a picture is written as .svg or .png "
+                f"(by the suffix), got {target.suffix or 'no suffix'!r}"
+            ]
+        )
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
@@ -41,6 +47,7 @@ def draw(path: str, presets: tuple[str, ...], target: Path, result=None) -> Path
 
 def run_plot(args) -> int:
     from railroom.tui.check_command import CheckRefused, report_refusal
+
     target = picture_path(args.chain, args.output)
     try:
         written = draw(args.chain, tuple(args.presets), target)
@@ -58,8 +65,9 @@ def markdown_with_picture(markdown: str, path: str, args, result) -> str:
         folder.mkdir(parents=True, exist_ok=True)
     except OSError as err:
         from railroom.tui.check_command import CheckRefused
-        raise CheckRefused([f"--plots {args.plots}: cannot be made: {err.strerror or err}"]) \
-            from None
+
+        raise CheckRefused([f"--plots {args.plots}: cannot be made: {err.strerror or err}"]) from None
     written = draw(path, tuple(args.presets), folder / (Path(path).stem + ".svg"), result)
     from railroom.engine.picture import embed_in_markdown
+
     return embed_in_markdown(markdown, str(written), result.chain.title)

@@ -3,6 +3,7 @@
 Plain text for SSH sessions and scripts; never imports Textual. Exit 0 when all is well, 2 when an
 id is unknown or a file has problems (every problem on stderr: file, line, field, message).
 """
+
 from __future__ import annotations
 
 import difflib
@@ -11,14 +12,22 @@ from pathlib import Path
 
 from railroom.engine.model import Part
 from railroom.engine.part_limits import LIMIT_FIELDS
-from railroom.engine.presets import (PAIR_SIDES, PART_FIELDS, UNITS, Library, load_library, missing_folders,
-                                     read_preset_file,
-                                     search_order, shipped_folder, user_folder)
+from railroom.engine.presets import (
+    PAIR_SIDES,
+    PART_FIELDS,
+    UNITS,
+    Library,
+    load_library,
+    missing_folders,
+    read_preset_file,
+    search_order,
+    shipped_folder,
+    user_folder,
+)
 from railroom.engine.values import escaped, format_si, visible
 from railroom.tui.cli import EXIT_GO, EXIT_INPUT
 
-MAX_PROBLEM_LINES = 200        # as `railroom check`: the first lines, then a count
-
+MAX_PROBLEM_LINES = 200  # as `railroom check`: the first lines, then a count
 
 
 def say(text: str = "", file=None) -> None:
@@ -68,9 +77,15 @@ def list_parts(library: Library) -> int:
         say(line)
     for part_id in sorted(library.parts.hidden):
         where = library.parts.broken[part_id]
-        say(visible(f"railroom: {where.file}:{where.line or '?'}: part.{part_id}: could not be "
-                      f"read, so it is not listed; {library.parts.hidden[part_id]} is not used in "
-                      "its place", 2000), file=sys.stderr)
+        say(
+            visible(
+                f"railroom: {where.file}:{where.line or '?'}: part.{part_id}: could not be "
+                f"read, so it is not listed; {library.parts.hidden[part_id]} is not used in "
+                "its place",
+                2000,
+            ),
+            file=sys.stderr,
+        )
     report_problems(library.problems, "problem(s) in preset files (the good presets are listed)")
     return EXIT_GO
 
@@ -88,14 +103,22 @@ def show_part(library: Library, part_id: str | None) -> int:
     part = library.parts.get(part_id or "")
     broken = library.parts.broken.get(part_id or "")
     if broken is not None:
-        say(visible(f"railroom: preset {part_id!r} is defined in {broken.file}:{broken.line or '?'}"
-                      f", which could not be read ({broken.field}: {broken.message})", 2000),
-              file=sys.stderr)
+        say(
+            visible(
+                f"railroom: preset {part_id!r} is defined in {broken.file}:{broken.line or '?'}"
+                f", which could not be read ({broken.field}: {broken.message})",
+                2000,
+            ),
+            file=sys.stderr,
+        )
         return EXIT_INPUT
     if part is None:
         hint = difflib.get_close_matches(part_id or "", list(library.parts), n=3)
-        say(f"railroom: no preset {part_id!r}" + (f"; did you mean {', '.join(hint)}?" if hint else
-              "; `railroom presets list` shows them all"), file=sys.stderr)
+        say(
+            f"railroom: no preset {part_id!r}"
+            + (f"; did you mean {', '.join(hint)}?" if hint else "; `railroom presets list` shows them all"),
+            file=sys.stderr,
+        )
         return EXIT_INPUT
     say(f"[part.{part.id}]  from {part.origin}")
     for earlier in part.overrides:
@@ -110,9 +133,14 @@ def limit_text(key: str, value) -> str | None:
     if key == "phase_reversal":
         return "yes: the output inverts beyond the input range" if value else None
     if key == "output_headroom_curve":
-        return None if not value else "; ".join(
-            f"{format_si(c, 'A')}: upper {format_si(up, 'V')}, lower {format_si(down, 'V')}"
-            for c, up, down in value)
+        return (
+            None
+            if not value
+            else "; ".join(
+                f"{format_si(c, 'A')}: upper {format_si(up, 'V')}, lower {format_si(down, 'V')}"
+                for c, up, down in value
+            )
+        )
     if key == "temperature_range":
         return None if value is None else f"{value[0]:g} to {value[1]:g} °C"
     if key == "bias_current_doubling":

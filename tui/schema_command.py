@@ -1,4 +1,5 @@
 """`railroom schema chain|preset|report`: print a JSON Schema for editors and scripts."""
+
 from __future__ import annotations
 
 from railroom.engine.schema import SCHEMAS

@@ -5,6 +5,7 @@ font files on a public CDN, which a browser opening the picture would fetch. Her
 the generator comment (a web address) go, and the text asks for monospace fonts installed on the
 viewer's machine. The only address left is the SVG namespace, which is a name, never fetched.
 """
+
 from __future__ import annotations
 
 import re
@@ -28,6 +29,7 @@ def without_web_fonts(svg: str) -> str:
 def save_screen_picture(app, folder: str | Path) -> str:
     """Write the current screen as an SVG into `folder` (a name with the date and time)."""
     from textual._files import generate_datetime_filename
+
     path = Path(folder).expanduser() / generate_datetime_filename(app.title, ".svg")
     write_atomic(path, without_web_fonts(app.export_screenshot()))
     return str(path)

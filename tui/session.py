@@ -3,6 +3,7 @@
 Every edit is a function of the text (engine/editing.py); an edit is kept only when the one chain
 loader and the part library accept the edited text, so the screen always shows a checked chain.
 """
+
 from __future__ import annotations
 
 from dataclasses import dataclass, field
@@ -17,8 +18,10 @@ from railroom.engine.plan import plan_chain
 from railroom.engine.presets import Library, load_library, search_order
 from railroom.engine.results import ChainResult
 
+
 def demo_path() -> Path:
     import railroom.engine.demos
+
     return Path(railroom.engine.demos.__file__).parent / "pump_vibration.toml"
 
 
@@ -33,22 +36,29 @@ class Session:
     library: Library
     extra_preset_dirs: tuple[str, ...] = ()
     saved_text: str = ""
-    known_print: Fingerprint | None = None           # the file as we last read or wrote it
-    ignored_print: Fingerprint | None = None         # a newer file the user chose not to load
-    disk_problems: list[Problem] = field(default_factory=list)   # the file on disk does not load
-    drafts: dict[str, dict[str, str]] = field(default_factory=dict)   # form -> field -> bad text
+    known_print: Fingerprint | None = None  # the file as we last read or wrote it
+    ignored_print: Fingerprint | None = None  # a newer file the user chose not to load
+    disk_problems: list[Problem] = field(default_factory=list)  # the file on disk does not load
+    drafts: dict[str, dict[str, str]] = field(default_factory=dict)  # form -> field -> bad text
     history: list[str] = field(default_factory=list)
-    _last_step: object = None                         # the field the last kept keystroke was in
+    _last_step: object = None  # the field the last kept keystroke was in
 
     @classmethod
     def open(cls, path: str | Path | None, extra_preset_dirs: tuple[str, ...] = ()) -> Session:
         """Load a chain (the built-in demo, read-only, when path is None); raises InputError."""
         file = Path(path) if path is not None else demo_path()
         chain, library = load_checked(str(file), extra_preset_dirs)
-        text = file.read_text(encoding="utf-8")
-        return cls(path=file, read_only=path is None, text=text, chain=chain, library=library,
-                   extra_preset_dirs=extra_preset_dirs, saved_text=text,
-                   known_print=fingerprint(file))
+        text = file.read_text(encoding="utf-8-sig")  # a byte-order mark is not text
+        return cls(
+            path=file,
+            read_only=path is None,
+            text=text,
+            chain=chain,
+            library=library,
+            extra_preset_dirs=extra_preset_dirs,
+            saved_text=text,
+            known_print=fingerprint(file),
+        )
 
     @property
     def modified(self) -> bool:
@@ -61,8 +71,7 @@ class Session:
     def corners(self) -> ChainResult:
         """Worst case by corners, whatever method the file asks for, without the design aids
         (sensitivity and fixes re-run the chain many times): the at-once answer."""
-        return analyse(self.chain, self.library.parts, method="corners", design_aids=False,
-                       headroom=False)
+        return analyse(self.chain, self.library.parts, method="corners", design_aids=False, headroom=False)
 
     def edit(self, change: Callable[[str], str]) -> list[Problem]:
         """Apply an edit of the text; keep it only when it loads. Returns the problems, if any."""
@@ -72,8 +81,7 @@ class Session:
         self.commit(*prepared)
         return []
 
-    def prepare(self, text: str, change: Callable[[str], str]
-                ) -> tuple[str, Chain, Library] | list[Problem]:
+    def prepare(self, text: str, change: Callable[[str], str]) -> tuple[str, Chain, Library] | list[Problem]:
         """The edited text with its loaded chain and library, or the problems; changes nothing,
         so a worker thread may run it while the user goes on typing."""
         try:
@@ -98,8 +106,9 @@ class Session:
     def draft_lines(self) -> list[str]:
         """The values typed into forms that are not in the chain (they have a problem, or the
         field was emptied), as "stage.2 rf: '4q7'"; saving writes the chain without them."""
-        return [f"{form} {key}: {text!r}" for form, fields in self.drafts.items()
-                for key, text in fields.items()]
+        return [
+            f"{form} {key}: {text!r}" for form, fields in self.drafts.items() for key, text in fields.items()
+        ]
 
     def undo(self) -> bool:
         if not self.history:
@@ -153,7 +162,7 @@ class Session:
         """Read the file again, dropping unsaved edits; on a problem keep everything as it was."""
         try:
             chain, library = load_checked(str(self.path), self.extra_preset_dirs)
-            text = self.path.read_text(encoding="utf-8")
+            text = self.path.read_text(encoding="utf-8-sig")
         except InputError as err:
             # not read: the watcher stops asking about this version, but saving still asks before
             # overwriting it (it holds someone's edit, perhaps half done)
@@ -189,10 +198,10 @@ class WaitingFile:
     """A chain file that cannot be opened (yet): missing, unreadable or with problems. It is
     watched, with the preset files, and opened as soon as it loads. No Textual here either."""
 
-    path: Path | None                                 # None: the built-in demo
+    path: Path | None  # None: the built-in demo
     extra_preset_dirs: tuple[str, ...]
     problems: tuple[Problem, ...] = ()
-    seen: tuple = ()                                  # the prints of the watched files at the last try
+    seen: tuple = ()  # the prints of the watched files at the last try
 
     @property
     def file(self) -> Path:
@@ -231,8 +240,7 @@ class WaitingFile:
         write_atomic(self.path, demo_path().read_text(encoding="utf-8"))
 
 
-def open_chain(path: str | Path | None, extra_preset_dirs: tuple[str, ...] = ()
-               ) -> Session | WaitingFile:
+def open_chain(path: str | Path | None, extra_preset_dirs: tuple[str, ...] = ()) -> Session | WaitingFile:
     """The session on a chain file, or the file to wait for with the problems that stop it."""
     waiting = WaitingFile(Path(path) if path is not None else None, extra_preset_dirs)
     return waiting.try_open() or waiting

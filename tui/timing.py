@@ -13,6 +13,7 @@ edit_repaint_ms(stages): builds a chain of `stages` stages (repeating the demo's
     Pilot.pause(): that sleeps until the whole process idles, so it counts its own sleep and the
     background worker's full check, which the user does not wait for. Median of runs.
 """
+
 from __future__ import annotations
 
 import asyncio
@@ -40,9 +41,10 @@ def first_screen_seconds(timeout: float = 20.0) -> float:
     import pty
     import struct
     import termios
+
     command = railroom_command()
     pid, fd = pty.fork()
-    if pid == 0:                                             # the child: become railroom
+    if pid == 0:  # the child: become railroom
         os.environ.setdefault("TERM", "xterm-256color")
         os.execv(command[0], command)
     fcntl.ioctl(fd, termios.TIOCSWINSZ, struct.pack("HHHH", 24, 80, 0, 0))
@@ -86,12 +88,14 @@ def _stop(pid: int, fd: int) -> None:
 def long_chain_text(stages: int) -> str:
     """The demo's rails and source with `stages` buffer / unity inverting / filter stages in turn."""
     from railroom.tui.session import demo_path
+
     demo = demo_path().read_text(encoding="utf-8")
-    head = demo[:demo.index("[[stage]]")]
-    kinds = [('follower', 'part = "generic-bipolar-15v"\nrails = "analog"\n'),
-             ('inverting', 'part = "generic-bipolar-15v"\nrails = "analog"\n'
-                           'rin = "10k 0.1%"\nrf = "10k 0.1%"\n'),
-             ('rc_lowpass', 'r = "1k"\nc = "1n"\n')]
+    head = demo[: demo.index("[[stage]]")]
+    kinds = [
+        ("follower", 'part = "generic-bipolar-15v"\nrails = "analog"\n'),
+        ("inverting", 'part = "generic-bipolar-15v"\nrails = "analog"\nrin = "10k 0.1%"\nrf = "10k 0.1%"\n'),
+        ("rc_lowpass", 'r = "1k"\nc = "1n"\n'),
+    ]
     body = []
     for i in range(stages):
         block, fields = kinds[i % 3]
@@ -113,23 +117,24 @@ async def _time_edits(path: Path, edits: int) -> float:
     from textual.widgets import Input
     from railroom.tui.app import TYPING_PAUSE_SECONDS, build_app
     from railroom.tui.widgets.status_line import StatusLine
+
     app = build_app(path)
     times = []
     async with app.run_test(size=(100, 40)) as pilot:
         await pilot.pause()
-        await pilot.press("j", "e")                          # stage 2: an inverting stage
+        await pilot.press("j", "e")  # stage 2: an inverting stage
         await pilot.pause()
         field = app.screen.query_one("FieldForm #field-rf", Input)
         status = app.screen_stack[0].query_one(StatusLine).query_one("#status-verdict")
         for i in range(edits):
-            value = "10k 0.1%" if i % 2 else "100M"           # gain -1e4 clips; -1 does not
+            value = "10k 0.1%" if i % 2 else "100M"  # gain -1e4 clips; -1 does not
             start = time.perf_counter()
             field.value = value
             await _verdict_shown(status, clipping=not i % 2)
             await pilot.pause(0)
             times.append((time.perf_counter() - start) * 1000)
-            await asyncio.sleep(TYPING_PAUSE_SECONDS)         # the full check starts after a pause
-            await app.workers.wait_for_complete()            # and ends before the next edit
+            await asyncio.sleep(TYPING_PAUSE_SECONDS)  # the full check starts after a pause
+            await app.workers.wait_for_complete()  # and ends before the next edit
             await pilot.pause()
     return statistics.median(times)
 

@@ -1,4 +1,5 @@
 """Shared pieces for the interface tests: sample chains and the app factory."""
+
 from __future__ import annotations
 
 import asyncio
@@ -22,6 +23,7 @@ def two_stage(tmp_path) -> Path:
 @pytest.fixture
 def make_app():
     from railroom.tui.app import build_app
+
     return build_app
 
 

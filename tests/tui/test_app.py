@@ -1,4 +1,5 @@
 """The interface driven as a user would, with Textual's Pilot (keys in, screen and file out)."""
+
 from __future__ import annotations
 
 import io
@@ -43,7 +44,7 @@ async def type_into(pilot, field: str, text: str, paste: bool = False) -> None:
         editor.value = ""
         await pilot.press(*text)
     await pilot.pause()
-    await pilot.app.workers.wait_for_complete()    # the engine reads each keystroke in a worker
+    await pilot.app.workers.wait_for_complete()  # the engine reads each keystroke in a worker
     await pilot.pause()
 
 
@@ -51,7 +52,7 @@ async def test_demo_opens_and_arrows_through_stages(make_app):
     app = make_app(None)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
-        assert "NO-GO: 1 of 7 stages fail" in status_text(app)   # the demo's verdict (check command)
+        assert "NO-GO: 1 of 7 stages fail" in status_text(app)  # the demo's verdict (check command)
         assert "built-in demo (read-only)" in status_text(app)
         assert "1 pickup buffer" in detail_text(app)
         await pilot.press("j", "j", "down")
@@ -78,7 +79,7 @@ async def test_resistor_change_makes_stage_clip_and_verdict_follow(make_app, two
         await pilot.press("j", "e")
         await pilot.pause()
         assert app.screen.query_one(FieldForm).has_focus_within
-        await type_into(pilot, "rf", "2M")             # gain 201: 20 V peak on +/-12 V rails
+        await type_into(pilot, "rf", "2M")  # gain 201: 20 V peak on +/-12 V rails
         assert "NO-GO: 1 of 2 stages fail" in status_text(app)
         assert app.result.stages[1].regime == "clipping"
         assert app.result.stages[1].margins["output-high"] < 0
@@ -99,9 +100,9 @@ async def test_bad_value_shows_engine_message_and_keeps_everything(make_app, two
         message = " ".join(plain(app.screen.query_one("#message-rf")).split())
         assert message == str(expected.value)
         assert app.screen.query_one("#field-rf", Input).value == "4q7"
-        assert app.session.chain.stages[1].name == "gain of two"     # the good edit stayed
+        assert app.session.chain.stages[1].name == "gain of two"  # the good edit stayed
         assert app.session.chain.stages[1].quantity("rf").value == 10e3
-        await pilot.press("escape", "e")                                # close and come back
+        await pilot.press("escape", "e")  # close and come back
         assert app.screen.query_one("#field-rf", Input).value == "4q7"
         assert " ".join(plain(app.screen.query_one("#message-rf")).split()) == str(expected.value)
 
@@ -117,8 +118,7 @@ async def test_save_keeps_comments_and_writes_the_edit(make_app, two_stage):
         await pilot.pause()
         assert not app.session.modified
     after = two_stage.read_text()
-    assert after == before.replace('rf = "10k"          # feedback',
-                                   'rf = "30k 0.1%"          # feedback')
+    assert after == before.replace('rf = "10k"          # feedback', 'rf = "30k 0.1%"          # feedback')
 
 
 async def test_outside_edit_is_noticed_and_reloaded(make_app, two_stage):
@@ -127,7 +127,7 @@ async def test_outside_edit_is_noticed_and_reloaded(make_app, two_stage):
         await pilot.pause()
         text = two_stage.read_text().replace('rf = "10k"', 'rf = "30k"')
         two_stage.write_text(text)
-        os.utime(two_stage, ns=(1, 1))            # a different fingerprint whatever the clock
+        os.utime(two_stage, ns=(1, 1))  # a different fingerprint whatever the clock
         app.watch_file()
         await pilot.pause()
         assert isinstance(app.screen, ConfirmScreen)
@@ -150,7 +150,7 @@ async def test_save_never_overwrites_newer_file_silently(make_app, two_stage):
         os.utime(two_stage, ns=(1, 1))
         app.watch_file()
         await pilot.pause()
-        await pilot.press("k")                     # keep what is on screen
+        await pilot.press("k")  # keep what is on screen
         await pilot.press("w")
         await pilot.pause()
         assert isinstance(app.screen, ConfirmScreen)
@@ -180,7 +180,7 @@ async def test_quit_with_unsaved_changes_asks(make_app, two_stage):
         await type_into(pilot, "rg", "20k")
         await pilot.press("escape", "q")
         assert isinstance(app.screen, ConfirmScreen)
-        await pilot.press("escape")                # Esc leaves everything as it is
+        await pilot.press("escape")  # Esc leaves everything as it is
         assert app.session.modified and app.is_running
         await pilot.press("q", "d")
         await pilot.pause()
@@ -220,7 +220,7 @@ async def test_unbuilt_method_shows_message_not_crash(make_app, two_stage):
         await app.workers.wait_for_complete()
         await pilot.pause()
         words = status_text(app)
-        if app.result.method == "montecarlo":    # once the method exists, its result shows
+        if app.result.method == "montecarlo":  # once the method exists, its result shows
             assert app.result.samples == 10000
         else:
             assert "not built yet" in words and "showing corners" in words
@@ -238,22 +238,39 @@ async def test_markup_in_names_renders_literally_and_escape_codes_are_refused(ma
         assert "[bold]x[/bold]" in svg and "[reverse]title" in svg
         await pilot.press("e")
         assert app.screen.query_one("#field-name", Input).value == "[bold]x[/bold] [red]r"
-        await type_into(pilot, "name", "a\x1b[31mb", paste=True)      # an escape sequence typed or pasted
+        await type_into(pilot, "name", "a\x1b[31mb", paste=True)  # an escape sequence typed or pasted
         message = plain(app.screen.query_one("#message-name"))
         assert "control characters are not allowed" in message
         assert app.session.chain.stages[0].name == "[bold]x[/bold] [red]r"
         assert "\x1b" not in app.export_screenshot()
 
 
-async def test_help_lists_every_key_with_its_id(make_app):
+async def test_help_lists_every_key_and_says_esc_closes_it(make_app):
+    # issue 17: the binding ids had no visible use (they are not shown); the help says how to
+    # close it and names the fixes key
+    from railroom.tui.screens.help import HelpScreen
+
     app = make_app(None)
     async with app.run_test(size=(100, 40)) as pilot:
         await pilot.pause()
         await pilot.press("question_mark")
-        svg = app.export_screenshot()
-        for ident in ("app.save", "app.quit", "chain.edit", "chain.add", "stage.down",
-                      "form.close", "preset-form.save"):
-            assert ident in svg
+        help_screen = app.screen
+        assert isinstance(help_screen, HelpScreen)
+        shown = {b.id: b.tooltip for b in help_screen.bindings}
+        for ident in (
+            "app.save",
+            "app.quit",
+            "chain.edit",
+            "chain.add",
+            "chain.fixes",
+            "stage.down",
+            "form.close",
+            "preset-form.save",
+        ):
+            assert ident in shown
+        svg = app.export_screenshot().replace("&#160;", " ")
+        assert "app.save" not in svg and "chain.edit" not in svg
+        assert "esc, q or ? closes this help" in svg
         await pilot.press("escape")
         assert app.screen is app.screen_stack[0]
 
@@ -276,6 +293,7 @@ def test_every_binding_has_id_and_description():
     from railroom.tui.app import RailroomApp
     from railroom.tui.screens.chain import ChainScreen
     from railroom.tui.widgets.stage_list import StageList
+
     bindings = [*RailroomApp.BINDINGS, *ChainScreen.BINDINGS, *StageList.BINDINGS]
     assert len(bindings) >= 20
     for binding in bindings:
@@ -301,13 +319,13 @@ async def test_form_sits_in_the_chain_screen_with_the_stage_list_live(make_app, 
         await pilot.pause()
         await pilot.press("j", "e")
         await pilot.pause()
-        assert app.screen is app.screen_stack[0]              # no screen pushed over the chain
+        assert app.screen is app.screen_stack[0]  # no screen pushed over the chain
         rows = app.screen.query_one(StageList)
-        assert str(rows.get_row("2")[4]) == "linear"
-        await type_into(pilot, "rf", "2M")                    # gain 201 on 100 mV: clips
-        assert str(rows.get_row("2")[4]) == "clipping!"       # the row repainted under the form
+        assert str(rows.get_cell("2", "regime")) == "linear"
+        await type_into(pilot, "rf", "2M")  # gain 201 on 100 mV: clips
+        assert str(rows.get_cell("2", "regime")) == "clipping!"  # the row repainted under the form
         names = [f.id for f in app.screen.query(".form-value")]
-        await pilot.press(*["tab"] * len(names))              # tab goes round the form's fields
+        await pilot.press(*["tab"] * len(names))  # tab goes round the form's fields
         assert app.focused.id == "field-rf"
         await pilot.press("escape")
         await pilot.pause()
@@ -321,7 +339,7 @@ async def test_chain_keys_wait_while_a_form_field_has_the_focus(make_app, two_st
         await pilot.pause()
         await pilot.press("e")
         await pilot.pause()
-        app.screen.query_one("#field-part").focus()          # a closed choice box takes no letters
+        app.screen.query_one("#field-part").focus()  # a closed choice box takes no letters
         await pilot.press("x", "J", "a")
         await pilot.pause()
         assert [s.name for s in app.session.chain.stages] == ["buffer", "gain two"]
@@ -332,6 +350,7 @@ def test_no_action_is_reached_by_a_ctrl_key_alone():
     """ctrl+s / ctrl+q are flow control on many terminals: each ctrl binding names another way."""
     from railroom.tui.screens.presets import PresetsScreen
     from railroom.tui.widgets.preset_form import PresetForm
+
     bindings = [*FieldForm.BINDINGS, *PresetsScreen.BINDINGS, *PresetForm.BINDINGS]
     ctrl_only = [b for b in bindings if all(k.startswith("ctrl+") for k in b.key.split(","))]
     assert [b.id for b in ctrl_only] == ["preset-form.save"]
@@ -343,11 +362,70 @@ async def test_bridge_bar_shows_the_clipping_first_stage(make_app):
     # input op amp goes below its swing (engine/demos/bridge_sensor.toml; REFERENCES.md: first-stage
     # outputs V_cm -/+ (1 + 2 rf/rg) V_d/2): the row's bar draws that op amp, overshoot marked X.
     from pathlib import Path
+
     bridge = Path(__file__).resolve().parents[2] / "engine/demos/bridge_sensor.toml"
     app = make_app(bridge)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
-        row = app.screen.query_one(StageList).get_row("1")
-        assert str(row[4]) == "clipping!"
-        assert str(row[-1]).startswith("X")
-        assert "X" not in str(app.screen.query_one(StageList).get_row("2")[-1])
+        rows = app.screen.query_one(StageList)
+        assert str(rows.get_cell("1", "regime")) == "clipping!"
+        assert str(rows.get_cell("1", "rail span")).startswith("X")
+        assert "X" not in str(rows.get_cell("2", "rail span"))
+
+
+async def test_dialogs_say_esc_closes_them_and_f_reaches_the_fixes(make_app):
+    # issue 17: the method and add dialogs did not say how to leave them; the fixes at the end
+    # of the detail panel needed tab then PageDown, which nothing mentioned
+    from pathlib import Path
+
+    from textual.widgets import Footer, Label
+
+    from railroom.tui.screens.dialogs import ChoiceScreen
+    from railroom.tui.widgets.detail import StageDetail
+
+    alarms = Path(__file__).resolve().parents[2] / "tests/chains/alarms_nogo.toml"
+    app = make_app(alarms)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await app.workers.wait_for_complete()
+        await pilot.pause()
+        for key in ("m", "a"):
+            await pilot.press(key)
+            await pilot.pause()
+            assert isinstance(app.screen, ChoiceScreen)
+            assert any("esc closes" in str(label.render()) for label in app.screen.query(Label))
+            await pilot.press("escape")
+            await pilot.pause()
+        keys = {k.key for k in app.screen.query_one(Footer).query("FooterKey")}
+        assert {"f", "q", "question_mark"} <= keys  # all in 80 columns
+        detail = app.screen.query_one(StageDetail)
+        assert detail.scroll_y == 0 and detail.max_scroll_y > 0
+        await pilot.press("f")
+        await pilot.pause()
+        assert app.focused is detail and detail.scroll_y == detail.max_scroll_y
+        await pilot.press("escape", "j")  # another stage: read from its top
+        await pilot.pause()
+        assert detail.scroll_y == 0
+
+
+async def test_status_line_words_while_monte_carlo_runs(make_app):
+    # issue 17: it read "method corners montecarlo running"
+    from railroom.tui.widgets.status_line import StatusLine, short_yield
+
+    app = make_app(None)
+    async with app.run_test(size=(120, 24)) as pilot:
+        await app.workers.wait_for_complete()
+        await pilot.pause()
+        status = app.screen.query_one(StatusLine)
+        status.running("montecarlo")
+        status.progress(0.42)
+        await pilot.pause()
+        words = str(status.query_one("#status-facts").render())
+        assert "Monte Carlo running (42 %); corners shown" in words
+        assert "montecarlo" not in words and "method corners" not in words
+        status.running(None)
+        await pilot.pause()
+        assert "running" not in str(status.query_one("#status-facts").render())
+    # the yield with its 95 % Wilson interval (Wilson 1927): 9,900 of 10,000 draws,
+    # p = 0.99, z = 1.96 gives 0.9879 .. 0.9918 (worked by hand from the score formula)
+    assert short_yield(0.99, 10_000) == "yield 99.00% (95 %: 98.8% .. 99.2%)"
+    assert short_yield(1.0, 10_000) == "no failure in 10,000 draws"

@@ -1,4 +1,5 @@
 """engine/editing.py: edits keep every comment and the loader reads the result."""
+
 from __future__ import annotations
 
 try:
@@ -65,8 +66,10 @@ def test_loader_refuses_reversed_band():
 
 def test_inline_stage_tables_add_move_remove_in_place():
     """`stage = [{...}, ...]` is a chain like any other (TOML 1.0 arrays of inline tables)."""
-    text = ('format = 1\nstage = [\n  {name = "a", block = "follower", part = "p"},  # first\n'
-            '  {name = "b", block = "follower", part = "p"},  # second\n]\n')
+    text = (
+        'format = 1\nstage = [\n  {name = "a", block = "follower", part = "p"},  # first\n'
+        '  {name = "b", block = "follower", part = "p"},  # second\n]\n'
+    )
     added = editing.add_stage(text, 2, {"name": "new", "block": "follower", "part": "p"})
     assert [t["name"] for t in tomllib.loads(added)["stage"]] == ["a", "new", "b"]
     assert "# first" in added and "# second" in added

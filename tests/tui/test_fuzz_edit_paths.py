@@ -2,6 +2,7 @@
 opening, reading every form field, setting each field, adding, moving and removing stages and
 saving under a new name give a session or located problems, never another exception, and never
 change the opened file. RAILROOM_FUZZ_EXAMPLES=3000 for the long run (the suite runs 40)."""
+
 from __future__ import annotations
 
 import os
@@ -16,7 +17,14 @@ from railroom.engine.blocks import BLOCKS
 from railroom.tui.session import Session, open_chain
 
 EXAMPLES = int(os.environ.get("RAILROOM_FUZZ_EXAMPLES", "40"))
-TYPED = {"inputs": "10k, 1; 22k 1%, -2", "pair": "1, 2", "integer": "7", "flag": "true", "choice": "", "text": "renamed"}
+TYPED = {
+    "inputs": "10k, 1; 22k 1%, -2",
+    "pair": "1, 2",
+    "integer": "7",
+    "flag": "true",
+    "choice": "",
+    "text": "renamed",
+}
 
 
 def typed_value(shape: editing.FieldShape) -> str:
@@ -34,17 +42,21 @@ def exercise(session: Session) -> None:
         assert set(shown) == set(shapes)
         for key, shape in shapes.items():
             value = editing.toml_value(typed_value(shape), shape)
-            session.prepare(session.text, lambda t, k=key, v=value: editing.set_stage_field(
-                t, index, k, v))
+            session.prepare(session.text, lambda t, k=key, v=value: editing.set_stage_field(t, index, k, v))
     for section, shapes in editing.SECTIONS.items():
         editing.section_fields(session.text, section, shapes)
         for key, shape in shapes.items():
             value = editing.toml_value(typed_value(shape), shape)
-            session.prepare(session.text, lambda t, k=key, v=value, s=section:
-                            editing.set_section_field(t, s, k, v))
+            session.prepare(
+                session.text, lambda t, k=key, v=value, s=section: editing.set_section_field(t, s, k, v)
+            )
     count = len(session.chain.stages)
-    fields = editing.starter_stage("noninverting", "extra", next(iter(session.library.parts), None),
-                                   next(iter(session.chain.rails), None))
+    fields = editing.starter_stage(
+        "noninverting",
+        "extra",
+        next(iter(session.library.parts), None),
+        next(iter(session.chain.rails), None),
+    )
     session.edit(lambda t: editing.add_stage(t, count + 1, fields))
     session.edit(lambda t: editing.move_stage(t, 1, 1))
     session.edit(lambda t: editing.remove_stage(t, 1))
@@ -52,8 +64,13 @@ def exercise(session: Session) -> None:
         pass
 
 
-FUZZ = settings(max_examples=EXAMPLES, deadline=None, database=None, derandomize=True,
-                suppress_health_check=list(HealthCheck))
+FUZZ = settings(
+    max_examples=EXAMPLES,
+    deadline=None,
+    database=None,
+    derandomize=True,
+    suppress_health_check=list(HealthCheck),
+)
 
 
 @FUZZ

@@ -1,6 +1,7 @@
 """Names and files that once crashed the interface (issue 12, item 6): user text is never markup,
 a deeply nested preset file is a located problem, and a chain written with inline stage tables
 is edited like any other."""
+
 from __future__ import annotations
 
 import asyncio
@@ -35,6 +36,7 @@ def synchronous(test):
     @functools.wraps(test)
     def run(*args, **kwargs):
         asyncio.run(test(*args, **kwargs))
+
     return run
 
 
@@ -76,9 +78,9 @@ async def test_a_preset_id_with_markup_is_saved_and_named_literally():
         await pilot.pause()
         for part_id in ids:
             await save_one_field(pilot, part_id)
-            assert app.is_running                      # no markup error, no quit action
+            assert app.is_running  # no markup error, no quit action
             saved = [n for n in app._notifications if f"Saved {part_id} to " in str(n.message)]
-            assert saved and not any(n.markup for n in saved)   # shown as written, never markup
+            assert saved and not any(n.markup for n in saved)  # shown as written, never markup
         await pilot.pause()
         assert app.is_running
     assert path.read_text(encoding="utf-8").count('gbw = "2M"') == 2
@@ -96,8 +98,9 @@ async def test_a_preset_file_nested_500_deep_is_a_located_problem():
         problems = plain(app.screen.query_one("#preset-problems", Static))
         assert "deep.toml" in problems
         grid = app.screen.query_one("#preset-table", DataTable)
-        assert "lab-good" in [str(grid.coordinate_to_cell_key((r, 0)).row_key.value)
-                              for r in range(grid.row_count)]
+        assert "lab-good" in [
+            str(grid.coordinate_to_cell_key((r, 0)).row_key.value) for r in range(grid.row_count)
+        ]
 
 
 INLINE = """\

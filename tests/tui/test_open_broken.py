@@ -1,5 +1,6 @@
 """A chain file that cannot be opened still opens the interface, on the problems screen, and the
 chain screen takes its place as soon as the file on disk loads (the user fixes it in an editor)."""
+
 from __future__ import annotations
 
 import io
@@ -61,10 +62,10 @@ async def test_bad_value_lists_file_line_field_then_fix_on_disk_opens(make_app, 
         assert f"{path}:{line_of(broken, 'rf = ')}: stage.2.rf:" in shown
         assert '"[b]10q"' in shown
         assert "1 problem." in shown and "Watching the file" in shown
-        await pilot.press("escape", "w", "p")          # harmless here: no chain to save or show
+        await pilot.press("escape", "w", "p")  # harmless here: no chain to save or show
         assert isinstance(app.screen, ProblemsScreen)
         assert path.read_text(encoding="utf-8") == broken
-        path.write_text(GOOD, encoding="utf-8")        # the editor in the other pane saves
+        path.write_text(GOOD, encoding="utf-8")  # the editor in the other pane saves
         await wait_for_screen(pilot, ChainScreen)
         await pilot.pause()
         verdict = plain(app.screen.query_one(StatusLine).query_one("#status-verdict"))
@@ -85,12 +86,14 @@ async def test_unknown_part_and_bad_toml_are_located(make_app, tmp_path):
         # the part's own line, or the line of its stage's [[stage]] header (plan problems locate
         # the stage): either one takes the editor to the right place
         stage_header = line_of(unknown, "[[stage]]")
-        assert any(f"{path}:{line}: stage.1.part: unknown part 'no-such-part'" in shown
-                   for line in (stage_header, line_of(unknown, "no-such-part")))
+        assert any(
+            f"{path}:{line}: stage.1.part: unknown part 'no-such-part'" in shown
+            for line in (stage_header, line_of(unknown, "no-such-part"))
+        )
         assert "no-such-part" in shown
         bad_toml = GOOD.replace('rg = "10k"', 'rg = = "10k"')
         path.write_text(bad_toml, encoding="utf-8")
-        await pilot.press("r")                         # reload now, without waiting for the poll
+        await pilot.press("r")  # reload now, without waiting for the poll
         await pilot.pause()
         assert isinstance(app.screen, ProblemsScreen)
         shown = problems_text(app)
@@ -122,8 +125,8 @@ async def test_missing_file_started_from_demo_with_n(make_app, tmp_path):
         assert isinstance(app.screen, ChainScreen)
         assert path.read_text(encoding="utf-8") == demo_path().read_text(encoding="utf-8")
         assert not app.session.read_only and app.session.path == path
-        assert len(app.result.stages) == 7            # the demo's seven stages
-        await pilot.press("n")                        # a chain key now: nothing is overwritten
+        assert len(app.result.stages) == 7  # the demo's seven stages
+        await pilot.press("n")  # a chain key now: nothing is overwritten
 
 
 async def test_help_and_quit_on_the_problems_screen(make_app, tmp_path):
@@ -132,7 +135,9 @@ async def test_help_and_quit_on_the_problems_screen(make_app, tmp_path):
         await pilot.pause()
         await pilot.press("question_mark")
         await pilot.pause()
-        assert "Read the chain file again now" in plain(app.screen.query("Static")[1])
+        assert "Read the chain file again now" in plain(
+            app.screen.query("Static")[2]
+        )  # after the esc line and the intro
         await pilot.press("escape")
         await pilot.pause()
         assert isinstance(app.screen, ProblemsScreen)
@@ -148,7 +153,7 @@ async def test_open_file_broken_on_disk_keeps_the_chain_on_reload(make_app, two_
         two_stage.write_text(GOOD.replace('rf = "10k"', 'rf = "10q"'), encoding="utf-8")
         app.watch_file()
         await pilot.pause()
-        await pilot.press("r")                         # the question's "reload it"
+        await pilot.press("r")  # the question's "reload it"
         await pilot.pause()
         assert isinstance(app.screen, ChainScreen)
         assert "not reloaded" in "\n".join(str(n.title) for n in app._notifications)
@@ -156,8 +161,9 @@ async def test_open_file_broken_on_disk_keeps_the_chain_on_reload(make_app, two_
         assert len(app.result.stages) == 2 and app.session.text == GOOD
 
 
-async def test_bad_preset_folder_and_broken_user_preset_still_open(make_app, two_stage,
-                                                                   _own_presets_folder, tmp_path):
+async def test_bad_preset_folder_and_broken_user_preset_still_open(
+    make_app, two_stage, _own_presets_folder, tmp_path
+):
     (_own_presets_folder / "mine.toml").write_text("[part\n", encoding="utf-8")
     app = make_app(two_stage, (str(tmp_path / "no-such-folder"),))
     async with app.run_test(size=SIZE) as pilot:

@@ -1,4 +1,5 @@
 """The presets screen in a tiny app: filter, edit, bad value, save, delete with confirmation."""
+
 from __future__ import annotations
 
 import asyncio
@@ -44,9 +45,11 @@ output_current = "10m"
 
 def synchronous(test):
     """Run an async Pilot test with asyncio (no async pytest plugin is needed)."""
+
     @functools.wraps(test)
     def run(*args, **kwargs):
         asyncio.run(test(*args, **kwargs))
+
     return run
 
 
@@ -83,7 +86,7 @@ def shown(app: App) -> list[str]:
 
 
 async def open_form(pilot, words: str) -> PresetForm:
-    await pilot.press(*words, "enter", "e")
+    await pilot.press("slash", *words, "enter", "e")
     await pilot.pause()
     assert isinstance(pilot.app.screen, PresetForm)
     return pilot.app.screen
@@ -94,7 +97,7 @@ async def test_typing_filters_the_list(lab):
     async with PresetsApp().run_test(size=(120, 40)) as pilot:
         await pilot.pause()
         assert "generic-rro-5v" in shown(pilot.app) and "lab-audio" in shown(pilot.app)
-        await pilot.press(*"rro")
+        await pilot.press("slash", *"rro")
         await pilot.pause()
         assert shown(pilot.app) == ["generic-rro-5v"]
         await pilot.press(*" zzz")
@@ -158,7 +161,7 @@ async def test_editing_a_shipped_preset_saves_a_copy_in_the_users_folder(lab):
         await pilot.pause()
         assert shipped.read_bytes() == before
         copy = user_folder() / "generic.toml"
-        assert '[part.generic-rro-5v]' in copy.read_text(encoding="utf-8")
+        assert "[part.generic-rro-5v]" in copy.read_text(encoding="utf-8")
         assert 'gbw = "2M"' in copy.read_text(encoding="utf-8")
         assert shown(pilot.app) == ["generic-rro-5v"]
         assert "yours (overrides)" in str(table(pilot.app).get_row("generic-rro-5v")[1])
@@ -168,8 +171,8 @@ async def test_editing_a_shipped_preset_saves_a_copy_in_the_users_folder(lab):
 async def test_delete_asks_first(lab):
     async with PresetsApp().run_test(size=(120, 40)) as pilot:
         await pilot.pause()
-        await pilot.press(*"lab-spare", "enter", "d")       # d shows the detail on the chain
-        await pilot.pause()                                  # screen: never a delete here
+        await pilot.press("slash", *"lab-spare", "enter", "d")  # d shows the detail on the chain
+        await pilot.pause()  # screen: never a delete here
         assert not isinstance(pilot.app.screen, ConfirmDialog)
         await pilot.press("x")
         await pilot.pause()
@@ -210,7 +213,7 @@ async def test_file_changed_on_disk_is_never_silently_overwritten(lab):
 async def test_new_from_copy_then_rename(lab):
     async with PresetsApp().run_test(size=(80, 24)) as pilot:
         await pilot.pause()
-        await pilot.press(*"rro", "down", "c")
+        await pilot.press("slash", *"rro", "down", "c")
         await pilot.pause()
         name_box = pilot.app.screen.query_one("#name-input", Input)
         assert name_box.value == "generic-rro-5v-copy"
@@ -226,7 +229,7 @@ async def test_new_from_copy_then_rename(lab):
         await pilot.pause()
         copy = user_folder() / "generic.toml"
         assert "[part.lab-rro]" in copy.read_text(encoding="utf-8")
-        await pilot.press("slash", *"lab-rro", "enter", "r")   # / goes to the filter; Esc to the list
+        await pilot.press("slash", *"lab-rro", "enter", "r")  # / goes to the filter; Esc to the list
         await pilot.pause()
         pilot.app.screen.query_one("#name-input", Input).value = "lab-rro-b"
         await pilot.press("enter")
@@ -245,7 +248,7 @@ async def test_enter_in_a_box_saves_where_ctrl_s_is_flow_control(lab):
         box.focus()
         box.value = "2.5M"
         footer = pilot.app.export_screenshot()
-        assert "enter" in footer and "save" in footer        # the footer names the save key
+        assert "enter" in footer and "save" in footer  # the footer names the save key
         await pilot.press("enter")
         await pilot.pause()
         assert not isinstance(pilot.app.screen, PresetForm)
@@ -258,7 +261,7 @@ async def test_save_button_is_reached_with_tab_and_pressed_with_enter(lab):
         await pilot.pause()
         form = await open_form(pilot, "lab-audio")
         form.query_one("#field-gbw", Input).value = "2M"
-        for _ in range(40):                                   # fewer boxes than that in a part
+        for _ in range(40):  # fewer boxes than that in a part
             if getattr(pilot.app.focused, "id", None) == "form-save":
                 break
             await pilot.press("tab")
@@ -273,6 +276,50 @@ async def test_esc_then_q_goes_back_without_typing_into_the_filter(lab):
     # Esc leaves the filter for the list (what was typed stays), so q then closes the screen
     async with PresetsApp().run_test(size=(80, 24)) as pilot:
         await pilot.pause()
-        await pilot.press(*"rro", "escape", "q")
+        await pilot.press("slash", *"rro", "escape", "q")
         await pilot.pause()
         assert not isinstance(pilot.app.screen, PresetsScreen)
+
+
+@synchronous
+async def test_the_screen_opens_on_the_list_with_its_keys_in_the_footer(lab):
+    # issue 17: it opened in the filter, whose typing hides every letter key from the footer
+    from textual.widgets import Footer
+
+    async with PresetsApp().run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        assert isinstance(pilot.app.focused, DataTable)
+        keys = {k.key for k in pilot.app.screen.query_one(Footer).query("FooterKey")}
+        assert {"e", "c", "r", "x", "slash", "q"} <= keys
+
+
+@synchronous
+async def test_slew_is_shown_and_written_in_its_column_unit(lab):
+    # issue 17: "0.6V/us" sat under a column reading "V/s"; the column now reads V/µs
+
+    async with PresetsApp().run_test(size=(120, 40)) as pilot:
+        await pilot.pause()
+        form = await open_form(pilot, "lab-audio")
+        box = form.query_one("#field-slew", Input)
+        assert box.value == "1"  # 1V/us from the file
+        units = [str(label.render()) for label in form.query(".form-unit")]
+        assert "V/µs" in units and "V/s" not in units
+        box.value = "2"
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        assert 'slew = "2V/us"' in lab.read_text(encoding="utf-8")
+        assert any("kept as lab.toml.bak" in str(n.message) for n in pilot.app._notifications)
+
+
+@synchronous
+async def test_a_first_save_does_not_claim_a_bak(tmp_path):
+    # editing a shipped preset writes a new file in the user's folder: there is no .bak to keep
+    async with PresetsApp().run_test(size=(120, 40)) as pilot:
+        await pilot.pause()
+        form = await open_form(pilot, "generic-rro-5v")
+        form.query_one("#field-gbw", Input).value = "2M"
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        saved = [str(n.message) for n in pilot.app._notifications if "Saved" in str(n.message)]
+        assert saved and not any(".bak" in s for s in saved)
+        assert not list(user_folder().glob("*.bak"))

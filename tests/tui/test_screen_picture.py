@@ -1,11 +1,12 @@
 """Key i saves the screen as an SVG that names no web font and no address to fetch."""
+
 from __future__ import annotations
 
 import re
 import xml.etree.ElementTree as ET
 
 SIZE = (80, 24)
-SVG_NAMESPACE = 'xmlns="http://www.w3.org/2000/svg"'   # a namespace name, never fetched
+SVG_NAMESPACE = 'xmlns="http://www.w3.org/2000/svg"'  # a namespace name, never fetched
 
 
 async def test_screen_picture_fetches_no_web_font(make_app, two_stage, tmp_path, monkeypatch):

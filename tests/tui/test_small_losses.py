@@ -1,4 +1,5 @@
 """The smaller ways a user's work could slip away (issue 12, item 7)."""
+
 from __future__ import annotations
 
 import asyncio
@@ -27,7 +28,7 @@ async def test_quitting_with_only_a_bad_draft_asks(make_app, two_stage):
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
         await pilot.press("j", "e")
-        await retype(pilot, "rf", "4q7")                   # not a value: a draft, not the chain
+        await retype(pilot, "rf", "4q7")  # not a value: a draft, not the chain
         await pilot.press("escape")
         assert not app.session.modified
         await pilot.press("q")
@@ -56,7 +57,7 @@ async def test_w_says_which_drafts_it_did_not_save(make_app, two_stage):
 
 
 async def test_a_stage_added_after_a_passive_one_gets_rails(make_app):
-    app = make_app(None)                                   # the demo: two rails; stage 3 passive
+    app = make_app(None)  # the demo: two rails; stage 3 passive
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
         await pilot.press("j", "j", "a")
@@ -67,13 +68,14 @@ async def test_a_stage_added_after_a_passive_one_gets_rails(make_app):
         await pilot.pause()
         stages = app.session.chain.stages
         assert len(stages) == 8 and stages[3].block == "noninverting"
-        assert stages[3].rails == "analog"                 # the supply of the stages before it
+        assert stages[3].rails == "analog"  # the supply of the stages before it
 
 
 def synchronous(test):
     @functools.wraps(test)
     def run(*args, **kwargs):
         asyncio.run(test(*args, **kwargs))
+
     return run
 
 
@@ -88,9 +90,11 @@ class DialogApp(App):
 
 @synchronous
 async def test_preset_dialogs_close_with_esc_and_focus_the_safe_button(tmp_path):
-    cases = [(ConfirmDialog("Delete lab-audio?"), "#confirm-no", False),
-             (ChangedOnDiskDialog(tmp_path / "lab.toml"), "#changed-keep", "keep"),
-             (NameDialog("New id:", "lab-copy", set()), None, None)]
+    cases = [
+        (ConfirmDialog("Delete lab-audio?"), "#confirm-no", False),
+        (ChangedOnDiskDialog(tmp_path / "lab.toml"), "#changed-keep", "keep"),
+        (NameDialog("New id:", "lab-copy", set()), None, None),
+    ]
     for dialog, safe, answer in cases:
         app = DialogApp(dialog)
         async with app.run_test(size=SIZE) as pilot:
@@ -106,11 +110,13 @@ async def test_opening_a_form_reads_the_file_once(make_app, two_stage, monkeypat
     import tomlkit
 
     from railroom.engine import editing
+
     reads, real = [], tomlkit.parse
 
     def counted(text):
         reads.append(len(text))
         return real(text)
+
     app = make_app(two_stage)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
@@ -118,19 +124,20 @@ async def test_opening_a_form_reads_the_file_once(make_app, two_stage, monkeypat
         await pilot.press("j", "e")
         await pilot.pause()
         assert app.screen.query_one("#field-rf", Input).value == "10k"
-        assert len(reads) == 1                             # not once per field
+        assert len(reads) == 1  # not once per field
 
 
 @synchronous
 async def test_a_long_question_is_wrapped_to_be_read_whole_at_80_columns():
     question = "/a/long/folder/" * 12 + "chain.toml changed on disk since it was read."
-    dialog = ConfirmScreen(question, [("o", "overwrite", "overwrite it with what is on screen "
-                                                         "(the old file is kept as .bak)")])
+    dialog = ConfirmScreen(
+        question, [("o", "overwrite", "overwrite it with what is on screen (the old file is kept as .bak)")]
+    )
     app = DialogApp(dialog)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
         labels = [str(label.content) for label in dialog.query("Label")]
-        assert "".join(labels[0].split()) == "".join(question.split())      # every word kept
+        assert "".join(labels[0].split()) == "".join(question.split())  # every word kept
         frame = dialog.query_one(".dialog")
         inner = frame.content_region.width
         assert all(len(line) <= inner for text in labels for line in text.split("\n"))
@@ -138,19 +145,21 @@ async def test_a_long_question_is_wrapped_to_be_read_whole_at_80_columns():
 
 async def test_the_summing_stage_inputs_are_edited_in_the_form(make_app, tmp_path):
     from railroom.tui.session import demo_path
+
     path = tmp_path / "pump.toml"
     path.write_text(demo_path().read_text(encoding="utf-8"), encoding="utf-8")
     app = make_app(path)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
-        await pilot.press("j", "j", "j", "e")              # stage 4: the level shift (summing)
+        await pilot.press("j", "j", "j", "e")  # stage 4: the level shift (summing)
         await pilot.pause()
         assert app.screen.query_one("#field-inputs", Input).value == "82k, 0"
         await retype(pilot, "inputs", "82k, 0; 1M 1%, 5")
         inputs = app.session.chain.stages[3].values["inputs"]
         assert [(i["r"].value, i["v"].value) for i in inputs] == [(82e3, 0.0), (1e6, 5.0)]
-        assert ('inputs = [{r = "82k", v = "0"}, {r = "1M 1%", v = "5"}]   # sets the output'
-                in app.session.text)
-        await retype(pilot, "inputs", "82k")               # half typed: a draft with a message
+        assert (
+            'inputs = [{r = "82k", v = "0"}, {r = "1M 1%", v = "5"}]   # sets the output' in app.session.text
+        )
+        await retype(pilot, "inputs", "82k")  # half typed: a draft with a message
         assert "expected" in str(app.screen.query_one("#message-inputs").content)
         assert len(app.session.chain.stages[3].values["inputs"]) == 2

@@ -4,6 +4,7 @@ A real terminal delivers keys in bursts when the machine is busy; `burst` posts 
 terminal driver does, all at once, without waiting for the app between keys (Pilot's `press`
 waits after every key, which would hide any reordering).
 """
+
 from __future__ import annotations
 
 import threading
@@ -44,6 +45,7 @@ def slow_engine(monkeypatch):
     def slowed(*args, **kwargs):
         time.sleep(0.06)
         return real(*args, **kwargs)
+
     monkeypatch.setattr(session_module, "analyse", slowed)
     monkeypatch.setattr(app_module, "analyse", slowed)
 
@@ -62,7 +64,7 @@ async def test_held_backspace_then_fast_typing_keeps_every_key(make_app, two_sta
     app = make_app(two_stage)
     async with app.run_test(size=SIZE) as pilot:
         box = await open_gain_stage_rf(pilot)
-        box.selection = box.selection.cursor(len(box.value))     # cursor at the end, nothing selected
+        box.selection = box.selection.cursor(len(box.value))  # cursor at the end, nothing selected
         burst(app, ["backspace"] * 6 + list("14k 0.1%"))
         await settle(pilot)
         assert box.value == "14k 0.1%"
@@ -70,8 +72,7 @@ async def test_held_backspace_then_fast_typing_keeps_every_key(make_app, two_sta
         assert 'rf = "14k 0.1%"          # feedback' in app.session.text
 
 
-async def test_tab_in_a_burst_sends_the_next_letters_to_the_next_field(make_app, two_stage,
-                                                                       slow_engine):
+async def test_tab_in_a_burst_sends_the_next_letters_to_the_next_field(make_app, two_stage, slow_engine):
     app = make_app(two_stage)
     async with app.run_test(size=SIZE) as pilot:
         box = await open_gain_stage_rf(pilot)
@@ -83,20 +84,18 @@ async def test_tab_in_a_burst_sends_the_next_letters_to_the_next_field(make_app,
         assert (stage.quantity("rf").value, stage.quantity("rg").value) == (22e3, 4.7e3)
 
 
-async def test_letters_typed_right_after_esc_are_not_typed_into_the_field(make_app, two_stage,
-                                                                        slow_engine):
+async def test_letters_typed_right_after_esc_are_not_typed_into_the_field(make_app, two_stage, slow_engine):
     app = make_app(two_stage)
     async with app.run_test(size=SIZE) as pilot:
         box = await open_gain_stage_rf(pilot)
         box.selection = box.selection.cursor(len(box.value))
-        burst(app, ["backspace", "escape", "m", "l"])     # m: the method, l: the level view
+        burst(app, ["backspace", "escape", "m", "l"])  # m: the method, l: the level view
         await settle(pilot)
-        assert box.value == "10"                          # not "10ml"
+        assert box.value == "10"  # not "10ml"
         assert app.session.chain.stages[1].quantity("rf").value == 10.0
 
 
-async def test_the_engine_never_runs_on_the_event_loop_while_typing(make_app, two_stage,
-                                                                  monkeypatch):
+async def test_the_engine_never_runs_on_the_event_loop_while_typing(make_app, two_stage, monkeypatch):
     """The engine is held until the test lets it go: the keys are all in and shown meanwhile,
     each check ran in a worker thread, the older answers are dropped and the newest one is shown."""
     real = session_module.analyse
@@ -108,28 +107,30 @@ async def test_the_engine_never_runs_on_the_event_loop_while_typing(make_app, tw
         if not threads[-1]:
             release.wait(30)
         return real(*args, **kwargs)
+
     app = make_app(two_stage)
     async with app.run_test(size=SIZE) as pilot:
         box = await open_gain_stage_rf(pilot)
         monkeypatch.setattr(session_module, "analyse", held)
         monkeypatch.setattr(app_module, "analyse", held)
         threads.clear()
-        await pilot.press(*list("2M"))                   # gain 201: clips on +/-12 V
+        await pilot.press(*list("2M"))  # gain 201: clips on +/-12 V
         assert box.value == "2M"
-        assert app.session.chain.stages[1].quantity("rf").value == 10e3   # not checked yet
+        assert app.session.chain.stages[1].quantity("rf").value == 10e3  # not checked yet
         assert str(app.screen.query_one(StatusLine).query_one("#status-verdict").content).startswith("GO")
         release.set()
         await settle(pilot)
-        assert threads and not any(threads)              # every check of a keystroke: a worker
+        assert threads and not any(threads)  # every check of a keystroke: a worker
         assert app.session.chain.stages[1].quantity("rf").value == 2e6
         assert app.result.stages[1].regime == "clipping"
-        assert len(app.session.history) == 1             # "2" then "2M": one step for undo
+        assert len(app.session.history) == 1  # "2" then "2M": one step for undo
         await pilot.press("escape", "u")
         assert app.session.chain.stages[1].quantity("rf").value == 10e3
 
 
 async def test_keys_typed_before_a_dialog_opened_are_not_typed_into_it(make_app, two_stage):
     from railroom.tui.screens.dialogs import SaveAsScreen
+
     app = make_app(two_stage)
     async with app.run_test(size=SIZE) as pilot:
         box = await open_gain_stage_rf(pilot)
@@ -137,7 +138,7 @@ async def test_keys_typed_before_a_dialog_opened_are_not_typed_into_it(make_app,
         dialog = SaveAsScreen("copy.toml")
         app.push_screen(dialog)
         await pilot.pause()
-        box._forward_event(events.Key("x", "x"))   # typed before the dialog, queued at the field
+        box._forward_event(events.Key("x", "x"))  # typed before the dialog, queued at the field
         await pilot.pause()
         assert dialog.query_one(Input).value == "copy.toml"
         assert box.value == "10kx"

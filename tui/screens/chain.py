@@ -3,6 +3,7 @@
 Editing happens in place: the edit form takes the place of the detail or level view while the
 status line and the stage list above it stay in sight and repaint as each value is typed.
 """
+
 from __future__ import annotations
 
 from textual.app import ComposeResult
@@ -15,6 +16,7 @@ from railroom.engine.blocks import BLOCKS
 from railroom.engine.editing import FieldShape
 from railroom.engine.model import METHODS
 from railroom.engine.results import ChainResult
+from railroom.engine.values import escaped
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen
 from railroom.tui.widgets.detail import StageDetail
 from railroom.tui.widgets.field_form import FieldForm, FormField
@@ -31,23 +33,46 @@ class ChainScreen(Screen):
     BINDINGS = [
         key("e", "edit_stage", "edit", "edit", "Edit the highlighted stage's values and part (enter too)"),
         key("s", "edit_source", "source", "source", "Edit the source: levels, amplitude, band"),
-        key("o", "edit_conditions", "conditions", "conditions",
-            "Edit the conditions: temperature, margin, method, draws"),
+        key(
+            "o",
+            "edit_conditions",
+            "conditions",
+            "conditions",
+            "Edit the conditions: temperature, margin, method, draws",
+        ),
         key("m", "choose_method", "method", "method", "Choose the method: corners, rss, montecarlo"),
         key("a", "add_stage", "add", "add", "Add a stage after the highlighted one"),
-        key("x", "remove_stage", "remove", "remove", "Remove the highlighted stage (asks first)",
-            show=False),
-        key("J", "move_stage(1)", "move down", "move_down", "Move the highlighted stage down",
-            show=False),
+        key("x", "remove_stage", "remove", "remove", "Remove the highlighted stage (asks first)", show=False),
+        key("J", "move_stage(1)", "move down", "move_down", "Move the highlighted stage down", show=False),
         key("K", "move_stage(-1)", "move up", "move_up", "Move the highlighted stage up", show=False),
         key("u", "undo", "undo", "undo", "Undo the last change", show=False),
-        key("d", "show_view('detail')", "detail", "detail", "Show the highlighted stage's detail",
-            show=False),
-        key("l", "show_view('level')", "levels", "levels",
-            "Show the levels of every stage on one axis", show=False),
+        key(
+            "d", "show_view('detail')", "detail", "detail", "Show the highlighted stage's detail", show=False
+        ),
+        key(
+            "l",
+            "show_view('level')",
+            "levels",
+            "levels",
+            "Show the levels of every stage on one axis",
+            show=False,
+        ),
         key("v", "toggle_view", "view", "view", "Switch between the detail and the level view"),
-        key("escape", "focus_stages", "stages", "stages",
-            "Back to the stage list (never discards anything)", show=False),
+        key(
+            "f",
+            "show_fixes",
+            "fixes",
+            "fixes",
+            "Jump to the highlighted stage's sensitivity and fixes (end of the detail panel)",
+        ),
+        key(
+            "escape",
+            "focus_stages",
+            "stages",
+            "stages",
+            "Back to the stage list (never discards anything)",
+            show=False,
+        ),
     ]
     # While a form field has the focus, letters are text and the chain's own keys wait: a letter
     # typed on a closed choice box must not remove or move a stage under the open form.
@@ -59,7 +84,7 @@ class ChainScreen(Screen):
         with ContentSwitcher(initial="detail", id="views"):
             yield StageDetail(id="detail")
             yield LevelView(id="level")
-        yield Footer()
+        yield Footer(compact=True)  # every shown key fits 80 columns
 
     def on_mount(self) -> None:
         self.app.recheck()
@@ -67,8 +92,11 @@ class ChainScreen(Screen):
 
     def check_action(self, action: str, parameters: tuple) -> bool | None:
         focused = self.focused
-        if action not in self.FORM_KEYS and focused is not None and any(
-                isinstance(node, FieldForm) for node in focused.ancestors_with_self):
+        if (
+            action not in self.FORM_KEYS
+            and focused is not None
+            and any(isinstance(node, FieldForm) for node in focused.ancestors_with_self)
+        ):
             return False
         return True
 
@@ -83,13 +111,15 @@ class ChainScreen(Screen):
 
     def show(self, result: ChainResult, note: str = "") -> None:
         session = self.session
-        label = "built-in demo (read-only)" if session.read_only else str(session.path)
+        label = "built-in demo (read-only)" if session.read_only else escaped(str(session.path))
         if session.disk_problems:
             # first on the line, so a long file name cannot push it out of an 80-column view
             problem = session.disk_problems[0]
             where = f"line {problem.line} " if problem.line else ""
-            label = (f"NOT RELOADED: disk version has problems ({where}{problem.field}; r retries)"
-                     f"  {label}")
+            label = (
+                f"NOT RELOADED: disk version has problems ({where}{escaped(problem.field)}; r retries)"
+                f"  {label}"
+            )
         self.query_one(StatusLine).show(result, label, session.modified, note)
         self.query_one(StageList).show(result)
         self._show_view()
@@ -109,7 +139,10 @@ class ChainScreen(Screen):
         if result is None or not result.stages or self.has_class("editing"):
             return
         stage = result.stages[self.highlighted() - 1]
-        self.query_one(StageDetail).show(stage, result.chain, self.session.library.parts)
+        detail = self.query_one(StageDetail)
+        if detail.border_title != f"stage {stage.index} detail":
+            detail.scroll_home(animate=False)  # another stage: its story from the top
+        detail.show(stage, result.chain, self.session.library.parts)
 
     def on_data_table_row_highlighted(self, event: DataTable.RowHighlighted) -> None:
         self._show_detail()
@@ -126,6 +159,22 @@ class ChainScreen(Screen):
     def action_toggle_view(self) -> None:
         current = self.query_one(ContentSwitcher).current
         self.action_show_view("level" if current == "detail" else "detail")
+
+    def jump_to_stage(self, index: int) -> None:
+        """Highlight stage `index` (1-based) and give the stage list the focus."""
+        self.close_form(leave=True)
+        table = self.query_one(StageList)
+        table.move_cursor(row=index - 1, animate=False)
+        table.focus()
+        self._show_detail()
+
+    def action_show_fixes(self) -> None:
+        """The detail panel, scrolled to its end (sensitivity and fixes) and focused, so the
+        arrows and PageUp scroll it; Esc goes back to the stage list."""
+        self.action_show_view("detail")
+        detail = self.query_one(StageDetail)
+        detail.focus()
+        detail.scroll_end(animate=False)
 
     def action_focus_stages(self) -> None:
         self.close_form(leave=True)
@@ -154,8 +203,9 @@ class ChainScreen(Screen):
 
         def apply(field_key: str, text: str, judged) -> None:
             shape = next(f.shape for f in fields if f.key == field_key)
-            self.app.type_edit((form_id, field_key),
-                               change(field_key, editing.toml_value(text, shape)), judged)
+            self.app.type_edit(
+                (form_id, field_key), change(field_key, editing.toml_value(text, shape)), judged
+            )
 
         self.close_form()
         self.add_class("editing")
@@ -169,24 +219,37 @@ class ChainScreen(Screen):
         text = self.session.text
         shapes = editing.stage_shapes(stage.block)
         if BLOCKS[stage.block].uses_part:
-            shapes = {"name": shapes.pop("name"),
-                      "part": FieldShape("text", "choice", tuple(self.session.part_ids),
-                                         "part preset (from the preset folders)"), **shapes}
+            shapes = {
+                "name": shapes.pop("name"),
+                "part": FieldShape(
+                    "text", "choice", tuple(self.session.part_ids), "part preset (from the preset folders)"
+                ),
+                **shapes,
+            }
         if len(self.session.chain.rails) > 1:
-            shapes["rails"] = FieldShape("text", "choice", tuple(self.session.chain.rails),
-                                         "which supply")
+            shapes["rails"] = FieldShape("text", "choice", tuple(self.session.chain.rails), "which supply")
         shown = editing.stage_fields(text, index, shapes)
         fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
-        self._form(f"stage {index}: {stage.name} ({stage.block})", f"stage.{index}", fields,
-                   lambda k, v: lambda t: editing.set_stage_field(t, index, k, v), focus)
+        self._form(
+            f"stage {index}: {stage.name} ({stage.block})",
+            f"stage.{index}",
+            fields,
+            lambda k, v: lambda t: editing.set_stage_field(t, index, k, v),
+            focus,
+        )
 
     def _section_form(self, section: str, focus: str | None = None) -> None:
         shapes = editing.SECTIONS[section]
         text = self.session.text
         shown = editing.section_fields(text, section, shapes)
         fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
-        self._form(f"[{section}]", section, fields,
-                   lambda k, v: lambda t: editing.set_section_field(t, section, k, v), focus)
+        self._form(
+            f"[{section}]",
+            section,
+            fields,
+            lambda k, v: lambda t: editing.set_section_field(t, section, k, v),
+            focus,
+        )
 
     def action_edit_source(self) -> None:
         self._section_form("source")
@@ -197,8 +260,8 @@ class ChainScreen(Screen):
     def action_choose_method(self) -> None:
         def chosen(method: str | None) -> None:
             if method is not None:
-                self.app.apply_edit(lambda t: editing.set_section_field(
-                    t, "conditions", "method", method))
+                self.app.apply_edit(lambda t: editing.set_section_field(t, "conditions", "method", method))
+
         current = self.session.chain.conditions.method
         self.app.push_screen(ChoiceScreen("Method", [(m, m) for m in METHODS], current), chosen)
 
@@ -217,12 +280,15 @@ class ChainScreen(Screen):
                 self._structure_changed(after + 1)
                 self.action_edit_stage()
             else:
-                self.notify(f"the new {block} stage was not added: {problem}", title="add",
-                            severity="error", markup=False)
+                self.notify(
+                    f"the new {block} stage was not added: {problem}",
+                    title="add",
+                    severity="error",
+                    markup=False,
+                )
 
         blocks = [(name, f"{name}: {block.summary}") for name, block in BLOCKS.items()]
-        self.app.push_screen(ChoiceScreen("Add which block after the highlighted stage?", blocks),
-                             chosen)
+        self.app.push_screen(ChoiceScreen("Add which block after the highlighted stage?", blocks), chosen)
 
     def _rails_near(self, index: int) -> str | None:
         """The supply for a stage added after stage `index`: that stage's, else the nearest
@@ -245,8 +311,10 @@ class ChainScreen(Screen):
                     self._structure_changed(index)
 
         name = self.session.chain.stages[index - 1].name
-        self.app.push_screen(ConfirmScreen(f"Remove stage {index} ({name})?",
-                                           [("y", "remove", "remove it (u undoes)")]), answered)
+        self.app.push_screen(
+            ConfirmScreen(f"Remove stage {index} ({name})?", [("y", "remove", "remove it (u undoes)")]),
+            answered,
+        )
 
     def action_move_stage(self, offset: int) -> None:
         index = self.highlighted()
@@ -256,7 +324,7 @@ class ChainScreen(Screen):
                 self._structure_changed(target)
 
     def _structure_changed(self, highlight: int) -> None:
-        self.close_form()                    # its fields name a stage by its place in the chain
+        self.close_form()  # its fields name a stage by its place in the chain
         for form in [f for f in self.session.drafts if f.startswith("stage.")]:
             del self.session.drafts[form]
         self.query_one(StageList).move_cursor(row=highlight - 1, animate=False)
@@ -265,7 +333,7 @@ class ChainScreen(Screen):
     def action_undo(self) -> None:
         self.app.settle()
         if self.session.undo():
-            self.close_form()                # its fields would show the text before the undo
+            self.close_form()  # its fields would show the text before the undo
             self.app.recheck()
         else:
             self.notify("nothing to undo")

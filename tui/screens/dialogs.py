@@ -1,4 +1,5 @@
 """Small modal questions: confirm with lettered answers, pick one of a list, name a file."""
+
 from __future__ import annotations
 
 import textwrap
@@ -15,8 +16,11 @@ from textual.widgets.option_list import Option
 class ConfirmScreen(ModalScreen[str]):
     """A question answered by one letter; Esc answers `cancel` (it never does harm)."""
 
-    BINDINGS = [Binding("escape", "answer('cancel')", "cancel", id="confirm.cancel",
-                        tooltip="Leave everything as it is")]
+    BINDINGS = [
+        Binding(
+            "escape", "answer('cancel')", "cancel", id="confirm.cancel", tooltip="Leave everything as it is"
+        )
+    ]
 
     def __init__(self, question: str, answers: list[tuple[str, str, str]]) -> None:
         """answers: (key, answer id, words), e.g. ("s", "save", "save and quit")."""
@@ -31,8 +35,9 @@ class ConfirmScreen(ModalScreen[str]):
         with Vertical(classes="dialog"):
             yield Label(Text(textwrap.fill(self.question, width)))
             for key, _, words in self.answers:
-                yield Label(Text(textwrap.fill(f"  {key}  {words}", width,
-                                               subsequent_indent=" " * (len(key) + 4))))
+                yield Label(
+                    Text(textwrap.fill(f"  {key}  {words}", width, subsequent_indent=" " * (len(key) + 4)))
+                )
             yield Label(Text("  esc  leave everything as it is"), classes="hint")
 
     def on_key(self, event) -> None:
@@ -48,8 +53,9 @@ class ConfirmScreen(ModalScreen[str]):
 class ChoiceScreen(ModalScreen[str | None]):
     """Pick one entry with the arrows and enter; Esc picks nothing."""
 
-    BINDINGS = [Binding("escape", "pick_nothing", "cancel", id="choice.cancel",
-                        tooltip="Close without choosing")]
+    BINDINGS = [
+        Binding("escape", "pick_nothing", "cancel", id="choice.cancel", tooltip="Close without choosing")
+    ]
 
     def __init__(self, title: str, choices: list[tuple[str, str]], current: str | None = None):
         super().__init__()
@@ -60,8 +66,9 @@ class ChoiceScreen(ModalScreen[str | None]):
     def compose(self) -> ComposeResult:
         with Vertical(classes="dialog"):
             yield Label(Text(self.title_words))
-            yield OptionList(*[Option(Text(words), id=key) for key, words in self.choices],
-                             id="choices")
+            # above the list: a long list scrolls, and this line stays in sight
+            yield Label(Text("↑ ↓ move   enter chooses   esc closes without choosing"), classes="hint")
+            yield OptionList(*[Option(Text(words), id=key) for key, words in self.choices], id="choices")
 
     def on_mount(self) -> None:
         options = self.query_one(OptionList)
@@ -80,8 +87,7 @@ class ChoiceScreen(ModalScreen[str | None]):
 class SaveAsScreen(ModalScreen[str | None]):
     """A file name for the chain; enter saves, Esc does not."""
 
-    BINDINGS = [Binding("escape", "cancel", "cancel", id="save_as.cancel",
-                        tooltip="Close without saving")]
+    BINDINGS = [Binding("escape", "cancel", "cancel", id="save_as.cancel", tooltip="Close without saving")]
 
     def __init__(self, suggestion: str, why: str = "") -> None:
         super().__init__()

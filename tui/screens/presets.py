@@ -5,6 +5,7 @@ x deletes (after a confirmation). Shipped presets are only read: an edit saves a
 folder, which overrides the shipped one. After every change the screen posts `PresetsChanged` and
 calls `on_change`, so the chains that use a preset are checked again at once.
 """
+
 from __future__ import annotations
 
 from pathlib import Path
@@ -20,15 +21,24 @@ from textual.screen import ModalScreen, Screen
 from textual.widgets import Button, DataTable, Footer, Input, Label, Static
 
 from railroom.engine.model import InputError, Problem
-from railroom.engine.preset_editing import (ChangedOnDisk, EditSession, PresetEditError, check_part_id,
-                                            copy_part, delete_part, is_shipped, open_preset_file,
-                                            rename_part, save_preset_text)
+from railroom.engine.preset_editing import (
+    ChangedOnDisk,
+    EditSession,
+    PresetEditError,
+    check_part_id,
+    copy_part,
+    delete_part,
+    is_shipped,
+    open_preset_file,
+    rename_part,
+    save_preset_text,
+)
 from railroom.engine.presets import Library, load_library, read_preset_file, shipped_folder
 from railroom.tui.presets_command import part_lines
 from railroom.tui.widgets.preset_form import PresetForm
 
 
-NESTING_SHOWN = 100          # the line named for a file too deeply nested: where it passes this
+NESTING_SHOWN = 100  # the line named for a file too deeply nested: where it passes this
 
 
 def library_of(folders: list[Path]) -> Library:
@@ -44,10 +54,19 @@ def library_of(folders: list[Path]) -> Library:
             try:
                 parts, problems = read_preset_file(path)
             except RecursionError:
-                parts, problems = [], [Problem(str(path), nesting_line(path), "(file)",
-                                               "nested too deeply to read (arrays or tables "
-                                               f"more than {NESTING_SHOWN} levels inside "
-                                               "each other)")]
+                parts, problems = (
+                    [],
+                    [
+                        Problem(
+                            str(path),
+                            nesting_line(path),
+                            "(file)",
+                            "nested too deeply to read (arrays or tables "
+                            f"more than {NESTING_SHOWN} levels inside "
+                            "each other)",
+                        )
+                    ],
+                )
             library.problems.extend(problems)
             for part in parts:
                 library.add(part)
@@ -82,15 +101,16 @@ class ConfirmDialog(ModalScreen[bool]):
     ConfirmDialog Horizontal { height: auto; align-horizontal: right; }
     """
 
-    BINDINGS = [Binding("escape", "keep", "keep it", id="confirm-dialog.keep",
-                        tooltip="Close without doing anything")]
+    BINDINGS = [
+        Binding("escape", "keep", "keep it", id="confirm-dialog.keep", tooltip="Close without doing anything")
+    ]
 
     def __init__(self, question: str, yes: str = "Delete"):
         super().__init__()
         self.question, self.yes = question, yes
 
     def on_mount(self) -> None:
-        self.query_one("#confirm-no", Button).focus()      # enter alone never deletes
+        self.query_one("#confirm-no", Button).focus()  # enter alone never deletes
 
     def action_keep(self) -> None:
         self.dismiss(False)
@@ -112,8 +132,15 @@ class ChangedOnDiskDialog(ModalScreen[str]):
 
     DEFAULT_CSS = ConfirmDialog.DEFAULT_CSS.replace("ConfirmDialog", "ChangedOnDiskDialog")
 
-    BINDINGS = [Binding("escape", "keep", "keep editing", id="changed-dialog.keep",
-                        tooltip="Keep editing; nothing is written")]
+    BINDINGS = [
+        Binding(
+            "escape",
+            "keep",
+            "keep editing",
+            id="changed-dialog.keep",
+            tooltip="Keep editing; nothing is written",
+        )
+    ]
 
     def __init__(self, path: Path):
         super().__init__()
@@ -127,8 +154,12 @@ class ChangedOnDiskDialog(ModalScreen[str]):
 
     def compose(self) -> ComposeResult:
         with Vertical():
-            yield Static(Text(f"{self.path} changed on disk since you opened it "
-                              "(another editor, or a copy over SSH). Nothing was written."))
+            yield Static(
+                Text(
+                    f"{self.path} changed on disk since you opened it "
+                    "(another editor, or a copy over SSH). Nothing was written."
+                )
+            )
             with Horizontal():
                 yield Button("Reload from disk", variant="warning", id="changed-reload")
                 yield Button("Keep editing", variant="primary", id="changed-keep")
@@ -141,12 +172,18 @@ class ChangedOnDiskDialog(ModalScreen[str]):
 class NameDialog(ModalScreen[str | None]):
     """Asks for a part id, checked as a TOML table name not already taken."""
 
-    DEFAULT_CSS = ConfirmDialog.DEFAULT_CSS.replace("ConfirmDialog", "NameDialog") + """
+    DEFAULT_CSS = (
+        ConfirmDialog.DEFAULT_CSS.replace("ConfirmDialog", "NameDialog")
+        + """
     NameDialog #name-error { color: $error; height: auto; }
     """
+    )
 
-    BINDINGS = [Binding("escape", "cancel", "cancel", id="name-dialog.cancel",
-                        tooltip="Close without naming anything")]
+    BINDINGS = [
+        Binding(
+            "escape", "cancel", "cancel", id="name-dialog.cancel", tooltip="Close without naming anything"
+        )
+    ]
 
     def __init__(self, question: str, suggestion: str, taken: set[str]):
         super().__init__()
@@ -195,14 +232,16 @@ class PresetsScreen(Screen):
         Binding("q", "close", "Back", id="presets.close", tooltip="Back to the chain"),
     ]
 
-    def __init__(self, folders: list[Path], writable: Path,
-                 on_change: Callable[[], None] | None = None):
+    def __init__(self, folders: list[Path], writable: Path, on_change: Callable[[], None] | None = None):
         super().__init__()
         self.folders, self.writable, self.on_change = list(folders), Path(writable), on_change
         self.library = Library()
 
     def compose(self) -> ComposeResult:
-        yield Input(placeholder="type to filter presets (id, description, folder)", id="preset-filter")
+        yield Input(
+            placeholder="type to filter (id, description, folder); enter or ↓ goes to the list",
+            id="preset-filter",
+        )
         with Horizontal(id="preset-body"):
             yield DataTable(id="preset-table", cursor_type="row", zebra_stripes=True)
             yield Static("", id="preset-view")
@@ -212,20 +251,32 @@ class PresetsScreen(Screen):
     def on_mount(self) -> None:
         self.query_one(DataTable).add_columns("preset", "from", "file")
         self.reload_library()
-        self.query_one("#preset-filter", Input).focus()
+        # the list has the focus, so the footer shows its keys (typing in the filter hides every
+        # letter key from it); / goes to the filter
+        self.query_one(DataTable).focus()
 
     def reload_library(self, select: str | None = None) -> None:
         self.library = library_of(self.folders)
         problems = self.library.problems
-        self.query_one("#preset-problems", Static).update(Text("\n".join(
-            [f"{len(problems)} problem(s) in preset files; the good presets are listed:"] +
-            [str(p) for p in problems]) if problems else ""))
+        self.query_one("#preset-problems", Static).update(
+            Text(
+                "\n".join(
+                    [f"{len(problems)} problem(s) in preset files; the good presets are listed:"]
+                    + [str(p) for p in problems]
+                )
+                if problems
+                else ""
+            )
+        )
         self.refill(select)
 
     def shown_ids(self) -> list[str]:
         words = self.query_one("#preset-filter", Input).value.lower().split()
-        return [part_id for part_id, part in sorted(self.library.parts.items())
-                if all(w in f"{part_id} {part.description} {part.origin}".lower() for w in words)]
+        return [
+            part_id
+            for part_id, part in sorted(self.library.parts.items())
+            if all(w in f"{part_id} {part.description} {part.origin}".lower() for w in words)
+        ]
 
     def refill(self, select: str | None = None) -> None:
         table = self.query_one(DataTable)
@@ -277,7 +328,9 @@ class PresetsScreen(Screen):
 
     def check_action(self, action: str, parameters: tuple) -> bool | None:
         if action in ("edit", "copy", "rename", "delete", "close") and isinstance(self.focused, Input):
-            return False  # letters typed in the filter are text, not commands
+            # letters typed in the filter are text, not commands: the keys are shown dimmed in
+            # the footer (enter or the down arrow goes to the list, where they work)
+            return None
         return True
 
     def action_focus_filter(self) -> None:
@@ -304,8 +357,9 @@ class PresetsScreen(Screen):
         except (PresetEditError, OSError) as err:
             self.notify(str(err), severity="error", markup=False)
             return
-        title = f"Edit {part_id}" + (" (a copy in your folder; the shipped file stays as it is)"
-                                     if is_shipped(part.origin) else "")
+        title = f"Edit {part_id}" + (
+            " (a copy in your folder; the shipped file stays as it is)" if is_shipped(part.origin) else ""
+        )
         self.app.push_screen(PresetForm(session, title), lambda saved: self.after_form(saved, part_id))
 
     def after_form(self, saved: bool | None, part_id: str) -> None:
@@ -322,9 +376,12 @@ class PresetsScreen(Screen):
         part_id = self.current_id()
         if part_id is None:
             return
-        self.app.push_screen(NameDialog(f"New preset from a copy of {part_id}; its id:",
-                                        f"{part_id}-copy", set(self.library.parts)),
-                             lambda name: self.make_copy(part_id, name))
+        self.app.push_screen(
+            NameDialog(
+                f"New preset from a copy of {part_id}; its id:", f"{part_id}-copy", set(self.library.parts)
+            ),
+            lambda name: self.make_copy(part_id, name),
+        )
 
     def make_copy(self, part_id: str, new_id: str | None) -> None:
         if not new_id:
@@ -340,13 +397,19 @@ class PresetsScreen(Screen):
         part_id = self.current_id()
         if part_id is None or self.refuse_shipped(part_id, "renamed"):
             return
-        self.app.push_screen(NameDialog(f"New id for {part_id}:", part_id,
-                                        set(self.library.parts) - {part_id}),
-                             lambda name: self.make_rename(part_id, name))
+        self.app.push_screen(
+            NameDialog(f"New id for {part_id}:", part_id, set(self.library.parts) - {part_id}),
+            lambda name: self.make_rename(part_id, name),
+        )
 
     def make_rename(self, part_id: str, new_id: str | None) -> None:
-        if new_id and new_id != part_id and self.write(
-                Path(self.library.parts[part_id].origin), lambda text: rename_part(text, part_id, new_id)):
+        if (
+            new_id
+            and new_id != part_id
+            and self.write(
+                Path(self.library.parts[part_id].origin), lambda text: rename_part(text, part_id, new_id)
+            )
+        ):
             self.changed(new_id)
 
     def action_delete(self) -> None:
@@ -358,14 +421,17 @@ class PresetsScreen(Screen):
         self.app.push_screen(ConfirmDialog(question), lambda yes: self.make_delete(part_id, yes))
 
     def make_delete(self, part_id: str, yes: bool | None) -> None:
-        if yes and self.write(Path(self.library.parts[part_id].origin),
-                              lambda text: delete_part(text, part_id)):
+        if yes and self.write(
+            Path(self.library.parts[part_id].origin), lambda text: delete_part(text, part_id)
+        ):
             self.changed(None)
 
     def refuse_shipped(self, part_id: str, what: str) -> bool:
         if is_shipped(self.library.parts[part_id].origin):
-            self.notify(f"Shipped presets are never {what}; make a copy (c) in your folder instead.",
-                        severity="warning")
+            self.notify(
+                f"Shipped presets are never {what}; make a copy (c) in your folder instead.",
+                severity="warning",
+            )
             return True
         return False
 

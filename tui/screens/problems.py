@@ -3,6 +3,7 @@ that the file is watched. The app opens the chain screen in its place as soon as
 
 Nothing the user typed is lost: the file stays as it is on disk, in their editor, and is only read.
 """
+
 from __future__ import annotations
 
 from rich.text import Text
@@ -13,6 +14,7 @@ from textual.screen import Screen
 from textual.widgets import Footer, Static
 
 from railroom.engine.model import Problem
+from railroom.engine.values import escaped
 from railroom.tui.session import WaitingFile
 
 
@@ -21,24 +23,29 @@ def key(keys: str, action: str, words: str, ident: str, tooltip: str, show: bool
 
 
 def problem_lines(problems: tuple[Problem, ...]) -> Text:
-    """One line per problem, file:line: field: message; the user's own text shown as it is."""
+    """One line per problem, file:line: field: message; the user's own text shown as it is, with
+    control characters escaped (a file name cannot drive the terminal)."""
     text = Text()
     for problem in problems:
         where = f"{problem.file}:{problem.line}" if problem.line else problem.file
-        text.append(where, style="bold")
+        text.append(escaped(str(where)), style="bold")
         text.append(": ")
-        text.append(problem.field, style="bold red")
-        text.append(f": {problem.message}\n")
+        text.append(escaped(problem.field), style="bold red")
+        text.append(f": {escaped(problem.message)}\n")
     return text
 
 
 class ProblemsScreen(Screen):
     BINDINGS = [
         key("r", "app.reload", "reload now", "reload", "Read the chain file again now"),
-        key("n", "start_from_demo", "new from demo", "new",
-            "Start the missing file from the built-in demo, saved under its name"),
-        key("escape", "nothing", "", "escape", "Does nothing here (the file stays watched)",
-            show=False),
+        key(
+            "n",
+            "start_from_demo",
+            "new from demo",
+            "new",
+            "Start the missing file from the built-in demo, saved under its name",
+        ),
+        key("escape", "nothing", "", "escape", "Does nothing here (the file stays watched)", show=False),
     ]
 
     def __init__(self, waiting: WaitingFile) -> None:
@@ -63,20 +70,22 @@ class ProblemsScreen(Screen):
     def show(self) -> None:
         """Paint the waiting file's problems as they stand after the last try."""
         waiting = self.waiting
-        name = str(waiting.file)
+        name = escaped(str(waiting.file))
         count = len(waiting.problems)
         if waiting.missing:
             title = Text.assemble("No chain file at ", (name, "bold"), ".")
         else:
-            title = Text.assemble((name, "bold"), f" cannot be opened: {count} problem"
-                                  f"{'s' if count != 1 else ''}.")
+            title = Text.assemble(
+                (name, "bold"), f" cannot be opened: {count} problem{'s' if count != 1 else ''}."
+            )
         self.query_one("#problems-title", Static).update(title)
         self.query_one("#problems-body", Static).update(problem_lines(waiting.problems))
-        watch = ("Watching for it to appear; it opens as soon as it is there and loads."
-                 + ("  n starts it from the built-in demo." if self.check_action(
-                     "start_from_demo", ()) else "")
-                 if waiting.missing else
-                 "Watching the file: fix it in your editor and save; it opens as soon as it loads.")
+        watch = (
+            "Watching for it to appear; it opens as soon as it is there and loads."
+            + ("  n starts it from the built-in demo." if self.check_action("start_from_demo", ()) else "")
+            if waiting.missing
+            else "Watching the file: fix it in your editor and save; it opens as soon as it loads."
+        )
         self.query_one("#problems-watch", Static).update(Text(watch))
         self.refresh_bindings()
 

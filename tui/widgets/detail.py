@@ -1,4 +1,5 @@
 """The detail panel: every check of the highlighted stage with the engine's numbers."""
+
 from __future__ import annotations
 
 from collections.abc import Mapping
@@ -15,8 +16,14 @@ from railroom.engine.model import Chain, Part
 from railroom.engine.results import CHECKS, OpAmpMeasure, StageResult
 from railroom.engine.values import Quantity, format_si, format_span
 
-UNITS = {"resistance": "Ω", "capacitance": "F", "voltage": "V", "current": "A",
-         "frequency": "Hz", "slew": "V/s"}
+UNITS = {
+    "resistance": "Ω",
+    "capacitance": "F",
+    "voltage": "V",
+    "current": "A",
+    "frequency": "Hz",
+    "slew": "V/s",
+}
 CHECK_UNITS = {"slew": "V/s", "current": "A"}
 
 
@@ -28,20 +35,22 @@ def span_words(span: tuple[float, float], unit: str = "V") -> str:
     return format_span(span[0], span[1], unit)
 
 
-def needed_and_limit(stage: StageResult, check: str, part: Part | None,
-                     chain: Chain) -> tuple[str, str]:
+def needed_and_limit(stage: StageResult, check: str, part: Part | None, chain: Chain) -> tuple[str, str]:
     """What the stage asks of the part and what the part gives, as the engine measured them."""
     m = stage.measure
     label = stage.failing_nodes.get(check)
-    amp: OpAmpMeasure | None = next((a for a in m.opamps if a.label == label),
-                                    m.opamps[0] if m.opamps else None)
+    amp: OpAmpMeasure | None = next(
+        (a for a in m.opamps if a.label == label), m.opamps[0] if m.opamps else None
+    )
     if check == "supply":
         rails = chain.rails_for(m.stage)
         allowed = span_words(part.supply) if part else "-"
         return span_words(m.supply or rails.span_range), allowed
-    if check == "input-differential":      # engine/part_limits.py: largest |V+ - V-|
-        return (volts(m.input_differential) if m.input_differential is not None else "-",
-                volts(part.input_differential_max) if part else "-")
+    if check == "input-differential":  # engine/part_limits.py: largest |V+ - V-|
+        return (
+            volts(m.input_differential) if m.input_differential is not None else "-",
+            volts(part.input_differential_max) if part else "-",
+        )
     if amp is None:
         window = m.window or (float("nan"), float("nan"))
         side = 1 if check.endswith("high") else 0
@@ -50,8 +59,11 @@ def needed_and_limit(stage: StageResult, check: str, part: Part | None,
     pairs = {"output": (amp.output, amp.window), "input": (amp.input, amp.input_window)}
     if check in ("slew", "current"):
         unit = CHECK_UNITS[check]
-        needed, limit = ((amp.slew_needed, amp.slew_available) if check == "slew" else
-                         (amp.current_needed, amp.current_available))
+        needed, limit = (
+            (amp.slew_needed, amp.slew_available)
+            if check == "slew"
+            else (amp.current_needed, amp.current_available)
+        )
         return volts(needed, unit), volts(limit, unit)
     reached, allowed = pairs[check.split("-")[0]]
     return volts(reached[side]), volts(allowed[side])
@@ -59,8 +71,9 @@ def needed_and_limit(stage: StageResult, check: str, part: Part | None,
 
 def checks_table(stage: StageResult, part: Part | None, chain: Chain) -> Table:
     table = Table(box=None, pad_edge=False, show_edge=False, expand=False)
-    for column in ("check", "needed", "limit", "margin", ""):
-        table.add_column(column, no_wrap=True)
+    # steady widths: the columns do not jump as values are typed or stages highlighted
+    for column, width in (("check", 11), ("needed", 16), ("limit", 16), ("margin", 10), ("", 4)):
+        table.add_column(column, no_wrap=True, min_width=width)
     for check in CHECKS:
         if check not in stage.margins:
             continue
@@ -74,8 +87,13 @@ def checks_table(stage: StageResult, part: Part | None, chain: Chain) -> Table:
         table.add_row(check, needed, limit, volts(margin, CHECK_UNITS.get(check, "V")), verdict)
     error = stage.measure.gain_error
     if error is not None:
-        table.add_row("gain error", f"{error:.3%}", f"{GAIN_ERROR_CAUTION:.0%} (caution)", "-",
-                      Text("caution" if error > GAIN_ERROR_CAUTION else "ok"))
+        table.add_row(
+            "gain error",
+            f"{error:.3%}",
+            f"{GAIN_ERROR_CAUTION:.0%} (caution)",
+            "-",
+            Text("caution" if error > GAIN_ERROR_CAUTION else "ok"),
+        )
     return table
 
 
@@ -101,8 +119,10 @@ def components(stage: StageResult) -> Text:
             text.append(f"{key} {quantity_words(value, kinds.get(key, ''))}   ")
         elif isinstance(value, list):
             for i, item in enumerate(value, start=1):
-                text.append(f"{key}.{i} r {quantity_words(item['r'], 'resistance')} "
-                            f"from {quantity_words(item['v'], 'voltage')}   ")
+                text.append(
+                    f"{key}.{i} r {quantity_words(item['r'], 'resistance')} "
+                    f"from {quantity_words(item['v'], 'voltage')}   "
+                )
         else:
             text.append(f"{key} {str(value).lower()}   ")
     return text if text.plain else Text("no components of its own")
@@ -116,8 +136,13 @@ def nodes_table(stage: StageResult) -> Table | None:
     for column in ("node", "output span", "window", "input span", "input window"):
         table.add_column(column, no_wrap=True)
     for amp in m.opamps:
-        table.add_row(Text(amp.label), span_words(amp.output), span_words(amp.window),
-                      span_words(amp.input), span_words(amp.input_window))
+        table.add_row(
+            Text(amp.label),
+            span_words(amp.output),
+            span_words(amp.window),
+            span_words(amp.input),
+            span_words(amp.input_window),
+        )
     for label, span in m.inner.items():
         table.add_row(Text(label), span_words(span), "", "", "")
     return table
@@ -134,8 +159,10 @@ def stage_story(stage: StageResult, chain: Chain, parts: Mapping[str, Part]) -> 
     if part is not None:
         head.append("  part ")
         head.append(part.id)
-    head.append(f"\nrails {rails.name}: {volts(rails.negative)} / {volts(rails.positive)}"
-                f" ±{format_si(rails.tolerance, '%')}   ")
+    head.append(
+        f"\nrails {rails.name}: {volts(rails.negative)} / {volts(rails.positive)}"
+        f" ±{format_si(rails.tolerance, '%')}   "
+    )
     head.append(f"output {span_words(m.output)}  nominal {span_words(m.nominal)}")
     if m.window is not None:
         head.append(f"  window {span_words(m.window)}")
@@ -144,11 +171,16 @@ def stage_story(stage: StageResult, chain: Chain, parts: Mapping[str, Part]) -> 
     parts_shown: list = [head, checks_table(stage, part, chain)]
     if m.thresholds is not None:
         to_high, to_low = m.thresholds
-        parts_shown.append(Text(f"switches: output goes high at input {span_words(to_high)}, "
-                                f"low at {span_words(to_low)}"))
+        parts_shown.append(
+            Text(f"switches: output goes high at input {span_words(to_high)}, low at {span_words(to_low)}")
+        )
     if m.phase_margin_deg is not None:
-        parts_shown.append(Text(f"phase margin (estimate, capacitive load): {m.phase_margin_deg:.0f}°",
-                                style="yellow" if m.phase_margin_deg < 45 else ""))
+        parts_shown.append(
+            Text(
+                f"phase margin (estimate, capacitive load): {m.phase_margin_deg:.0f}°",
+                style="yellow" if m.phase_margin_deg < 45 else "",
+            )
+        )
     parts_shown.append(Text("components: ", style="bold") + components(stage))
     nodes = nodes_table(stage)
     if nodes is not None:
@@ -163,8 +195,7 @@ def notes(stage: StageResult) -> list[Text]:
         lines.append(Text("fails: " + ", ".join(stage.reasons), style="bold red"))
     lines += [Text(f"caution: {c}", style="yellow") for c in stage.cautions]
     if stage.sensitivity:
-        lines.append(Text("sensitivity: " + ", ".join(
-            f"{s.words} {s.share:.0%}" for s in stage.sensitivity)))
+        lines.append(Text("sensitivity: " + ", ".join(f"{s.words} {s.share:.0%}" for s in stage.sensitivity)))
     lines += [Text(f"fix: {f.text}") for f in stage.fixes]
     return lines
 

@@ -6,6 +6,7 @@ goes straight into the chain, and the status line and stage list above re-check 
 that does not read stays in its field with the engine's message beside it (and is kept as a draft
 when the form closes), so nothing the user typed is lost.
 """
+
 from __future__ import annotations
 
 from dataclasses import dataclass
@@ -28,8 +29,16 @@ CONTROL_PROBLEM = "control characters are not allowed here (shown as ␛ and the
 
 # (field key, typed text, verdict): the verdict is called with the problem or None, at once or later
 Apply = Callable[[str, str, Callable[[str | None], None]], None]
-EMPTY_NOTE = ("empty: leaving the form removes it (when it may be left out); a value typed "
-              "now keeps its line and comment")
+EMPTY_NOTE = (
+    "empty: leaving the form removes it (when it may be left out); a value typed "
+    "now keeps its line and comment"
+)
+
+
+def choice_prompt(key: str, choices) -> str:
+    """What an empty choice box says: which values there are to pick (enter opens the list)."""
+    shown = " / ".join(choices[:4]) + (" ..." if len(choices) > 4 else "")
+    return f"pick one: {shown} (enter)"
 
 
 class FieldInput(Input):
@@ -55,7 +64,7 @@ class FieldInput(Input):
             return
         form = next((a for a in self.ancestors if isinstance(a, FieldForm)), None)
         if form is not None and form.closing:
-            event.stop()                     # typed after Esc: a key for the chain screen
+            event.stop()  # typed after Esc: a key for the chain screen
             event.prevent_default()
             self.screen._forward_event(events.Key(event.key, event.character))
             return
@@ -77,7 +86,7 @@ class FieldInput(Input):
 class FormField:
     key: str
     shape: FieldShape
-    text: str                    # what the field holds now (or the draft the user left)
+    text: str  # what the field holds now (or the draft the user left)
     choices: tuple[str, ...] = ()
 
 
@@ -86,19 +95,43 @@ class FieldForm(VerticalScroll):
     in) and posts `Closed`, so the screen puts the detail panel back."""
 
     BINDINGS = [
-        Binding("escape", "close", "close form", id="form.close",
-                tooltip="Close the form; accepted changes stay, drafts are kept"),
-        Binding("tab", "next_field", "next field", show=False, id="form.next",
-                tooltip="The next field of the form (goes round)"),
-        Binding("shift+tab", "previous_field", "previous field", show=False, id="form.previous",
-                tooltip="The previous field of the form (goes round)"),
+        Binding(
+            "escape",
+            "close",
+            "close form",
+            id="form.close",
+            tooltip="Close the form; accepted changes stay, drafts are kept",
+        ),
+        Binding(
+            "tab",
+            "next_field",
+            "next field",
+            show=False,
+            id="form.next",
+            tooltip="The next field of the form (goes round)",
+        ),
+        Binding(
+            "shift+tab",
+            "previous_field",
+            "previous field",
+            show=False,
+            id="form.previous",
+            tooltip="The previous field of the form (goes round)",
+        ),
     ]
 
     class Closed(Message):
         """The user left the form."""
 
-    def __init__(self, title: str, fields: list[FormField], apply: Apply,
-                 drafts: dict[str, str], focus_key: str | None = None, form_id: str = "") -> None:
+    def __init__(
+        self,
+        title: str,
+        fields: list[FormField],
+        apply: Apply,
+        drafts: dict[str, str],
+        focus_key: str | None = None,
+        form_id: str = "",
+    ) -> None:
         super().__init__()
         self.form_id = form_id
         self.title_words = title
@@ -115,8 +148,7 @@ class FieldForm(VerticalScroll):
                 yield Label(Text(field.key), classes="form-key")
                 yield self._editor(field)
             yield Label(Text(field.shape.help), id=f"message-{field.key}", classes="form-message")
-        yield Label(Text("tab next field   esc close   every change is checked at once"),
-                    classes="hint")
+        yield Label(Text("tab next field   esc close   every change is checked at once"), classes="hint")
 
     def _editor(self, field: FormField):
         choices = field.choices or field.shape.choices
@@ -124,11 +156,17 @@ class FieldForm(VerticalScroll):
             choices = ("false", "true")
         if choices:
             value = field.text if field.text in choices else Select.NULL
-            return Select([(Text(c), c) for c in choices], value=value,
-                          allow_blank=value is Select.NULL, id=f"field-{field.key}",
-                          classes="form-value")
-        return FieldInput(value=field.text, id=f"field-{field.key}", classes="form-value",
-                          placeholder=field.shape.help)
+            return Select(
+                [(Text(c), c) for c in choices],
+                value=value,
+                allow_blank=value is Select.NULL,
+                id=f"field-{field.key}",
+                classes="form-value",
+                prompt=choice_prompt(field.key, choices),
+            )
+        return FieldInput(
+            value=field.text, id=f"field-{field.key}", classes="form-value", placeholder=field.shape.help
+        )
 
     def on_mount(self) -> None:
         self.border_title = "edit"
@@ -160,7 +198,7 @@ class FieldForm(VerticalScroll):
         event.stop()
         shown = event.value.translate(CONTROL_PICTURES)
         if shown != event.value:
-            event.input.value = shown         # posts another Changed, judged as refused below
+            event.input.value = shown  # posts another Changed, judged as refused below
             return
         self._judge(event.input.id.removeprefix("field-"), event.value)
 
@@ -199,7 +237,7 @@ class FieldForm(VerticalScroll):
             if self.drafts.get(key) == text:
                 del self.drafts[key]
             self.fields[key] = FormField(key, field.shape, text, field.choices)
-        if self.is_mounted:                   # else the form was closed meanwhile: the draft stays
+        if self.is_mounted:  # else the form was closed meanwhile: the draft stays
             self._message(key, problem or field.shape.help, bool(problem))
 
     def _message(self, key: str, words: str, problem: bool) -> None:

@@ -1,5 +1,6 @@
 """The level view: every stage's worst-case output span against its window, on one common axis,
 so a glance down the chain shows where the signal comes close to a rail."""
+
 from __future__ import annotations
 
 from rich.text import Text
@@ -8,7 +9,7 @@ from textual.widgets import Static
 
 from railroom.engine.results import VOLTAGE_CHECKS, ChainResult
 from railroom.engine.values import format_si
-from railroom.tui.bars import LEGEND, margin_bar
+from railroom.tui.bars import LEGEND, OFF_RAILS, legend, margin_bar
 
 LABEL = 18
 NUMBERS = 22
@@ -26,8 +27,12 @@ def common_axis(result: ChainResult) -> tuple[float, float]:
 
 def closest_approach(result: ChainResult) -> Text:
     """The smallest voltage margin in the chain, as the engine computed it."""
-    found = [(s.margins[c], c, s) for s in result.stages for c in VOLTAGE_CHECKS
-             if c.startswith("output") and c in s.margins]
+    found = [
+        (s.margins[c], c, s)
+        for s in result.stages
+        for c in VOLTAGE_CHECKS
+        if c.startswith("output") and c in s.margins
+    ]
     if not found:
         return Text("")
     margin, check, stage = min(found, key=lambda item: item[0])
@@ -54,15 +59,24 @@ def level_picture(result: ChainResult, width: int) -> Text:
         name.truncate(LABEL, overflow="ellipsis", pad=True)
         picture.append_text(name)
         picture.append(" ")
-        picture.append_text(margin_bar((rails.negative_range[0], rails.positive_range[1]),
-                                       stage.measure.window, stage.measure.output,
-                                       width=bar_width, scale=(low, high)))
+        amp = stage.measure.opamps[0] if stage.measure.opamps else None
+        picture.append_text(
+            margin_bar(
+                (rails.negative_range[0], rails.positive_range[1]),
+                stage.measure.window,
+                stage.measure.output,
+                width=bar_width,
+                scale=(low, high),
+                input_span=amp.input if amp else None,
+                input_window=amp.input_window if amp else None,
+            )
+        )
         out = stage.measure.output
         picture.append(f" {format_si(out[0], 'V'):>9} ..{format_si(out[1], 'V'):>9}\n")
     picture.append_text(axis_line(low, high, bar_width))
     picture.append("\n")
     picture.append_text(closest_approach(result))
-    picture.append("\n" + LEGEND + "   · outside this stage's rails", style="dim")
+    picture.append("\n" + LEGEND + "   " + legend((OFF_RAILS,)), style="dim")
     return picture
 
 

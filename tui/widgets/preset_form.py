@@ -5,7 +5,10 @@ any box, the Save button, or ctrl+s where the terminal lets it through: many tak
 control) hands the values to an `EditSession`, which refuses anything the preset loader would refuse and
 notices a file changed on disk in the meantime. The form stays open until the save succeeds.
 """
+
 from __future__ import annotations
+
+import re
 
 from textual import on
 from textual.app import ComposeResult
@@ -22,6 +25,32 @@ from railroom.engine.presets import PAIR_SIDES, PART_FIELDS, UNITS
 from railroom.engine.values import ValueTextError, parse_quantity
 
 
+# The slew rate is quoted in V/µs: its column says so, a value from the file is shown in it, and
+# a bare number typed there is written with that unit (a value typed with its own unit is kept).
+SLEW_COLUMN, SLEW_SUFFIX = "V/µs", "V/us"
+BARE = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)(e[+-]?\d+)?[pnuµmkMG]?$")
+
+
+def column_units(key: str) -> str:
+    return SLEW_COLUMN if key == "slew" else UNITS.get(key, "")
+
+
+def slew_shown(text: str) -> str:
+    """A slew rate from the file in the column's V/µs ("0.6V/us" -> "0.6", "500k" V/s -> "0.5");
+    text that does not read as a plain rate is shown as it is."""
+    try:
+        q = parse_quantity(text.strip(), "slew")
+    except ValueTextError:
+        return text
+    if q.tolerance or q.tempco:
+        return text
+    return f"{q.value / 1e6:.6g}"
+
+
+def slew_written(text: str) -> str:
+    """What a slew box's text means in the file: a bare number is in the column's V/µs."""
+    return text + SLEW_SUFFIX if BARE.match(text.strip()) else text
+
 
 class QuantityText(Validator):
     """A value of one kind as the files write it ("0.5V/us" for a slew rate), read by the engine's parser."""
@@ -34,7 +63,8 @@ class QuantityText(Validator):
         if not value.strip():
             return self.success()
         try:
-            parse_quantity(value.strip(), self.kind)
+            text = slew_written(value.strip()) if self.kind == "slew" else value.strip()
+            parse_quantity(text, self.kind)
         except ValueTextError as err:
             return self.failure(str(err))
         return self.success()
@@ -56,6 +86,7 @@ class CurveText(Validator):
         if not value.strip():
             return self.success()
         from railroom.engine.part_limits import curve_from_text
+
         message = curve_from_text(value)[1]
         return self.failure(message) if message else self.success()
 
@@ -99,11 +130,24 @@ class PresetForm(ModalScreen[bool]):
     """
     # Enter in a box saves (Input.Submitted below): the box's own enter binding would hide a
     # screen-level one from the footer, so the footer shows both keys on the ctrl+s binding.
-    BINDINGS = [Binding("ctrl+s", "save", "save", key_display="enter/ctrl+s", id="preset-form.save",
-                        tooltip="Save this preset: enter in any box, the Save button, or ctrl+s "
-                                "(many terminals keep ctrl+s for flow control)"),
-                Binding("escape", "leave_if_unchanged", "close", id="preset-form.close",
-                        tooltip="Close (unsaved values are never dropped by Esc alone)")]
+    BINDINGS = [
+        Binding(
+            "ctrl+s",
+            "save",
+            "save",
+            key_display="enter/ctrl+s",
+            id="preset-form.save",
+            tooltip="Save this preset: enter in any box, the Save button, or ctrl+s "
+            "(many terminals keep ctrl+s for flow control)",
+        ),
+        Binding(
+            "escape",
+            "leave_if_unchanged",
+            "close",
+            id="preset-form.close",
+            tooltip="Close (unsaved values are never dropped by Esc alone)",
+        ),
+    ]
 
     def __init__(self, session: EditSession, title: str = ""):
         super().__init__()
@@ -127,15 +171,19 @@ class PresetForm(ModalScreen[bool]):
         label = key_label(key) + ("" if required else " (optional)")
         row = Horizontal(classes="form-row")
         if "\n" in label:
-            row.styles.height = "auto"           # a long name takes two lines (key_label)
+            row.styles.height = "auto"  # a long name takes two lines (key_label)
         with row:
             yield Label(label, classes="form-key")
             for side, name in enumerate(PAIR_SIDES.get(key, ("",))):
                 if pair:
                     yield Label(name, classes="form-pair-name")
-                yield Input(id=f"field-{key}-{side}" if pair else f"field-{key}",
-                            validators=validators, validate_on=["changed", "submitted"], compact=True)
-            yield Label(UNITS.get(key, ""), classes="form-unit")
+                yield Input(
+                    id=f"field-{key}-{side}" if pair else f"field-{key}",
+                    validators=validators,
+                    validate_on=["changed", "submitted"],
+                    compact=True,
+                )
+            yield Label(column_units(key), classes="form-unit")
         yield Static("", id=f"error-{key}", classes="form-error")
 
     def on_mount(self) -> None:
@@ -144,6 +192,8 @@ class PresetForm(ModalScreen[bool]):
     def fill(self, raw: dict[str, Raw]) -> None:
         for key, (_, pair, _) in PART_FIELDS.items():
             value = raw.get(key, ("", "") if pair else "")
+            if key == "slew" and isinstance(value, str) and value:
+                value = slew_shown(value)
             for box, text in self._boxes(key, value):
                 box.value = text
             self.query_one(f"#error-{key}", Static).display = False
@@ -186,6 +236,12 @@ class PresetForm(ModalScreen[bool]):
                 wrong.append(f"{key}: needs both values")
             else:
                 found[key] = (texts[0], texts[1]) if pair else texts[0]
+        slew, started = found.get("slew"), self.session.started.get("slew")
+        if isinstance(slew, str):
+            # unchanged: the file's own text stays; else the column's unit is written
+            found["slew"] = (
+                started if isinstance(started, str) and slew == slew_shown(started) else slew_written(slew)
+            )
         return found, wrong
 
     @on(Input.Submitted)
@@ -195,21 +251,27 @@ class PresetForm(ModalScreen[bool]):
         if wrong:
             self.show_problems(wrong)
             return
+        had_file = self.session.target.path.exists()
         try:
             path = self.session.save(values)
         except ChangedOnDisk as err:
             from railroom.tui.screens.presets import ChangedOnDiskDialog
+
             self.app.push_screen(ChangedOnDiskDialog(err.path), self.resolve_change)
             return
         except InputError as err:
-            self.show_problems([f"line {p.line}: {p.field}: {p.message}" if p.line else
-                                f"{p.field}: {p.message}" for p in err.problems])
+            self.show_problems(
+                [
+                    f"line {p.line}: {p.field}: {p.message}" if p.line else f"{p.field}: {p.message}"
+                    for p in err.problems
+                ]
+            )
             return
         except (PresetEditError, OSError) as err:
             self.show_problems([str(err)])
             return
-        self.app.notify(f"Saved {self.session.part_id} to {path} (previous version kept as .bak)",
-                        markup=False)
+        kept = f" (previous version kept as {path.name}.bak)" if had_file else ""
+        self.app.notify(f"Saved {self.session.part_id} to {path}{kept}", markup=False)
         self.dismiss(True)
 
     def resolve_change(self, choice: str | None) -> None:
@@ -218,8 +280,12 @@ class PresetForm(ModalScreen[bool]):
             self.app.notify("Reloaded from disk; your unsaved values were dropped.")
         else:
             self.session.keep_editing()
-            self.show_problems(["The file changed on disk. Your values are kept; Save applies only "
-                                "the fields you changed to the file as it is now."])
+            self.show_problems(
+                [
+                    "The file changed on disk. Your values are kept; Save applies only "
+                    "the fields you changed to the file as it is now."
+                ]
+            )
 
     def show_problems(self, lines: list[str]) -> None:
         self.query_one("#form-problems", Static).update(Text("\n".join(lines)))
@@ -232,7 +298,8 @@ class PresetForm(ModalScreen[bool]):
         # Esc is harmless: a slow link can split an escape sequence, so it never drops typed values.
         values, wrong = self.values()
         if wrong or any(self.session.started.get(key) != raw for key, raw in values.items()):
-            self.show_problems(["Unsaved values: enter or the Save button saves them, "
-                                "the Close button drops them."])
+            self.show_problems(
+                ["Unsaved values: enter or the Save button saves them, the Close button drops them."]
+            )
         else:
             self.dismiss(False)

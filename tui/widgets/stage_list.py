@@ -1,4 +1,5 @@
 """The stage list: one row per stage, with its limiting check and its margin bar."""
+
 from __future__ import annotations
 
 from rich.text import Text
@@ -7,7 +8,7 @@ from textual.widgets import DataTable
 
 from railroom.engine.results import ChainResult, StageResult
 from railroom.engine.values import format_si
-from railroom.tui.bars import SHORT_LEGEND, margin_bar
+from railroom.tui.bars import SHORT_LEGEND, stage_bar
 
 MARGIN_UNITS = {"slew": "V/s", "current": "A"}
 REGIME_STYLES = {"linear": "green", "clipping": "bold red", "saturated": "cyan"}
@@ -30,19 +31,60 @@ def regime_words(stage: StageResult) -> Text:
     return Text(word, style=style)
 
 
-def column_widths(total: int, cells: list[list[Text]]) -> dict[str, int]:
-    """Words keep their width while they fit; when the window is narrow the part, block and name
-    columns give way first (the detail panel shows them whole), and the bar takes what is left."""
-    labels = ("#", "stage", "block", "part", "regime", "limiting margin")
-    wanted = [max([len(label)] + [c[i].cell_len for c in cells]) for i, label in enumerate(labels)]
-    widths = dict(zip(labels, wanted))
-    room = total - len(labels) - 3                    # one space after each column, scrollbar
-    for label, smallest in (("part", 8), ("block", 8), ("stage", 12)):
-        over = sum(widths.values()) + BAR_LIMITS[0] - room
-        if over > 0:
-            widths[label] = max(smallest, widths[label] - over)
-    widths["rail span"] = min(max(room - sum(widths.values()), BAR_LIMITS[0]), BAR_LIMITS[1])
-    return widths
+# The block's short name, for a narrow window (the detail panel names the block in full).
+BLOCK_SHORT = {
+    "follower": "follower",
+    "noninverting": "non-inv",
+    "inverting": "inverting",
+    "summing": "summing",
+    "difference": "diff",
+    "instrumentation": "in-amp",
+    "integrator": "integr",
+    "comparator": "compare",
+    "schmitt": "schmitt",
+    "sallen_key_lowpass": "SK low",
+    "sallen_key_highpass": "SK high",
+    "mfb_lowpass": "MFB low",
+    "mfb_bandpass": "MFB band",
+    "divider": "divider",
+    "rc_lowpass": "RC low",
+    "adc": "adc",
+}
+LABELS = ("#", "stage", "block", "part", "regime", "limiting margin")
+# "fed-clipped"; "output-high -3.46 V" and the like (a slew margin in V/µs may be longer)
+STEADY = {"regime": 11, "limiting margin": 19}
+
+
+def column_widths(total: int, cells: list[dict[str, Text]]) -> tuple[dict[str, int], bool]:
+    """Words keep their width while they fit. When the window is narrow, what gives way first is
+    what the detail panel shows anyway: the part column goes, then blocks take their short names,
+    and only then are stage names cut (rows stay told apart by their names). The bar takes what
+    is left. Returns the widths (without "part" when it went) and whether blocks are short."""
+
+    def wanted(label: str, key: str | None = None) -> int:
+        return max([len(label)] + [c[key or label].cell_len for c in cells])
+
+    widths = {label: wanted(label) for label in LABELS}
+    # the words that change as values are typed keep one width, so the columns do not jump
+    for label, steady in STEADY.items():
+        widths[label] = max(widths[label], steady)
+    short = False
+    room = total - 3  # the scrollbar and a little air
+
+    def over() -> int:
+        return sum(widths.values()) + len(widths) + 1 + BAR_LIMITS[0] - room
+
+    if over() > 0:
+        del widths["part"]
+    if over() > 0:
+        widths["block"], short = wanted("block", "short"), True
+    for label, smallest in (("stage", 12), ("block", 5)):
+        if over() > 0:
+            widths[label] = max(smallest, widths[label] - over())
+    widths["rail span"] = min(
+        max(room - sum(widths.values()) - len(widths) - 1, BAR_LIMITS[0]), BAR_LIMITS[1]
+    )
+    return widths, short
 
 
 def clipped(text: str | Text, width: int) -> Text:
@@ -55,10 +97,8 @@ class StageList(DataTable):
     """Arrow keys or j/k move; the highlighted stage drives the detail panel."""
 
     BINDINGS = [
-        Binding("j", "cursor_down", "down", show=False, id="stage.down",
-                tooltip="Highlight the next stage"),
-        Binding("k", "cursor_up", "up", show=False, id="stage.up",
-                tooltip="Highlight the previous stage"),
+        Binding("j", "cursor_down", "down", show=False, id="stage.down", tooltip="Highlight the next stage"),
+        Binding("k", "cursor_up", "up", show=False, id="stage.up", tooltip="Highlight the previous stage"),
     ]
 
     def __init__(self, **kwargs) -> None:
@@ -66,7 +106,7 @@ class StageList(DataTable):
         self._result: ChainResult | None = None
         self._width = 0
         self._widths: dict[str, int] = {}
-        self._rows: list[list[Text]] = []            # the cells as last shown, row by row
+        self._rows: list[list[Text]] = []  # the cells as last shown, row by row
 
     def on_mount(self) -> None:
         self.border_subtitle = SHORT_LEGEND
@@ -82,12 +122,23 @@ class StageList(DataTable):
     def _fill(self, rebuild: bool) -> None:
         result = self._result
         row = self.cursor_row
-        cells = [[Text(str(stage.index)), Text(stage.stage.name), Text(stage.stage.block),
-                  Text(stage.stage.part or "-"), regime_words(stage), margin_words(stage)]
-                 for stage in result.stages]
-        widths = column_widths(self.size.width or 80, cells)
-        rows = [self._row_cells(stage, row_cells, widths)
-                for stage, row_cells in zip(result.stages, cells)]
+        cells = [
+            {
+                "#": Text(str(stage.index)),
+                "stage": Text(stage.stage.name),
+                "block": Text(stage.stage.block),
+                "short": Text(BLOCK_SHORT.get(stage.stage.block, stage.stage.block)),
+                "part": Text(stage.stage.part or "-"),
+                "regime": regime_words(stage),
+                "limiting margin": margin_words(stage),
+            }
+            for stage in result.stages
+        ]
+        widths, short = column_widths(self.size.width or 80, cells)
+        if short:
+            for row_cells in cells:
+                row_cells["block"] = row_cells["short"]
+        rows = [self._row_cells(stage, row_cells, widths) for stage, row_cells in zip(result.stages, cells)]
         if not rebuild and self.columns and self._widths == widths and len(rows) == len(self._rows):
             self._update_changed(rows)
             return
@@ -104,12 +155,14 @@ class StageList(DataTable):
         if result.stages:
             self.move_cursor(row=min(max(row, 0), len(result.stages) - 1), animate=False)
 
-    def _row_cells(self, stage: StageResult, row_cells: list[Text], widths: dict[str, int]) -> list[Text]:
-        rails = self._result.chain.rails_for(stage.stage)
-        span, window, _ = stage.drawn        # the op amp inside the stage with the least room
-        bar = margin_bar((rails.negative_range[0], rails.positive_range[1]),
-                         window, span, width=widths["rail span"])
-        return [clipped(cell, width) for cell, width in zip(row_cells, widths.values())] + [bar]
+    def _row_cells(
+        self, stage: StageResult, row_cells: dict[str, Text], widths: dict[str, int]
+    ) -> list[Text]:
+        # the op amp inside the stage with the least room, with its input's range
+        bar = stage_bar(self._result.chain, stage, width=widths["rail span"])
+        return [
+            clipped(row_cells[label], width) for label, width in widths.items() if label != "rail span"
+        ] + [bar]
 
     def _update_changed(self, rows: list[list[Text]]) -> None:
         """Same rows and columns: touch only the cells whose words or colours changed (every
