@@ -427,5 +427,7 @@ async def test_status_line_words_while_monte_carlo_runs(make_app):
         assert "running" not in str(status.query_one("#status-facts").render())
     # the yield with its 95 % Wilson interval (Wilson 1927): 9,900 of 10,000 draws,
     # p = 0.99, z = 1.96 gives 0.9879 .. 0.9918 (worked by hand from the score formula)
-    assert short_yield(0.99, 10_000) == "yield 99.00% (95 %: 98.8% .. 99.2%)"
+    assert short_yield(0.99, 10_000) == "yield 99.00% (95 %: 98.79% .. 99.18%)"
     assert short_yield(1.0, 10_000) == "no failure in 10,000 draws"
+    # no draw linear: an interval of "0.0% .. 0.0%" would hide its upper end (0.038 %)
+    assert short_yield(0.0, 10_000) == "every one of 10,000 draws leaves the linear regime"

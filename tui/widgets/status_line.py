@@ -27,8 +27,10 @@ def short_yield(chain_yield: float, samples: int) -> str:
     failures = int(round((1.0 - chain_yield) * samples))
     if failures == 0:
         return f"no failure in {samples:,} draws"
+    if failures >= samples:
+        return f"every one of {samples:,} draws leaves the linear regime"
     low, high = wilson(samples - failures, samples)
-    return f"yield {chain_yield:.2%} (95 %: {low:.1%} .. {high:.1%})"
+    return f"yield {chain_yield:.2%} (95 %: {low:.2%} .. {high:.2%})"
 
 
 def running_words(method: str, fraction: float | None) -> str:
