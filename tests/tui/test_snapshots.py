@@ -3,6 +3,8 @@ pytest tests/tui/test_snapshots.py --snapshot-update, then look at the new pictu
 
 from __future__ import annotations
 
+import pytest
+
 
 async def settled(pilot) -> None:
     """Wait for the background check (design aids) so the picture does not race it."""
@@ -40,30 +42,34 @@ def test_edit_form_in_place_80x24(snap_compare, make_app):
 ALARMS = "tests/chains/alarms_nogo.toml"
 
 
-def alarms(make_app):
+@pytest.fixture
+def alarms(make_app, monkeypatch):
+    """The app on ALARMS opened by its path relative to the repository, as a user in the checkout
+    would type it: the header shows that path, the same in every clone."""
     from pathlib import Path
 
-    return make_app(Path(__file__).resolve().parents[2] / ALARMS)
+    monkeypatch.chdir(Path(__file__).resolve().parents[2])
+    return make_app(Path(ALARMS))
 
 
-def test_alarms_80x24(snap_compare, make_app):
-    assert snap_compare(alarms(make_app), press=["j", "j"], terminal_size=(80, 24), run_before=settled)
+def test_alarms_80x24(snap_compare, alarms):
+    assert snap_compare(alarms, press=["j", "j"], terminal_size=(80, 24), run_before=settled)
 
 
-def test_alarms_120x40(snap_compare, make_app):
-    assert snap_compare(alarms(make_app), press=["j", "j"], terminal_size=(120, 40), run_before=settled)
+def test_alarms_120x40(snap_compare, alarms):
+    assert snap_compare(alarms, press=["j", "j"], terminal_size=(120, 40), run_before=settled)
 
 
-def test_alarms_no_color_80x24(snap_compare, make_app, monkeypatch):
+def test_alarms_no_color_80x24(snap_compare, alarms, monkeypatch):
     monkeypatch.setenv("NO_COLOR", "1")
-    assert snap_compare(alarms(make_app), terminal_size=(80, 24), run_before=settled)
+    assert snap_compare(alarms, terminal_size=(80, 24), run_before=settled)
 
 
-def test_alarms_method_dialog_80x24(snap_compare, make_app):
+def test_alarms_method_dialog_80x24(snap_compare, alarms):
     """The dialog says how to leave it (esc) above its list."""
-    assert snap_compare(alarms(make_app), press=["m"], terminal_size=(80, 24), run_before=settled)
+    assert snap_compare(alarms, press=["m"], terminal_size=(80, 24), run_before=settled)
 
 
-def test_alarms_fixes_80x24(snap_compare, make_app):
+def test_alarms_fixes_80x24(snap_compare, alarms):
     """f: the detail panel scrolled to its sensitivity and fixes."""
-    assert snap_compare(alarms(make_app), press=["f"], terminal_size=(80, 24), run_before=settled)
+    assert snap_compare(alarms, press=["f"], terminal_size=(80, 24), run_before=settled)
