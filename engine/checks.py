@@ -42,8 +42,10 @@ def opamp_margins(measure: StageMeasure) -> tuple[dict[str, float], dict[str, st
                 margins[check] = value
                 nodes[check] = amp.label
     if measure.window is not None and not measure.opamps:
-        margins["output-high"] = measure.window[1] - measure.output[1]
-        margins["output-low"] = measure.output[0] - measure.window[0]
+        # a converter input: its window is the range of the converter's INPUT (the signal it is
+        # fed), so its two checks are named for that side
+        margins["input-high"] = measure.window[1] - measure.output[1]
+        margins["input-low"] = measure.output[0] - measure.window[0]
     return margins, nodes
 
 

@@ -437,7 +437,7 @@ def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None
     window = (found[-1][1]["window-low"], found[-1][1]["window-high"]) if found else None
     if plan.block.window_only:
         window = (v["low"][:, 0], v["high"][:, 0])
-        margins["output-high"], margins["output-low"] = window[1] - out_hi, out_lo - window[0]
+        margins["input-high"], margins["input-low"] = window[1] - out_hi, out_lo - window[0]
     linear = np.ones(rows, dtype=bool)
     for check, value in margins.items():
         if check != "supply":

@@ -75,7 +75,7 @@ def judged(
     if opamps and not m.saturated:
         window = opamps[-1].window
     if window_margins is not None:
-        window = (out_span[0] - window_margins["output-low"], out_span[1] + window_margins["output-high"])
+        window = (out_span[0] - window_margins["input-low"], out_span[1] + window_margins["input-high"])
     measure = replace(
         m,
         output=out_span,

@@ -249,7 +249,7 @@ def stage_results(plans, corner_stages, quoted, probability, required):
         out_span = (float(stage["out-low"]), float(-stage["out-high"]))
         window = None
         if plan.block.window_only:
-            window = {c: float(stage[c]) for c in ("output-high", "output-low")}
+            window = {c: float(stage[c]) for c in ("input-high", "input-low")}
         percentiles = {
             check: {label: float(quoted[label][(k, None, check)]) for label in QUOTED}
             for check in stage

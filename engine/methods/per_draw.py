@@ -170,7 +170,7 @@ def draw_margins(layout: dw.Layout, D: np.ndarray, dT: float) -> list[dict[str, 
                 plan, x, index, branch, out, signal, layout.loads[k], layout.freqs, pos, neg
             )
         if plan.block.window_only:
-            margins = {"output-high": v["high"] - out[0].max(), "output-low": out[1].min() - v["low"]}
+            margins = {"input-high": v["high"] - out[0].max(), "input-low": out[1].min() - v["low"]}
         found.append(margins)
         signal = out
     return found

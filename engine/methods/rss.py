@@ -56,7 +56,7 @@ def run(chain, plans, freqs, corner_stages, lin: Linearised | None = None):
         out_span = (quoted(lin, "out-low", draws.out_lo, s), quoted(lin, "out-high", draws.out_hi, s))
         window = None
         if plan.block.window_only:
-            window = {c: quoted(lin, c, draws.margins[c], s) for c in ("output-high", "output-low")}
+            window = {c: quoted(lin, c, draws.margins[c], s) for c in ("input-high", "input-low")}
         result = judged(plan, corner, amps, out_span, window, chain.conditions.margin, clipped_before)
         clipped_before = clipped_before or result.regime == "clipping"
         results.append(result)

@@ -51,7 +51,7 @@ def needed_and_limit(stage: StageResult, check: str, part: Part | None, chain: C
             volts(m.input_differential) if m.input_differential is not None else "-",
             volts(part.input_differential_max) if part else "-",
         )
-    if amp is None:
+    if amp is None:  # a converter input: its input-high/low are the signal against its window
         window = m.window or (float("nan"), float("nan"))
         side = 1 if check.endswith("high") else 0
         return volts(m.output[side]), volts(window[side])

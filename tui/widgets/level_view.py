@@ -31,7 +31,8 @@ def closest_approach(result: ChainResult) -> Text:
         (s.margins[c], c, s)
         for s in result.stages
         for c in VOLTAGE_CHECKS
-        if c.startswith("output") and c in s.margins
+        # the signal's own levels: op amps' outputs, and a converter input's window (no op amp)
+        if (c.startswith("output") or not s.measure.opamps) and c in s.margins
     ]
     if not found:
         return Text("")
