@@ -1,4 +1,4 @@
-"""`railroom bench` figures for the engine (SPEC section 6): pure, returns a dict, prints nothing.
+"""`railroom bench` figures for the engine (targets in DEVELOPERS.md): pure, returns a dict, prints nothing.
 
 The reference chain is built here: twelve stages of mixed blocks on two rail sets, generic
 illustrative parts and values. Times are medians of repeated runs of analysis.analyse (the whole
@@ -279,7 +279,7 @@ def run(
     memory: bool = True,
     long_chains: bool = True,
 ) -> dict:
-    """Engine figures of SPEC section 6; the keys the engine cannot measure are left out."""
+    """Engine figures (targets in DEVELOPERS.md); the keys the engine cannot measure are left out."""
     chain = reference_chain()
 
     def timed(method: str, samples: int | None = None, count: int = repeats) -> float:

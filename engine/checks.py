@@ -2,7 +2,7 @@
 
 Margins are volts for voltage checks, V/s for slew (available - needed), amperes for current
 (available - needed), volts for supply (room inside the part's allowed span); negative means
-violated (SPEC section 5).
+violated (the README's JSON report).
 """
 
 from __future__ import annotations
@@ -14,7 +14,7 @@ from railroom.engine.model import Chain, Part, Rails
 from railroom.engine.part_limits import DIFFERENTIAL_CHECK, differential_margin
 from railroom.engine.results import VOLTAGE_CHECKS, StageMeasure, StageResult
 
-GAIN_ERROR_CAUTION = 0.01  # SPEC section 5: a caution above 1 %
+GAIN_ERROR_CAUTION = 0.01  # the README's JSON report: a caution above 1 %
 SELV_DC_LIMIT = 60.0  # V DC between conductors: SELV (IEC 60335-1, 3.4.2), ES1 (IEC 62368-1)
 LINEAR_CHECKS = (*VOLTAGE_CHECKS, "slew", "current")
 

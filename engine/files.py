@@ -1,4 +1,4 @@
-"""Chain files (SPEC section 2) -> model, with every problem located by file, line and field."""
+"""Chain files (the README's File formats) -> model, with every problem located by file, line and field."""
 
 from __future__ import annotations
 

@@ -40,7 +40,7 @@ class InputError(Exception):
 
 @dataclass(frozen=True)
 class Part:
-    """A part preset: the limits an op amp is checked against (SPEC section 3)."""
+    """A part preset: the limits an op amp is checked against (the README's File formats, preset file)."""
 
     id: str
     description: str

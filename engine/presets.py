@@ -1,4 +1,4 @@
-"""Part presets (SPEC section 3): reading preset files and the search order with overrides.
+"""Part presets (the README's File formats, preset file): reading preset files and the search order with overrides.
 
 Search order, later wins: the presets shipped with railroom, the user's own folder (the platform's
 config folder, `railroom/presets`; RAILROOM_PRESETS_HOME overrides it, which tests use to keep a
@@ -41,7 +41,7 @@ PART_FIELDS = {
     "output_current": ("current", False, True),
     **LIMIT_FIELDS,  # datasheet limits: engine/part_limits.py
 }
-# What the two ends of each pair field mean, in file order (SPEC section 3).
+# What the two ends of each pair field mean, in file order (the README's File formats, preset file).
 PAIR_SIDES = {
     "supply": ("low", "high"),
     "output_headroom": ("upper", "lower"),

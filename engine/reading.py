@@ -246,7 +246,7 @@ class FieldReader:
     def quantity(
         self, table: dict, where: str, key: str, kind: str, *, default=_MISSING, label: str | None = None
     ) -> Quantity | None:
-        """A value of SPEC section 1; `default` (a float) when the key is absent and allowed."""
+        """A value as the README's File formats write it; `default` (a float) when the key is absent and allowed."""
         raw = table.get(key, _MISSING)
         name = f"{where}.{key}" if where else key
         if raw is _MISSING:

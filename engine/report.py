@@ -1,4 +1,4 @@
-"""Results -> the JSON report of SPEC section 5 (pure functions; the caller prints)."""
+"""Results -> the JSON report (see the README; pure functions; the caller prints)."""
 
 from __future__ import annotations
 
@@ -44,7 +44,7 @@ def stage_report(result: StageResult) -> dict:
         ),
         "margins": {k: _number(v) for k, v in result.margins.items()},
         "probability": _number(m.probability),
-        # extensions beyond SPEC section 5 (documented in the README)
+        # extensions beyond the README's JSON report (documented in the README)
         "nodes": [
             {
                 "label": a.label,

@@ -23,7 +23,7 @@ POSITIVE_START = r"^\s*\+?(?:[0-9]|\.[0-9]|R[0-9])"
 
 
 def value(kind: str, description: str = "") -> dict:
-    """A TOML number or a value string of SPEC section 1 ("10k 1% 50ppm", "0.5V/us")."""
+    """A TOML number or a value string as the README's File formats write it ("10k 1% 50ppm", "0.5V/us")."""
     positive = kind in POSITIVE_KINDS
     number = {"type": "number", **({"exclusiveMinimum": 0} if positive else {})}
     text = {"type": "string", "pattern": POSITIVE_START if positive else VALUE_START}
@@ -228,7 +228,7 @@ def bounds(*names: str) -> dict:
 
 
 def report_schema() -> dict:
-    """SPEC section 5, with the documented extensions left open (additional properties)."""
+    """the README's JSON report, with the documented extensions left open (additional properties)."""
     reasons = [*CHECKS, "fed-clipped"]
     stage = {
         "type": "object",

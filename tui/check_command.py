@@ -113,7 +113,7 @@ def run_check(args) -> int:
 
 
 def command_line_numbers(args) -> float | None:
-    """--margin, --samples and --seed within the ranges a chain file allows (SPEC section 2)."""
+    """--margin, --samples and --seed within the ranges a chain file allows (the README's File formats)."""
     problems = []
     for option, value, low, high in (
         ("--samples", args.samples, 1, 10_000_000),

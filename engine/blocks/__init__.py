@@ -34,5 +34,5 @@ BLOCKS: dict[str, Block] = {
     )
 }
 
-# Fields every block accepts besides its own (SPEC section 2).
+# Fields every block accepts besides its own (the README's File formats).
 COMMON_FIELDS = ("name", "block", "part", "rails", "load", "load_capacitance")

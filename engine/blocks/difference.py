@@ -1,7 +1,7 @@
 """Four-resistor difference amplifier.
 
 r1 from the negative input to -, r2 from - to the output, r3 from the positive input to +, r4 from
-+ to ref (SPEC section 2). With the ideal op amp (Sedra & Smith, Microelectronic Circuits, ch. 2):
++ to ref (the README's File formats). With the ideal op amp (Sedra & Smith, Microelectronic Circuits, ch. 2):
 
     Vout = (1 + r2/r1) (r4/(r3 + r4)) Vpos + (1 + r2/r1) (r3/(r3 + r4)) Vref - (r2/r1) Vneg
 

@@ -1,5 +1,5 @@
 """Three-op-amp instrumentation amplifier: two input op amps with rg between their - inputs, then a
-unity difference stage of four equal resistors rdiff with ref at its r4 end (SPEC section 2).
+unity difference stage of four equal resistors rdiff with ref at its r4 end (the README's File formats).
 
 First-stage outputs (Sedra & Smith, Microelectronic Circuits, ch. 2; Franco, ch. 2):
 

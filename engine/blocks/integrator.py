@@ -1,7 +1,7 @@
 """Inverting integrator with rf across c: a first-order low-pass with a finite DC gain.
 
-rin from in to -, c from - to the output, rf across c, ref drives + (SPEC section 2). With the
-ideal op amp (Franco, Design with Operational Amplifiers, ch. 3; REFERENCES.md):
+rin from in to -, c from - to the output, rf across c, ref drives + (the README's File formats). With the
+ideal op amp (Franco, Design with Operational Amplifiers, ch. 3):
 
     Vout = -(Zf/rin) Vin + (1 + Zf/rin) Vref,    Zf = rf || 1/(s c)
     DC gain -rf/rin, corner 1/(2 pi rf c); an ideal integrator (rf open) ramps at Vos/(rin c).

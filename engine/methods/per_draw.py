@@ -6,7 +6,7 @@ the op amp as a voltage source V_out = A(s) (V+ + Vos - V-), A(s) single-pole (o
 currents drawn out of the - pin and into the + node, and the fixed voltages (ref, level-shift
 inputs) as ideal sources. Three right-hand sides per solve: the chain signal at 1 V, the fixed
 sources at their values, and the op amp errors. The swing windows, the next stage's input load and
-the envelope bounds per circuit follow the contract (SPEC section 5) as the engine reads it; the
+the envelope bounds per circuit follow the README's JSON report as the engine reads it; the
 circuit solution is independent of the blocks' feedback formulas. It covers the blocks of the
 bench chain: follower, noninverting, inverting, summing, divider, rc_lowpass, adc, comparator.
 """
@@ -76,7 +76,7 @@ class Nodal:
 
 
 def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float):
-    """Nodal circuit of one stage (SPEC section 2, block topologies); returns (solution, nodes,
+    """Nodal circuit of one stage (the README's File formats, block topologies); returns (solution, nodes,
     the op amp's branch, the circuit). `drive`: the impedance driving the stage, a resistance or
     one value per Laplace point (the Thevenin impedance of a passive stage before it)."""
     block = plan.block.name

@@ -1,6 +1,6 @@
 """Every bad input is a located problem: file, line and field named, all problems at once.
 
-Source: SPEC section 1 ("A value that cannot be read is an error naming the file, the line, the
+Source: the README's File formats ("A value that cannot be read is an error naming the file, the line, the
 field and the text") and section 4 (one clear message per problem, never a traceback). The line
 numbers below are counted by hand in BASE.
 """

@@ -1,6 +1,6 @@
 """The catalogue blocks against textbook results, through the block responses and through the
 whole engine (analyse) where the result is a worst-case span. Sources are named beside each check
-(REFERENCES.md has the numbers)."""
+(each check names its published source)."""
 
 from dataclasses import replace
 
@@ -53,7 +53,7 @@ FREQS = np.geomspace(10, 1e5, 200)
 
 
 def test_sallen_key_unity_lowpass_f0_and_q():
-    # REFERENCES.md (Sallen-Key unity gain): f0 = 1/(2 pi sqrt(R1 R2 C1 C2)),
+    # Sallen & Key, IRE Trans. Circuit Theory CT-2, 1955; Franco, Design with Operational Amplifiers, active filters: f0 = 1/(2 pi sqrt(R1 R2 C1 C2)),
     # Q = sqrt(R1 R2 C1 C2)/(C2 (R1 + R2)); checked with scipy.signal.freqs on w0^2/(s^2 + s w0/Q + w0^2)
     r1, r2, c1, c2 = 12e3, 33e3, 22e-9, 4.7e-9
     w0 = 1 / np.sqrt(r1 * r2 * c1 * c2)
@@ -64,7 +64,7 @@ def test_sallen_key_unity_lowpass_f0_and_q():
 
 
 def test_equal_component_butterworth_needs_k_3_minus_sqrt2():
-    # REFERENCES.md: equal R, equal C with gain K gives Q = 1/(3 - K); Butterworth K = 3 - sqrt(2)
+    # Sallen & Key, IRE Trans. Circuit Theory CT-2, 1955; Franco, Design with Operational Amplifiers, active filters: equal R, equal C with gain K gives Q = 1/(3 - K); Butterworth K = 3 - sqrt(2)
     r, c = 10e3, 10e-9
     k = 3 - np.sqrt(2)
     values = {"r1": r, "r2": r, "c1": c, "c2": c, "rg": 10e3, "rf": 10e3 * (k - 1)}
@@ -90,7 +90,7 @@ def test_sallen_key_highpass_against_textbook_response():
 
 
 def test_mfb_lowpass_h0_w0_q():
-    # REFERENCES.md (multiple-feedback low-pass): H0 = -R2/R1, w0 = 1/sqrt(R2 R3 C1 C2),
+    # Franco, Design with Operational Amplifiers, active filters: H0 = -R2/R1, w0 = 1/sqrt(R2 R3 C1 C2),
     # Q = sqrt(C1/C2)/((1/R1 + 1/R2 + 1/R3) sqrt(R2 R3))
     r1, r2, r3, c1, c2 = 10e3, 22e3, 15e3, 47e-9, 2.2e-9
     h0 = -r2 / r1
@@ -127,7 +127,7 @@ def unity_lowpass_stage(q: float, r: float = 10e3, c2: float = 10e-9, tolerance:
 
 @pytest.mark.parametrize("q,peaking", [(1.0, 1.1547), (2.0, 2.0656)])
 def test_lowpass_peaking_in_the_worst_case_span(q, peaking):
-    # REFERENCES.md: |H|max/H0 = Q/sqrt(1 - 1/(4 Q^2)): 1.1547 at Q = 1, 2.0656 at Q = 2.
+    # second-order peaking, Franco, Design with Operational Amplifiers, active filters: |H|max/H0 = Q/sqrt(1 - 1/(4 Q^2)): 1.1547 at Q = 1, 2.0656 at Q = 2.
     # A flat 1 V peak source over a band holding the peak: the worst-case span is +/- the peak.
     result = check('level = ["0", "0"]\namplitude = "1"\nband = ["10", "100k"]', unity_lowpass_stage(q))
     low, high = result.stages[0].measure.output
@@ -138,7 +138,7 @@ def test_lowpass_peaking_in_the_worst_case_span(q, peaking):
 
 def test_tolerances_move_the_peak_and_every_corner_is_covered():
     # Each corner of the 2 % box is its own filter; its own peak (formula above, with the corner's
-    # Q from REFERENCES.md) is inside the worst case, and the largest is what the engine reports.
+    # Q from the Sallen-Key formula) is inside the worst case, and the largest is what the engine reports.
     result = check(
         'level = ["0", "0"]\namplitude = "1"\nband = ["10", "100k"]', unity_lowpass_stage(2.0, tolerance="2%")
     )
@@ -157,7 +157,7 @@ def test_tolerances_move_the_peak_and_every_corner_is_covered():
 
 
 def test_inner_node_of_sallen_key_peaks_above_the_output():
-    # REFERENCES.md: V_A = V_out (1 + s R2 C2); max |V_A/V_in| 1.230 at Q = 1 (output peak 1.1547)
+    # Sallen & Key, IRE Trans. Circuit Theory CT-2, 1955; Franco, Design with Operational Amplifiers, active filters: V_A = V_out (1 + s R2 C2); max |V_A/V_in| 1.230 at Q = 1 (output peak 1.1547)
     result = check('level = ["0", "0"]\namplitude = "1"\nband = ["10", "100k"]', unity_lowpass_stage(1.0))
     inner = result.stages[0].measure.inner["node A"]
     # the grid is built around the output's peak, not node A's: within the grid spacing
@@ -176,7 +176,7 @@ def node(result, label):
 
 
 def test_instrumentation_worked_example_first_stage_spans():
-    # REFERENCES.md: V_cm 2 V, 80 mV peak differential, rg 2k, rf 50k: first-stage gain 51,
+    # three-op-amp instrumentation amplifier, Sedra & Smith, Microelectronic Circuits, ch. 2: V_cm 2 V, 80 mV peak differential, rg 2k, rf 50k: first-stage gain 51,
     # outputs 2 -/+ 2.04 V, output 4.08 V peak with a unity difference stage
     result = check(BRIDGE, INSTRUMENTATION)
     for label in ("first stage, upper op amp", "first stage, lower op amp"):
@@ -219,13 +219,13 @@ def test_difference_amplifier_gain_and_common_mode_rejection():
 
 
 def test_integrator_dc_gain_corner_and_offset():
-    # REFERENCES.md: integrator with shunt Rf, DC gain -Rf/Rin, corner 1/(2 pi Rf C)
+    # Franco, Design with Operational Amplifiers, ch. 3: integrator with shunt Rf, DC gain -Rf/Rin, corner 1/(2 pi Rf C)
     values = {"rin": 10e3, "rf": 1e6, "c": 100e-9}
     corner = 1 / (TWO_PI * 1e6 * 100e-9)
     response = ideal_response("integrator", values, np.array([1e-6, corner]))
     assert response[0].real == pytest.approx(-100, rel=1e-6)
     assert abs(response[1]) == pytest.approx(100 / np.sqrt(2), rel=1e-9)
-    # REFERENCES.md (Sivakumar Ex. 5.1): Vos 4 mV, R1 5k, R2 500k -> 404 mV; 150 nA -> 75 mV;
+    # Sivakumar, Linear Integrated Circuits, Ex. 5.1: Vos 4 mV, R1 5k, R2 500k -> 404 mV; 150 nA -> 75 mV;
     # at DC the capacitor is open and the integrator is that inverting amplifier: 479 mV in all
     part = replace(NEAR_IDEAL, offset=4e-3, bias_current=150e-9)
     stage = (
@@ -240,7 +240,7 @@ SATURATES_AT_12 = replace(NEAR_IDEAL, output_headroom=(1.5, 1.5))  # +/-13.5 V r
 
 
 def test_schmitt_inverting_thresholds():
-    # REFERENCES.md: +/-12 V saturation, R1 10k (to the reference), R2 100k (feedback):
+    # Sedra & Smith, Microelectronic Circuits (bistable circuits): +/-12 V saturation, R1 10k (to the reference), R2 100k (feedback):
     # thresholds +/-1.091 V, hysteresis 2.182 V (inverting, ground-referenced)
     result = check(
         'level = ["0", "0"]\namplitude = "3"\nband = ["10", "100"]',
@@ -289,7 +289,7 @@ def test_schmitt_noninverting_thresholds():
 
 
 def test_single_ended_difference_and_instrumentation_work_against_ref():
-    # SPEC section 2: after a single-ended stage `in` drives r3 and r1 returns to ref, so a
+    # the README's File formats: after a single-ended stage `in` drives r3 and r1 returns to ref, so a
     # matched difference amplifier gives (r2/r1)(in - ref) + ref (Sedra & Smith ch. 2);
     # the instrumentation amplifier likewise: ref + (1 + 2 rf/rg)(in - ref)
     follower = '[[stage]]\nname = "buffer"\nblock = "follower"\npart = "ideal"\n'

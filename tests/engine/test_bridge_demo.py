@@ -1,5 +1,5 @@
-"""The bridge demo end to end: `railroom check` on engine/demos/bridge_sensor.toml (SPEC sections 4
-and 5) finds the instrumentation amplifier's first stage clipping while its output looks fine."""
+"""The bridge demo end to end: `railroom check` on engine/demos/bridge_sensor.toml (its exit codes
+and JSON report as the README gives them) finds the instrumentation amplifier's first stage clipping while its output looks fine."""
 
 import json
 import subprocess
@@ -24,7 +24,7 @@ def report(tmp_path_factory):
         timeout=60,
         env={"RAILROOM_PRESETS_HOME": str(home), "PATH": "/usr/bin:/bin"},
     )
-    assert done.returncode == 1, done.stderr  # SPEC section 4: 1 for NO-GO
+    assert done.returncode == 1, done.stderr  # the README (exit codes): 1 for NO-GO
     return json.loads(done.stdout)
 
 
@@ -44,7 +44,7 @@ def test_the_first_stage_fails_and_is_named(report):
 
 
 def test_first_stage_margin_against_the_textbook_worst_case(report):
-    # REFERENCES.md: first-stage outputs V_cm -/+ (1 + 2 rf/rg) V_d/2; output offset = Vos times
+    # three-op-amp instrumentation amplifier, Sedra & Smith, Microelectronic Circuits, ch. 2: first-stage outputs V_cm -/+ (1 + 2 rf/rg) V_d/2; output offset = Vos times
     # the gain it sees: (G + 1)/2 from the lower op amp's own offset and (G - 1)/2 from the
     # upper's, G in all. Worst corner: V_cm 1.2 V, V_d 22 mV + 2 mV ripple, rf high, rg low
     # (0.1 %), offset 2 mV + 5 uV/C x 25 C (generic-rro-5v, presets/generic.toml).

@@ -24,7 +24,7 @@ def result_of(text: str):
 
 
 def test_split_supply_of_72_v_gets_the_selv_caution():
-    # REFERENCES.md: SELV (IEC 60335-1, 3.4.2) and ES1 (IEC 62368-1, [memory]) 60 V DC; the limit
+    # SELV (IEC 60335-1, 3.4.2) and ES1 (IEC 62368-1, [memory]) 60 V DC; the limit
     # applies between conductors, so +/-36 V is 72 V
     result = result_of(chain("36", "-36"))
     (caution,) = result.cautions

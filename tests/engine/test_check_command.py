@@ -1,4 +1,4 @@
-"""`railroom check` as a script sees it: exit codes, stderr, the JSON report (SPEC sections 4, 5)."""
+"""`railroom check` as a script sees it: exit codes, stderr, the JSON report (the README: exit codes and the JSON report)."""
 
 import json
 import subprocess
@@ -86,7 +86,7 @@ def test_demo_is_no_go_with_stage_4_clipping_on_slew(home):
 
 def test_json_report_has_the_spec_keys(home):
     report = json.loads(check(str(DEMO), "--json", env_home=home).stdout)
-    # SPEC section 5 keys, plus documented extensions (README)
+    # the README's JSON report keys, plus documented extensions (README)
     assert SPEC_KEYS <= set(report) <= SPEC_KEYS | {"yield"}
     assert report["format"] == 1 and report["method"] == "corners" and report["samples"] is None
     assert isinstance(report["headroom_db"], float)

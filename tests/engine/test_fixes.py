@@ -98,7 +98,7 @@ def test_amplitude_fix_keeps_the_chain_linear():
     chain = chain_from_text(CLIPPING.format(method="corners"))
     stage = analyse(chain, PARTS).stages[0]
     (fix,) = [f for f in stage.fixes if f.field == "source.amplitude"]
-    # 4 V ceiling less 1 mV offset x 11 over the gain's upper extreme 11.2020 (REFERENCES.md): ~0.356 V
+    # 4 V ceiling less 1 mV offset x 11 over the gain's upper extreme 11.2020 (worked by hand: extreme values and RSS of 1 + rf/rg, ECSS-Q-HB-30-01A): ~0.356 V
     assert fix.value == pytest.approx((4 - 0.011) / 11.20202, rel=2e-3)
     lowered = replace(chain, source=replace(chain.source, amplitude=fix.value))
     assert analyse(lowered, PARTS).stages[0].regime == "linear"

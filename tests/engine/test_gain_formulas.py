@@ -1,6 +1,6 @@
 """The engine's gain blocks and worst-case chain results against textbook op-amp formulas.
 
-Sources (REFERENCES.md): Sedra & Smith, Microelectronic Circuits, ch. 2; Franco, Design with
+Sources: Sedra & Smith, Microelectronic Circuits, ch. 2; Franco, Design with
 Operational Amplifiers and Analog Integrated Circuits, ch. 1-4; US Navy NEETS (NAVEDTRA 14180);
 Sivakumar, Linear Integrated Circuits, Ex. 5.1.
 """
@@ -98,7 +98,7 @@ def test_summing_amplifier_with_fixed_inputs_and_ref():
 
 
 def test_finite_gain_follows_black():
-    # REFERENCES.md, Black's feedback formula G = A/(1 + A beta): G0 = 10 with A = 1e4 -> 9.99001
+    # Black's feedback formula, Sedra & Smith, Microelectronic Circuits, ch. 2: G0 = 10 with A = 1e4 -> 9.99001
     t = respond(Noninverting(), {"rf": 90e3, "rg": 10e3, "ref": 0.0}, op=part(open_loop_gain=1e4, gbw=1e15))
     assert t["in"][0, 0].real == pytest.approx(9.99001, abs=1e-5)
     assert t["in"][0, 0].real == pytest.approx(1e4 / (1 + 1e4 / 10), rel=1e-9)
@@ -117,7 +117,7 @@ def corner(block, values, op) -> float:
 @pytest.mark.parametrize(
     "block, values, expected",
     [
-        # REFERENCES.md (NEETS NAVEDTRA 14180): bandwidth = GBW / noise gain, GBW 1 MHz
+        # US Navy NEETS, NAVEDTRA 14180: bandwidth = GBW / noise gain, GBW 1 MHz
         (Noninverting(), {"rf": 90e3, "rg": 10e3}, 100e3),  # gain 10 -> 100 kHz
         (Noninverting(), {"rf": 100e3, "rg": 10e3}, 90.909e3),  # gain 11 -> 90.909 kHz
         (Noninverting(), {"rf": 990e3, "rg": 10e3}, 10e3),  # gain 100 -> 10 kHz
@@ -158,7 +158,7 @@ def slew_margin(top_hz: float, op: Part) -> float:
 
 
 def test_full_power_bandwidth_is_where_the_slew_margin_crosses_zero():
-    # REFERENCES.md: full-power bandwidth f = SR/(2 pi Vp); 2 V/us at 12 V peak -> 26,525.8 Hz
+    # full-power bandwidth, Franco, Design with Operational Amplifiers [memory: chapter]: full-power bandwidth f = SR/(2 pi Vp); 2 V/us at 12 V peak -> 26,525.8 Hz
     op = part(slew=2e6)
     assert 2e6 / (TWO_PI * 12) == pytest.approx(26525.8, abs=0.1)
     assert slew_margin(26400, op) > 0
@@ -193,7 +193,7 @@ def test_output_offset_is_vos_times_noise_gain_plus_bias_term(stage):
 
 
 def test_extreme_values_of_gain_11_at_one_percent():
-    # REFERENCES.md tolerance example: non-inverting 100k/10k, both +/-1 %: 10.80198 to 11.20202
+    # worked by hand: extreme values and RSS of 1 + rf/rg, ECSS-Q-HB-30-01A tolerance example: non-inverting 100k/10k, both +/-1 %: 10.80198 to 11.20202
     # (1 + 99k/10.1k and 1 + 101k/9.9k), here as the output span for a 1 V DC input
     stage = 'block = "noninverting"\nrf = "100k 1%"\nrg = "10k 1%"'
     result = run(chain_text(stage, level=("1", "1")), part())

@@ -65,24 +65,24 @@ def analytic_sigma(rf: float, rg: float, sigma_fraction: float, level: float = 1
 
 
 def test_montecarlo_uniform_sigma_converges_to_analytic():
-    # Uniform +/-t has sigma t/sqrt(3) (REFERENCES.md, Methods).
+    # Uniform +/-t has sigma t/sqrt(3) (the standard deviation of a uniform distribution).
     out = raw_outputs(gain_eleven(), 200_000)
     expected = analytic_sigma(100e3, 10e3, 0.01 / np.sqrt(3))  # 0.0816497
     assert expected == pytest.approx(0.0816497, rel=1e-6)
     assert np.std(out) == pytest.approx(expected, rel=0.01)
     assert np.mean(out) == pytest.approx(11.0, abs=1e-3)
-    # uniform draws never leave the extreme values 10.80198 .. 11.20202 (REFERENCES.md)
+    # uniform draws never leave the extreme values 10.80198 .. 11.20202 (worked by hand: extreme values and RSS of 1 + rf/rg, ECSS-Q-HB-30-01A)
     assert out.min() >= 10.80198 - 1e-5 and out.max() <= 11.20202 + 1e-5
 
 
 def test_montecarlo_normal_three_sigma_half_width():
-    # 1 % as 3 sigma: 11 +/- 0.1414 (REFERENCES.md, Tolerance examples).
+    # 1 % as 3 sigma: 11 +/- 0.1414 (worked by hand: RSS of 1 + rf/rg, ECSS-Q-HB-30-01A).
     out = raw_outputs(gain_eleven("normal"), 200_000)
     assert 3 * np.std(out) == pytest.approx(0.1414, rel=0.01)
 
 
 def test_rss_normal_three_sigma_half_width():
-    # RSS with 1 % as 3 sigma: 11 +/- 0.1414 (REFERENCES.md, Tolerance examples).
+    # RSS with 1 % as 3 sigma: 11 +/- 0.1414 (worked by hand: RSS of 1 + rf/rg, ECSS-Q-HB-30-01A).
     result = analyse(gain_eleven("normal"), PARTS, method="rss")
     low, high = result.stages[0].measure.output
     assert (high - low) / 2 == pytest.approx(0.1414, abs=2e-4)

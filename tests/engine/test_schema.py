@@ -1,7 +1,7 @@
-"""JSON Schemas: the report against SPEC section 5, the file schemas against shipped and broken files.
+"""JSON Schemas: the report against the README's JSON report, the file schemas against shipped and broken files.
 
-The report is checked twice: against a schema transcribed here by hand from SPEC section 5 (the
-contract, independent of the code), and against the schema `railroom schema report` prints.
+The report is checked twice: against a schema transcribed here by hand from the README's JSON report (the
+documented format, independent of the code), and against the schema `railroom schema report` prints.
 """
 
 from __future__ import annotations
@@ -37,7 +37,7 @@ DEMOS = sorted(Path(railroom.engine.demos.__file__).parent.glob("*.toml"))
 PRESET_FILES = sorted(Path(railroom.presets.__file__).parent.glob("*.toml"))
 EXPLORE = bool(os.environ.get("RAILROOM_FUZZ_EXPLORE"))
 NUM = {"type": ["number", "null"]}
-# SPEC section 5, transcribed: keys, their types and the listed word choices.
+# the README's JSON report, transcribed: keys, their types and the listed word choices.
 SPEC_REPORT = {
     "type": "object",
     "required": ["format", "title", "verdict", "method", "samples", "headroom_db", "cautions", "stages"],

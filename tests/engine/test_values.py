@@ -185,7 +185,7 @@ def test_unreadable_text_says_what_was_expected(raw, kind, detail):
         assert detail in message
 
 
-def test_message_example_from_the_contract():
+def test_message_names_what_was_expected_and_what_was_written():
     with pytest.raises(ValueTextError) as err:
         parse_quantity("4x7", "resistance")
     assert str(err.value).startswith('expected a resistance such as "4k7", "10k 1%" or 4700, got "4x7"')

@@ -1,4 +1,4 @@
-"""Netlists of railroom's blocks, built exactly as SPEC.md section 2 "Block topologies" words them.
+"""Netlists of railroom's blocks, built exactly as the README's File formats "Block topologies" words them.
 
 Each builder solves its circuit and returns a `Solution`: `sol["out"]` is a node voltage, and
 `sol.source_currents["in"]` / `sol.opamp_currents["out"]` are the currents delivered into those

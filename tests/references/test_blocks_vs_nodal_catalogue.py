@@ -1,7 +1,7 @@
 """The catalogue blocks' node voltages and currents against the independent nodal solver.
 
 Source of truth: modified nodal analysis (Ho, Ruehli and Brennan, IEEE Trans. CAS, 1975) solved with
-numpy.linalg.solve in references/nodal.py, netlists worded as SPEC section 2 "Block topologies" in
+numpy.linalg.solve in references/nodal.py, netlists worded as the README's File formats "Block topologies" in
 references/block_circuits.py. Random component values and frequencies, finite open-loop gain with
 a single pole; each driving source in turn at 1 V (superposition); DC error gains from the solver
 with a 1 V offset or a 1 A bias current on one op amp at a time.
@@ -96,7 +96,7 @@ def test_difference_amplifier(seed, differential):
         differential,
     )
     amp = r.opamps[0]
-    # single-ended (SPEC): in drives r3, r1 returns to ref -> the nodal "neg" side sits on ref
+    # single-ended (README, File formats): in drives r3, r1 returns to ref -> the nodal "neg" side sits on ref
     units = (
         {"pos": (1, 0, 0), "neg": (0, 1, 0), "ref": (0, 0, 1)}
         if differential

@@ -1,7 +1,7 @@
 """The engine's closed-form block transfers against the independent nodal solver (tests/references).
 
 Source of truth: modified nodal analysis (Ho, Ruehli and Brennan, IEEE Trans. CAS, 1975) solved with
-numpy.linalg.solve in references/nodal.py, netlists worded as SPEC section 2 "Block topologies" in
+numpy.linalg.solve in references/nodal.py, netlists worded as the README's File formats "Block topologies" in
 references/block_circuits.py. Random component values, random frequencies, finite open-loop gain
 with a single pole; DC and AC; op-amp output current; offset and bias error gains at DC.
 """

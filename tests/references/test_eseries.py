@@ -5,7 +5,7 @@ import pytest
 
 from railroom.engine.eseries import SERIES, nearest, nearest_array, neighbours, values_between
 
-# IEC 60063:2015, E24 table (as listed in REFERENCES.md).
+# IEC 60063:2015, E24 table .
 IEC_60063_E24 = [
     1.0,
     1.1,

@@ -40,14 +40,14 @@ def test_closed_loop_gains_with_ideal_op_amp():
 
 
 def test_finite_open_loop_gain_follows_black():
-    # REFERENCES.md, Black's formula A/(1 + A beta): G0 = 10 with A = 1e4 -> 9.99001
+    # Black's feedback formula, Sedra & Smith, Microelectronic Circuits, ch. 2: G0 = 10 with A = 1e4 -> 9.99001
     sol = noninverting(90e3, 10e3, opamp=OpAmpModel(open_loop_gain=1e4))
     assert sol["out"][0].real == pytest.approx(9.99001, abs=1e-5)
     assert sol["out"][0].real == pytest.approx(1e4 / (1 + 1e4 / 10), rel=1e-12)
 
 
 def test_single_pole_bandwidth_is_gbw_over_noise_gain():
-    # REFERENCES.md (US Navy NEETS, NAVEDTRA 14180): closed-loop -3 dB bandwidth = GBW / noise gain
+    # US Navy NEETS, NAVEDTRA 14180: closed-loop -3 dB bandwidth = GBW / noise gain
     pole_only = OpAmpModel(gbw=1e6)
     gain_10 = noninverting(90e3, 10e3, opamp=pole_only, freqs=[0.0, 100e3])["out"]
     assert abs(gain_10[1]) == pytest.approx(10 / np.sqrt(2), rel=1e-9)
@@ -69,13 +69,13 @@ def test_single_pole_bandwidth_is_gbw_over_noise_gain():
 
 
 def sallen_key_unity(q: float, f0: float = 1e3, r: float = 10e3):
-    """Equal-R unity-gain design: Q = sqrt(C1/C2)/2 (REFERENCES.md formula with R1 = R2)."""
+    """Equal-R unity-gain design: Q = sqrt(C1/C2)/2 (Sallen & Key, IRE Trans. Circuit Theory CT-2, 1955; Franco, Design with Operational Amplifiers, active filters formula with R1 = R2)."""
     c2 = 1 / (TWO_PI * f0 * r * 2 * q)
     return dict(r1=r, r2=r, c1=4 * q * q * c2, c2=c2)
 
 
 def test_sallen_key_lowpass_matches_textbook():
-    # REFERENCES.md: f0 = 1/(2 pi sqrt(R1 R2 C1 C2)), Q = sqrt(R1 R2 C1 C2)/(C2 (R1 + R2))
+    # Sallen & Key, IRE Trans. Circuit Theory CT-2, 1955; Franco, Design with Operational Amplifiers, active filters: f0 = 1/(2 pi sqrt(R1 R2 C1 C2)), Q = sqrt(R1 R2 C1 C2)/(C2 (R1 + R2))
     r1, r2, c1, c2 = 12e3, 33e3, 22e-9, 4.7e-9
     f0 = 1 / (TWO_PI * np.sqrt(r1 * r2 * c1 * c2))
     q = np.sqrt(r1 * r2 * c1 * c2) / (c2 * (r1 + r2))
@@ -92,7 +92,7 @@ def test_sallen_key_lowpass_matches_textbook():
 
 @pytest.mark.parametrize("q, peak", [(1 / np.sqrt(2), 1.029), (1.0, 1.230), (2.0, 2.122)])
 def test_sallen_key_inner_node_peaks_above_output(q, peak):
-    # REFERENCES.md: V_A = V_out (1 + s R2 C2), max |V_A/V_in| 1.029 / 1.230 / 2.122
+    # Sallen & Key, IRE Trans. Circuit Theory CT-2, 1955; Franco, Design with Operational Amplifiers, active filters: V_A = V_out (1 + s R2 C2), max |V_A/V_in| 1.029 / 1.230 / 2.122
     f = np.logspace(1, 5, 20001)
     sol = sallen_key_lowpass(**sallen_key_unity(q), freqs=f)
     assert np.abs(sol["a"]).max() == pytest.approx(peak, abs=1e-3)
@@ -100,7 +100,7 @@ def test_sallen_key_inner_node_peaks_above_output(q, peak):
 
 
 def test_sallen_key_butterworth_gain():
-    # REFERENCES.md: equal-R equal-C with gain K has Q = 1/(3 - K); K = 3 - sqrt(2) -> Q = 0.7071
+    # Sallen & Key, IRE Trans. Circuit Theory CT-2, 1955; Franco, Design with Operational Amplifiers, active filters: equal-R equal-C with gain K has Q = 1/(3 - K); K = 3 - sqrt(2) -> Q = 0.7071
     r, c = 10e3, 10e-9
     f0 = 1 / (TWO_PI * r * c)
     at_f0 = sallen_key_lowpass(r, r, c, c, rf=10e3 * (2 - np.sqrt(2)), rg=10e3, freqs=f0)["out"][0]
@@ -132,7 +132,7 @@ def test_reference_pins_by_superposition():
 
 
 def test_mfb_lowpass_matches_textbook():
-    # REFERENCES.md: H0 = -R2/R1, w0 = 1/sqrt(R2 R3 C1 C2),
+    # Franco, Design with Operational Amplifiers, active filters: H0 = -R2/R1, w0 = 1/sqrt(R2 R3 C1 C2),
     # Q = sqrt(C1/C2) / ((1/R1 + 1/R2 + 1/R3) sqrt(R2 R3)); inner node V_A = -s R3 C2 V_out
     r1, r2, r3, c1, c2 = 10e3, 22e3, 15e3, 47e-9, 2.2e-9
     h0 = -r2 / r1
@@ -160,7 +160,7 @@ def test_mfb_bandpass_equal_capacitors():
 
 
 def test_instrumentation_worked_example():
-    # REFERENCES.md: V_cm 2 V, V_d 80 mV, rg 2k, rf 50k -> first stage 51, outputs 2 -/+ 2.04 V,
+    # three-op-amp instrumentation amplifier, Sedra & Smith, Microelectronic Circuits, ch. 2: V_cm 2 V, V_d 80 mV, rg 2k, rf 50k -> first stage 51, outputs 2 -/+ 2.04 V,
     # output 4.08 V with a unity difference stage
     sol = instrumentation(2e3, 50e3, v_pos=2.04, v_neg=1.96)
     assert sol["upper_out"][0].real == pytest.approx(2 + 2.04, rel=1e-12)
@@ -172,7 +172,7 @@ def test_instrumentation_worked_example():
 
 
 def test_output_offset_worked_example():
-    # REFERENCES.md (Sivakumar, Linear Integrated Circuits, Ex. 5.1): Vos 4 mV, R1 5k, R2 500k
+    # Sivakumar, Linear Integrated Circuits, Ex. 5.1: Vos 4 mV, R1 5k, R2 500k
     # -> 404 mV; Ios 150 nA -> 75 mV; total 479 mV (input grounded)
     vos = OpAmpModel(offset=4e-3)
     assert noninverting(500e3, 5e3, v_in=0.0, opamp=vos)["out"][0].real == pytest.approx(0.404)
@@ -196,7 +196,7 @@ def test_difference_and_summing_amplifiers():
 
 
 def test_integrator_dc_gain_and_corner():
-    # REFERENCES.md: DC gain -Rf/Rin, corner 1/(2 pi Rf C)
+    # Franco, Design with Operational Amplifiers, ch. 3: DC gain -Rf/Rin, corner 1/(2 pi Rf C)
     rin, rf, c = 10e3, 1e6, 100e-9
     corner = 1 / (TWO_PI * rf * c)
     sol = integrator(rin, rf, c, freqs=[0.0, corner])

@@ -1,6 +1,6 @@
 """The engine's block transfers against sympy's solution of each block's node equations.
 
-Source of truth: Kirchhoff's current law at every node, written here from SPEC section 2 "Block
+Source of truth: Kirchhoff's current law at every node, written here from the README's File formats "Block
 topologies", solved symbolically with sympy.solve; the ideal op amp is V+ = V- (Sedra & Smith ch. 2)
 and the finite-gain one Vout = A (V+ - V-). Substituted at random values and compared with the
 engine's transfers (an ideal op amp: inverse gain 0; finite A: inverse gain 1/A at DC).
@@ -126,7 +126,7 @@ def test_finite_gain_transfers_match_symbolic_node_equations(block):
 
 
 def test_symbolic_noninverting_is_black_formula():
-    # REFERENCES.md: G = A/(1 + A beta), beta = rg/(rf + rg); the ideal limit 1 + rf/rg
+    # Black's feedback formula (Sedra & Smith, Microelectronic Circuits, ch. 2): G = A/(1 + A beta), beta = rg/(rf + rg); the ideal limit 1 + rf/rg
     expression = sp.diff(symbolic("noninverting", gain=A), vin)
     beta = rg / (rf + rg)
     assert sp.simplify(expression - A / (1 + A * beta)) == 0

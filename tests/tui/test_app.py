@@ -359,8 +359,8 @@ def test_no_action_is_reached_by_a_ctrl_key_alone():
 
 async def test_bridge_bar_shows_the_clipping_first_stage(make_app):
     # The bridge demo's instrumentation amplifier output stays inside its window while its lower
-    # input op amp goes below its swing (engine/demos/bridge_sensor.toml; REFERENCES.md: first-stage
-    # outputs V_cm -/+ (1 + 2 rf/rg) V_d/2): the row's bar draws that op amp, overshoot marked X.
+    # input op amp goes below its swing (engine/demos/bridge_sensor.toml; three-op-amp instrumentation
+    # amplifier, Sedra & Smith, ch. 2: first-stage outputs V_cm -/+ (1 + 2 rf/rg) V_d/2): the row's bar draws that op amp, overshoot marked X.
     from pathlib import Path
 
     bridge = Path(__file__).resolve().parents[2] / "engine/demos/bridge_sensor.toml"
