@@ -98,9 +98,9 @@ def analyse(
         )
     rare = None
     if method_name == "montecarlo" and chain_yield is not None and layout is not None:
-        failures = round((1.0 - chain_yield) * chain.conditions.samples)
-        if failures < RARE_BELOW:
-            from railroom.engine.methods.rare import estimate
+        from railroom.engine.methods.rare import estimate, failing_draws
+
+        if failing_draws(chain_yield, chain.conditions.samples) < RARE_BELOW:
             from railroom.engine.sensitivity import linearise
 
             rare = estimate(layout, lin or linearise(layout), seed=chain.conditions.seed)

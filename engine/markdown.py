@@ -26,6 +26,11 @@ REASON_WORDS = {
     "supply": "rails outside the part's allowed supply span",
     "fed-clipped": "fed by a clipping stage before it",
 }
+# a converter input (no op amp) has a window of its own: its input checks are about that window
+CONVERTER_REASON_WORDS = {
+    "input-high": "signal above the converter's input range",
+    "input-low": "signal below the converter's input range",
+}
 METHOD_WORDS = {
     "corners": "worst case: every combination of tolerance ends, rails, temperature ends, offset "
     "and bias signs, source range ends and AC peak sign, at every band frequency",
@@ -268,10 +273,16 @@ def longest_backtick_run(text: str) -> int:
     return max((len(run) for run in re.findall(r"`+", text)), default=0)
 
 
+def _reason_words(stage, reason: str) -> str:
+    if not stage.measure.opamps and reason in CONVERTER_REASON_WORDS:
+        return CONVERTER_REASON_WORDS[reason]
+    return REASON_WORDS.get(reason, reason)
+
+
 def reasons(result: ChainResult) -> str:
     lines = [
         f"- stage {s.index} ({md(s.stage.name)}): "
-        + "; ".join(f"{r} ({REASON_WORDS.get(r, r)})" for r in s.reasons)
+        + "; ".join(f"{r} ({_reason_words(s, r)})" for r in s.reasons)
         for s in result.stages
         if s.reasons
     ]

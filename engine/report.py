@@ -100,11 +100,12 @@ def chain_report(result: ChainResult) -> dict:
         "stages": [stage_report(s) for s in result.stages],
     }
     if result.chain_yield is not None:
-        from railroom.engine.methods.rare import wilson
+        from railroom.engine.methods.rare import failing_draws, wilson
 
         report["yield"] = _number(result.chain_yield)
         samples = result.samples or 0
-        report["yield_interval"] = [_number(x) for x in wilson(round(result.chain_yield * samples), samples)]
+        linear = samples - failing_draws(result.chain_yield, samples)
+        report["yield_interval"] = [_number(x) for x in wilson(linear, samples)]
     rare = result.rare
     if rare is not None:
         report["failure_probability"] = {

@@ -168,10 +168,15 @@ def wilson(successes: int, n: int) -> tuple[float, float]:
     return float(max(centre - half, 0.0)), float(min(centre + half, 1.0))
 
 
+def failing_draws(chain_yield: float, samples: int) -> int:
+    """How many of `samples` Monte Carlo draws left the linear regime (the yield is their share)."""
+    return int(round((1.0 - chain_yield) * samples))
+
+
 def yield_words(chain_yield: float, samples: int, rare: RareEstimate | None) -> str:
     """The chain yield as a practitioner quotes it: with its interval, never more digits than
     the draws carry; with no failing draw, that fact and the small-probability estimate."""
-    failures = int(round((1.0 - chain_yield) * samples))
+    failures = failing_draws(chain_yield, samples)
     if failures == 0:
         words = f"no draw of {samples:,} left the linear regime"
     else:

@@ -131,3 +131,30 @@ def test_level_diagram_places_a_follower_span_between_its_rails():
     assert bar.index("#") == 27 and bar.rindex("#") == 42
     # generic-bipolar-15v: output 1.5 V from each rail -> window -8.5..8.5 V, "-" outside it.
     assert bar[1:4] == "---" and bar[5] == "."
+
+
+def test_a_converter_input_fails_in_converter_words():
+    # 4.8 V into a converter that reads up to 4.5 V: its input-high check fails by 0.3 V, and the
+    # review says so about the converter's range, not an op amp's common-mode range
+    text = """format = 1
+[rails.main]
+positive = "5"
+negative = "0"
+[source]
+level = ["4.8", "4.8"]
+[[stage]]
+block = "follower"
+part = "generic-rro-5v"
+[[stage]]
+block = "adc"
+low = "0"
+high = "4.5"
+"""
+    chain = chain_from_text(text)
+    result = analyse(chain, load_library(search_order()).parts)
+    adc = result.stages[1]
+    assert list(adc.reasons) == ["input-high"]
+    assert adc.margins["input-high"] < 0
+    report = markdown_report(result)
+    assert "input-high (signal above the converter's input range)" in report
+    assert "input common mode" not in report.split("## Why stages fail")[1].split("\n\n")[1]

@@ -7,7 +7,7 @@ from textual.app import ComposeResult
 from textual.containers import Vertical
 from textual.widgets import Static
 
-from railroom.engine.methods.rare import wilson
+from railroom.engine.methods.rare import failing_draws, wilson
 from railroom.engine.results import ChainResult
 
 # the methods as a person says them (the file's words are corners, rss, montecarlo)
@@ -24,7 +24,7 @@ def short_yield(chain_yield: float, samples: int) -> str:
     """The yield for the status line, with its 95 % interval (railroom check says it in full, with
     the small-probability estimate): "yield 99.20% (95 %: 98.9% .. 99.4%)", or with no failing
     draw "no failure in 10,000 draws"."""
-    failures = int(round((1.0 - chain_yield) * samples))
+    failures = failing_draws(chain_yield, samples)
     if failures == 0:
         return f"no failure in {samples:,} draws"
     if failures >= samples:
