@@ -89,7 +89,7 @@ class Evaluator:
         self._baseline = baseline
         self._prepared: corners.Prepared | None = None
         self._entering: list = []
-        self._unchanged: list[StageResult] = []   # the unchanged chain's corners, with _prepared
+        self._unchanged: list[StageResult] = []  # the unchanged chain's corners, with _prepared
 
     def results(self, plans, changed: int | None = None, stop: int | None = None) -> list[StageResult]:
         """Results of stages up to `stop` (all by default) of the chain with `plans`; `changed`:
