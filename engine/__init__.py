@@ -1,7 +1,7 @@
 """railroom engine: pure numeric core (no printing, no UI imports).
 
 The names the interface and the command line use, loaded on first access so that importing a
-submodule (railroom.engine.model, say) stays cheap:
+submodule (railroom.engine.circuit.model, say) stays cheap:
 
     from railroom.engine import load_checked, analyse, chain_report
     chain, library = load_checked("board.toml")
@@ -16,17 +16,17 @@ from importlib import import_module
 _EXPORTS = {
     "load_checked": "analysis",
     "analyse": "analysis",
-    "load_chain": "files",
-    "chain_from_text": "files",
-    "ChainResult": "results",
-    "StageResult": "results",
-    "InputError": "model",
-    "Problem": "model",
-    "METHODS": "model",
+    "load_chain": "formats.chain_file",
+    "chain_from_text": "formats.chain_file",
+    "ChainResult": "verdict.results",
+    "StageResult": "verdict.results",
+    "InputError": "circuit.model",
+    "Problem": "circuit.model",
+    "METHODS": "circuit.model",
     "Cancelled": "methods.montecarlo",
-    "BLOCKS": "blocks",
-    "chain_report": "report",
-    "markdown_report": "markdown",
+    "BLOCKS": "circuit.blocks",
+    "chain_report": "reports.json_report",
+    "markdown_report": "reports.markdown",
 }
 
 __all__ = sorted(_EXPORTS)

@@ -11,11 +11,11 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from railroom.engine.checks import chain_cautions
+from railroom.engine.verdict.judge import chain_cautions
 from railroom.engine.methods import corners
-from railroom.engine.model import Chain, InputError, Part
-from railroom.engine.plan import frequency_grid, plan_chain
-from railroom.engine.results import ChainResult
+from railroom.engine.circuit.model import Chain, InputError, Part
+from railroom.engine.walks.preparation import frequency_grid, plan_chain
+from railroom.engine.verdict.results import ChainResult
 
 HEADROOM_LIMIT_DB = 120.0
 RARE_BELOW = 10  # fewer failing Monte Carlo draws: also estimate the small probability
@@ -63,7 +63,7 @@ def analyse(
     progress=None,
 ) -> ChainResult:
     """Check every stage of the chain; raises InputError for unknown parts. `design_aids`:
-    sensitivity ranking and fixes (engine/fixes.py); `headroom`: the headroom_db search. The
+    sensitivity ranking and fixes (engine/aids/fixes.py); `headroom`: the headroom_db search. The
     interface turns both off for the instant re-check and fills them in from a worker.
     `progress(fraction) -> bool` hears how far Monte Carlo is; returning False stops it with
     methods.montecarlo.Cancelled."""
@@ -83,11 +83,11 @@ def analyse(
     # aids alike: built once here from the prepared responses rather than once by each.
     layout = lin = None
     if method_name != "corners" or design_aids:
-        from railroom.engine.draw_walk import build_layout
+        from railroom.engine.walks.circuit_walk import build_layout
 
         layout = build_layout(chain, plans, freqs, prepared, corner_stages)
     if method_name == "rss" or design_aids:
-        from railroom.engine.sensitivity import linearise
+        from railroom.engine.aids.sensitivity import linearise
 
         lin = linearise(layout, decisive=method_name == "montecarlo")
     if method_name != "corners":
@@ -101,12 +101,12 @@ def analyse(
         from railroom.engine.methods.rare import estimate, failing_draws
 
         if failing_draws(chain_yield, chain.conditions.samples) < RARE_BELOW:
-            from railroom.engine.sensitivity import linearise
+            from railroom.engine.aids.sensitivity import linearise
 
             rare = estimate(layout, lin or linearise(layout), seed=chain.conditions.seed)
     headroom_found = headroom_db(prepared, corner_stages) if headroom else None
     if design_aids:
-        from railroom.engine.fixes import design_aids as aids
+        from railroom.engine.aids.fixes import design_aids as aids
 
         stages = aids(
             chain,
@@ -118,7 +118,7 @@ def analyse(
             lin=lin,
             baseline=corner_stages if method_name == "montecarlo" else stages,
         )
-    from railroom.engine.part_limits import with_limit_cautions
+    from railroom.engine.circuit.part_limits import with_limit_cautions
 
     stages = with_limit_cautions(chain, plans, stages, prepared.responses)
     return ChainResult(
@@ -137,7 +137,7 @@ def analyse(
 def gain_errors(chain: Chain, plans) -> list[float | None]:
     """Closed-loop gain shortfall at the top of the band against the ideal op amp, nominal values."""
     from railroom.engine.methods.corners import corner_values
-    from railroom.engine.opamp import inverse_open_loop, laplace_grid
+    from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
 
     s = laplace_grid(np.array([chain.source.band[1]]))
     errors: list[float | None] = []
@@ -162,7 +162,7 @@ def gain_errors(chain: Chain, plans) -> list[float | None]:
 def linear_room(results) -> float:
     """Least margin of the linear checks over the stages, each relative to its own scale;
     negative once any stage leaves its linear regime (saturated-by-design stages excepted)."""
-    from railroom.engine.checks import LINEAR_CHECKS
+    from railroom.engine.verdict.judge import LINEAR_CHECKS
 
     room = np.inf
     for result in results:
@@ -244,8 +244,8 @@ def load_checked(path: str, extra_preset_dirs: tuple[str, ...] = (), strict: boo
     `strict` (the check command): a preset folder that is missing (given with --presets or named
     in the chain) or cannot be read stops the check too, since the parts it should hold would
     silently be missing; the interface opens the chain and shows these as a notice instead."""
-    from railroom.engine.files import load_chain
-    from railroom.engine.presets import load_library, missing_folders, search_order
+    from railroom.engine.formats.chain_file import load_chain
+    from railroom.engine.formats.presets import load_library, missing_folders, search_order
 
     missing = missing_folders(extra_preset_dirs) if strict else []
     try:
@@ -266,11 +266,11 @@ def load_checked(path: str, extra_preset_dirs: tuple[str, ...] = (), strict: boo
 def unknown_parts_in_text(path: str, extra_preset_dirs: tuple[str, ...] = ()) -> list:
     """Unknown part ids of a chain file that does not load, read straight from its TOML."""
     from pathlib import Path
-    from railroom.engine.blocks import BLOCKS
-    from railroom.engine.plan import unknown_part
-    from railroom.engine.presets import load_library, search_order
-    from railroom.engine.reading import FileUnreadable, parse_toml, read_user_file
-    from railroom.engine.toml_lines import key_lines
+    from railroom.engine.circuit.blocks import BLOCKS
+    from railroom.engine.walks.preparation import unknown_part
+    from railroom.engine.formats.presets import load_library, search_order
+    from railroom.engine.formats.fields import FileUnreadable, parse_toml, read_user_file
+    from railroom.engine.formats.toml_lines import key_lines
 
     try:
         text = read_user_file(path).removeprefix("\ufeff")

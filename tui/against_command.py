@@ -1,6 +1,6 @@
 """`railroom check NEW --against OLD`: the old version checked the same way, and what changed.
 
-OLD is a file, or `REV:PATH` read with `git show` (engine/compare.py). The exit status stays NEW's.
+OLD is a file, or `REV:PATH` read with `git show` (engine/reports/compare.py). The exit status stays NEW's.
 """
 
 from __future__ import annotations
@@ -12,9 +12,9 @@ from rich.table import Table
 from rich.text import Text
 
 from railroom.engine.analysis import analyse
-from railroom.engine.compare import change_rows, compare_results, load_against, verdict_line
-from railroom.engine.model import InputError
-from railroom.engine.results import ChainResult
+from railroom.engine.reports.compare import change_rows, compare_results, load_against, verdict_line
+from railroom.engine.circuit.model import InputError
+from railroom.engine.verdict.results import ChainResult
 
 
 def old_result(spec: str, args, margin: float | None) -> ChainResult:

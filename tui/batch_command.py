@@ -15,7 +15,7 @@ import time
 from dataclasses import dataclass
 from pathlib import Path
 
-from railroom.engine.values import visible
+from railroom.engine.formats.values import visible
 from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO, json_text
 
 
@@ -99,11 +99,11 @@ def check_one(path: str, options: Options) -> Outcome:
         result = check_file(path, args, options.margin)
         report = markdown = None
         if options.output == "json":
-            from railroom.engine.report import chain_report
+            from railroom.engine.reports.json_report import chain_report
 
             report = chain_report(result)
         elif options.output == "markdown":
-            from railroom.engine.markdown import markdown_report
+            from railroom.engine.reports.markdown import markdown_report
 
             markdown = markdown_report(result)
     except CheckRefused as err:

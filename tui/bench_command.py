@@ -66,7 +66,7 @@ def measured(call, digits: int) -> float | None:
 
 
 def bench_figures(**engine_options) -> dict:
-    from railroom.engine.bench import run
+    from railroom.engine.benchmark.figures import run
 
     figures = run(**engine_options)
     figures["check_process_s"] = check_process_seconds()

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 
-from railroom.engine.block_help import block_names, describe
+from railroom.engine.reports.block_help import block_names, describe
 from railroom.tui.cli import EXIT_GO, EXIT_INPUT, print_json
 
 

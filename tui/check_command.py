@@ -12,10 +12,10 @@ from rich.table import Table
 from rich.text import Text
 
 from railroom.engine.analysis import analyse, load_checked
-from railroom.engine.model import InputError
-from railroom.engine.report import chain_report
-from railroom.engine.results import ChainResult, StageResult
-from railroom.engine.values import ValueTextError, escaped, format_si, parse_value, visible
+from railroom.engine.circuit.model import InputError
+from railroom.engine.reports.json_report import chain_report
+from railroom.engine.verdict.results import ChainResult, StageResult
+from railroom.engine.formats.values import ValueTextError, escaped, format_si, parse_value, visible
 from railroom.tui.bars import FAILS_GO, LEGEND, MARKS, legend, stage_bar as drawn_bar
 from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO, json_text
 
@@ -69,16 +69,16 @@ def run_check(args) -> int:
         if args.json:
             report = chain_report(result)
             if old is not None:
-                from railroom.engine.compare import against_report
+                from railroom.engine.reports.compare import against_report
 
                 report["against"] = against_report(old, result, against)
             output = json_text(report)
         elif getattr(args, "markdown", False):
-            from railroom.engine.markdown import markdown_report
+            from railroom.engine.reports.markdown import markdown_report
 
             output = markdown_report(result)
             if old is not None:
-                from railroom.engine.compare import against_markdown
+                from railroom.engine.reports.compare import against_markdown
 
                 output += "\n" + against_markdown(old, result, against) + "\n"
             if getattr(args, "plots", None):

@@ -194,7 +194,7 @@ def open_interface(argv: list[str]) -> int:
 
 def json_text(data: dict) -> str:
     """Indented JSON for stdout; characters that would act on a terminal are \\u escapes."""
-    from railroom.engine.values import terminal_json
+    from railroom.engine.formats.values import terminal_json
 
     return terminal_json(json.dumps(data, indent=2, ensure_ascii=False)) + "\n"
 

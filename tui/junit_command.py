@@ -8,10 +8,10 @@ from __future__ import annotations
 
 import sys
 
-from railroom.engine.atomic import write_atomic
-from railroom.engine.junit import SuiteInput, junit_xml
-from railroom.engine.report import chain_report
-from railroom.engine.values import visible
+from railroom.engine.formats.atomic import write_atomic
+from railroom.engine.reports.junit import SuiteInput, junit_xml
+from railroom.engine.reports.json_report import chain_report
+from railroom.engine.formats.values import visible
 from railroom.tui.cli import EXIT_INPUT
 
 
@@ -19,7 +19,7 @@ def write_junit(path: str, entries: list[SuiteInput]) -> bool:
     """Write the report; False (and a message on stderr) when the file cannot be written."""
     from pathlib import Path
 
-    from railroom.engine.picture import usual_mode
+    from railroom.engine.reports.picture import usual_mode
 
     existed = Path(path).exists()
     try:
@@ -45,7 +45,7 @@ def required_margin(path: str, margin: float | None) -> float | None:
     """The margin a batch worker checked with: the command line's, else the file's."""
     if margin is not None:
         return margin
-    from railroom.engine.files import load_chain
+    from railroom.engine.formats.chain_file import load_chain
 
     try:
         return load_chain(path).conditions.margin

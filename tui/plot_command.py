@@ -1,4 +1,4 @@
-"""`railroom plot CHAIN [-o FILE.svg|FILE.png]`: the level picture (engine/picture.py).
+"""`railroom plot CHAIN [-o FILE.svg|FILE.png]`: the level picture (engine/reports/picture.py).
 
 matplotlib is imported only on this path (and by `check --markdown --plots DIR`). Exit status:
 0 when the picture is written, 2 when the chain cannot be read or the file cannot be written.
@@ -9,7 +9,7 @@ from __future__ import annotations
 import warnings
 from pathlib import Path
 
-from railroom.engine.values import visible
+from railroom.engine.formats.values import visible
 from railroom.tui.cli import EXIT_GO, EXIT_INPUT
 
 
@@ -21,8 +21,8 @@ def draw(path: str, presets: tuple[str, ...], target: Path, result=None) -> Path
     """Load (and, without `result`, analyse) the chain, then write its picture; CheckRefused
     with located lines when it cannot."""
     from railroom.engine.analysis import analyse, load_checked
-    from railroom.engine.model import InputError
-    from railroom.engine.picture import SUFFIXES, write_picture
+    from railroom.engine.circuit.model import InputError
+    from railroom.engine.reports.picture import SUFFIXES, write_picture
     from railroom.tui.check_command import CheckRefused
 
     if target.suffix.lower() not in SUFFIXES:
@@ -68,6 +68,6 @@ def markdown_with_picture(markdown: str, path: str, args, result) -> str:
 
         raise CheckRefused([f"--plots {args.plots}: cannot be made: {err.strerror or err}"]) from None
     written = draw(path, tuple(args.presets), folder / (Path(path).stem + ".svg"), result)
-    from railroom.engine.picture import embed_in_markdown
+    from railroom.engine.reports.picture import embed_in_markdown
 
     return embed_in_markdown(markdown, str(written), result.chain.title)

@@ -10,9 +10,9 @@ import difflib
 import sys
 from pathlib import Path
 
-from railroom.engine.model import Part
-from railroom.engine.part_limits import LIMIT_FIELDS
-from railroom.engine.presets import (
+from railroom.engine.circuit.model import Part
+from railroom.engine.circuit.part_limits import LIMIT_FIELDS
+from railroom.engine.formats.presets import (
     PAIR_SIDES,
     PART_FIELDS,
     UNITS,
@@ -24,7 +24,7 @@ from railroom.engine.presets import (
     shipped_folder,
     user_folder,
 )
-from railroom.engine.values import escaped, format_si, visible
+from railroom.engine.formats.values import escaped, format_si, visible
 from railroom.tui.cli import EXIT_GO, EXIT_INPUT
 
 MAX_PROBLEM_LINES = 200  # as `railroom check`: the first lines, then a count

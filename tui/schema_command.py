@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from railroom.engine.schema import SCHEMAS
+from railroom.engine.formats.schema import SCHEMAS
 from railroom.tui.cli import EXIT_GO, print_json
 
 

@@ -1,6 +1,6 @@
 """The chain under edit in the interface: its file, its text, the last good result. No Textual here.
 
-Every edit is a function of the text (engine/editing.py); an edit is kept only when the one chain
+Every edit is a function of the text (engine/formats/chain_editing.py); an edit is kept only when the one chain
 loader and the part library accept the edited text, so the screen always shows a checked chain.
 """
 
@@ -11,12 +11,12 @@ from pathlib import Path
 from collections.abc import Callable
 
 from railroom.engine.analysis import analyse, load_checked
-from railroom.engine.atomic import Fingerprint, fingerprint, write_atomic
-from railroom.engine.editing import checked
-from railroom.engine.model import Chain, InputError, Problem
-from railroom.engine.plan import plan_chain
-from railroom.engine.presets import Library, load_library, search_order
-from railroom.engine.results import ChainResult
+from railroom.engine.formats.atomic import Fingerprint, fingerprint, write_atomic
+from railroom.engine.formats.chain_editing import checked
+from railroom.engine.circuit.model import Chain, InputError, Problem
+from railroom.engine.walks.preparation import plan_chain
+from railroom.engine.formats.presets import Library, load_library, search_order
+from railroom.engine.verdict.results import ChainResult
 
 
 def demo_path() -> Path:

@@ -1,6 +1,6 @@
 """Methods: corners (extreme values), rss (root-sum-square), montecarlo. Same input, same result shape.
 
-The statistical methods measure each margin per circuit (engine/draw_walk.py) and turn the
+The statistical methods measure each margin per circuit (engine/walks/circuit_walk.py) and turn the
 statistic they quote (rss: nominal - 3 sigma; montecarlo: the 0.1 % percentile over the draws)
 back into a StageMeasure that checks.judge decides on like any other: each op amp's output and
 input spans are the statistic's, and its window is the one that leaves exactly that margin.
@@ -10,8 +10,8 @@ from __future__ import annotations
 
 from dataclasses import replace
 
-from railroom.engine.checks import judge
-from railroom.engine.results import StageResult
+from railroom.engine.verdict.judge import judge
+from railroom.engine.verdict.results import StageResult
 
 Stat = dict[str, float]
 

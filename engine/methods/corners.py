@@ -17,12 +17,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from railroom.engine.blocks.base import BlockResponse
-from railroom.engine.model import Chain, InputError, Problem
-from railroom.engine.opamp import inverse_open_loop, laplace_grid
-from railroom.engine.plan import StagePlan, spread
-from railroom.engine.propagation import DifferentialSignal, Signal, source_signal
-from railroom.engine.stage_walk import walk_chain
+from railroom.engine.circuit.blocks.base import BlockResponse
+from railroom.engine.circuit.model import Chain, InputError, Problem
+from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
+from railroom.engine.walks.preparation import StagePlan, spread
+from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, source_signal
+from railroom.engine.walks.bounds_walk import walk_chain
 
 MAX_CORNER_BITS = 14  # 16384 corners of one stage's own values
 

@@ -1,4 +1,4 @@
-"""Monte Carlo: many built circuits drawn at random, each walked exactly (engine/draw_walk.py).
+"""Monte Carlo: many built circuits drawn at random, each walked exactly (engine/walks/circuit_walk.py).
 
 Each toleranced value is drawn uniform over its tolerance, or normal with the tolerance as
 3 sigma (conditions.distribution); each op amp's offset, offset drift and bias are signed draws in
@@ -21,7 +21,7 @@ from collections.abc import Iterator
 
 import numpy as np
 
-from railroom.engine import draw_walk as dw
+from railroom.engine.walks import circuit_walk as dw
 from railroom.engine.methods import judged
 from railroom.engine.methods.corners import prepare
 from railroom.engine.methods.normal import inverse_normal

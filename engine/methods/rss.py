@@ -4,7 +4,7 @@
 
 with sigma_i = tol_i / sqrt(3) for a uniform tolerance, tol_i / 3 when the tolerance is 3 sigma
 (conditions.distribution = "normal"). The derivatives are central differences over the per-circuit
-walk (engine/sensitivity.py), taken with temperature drifts over the worst temperature rise.
+walk (engine/aids/sensitivity.py), taken with temperature drifts over the worst temperature rise.
 Output and input spans are quoted the same way: nominal -/+ 3 sigma.
 """
 
@@ -14,7 +14,7 @@ import numpy as np
 
 from railroom.engine.methods import judged
 from railroom.engine.methods.montecarlo import layout_for
-from railroom.engine.sensitivity import Linearised, linearise, spread_per_unit
+from railroom.engine.aids.sensitivity import Linearised, linearise, spread_per_unit
 
 SIGMAS = 3.0
 

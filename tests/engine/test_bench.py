@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from railroom.engine import bench
+from railroom.engine.benchmark import figures as bench
 
 SPEC_KEYS = {
     "format",
@@ -50,7 +50,7 @@ def test_bench_command_keys(monkeypatch):
 
 def test_long_bench_chains_are_what_they_say():
     from railroom.engine.analysis import analyse
-    from railroom.engine.files import chain_from_text
+    from railroom.engine.formats.chain_file import chain_from_text
 
     passing = chain_from_text(bench.long_chain_text(48))
     failing = chain_from_text(bench.long_chain_text(48, failing=True))

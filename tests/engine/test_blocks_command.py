@@ -18,7 +18,7 @@ from sympy.parsing.sympy_parser import (
     standard_transformations,
 )
 
-from railroom.engine.blocks import BLOCKS
+from railroom.engine.circuit.blocks import BLOCKS
 from railroom.tui.cli import main
 
 s, r1, r2, r3, c1, c2, K, vi, vo, va, vp = sp.symbols("s r1 r2 r3 c1 c2 K vi vo va vp")

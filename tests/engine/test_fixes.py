@@ -9,10 +9,10 @@ import numpy as np
 import pytest
 
 from railroom.engine.analysis import analyse
-from railroom.engine.eseries import SERIES
-from railroom.engine.files import chain_from_text
-from railroom.engine.model import Part
-from railroom.engine.values import Quantity
+from railroom.engine.aids.eseries import SERIES
+from railroom.engine.formats.chain_file import chain_from_text
+from railroom.engine.circuit.model import Part
+from railroom.engine.formats.values import Quantity
 
 PART = Part(
     id="amp",
@@ -87,7 +87,7 @@ def test_fixes_are_series_values_that_restore_the_margin(method):
 
 
 def _series_between(old: float, new: float, series: str) -> list[float]:
-    from railroom.engine.eseries import values_between
+    from railroom.engine.aids.eseries import values_between
 
     lo, hi = sorted((old, new))
     inside = [v for v in values_between(lo, hi, series) if lo * 1.000001 < v < hi / 1.000001]
@@ -174,9 +174,9 @@ def test_partial_re_walk_agrees_with_a_walk_of_the_whole_chain(text, changes):
     # The fix search re-walks only from the stage before the change; the whole-chain walk of the
     # changed chain is the reference: every verdict and margin the same.
     from railroom.engine.analysis import band_grid
-    from railroom.engine.fixes import Evaluator
+    from railroom.engine.aids.fixes import Evaluator
     from railroom.engine.methods import corners
-    from railroom.engine.plan import plan_chain
+    from railroom.engine.walks.preparation import plan_chain
 
     chain = chain_from_text(text.format(rf="36k"))
     plans = plan_chain(chain, PARTS)
@@ -221,8 +221,8 @@ def test_a_value_in_both_series_is_offered_once(monkeypatch):
     # rg must reach 14.9k: the nearest E24 value up is 15k and so is the nearest E96 one
     # (IEC 60063: 15 is in E24, 14.7 and 15.0 in E96), so one fix names both series.
     from types import SimpleNamespace
-    from railroom.engine import fixes
-    from railroom.engine.plan import plan_chain
+    from railroom.engine.aids import fixes
+    from railroom.engine.walks.preparation import plan_chain
 
     plan = plan_chain(chain_from_text(CLIPPING.format(method="corners")), PARTS)[0]
     done = SimpleNamespace(limiting="output-high", margins={"output-high": 0.2})

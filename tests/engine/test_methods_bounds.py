@@ -12,10 +12,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from railroom.engine.analysis import band_grid
-from railroom.engine.files import chain_from_text
+from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.methods import corners, montecarlo
-from railroom.engine.model import Part
-from railroom.engine.plan import plan_chain
+from railroom.engine.circuit.model import Part
+from railroom.engine.walks.preparation import plan_chain
 
 PART = Part(
     id="amp",

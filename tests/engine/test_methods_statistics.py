@@ -6,10 +6,10 @@ import numpy as np
 import pytest
 
 from railroom.engine.analysis import analyse, band_grid
-from railroom.engine.files import chain_from_text
+from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.methods import corners, montecarlo
-from railroom.engine.model import Part
-from railroom.engine.plan import plan_chain
+from railroom.engine.circuit.model import Part
+from railroom.engine.walks.preparation import plan_chain
 
 # An op amp close to ideal: huge open-loop gain and bandwidth, no headroom, no errors.
 IDEAL = Part(

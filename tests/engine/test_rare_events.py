@@ -15,15 +15,15 @@ import numpy as np
 import pytest
 
 from railroom.engine.analysis import analyse, band_grid
-from railroom.engine.draw_walk import build_layout
-from railroom.engine.files import chain_from_text
+from railroom.engine.walks.circuit_walk import build_layout
+from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.methods import corners
 from railroom.engine.methods.normal import erfc, normal_tail
 from railroom.engine.methods.rare import design_point, estimate, to_deviates, wilson, yield_words
-from railroom.engine.model import Part
-from railroom.engine.plan import plan_chain
-from railroom.engine.report import chain_report
-from railroom.engine.sensitivity import linearise
+from railroom.engine.circuit.model import Part
+from railroom.engine.walks.preparation import plan_chain
+from railroom.engine.reports.json_report import chain_report
+from railroom.engine.aids.sensitivity import linearise
 
 PART = Part(
     id="amp",

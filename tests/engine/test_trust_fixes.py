@@ -6,8 +6,8 @@ from __future__ import annotations
 import pytest
 
 from railroom.engine.analysis import analyse
-from railroom.engine.files import chain_from_text
-from railroom.engine.model import InputError, Part
+from railroom.engine.formats.chain_file import chain_from_text
+from railroom.engine.circuit.model import InputError, Part
 
 from clean_part import part
 

@@ -90,7 +90,7 @@ ref = "0"
 
 def test_rc_lowpass_into_inverting_item3(tmp_path):
     from railroom.engine.analysis import analyse, load_checked
-    from railroom.engine.report import chain_report
+    from railroom.engine.reports.json_report import chain_report
 
     path = tmp_path / "chain.toml"
     path.write_text(CHAIN)
@@ -139,10 +139,10 @@ def test_passive_thevenin_every_method_item3(tmp_path):
     # inverting stage. The whole-chain netlist at every joint corner is the truth; the engine's
     # worst case must reach it (never optimistic) and stay within 1 mV of it (its extra is the
     # part's 50 uV offset and 2 nA bias times the noise gain, 0.1 mV).
-    from railroom.engine import draw_walk as dw
+    from railroom.engine.walks import circuit_walk as dw
     from railroom.engine.analysis import analyse, band_grid, load_checked
     from railroom.engine.methods import corners, montecarlo
-    from railroom.engine.plan import plan_chain
+    from railroom.engine.walks.preparation import plan_chain
 
     path = tmp_path / "chain.toml"
     path.write_text(TOLERANCED)

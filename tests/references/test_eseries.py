@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from railroom.engine.eseries import SERIES, nearest, nearest_array, neighbours, values_between
+from railroom.engine.aids.eseries import SERIES, nearest, nearest_array, neighbours, values_between
 
 # IEC 60063:2015, E24 table .
 IEC_60063_E24 = [

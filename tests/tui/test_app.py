@@ -9,7 +9,7 @@ import pytest
 from rich.console import Console
 from textual.widgets import Input
 
-from railroom.engine.values import ValueTextError, parse_quantity
+from railroom.engine.formats.values import ValueTextError, parse_quantity
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen, SaveAsScreen
 from railroom.tui.widgets.field_form import FieldForm
 from railroom.tui.widgets.stage_list import StageList

@@ -1,4 +1,4 @@
-"""engine/editing.py: edits keep every comment and the loader reads the result."""
+"""engine/formats/chain_editing.py: edits keep every comment and the loader reads the result."""
 
 from __future__ import annotations
 
@@ -9,8 +9,8 @@ except ModuleNotFoundError:  # Python 3.10
 
 import pytest
 
-from railroom.engine import editing
-from railroom.engine.model import InputError
+from railroom.engine.formats import chain_editing as editing
+from railroom.engine.circuit.model import InputError
 from railroom.tui.session import demo_path
 
 DEMO = demo_path().read_text(encoding="utf-8")

@@ -10,7 +10,7 @@ import pytest
 from textual.app import App
 from textual.widgets import DataTable, Input, Static
 
-from railroom.engine.presets import search_order, shipped_folder, user_folder
+from railroom.engine.formats.presets import search_order, shipped_folder, user_folder
 from railroom.tui.screens.presets import ChangedOnDiskDialog, ConfirmDialog, PresetsScreen
 from railroom.tui.widgets.preset_form import PresetForm
 

@@ -109,7 +109,7 @@ async def test_preset_dialogs_close_with_esc_and_focus_the_safe_button(tmp_path)
 async def test_opening_a_form_reads_the_file_once(make_app, two_stage, monkeypatch):
     import tomlkit
 
-    from railroom.engine import editing
+    from railroom.engine.formats import chain_editing as editing
 
     reads, real = [], tomlkit.parse
 

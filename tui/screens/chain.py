@@ -11,12 +11,12 @@ from textual.binding import Binding
 from textual.screen import Screen
 from textual.widgets import ContentSwitcher, DataTable, Footer
 
-from railroom.engine import editing
-from railroom.engine.blocks import BLOCKS
-from railroom.engine.editing import FieldShape
-from railroom.engine.model import METHODS
-from railroom.engine.results import ChainResult
-from railroom.engine.values import escaped
+from railroom.engine.formats import chain_editing as editing
+from railroom.engine.circuit.blocks import BLOCKS
+from railroom.engine.formats.chain_editing import FieldShape
+from railroom.engine.circuit.model import METHODS
+from railroom.engine.verdict.results import ChainResult
+from railroom.engine.formats.values import escaped
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen
 from railroom.tui.widgets.detail import StageDetail
 from railroom.tui.widgets.field_form import FieldForm, FormField

@@ -20,8 +20,8 @@ from textual.message import Message
 from textual.screen import ModalScreen, Screen
 from textual.widgets import Button, DataTable, Footer, Input, Label, Static
 
-from railroom.engine.model import InputError, Problem
-from railroom.engine.preset_editing import (
+from railroom.engine.circuit.model import InputError, Problem
+from railroom.engine.formats.preset_editing import (
     ChangedOnDisk,
     EditSession,
     PresetEditError,
@@ -33,7 +33,7 @@ from railroom.engine.preset_editing import (
     rename_part,
     save_preset_text,
 )
-from railroom.engine.presets import Library, load_library, read_preset_file, shipped_folder
+from railroom.engine.formats.presets import Library, load_library, read_preset_file, shipped_folder
 from railroom.tui.presets_command import part_lines
 from railroom.tui.widgets.preset_form import PresetForm
 

@@ -10,11 +10,11 @@ from rich.text import Text
 from textual.containers import VerticalScroll
 from textual.widgets import Static
 
-from railroom.engine.blocks import BLOCKS
-from railroom.engine.checks import GAIN_ERROR_CAUTION
-from railroom.engine.model import Chain, Part
-from railroom.engine.results import CHECKS, OpAmpMeasure, StageResult
-from railroom.engine.values import Quantity, format_si, format_span
+from railroom.engine.circuit.blocks import BLOCKS
+from railroom.engine.verdict.judge import GAIN_ERROR_CAUTION
+from railroom.engine.circuit.model import Chain, Part
+from railroom.engine.verdict.results import CHECKS, OpAmpMeasure, StageResult
+from railroom.engine.formats.values import Quantity, format_si, format_span
 
 UNITS = {
     "resistance": "Ω",
@@ -46,7 +46,7 @@ def needed_and_limit(stage: StageResult, check: str, part: Part | None, chain: C
         rails = chain.rails_for(m.stage)
         allowed = span_words(part.supply) if part else "-"
         return span_words(m.supply or rails.span_range), allowed
-    if check == "input-differential":  # engine/part_limits.py: largest |V+ - V-|
+    if check == "input-differential":  # engine/circuit/part_limits.py: largest |V+ - V-|
         return (
             volts(m.input_differential) if m.input_differential is not None else "-",
             volts(part.input_differential_max) if part else "-",

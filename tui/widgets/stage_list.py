@@ -6,8 +6,8 @@ from rich.text import Text
 from textual.binding import Binding
 from textual.widgets import DataTable
 
-from railroom.engine.results import ChainResult, StageResult
-from railroom.engine.values import format_si
+from railroom.engine.verdict.results import ChainResult, StageResult
+from railroom.engine.formats.values import format_si
 from railroom.tui.bars import SHORT_LEGEND, stage_bar
 
 MARGIN_UNITS = {"slew": "V/s", "current": "A"}

@@ -8,7 +8,7 @@ from textual.containers import Vertical
 from textual.widgets import Static
 
 from railroom.engine.methods.rare import failing_draws, wilson
-from railroom.engine.results import ChainResult
+from railroom.engine.verdict.results import ChainResult
 
 # the methods as a person says them (the file's words are corners, rss, montecarlo)
 METHOD_WORDS = {"corners": "corners", "rss": "rss", "montecarlo": "Monte Carlo"}
