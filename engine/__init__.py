@@ -14,7 +14,7 @@ from importlib import import_module
 
 # exported name -> module under railroom.engine that defines it
 _EXPORTS = {
-    "load_checked": "analysis",
+    "load_checked": "formats.loading",
     "analyse": "analysis",
     "load_chain": "formats.chain_file",
     "chain_from_text": "formats.chain_file",

@@ -18,7 +18,7 @@ from railroom.engine.verdict.results import CHECKS, ChainResult, StageResult
 def load(path: str, presets: tuple[str, ...] | list[str] = ()) -> Chain:
     """Read and check a chain file (its parts must be found in the preset search order, with
     `presets` folders searched last); raises InputError naming file, line and field."""
-    from railroom.engine.analysis import load_checked
+    from railroom.engine.formats.loading import load_checked
 
     chain, _ = load_checked(str(path), tuple(str(p) for p in presets))
     return chain

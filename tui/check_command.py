@@ -11,7 +11,8 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from railroom.engine.analysis import analyse, load_checked
+from railroom.engine.analysis import analyse
+from railroom.engine.formats.loading import load_checked
 from railroom.engine.circuit.model import InputError
 from railroom.engine.reports.json_report import chain_report
 from railroom.engine.verdict.results import ChainResult, StageResult

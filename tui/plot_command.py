@@ -20,7 +20,8 @@ def picture_path(chain: str, output: str | None) -> Path:
 def draw(path: str, presets: tuple[str, ...], target: Path, result=None) -> Path:
     """Load (and, without `result`, analyse) the chain, then write its picture; CheckRefused
     with located lines when it cannot."""
-    from railroom.engine.analysis import analyse, load_checked
+    from railroom.engine.analysis import analyse
+    from railroom.engine.formats.loading import load_checked
     from railroom.engine.circuit.model import InputError
     from railroom.engine.reports.picture import SUFFIXES, write_picture
     from railroom.tui.check_command import CheckRefused

@@ -10,7 +10,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from collections.abc import Callable
 
-from railroom.engine.analysis import analyse, load_checked
+from railroom.engine.analysis import analyse
+from railroom.engine.formats.loading import load_checked
 from railroom.engine.formats.atomic import Fingerprint, fingerprint, write_atomic
 from railroom.engine.formats.chain_editing import checked
 from railroom.engine.circuit.model import Chain, InputError, Problem

@@ -17,7 +17,8 @@ import tracemalloc
 import numpy as np
 
 from railroom.engine.walks import circuit_walk as dw
-from railroom.engine.analysis import analyse, band_grid
+from railroom.engine.analysis import analyse
+from railroom.engine.walks.preparation import band_grid
 from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.methods import corners, montecarlo
 from railroom.engine.benchmark import per_draw

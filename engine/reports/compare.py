@@ -219,7 +219,7 @@ def read_revision(spec: str, rev: str, path: str) -> tuple[str, Path]:
 def load_against(spec: str, extra_preset_dirs: tuple[str, ...] = ()):
     """The old chain and its preset library, from a file or from `REV:PATH`; InputError as
     load_checked raises it, each problem naming `spec`."""
-    from railroom.engine.analysis import load_checked
+    from railroom.engine.formats.loading import load_checked
     from railroom.engine.formats.chain_file import chain_from_text
     from railroom.engine.walks.preparation import plan_chain
     from railroom.engine.formats.presets import load_library, search_order

@@ -50,7 +50,7 @@ def frequency_levels(chain: Chain, parts: Mapping[str, Part]) -> list[StageLevel
     """Per stage its StageLevels (None for saturated-by-design stages), corners method: the
     corners walk itself, asked to keep each stage's bounds per frequency (a passive stage's are
     those of the next stage's input terminal, as the check shows it)."""
-    from railroom.engine.analysis import band_grid
+    from railroom.engine.walks.preparation import band_grid
     from railroom.engine.methods import corners
     from railroom.engine.walks.preparation import plan_chain
     from railroom.engine.walks.bounds_walk import walk_chain

@@ -113,3 +113,16 @@ def frequency_grid(chain: Chain, critical: list[np.ndarray], amplitude: float) -
     extra = np.concatenate([np.ravel(c) for c in critical]) if critical else np.empty(0)
     extra = extra[(extra > low) & (extra < high)]
     return np.unique(np.concatenate((grid, extra)))
+
+
+def band_grid(chain: Chain, plans) -> np.ndarray:
+    from railroom.engine.methods.corners import corner_values
+
+    rise = chain.conditions.worst_temperature_rise
+    critical = []
+    for p in plans:
+        if not p.block.saturates:
+            v = corner_values(p, rise)
+            # the ideal-op-amp peaks and the real ones (finite gain-bandwidth)
+            critical += [p.block.critical_frequencies(v), p.block.real_critical_frequencies(v, p.part)]
+    return frequency_grid(chain, critical, chain.source.amplitude)

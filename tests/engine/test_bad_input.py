@@ -7,7 +7,7 @@ numbers below are counted by hand in BASE.
 
 import pytest
 
-from railroom.engine.analysis import load_checked
+from railroom.engine.formats.loading import load_checked
 from railroom.engine.formats.chain_file import chain_from_text, load_chain
 from railroom.engine.circuit.model import InputError
 from railroom.engine.walks.preparation import plan_chain

@@ -24,7 +24,8 @@ from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
 from references.nodal import Circuit
-from railroom.engine.analysis import analyse, band_grid
+from railroom.engine.analysis import analyse
+from railroom.engine.walks.preparation import band_grid
 from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.circuit.model import Part
 from railroom.engine.walks.preparation import plan_chain

@@ -4,7 +4,8 @@ import subprocess
 import sys
 
 import railroom.engine as engine
-from railroom.engine.analysis import analyse, load_checked
+from railroom.engine.analysis import analyse
+from railroom.engine.formats.loading import load_checked
 from railroom.engine.methods.montecarlo import Cancelled
 from railroom.engine.circuit.model import InputError, Problem
 

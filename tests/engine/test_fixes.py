@@ -173,7 +173,7 @@ rg = "100k 1%"
 def test_partial_re_walk_agrees_with_a_walk_of_the_whole_chain(text, changes):
     # The fix search re-walks only from the stage before the change; the whole-chain walk of the
     # changed chain is the reference: every verdict and margin the same.
-    from railroom.engine.analysis import band_grid
+    from railroom.engine.walks.preparation import band_grid
     from railroom.engine.aids.fixes import Evaluator
     from railroom.engine.methods import corners
     from railroom.engine.walks.preparation import plan_chain

@@ -7,12 +7,13 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from railroom.engine.analysis import analyse, headroom_db
+from railroom.engine.analysis import analyse
+from railroom.engine.aids.headroom import headroom_db
 from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.methods import corners
 from railroom.engine.circuit.model import Part
 from railroom.engine.walks.preparation import plan_chain
-from railroom.engine.analysis import band_grid
+from railroom.engine.walks.preparation import band_grid
 
 PART = Part(
     id="p",

@@ -14,7 +14,8 @@ from pathlib import Path
 import pytest
 
 import railroom.engine.demos
-from railroom.engine.analysis import analyse, load_checked
+from railroom.engine.analysis import analyse
+from railroom.engine.formats.loading import load_checked
 from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.reports.markdown import markdown_report, md
 from railroom.engine.formats.presets import load_library, search_order

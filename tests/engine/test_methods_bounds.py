@@ -11,7 +11,7 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from railroom.engine.analysis import band_grid
+from railroom.engine.walks.preparation import band_grid
 from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.methods import corners, montecarlo
 from railroom.engine.circuit.model import Part

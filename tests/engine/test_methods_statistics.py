@@ -5,7 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from railroom.engine.analysis import analyse, band_grid
+from railroom.engine.analysis import analyse
+from railroom.engine.walks.preparation import band_grid
 from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.methods import corners, montecarlo
 from railroom.engine.circuit.model import Part

@@ -114,7 +114,7 @@ def test_an_unreadable_presets_folder_is_a_located_error(chain, home, tmp_path):
 def test_an_unreadable_folder_stops_the_check_in_process(chain, home, tmp_path, monkeypatch):
     """The same as root (who may read every folder): listing the folder fails as it would."""
     import railroom.engine.formats.presets as presets
-    from railroom.engine.analysis import load_checked
+    from railroom.engine.formats.loading import load_checked
     from railroom.engine.circuit.model import InputError
 
     locked = tmp_path / "locked"

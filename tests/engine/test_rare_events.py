@@ -14,7 +14,8 @@ import math
 import numpy as np
 import pytest
 
-from railroom.engine.analysis import analyse, band_grid
+from railroom.engine.analysis import analyse
+from railroom.engine.walks.preparation import band_grid
 from railroom.engine.walks.circuit_walk import build_layout
 from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.methods import corners

@@ -25,7 +25,8 @@ else:  # pragma: no cover
 import railroom.engine.demos
 import railroom.presets
 from fuzz_inputs import DEMO_CHAIN, GENERIC_PRESETS, chain_files, extreme_values, preset_files
-from railroom.engine.analysis import analyse, load_checked
+from railroom.engine.analysis import analyse
+from railroom.engine.formats.loading import load_checked
 from railroom.engine.circuit.blocks import BLOCKS
 from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.circuit.model import InputError

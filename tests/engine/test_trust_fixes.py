@@ -120,7 +120,7 @@ def test_rss_never_reports_a_margin_below_the_worst_case():
     from pathlib import Path
 
     import railroom.engine.demos
-    from railroom.engine.analysis import load_checked
+    from railroom.engine.formats.loading import load_checked
 
     path = Path(railroom.engine.demos.__file__).parent / "pump_vibration.toml"
     chain, library = load_checked(str(path))
