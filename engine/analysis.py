@@ -10,7 +10,8 @@ from dataclasses import replace
 from collections.abc import Mapping
 
 from railroom.engine.verdict.judge import chain_cautions
-from railroom.engine.methods import corners
+from railroom.engine.methods import Setup, corners
+from railroom.engine.methods import run as run_method
 from railroom.engine.circuit.model import Chain, Part
 from railroom.engine.aids.headroom import headroom_db
 from railroom.engine.walks.gain_error import gain_errors
@@ -56,15 +57,16 @@ def analyse(
     chain = with_overrides(chain, method, samples, seed, margin)
     plans = plan_chain(chain, parts)
     freqs = band_grid(chain, plans)
-    nominal = corners.run(corners.prepare(chain, plans, freqs, nominal=True), nominal=True)
+    nominal = corners.walk(corners.prepare(chain, plans, freqs, nominal=True), nominal=True)
     notes = [
         {"nominal": n.measure.output, "gain_error": e} for n, e in zip(nominal, gain_errors(chain, plans))
     ]
     prepared = corners.prepare(chain, plans, freqs)
-    stages = corners.run(prepared, notes=notes)
+    setup = Setup(chain, plans, freqs, prepared, notes=notes)
+    corner_stages = corners.run(setup).stages
+    stages = corner_stages
     method_name = chain.conditions.method
     chain_yield = None
-    corner_stages = stages
     # The per-circuit layout and its linearisation serve the statistical method and the design
     # aids alike: built once here from the prepared responses rather than once by each.
     layout = lin = None
@@ -77,11 +79,8 @@ def analyse(
 
         lin = linearise(layout, decisive=method_name == "montecarlo")
     if method_name != "corners":
-        from railroom.engine.methods import run_statistical
-
-        stages, chain_yield = run_statistical(
-            method_name, chain, plans, freqs, stages, progress, layout=layout, lin=lin
-        )
+        outcome = run_method(replace(setup, corner_stages=corner_stages, layout=layout, lin=lin), progress)
+        stages, chain_yield = outcome.stages, outcome.chain_yield
     rare = None
     if method_name == "montecarlo" and chain_yield is not None and layout is not None:
         from railroom.engine.methods.rare import estimate, failing_draws

@@ -95,15 +95,15 @@ class Evaluator:
         """Results of stages up to `stop` (all by default) of the chain with `plans`; `changed`:
         the only stage whose plan differs from the unchanged chain's, when known."""
         if self.chain.conditions.method == "rss" or changed is None:
-            found = corners.run(corners.prepare(self.chain, plans, self.freqs))
+            found = corners.walk(corners.prepare(self.chain, plans, self.freqs))
             if self.chain.conditions.method == "rss":
-                from railroom.engine.methods.rss import run
+                from railroom.engine.methods import Setup, rss
 
-                found = run(self.chain, plans, self.freqs, found)
+                found = rss.run(Setup(self.chain, plans, self.freqs, None, corner_stages=found)).stages
             return found
         if self._prepared is None:
             self._prepared = corners.prepare(self.chain, self.plans, self.freqs)
-            self._unchanged = corners.run(self._prepared, entering=self._entering)
+            self._unchanged = corners.walk(self._prepared, entering=self._entering)
         first = max(changed - 1, 0)
         # a passive stage shows (and hands on) what the stage after it loads it to, row by row
         # with that stage's corners: start from the last stage before them that stands alone

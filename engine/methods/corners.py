@@ -202,7 +202,14 @@ def start_signal(chain: Chain, freqs: np.ndarray, scale: float = 1.0) -> Signal 
     return source_signal(source.level, source.amplitude * scale, freqs)
 
 
-def run(
+def run(setup, progress=None):
+    """The corners verdicts of every stage (methods.Setup in, methods.Outcome out)."""
+    from railroom.engine.methods import Outcome
+
+    return Outcome(walk(setup.prepared, notes=setup.notes))
+
+
+def walk(
     prepared: Prepared, scale: float = 1.0, nominal: bool = False, notes=None, entering: list | None = None
 ):
     """Stage measures and verdicts for one source amplitude scale; `notes` are per-stage measure
@@ -214,5 +221,5 @@ def run(
 
 def run_from(prepared: Prepared, first: int, signal, stop: int | None = None) -> list:
     """Verdicts of stages `first` to `stop` (not included; the last by default), fed `signal`
-    (recorded by `run(..., entering=...)`)."""
+    (recorded by `walk(..., entering=...)`)."""
     return walk_chain(prepared, signal, first=first, stop=stop)

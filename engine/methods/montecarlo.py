@@ -22,7 +22,7 @@ from collections.abc import Iterator
 import numpy as np
 
 from railroom.engine.walks import circuit_walk as dw
-from railroom.engine.methods import judged
+from railroom.engine.methods import Outcome, Progress, Setup, judged
 from railroom.engine.methods.corners import prepare
 from railroom.engine.methods.normal import inverse_normal
 
@@ -192,21 +192,14 @@ class Cancelled(Exception):
     """The caller's progress callback asked to stop (a newer edit made this run stale)."""
 
 
-def run(
-    chain,
-    plans,
-    freqs,
-    corner_stages,
-    chunk: int = CHUNK_ROWS,
-    progress=None,
-    layout: dw.Layout | None = None,
-    decisive: np.ndarray | None = None,
-):
+def run(setup: Setup, progress: Progress | None = None, chunk: int = CHUNK_ROWS) -> Outcome:
     """Stage results at the 0.1 % percentile, with probability and percentiles; chain yield.
     `progress(fraction_done) -> bool` is called after every chunk; False stops the run.
-    `layout`, `decisive`: see layout_for."""
+    `setup.layout` and the decisive checks of `setup.lin` are used when built: see layout_for."""
+    chain, plans, corner_stages = setup.chain, setup.plans, setup.corner_stages
+    decisive = None if setup.lin is None else setup.lin.decisive
     samples, seed = chain.conditions.samples, chain.conditions.seed
-    layout = layout_for(chain, plans, freqs, corner_stages, full=layout, decisive=decisive)
+    layout = layout_for(chain, plans, setup.freqs, corner_stages, full=setup.layout, decisive=decisive)
     tail = None
     leaving = np.zeros(len(plans))
     all_linear = 0
@@ -229,7 +222,7 @@ def run(
     assert tail is not None  # samples >= 1: at least one chunk was walked
     quoted = {name: tail.median() if q == 0.5 else tail.low(q) for name, q in QUOTED.items()}
     stages = stage_results(plans, corner_stages, quoted, leaving / samples, chain.conditions.margin)
-    return stages, all_linear / samples
+    return Outcome(stages, all_linear / samples)
 
 
 def stage_results(plans, corner_stages, quoted, probability, required):

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from railroom.engine.methods import judged
+from railroom.engine.methods import Outcome, Progress, Setup, judged
 from railroom.engine.methods.montecarlo import layout_for
 from railroom.engine.aids.sensitivity import Linearised, linearise, spread_per_unit
 
@@ -39,8 +39,11 @@ def quoted(lin: Linearised, name: str, x: np.ndarray, s: float) -> float:
     )
 
 
-def run(chain, plans, freqs, corner_stages, lin: Linearised | None = None):
-    lin = lin or linearise(layout_for(chain, plans, freqs, corner_stages, band="full"))
+def run(setup: Setup, progress: Progress | None = None) -> Outcome:
+    """Stage results at nominal -/+ 3 sigma of the linearisation (`setup.lin`, built here when
+    the caller has none); rss measures no yield."""
+    chain, plans, corner_stages = setup.chain, setup.plans, setup.corner_stages
+    lin = setup.lin or linearise(layout_for(chain, plans, setup.freqs, corner_stages, band="full"))
     s = spread_per_unit(chain.conditions.distribution)
     results = []
     clipped_before = False
@@ -60,4 +63,4 @@ def run(chain, plans, freqs, corner_stages, lin: Linearised | None = None):
         result = judged(plan, corner, amps, out_span, window, chain.conditions.margin, clipped_before)
         clipped_before = clipped_before or result.regime == "clipping"
         results.append(result)
-    return results
+    return Outcome(results)

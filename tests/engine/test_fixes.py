@@ -190,7 +190,7 @@ def test_partial_re_walk_agrees_with_a_walk_of_the_whole_chain(text, changes):
             q = plans[k].quantities[field]
             changed = replace(plans[k], quantities={**plans[k].quantities, field: replace(q, value=value)})
             changed_plans = [*plans[:k], changed, *plans[k + 1 :]]
-        whole = corners.run(corners.prepare(chain, changed_plans, freqs))
+        whole = corners.walk(corners.prepare(chain, changed_plans, freqs))
         partial = evaluate.results(changed_plans, changed=k)
         assert [r.margins for r in partial] == [r.margins for r in whole]
         assert [r.go for r in partial] == [r.go for r in whole]

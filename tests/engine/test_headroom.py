@@ -80,7 +80,7 @@ def test_headroom_agrees_with_plain_bisection(path):
     prepared = corners.prepare(loaded, plans, band_grid(loaded, plans))
 
     def linear(db: float) -> bool:
-        return all(r.regime != "clipping" for r in corners.run(prepared, 10 ** (db / 20)))
+        return all(r.regime != "clipping" for r in corners.walk(prepared, 10 ** (db / 20)))
 
     low, high = -60.0, 60.0
     while high - low > 0.005:

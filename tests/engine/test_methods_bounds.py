@@ -76,7 +76,7 @@ def test_no_draw_outside_corners(kinds, values, tolerance, level, amplitude):
     chain = chain_from_text(chain_text(kinds, values, tolerance, level, f"{amplitude}m"))
     plans = plan_chain(chain, {"amp": PART})
     freqs = band_grid(chain, plans)
-    corner = corners.run(corners.prepare(chain, plans, freqs))
+    corner = corners.walk(corners.prepare(chain, plans, freqs))
     layout = montecarlo.layout_for(chain, plans, freqs, corner)
     draws = next(montecarlo.sample(layout, 400, seed=5))
     for stage, bound in zip(draws, corner):

@@ -66,7 +66,7 @@ def _layout(dist: str, level: float, samples: int = 10000):
     plans = plan_chain(chain, {"amp": PART})
     freqs = band_grid(chain, plans)
     prepared = corners.prepare(chain, plans, freqs)
-    layout = build_layout(chain, plans, freqs, prepared, corners.run(prepared))
+    layout = build_layout(chain, plans, freqs, prepared, corners.walk(prepared))
     return chain, layout, linearise(layout)
 
 

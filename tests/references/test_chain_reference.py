@@ -163,7 +163,7 @@ def test_passive_thevenin_every_method_item3(tmp_path):
     # rss and Monte Carlo read each drawn circuit: at the joint corners it is the netlist's value
     plans = plan_chain(chain, library.parts)
     freqs = band_grid(chain, plans)
-    layout = montecarlo.layout_for(chain, plans, freqs, corners.run(corners.prepare(chain, plans, freqs)))
+    layout = montecarlo.layout_for(chain, plans, freqs, corners.walk(corners.prepare(chain, plans, freqs)))
     names = [("r", 1), ("c", 1), ("rin", 2), ("rf", 2)]
     keys = list(truth)
     D = np.zeros((len(keys), len(layout.variables)))
