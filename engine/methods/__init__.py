@@ -70,8 +70,9 @@ def judged(
     probability: float | None = None,
     percentiles: dict | None = None,
 ) -> StageResult:
-    """A StageResult whose margins are the statistic's. `amps` holds per op amp its margins and
-    spans ("out-low", "out-high", "in-low", "in-high")."""
+    """A StageResult whose margins are the statistic's, judged as they are. `amps` holds per op
+    amp its margins and spans ("out-low", "out-high", "in-low", "in-high"); the spans and the
+    windows that leave those margins are set on the measure for the views."""
     m = corner.measure
     opamps = []
     for old, stat in zip(m.opamps, amps):
@@ -109,4 +110,16 @@ def judged(
         measure = replace(
             measure, input_differential=plan.part.input_differential_max - amps[0]["input-differential"]
         )
-    return judge(measure, plan.part, plan.rails, required)
+    # the statistic's margins go to the judge as they are; the windows above are for the views
+    margins: Stat = {}
+    nodes: dict[str, str] = {}
+    checks = ["input-high", "input-low", "current"]
+    if not m.saturated:
+        checks += ["output-high", "output-low", "slew"]
+    for amp, stat in zip(m.opamps, amps):
+        for check in checks:
+            if check in stat and (check not in margins or stat[check] < margins[check]):
+                margins[check], nodes[check] = stat[check], amp.label
+    if window_margins is not None and not m.opamps:
+        margins.update({c: window_margins[c] for c in ("input-high", "input-low")})
+    return judge(measure, plan.part, plan.rails, required, measured=(margins, nodes))

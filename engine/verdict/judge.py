@@ -64,9 +64,18 @@ def check_scale(check: str, part: Part | None, rails: Rails) -> float:
     return rails.positive - rails.negative
 
 
-def judge(measure: StageMeasure, part: Part | None, rails: Rails, required: float) -> StageResult:
+def judge(
+    measure: StageMeasure,
+    part: Part | None,
+    rails: Rails,
+    required: float,
+    measured: tuple[dict[str, float], dict[str, str]] | None = None,
+) -> StageResult:
+    """The verdict of one stage. `measured`: (each check's margin, which op amp set it) when the
+    method measured them itself (rss, Monte Carlo); otherwise they are read off the measure's
+    spans and windows (opamp_margins)."""
     block = BLOCKS[measure.stage.block]
-    margins, nodes = opamp_margins(measure)
+    margins, nodes = opamp_margins(measure) if measured is None else (dict(measured[0]), dict(measured[1]))
     if part is not None:
         margins["supply"] = supply_margin(part, rails)
     margins = {c: met_at_equality(m, check_scale(c, part, rails)) for c, m in margins.items()}
