@@ -186,10 +186,12 @@ def value_fixes(evaluate: Evaluator, plan, result: StageResult, lin) -> list[Fix
             text = f"{field} {format_si(old, 'Ω')} -> {format_si(new, 'Ω')} ({series})" + (
                 f": {check} margin {format_si(after.margins[check], unit(check))}" if check else ""
             )
-            fixes.append(Fix(text=text, field=field, value=new))
+            fixes.append(Fix(text=text, field=field, value=new, series=(series,)))
     if len(fixes) == 2 and (fixes[0].field, fixes[0].value) == (fixes[1].field, fixes[1].value):
         # the nearest E24 value is also the nearest E96 one (150k is in both): say it once
-        fixes = [replace(fixes[0], text=fixes[0].text.replace("(E24)", "(E24, E96)", 1))]
+        fixes = [
+            replace(fixes[0], text=fixes[0].text.replace("(E24)", "(E24, E96)", 1), series=("E24", "E96"))
+        ]
     return fixes
 
 

@@ -1,0 +1,1 @@
+"""The shipped demo chains (package data, found beside this file)."""

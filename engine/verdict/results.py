@@ -43,6 +43,7 @@ class Fix:
     text: str  # one sentence a practitioner can act on
     field: str | None = None  # the stage field to change, when it is a value change
     value: float | None = None
+    series: tuple[str, ...] = ()  # the IEC 60063 series the new value belongs to (a value change)
 
 
 @dataclass(frozen=True)

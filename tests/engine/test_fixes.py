@@ -74,7 +74,7 @@ def test_fixes_are_series_values_that_restore_the_margin(method):
     stage = result.stages[0]
     assert stage.regime == "clipping" and not stage.go
     value_fixes = [f for f in stage.fixes if f.field in ("rf", "rg")]
-    assert [f.text.split("(")[1][:3] for f in value_fixes] == ["E24", "E96"]
+    assert [f.series for f in value_fixes] == [("E24",), ("E96",)]
     for fix, series in zip(value_fixes, ("E24", "E96")):
         assert in_series(fix.value, series)
         fixed = analyse(with_value(chain, fix.field, fix.value), PARTS).stages[0]
