@@ -38,7 +38,7 @@ def test_engine_bench_tiny():
 
 
 def test_bench_command_keys(monkeypatch):
-    from railroom.tui import bench_command
+    from railroom.tui.subcommands import bench as bench_command
 
     monkeypatch.setattr(bench_command, "check_process_seconds", lambda runs=3: 0.5)
     monkeypatch.setattr(bench_command, "interface_times", lambda: (None, None))

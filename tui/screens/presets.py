@@ -34,7 +34,7 @@ from railroom.engine.preset_editing import (
     save_preset_text,
 )
 from railroom.engine.presets import Library, load_library, read_preset_file, shipped_folder
-from railroom.tui.presets_command import part_lines
+from railroom.tui.subcommands.presets import part_lines
 from railroom.tui.widgets.preset_form import PresetForm
 
 

@@ -10,7 +10,8 @@ import warnings
 from pathlib import Path
 
 from railroom.engine.values import visible
-from railroom.tui.cli import EXIT_GO, EXIT_INPUT
+from railroom.tui.subcommands.common import CheckRefused, report_refusal
+from railroom.tui.subcommands.exit_codes import GO, INPUT_ERROR
 
 
 def picture_path(chain: str, output: str | None) -> Path:
@@ -23,7 +24,6 @@ def draw(path: str, presets: tuple[str, ...], target: Path, result=None) -> Path
     from railroom.engine.analysis import analyse, load_checked
     from railroom.engine.model import InputError
     from railroom.engine.picture import SUFFIXES, write_picture
-    from railroom.tui.check_command import CheckRefused
 
     if target.suffix.lower() not in SUFFIXES:
         raise CheckRefused(
@@ -46,16 +46,15 @@ def draw(path: str, presets: tuple[str, ...], target: Path, result=None) -> Path
 
 
 def run_plot(args) -> int:
-    from railroom.tui.check_command import CheckRefused, report_refusal
 
     target = picture_path(args.chain, args.output)
     try:
         written = draw(args.chain, tuple(args.presets), target)
     except CheckRefused as err:
         report_refusal(err)
-        return EXIT_INPUT
+        return INPUT_ERROR
     print(f"picture written: {visible(str(written), 500)}")
-    return EXIT_GO
+    return GO
 
 
 def markdown_with_picture(markdown: str, path: str, args, result) -> str:
@@ -64,8 +63,6 @@ def markdown_with_picture(markdown: str, path: str, args, result) -> str:
     try:
         folder.mkdir(parents=True, exist_ok=True)
     except OSError as err:
-        from railroom.tui.check_command import CheckRefused
-
         raise CheckRefused([f"--plots {args.plots}: cannot be made: {err.strerror or err}"]) from None
     written = draw(path, tuple(args.presets), folder / (Path(path).stem + ".svg"), result)
     from railroom.engine.picture import embed_in_markdown

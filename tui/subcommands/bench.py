@@ -12,7 +12,8 @@ from importlib import resources
 from rich.console import Console
 from rich.table import Table
 
-from railroom.tui.cli import EXIT_GO, print_json
+from railroom.tui.subcommands.common import print_json
+from railroom.tui.subcommands.exit_codes import GO
 
 CHECK_RUNS = 3
 TARGETS = {
@@ -78,11 +79,11 @@ def run_bench(args) -> int:
     figures = bench_figures()
     if args.json:
         print_json(figures)
-        return EXIT_GO
+        return GO
     table = Table(box=None, pad_edge=False, show_edge=False)
     for column in ("figure", "value", "target"):
         table.add_column(column)
     for key, value in figures.items():
         table.add_row(key, "-" if value is None else str(value), TARGETS.get(key, ""))
     Console(highlight=False).print(table)
-    return EXIT_GO
+    return GO

@@ -15,13 +15,12 @@ from railroom.engine.analysis import analyse
 from railroom.engine.compare import change_rows, compare_results, load_against, verdict_line
 from railroom.engine.model import InputError
 from railroom.engine.results import ChainResult
+from railroom.tui.subcommands.common import CheckRefused
 
 
 def old_result(spec: str, args, margin: float | None) -> ChainResult:
     """The old version's result, with the same command-line overrides as NEW; CheckRefused
     (located lines naming `spec`) when it cannot be read or checked."""
-    from railroom.tui.check_command import CheckRefused
-
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
