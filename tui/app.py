@@ -21,11 +21,7 @@ from textual.binding import Binding
 from textual.timer import Timer
 from textual.worker import get_current_worker
 
-from railroom.engine.analysis import analyse
-from railroom.engine.methods.montecarlo import Cancelled
-from railroom.engine.model import InputError, Problem
-from railroom.engine.results import ChainResult
-from railroom.engine.values import escaped
+from railroom.engine import Cancelled, ChainResult, InputError, Problem, analyse, escaped
 from railroom.tui.commands import RailroomCommands
 from railroom.tui.screens.chain import ChainScreen
 from railroom.tui.screens.dialogs import ConfirmScreen, SaveAsScreen
@@ -480,7 +476,7 @@ class RailroomApp(App):
         except ImportError:
             self.notify("the presets screen is not available yet", severity="warning")
             return
-        from railroom.engine.presets import user_folder
+        from railroom.engine import user_folder
 
         self.push_screen(
             PresetsScreen(list(self.session.library.folders), user_folder(), on_change=self.presets_changed)
@@ -495,9 +491,9 @@ class RailroomApp(App):
 
     def switch_method(self, method: str) -> None:
         """The conditions' method set to `method` (the command palette's "method: ...")."""
-        from railroom.engine import editing
+        from railroom.engine import set_section_field
 
-        problem = self.apply_edit(lambda t: editing.set_section_field(t, "conditions", "method", method))
+        problem = self.apply_edit(lambda t: set_section_field(t, "conditions", "method", method))
         if problem:
             self.notify(problem, title="method", severity="error", markup=False)
 

@@ -8,7 +8,7 @@ from functools import partial
 from rich.text import Text
 from textual.command import DiscoveryHit, Hit, Hits, Provider
 
-from railroom.engine.model import METHODS
+from railroom.engine import METHODS
 
 METHOD_WORDS = {
     "corners": "corners (worst case at every tolerance corner)",

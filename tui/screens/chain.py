@@ -11,12 +11,24 @@ from textual.binding import Binding
 from textual.screen import Screen
 from textual.widgets import ContentSwitcher, DataTable, Footer
 
-from railroom.engine import editing
-from railroom.engine.blocks import BLOCKS
-from railroom.engine.editing import FieldShape
-from railroom.engine.model import METHODS
-from railroom.engine.results import ChainResult
-from railroom.engine.values import escaped
+from railroom.engine import (
+    BLOCKS,
+    FORM_SECTIONS,
+    METHODS,
+    ChainResult,
+    FieldShape,
+    add_stage,
+    escaped,
+    move_stage,
+    remove_stage,
+    section_fields,
+    set_section_field,
+    set_stage_field,
+    stage_fields,
+    stage_shapes,
+    starter_stage,
+    toml_value,
+)
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen
 from railroom.tui.widgets.detail import StageDetail
 from railroom.tui.widgets.field_form import FieldForm, FormField
@@ -203,9 +215,7 @@ class ChainScreen(Screen):
 
         def apply(field_key: str, text: str, judged) -> None:
             shape = next(f.shape for f in fields if f.key == field_key)
-            self.app.type_edit(
-                (form_id, field_key), change(field_key, editing.toml_value(text, shape)), judged
-            )
+            self.app.type_edit((form_id, field_key), change(field_key, toml_value(text, shape)), judged)
 
         self.close_form()
         self.add_class("editing")
@@ -217,7 +227,7 @@ class ChainScreen(Screen):
         index = self.highlighted()
         stage = self.session.chain.stages[index - 1]
         text = self.session.text
-        shapes = editing.stage_shapes(stage.block)
+        shapes = stage_shapes(stage.block)
         if BLOCKS[stage.block].uses_part:
             shapes = {
                 "name": shapes.pop("name"),
@@ -228,26 +238,26 @@ class ChainScreen(Screen):
             }
         if len(self.session.chain.rails) > 1:
             shapes["rails"] = FieldShape("text", "choice", tuple(self.session.chain.rails), "which supply")
-        shown = editing.stage_fields(text, index, shapes)
+        shown = stage_fields(text, index, shapes)
         fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
         self._form(
             f"stage {index}: {stage.name} ({stage.block})",
             f"stage.{index}",
             fields,
-            lambda k, v: lambda t: editing.set_stage_field(t, index, k, v),
+            lambda k, v: lambda t: set_stage_field(t, index, k, v),
             focus,
         )
 
     def _section_form(self, section: str, focus: str | None = None) -> None:
-        shapes = editing.SECTIONS[section]
+        shapes = FORM_SECTIONS[section]
         text = self.session.text
-        shown = editing.section_fields(text, section, shapes)
+        shown = section_fields(text, section, shapes)
         fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
         self._form(
             f"[{section}]",
             section,
             fields,
-            lambda k, v: lambda t: editing.set_section_field(t, section, k, v),
+            lambda k, v: lambda t: set_section_field(t, section, k, v),
             focus,
         )
 
@@ -260,7 +270,7 @@ class ChainScreen(Screen):
     def action_choose_method(self) -> None:
         def chosen(method: str | None) -> None:
             if method is not None:
-                self.app.apply_edit(lambda t: editing.set_section_field(t, "conditions", "method", method))
+                self.app.apply_edit(lambda t: set_section_field(t, "conditions", "method", method))
 
         current = self.session.chain.conditions.method
         self.app.push_screen(ChoiceScreen("Method", [(m, m) for m in METHODS], current), chosen)
@@ -274,8 +284,8 @@ class ChainScreen(Screen):
                 return
             parts = self.session.part_ids
             part = near.part if near.part else (parts[0] if parts else None)
-            fields = editing.starter_stage(block, f"new {block}", part, self._rails_near(after))
-            problem = self.app.apply_edit(lambda t: editing.add_stage(t, after + 1, fields))
+            fields = starter_stage(block, f"new {block}", part, self._rails_near(after))
+            problem = self.app.apply_edit(lambda t: add_stage(t, after + 1, fields))
             if problem is None:
                 self._structure_changed(after + 1)
                 self.action_edit_stage()
@@ -307,7 +317,7 @@ class ChainScreen(Screen):
 
         def answered(answer: str) -> None:
             if answer == "remove":
-                if self.app.apply_edit(lambda t: editing.remove_stage(t, index)) is None:
+                if self.app.apply_edit(lambda t: remove_stage(t, index)) is None:
                     self._structure_changed(index)
 
         name = self.session.chain.stages[index - 1].name
@@ -320,7 +330,7 @@ class ChainScreen(Screen):
         index = self.highlighted()
         target = index + offset
         if 1 <= target <= len(self.session.chain.stages):
-            if self.app.apply_edit(lambda t: editing.move_stage(t, index, offset)) is None:
+            if self.app.apply_edit(lambda t: move_stage(t, index, offset)) is None:
                 self._structure_changed(target)
 
     def _structure_changed(self, highlight: int) -> None:

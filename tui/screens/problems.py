@@ -13,8 +13,7 @@ from textual.containers import VerticalScroll
 from textual.screen import Screen
 from textual.widgets import Footer, Static
 
-from railroom.engine.model import Problem
-from railroom.engine.values import escaped
+from railroom.engine import Problem, escaped
 from railroom.tui.session import WaitingFile
 
 

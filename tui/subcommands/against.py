@@ -11,10 +11,15 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from railroom.engine.analysis import analyse
-from railroom.engine.compare import change_rows, compare_results, load_against, verdict_line
-from railroom.engine.model import InputError
-from railroom.engine.results import ChainResult
+from railroom.engine import (
+    ChainResult,
+    InputError,
+    analyse,
+    change_rows,
+    compare_results,
+    load_against,
+    verdict_line,
+)
 from railroom.tui.subcommands.common import CheckRefused
 
 

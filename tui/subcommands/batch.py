@@ -15,7 +15,7 @@ import time
 from dataclasses import dataclass
 from pathlib import Path
 
-from railroom.engine.values import visible
+from railroom.engine import visible
 from railroom.tui.subcommands.common import CheckRefused, capped, check_file, json_text, margin_text
 from railroom.tui.subcommands.exit_codes import GO, INPUT_ERROR, NO_GO, stopped_by
 
@@ -98,11 +98,11 @@ def check_one(path: str, options: Options) -> Outcome:
         result = check_file(path, args, options.margin)
         report = markdown = None
         if options.output == "json":
-            from railroom.engine.report import chain_report
+            from railroom.engine import chain_report
 
             report = chain_report(result)
         elif options.output == "markdown":
-            from railroom.engine.markdown import markdown_report
+            from railroom.engine import markdown_report
 
             markdown = markdown_report(result)
     except CheckRefused as err:

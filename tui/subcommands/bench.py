@@ -7,7 +7,6 @@ import statistics
 import subprocess
 import sys
 import time
-from importlib import resources
 
 from rich.console import Console
 from rich.table import Table
@@ -37,7 +36,9 @@ TARGETS = {
 
 def check_process_seconds(runs: int = CHECK_RUNS) -> float:
     """Median wall time of a `railroom check` process on the built-in demo chain."""
-    demo = resources.files("railroom.engine.demos") / "pump_vibration.toml"
+    from railroom.engine import demo_file
+
+    demo = demo_file("pump_vibration")
     command = [sys.executable, "-m", "railroom.tui.cli", "check", str(demo)]
     times = []
     for _ in range(runs):
@@ -67,7 +68,7 @@ def measured(call, digits: int) -> float | None:
 
 
 def bench_figures(**engine_options) -> dict:
-    from railroom.engine.bench import run
+    from railroom.engine import bench_figures as run
 
     figures = run(**engine_options)
     figures["check_process_s"] = check_process_seconds()

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 
-from railroom.engine.block_help import block_names, describe
+from railroom.engine import block_names, describe_block as describe
 from railroom.tui.subcommands.common import print_json
 from railroom.tui.subcommands.exit_codes import GO, INPUT_ERROR
 

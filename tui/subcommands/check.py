@@ -10,9 +10,7 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from railroom.engine.report import chain_report
-from railroom.engine.results import ChainResult, StageResult
-from railroom.engine.values import escaped
+from railroom.engine import ChainResult, StageResult, chain_report, escaped
 from railroom.tui.bars import FAILS_GO, LEGEND, MARKS, legend, stage_bar as drawn_bar
 from railroom.tui.subcommands.common import (
     CheckRefused,
@@ -64,16 +62,16 @@ def run_check(args) -> int:
         if args.json:
             report = chain_report(result)
             if old is not None:
-                from railroom.engine.compare import against_report
+                from railroom.engine import against_report
 
                 report["against"] = against_report(old, result, against)
             output = json_text(report)
         elif getattr(args, "markdown", False):
-            from railroom.engine.markdown import markdown_report
+            from railroom.engine import markdown_report
 
             output = markdown_report(result)
             if old is not None:
-                from railroom.engine.compare import against_markdown
+                from railroom.engine import against_markdown
 
                 output += "\n" + against_markdown(old, result, against) + "\n"
             if getattr(args, "plots", None):
@@ -165,7 +163,7 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
             "before a stage leaves its linear regime"
         )
     if result.chain_yield is not None:
-        from railroom.engine.methods.rare import yield_words
+        from railroom.engine import yield_words
 
         console.print(
             yield_words(result.chain_yield, result.samples or 0, result.rare), markup=False, highlight=False

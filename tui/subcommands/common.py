@@ -7,8 +7,7 @@ import json
 import sys
 import warnings
 
-from railroom.engine.results import ChainResult, StageResult
-from railroom.engine.values import ValueTextError, format_si, parse_value, visible
+from railroom.engine import ChainResult, StageResult, ValueTextError, format_si, parse_value, visible
 
 UNITS = {"slew": "V/s", "current": "A"}
 
@@ -48,8 +47,7 @@ def command_line_numbers(args) -> float | None:
 
 def check_file(path: str, args, margin: float | None) -> ChainResult:
     """Load and analyse one chain; every way it can fail becomes CheckRefused, never a traceback."""
-    from railroom.engine.analysis import analyse, load_checked
-    from railroom.engine.model import InputError
+    from railroom.engine import InputError, analyse, load_checked
 
     try:
         with warnings.catch_warnings():
@@ -97,7 +95,7 @@ def margin_text(result: StageResult) -> str:
 
 def json_text(data: dict) -> str:
     """Indented JSON for stdout; characters that would act on a terminal are \\u escapes."""
-    from railroom.engine.values import terminal_json
+    from railroom.engine import terminal_json
 
     return terminal_json(json.dumps(data, indent=2, ensure_ascii=False)) + "\n"
 

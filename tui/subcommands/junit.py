@@ -8,10 +8,7 @@ from __future__ import annotations
 
 import sys
 
-from railroom.engine.atomic import write_atomic
-from railroom.engine.junit import SuiteInput, junit_xml
-from railroom.engine.report import chain_report
-from railroom.engine.values import visible
+from railroom.engine import SuiteInput, chain_report, junit_xml, visible, write_atomic
 from railroom.tui.subcommands.exit_codes import GO, INPUT_ERROR
 
 
@@ -19,7 +16,7 @@ def write_junit(path: str, entries: list[SuiteInput]) -> bool:
     """Write the report; False (and a message on stderr) when the file cannot be written."""
     from pathlib import Path
 
-    from railroom.engine.picture import usual_mode
+    from railroom.engine import usual_mode
 
     existed = Path(path).exists()
     try:
@@ -45,7 +42,7 @@ def required_margin(path: str, margin: float | None) -> float | None:
     """The margin a batch worker checked with: the command line's, else the file's."""
     if margin is not None:
         return margin
-    from railroom.engine.files import load_chain
+    from railroom.engine import load_chain
 
     try:
         return load_chain(path).conditions.margin

@@ -9,7 +9,7 @@ from __future__ import annotations
 import warnings
 from pathlib import Path
 
-from railroom.engine.values import visible
+from railroom.engine import visible
 from railroom.tui.subcommands.common import CheckRefused, report_refusal
 from railroom.tui.subcommands.exit_codes import GO, INPUT_ERROR
 
@@ -21,9 +21,8 @@ def picture_path(chain: str, output: str | None) -> Path:
 def draw(path: str, presets: tuple[str, ...], target: Path, result=None) -> Path:
     """Load (and, without `result`, analyse) the chain, then write its picture; CheckRefused
     with located lines when it cannot."""
-    from railroom.engine.analysis import analyse, load_checked
-    from railroom.engine.model import InputError
-    from railroom.engine.picture import SUFFIXES, write_picture
+    from railroom.engine import PICTURE_SUFFIXES as SUFFIXES
+    from railroom.engine import InputError, analyse, load_checked, write_picture
 
     if target.suffix.lower() not in SUFFIXES:
         raise CheckRefused(
@@ -65,6 +64,6 @@ def markdown_with_picture(markdown: str, path: str, args, result) -> str:
     except OSError as err:
         raise CheckRefused([f"--plots {args.plots}: cannot be made: {err.strerror or err}"]) from None
     written = draw(path, tuple(args.presets), folder / (Path(path).stem + ".svg"), result)
-    from railroom.engine.picture import embed_in_markdown
+    from railroom.engine import embed_in_markdown
 
     return embed_in_markdown(markdown, str(written), result.chain.title)

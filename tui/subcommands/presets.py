@@ -10,21 +10,23 @@ import difflib
 import sys
 from pathlib import Path
 
-from railroom.engine.model import Part
-from railroom.engine.part_limits import LIMIT_FIELDS
-from railroom.engine.presets import (
+from railroom.engine import (
+    LIMIT_FIELDS,
     PAIR_SIDES,
     PART_FIELDS,
-    UNITS,
+    PART_UNITS as UNITS,
     Library,
+    Part,
+    escaped,
+    format_si,
     load_library,
     missing_folders,
     read_preset_file,
     search_order,
     shipped_folder,
     user_folder,
+    visible,
 )
-from railroom.engine.values import escaped, format_si, visible
 from railroom.tui.subcommands.common import (
     MAX_PROBLEM_LINES,
 )  # as `railroom check`: the first lines, then a count

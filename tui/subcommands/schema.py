@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from railroom.engine.schema import SCHEMAS
+from railroom.engine import SCHEMAS
 from railroom.tui.subcommands.common import print_json
 from railroom.tui.subcommands.exit_codes import GO
 

@@ -10,11 +10,18 @@ from rich.text import Text
 from textual.containers import VerticalScroll
 from textual.widgets import Static
 
-from railroom.engine.blocks import BLOCKS
-from railroom.engine.checks import GAIN_ERROR_CAUTION
-from railroom.engine.model import Chain, Part
-from railroom.engine.results import CHECKS, OpAmpMeasure, StageResult
-from railroom.engine.values import Quantity, format_si, format_span
+from railroom.engine import (
+    BLOCKS,
+    CHECKS,
+    GAIN_ERROR_CAUTION,
+    Chain,
+    OpAmpMeasure,
+    Part,
+    Quantity,
+    StageResult,
+    format_si,
+    format_span,
+)
 
 UNITS = {
     "resistance": "Ω",

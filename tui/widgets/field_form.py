@@ -20,7 +20,7 @@ from textual.containers import Horizontal, VerticalScroll
 from textual.message import Message
 from textual.widgets import Input, Label, Select
 
-from railroom.engine.editing import FieldShape, value_problem
+from railroom.engine import FieldShape, value_problem
 
 # Control characters (a pasted escape sequence) would restyle the terminal if echoed: the field
 # shows them as the Unicode control pictures (U+2400 block) and the value is refused.

@@ -6,8 +6,7 @@ from rich.text import Text
 from textual.binding import Binding
 from textual.widgets import DataTable
 
-from railroom.engine.results import ChainResult, StageResult
-from railroom.engine.values import format_si
+from railroom.engine import ChainResult, StageResult, format_si
 from railroom.tui.bars import SHORT_LEGEND, stage_bar
 
 MARGIN_UNITS = {"slew": "V/s", "current": "A"}

@@ -7,8 +7,7 @@ from textual.app import ComposeResult
 from textual.containers import Vertical
 from textual.widgets import Static
 
-from railroom.engine.methods.rare import failing_draws, wilson
-from railroom.engine.results import ChainResult
+from railroom.engine import ChainResult, failing_draws, wilson
 
 # the methods as a person says them (the file's words are corners, rss, montecarlo)
 METHOD_WORDS = {"corners": "corners", "rss": "rss", "montecarlo": "Monte Carlo"}
