@@ -38,6 +38,10 @@ _EXPORTS = {
     "StageResult": "results",
     "OpAmpMeasure": "results",
     "CHECKS": "results",
+    "CHECK_TABLE": "results",
+    "check_unit": "results",
+    "margin_words": "results",
+    "needed_and_limit": "results",
     "VOLTAGE_CHECKS": "results",
     "GAIN_ERROR_CAUTION": "checks",
     "yield_words": "methods.rare",
@@ -137,6 +141,10 @@ if TYPE_CHECKING:  # the same names for the type checker (a test keeps the two i
     from railroom.engine.results import StageResult as StageResult
     from railroom.engine.results import OpAmpMeasure as OpAmpMeasure
     from railroom.engine.results import CHECKS as CHECKS
+    from railroom.engine.results import CHECK_TABLE as CHECK_TABLE
+    from railroom.engine.results import check_unit as check_unit
+    from railroom.engine.results import margin_words as margin_words
+    from railroom.engine.results import needed_and_limit as needed_and_limit
     from railroom.engine.results import VOLTAGE_CHECKS as VOLTAGE_CHECKS
     from railroom.engine.checks import GAIN_ERROR_CAUTION as GAIN_ERROR_CAUTION
     from railroom.engine.methods.rare import yield_words as yield_words

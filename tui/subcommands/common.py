@@ -7,9 +7,7 @@ import json
 import sys
 import warnings
 
-from railroom.engine import ChainResult, StageResult, ValueTextError, format_si, parse_value, visible
-
-UNITS = {"slew": "V/s", "current": "A"}
+from railroom.engine import ChainResult, StageResult, ValueTextError, margin_words, parse_value, visible
 
 
 class CheckRefused(Exception):
@@ -90,7 +88,7 @@ def margin_text(result: StageResult) -> str:
     if check is None:
         return "-"
     value = result.margins[check]
-    return f"{check} {format_si(value, UNITS.get(check, 'V'))}"
+    return margin_words(check, value)
 
 
 def json_text(data: dict) -> str:

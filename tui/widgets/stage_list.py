@@ -6,10 +6,10 @@ from rich.text import Text
 from textual.binding import Binding
 from textual.widgets import DataTable
 
-from railroom.engine import ChainResult, StageResult, format_si
+from railroom.engine import ChainResult, StageResult
+from railroom.engine import margin_words as check_margin_words
 from railroom.tui.bars import SHORT_LEGEND, stage_bar
 
-MARGIN_UNITS = {"slew": "V/s", "current": "A"}
 REGIME_STYLES = {"linear": "green", "clipping": "bold red", "saturated": "cyan"}
 BAR_LIMITS = (12, 48)
 
@@ -21,7 +21,7 @@ def margin_words(stage: StageResult) -> Text:
         return Text("-")
     value = stage.margins[check]
     style = "" if value >= 0 else "bold red"
-    return Text(f"{check} {format_si(value, MARGIN_UNITS.get(check, 'V'))}", style=style)
+    return Text(check_margin_words(check, value), style=style)
 
 
 def regime_words(stage: StageResult) -> Text:
