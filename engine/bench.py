@@ -312,15 +312,3 @@ def run(
         figures.update(long_chain_figures(max(1, repeats // 2)))
     figures.update(rare_figures())
     return figures
-
-
-def draws_linear_share(chain=None, samples: int = 2000) -> float:
-    """Share of reference-chain draws that stay linear everywhere (a sanity figure for tuning)."""
-    _, share = montecarlo.run(*_setup(chain or reference_chain()), chunk=samples)
-    return float(np.asarray(share))
-
-
-def _setup(chain):
-    plans = plan_chain(chain, PARTS)
-    freqs = band_grid(chain, plans)
-    return chain, plans, freqs, corners.run(corners.prepare(chain, plans, freqs))

@@ -16,8 +16,7 @@ import tomlkit
 from tomlkit.items import AoT, Array, Comment, InlineTable, Table, Whitespace
 
 from railroom.engine.blocks import BLOCKS
-from railroom.engine.files import chain_from_text
-from railroom.engine.model import DISTRIBUTIONS, METHODS, Chain
+from railroom.engine.model import DISTRIBUTIONS, METHODS
 from railroom.engine.values import ValueTextError, parse_quantity
 
 
@@ -53,11 +52,6 @@ INPUTS_HELP = 'fixed inputs "r, v" (resistor from voltage v to the - input), ";"
 
 STARTER_VALUES = {"resistance": "10k", "capacitance": "10n", "voltage": "0", "frequency": "1k"}
 STARTER_FIELDS = {("adc", "high"): "5"}
-
-
-def checked(text: str, path: str) -> Chain:
-    """The one loader's verdict on edited text; raises InputError with every problem."""
-    return chain_from_text(text, path)
 
 
 def stage_shapes(block_name: str) -> dict[str, FieldShape]:
@@ -147,14 +141,6 @@ def shown(value) -> str:
     if isinstance(value, list):
         return ", ".join(shown(v) for v in value)
     return str(value)
-
-
-def stage_field(text: str, index: int, key: str) -> str:
-    return stage_fields(text, index, [key])[key]
-
-
-def section_field(text: str, section: str, key: str) -> str:
-    return section_fields(text, section, [key])[key]
 
 
 def stage_fields(text: str, index: int, keys) -> dict[str, str]:

@@ -64,4 +64,18 @@ def test_long_bench_chains_are_what_they_say():
 
 def test_reference_chain_is_linear_in_every_draw():
     # the comparison of the two evaluations is meant for circuits that stay linear
-    assert bench.draws_linear_share(samples=500) == 1.0
+    assert draws_linear_share(samples=500) == 1.0
+
+
+def draws_linear_share(samples: int) -> float:
+    """Share of reference-chain draws that stay linear everywhere (a sanity figure for tuning)."""
+    from railroom.engine.analysis import band_grid
+    from railroom.engine.methods import corners, montecarlo
+    from railroom.engine.plan import plan_chain
+
+    chain = bench.reference_chain()
+    plans = plan_chain(chain, bench.PARTS)
+    freqs = band_grid(chain, plans)
+    worst = corners.run(corners.prepare(chain, plans, freqs))
+    _, share = montecarlo.run(chain, plans, freqs, worst, chunk=samples)
+    return float(share)
