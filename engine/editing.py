@@ -2,10 +2,10 @@
 one chain loader (files.chain_from_text) before anything is kept.
 
 Every edit is a pure function: chain text in, edited chain text out. The caller validates the result
-with `checked(text, path)` and keeps its old text when that raises InputError.
+with `chain_from_text(text, path)` and keeps its old text when that raises InputError.
 
     text = set_stage_field(text, 2, "rf", "200k 0.1%")
-    chain = checked(text, path)              # raises InputError with located problems
+    chain = chain_from_text(text, path)      # raises InputError with located problems
 """
 
 from __future__ import annotations
