@@ -15,6 +15,7 @@ from dataclasses import dataclass
 import tomlkit
 from tomlkit.items import AoT, Array, Comment, InlineTable, Table, Whitespace
 
+from railroom.engine.block_help import COMMON_HELP
 from railroom.engine.blocks import BLOCKS
 from railroom.engine.model import DISTRIBUTIONS, METHODS
 from railroom.engine.values import ValueTextError, parse_quantity
@@ -58,9 +59,9 @@ def stage_shapes(block_name: str) -> dict[str, FieldShape]:
     """The editable fields of a stage of this block, in the order a form shows them."""
     block = BLOCKS[block_name]
     shapes = {"name": FieldShape("text", "text", help="the stage's name")}
-    shapes["load"] = FieldShape("resistance", help="load from the output to 0 V (optional)")
+    shapes["load"] = FieldShape("resistance", help=COMMON_HELP["load"])
     if block.uses_part and not block.saturates:
-        shapes["load_capacitance"] = FieldShape("capacitance", help="capacitive load to 0 V (optional)")
+        shapes["load_capacitance"] = FieldShape("capacitance", help=COMMON_HELP["load_capacitance"])
     for key, spec in block.fields.items():
         if spec.kind == "inputs":
             shapes[key] = FieldShape("inputs", "inputs", help=INPUTS_HELP)
