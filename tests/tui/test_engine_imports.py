@@ -28,11 +28,19 @@ def tui_modules(root: Path = ROOT) -> dict[str, ast.Module]:
     }
 
 
-def imported(tree: ast.Module) -> list[tuple[int, str, str | None]]:
+def imported(tree: ast.Module, at_run_time: bool = False) -> list[tuple[int, str, str | None]]:
     """(line, module, name) of every import: `import a.b` gives (n, "a.b", None), `from a import
-    b` gives (n, "a", "b")."""
+    b` gives (n, "a", "b"). `at_run_time`: leave out those under `if TYPE_CHECKING:`, which only
+    the type checker follows (a screen names the app's type so)."""
+    skipped = set()
+    if at_run_time:
+        for node in ast.walk(tree):
+            if isinstance(node, ast.If) and getattr(node.test, "id", None) == "TYPE_CHECKING":
+                skipped |= {id(inner) for statement in node.body for inner in ast.walk(statement)}
     found: list[tuple[int, str, str | None]] = []
     for node in ast.walk(tree):
+        if id(node) in skipped:
+            continue
         if isinstance(node, ast.Import):
             found += [(node.lineno, a.name, None) for a in node.names]
         elif isinstance(node, ast.ImportFrom) and node.module:
@@ -62,7 +70,7 @@ def import_cycles(root: Path = ROOT) -> list[list[str]]:
     graph: dict[str, set[str]] = {}
     for name, tree in trees.items():
         targets = set()
-        for _, module, item in imported(tree):
+        for _, module, item in imported(tree, at_run_time=True):
             if item is not None and f"{module}.{item}" in trees:
                 targets.add(f"{module}.{item}")  # from railroom.tui import timing
             elif module in trees:
@@ -126,6 +134,10 @@ def test_the_checks_see_a_submodule_import_and_a_circle(tmp_path):
     (tui / "a.py").write_text("def f():\n    from railroom.tui.sub.b import g\n")
     (tui / "sub" / "b.py").write_text("from railroom.tui import a\nfrom railroom.engine import model\n")
     (tui / "c.py").write_text("from railroom.engine.model import Chain\nfrom railroom.engine import Chain\n")
+    (tui / "d.py").write_text(
+        "from typing import TYPE_CHECKING\nif TYPE_CHECKING:\n    from railroom.tui import e\n"
+    )
+    (tui / "e.py").write_text("from railroom.tui import d\n")  # d needs e for its types only: no circle
     assert engine_submodule_imports(tmp_path) == [
         "railroom.tui.c:1 imports railroom.engine.model",
         "railroom.tui.sub.b:2 imports the submodule railroom.engine.model",

@@ -6,6 +6,8 @@ status line and the stage list above it stay in sight and repaint as each value 
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
@@ -36,12 +38,20 @@ from railroom.tui.widgets.level_view import LevelView
 from railroom.tui.widgets.stage_list import StageList
 from railroom.tui.widgets.status_line import StatusLine
 
+if TYPE_CHECKING:
+    from textual import getters
+
+    from railroom.tui.app import RailroomApp
+
 
 def key(keys: str, action: str, words: str, ident: str, tooltip: str, show: bool = True) -> Binding:
     return Binding(keys, action, words, show=show, id=f"chain.{ident}", tooltip=tooltip)
 
 
 class ChainScreen(Screen):
+    if TYPE_CHECKING:  # Textual's way to type `self.app` (textual.getters.app); nothing at run time
+        app = getters.app(RailroomApp)
+
     BINDINGS = [
         key("e", "edit_stage", "edit", "edit", "Edit the highlighted stage's values and part (enter too)"),
         key("s", "edit_source", "source", "source", "Edit the source: levels, amplitude, band"),
