@@ -325,7 +325,7 @@ class ChainScreen(Screen):
             self.notify("a chain keeps at least one stage", severity="warning")
             return
 
-        def answered(answer: str) -> None:
+        def answered(answer: str | None) -> None:
             if answer == "remove":
                 if self.app.apply_edit(lambda t: remove_stage(t, index)) is None:
                     self._structure_changed(index)

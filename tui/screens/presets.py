@@ -228,7 +228,7 @@ class PresetsScreen(Screen):
         self.edit_part(self.current_id())
 
     def edit_part(self, part_id: str | None) -> None:
-        if part_id not in self.library.parts:
+        if part_id is None or part_id not in self.library.parts:
             return
         part = self.library.parts[part_id]
         try:

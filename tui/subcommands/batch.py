@@ -13,6 +13,7 @@ import stat
 import sys
 import time
 from dataclasses import dataclass
+from typing import Any
 from pathlib import Path
 
 from railroom.engine import visible
@@ -157,7 +158,7 @@ def check_all(paths: list[str], options: Options, workers: int | None = None) ->
     context = multiprocessing.get_context()
     outcomes: list[Outcome | None] = [None] * len(paths)
     waiting = list(range(len(paths)))
-    running: dict[int, tuple] = {}  # index -> (process, connection, started)
+    running: dict[int, tuple[Any, Any, float]] = {}  # index -> (process, connection, started)
     try:
         while waiting or running:
             while waiting and len(running) < workers:

@@ -29,7 +29,7 @@ def run_check(args) -> int:
     except CheckRefused as err:
         report_refusal(err)
         return INPUT_ERROR
-    against = getattr(args, "against", None)
+    against: str | None = getattr(args, "against", None)
     if getattr(args, "plots", None) and (
         not getattr(args, "markdown", False)
         or args.json
@@ -64,7 +64,7 @@ def run_check(args) -> int:
             if old is not None:
                 from railroom.engine import against_report
 
-                report["against"] = against_report(old, result, against)
+                report["against"] = against_report(old, result, against or "")
             output = json_text(report)
         elif getattr(args, "markdown", False):
             from railroom.engine import markdown_report
@@ -73,7 +73,7 @@ def run_check(args) -> int:
             if old is not None:
                 from railroom.engine import against_markdown
 
-                output += "\n" + against_markdown(old, result, against) + "\n"
+                output += "\n" + against_markdown(old, result, against or "") + "\n"
             if getattr(args, "plots", None):
                 from railroom.tui.subcommands.plot import markdown_with_picture
 
@@ -101,7 +101,7 @@ def run_check(args) -> int:
         if old is not None:
             from railroom.tui.subcommands.against import print_against
 
-            print_against(console, old, result, against, colour)
+            print_against(console, old, result, against or "", colour)
     return GO if result.go else NO_GO
 
 
@@ -147,7 +147,7 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
     )
     bar_width = 24 if wide else max(12, min(24, console.width - used))
     for stage in result.stages:
-        cells = [str(stage.index), Text(shown(stage.stage.name))]
+        cells: list[str | Text] = [str(stage.index), Text(shown(stage.stage.name))]
         if wide:
             cells += [stage.stage.block, Text(shown(stage.stage.part or "-"))]
         cells += [regime_text(stage, colour), margin_text(stage), stage_bar(result, stage, colour, bar_width)]

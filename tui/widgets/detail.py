@@ -97,7 +97,7 @@ def components(stage: StageResult) -> Text:
     kinds = {key: spec.kind for key, spec in BLOCKS[s.block].fields.items()}
     if s.load is not None:
         text.append(f"load {quantity_words(s.load, 'resistance')}   ")
-    if getattr(s, "load_capacitance", None) is not None:
+    if s.load_capacitance is not None:
         text.append(f"load_capacitance {quantity_words(s.load_capacitance, 'capacitance')}   ")
     for key, value in s.values.items():
         if isinstance(value, Quantity):

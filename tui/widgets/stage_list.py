@@ -120,6 +120,8 @@ class StageList(DataTable):
 
     def _fill(self, rebuild: bool) -> None:
         result = self._result
+        if result is None:
+            return
         row = self.cursor_row
         cells = [
             {
@@ -158,6 +160,7 @@ class StageList(DataTable):
         self, stage: StageResult, row_cells: dict[str, Text], widths: dict[str, int]
     ) -> list[Text]:
         # the op amp inside the stage with the least room, with its input's range
+        assert self._result is not None  # rows are made only from a result
         bar = stage_bar(self._result.chain, stage, width=widths["rail span"])
         return [
             clipped(row_cells[label], width) for label, width in widths.items() if label != "rail span"
