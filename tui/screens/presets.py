@@ -309,6 +309,7 @@ class PresetsScreen(Screen):
             self.notify(
                 f"Shipped presets are never {what}; make a copy (c) in your folder instead.",
                 severity="warning",
+                markup=False,
             )
             return True
         return False
