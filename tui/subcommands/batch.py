@@ -16,7 +16,7 @@ from dataclasses import dataclass
 from typing import Any
 from pathlib import Path
 
-from railroom.engine import visible
+from railroom.engine import check_unit, visible
 from railroom.tui.subcommands.common import CheckRefused, capped, check_file, json_text, margin_text
 from railroom.tui.subcommands.exit_codes import GO, INPUT_ERROR, NO_GO, stopped_by
 
@@ -134,7 +134,7 @@ def check_one(path: str, options: Options) -> Outcome:
 
 def _volts_of_room(stage) -> float:
     """The limiting margin when it is in volts, to name the tightest stage of a GO chain."""
-    if stage.limiting is None or stage.limiting in ("slew", "current"):
+    if stage.limiting is None or check_unit(stage.limiting) != "V":
         return float("inf")
     return stage.margins[stage.limiting]
 
