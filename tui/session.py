@@ -10,20 +10,27 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from collections.abc import Callable
 
-from railroom.engine.analysis import analyse
-from railroom.engine.formats.loading import load_checked
-from railroom.engine.formats.atomic import Fingerprint, fingerprint, write_atomic
-from railroom.engine.formats.chain_editing import checked
-from railroom.engine.circuit.model import Chain, InputError, Problem
-from railroom.engine.walks.preparation import plan_chain
-from railroom.engine.formats.presets import Library, load_library, search_order
-from railroom.engine.verdict.results import ChainResult
+from railroom.engine import (
+    Chain,
+    ChainResult,
+    Fingerprint,
+    InputError,
+    Library,
+    Problem,
+    analyse,
+    chain_from_text,
+    check_parts,
+    demo_file,
+    fingerprint,
+    load_checked,
+    load_library,
+    search_order,
+    write_atomic,
+)
 
 
 def demo_path() -> Path:
-    import railroom.engine.demos
-
-    return Path(railroom.engine.demos.__file__).parent / "pump_vibration.toml"
+    return demo_file("pump_vibration")
 
 
 @dataclass
@@ -87,9 +94,9 @@ class Session:
         so a worker thread may run it while the user goes on typing."""
         try:
             edited = change(text)
-            chain = checked(edited, str(self.path))
+            chain = chain_from_text(edited, str(self.path))
             library = self._library_for(chain)
-            plan_chain(chain, library.parts)
+            check_parts(chain, library.parts)
         except InputError as err:
             return list(err.problems)
         except (ValueError, IndexError, KeyError, RecursionError) as err:
@@ -116,7 +123,7 @@ class Session:
             return False
         text = self.history.pop()
         self._last_step = None
-        self.chain = checked(text, str(self.path))
+        self.chain = chain_from_text(text, str(self.path))
         self.library = self._library_for(self.chain)
         self.text = text
         return True
@@ -125,7 +132,7 @@ class Session:
         """Read the preset folders again (a preset changed); keep the old library on a problem."""
         library = load_library(search_order(self.chain.preset_dirs, self.extra_preset_dirs))
         try:
-            plan_chain(self.chain, library.parts)
+            check_parts(self.chain, library.parts)
         except InputError as err:
             return list(err.problems)
         self.library = library
@@ -152,7 +159,7 @@ class Session:
         if self.read_only and path is None:
             raise PermissionError("the built-in demo is read-only: save it under a new name")
         if target != self.path:
-            self.chain = checked(self.text, str(target))
+            self.chain = chain_from_text(self.text, str(target))
             self.library = self._library_for(self.chain)
         write_atomic(target, self.text, backup=True)
         self.path, self.read_only, self.saved_text = target, False, self.text

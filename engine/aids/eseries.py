@@ -77,15 +77,6 @@ def _neighbour_arrays(values: np.ndarray, series: str) -> tuple[np.ndarray, np.n
     return _scaled(table[below], decade), _scaled(table[above], decade)
 
 
-def neighbours(value: float, series: str) -> tuple[float, float]:
-    """The series values at or below and at or above `value`, in any decade.
-
-    A value already in the series (to one part in 1e9) comes back as both neighbours.
-    """
-    below, above = _neighbour_arrays(np.array([value], dtype=float), series)
-    return float(below[0]), float(above[0])
-
-
 def nearest_array(values: np.ndarray, series: str) -> np.ndarray:
     """The nearest series value to each value, nearest by ratio (the series are geometric)."""
     values = np.asarray(values, dtype=float)
@@ -93,11 +84,6 @@ def nearest_array(values: np.ndarray, series: str) -> np.ndarray:
     # A tie in ratio goes to the lower value.
     closer_above = above / values.ravel() < values.ravel() / below
     return np.where(closer_above, above, below).reshape(values.shape)
-
-
-def nearest(value: float, series: str) -> float:
-    """The series value nearest to `value` by ratio, in any decade."""
-    return float(nearest_array(np.array([value], dtype=float), series)[0])
 
 
 def values_between(lo: float, hi: float, series: str) -> np.ndarray:

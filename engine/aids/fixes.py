@@ -19,7 +19,7 @@ import numpy as np
 from railroom.engine.aids.eseries import values_between
 from railroom.engine.methods import corners
 from railroom.engine.methods.montecarlo import layout_for
-from railroom.engine.verdict.results import VOLTAGE_CHECKS, Fix, StageResult
+from railroom.engine.verdict.results import VOLTAGE_CHECKS, Fix, StageResult, check_unit
 from railroom.engine.aids.sensitivity import direction, linearise, ranking
 from railroom.engine.formats.values import format_si
 
@@ -184,7 +184,7 @@ def value_fixes(evaluate: Evaluator, plan, result: StageResult, lin) -> list[Fix
             field, new, old, after = best
             check = after.limiting
             text = f"{field} {format_si(old, 'Ω')} -> {format_si(new, 'Ω')} ({series})" + (
-                f": {check} margin {format_si(after.margins[check], unit(check))}" if check else ""
+                f": {check} margin {format_si(after.margins[check], check_unit(check))}" if check else ""
             )
             fixes.append(Fix(text=text, field=field, value=new, series=(series,)))
     if len(fixes) == 2 and (fixes[0].field, fixes[0].value) == (fixes[1].field, fixes[1].value):
@@ -193,10 +193,6 @@ def value_fixes(evaluate: Evaluator, plan, result: StageResult, lin) -> list[Fix
             replace(fixes[0], text=fixes[0].text.replace("(E24)", "(E24, E96)", 1), series=("E24", "E96"))
         ]
     return fixes
-
-
-def unit(check: str) -> str:
-    return {"slew": "V/s", "current": "A"}.get(check, "V")
 
 
 def amplitude_fix(chain, headroom: float) -> Fix:

@@ -20,7 +20,7 @@ from railroom.engine.walks import circuit_walk as dw
 from railroom.engine.analysis import analyse
 from railroom.engine.walks.preparation import band_grid
 from railroom.engine.formats.chain_file import chain_from_text
-from railroom.engine.methods import Setup, corners, montecarlo
+from railroom.engine.methods import corners, montecarlo
 from railroom.engine.benchmark import per_draw
 from railroom.engine.circuit.model import Part
 from railroom.engine.walks.preparation import plan_chain
@@ -263,7 +263,7 @@ def per_draw_comparison(chain, rows: int, reference_draws: int, repeats: int) ->
     """(reference time / vectorised time for `rows` draws, same margins on the shared draws)."""
     plans = plan_chain(chain, PARTS)
     freqs = band_grid(chain, plans)
-    layout = montecarlo.layout_for(chain, plans, freqs, corners.walk(corners.prepare(chain, plans, freqs)))
+    layout = montecarlo.layout_for(chain, plans, freqs, corners.run(corners.prepare(chain, plans, freqs)))
     D, dT = next(montecarlo.chunks(layout, rows, chain.conditions.seed, chunk=rows))
     vector_s = median_seconds(lambda: dw.walk_draws(layout, D, dT), repeats)
     vector = dw.walk_draws(layout, D, dT)
@@ -314,16 +314,3 @@ def run(
         figures.update(long_chain_figures(max(1, repeats // 2)))
     figures.update(rare_figures())
     return figures
-
-
-def draws_linear_share(chain=None, samples: int = 2000) -> float:
-    """Share of reference-chain draws that stay linear everywhere (a sanity figure for tuning)."""
-    share = montecarlo.run(_setup(chain or reference_chain()), chunk=samples).chain_yield
-    return float(np.asarray(share))
-
-
-def _setup(chain):
-    plans = plan_chain(chain, PARTS)
-    freqs = band_grid(chain, plans)
-    prepared = corners.prepare(chain, plans, freqs)
-    return Setup(chain, plans, freqs, prepared, corner_stages=corners.walk(prepared))

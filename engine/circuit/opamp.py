@@ -59,7 +59,6 @@ class LoopSolution:
     offset_gain: np.ndarray  # Vout per volt of input offset, at DC, shape (J,)
     bias_plus_gain: np.ndarray  # Vout per ampere into the + input, at DC
     bias_minus_gain: np.ndarray  # Vout per ampere into the - input, at DC
-    noise_gain: np.ndarray  # 1 / (beta - gamma) at DC, the ideal noise gain
     # the + pin's own error gains at DC: V+ = gamma Vout - Ib+ Z+ (module docstring), so bias
     # current through the resistance at + moves the pin itself, and positive feedback carries
     # every output error back to it
@@ -84,7 +83,6 @@ def solve_loop(loop: Loop, inverse_gain: np.ndarray) -> LoopSolution:
         ),
     )
     dc = np.broadcast_to(dc, (rows,))  # a driving resistance may vary where the loop does not
-    ideal = np.atleast_2d(np.broadcast_to(loop.beta - loop.gamma, np.shape(denominator)))[..., 0].real
     gamma = _column(
         np.atleast_2d(np.broadcast_to(loop.gamma, np.shape(denominator)))[..., 0].real
         if np.ndim(loop.gamma)
@@ -100,7 +98,6 @@ def solve_loop(loop: Loop, inverse_gain: np.ndarray) -> LoopSolution:
         offset_gain=1.0 / dc,
         bias_plus_gain=bias_plus,
         bias_minus_gain=bias_minus,
-        noise_gain=1.0 / ideal,
         plus_offset_gain=gamma / dc,
         plus_bias_plus_gain=gamma * bias_plus - z_plus,
         plus_bias_minus_gain=gamma * bias_minus,

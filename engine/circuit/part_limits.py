@@ -112,12 +112,6 @@ def parse_curve_text(text: str):
     return [list(row) for row in rows] if rows else text
 
 
-def curve_text(points) -> str:
-    from railroom.engine.formats.values import format_si
-
-    return "; ".join(" ".join(format_si(x, "") for x in p) for p in points)
-
-
 def curve_problem(points) -> str | None:
     for n, (current, upper, lower) in enumerate(points, 1):
         if current < 0:

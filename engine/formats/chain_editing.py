@@ -2,10 +2,10 @@
 one chain loader (files.chain_from_text) before anything is kept.
 
 Every edit is a pure function: chain text in, edited chain text out. The caller validates the result
-with `checked(text, path)` and keeps its old text when that raises InputError.
+with `chain_from_text(text, path)` and keeps its old text when that raises InputError.
 
     text = set_stage_field(text, 2, "rf", "200k 0.1%")
-    chain = checked(text, path)              # raises InputError with located problems
+    chain = chain_from_text(text, path)      # raises InputError with located problems
 """
 
 from __future__ import annotations
@@ -15,9 +15,9 @@ from dataclasses import dataclass
 import tomlkit
 from tomlkit.items import AoT, Array, Comment, InlineTable, Table, Whitespace
 
+from railroom.engine.reports.block_help import COMMON_HELP
 from railroom.engine.circuit.blocks import BLOCKS
-from railroom.engine.formats.chain_file import chain_from_text
-from railroom.engine.circuit.model import DISTRIBUTIONS, METHODS, Chain
+from railroom.engine.circuit.model import DISTRIBUTIONS, METHODS
 from railroom.engine.formats.values import ValueTextError, parse_quantity
 
 
@@ -55,18 +55,13 @@ STARTER_VALUES = {"resistance": "10k", "capacitance": "10n", "voltage": "0", "fr
 STARTER_FIELDS = {("adc", "high"): "5"}
 
 
-def checked(text: str, path: str) -> Chain:
-    """The one loader's verdict on edited text; raises InputError with every problem."""
-    return chain_from_text(text, path)
-
-
 def stage_shapes(block_name: str) -> dict[str, FieldShape]:
     """The editable fields of a stage of this block, in the order a form shows them."""
     block = BLOCKS[block_name]
     shapes = {"name": FieldShape("text", "text", help="the stage's name")}
-    shapes["load"] = FieldShape("resistance", help="load from the output to 0 V (optional)")
+    shapes["load"] = FieldShape("resistance", help=COMMON_HELP["load"])
     if block.uses_part and not block.saturates:
-        shapes["load_capacitance"] = FieldShape("capacitance", help="capacitive load to 0 V (optional)")
+        shapes["load_capacitance"] = FieldShape("capacitance", help=COMMON_HELP["load_capacitance"])
     for key, spec in block.fields.items():
         if spec.kind == "inputs":
             shapes[key] = FieldShape("inputs", "inputs", help=INPUTS_HELP)
@@ -147,14 +142,6 @@ def shown(value) -> str:
     if isinstance(value, list):
         return ", ".join(shown(v) for v in value)
     return str(value)
-
-
-def stage_field(text: str, index: int, key: str) -> str:
-    return stage_fields(text, index, [key])[key]
-
-
-def section_field(text: str, section: str, key: str) -> str:
-    return section_fields(text, section, [key])[key]
 
 
 def stage_fields(text: str, index: int, keys) -> dict[str, str]:

@@ -58,13 +58,6 @@ def chain_from_text(text: str, path: str = "<chain>", check_folders: bool = Fals
     return chain
 
 
-def _file_problem(path: str, err: Exception):
-    from railroom.engine.circuit.model import Problem
-
-    reason = err.strerror if isinstance(err, OSError) and err.strerror else str(err)
-    return Problem(path, None, "(file)", f"cannot be read: {reason}")
-
-
 def _read_chain(data: dict, r: FieldReader, path: str) -> Chain | None:
     r.unknown_keys(data, "", TOP_KEYS, "a chain file")
     if data.get("format", 1) != 1:

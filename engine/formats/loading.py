@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from railroom.engine.circuit.model import InputError
+from collections.abc import Mapping
+
+from railroom.engine.circuit.model import Chain, InputError, Part
 from railroom.engine.walks.preparation import plan_chain
 
 
@@ -24,12 +26,18 @@ def load_checked(path: str, extra_preset_dirs: tuple[str, ...] = (), strict: boo
         raise InputError([*missing, *sorted(found, key=lambda p: p.line or 0)]) from None
     library = load_library(search_order(chain.preset_dirs, extra_preset_dirs))
     try:
-        plan_chain(chain, library.parts)
+        check_parts(chain, library.parts)
     except InputError as err:
         raise InputError([*missing, *err.problems, *library.problems]) from None
     if strict and (missing or library.fatal):
         raise InputError([*missing, *library.fatal])
     return chain, library
+
+
+def check_parts(chain: Chain, parts: Mapping[str, Part]) -> None:
+    """Every stage that needs a part finds it in `parts`; else InputError, each unknown part
+    located (file, line, stage). load_checked's part check, for a chain read from edited text."""
+    plan_chain(chain, parts)
 
 
 def unknown_parts_in_text(path: str, extra_preset_dirs: tuple[str, ...] = ()) -> list:

@@ -25,8 +25,9 @@ COMMON_HELP = {
     "block": "which circuit the stage is (one of `railroom blocks`)",
     "part": "the op amp's part preset id (blocks with an op amp)",
     "rails": "which [rails.NAME] supplies the op amp (needed when a chain has more than one)",
-    "load": "resistance from the output to 0 V, ohm (besides the next stage's input)",
-    "load_capacitance": "capacitance from the output to 0 V, F: the loop's phase margin is estimated",
+    # the edit form shows these two as well (engine/formats/chain_editing.py): one wording for both
+    "load": "load from the output to 0 V (optional)",
+    "load_capacitance": "capacitive load to 0 V (optional)",
 }
 
 

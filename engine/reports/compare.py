@@ -23,7 +23,7 @@ from pathlib import Path
 
 from railroom.engine.circuit.model import InputError, Problem
 from railroom.engine.reports.json_report import _number
-from railroom.engine.verdict.results import CHECKS, ChainResult, StageResult
+from railroom.engine.verdict.results import CHECKS, ChainResult, StageResult, check_unit
 
 RELATIVE_CHANGE = 1e-6
 CHANGES = ("changed", "same", "added", "removed")
@@ -248,8 +248,6 @@ def load_against(spec: str, extra_preset_dirs: tuple[str, ...] = ()):
 
 # ---- words ------------------------------------------------------------------------------------
 
-CHECK_UNITS = {"slew": "V/s", "current": "A"}
-
 
 def change_words(c: StageChange) -> str:
     """'changed, GO -> NO-GO', 'added (renamed from x?)', 'same', ..."""
@@ -266,7 +264,7 @@ def change_words(c: StageChange) -> str:
 def margin_value(check: str, value: float | None) -> str:
     from railroom.engine.formats.values import format_si
 
-    return "-" if value is None else format_si(value, CHECK_UNITS.get(check, "V"))
+    return "-" if value is None else format_si(value, check_unit(check))
 
 
 def change_rows(changes: list[StageChange]) -> list[tuple[str, str, str, str, str]]:

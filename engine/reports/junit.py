@@ -12,9 +12,9 @@ from __future__ import annotations
 import xml.etree.ElementTree as ET
 from dataclasses import dataclass
 
+from railroom.engine.verdict.results import check_unit
 from railroom.engine.formats.values import format_si, visible
 
-UNITS = {"slew": "V/s", "current": "A"}
 # check -> (node field of the need, node field of the limit, +1 when the limit is above the need)
 FIGURES = {
     "output-high": ("output", 1, "window", 1, 1),
@@ -36,7 +36,7 @@ class SuiteInput:
 
 
 def _value(check: str, value: float | None) -> str:
-    return "?" if value is None else format_si(value, UNITS.get(check, "V"))
+    return "?" if value is None else format_si(value, check_unit(check))
 
 
 def _node_figures(check: str, node: dict) -> tuple[float | None, float | None]:

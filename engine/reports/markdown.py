@@ -11,26 +11,18 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
-from railroom.engine.verdict.results import CHECKS, ChainResult, StageResult
+from railroom.engine.verdict.results import CHECK_TABLE, CHECKS, ChainResult, StageResult, check_unit
+from railroom.engine.verdict.results import margin_words as check_margin_words
 from railroom.engine.formats.values import format_si, visible
 
 DIAGRAM_WIDTH = 56
-CHECK_UNITS = {"slew": "V/s", "current": "A"}
+# why a stage fails, from the table of checks (engine/verdict/results.py), and the one reason that is no check
 REASON_WORDS = {
-    "output-high": "output comes too close to the upper rail",
-    "output-low": "output comes too close to the lower rail",
-    "input-high": "input common mode above the part's range",
-    "input-low": "input common mode below the part's range",
-    "slew": "needs more slew rate than the part has",
-    "current": "needs more output current than the part's limit",
-    "supply": "rails outside the part's allowed supply span",
+    **{c.name: c.words for c in CHECK_TABLE.values() if c.words},
     "fed-clipped": "fed by a clipping stage before it",
 }
 # a converter input (no op amp) has a window of its own: its input checks are about that window
-CONVERTER_REASON_WORDS = {
-    "input-high": "signal above the converter's input range",
-    "input-low": "signal below the converter's input range",
-}
+CONVERTER_REASON_WORDS = {c.name: c.converter_words for c in CHECK_TABLE.values() if c.converter_words}
 METHOD_WORDS = {
     "corners": "worst case: every combination of tolerance ends, rails, temperature ends, offset "
     "and bias signs, source range ends and AC peak sign, at every band frequency",
@@ -69,7 +61,7 @@ def volts(value: float | None) -> str:
 def margin_words(check: str | None, value: float | None) -> str:
     if check is None or value is None:
         return "-"
-    return f"{check} {format_si(value, CHECK_UNITS.get(check, 'V'))}"
+    return check_margin_words(check, value)
 
 
 def markdown_report(result: ChainResult) -> str:
@@ -191,7 +183,7 @@ def margin_table(result: ChainResult) -> str:
         "|---|" + "|".join("---:" for _ in used) + "|",
     ]
     for s in result.stages:
-        cells = [format_si(s.margins[c], CHECK_UNITS.get(c, "V")) if c in s.margins else "" for c in used]
+        cells = [format_si(s.margins[c], check_unit(c)) if c in s.margins else "" for c in used]
         lines.append(f"| {s.index} | " + " | ".join(cells) + " |")
     return "\n".join(lines)
 

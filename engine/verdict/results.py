@@ -4,12 +4,63 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from railroom.engine.circuit.model import Chain, Stage
+from railroom.engine.circuit.model import Chain, Part, Stage
+from railroom.engine.formats.values import format_si
 
 Span = tuple[float, float]
 
+
+@dataclass(frozen=True)
+class Check:
+    """One row of the table of checks: what every view (the check table, the interface's detail,
+    Markdown, JUnit, --against) shows of a check."""
+
+    name: str
+    unit: str  # of its margin and of what it compares: V, V/s (slew rate) or A
+    words: str = ""  # why a stage fails it, for the Markdown report ("" : the name says it)
+    converter_words: str = ""  # the same for a converter input (no op amp): its signal and window
+
+
+CHECK_TABLE: dict[str, Check] = {
+    c.name: c
+    for c in (
+        Check(
+            "output-high",
+            "V",
+            "output comes too close to the upper rail",
+        ),
+        Check("output-low", "V", "output comes too close to the lower rail"),
+        Check(
+            "input-high",
+            "V",
+            "input common mode above the part's range",
+            "signal above the converter's input range",
+        ),
+        Check(
+            "input-low",
+            "V",
+            "input common mode below the part's range",
+            "signal below the converter's input range",
+        ),
+        Check("slew", "V/s", "needs more slew rate than the part has"),
+        Check("current", "A", "needs more output current than the part's limit"),
+        Check("supply", "V", "rails outside the part's allowed supply span"),
+        Check("input-differential", "V"),  # engine/circuit/part_limits.py: largest |V+ - V-|
+    )
+}
 VOLTAGE_CHECKS = ("output-high", "output-low", "input-high", "input-low")
-CHECKS = (*VOLTAGE_CHECKS, "slew", "current", "supply", "input-differential")
+CHECKS = tuple(CHECK_TABLE)
+
+
+def check_unit(check: str) -> str:
+    """The unit of a check's margin (volts for a name outside the table)."""
+    row = CHECK_TABLE.get(check)
+    return row.unit if row else "V"
+
+
+def margin_words(check: str, value: float) -> str:
+    """'output-high 1.2 V', 'slew 300 mV/µs': a check's margin as every view writes it."""
+    return f"{check} {format_si(value, check_unit(check))}"
 
 
 @dataclass(frozen=True)
@@ -143,3 +194,34 @@ class ChainResult:
         """Stages that fail on their own: a stage fed by a clipping one is not GO either
         (reason "fed-clipped"), but it is not counted as one more failure."""
         return sum(not s.go and list(s.reasons) != ["fed-clipped"] for s in self.stages)
+
+
+Figure = float | tuple[float, float] | None  # a value, a (low, high) span, or none known
+
+
+def needed_and_limit(
+    stage: StageResult, check: str, part: Part | None, chain: Chain
+) -> tuple[Figure, Figure]:
+    """What the stage asks of the part for `check` and what the part gives, as measured (in the
+    check's unit, check_unit): for the supply both are spans, for a converter input the signal's
+    end against its window's. The op amp is the one that fails the check inside a multi-op-amp
+    block, else the first."""
+    m = stage.measure
+    label = stage.failing_nodes.get(check)
+    amp = next((a for a in m.opamps if a.label == label), m.opamps[0] if m.opamps else None)
+    if check == "supply":
+        return m.supply or chain.rails_for(m.stage).span_range, part.supply if part else None
+    if check == "input-differential":  # engine/circuit/part_limits.py: largest |V+ - V-|
+        return m.input_differential, part.input_differential_max if part else None
+    side = 1 if check.endswith("high") else 0
+    if amp is None:  # a converter input: its input-high/low are the signal against its window
+        window = m.window or (float("nan"), float("nan"))
+        return m.output[side], window[side]
+    if check == "slew":
+        return amp.slew_needed, amp.slew_available
+    if check == "current":
+        return amp.current_needed, amp.current_available
+    reached, allowed = (
+        (amp.output, amp.window) if check.startswith("output") else (amp.input, amp.input_window)
+    )
+    return reached[side], allowed[side]

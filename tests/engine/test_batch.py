@@ -8,7 +8,7 @@ import sys
 from pathlib import Path
 
 from fuzz_inputs import DEMO_CHAIN
-from railroom.tui.batch_command import Options, chain_paths, check_all
+from railroom.tui.subcommands.batch import Options, chain_paths, check_all
 
 DEMO = DEMO_CHAIN.read_text(encoding="utf-8")
 # The demo is NO-GO (its level shifter slews too slowly at 200 mV peak, 5 kHz); at a tenth of

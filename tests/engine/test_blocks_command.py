@@ -98,3 +98,15 @@ def test_list_and_one_block(capsys):
 def test_unknown_block_is_refused_with_the_list(capsys):
     assert main(["blocks", "nonverting"]) == 2
     assert "unknown block 'nonverting'" in capsys.readouterr().err
+
+
+def test_the_edit_form_and_the_block_help_word_load_and_load_capacitance_alike():
+    from railroom.engine.reports.block_help import describe
+    from railroom.engine.formats.chain_editing import stage_shapes
+
+    common = {f["key"]: f["help"] for f in describe("noninverting")["common_fields"]}
+    shapes = stage_shapes("noninverting")
+    assert [shapes[k].help for k in ("load", "load_capacitance")] == [
+        common["load"],
+        common["load_capacitance"],
+    ]

@@ -99,7 +99,7 @@ def test_fifty_thousand_unknown_keys_are_counted_not_listed(tmp_path, home):
 
 
 def test_many_problems_are_capped_with_a_count(tmp_path, home):
-    from railroom.tui.check_command import MAX_PROBLEM_LINES
+    from railroom.tui.subcommands.common import MAX_PROBLEM_LINES
 
     path = tmp_path / "board.toml"
     # 90 stages (under the limit of 100), each with three bad values: 270 problems.

@@ -405,7 +405,7 @@ def test_a_bad_limit_is_a_located_error(line, field, words):
 
 
 def test_presets_show_prints_every_limit_in_units():
-    from railroom.tui.presets_command import part_lines
+    from railroom.tui.subcommands.presets import part_lines
 
     (part,) = part_of(
         'temperature_range = ["-40", "125"]\nbias_current_doubling = "10"\n'

@@ -9,7 +9,7 @@ from textual.app import App
 from textual.widgets import Button, Input
 
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen
-from railroom.tui.screens.presets import ChangedOnDiskDialog, ConfirmDialog, NameDialog
+from railroom.tui.screens.preset_dialogs import ChangedOnDiskDialog, ConfirmDialog, NameDialog
 
 SIZE = (80, 24)
 

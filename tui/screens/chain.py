@@ -6,17 +6,31 @@ status line and the stage list above it stay in sight and repaint as each value 
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
 from textual.widgets import ContentSwitcher, DataTable, Footer
 
-from railroom.engine.formats import chain_editing as editing
-from railroom.engine.circuit.blocks import BLOCKS
-from railroom.engine.formats.chain_editing import FieldShape
-from railroom.engine.circuit.model import METHODS
-from railroom.engine.verdict.results import ChainResult
-from railroom.engine.formats.values import escaped
+from railroom.engine import (
+    BLOCKS,
+    FORM_SECTIONS,
+    METHODS,
+    ChainResult,
+    FieldShape,
+    add_stage,
+    escaped,
+    move_stage,
+    remove_stage,
+    section_fields,
+    set_section_field,
+    set_stage_field,
+    stage_fields,
+    stage_shapes,
+    starter_stage,
+    toml_value,
+)
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen
 from railroom.tui.widgets.detail import StageDetail
 from railroom.tui.widgets.field_form import FieldForm, FormField
@@ -24,12 +38,20 @@ from railroom.tui.widgets.level_view import LevelView
 from railroom.tui.widgets.stage_list import StageList
 from railroom.tui.widgets.status_line import StatusLine
 
+if TYPE_CHECKING:
+    from textual import getters
+
+    from railroom.tui.app import RailroomApp
+
 
 def key(keys: str, action: str, words: str, ident: str, tooltip: str, show: bool = True) -> Binding:
     return Binding(keys, action, words, show=show, id=f"chain.{ident}", tooltip=tooltip)
 
 
 class ChainScreen(Screen):
+    if TYPE_CHECKING:  # Textual's way to type `self.app` (textual.getters.app); nothing at run time
+        app = getters.app(RailroomApp)
+
     BINDINGS = [
         key("e", "edit_stage", "edit", "edit", "Edit the highlighted stage's values and part (enter too)"),
         key("s", "edit_source", "source", "source", "Edit the source: levels, amplitude, band"),
@@ -203,9 +225,7 @@ class ChainScreen(Screen):
 
         def apply(field_key: str, text: str, judged) -> None:
             shape = next(f.shape for f in fields if f.key == field_key)
-            self.app.type_edit(
-                (form_id, field_key), change(field_key, editing.toml_value(text, shape)), judged
-            )
+            self.app.type_edit((form_id, field_key), change(field_key, toml_value(text, shape)), judged)
 
         self.close_form()
         self.add_class("editing")
@@ -217,7 +237,7 @@ class ChainScreen(Screen):
         index = self.highlighted()
         stage = self.session.chain.stages[index - 1]
         text = self.session.text
-        shapes = editing.stage_shapes(stage.block)
+        shapes = stage_shapes(stage.block)
         if BLOCKS[stage.block].uses_part:
             shapes = {
                 "name": shapes.pop("name"),
@@ -228,26 +248,26 @@ class ChainScreen(Screen):
             }
         if len(self.session.chain.rails) > 1:
             shapes["rails"] = FieldShape("text", "choice", tuple(self.session.chain.rails), "which supply")
-        shown = editing.stage_fields(text, index, shapes)
+        shown = stage_fields(text, index, shapes)
         fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
         self._form(
             f"stage {index}: {stage.name} ({stage.block})",
             f"stage.{index}",
             fields,
-            lambda k, v: lambda t: editing.set_stage_field(t, index, k, v),
+            lambda k, v: lambda t: set_stage_field(t, index, k, v),
             focus,
         )
 
     def _section_form(self, section: str, focus: str | None = None) -> None:
-        shapes = editing.SECTIONS[section]
+        shapes = FORM_SECTIONS[section]
         text = self.session.text
-        shown = editing.section_fields(text, section, shapes)
+        shown = section_fields(text, section, shapes)
         fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
         self._form(
             f"[{section}]",
             section,
             fields,
-            lambda k, v: lambda t: editing.set_section_field(t, section, k, v),
+            lambda k, v: lambda t: set_section_field(t, section, k, v),
             focus,
         )
 
@@ -260,7 +280,7 @@ class ChainScreen(Screen):
     def action_choose_method(self) -> None:
         def chosen(method: str | None) -> None:
             if method is not None:
-                self.app.apply_edit(lambda t: editing.set_section_field(t, "conditions", "method", method))
+                self.app.apply_edit(lambda t: set_section_field(t, "conditions", "method", method))
 
         current = self.session.chain.conditions.method
         self.app.push_screen(ChoiceScreen("Method", [(m, m) for m in METHODS], current), chosen)
@@ -274,8 +294,8 @@ class ChainScreen(Screen):
                 return
             parts = self.session.part_ids
             part = near.part if near.part else (parts[0] if parts else None)
-            fields = editing.starter_stage(block, f"new {block}", part, self._rails_near(after))
-            problem = self.app.apply_edit(lambda t: editing.add_stage(t, after + 1, fields))
+            fields = starter_stage(block, f"new {block}", part, self._rails_near(after))
+            problem = self.app.apply_edit(lambda t: add_stage(t, after + 1, fields))
             if problem is None:
                 self._structure_changed(after + 1)
                 self.action_edit_stage()
@@ -305,9 +325,9 @@ class ChainScreen(Screen):
             self.notify("a chain keeps at least one stage", severity="warning")
             return
 
-        def answered(answer: str) -> None:
+        def answered(answer: str | None) -> None:
             if answer == "remove":
-                if self.app.apply_edit(lambda t: editing.remove_stage(t, index)) is None:
+                if self.app.apply_edit(lambda t: remove_stage(t, index)) is None:
                     self._structure_changed(index)
 
         name = self.session.chain.stages[index - 1].name
@@ -320,7 +340,7 @@ class ChainScreen(Screen):
         index = self.highlighted()
         target = index + offset
         if 1 <= target <= len(self.session.chain.stages):
-            if self.app.apply_edit(lambda t: editing.move_stage(t, index, offset)) is None:
+            if self.app.apply_edit(lambda t: move_stage(t, index, offset)) is None:
                 self._structure_changed(target)
 
     def _structure_changed(self, highlight: int) -> None:

@@ -10,11 +10,19 @@ from rich.text import Text
 from textual.containers import VerticalScroll
 from textual.widgets import Static
 
-from railroom.engine.circuit.blocks import BLOCKS
-from railroom.engine.verdict.judge import GAIN_ERROR_CAUTION
-from railroom.engine.circuit.model import Chain, Part
-from railroom.engine.verdict.results import CHECKS, OpAmpMeasure, StageResult
-from railroom.engine.formats.values import Quantity, format_si, format_span
+from railroom.engine import (
+    BLOCKS,
+    CHECKS,
+    GAIN_ERROR_CAUTION,
+    Chain,
+    Part,
+    Quantity,
+    StageResult,
+    check_unit,
+    format_si,
+    format_span,
+)
+from railroom.engine import needed_and_limit as engine_needed_and_limit
 
 UNITS = {
     "resistance": "Ω",
@@ -24,7 +32,6 @@ UNITS = {
     "frequency": "Hz",
     "slew": "V/s",
 }
-CHECK_UNITS = {"slew": "V/s", "current": "A"}
 
 
 def volts(value: float, unit: str = "V") -> str:
@@ -35,38 +42,16 @@ def span_words(span: tuple[float, float], unit: str = "V") -> str:
     return format_span(span[0], span[1], unit)
 
 
+def figure_words(value: float | tuple[float, float] | None, unit: str) -> str:
+    if value is None:
+        return "-"
+    return span_words(value, unit) if isinstance(value, tuple) else volts(value, unit)
+
+
 def needed_and_limit(stage: StageResult, check: str, part: Part | None, chain: Chain) -> tuple[str, str]:
     """What the stage asks of the part and what the part gives, as the engine measured them."""
-    m = stage.measure
-    label = stage.failing_nodes.get(check)
-    amp: OpAmpMeasure | None = next(
-        (a for a in m.opamps if a.label == label), m.opamps[0] if m.opamps else None
-    )
-    if check == "supply":
-        rails = chain.rails_for(m.stage)
-        allowed = span_words(part.supply) if part else "-"
-        return span_words(m.supply or rails.span_range), allowed
-    if check == "input-differential":  # engine/circuit/part_limits.py: largest |V+ - V-|
-        return (
-            volts(m.input_differential) if m.input_differential is not None else "-",
-            volts(part.input_differential_max) if part else "-",
-        )
-    if amp is None:  # a converter input: its input-high/low are the signal against its window
-        window = m.window or (float("nan"), float("nan"))
-        side = 1 if check.endswith("high") else 0
-        return volts(m.output[side]), volts(window[side])
-    side = 1 if check.endswith("high") else 0
-    pairs = {"output": (amp.output, amp.window), "input": (amp.input, amp.input_window)}
-    if check in ("slew", "current"):
-        unit = CHECK_UNITS[check]
-        needed, limit = (
-            (amp.slew_needed, amp.slew_available)
-            if check == "slew"
-            else (amp.current_needed, amp.current_available)
-        )
-        return volts(needed, unit), volts(limit, unit)
-    reached, allowed = pairs[check.split("-")[0]]
-    return volts(reached[side]), volts(allowed[side])
+    needed, limit = engine_needed_and_limit(stage, check, part, chain)
+    return figure_words(needed, check_unit(check)), figure_words(limit, check_unit(check))
 
 
 def checks_table(stage: StageResult, part: Part | None, chain: Chain) -> Table:
@@ -84,7 +69,7 @@ def checks_table(stage: StageResult, part: Part | None, chain: Chain) -> Table:
         verdict = Text("FAIL" if failing else "ok", style="bold red" if failing else "green")
         if where:
             verdict.append(f" at {where}")
-        table.add_row(check, needed, limit, volts(margin, CHECK_UNITS.get(check, "V")), verdict)
+        table.add_row(check, needed, limit, volts(margin, check_unit(check)), verdict)
     error = stage.measure.gain_error
     if error is not None:
         table.add_row(
@@ -112,7 +97,7 @@ def components(stage: StageResult) -> Text:
     kinds = {key: spec.kind for key, spec in BLOCKS[s.block].fields.items()}
     if s.load is not None:
         text.append(f"load {quantity_words(s.load, 'resistance')}   ")
-    if getattr(s, "load_capacitance", None) is not None:
+    if s.load_capacitance is not None:
         text.append(f"load_capacitance {quantity_words(s.load_capacitance, 'capacitance')}   ")
     for key, value in s.values.items():
         if isinstance(value, Quantity):

@@ -20,7 +20,7 @@ from textual.containers import Horizontal, VerticalScroll
 from textual.message import Message
 from textual.widgets import Input, Label, Select
 
-from railroom.engine.formats.chain_editing import FieldShape, value_problem
+from railroom.engine import FieldShape, value_problem
 
 # Control characters (a pasted escape sequence) would restyle the terminal if echoed: the field
 # shows them as the Unicode control pictures (U+2400 block) and the value is refused.
@@ -93,6 +93,8 @@ class FormField:
 class FieldForm(VerticalScroll):
     """Tab and shift+tab go round the fields; Esc closes the form (accepted changes are already
     in) and posts `Closed`, so the screen puts the detail panel back."""
+
+    remove_field: Callable[[str], str | None]  # set by the screen: takes an emptied field out of the file
 
     BINDINGS = [
         Binding(
@@ -200,17 +202,18 @@ class FieldForm(VerticalScroll):
         if shown != event.value:
             event.input.value = shown  # posts another Changed, judged as refused below
             return
-        self._judge(event.input.id.removeprefix("field-"), event.value)
+        self._judge((event.input.id or "").removeprefix("field-"), event.value)
 
     def on_select_changed(self, event: Select.Changed) -> None:
         event.stop()
         if event.value is not Select.NULL:
-            self._judge(event.select.id.removeprefix("field-"), str(event.value))
+            self._judge((event.select.id or "").removeprefix("field-"), str(event.value))
 
     def _judge(self, key: str, text: str) -> None:
         field = self.fields[key]
         if text == field.text and key not in self.drafts:
             return
+        problem: str | None
         if any(0x2400 <= ord(c) <= 0x2421 for c in text):
             problem = CONTROL_PROBLEM
         else:

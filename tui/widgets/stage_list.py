@@ -6,11 +6,10 @@ from rich.text import Text
 from textual.binding import Binding
 from textual.widgets import DataTable
 
-from railroom.engine.verdict.results import ChainResult, StageResult
-from railroom.engine.formats.values import format_si
+from railroom.engine import ChainResult, StageResult
+from railroom.engine import margin_words as check_margin_words
 from railroom.tui.bars import SHORT_LEGEND, stage_bar
 
-MARGIN_UNITS = {"slew": "V/s", "current": "A"}
 REGIME_STYLES = {"linear": "green", "clipping": "bold red", "saturated": "cyan"}
 BAR_LIMITS = (12, 48)
 
@@ -22,7 +21,7 @@ def margin_words(stage: StageResult) -> Text:
         return Text("-")
     value = stage.margins[check]
     style = "" if value >= 0 else "bold red"
-    return Text(f"{check} {format_si(value, MARGIN_UNITS.get(check, 'V'))}", style=style)
+    return Text(check_margin_words(check, value), style=style)
 
 
 def regime_words(stage: StageResult) -> Text:
@@ -121,6 +120,8 @@ class StageList(DataTable):
 
     def _fill(self, rebuild: bool) -> None:
         result = self._result
+        if result is None:
+            return
         row = self.cursor_row
         cells = [
             {
@@ -159,6 +160,7 @@ class StageList(DataTable):
         self, stage: StageResult, row_cells: dict[str, Text], widths: dict[str, int]
     ) -> list[Text]:
         # the op amp inside the stage with the least room, with its input's range
+        assert self._result is not None  # rows are made only from a result
         bar = stage_bar(self._result.chain, stage, width=widths["rail span"])
         return [
             clipped(row_cells[label], width) for label, width in widths.items() if label != "rail span"

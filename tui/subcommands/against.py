@@ -11,17 +11,21 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from railroom.engine.analysis import analyse
-from railroom.engine.reports.compare import change_rows, compare_results, load_against, verdict_line
-from railroom.engine.circuit.model import InputError
-from railroom.engine.verdict.results import ChainResult
+from railroom.engine import (
+    ChainResult,
+    InputError,
+    analyse,
+    change_rows,
+    compare_results,
+    load_against,
+    verdict_line,
+)
+from railroom.tui.subcommands.common import CheckRefused
 
 
 def old_result(spec: str, args, margin: float | None) -> ChainResult:
     """The old version's result, with the same command-line overrides as NEW; CheckRefused
     (located lines naming `spec`) when it cannot be read or checked."""
-    from railroom.tui.check_command import CheckRefused
-
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)

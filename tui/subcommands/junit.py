@@ -8,18 +8,15 @@ from __future__ import annotations
 
 import sys
 
-from railroom.engine.formats.atomic import write_atomic
-from railroom.engine.reports.junit import SuiteInput, junit_xml
-from railroom.engine.reports.json_report import chain_report
-from railroom.engine.formats.values import visible
-from railroom.tui.cli import EXIT_INPUT
+from railroom.engine import SuiteInput, chain_report, junit_xml, visible, write_atomic
+from railroom.tui.subcommands.exit_codes import GO, INPUT_ERROR
 
 
 def write_junit(path: str, entries: list[SuiteInput]) -> bool:
     """Write the report; False (and a message on stderr) when the file cannot be written."""
     from pathlib import Path
 
-    from railroom.engine.reports.picture import usual_mode
+    from railroom.engine import usual_mode
 
     existed = Path(path).exists()
     try:
@@ -45,7 +42,7 @@ def required_margin(path: str, margin: float | None) -> float | None:
     """The margin a batch worker checked with: the command line's, else the file's."""
     if margin is not None:
         return margin
-    from railroom.engine.formats.chain_file import load_chain
+    from railroom.engine import load_chain
 
     try:
         return load_chain(path).conditions.margin
@@ -56,14 +53,14 @@ def required_margin(path: str, margin: float | None) -> float | None:
 def run_batch_junit(args, margin: float | None) -> int:
     """run_batch with the JSON reports kept for the JUnit file (summary or --json output);
     the suites' time is 0 (the files are checked in parallel)."""
-    from railroom.tui.batch_command import EXIT_GO, Options, chain_paths, check_all, print_outcomes
+    from railroom.tui.subcommands.batch import Options, chain_paths, check_all, print_outcomes
 
     if getattr(args, "markdown", False):
         print(
             "railroom: --junit with several chains takes the summary or --json output, not --markdown",
             file=sys.stderr,
         )
-        return EXIT_INPUT
+        return INPUT_ERROR
     paths, missing = chain_paths(args.chain)
     options = Options(tuple(args.presets), args.method, args.samples, args.seed, margin, "json")
     outcomes = check_all(paths, options) if paths else []
@@ -78,5 +75,5 @@ def run_batch_junit(args, margin: float | None) -> int:
     ]
     entries += [refused_entry(line.split(":")[0], [line]) for line in missing]
     written = write_junit(args.junit, entries)
-    worst = max([o.status for o in outcomes] + [EXIT_INPUT if missing else EXIT_GO])
-    return worst if written else max(worst, EXIT_INPUT)
+    worst = max([o.status for o in outcomes] + [INPUT_ERROR if missing else GO])
+    return worst if written else max(worst, INPUT_ERROR)

@@ -7,12 +7,12 @@ import statistics
 import subprocess
 import sys
 import time
-from importlib import resources
 
 from rich.console import Console
 from rich.table import Table
 
-from railroom.tui.cli import EXIT_GO, print_json
+from railroom.tui.subcommands.common import print_json
+from railroom.tui.subcommands.exit_codes import GO
 
 CHECK_RUNS = 3
 TARGETS = {
@@ -36,7 +36,9 @@ TARGETS = {
 
 def check_process_seconds(runs: int = CHECK_RUNS) -> float:
     """Median wall time of a `railroom check` process on the built-in demo chain."""
-    demo = resources.files("railroom.engine.demos") / "pump_vibration.toml"
+    from railroom.engine import demo_file
+
+    demo = demo_file("pump_vibration")
     command = [sys.executable, "-m", "railroom.tui.cli", "check", str(demo)]
     times = []
     for _ in range(runs):
@@ -66,7 +68,7 @@ def measured(call, digits: int) -> float | None:
 
 
 def bench_figures(**engine_options) -> dict:
-    from railroom.engine.benchmark.figures import run
+    from railroom.engine import bench_figures as run
 
     figures = run(**engine_options)
     figures["check_process_s"] = check_process_seconds()
@@ -78,11 +80,11 @@ def run_bench(args) -> int:
     figures = bench_figures()
     if args.json:
         print_json(figures)
-        return EXIT_GO
+        return GO
     table = Table(box=None, pad_edge=False, show_edge=False)
     for column in ("figure", "value", "target"):
         table.add_column(column)
     for key, value in figures.items():
         table.add_row(key, "-" if value is None else str(value), TARGETS.get(key, ""))
     Console(highlight=False).print(table)
-    return EXIT_GO
+    return GO

@@ -4,31 +4,23 @@ from __future__ import annotations
 
 import sys
 import time
-import warnings
 from pathlib import Path
 
 from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from railroom.engine.analysis import analyse
-from railroom.engine.formats.loading import load_checked
-from railroom.engine.circuit.model import InputError
-from railroom.engine.reports.json_report import chain_report
-from railroom.engine.verdict.results import ChainResult, StageResult
-from railroom.engine.formats.values import ValueTextError, escaped, format_si, parse_value, visible
+from railroom.engine import ChainResult, StageResult, chain_report, escaped
 from railroom.tui.bars import FAILS_GO, LEGEND, MARKS, legend, stage_bar as drawn_bar
-from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO, json_text
-
-UNITS = {"slew": "V/s", "current": "A"}
-
-
-class CheckRefused(Exception):
-    """The check cannot give a verdict; `lines` say why, each ready for stderr."""
-
-    def __init__(self, lines: list[str]) -> None:
-        self.lines = lines
-        super().__init__("\n".join(lines))
+from railroom.tui.subcommands.common import (
+    CheckRefused,
+    check_file,
+    command_line_numbers,
+    json_text,
+    margin_text,
+    report_refusal,
+)
+from railroom.tui.subcommands.exit_codes import GO, INPUT_ERROR, NO_GO
 
 
 def run_check(args) -> int:
@@ -36,8 +28,8 @@ def run_check(args) -> int:
         margin = command_line_numbers(args)
     except CheckRefused as err:
         report_refusal(err)
-        return EXIT_INPUT
-    against = getattr(args, "against", None)
+        return INPUT_ERROR
+    against: str | None = getattr(args, "against", None)
     if getattr(args, "plots", None) and (
         not getattr(args, "markdown", False)
         or args.json
@@ -45,18 +37,18 @@ def run_check(args) -> int:
         or Path(args.chain[0]).is_dir()
     ):
         report_refusal(CheckRefused(["--plots DIR goes with --markdown, for one chain file"]))
-        return EXIT_INPUT
+        return INPUT_ERROR
     if len(args.chain) > 1 or Path(args.chain[0]).is_dir():
         if against:
             report_refusal(
                 CheckRefused(["--against compares one chain file with its old version; give a single CHAIN"])
             )
-            return EXIT_INPUT
+            return INPUT_ERROR
         if getattr(args, "junit", None):
-            from railroom.tui.junit_command import run_batch_junit
+            from railroom.tui.subcommands.junit import run_batch_junit
 
             return run_batch_junit(args, margin)
-        from railroom.tui.batch_command import run_batch
+        from railroom.tui.subcommands.batch import run_batch
 
         return run_batch(args, margin)
     started = time.perf_counter()
@@ -64,26 +56,26 @@ def run_check(args) -> int:
         result = check_file(args.chain[0], args, margin)
         old = None
         if against:
-            from railroom.tui.against_command import old_result
+            from railroom.tui.subcommands.against import old_result
 
             old = old_result(against, args, margin)
         if args.json:
             report = chain_report(result)
             if old is not None:
-                from railroom.engine.reports.compare import against_report
+                from railroom.engine import against_report
 
-                report["against"] = against_report(old, result, against)
+                report["against"] = against_report(old, result, against or "")
             output = json_text(report)
         elif getattr(args, "markdown", False):
-            from railroom.engine.reports.markdown import markdown_report
+            from railroom.engine import markdown_report
 
             output = markdown_report(result)
             if old is not None:
-                from railroom.engine.reports.compare import against_markdown
+                from railroom.engine import against_markdown
 
-                output += "\n" + against_markdown(old, result, against) + "\n"
+                output += "\n" + against_markdown(old, result, against or "") + "\n"
             if getattr(args, "plots", None):
-                from railroom.tui.plot_command import markdown_with_picture
+                from railroom.tui.subcommands.plot import markdown_with_picture
 
                 output = markdown_with_picture(output, args.chain[0], args, result)
         else:
@@ -91,15 +83,15 @@ def run_check(args) -> int:
     except CheckRefused as err:
         report_refusal(err)
         if getattr(args, "junit", None):
-            from railroom.tui.junit_command import refused_entry, write_junit
+            from railroom.tui.subcommands.junit import refused_entry, write_junit
 
             write_junit(args.junit, [refused_entry(args.chain[0], err.lines)])
-        return EXIT_INPUT
+        return INPUT_ERROR
     if getattr(args, "junit", None):
-        from railroom.tui.junit_command import result_entry, write_junit
+        from railroom.tui.subcommands.junit import result_entry, write_junit
 
         if not write_junit(args.junit, [result_entry(args.chain[0], result, time.perf_counter() - started)]):
-            return EXIT_INPUT
+            return INPUT_ERROR
     if output is not None:
         sys.stdout.write(output)
     else:
@@ -107,86 +99,15 @@ def run_check(args) -> int:
         console = Console(no_color=not colour, highlight=False, soft_wrap=False)
         print_result(console, result, colour)
         if old is not None:
-            from railroom.tui.against_command import print_against
+            from railroom.tui.subcommands.against import print_against
 
-            print_against(console, old, result, against, colour)
-    return EXIT_GO if result.go else EXIT_NO_GO
-
-
-def command_line_numbers(args) -> float | None:
-    """--margin, --samples and --seed within the ranges a chain file allows (the README's File formats)."""
-    problems = []
-    for option, value, low, high in (
-        ("--samples", args.samples, 1, 10_000_000),
-        ("--seed", args.seed, 0, 2**32 - 1),
-    ):
-        if value is not None and not low <= value <= high:
-            problems.append(f"{option}: expected a whole number from {low} to {high}, got {value}")
-    limit = getattr(args, "time_limit", None)
-    if limit is not None and not limit >= 0:
-        problems.append(f"--time-limit: expected 0 s (no limit) or more, got {limit:g}")
-    margin = None
-    if args.margin is not None:
-        try:
-            margin = parse_value(args.margin, "voltage")
-            if margin < 0:
-                problems.append(f"--margin: expected 0 V or more, got {args.margin}")
-        except ValueTextError as err:
-            problems.append(f"--margin: {err}")
-    if problems:
-        raise CheckRefused(problems)
-    return margin
-
-
-def check_file(path: str, args, margin: float | None) -> ChainResult:
-    """Load and analyse one chain; every way it can fail becomes CheckRefused, never a traceback."""
-    try:
-        with warnings.catch_warnings():
-            # Overflow inside the arithmetic is judged by the checks; a warning line helps no one.
-            warnings.simplefilter("ignore", RuntimeWarning)
-            chain, library = load_checked(path, tuple(args.presets), strict=True)
-            return analyse(
-                chain, library.parts, method=args.method, samples=args.samples, seed=args.seed, margin=margin
-            )
-    except InputError as err:
-        raise CheckRefused([str(p) for p in err.problems]) from None
-    except NotImplementedError as err:
-        raise CheckRefused([f"{path}: {err}"]) from None
-    except Exception as err:  # noqa: BLE001 - the guard: an engine failure is one clear message
-        raise CheckRefused(
-            [
-                f"{path}: the check could not finish ({type(err).__name__}: {err}); "
-                "this is a railroom bug, please report it with the chain file"
-            ]
-        ) from None
-
-
-MAX_PROBLEM_LINES = 200
-
-
-def capped(lines: list[str], limit: int = MAX_PROBLEM_LINES) -> list[str]:
-    """The first `limit` lines, then one that counts the rest."""
-    if len(lines) <= limit:
-        return list(lines)
-    return [*lines[:limit], f"and {len(lines) - limit:,} more problems (fix these first)"]
-
-
-def report_refusal(err: CheckRefused) -> None:
-    for line in capped(err.lines):
-        print(f"railroom: {visible(line, 2000)}", file=sys.stderr)
+            print_against(console, old, result, against or "", colour)
+    return GO if result.go else NO_GO
 
 
 def shown(text: str) -> str:
     """User text for the terminal, whole: what `visible` escapes shown as escapes."""
     return escaped(text)
-
-
-def margin_text(result: StageResult) -> str:
-    check = result.limiting
-    if check is None:
-        return "-"
-    value = result.margins[check]
-    return f"{check} {format_si(value, UNITS.get(check, 'V'))}"
 
 
 def print_result(console: Console, result: ChainResult, colour: bool = True) -> None:
@@ -226,7 +147,7 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
     )
     bar_width = 24 if wide else max(12, min(24, console.width - used))
     for stage in result.stages:
-        cells = [str(stage.index), Text(shown(stage.stage.name))]
+        cells: list[str | Text] = [str(stage.index), Text(shown(stage.stage.name))]
         if wide:
             cells += [stage.stage.block, Text(shown(stage.stage.part or "-"))]
         cells += [regime_text(stage, colour), margin_text(stage), stage_bar(result, stage, colour, bar_width)]
@@ -242,7 +163,7 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
             "before a stage leaves its linear regime"
         )
     if result.chain_yield is not None:
-        from railroom.engine.methods.rare import yield_words
+        from railroom.engine import yield_words
 
         console.print(
             yield_words(result.chain_yield, result.samples or 0, result.rare), markup=False, highlight=False

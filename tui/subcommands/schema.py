@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
-from railroom.engine.formats.schema import SCHEMAS
-from railroom.tui.cli import EXIT_GO, print_json
+from railroom.engine import SCHEMAS
+from railroom.tui.subcommands.common import print_json
+from railroom.tui.subcommands.exit_codes import GO
 
 
 def run_schema(args) -> int:
     print_json(SCHEMAS[args.kind]())
-    return EXIT_GO
+    return GO

@@ -4,8 +4,9 @@ from __future__ import annotations
 
 import sys
 
-from railroom.engine.reports.block_help import block_names, describe
-from railroom.tui.cli import EXIT_GO, EXIT_INPUT, print_json
+from railroom.engine import block_names, describe_block as describe
+from railroom.tui.subcommands.common import print_json
+from railroom.tui.subcommands.exit_codes import GO, INPUT_ERROR
 
 
 def run_blocks(args) -> int:
@@ -13,20 +14,20 @@ def run_blocks(args) -> int:
         rows = block_names()
         if args.json:
             print_json({"blocks": [{"name": n, "summary": s} for n, s in rows]})
-            return EXIT_GO
+            return GO
         width = max(len(n) for n, _ in rows)
         for name, summary in rows:
             print(f"{name:<{width}}  {summary}")
         print("\n`railroom blocks NAME` shows a block's fields, what each connects and its formulas.")
-        return EXIT_GO
+        return GO
     info = describe(args.name)
     if info is None:
         known = ", ".join(n for n, _ in block_names())
         print(f"railroom: unknown block {args.name!r}; the blocks are: {known}", file=sys.stderr)
-        return EXIT_INPUT
+        return INPUT_ERROR
     if args.json:
         print_json(info)
-        return EXIT_GO
+        return GO
     print(f"{info['name']}: {info['summary']}")
     traits = ["needs a part preset" if info["uses_part"] else "passive (no part)"]
     if info["saturates"]:
@@ -48,4 +49,4 @@ def run_blocks(args) -> int:
         print("\nideal op amp (railroom itself uses the part's finite gain, bandwidth and errors):")
         for line in info["ideal"]:
             print(f"  {line}")
-    return EXIT_GO
+    return GO

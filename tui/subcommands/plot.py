@@ -9,8 +9,9 @@ from __future__ import annotations
 import warnings
 from pathlib import Path
 
-from railroom.engine.formats.values import visible
-from railroom.tui.cli import EXIT_GO, EXIT_INPUT
+from railroom.engine import visible
+from railroom.tui.subcommands.common import CheckRefused, report_refusal
+from railroom.tui.subcommands.exit_codes import GO, INPUT_ERROR
 
 
 def picture_path(chain: str, output: str | None) -> Path:
@@ -20,11 +21,8 @@ def picture_path(chain: str, output: str | None) -> Path:
 def draw(path: str, presets: tuple[str, ...], target: Path, result=None) -> Path:
     """Load (and, without `result`, analyse) the chain, then write its picture; CheckRefused
     with located lines when it cannot."""
-    from railroom.engine.analysis import analyse
-    from railroom.engine.formats.loading import load_checked
-    from railroom.engine.circuit.model import InputError
-    from railroom.engine.reports.picture import SUFFIXES, write_picture
-    from railroom.tui.check_command import CheckRefused
+    from railroom.engine import PICTURE_SUFFIXES as SUFFIXES
+    from railroom.engine import InputError, analyse, load_checked, write_picture
 
     if target.suffix.lower() not in SUFFIXES:
         raise CheckRefused(
@@ -47,16 +45,15 @@ def draw(path: str, presets: tuple[str, ...], target: Path, result=None) -> Path
 
 
 def run_plot(args) -> int:
-    from railroom.tui.check_command import CheckRefused, report_refusal
 
     target = picture_path(args.chain, args.output)
     try:
         written = draw(args.chain, tuple(args.presets), target)
     except CheckRefused as err:
         report_refusal(err)
-        return EXIT_INPUT
+        return INPUT_ERROR
     print(f"picture written: {visible(str(written), 500)}")
-    return EXIT_GO
+    return GO
 
 
 def markdown_with_picture(markdown: str, path: str, args, result) -> str:
@@ -65,10 +62,8 @@ def markdown_with_picture(markdown: str, path: str, args, result) -> str:
     try:
         folder.mkdir(parents=True, exist_ok=True)
     except OSError as err:
-        from railroom.tui.check_command import CheckRefused
-
         raise CheckRefused([f"--plots {args.plots}: cannot be made: {err.strerror or err}"]) from None
     written = draw(path, tuple(args.presets), folder / (Path(path).stem + ".svg"), result)
-    from railroom.engine.reports.picture import embed_in_markdown
+    from railroom.engine import embed_in_markdown
 
     return embed_in_markdown(markdown, str(written), result.chain.title)

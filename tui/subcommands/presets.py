@@ -10,24 +10,27 @@ import difflib
 import sys
 from pathlib import Path
 
-from railroom.engine.circuit.model import Part
-from railroom.engine.circuit.part_limits import LIMIT_FIELDS
-from railroom.engine.formats.presets import (
+from railroom.engine import (
+    LIMIT_FIELDS,
     PAIR_SIDES,
     PART_FIELDS,
-    UNITS,
+    PART_UNITS as UNITS,
     Library,
+    Part,
+    escaped,
+    format_si,
     load_library,
     missing_folders,
     read_preset_file,
     search_order,
     shipped_folder,
     user_folder,
+    visible,
 )
-from railroom.engine.formats.values import escaped, format_si, visible
-from railroom.tui.cli import EXIT_GO, EXIT_INPUT
-
-MAX_PROBLEM_LINES = 200  # as `railroom check`: the first lines, then a count
+from railroom.tui.subcommands.common import (
+    MAX_PROBLEM_LINES,
+)  # as `railroom check`: the first lines, then a count
+from railroom.tui.subcommands.exit_codes import GO, INPUT_ERROR
 
 
 def say(text: str = "", file=None) -> None:
@@ -48,7 +51,7 @@ def run_presets(args) -> int:
     else:
         status = list_parts(library)
     report_problems(missing, "preset folder(s) given with --presets not found")
-    return EXIT_INPUT if missing or library.fatal else status
+    return INPUT_ERROR if missing or library.fatal else status
 
 
 def folder_label(folder: Path) -> str:
@@ -87,7 +90,7 @@ def list_parts(library: Library) -> int:
             file=sys.stderr,
         )
     report_problems(library.problems, "problem(s) in preset files (the good presets are listed)")
-    return EXIT_GO
+    return GO
 
 
 def report_problems(problems, heading: str) -> None:
@@ -111,7 +114,7 @@ def show_part(library: Library, part_id: str | None) -> int:
             ),
             file=sys.stderr,
         )
-        return EXIT_INPUT
+        return INPUT_ERROR
     if part is None:
         hint = difflib.get_close_matches(part_id or "", list(library.parts), n=3)
         say(
@@ -119,13 +122,13 @@ def show_part(library: Library, part_id: str | None) -> int:
             + (f"; did you mean {', '.join(hint)}?" if hint else "; `railroom presets list` shows them all"),
             file=sys.stderr,
         )
-        return EXIT_INPUT
+        return INPUT_ERROR
     say(f"[part.{part.id}]  from {part.origin}")
     for earlier in part.overrides:
         say(f"  overrides {earlier}")
     for line in part_lines(part):
         say(line)
-    return EXIT_GO
+    return GO
 
 
 def limit_text(key: str, value) -> str | None:
@@ -173,14 +176,14 @@ def part_lines(part: Part) -> list[str]:
 def check_file(target: str | None) -> int:
     if not target:
         say("railroom: presets check needs a FILE", file=sys.stderr)
-        return EXIT_INPUT
+        return INPUT_ERROR
     path = Path(target)
     if not path.exists():
         say(visible(f"railroom: {path}: no such file", 2000), file=sys.stderr)
-        return EXIT_INPUT
+        return INPUT_ERROR
     parts, problems = read_preset_file(path)
     if problems:
         report_problems(problems, f"problem(s) in {path}")
-        return EXIT_INPUT
+        return INPUT_ERROR
     say(f"{path}: {len(parts)} preset(s), no problems: " + ", ".join(p.id for p in parts))
-    return EXIT_GO
+    return GO

@@ -13,10 +13,12 @@ import stat
 import sys
 import time
 from dataclasses import dataclass
+from typing import Any
 from pathlib import Path
 
-from railroom.engine.formats.values import visible
-from railroom.tui.cli import EXIT_GO, EXIT_INPUT, EXIT_NO_GO, json_text
+from railroom.engine import check_unit, visible
+from railroom.tui.subcommands.common import CheckRefused, capped, check_file, json_text, margin_text
+from railroom.tui.subcommands.exit_codes import GO, INPUT_ERROR, NO_GO, stopped_by
 
 
 @dataclass(frozen=True)
@@ -35,14 +37,14 @@ class Options:
 @dataclass(frozen=True)
 class Outcome:
     path: str
-    status: int  # EXIT_GO, EXIT_NO_GO or EXIT_INPUT
+    status: int  # GO, NO_GO or INPUT_ERROR
     summary: str  # the one line after the verdict word
     problems: tuple[str, ...] = ()
     report: dict | None = None
     markdown: str = ""
 
 
-VERDICT_WORDS = {EXIT_GO: "GO", EXIT_NO_GO: "NO-GO", EXIT_INPUT: "ERROR"}
+VERDICT_WORDS = {GO: "GO", NO_GO: "NO-GO", INPUT_ERROR: "ERROR"}
 
 
 DEFAULT_TIME_LIMIT_S = 300.0
@@ -92,24 +94,22 @@ def _not_regular(path: Path) -> str | None:
 def check_one(path: str, options: Options) -> Outcome:
     """One chain, in a worker process: never raises (the check command's guard turns every
     failure into located lines)."""
-    from railroom.tui.check_command import CheckRefused, check_file, margin_text
-
     args = _Namespace(options)
     try:
         result = check_file(path, args, options.margin)
         report = markdown = None
         if options.output == "json":
-            from railroom.engine.reports.json_report import chain_report
+            from railroom.engine import chain_report
 
             report = chain_report(result)
         elif options.output == "markdown":
-            from railroom.engine.reports.markdown import markdown_report
+            from railroom.engine import markdown_report
 
             markdown = markdown_report(result)
     except CheckRefused as err:
         first = err.lines[0] if err.lines else "cannot be checked"
         more = f" (+{len(err.lines) - 1} more)" if len(err.lines) > 1 else ""
-        return Outcome(path, EXIT_INPUT, first + more, tuple(err.lines))
+        return Outcome(path, INPUT_ERROR, first + more, tuple(err.lines))
     stages = len(result.stages)
     if result.go:
         worst = min(result.stages, key=_volts_of_room, default=None)
@@ -125,7 +125,7 @@ def check_one(path: str, options: Options) -> Outcome:
         detail = f"{result.failing} of {stages} stages fail: " + "; ".join(failing)
     return Outcome(
         path,
-        EXIT_GO if result.go else EXIT_NO_GO,
+        GO if result.go else NO_GO,
         f"{path}  {result.chain.title}  ({detail})",
         report=report,
         markdown=markdown or "",
@@ -134,7 +134,7 @@ def check_one(path: str, options: Options) -> Outcome:
 
 def _volts_of_room(stage) -> float:
     """The limiting margin when it is in volts, to name the tightest stage of a GO chain."""
-    if stage.limiting is None or stage.limiting in ("slew", "current"):
+    if stage.limiting is None or check_unit(stage.limiting) != "V":
         return float("inf")
     return stage.margins[stage.limiting]
 
@@ -158,7 +158,7 @@ def check_all(paths: list[str], options: Options, workers: int | None = None) ->
     context = multiprocessing.get_context()
     outcomes: list[Outcome | None] = [None] * len(paths)
     waiting = list(range(len(paths)))
-    running: dict[int, tuple] = {}  # index -> (process, connection, started)
+    running: dict[int, tuple[Any, Any, float]] = {}  # index -> (process, connection, started)
     try:
         while waiting or running:
             while waiting and len(running) < workers:
@@ -204,7 +204,7 @@ def _collect(path: str, process, connection, started: float, options: Options) -
             return outcome
         return Outcome(
             path,
-            EXIT_INPUT,
+            INPUT_ERROR,
             f"{path}: the worker checking this file stopped unexpectedly",
             (f"{path}: worker stopped",),
         )
@@ -215,7 +215,7 @@ def _collect(path: str, process, connection, started: float, options: Options) -
         connection.close()
         return Outcome(
             path,
-            EXIT_INPUT,
+            INPUT_ERROR,
             f"{path}: not finished within the time limit of {limit:g} s per file; stopped",
             (f"{path}: not finished within the time limit of {limit:g} s per file (--time-limit); stopped",),
         )
@@ -279,14 +279,14 @@ def run_batch(args, margin: float | None) -> int:
     try:
         outcomes = check_all(paths, options) if paths else []
     except _Stopped as stop:
-        return 128 + stop.signum  # the shell's status for a process ended by a signal
+        return stopped_by(stop.signum)  # the shell's status for a process ended by a signal
     finally:
         for signum, handler in handlers.items():
             signal.signal(signum, handler)
     for line in missing:
         print(f"railroom: {visible(line, 2000)}", file=sys.stderr)
     print_outcomes(outcomes, output)
-    worst = max([o.status for o in outcomes] + [EXIT_INPUT if missing else EXIT_GO])
+    worst = max([o.status for o in outcomes] + [INPUT_ERROR if missing else GO])
     return worst
 
 
@@ -296,7 +296,7 @@ def print_outcomes(outcomes: list[Outcome], output: str) -> None:
             {
                 "file": o.path,
                 "exit": o.status,
-                "verdict": {EXIT_GO: "go", EXIT_NO_GO: "no-go"}.get(o.status, "unreadable"),
+                "verdict": {GO: "go", NO_GO: "no-go"}.get(o.status, "unreadable"),
                 "problems": list(o.problems),
                 "report": o.report,
             }
@@ -305,11 +305,9 @@ def print_outcomes(outcomes: list[Outcome], output: str) -> None:
         sys.stdout.write(json_text({"format": 1, "files": files}))
         return
     for o in outcomes:
-        if output == "markdown" and o.status != EXIT_INPUT:
+        if output == "markdown" and o.status != INPUT_ERROR:
             sys.stdout.write(o.markdown + "\n---\n\n")
             continue
         print(visible(f"{VERDICT_WORDS[o.status]:<6} {o.summary}", 2000))
-        from railroom.tui.check_command import capped
-
         for line in capped(list(o.problems)):
             print(f"railroom: {visible(line, 2000)}", file=sys.stderr)
