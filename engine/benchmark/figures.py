@@ -263,7 +263,7 @@ def per_draw_comparison(chain, rows: int, reference_draws: int, repeats: int) ->
     """(reference time / vectorised time for `rows` draws, same margins on the shared draws)."""
     plans = plan_chain(chain, PARTS)
     freqs = band_grid(chain, plans)
-    layout = montecarlo.layout_for(chain, plans, freqs, corners.run(corners.prepare(chain, plans, freqs)))
+    layout = montecarlo.layout_for(chain, plans, freqs, corners.walk(corners.prepare(chain, plans, freqs)))
     D, dT = next(montecarlo.chunks(layout, rows, chain.conditions.seed, chunk=rows))
     vector_s = median_seconds(lambda: dw.walk_draws(layout, D, dT), repeats)
     vector = dw.walk_draws(layout, D, dT)
