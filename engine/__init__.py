@@ -59,7 +59,7 @@ _EXPORTS = {
     "terminal_json": "formats.values",
     # editing a chain's text
     "FieldShape": "formats.chain_editing",
-    "FORM_SECTIONS": "editing:SECTIONS",
+    "FORM_SECTIONS": "formats.chain_editing:SECTIONS",
     "value_problem": "formats.chain_editing",
     "toml_value": "formats.chain_editing",
     "stage_shapes": "formats.chain_editing",
@@ -74,7 +74,7 @@ _EXPORTS = {
     # part presets
     "Library": "formats.presets",
     "PART_FIELDS": "formats.presets",
-    "PART_UNITS": "presets:UNITS",
+    "PART_UNITS": "formats.presets:UNITS",
     "PAIR_SIDES": "formats.presets",
     "load_library": "formats.presets",
     "missing_folders": "formats.presets",
@@ -107,8 +107,8 @@ _EXPORTS = {
     "junit_xml": "reports.junit",
     "SCHEMAS": "formats.schema",
     "block_names": "reports.block_help",
-    "describe_block": "block_help:describe",
-    "PICTURE_SUFFIXES": "picture:SUFFIXES",
+    "describe_block": "reports.block_help:describe",
+    "PICTURE_SUFFIXES": "reports.picture:SUFFIXES",
     "write_picture": "reports.picture",
     "embed_in_markdown": "reports.picture",
     "usual_mode": "reports.picture",
@@ -120,7 +120,7 @@ _EXPORTS = {
     "against_report": "reports.compare",
     "against_markdown": "reports.compare",
     # the bench
-    "bench_figures": "bench:run",
+    "bench_figures": "benchmark.figures:run",
 }
 
 if TYPE_CHECKING:  # the same names for the type checker (a test keeps the two in step)

@@ -127,12 +127,12 @@ def test_no_tui_module_is_in_an_import_cycle():
 def test_the_checks_see_a_submodule_import_and_a_circle(tmp_path):
     """The two checks above on a small tree that breaks both rules (they can fail)."""
     (tmp_path / "engine").mkdir()
-    (tmp_path / "engine" / "model.py").write_text("")
+    (tmp_path / "engine" / "kernel.py").write_text("")
     tui = tmp_path / "tui"
     (tui / "sub").mkdir(parents=True)
     (tui / "__init__.py").write_text("")
     (tui / "a.py").write_text("def f():\n    from railroom.tui.sub.b import g\n")
-    (tui / "sub" / "b.py").write_text("from railroom.tui import a\nfrom railroom.engine import model\n")
+    (tui / "sub" / "b.py").write_text("from railroom.tui import a\nfrom railroom.engine import kernel\n")
     (tui / "c.py").write_text(
         "from railroom.engine.circuit.model import Chain\nfrom railroom.engine import Chain\n"
     )
@@ -142,7 +142,7 @@ def test_the_checks_see_a_submodule_import_and_a_circle(tmp_path):
     (tui / "e.py").write_text("from railroom.tui import d\n")  # d needs e for its types only: no circle
     assert engine_submodule_imports(tmp_path) == [
         "railroom.tui.c:1 imports railroom.engine.circuit.model",
-        "railroom.tui.sub.b:2 imports the submodule railroom.engine.circuit.model",
+        "railroom.tui.sub.b:2 imports the submodule railroom.engine.kernel",
     ]
     assert import_cycles(tmp_path) == [["railroom.tui.a", "railroom.tui.sub.b"]]
 
