@@ -27,6 +27,8 @@ COMMON_HELP = {
     "rails": "which [rails.NAME] supplies the op amp (needed when a chain has more than one)",
     "load": "resistance from the output to 0 V, ohm (besides the next stage's input)",
     "load_capacitance": "capacitance from the output to 0 V, F: the loop's phase margin is estimated",
+    "load_to": "the voltage `load` returns to, V (default 0 V; linear stages)",
+    "from": 'the earlier stage (by name) or "source" this stage takes its input from (default: the one before)',
 }
 
 

@@ -98,6 +98,8 @@ COMMON = {
     "rails": text("rails table name; may be left out when there is one"),
     "load": value("resistance", "resistive load from the output to 0 V"),
     "load_capacitance": value("capacitance", "capacitive load from the output to 0 V (phase margin)"),
+    "load_to": value("voltage", "the voltage the load returns to (default 0 V)"),
+    "from": text('the earlier stage name, or "source", this stage takes its input from'),
 }
 
 
@@ -236,6 +238,7 @@ def report_schema() -> dict:
             "index",
             "name",
             "block",
+            "from",
             "part",
             "regime",
             "go",
@@ -252,6 +255,7 @@ def report_schema() -> dict:
             "index": {"type": "integer", "minimum": 1},
             "name": {"type": "string"},
             "block": {"enum": list(BLOCKS)},
+            "from": {"type": "string", "description": 'the stage it takes its input from, or "source"'},
             "part": {"type": ["string", "null"]},
             "regime": {"enum": ["linear", "clipping", "saturated"]},
             "go": {"type": "boolean"},

@@ -15,6 +15,7 @@ import numpy as np
 from railroom.engine.methods import judged
 from railroom.engine.methods.montecarlo import layout_for
 from railroom.engine.sensitivity import Linearised, linearise, spread_per_unit
+from railroom.engine.stage_walk import plan_parents
 
 SIGMAS = 3.0
 
@@ -43,8 +44,10 @@ def run(chain, plans, freqs, corner_stages, lin: Linearised | None = None):
     lin = lin or linearise(layout_for(chain, plans, freqs, corner_stages, band="full"))
     s = spread_per_unit(chain.conditions.distribution)
     results = []
-    clipped_before = False
+    clipping: list[bool] = []  # per stage: it clips, or a stage up its branch does
+    parents = plan_parents(plans)
     for k, (plan, corner) in enumerate(zip(plans, corner_stages)):
+        clipped_before = parents[k] >= 0 and clipping[parents[k]]
         draws = lin.draws[k]
         amps = []
         for amp in draws.amps:
@@ -58,6 +61,6 @@ def run(chain, plans, freqs, corner_stages, lin: Linearised | None = None):
         if plan.block.window_only:
             window = {c: quoted(lin, c, draws.margins[c], s) for c in ("input-high", "input-low")}
         result = judged(plan, corner, amps, out_span, window, chain.conditions.margin, clipped_before)
-        clipped_before = clipped_before or result.regime == "clipping"
+        clipping.append(clipped_before or result.regime == "clipping")
         results.append(result)
     return results
