@@ -25,7 +25,7 @@ COMMON_HELP = {
     "block": "which circuit the stage is (one of `railroom blocks`)",
     "part": "the op amp's part preset id (blocks with an op amp)",
     "rails": "which [rails.NAME] supplies the op amp (needed when a chain has more than one)",
-    "load": "resistance from the output to 0 V, ohm (besides the next stage's input)",
+    "load": "resistance from the output to 0 V (to load_to on a linear stage), ohm, besides what it feeds",
     "load_capacitance": "capacitance from the output to 0 V, F: the loop's phase margin is estimated",
     "load_to": "the voltage `load` returns to, V (default 0 V; linear stages)",
     "from": 'the earlier stage (by name) or "source" this stage takes its input from (default: the one before)',
@@ -52,7 +52,11 @@ def describe(name: str) -> dict | None:
     block: Block | None = BLOCKS.get(name)
     if block is None:
         return None
-    common = [f for f in COMMON_FIELDS if block.uses_part or f not in ("part", "rails")]
+    common = [
+        f
+        for f in COMMON_FIELDS
+        if (block.uses_part or f not in ("part", "rails")) and not (block.saturates and f == "load_to")
+    ]
     return {
         "name": name,
         "summary": block.summary,
