@@ -189,3 +189,49 @@ def test_the_per_draw_reference_agrees_on_a_tree(parts):
     assert bench.agree(vector, reference)
     # and the load_to value is a drawn quantity like any other
     assert layout.column(6, "load_to", "tolerance") is not None
+
+
+DIFFERENTIAL = """\
+format = 1
+[rails.main]
+positive = "15"
+negative = "-15"
+[source]
+kind = "differential"
+level = ["2", "3"]
+difference = ["-0.1", "0.1"]
+amplitude = "0.1"
+band = ["10", "10k"]
+[[stage]]
+name = "first"
+block = "difference"
+part = "generic-bipolar-15v"
+r1 = "10k"
+r2 = "100k"
+r3 = "10k"
+r4 = "100k"
+[[stage]]
+name = "second"
+block = "difference"
+part = "generic-bipolar-15v"
+from = "source"
+r1 = "10k"
+r2 = "100k"
+r3 = "10k"
+r4 = "100k"
+"""
+
+
+def test_every_stage_fed_by_a_differential_source_reads_both_sides(parts):
+    # two identical difference stages on the two sides of one source: the same output span
+    # and the same gain shortfall (Black's formula: G0 = 10 with noise gain 11 on a 1 MHz part)
+    result = analyse(chain_from_text(DIFFERENTIAL), parts, design_aids=False, headroom=False)
+    first, second = result.stages
+    assert second.measure.output == pytest.approx(first.measure.output, rel=1e-12)
+    assert second.measure.gain_error == pytest.approx(first.measure.gain_error, rel=1e-12)
+    assert first.measure.gain_error == pytest.approx(1 - 1 / abs(1 + 11j * 10e3 / 1e6), rel=0.02)
+    text = DIFFERENTIAL.replace(
+        'block = "difference"\npart = "generic-bipolar-15v"\nfrom',
+        'block = "follower"\npart = "generic-bipolar-15v"\nfrom',
+    )
+    assert any("stage.2.block" in p and "differential source" in p for p in problems(text))
