@@ -123,3 +123,18 @@ def test_a_new_name_is_followed_by_every_from_that_named_the_stage():
 
     renamed = editing.set_stage_field(TREE, 1, "name", "input buffer")
     assert [t.get("from") for t in tomllib.loads(renamed)["stage"]] == [None, None, "input buffer", "gain"]
+
+
+async def test_a_stage_others_take_from_is_not_removed_and_the_user_is_told(make_app, tmp_path):
+    path = tmp_path / "tree.toml"
+    path.write_text(TREE, encoding="utf-8")
+    app = make_app(path)
+    said = []
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.pause()
+        app.screen.notify = lambda message, **kw: said.append(message)  # type: ignore[method-assign]
+        await pilot.press("down", "x", "y")  # "gain": "after gain" takes from it by name
+        await pilot.pause()
+        assert [s.name for s in app.session.chain.stages] == ["buffer", "gain", "side", "after gain"]
+        assert said and "not removed" in said[-1] and "stage.3.from" in said[-1] and "'gain'" in said[-1]
+        assert app.session.text == TREE  # nothing lost

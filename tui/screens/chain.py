@@ -345,8 +345,11 @@ class ChainScreen(Screen):
 
         def answered(answer: str) -> None:
             if answer == "remove":
-                if self.app.apply_edit(lambda t: editing.remove_stage(t, index)) is None:
+                problem = self.app.apply_edit(lambda t: editing.remove_stage(t, index))
+                if problem is None:
                     self._structure_changed(index)
+                else:  # a stage after it takes its input from it by name (`from`), say
+                    self.notify(f"not removed: {problem}", title="remove", severity="error", markup=False)
 
         name = self.session.chain.stages[index - 1].name
         self.app.push_screen(
@@ -358,8 +361,11 @@ class ChainScreen(Screen):
         index = self.highlighted()
         target = index + offset
         if 1 <= target <= len(self.session.chain.stages):
-            if self.app.apply_edit(lambda t: editing.move_stage(t, index, offset)) is None:
+            problem = self.app.apply_edit(lambda t: editing.move_stage(t, index, offset))
+            if problem is None:
                 self._structure_changed(target)
+            else:  # before the stage it takes its input from (`from`), say
+                self.notify(f"not moved: {problem}", title="move", severity="error", markup=False)
 
     def _structure_changed(self, highlight: int) -> None:
         self.close_form()  # its fields name a stage by its place in the chain
