@@ -33,6 +33,7 @@ _EXPORTS = {
     "Part": "circuit.model",
     "InputError": "circuit.model",
     "Problem": "circuit.model",
+    "stage_parents": "circuit.model",
     # the results and the table of checks
     "ChainResult": "verdict.results",
     "StageResult": "verdict.results",
@@ -137,6 +138,7 @@ if TYPE_CHECKING:  # the same names for the type checker (a test keeps the two i
     from railroom.engine.circuit.model import Part as Part
     from railroom.engine.circuit.model import InputError as InputError
     from railroom.engine.circuit.model import Problem as Problem
+    from railroom.engine.circuit.model import stage_parents as stage_parents
     from railroom.engine.verdict.results import ChainResult as ChainResult
     from railroom.engine.verdict.results import StageResult as StageResult
     from railroom.engine.verdict.results import OpAmpMeasure as OpAmpMeasure

@@ -22,6 +22,7 @@ from railroom.engine.methods.montecarlo import layout_for
 from railroom.engine.verdict.results import VOLTAGE_CHECKS, Fix, StageResult, check_unit
 from railroom.engine.aids.sensitivity import direction, linearise, ranking
 from railroom.engine.formats.values import format_si
+from railroom.engine.walks.bounds_walk import plan_parents
 
 SERIES = ("E24", "E96")
 TIGHT = 2.0  # a GO stage is tight when its limiting voltage margin is under 2 x the required
@@ -76,9 +77,10 @@ def design_aids(
 class Evaluator:
     """Re-runs the chain's method with one stage value changed; remembers the unchanged verdicts.
 
-    Corners re-walks only what a change at stage k can move: stage k-1 (its load includes stage
-    k's input) and the stages after it up to the last one that was GO (only those can be broken),
-    fed the signal the unchanged walk had at stage k-1. The
+    Corners re-walks only what a change at stage k can move: the stage it takes its input from
+    (its load includes stage k's input) and the stages after it up to the last one that was GO
+    (only those can be broken), each fed the signal the unchanged walk had where its own parent
+    is not re-walked. The
     corner values and responses of the stages before k are reused. rss re-runs its own method on
     the whole chain (its sensitivities span the chain)."""
 
@@ -104,13 +106,15 @@ class Evaluator:
         if self._prepared is None:
             self._prepared = corners.prepare(self.chain, self.plans, self.freqs)
             self._unchanged = corners.walk(self._prepared, entering=self._entering)
-        first = max(changed - 1, 0)
+        parents = plan_parents(self.plans)
+        first = max(parents[changed], 0)  # the stage it takes from: its load includes this input
         # a passive stage shows (and hands on) what the stage after it loads it to, row by row
-        # with that stage's corners: start from the last stage before them that stands alone
+        # with that stage's corners: start from the last stage up its branch that stands alone
         while first > 0 and (self._prepared.joint[first] or not self.plans[first].block.uses_part):
-            first -= 1
+            first = max(parents[first], 0)
         prepared = corners.prepare(self.chain, plans, self.freqs, reuse=self._prepared, first=changed)
-        return [*self._unchanged[:first], *corners.run_from(prepared, first, self._entering[first], stop)]
+        # stages from `first` on that are not downstream of it are fed what the full walk had
+        return [*self._unchanged[:first], *corners.run_from(prepared, first, self._entering, stop)]
 
     def works(self, k: int, field: str, value: float) -> StageResult | None:
         """The changed stage's result when the change makes it GO and breaks no other stage."""

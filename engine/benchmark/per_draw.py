@@ -82,13 +82,16 @@ def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float):
     block = plan.block.name
     val = {k: float(x) for k, x in v.items()}
     extra = sorted({k.rsplit(".", 1)[0] for k in val if k.startswith("inputs.")})
-    nodes = ["src", "plus", "minus", "out", "ref"] + [f"{k}.v" for k in extra]
+    returns = ["load_to"] if "load_to" in val else []
+    nodes = ["src", "plus", "minus", "out", "ref"] + [f"{k}.v" for k in extra] + returns
     opamps = block in ("follower", "noninverting", "inverting", "summing")
-    c = Nodal(nodes, s, sources=2 + len(extra) + opamps)
+    c = Nodal(nodes, s, sources=2 + len(extra) + opamps + len(returns))
     c.source("src", 0, 1.0)
     c.source("ref", 1, val.get("ref", 0.0))
-    if "load" in val:
-        c.admittance("out", GROUND, 1.0 / val["load"])
+    for node in returns:
+        c.source(node, 1, val[node])
+    if "load" in val:  # to 0 V, or to `load_to` (an ideal source)
+        c.admittance("out", "load_to" if "load_to" in val else GROUND, 1.0 / val["load"])
     driven = lambda node, r: c.admittance("src", node, 1.0 / r)  # noqa: E731
     pins = ("plus", "minus", "out")
     if block == "follower":
@@ -145,14 +148,18 @@ def draw_margins(layout: dw.Layout, D: np.ndarray, dT: float) -> list[dict[str, 
     a = chain.source.amplitude * np.ones(len(layout.freqs))
     signal = (chain.source.level[1] + a, chain.source.level[0] - a, a)
     found = []
-    drive = chain.source.impedance
+    source = (signal, chain.source.impedance)
+    passed: list = []  # per stage: (the signal it passes on, what drives the stages it feeds)
+    parents = dw.plan_parents(layout.plans)  # stages form a tree (`from`)
     for k, plan in enumerate(layout.plans):
+        parent = parents[k]
+        signal, drive = source if parent < 0 else passed[parent]
         v = {name: x[0, 0] for name, x in dw.stage_values(layout, plan, D, np.array([dT])).items()}
         pos, neg = (float(x[0]) for x in dw.row_rails(layout, plan, D))
         if plan.block.saturates:
             margins, signal = comparator(plan, v, signal, pos, neg, len(layout.freqs))
             found.append(margins)
-            drive = plan.part.output_resistance
+            passed.append((signal, plan.part.output_resistance))
             continue
         offset = bias = 0.0
         if plan.part is not None:
@@ -172,7 +179,7 @@ def draw_margins(layout: dw.Layout, D: np.ndarray, dT: float) -> list[dict[str, 
         if plan.block.window_only:
             margins = {"input-high": v["high"] - out[0].max(), "input-low": out[1].min() - v["low"]}
         found.append(margins)
-        signal = out
+        passed.append((out, drive))
     return found
 
 

@@ -133,6 +133,8 @@ class Stage:
     rails: str | None = None
     load: Quantity | None = None
     load_capacitance: Quantity | None = None  # from the output to 0 V: the phase-margin estimate
+    load_to: Quantity | None = None  # the voltage `load` returns to (None: 0 V)
+    feed: str | None = None  # `from`: the stage name it takes its input from, "source"; None: the one before
     values: Mapping[str, object] = field(default_factory=dict)  # the block's own fields, parsed
     line: int | None = None  # where the [[stage]] starts
     lines: Mapping[str, int] = field(default_factory=dict)  # field -> line, for messages
@@ -152,7 +154,40 @@ class Chain:
     preset_dirs: tuple[str, ...] = ()
     path: str = "<chain>"
 
+    @property
+    def parents(self) -> tuple[int, ...]:
+        """Per stage (0-based) the index of the stage it takes its input from, -1 for the source
+        (the README's File formats, `from`): the stage before it unless `from` names another.
+        The loader has checked every `from` names an earlier stage."""
+        return stage_parents(self.stages)
+
+    @property
+    def children(self) -> tuple[tuple[int, ...], ...]:
+        """Per stage the stages that take its output, in file order."""
+        found: list[list[int]] = [[] for _ in self.stages]
+        for k, parent in enumerate(self.parents):
+            if parent >= 0:
+                found[parent].append(k)
+        return tuple(tuple(c) for c in found)
+
     def rails_for(self, stage: Stage) -> Rails:
         if stage.rails is not None:
             return self.rails[stage.rails]
         return next(iter(self.rails.values()))
+
+
+def stage_parents(stages) -> tuple[int, ...]:
+    """Per stage the 0-based index it takes its input from (-1: the source): `from` by name
+    among the stages before it, else the stage just before. An unknown name counts as the one
+    before (the loader reports it)."""
+    parents = []
+    for k, stage in enumerate(stages):
+        feed = getattr(stage, "feed", None)
+        if feed is None:
+            parents.append(k - 1)
+        elif feed == "source":
+            parents.append(-1)
+        else:
+            earlier = [j for j in range(k) if stages[j].name == feed]
+            parents.append(earlier[-1] if earlier else k - 1)
+    return tuple(parents)

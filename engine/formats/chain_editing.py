@@ -60,6 +60,8 @@ def stage_shapes(block_name: str) -> dict[str, FieldShape]:
     block = BLOCKS[block_name]
     shapes = {"name": FieldShape("text", "text", help="the stage's name")}
     shapes["load"] = FieldShape("resistance", help=COMMON_HELP["load"])
+    if not block.saturates:
+        shapes["load_to"] = FieldShape("voltage", help=COMMON_HELP["load_to"])
     if block.uses_part and not block.saturates:
         shapes["load_capacitance"] = FieldShape("capacitance", help=COMMON_HELP["load_capacitance"])
     for key, spec in block.fields.items():
@@ -156,9 +158,18 @@ def section_fields(text: str, section: str, keys) -> dict[str, str]:
 
 
 def set_stage_field(text: str, index: int, key: str, value) -> str:
-    """Set (or, with None, remove) one field of stage `index` (1-based)."""
+    """Set (or, with None, remove) one field of stage `index` (1-based). A new name is followed
+    by every `from` that named the stage (the README's File formats, branches)."""
     document = tomlkit.parse(text)
-    _put(_stages(document)[index - 1], key, value)
+    stages = _stages(document)
+    table = stages[index - 1]
+    if key == "name":
+        old = str(table.get("name", f"stage {index}"))
+        new = f"stage {index}" if value is None else str(value)
+        for k, other in enumerate(stages, start=1):
+            if k > index and other.get("from") == old and new != old:
+                _put(other, "from", new)
+    _put(table, key, value)
     return tomlkit.dumps(document)
 
 

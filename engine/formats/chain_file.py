@@ -14,6 +14,7 @@ from railroom.engine.circuit.model import (
     Rails,
     Source,
     Stage,
+    stage_parents,
 )
 from railroom.engine.formats.fields import MAX_TEXT, FieldReader, FileUnreadable, parse_toml, read_user_file
 from railroom.engine.formats.values import Quantity, has_control, visible
@@ -75,13 +76,14 @@ def _read_chain(data: dict, r: FieldReader, path: str) -> Chain | None:
         presets = []
     base = Path(path).parent
     if source is not None and stages and source.differential:
-        first = BLOCKS.get(stages[0].block)
-        if first is not None and not first.takes_differential:
-            r.problem(
-                "stage.1.block",
-                "a differential source must be followed first by a "
-                f"difference or instrumentation stage, got {stages[0].block!r}",
-            )
+        for k, parent in enumerate(stage_parents(stages)):
+            first = BLOCKS.get(stages[k].block)
+            if parent < 0 and first is not None and not first.takes_differential:
+                r.problem(
+                    f"stage.{k + 1}.block",
+                    "a differential source must be followed first by a "
+                    f"difference or instrumentation stage, got {stages[k].block!r}",
+                )
     if r.problems or conditions is None or source is None:
         return None
     return Chain(
@@ -224,7 +226,53 @@ def _read_stages(raw, r: FieldReader, rails: dict, conditions: Conditions | None
     rise = conditions.worst_temperature_rise if conditions else 0.0
     for index, stage in enumerate(stages, start=1):
         _drift_through_zero(stage, index, rise, r)
+    if len(stages) == len(raw):  # indices match the file's: every `from` can be located
+        _check_branches(stages, r)
     return stages
+
+
+def _check_branches(stages: list[Stage], r: FieldReader) -> None:
+    """`from` (the README's File formats, branches): it names an earlier stage or "source";
+    names are unique in a chain that uses it; a passive stage feeds one stage at most."""
+    if not any(stage.feed is not None for stage in stages):
+        return
+    seen: dict[str, int] = {}
+    for index, stage in enumerate(stages, start=1):
+        if stage.name in seen:
+            r.problem(
+                f"stage.{index}.name",
+                f"stage name {stage.name!r} is also stage {seen[stage.name]}'s; names must be "
+                "unique in a chain that uses `from`",
+            )
+        seen.setdefault(stage.name, index)
+    for index, stage in enumerate(stages, start=1):
+        feed = stage.feed
+        if feed is None or feed == "source":
+            continue
+        where = f"stage.{index}.from"
+        if feed == stage.name:
+            r.problem(where, f"stage {index} ({feed!r}) cannot take its input from itself")
+        elif feed not in seen:
+            names = ", ".join(repr(s.name) for s in stages[: index - 1]) or "none"
+            r.problem(where, f'no stage named {feed!r}; expected "source" or an earlier stage ({names})')
+        elif seen[feed] > index:
+            r.problem(
+                where,
+                f"{feed!r} is stage {seen[feed]}, after this one (stage {index}); a stage takes "
+                "its input from the source or an earlier stage",
+            )
+    parents = stage_parents(stages)
+    for k, stage in enumerate(stages):
+        block = BLOCKS.get(stage.block)
+        fed = [j for j, parent in enumerate(parents) if parent == k]
+        if block is not None and not block.uses_part and len(fed) > 1:
+            j = fed[1]
+            r.problem(
+                f"stage.{j + 1}.from" if stages[j].feed is not None else f"stage.{j + 1}",
+                f"stage {k + 1} ({stage.name!r}, {stage.block}) already feeds stage {fed[0] + 1}; "
+                "a stage with no op amp drives one stage at most (its output is not buffered): "
+                "take this branch from the op-amp stage before it",
+            )
 
 
 def _drift_through_zero(stage: Stage, index: int, rise: float, r: FieldReader) -> None:
@@ -257,6 +305,15 @@ def _read_stage(t: dict, index: int, r: FieldReader, rails: dict, default_tol: f
         r.problem(f"{w}.rails", f"no rails named {rails_name!r}; expected one of {', '.join(rails)}")
     load = _component(r, t, w, "load", "resistance", None, default_tol)
     load_capacitance = _component(r, t, w, "load_capacitance", "capacitance", None, default_tol)
+    load_to = _component(r, t, w, "load_to", "voltage", None, default_tol)
+    if load_to is not None and load is None:
+        r.problem(f"{w}.load_to", "load_to is where the stage's `load` returns; give the stage a load")
+    if load_to is not None and block.saturates:
+        r.problem(
+            f"{w}.load_to",
+            f"block {block_name} takes its load to 0 V only; load_to is for linear stages",
+        )
+    feed = r.text_field(t, w, "from", default=None)
     values: dict[str, object] = {}
     for key, spec in block.fields.items():
         if spec.kind == "flag":
@@ -278,6 +335,8 @@ def _read_stage(t: dict, index: int, r: FieldReader, rails: dict, default_tol: f
         rails=rails_name,
         load=load,
         load_capacitance=load_capacitance,
+        load_to=load_to,
+        feed=feed,
         values=values,
         line=r.line(w),
         lines={key: r.lines[f"{w}.{key}"] for key in t if f"{w}.{key}" in r.lines},

@@ -99,6 +99,8 @@ COMMON = {
     "rails": text("rails table name; may be left out when there is one"),
     "load": value("resistance", "resistive load from the output to 0 V"),
     "load_capacitance": value("capacitance", "capacitive load from the output to 0 V (phase margin)"),
+    "load_to": value("voltage", "the voltage the load returns to (default 0 V)"),
+    "from": text('the earlier stage name, or "source", this stage takes its input from'),
 }
 
 
@@ -125,7 +127,11 @@ def stage_schema() -> dict:
     common = matching(COMMON, COMMON_FIELDS, "[[stage]]")
     by_block = []
     for name, block in BLOCKS.items():
-        allowed = {k: v for k, v in common.items() if block.uses_part or k != "part"}
+        allowed = {
+            k: v
+            for k, v in common.items()
+            if (block.uses_part or k != "part") and not (block.saturates and k == "load_to")
+        }
         allowed.update({key: block_field(spec) for key, spec in block.fields.items()})
         required = [k for k, spec in block.fields.items() if spec.required]
         required += ["part"] if block.uses_part else []
@@ -237,6 +243,7 @@ def report_schema() -> dict:
             "index",
             "name",
             "block",
+            "from",
             "part",
             "regime",
             "go",
@@ -253,6 +260,7 @@ def report_schema() -> dict:
             "index": {"type": "integer", "minimum": 1},
             "name": {"type": "string"},
             "block": {"enum": list(BLOCKS)},
+            "from": {"type": "string", "description": 'the stage it takes its input from, or "source"'},
             "part": {"type": ["string", "null"]},
             "regime": {"enum": ["linear", "clipping", "saturated"]},
             "go": {"type": "boolean"},

@@ -22,7 +22,7 @@ from railroom.engine.circuit.model import Chain, InputError, Problem
 from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
 from railroom.engine.walks.preparation import StagePlan, spread
 from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, source_signal
-from railroom.engine.walks.bounds_walk import walk_chain
+from railroom.engine.walks.bounds_walk import plan_parents, walk_chain
 
 MAX_CORNER_BITS = 14  # 16384 corners of one stage's own values
 
@@ -170,25 +170,23 @@ def prepare(
     s = laplace_grid(freqs)
     values, responses, joint = [], [], []
     source = np.array([[chain.source.impedance]])
-    drive: Callable[[], np.ndarray] = partial(np.asarray, source)
-    before = None
-    differential = chain.source.differential
+    parents = plan_parents(plans)
     if reuse is not None and first > 0:
         values, responses = list(reuse.values[:first]), list(reuse.responses[:first])
         joint = list(reuse.joint[:first])
-        prior, before = plans[first - 1], reuse.responses[first - 1]
-        drive = partial(next_drive, prior, before)
-        differential = False
-    for plan in plans[len(values) :]:
-        rows = values[-1]["drive"].shape[0] if values else 1
+    for k in range(len(values), len(plans)):
+        plan, parent = plans[k], parents[k]
+        if parent < 0:  # fed by the source
+            before, rows, differential = None, 1, chain.source.differential
+            drive: Callable[[], np.ndarray] = partial(np.asarray, source)
+        else:  # fed by an earlier stage, whatever else it feeds
+            before, rows, differential = responses[parent], values[parent]["drive"].shape[0], False
+            drive = partial(next_drive, plans[parent], before)
         v, paired = stage_values(plan, rise, nominal, before, rows, drive)
         inverse_gain = inverse_open_loop(None if ideal else plan.part, s)
         response = None
         if not plan.block.saturates:
             response = plan.block.respond(v, s, inverse_gain, v["drive"], differential)
-        drive = partial(next_drive, plan, response)
-        before = response
-        differential = False
         values.append(v)
         responses.append(response)
         joint.append(paired)
@@ -219,7 +217,7 @@ def walk(
     )
 
 
-def run_from(prepared: Prepared, first: int, signal, stop: int | None = None) -> list:
-    """Verdicts of stages `first` to `stop` (not included; the last by default), fed `signal`
-    (recorded by `walk(..., entering=...)`)."""
-    return walk_chain(prepared, signal, first=first, stop=stop)
+def run_from(prepared: Prepared, first: int, entering: list, stop: int | None = None) -> list:
+    """Verdicts of stages `first` to `stop` (not included; the last by default), fed the
+    signals a full walk recorded (`walk(..., entering=...)`) where their parent is not walked."""
+    return walk_chain(prepared, entering[first], first=first, stop=stop, recorded=entering)

@@ -25,6 +25,7 @@ from railroom.engine.walks import circuit_walk as dw
 from railroom.engine.methods import Outcome, Progress, Setup, judged
 from railroom.engine.methods.corners import prepare
 from railroom.engine.methods.normal import inverse_normal
+from railroom.engine.walks.bounds_walk import plan_parents
 
 CHUNK_ROWS = 10_000  # the default sample count in one walk; larger chunks ran slower
 MEDIAN_ROWS = 16384
@@ -228,8 +229,10 @@ def run(setup: Setup, progress: Progress | None = None, chunk: int = CHUNK_ROWS)
 def stage_results(plans, corner_stages, quoted, probability, required):
     deciding = quoted["0.1%"]
     results = []
-    clipped_before = False
+    clipping: list[bool] = []  # per stage: it clips, or a stage up its branch does
+    parents = plan_parents(plans)
     for k, (plan, corner) in enumerate(zip(plans, corner_stages)):
+        clipped_before = parents[k] >= 0 and clipping[parents[k]]
         stage = {name: v for (s, a, name), v in deciding.items() if s == k and a is None}
         amps = []
         for j in range(len(corner.measure.opamps)):
@@ -251,6 +254,6 @@ def stage_results(plans, corner_stages, quoted, probability, required):
         result = judged(
             plan, corner, amps, out_span, window, required, clipped_before, float(probability[k]), percentiles
         )
-        clipped_before = clipped_before or result.regime == "clipping"
+        clipping.append(clipped_before or result.regime == "clipping")
         results.append(result)
     return results

@@ -15,6 +15,7 @@ import numpy as np
 from railroom.engine.methods import Outcome, Progress, Setup, judged
 from railroom.engine.methods.montecarlo import layout_for
 from railroom.engine.aids.sensitivity import Linearised, linearise, spread_per_unit
+from railroom.engine.walks.bounds_walk import plan_parents
 
 SIGMAS = 3.0
 
@@ -46,8 +47,10 @@ def run(setup: Setup, progress: Progress | None = None) -> Outcome:
     lin = setup.lin or linearise(layout_for(chain, plans, setup.freqs, corner_stages, band="full"))
     s = spread_per_unit(chain.conditions.distribution)
     results = []
-    clipped_before = False
+    clipping: list[bool] = []  # per stage: it clips, or a stage up its branch does
+    parents = plan_parents(plans)
     for k, (plan, corner) in enumerate(zip(plans, corner_stages)):
+        clipped_before = parents[k] >= 0 and clipping[parents[k]]
         draws = lin.draws[k]
         amps = []
         for amp in draws.amps:
@@ -61,6 +64,6 @@ def run(setup: Setup, progress: Progress | None = None) -> Outcome:
         if plan.block.window_only:
             window = {c: quoted(lin, c, draws.margins[c], s) for c in ("input-high", "input-low")}
         result = judged(plan, corner, amps, out_span, window, chain.conditions.margin, clipped_before)
-        clipped_before = clipped_before or result.regime == "clipping"
+        clipping.append(clipped_before or result.regime == "clipping")
         results.append(result)
     return Outcome(results)

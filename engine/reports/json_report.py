@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 
+from railroom.engine.circuit.model import stage_parents
 from railroom.engine.verdict.results import ChainResult, StageResult
 
 REPORT_FORMAT = 1
@@ -15,13 +16,22 @@ def _number(value: float | None, digits: int = 6) -> float | None:
     return float(f"{value:.{digits}g}")
 
 
-def stage_report(result: StageResult) -> dict:
+def feeds(stages: list[StageResult] | tuple[StageResult, ...]) -> list[str]:
+    """Per stage the name of the stage it takes its input from, or "source" (`from`)."""
+    parents = stage_parents([s.measure.stage for s in stages])
+    return ["source" if p < 0 else stages[p].measure.stage.name for p in parents]
+
+
+def stage_report(result: StageResult, feed: str | None = None) -> dict:
+    """`feed`: the name of the stage it takes its input from, or "source" (the chain knows it;
+    alone a stage reports what its file wrote, the stage before by default)."""
     m = result.measure
     amps = m.opamps
     report = {
         "index": m.index,
         "name": m.stage.name,
         "block": m.stage.block,
+        "from": feed or m.stage.feed or ("source" if m.index == 1 else f"stage {m.index - 1}"),
         "part": m.stage.part,
         "regime": result.regime,
         "go": result.go,
@@ -97,7 +107,7 @@ def chain_report(result: ChainResult) -> dict:
         "samples": result.samples,
         "headroom_db": _number(result.headroom_db, 4),
         "cautions": cautions,
-        "stages": [stage_report(s) for s in result.stages],
+        "stages": [stage_report(s, feed) for s, feed in zip(result.stages, feeds(result.stages))],
     }
     if result.chain_yield is not None:
         from railroom.engine.methods.rare import failing_draws, wilson

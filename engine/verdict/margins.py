@@ -12,7 +12,7 @@ part's output resistance times the current (common practice for rail-to-rail out
 
 from __future__ import annotations
 
-from typing import Any
+from typing import Any, TypeAlias
 
 import numpy as np
 
@@ -24,16 +24,34 @@ Number = Any  # a float, or a numpy array of margins per circuit
 MEETS_AT_EQUALITY = 1e-9  # a need within this fraction of its limit's scale meets it
 
 
+Loads: TypeAlias = "InputLoad | tuple[InputLoad, ...]"  # what the stages fed by an output draw (one each)
+
+
+def each_load(load: Loads) -> tuple[InputLoad, ...]:
+    return (load,) if isinstance(load, InputLoad) else tuple(load)
+
+
+def one_load(load: Loads) -> InputLoad:
+    """The one stage's input on a passive output (the loader lets a passive stage feed one)."""
+    found = each_load(load)
+    return found[0] if found else InputLoad()
+
+
 def load_currents(
-    current_hi: Number, current_lo: Number, out_hi: Number, out_lo: Number, load: InputLoad
+    current_hi: Number, current_lo: Number, out_hi: Number, out_lo: Number, load: Loads
 ) -> tuple[Number, Number]:
     """(sourced, sunk): the largest current the op amp sources and sinks, A, from its own
-    network's current bounds plus the next stage's input conductance to its return voltage.
+    network's current bounds plus the input conductance of every stage it feeds to its return
+    voltage (one output feeding several stages: their currents add, Kirchhoff's current law).
 
     Each is an outside bound: the largest sourced current anywhere stands in for the current
-    sourced at the upper extreme of the output (and likewise for the sunk current)."""
-    sourced = np.maximum(current_hi, 0.0) + load.conductance * np.maximum(out_hi - load.returns[0], 0.0)
-    sunk = np.maximum(-current_lo, 0.0) + load.conductance * np.maximum(load.returns[1] - out_lo, 0.0)
+    sourced at the upper extreme of the output (and likewise for the sunk current); with
+    several stages fed, each one's current is taken at its own worst return voltage."""
+    sourced = np.maximum(current_hi, 0.0)
+    sunk = np.maximum(-current_lo, 0.0)
+    for one in each_load(load):
+        sourced = sourced + one.conductance * np.maximum(out_hi - one.returns[0], 0.0)
+        sunk = sunk + one.conductance * np.maximum(one.returns[1] - out_lo, 0.0)
     return sourced, sunk
 
 

@@ -1,8 +1,9 @@
 """Walking the prepared chain stage by stage: bounds -> measures -> verdict -> next stage's input.
 
 Used by the corners method (and by the nominal pass, which is corners with no spread and no
-offsets). The next stage's input loads this stage's output: its conductance to its return voltage
-adds to the output current before the swing window is drawn.
+offsets). Stages form a tree (`from`): the input of every stage fed by this one loads its output;
+each one's conductance to its return voltage adds to the output current before the swing window
+is drawn.
 """
 
 from __future__ import annotations
@@ -13,7 +14,7 @@ import numpy as np
 
 from railroom.engine.circuit.blocks.base import BlockResponse, InputLoad, OpAmpNodes
 from railroom.engine.verdict.judge import judge
-from railroom.engine.verdict.margins import load_currents
+from railroom.engine.verdict.margins import each_load, load_currents, one_load
 from railroom.engine.circuit.opamp import TWO_PI, input_window, output_window
 from railroom.engine.circuit.part_limits import bias_at, clipped_differential, saturated_differential
 from railroom.engine.walks.preparation import StagePlan
@@ -30,6 +31,7 @@ from railroom.engine.walks.signal_bounds import (
     single_bounds,
     single_terms,
 )
+from railroom.engine.circuit.model import stage_parents
 from railroom.engine.verdict.results import OpAmpMeasure, StageMeasure, StageResult
 
 
@@ -66,35 +68,49 @@ def walk_chain(
     entering: list | None = None,
     stop: int | None = None,
     levels: dict | None = None,
+    recorded: list | None = None,
 ) -> list[StageResult]:
     """Results of stages `first` up to (not including) `stop`, the last by default, fed `signal`
-    at stage `first`. `entering`, when given, receives the signal entering each walked stage
-    (the fix search re-walks from there); `levels`, stage index -> the bounds per frequency of
-    what each linear stage shows (the level picture)."""
+    at stage `first`. Stages form a tree (the README's File formats, `from`): each is fed what
+    its parent passes on, and a parent's output is loaded by every stage it feeds. `entering`,
+    when given, receives the signal entering each walked stage (the fix search re-walks from
+    there); `recorded`: such a list from a full walk, for stages from `first` on whose parent is
+    before `first` (or the source); `levels`, stage index -> the bounds per frequency of what
+    each linear stage shows (the level picture)."""
     chain = prepared.chain
+    plans, responses = prepared.plans, prepared.responses
+    parents = plan_parents(plans)
+    children = tree_children(parents)
     rise = chain.conditions.worst_temperature_rise
     hot = max(chain.conditions.temperature) - 25.0  # the bias current is taken there (part_limits)
     # node terms depend on the offsets, which the nominal walk leaves out: one memo for each
     memo = prepared.memo.setdefault(("terms", nominal), {})
-    results: list[StageResult] = []
-    for k in range(first, len(prepared.plans) if stop is None else stop):
-        plan = prepared.plans[k]
+    results: dict[int, StageResult] = {}
+    handed: dict[int, tuple] = {}  # stage -> what it passes on (see hand_on)
+    source_input = signal  # with first == 0: what every stage fed by the source takes
+    for k in range(first, len(plans) if stop is None else stop):
+        plan, parent = plans[k], parents[k]
+        if k > first:
+            if parent >= first:
+                signal = hand_on(handed[parent], k, prepared)
+            elif parent < 0 and first == 0:
+                signal = source_input
+            else:
+                assert recorded is not None, "a re-walk needs the signals of a full walk"
+                signal = recorded[k]
         if entering is not None:
             entering.append(signal)
-        following = prepared.responses[k + 1] if k + 1 < len(prepared.responses) else None
-        next_load = following.input_load if following is not None else InputLoad()
+        next_load = stage_loads(responses, children[k])
         v = prepared.values[k]
         if plan.block.saturates:
-            measure, signal = saturated_stage(plan, v, signal, rise, nominal, hot_rise=hot)
+            measure, passed = saturated_stage(plan, v, signal, rise, nominal, hot_rise=hot)
+            bounds = None
         else:
-            later = (
-                k + 1 < len(prepared.plans)
-                and prepared.joint[k + 1]
-                and shows_input(prepared.plans, prepared.responses, k + 1)
-            )
+            only = children[k][0] if len(children[k]) == 1 else None
+            later = only is not None and prepared.joint[only] and shows_input_of(plans, responses, k, only)
             measure, bounds = linear_stage(
                 plan,
-                prepared.responses[k],
+                responses[k],
                 v,
                 signal,
                 prepared.freqs,
@@ -105,33 +121,61 @@ def walk_chain(
                 shown_later=later,
                 hot_rise=hot,
             )
-            if shows_input(prepared.plans, prepared.responses, k) and prepared.joint[k]:
+            if parent >= 0 and shows_input_of(plans, responses, parent, k) and prepared.joint[k]:
                 # the passive stage before shows the voltage at this stage's input terminal,
                 # each of its circuits paired with this stage's own (exact)
-                terminal = input_bounds(
-                    plan, prepared.responses[k], v, signal, rise, nominal, memo, hot_rise=hot
-                )
+                terminal = input_bounds(plan, responses[k], v, signal, rise, nominal, memo, hot_rise=hot)
                 shown = span(terminal)
                 if levels is not None:
-                    levels[k - 1] = terminal
-                before = results[-1]
-                results[-1] = replace(before, measure=replace(before.measure, output=shown))
+                    levels[parent] = terminal
+                if parent in results:
+                    before = results[parent]
+                    results[parent] = replace(before, measure=replace(before.measure, output=shown))
             if levels is not None:
                 levels[k] = bounds
-            fed = getattr(signal, "fed_clipped", False)
-            pairs = k + 1 < len(prepared.plans) and prepared.joint[k + 1]
-            signal = (
-                paired(bounds, v["drive"].shape[0], prepared.values[k + 1]["drive"].shape[0], fed)
-                if pairs
-                else merge(bounds, fed)
-            )
+            passed = None
         if notes is not None:
             measure = replace(measure, **notes[k])
         result = judge(measure, plan.part, plan.rails, chain.conditions.margin)
-        if result.regime == "clipping" and measure.window is not None:
-            signal = clamp(signal, measure.window)
-        results.append(result)
-    return results
+        window = measure.window if result.regime == "clipping" and measure.window is not None else None
+        handed[k] = (k, bounds, passed, getattr(signal, "fed_clipped", False), window)
+        results[k] = result
+    return [results[k] for k in sorted(results)]
+
+
+def plan_parents(plans) -> tuple[int, ...]:
+    """Per plan the index of the plan it takes its input from (-1: the source)."""
+    return stage_parents([plan.stage for plan in plans])
+
+
+def tree_children(parents: tuple[int, ...]) -> tuple[tuple[int, ...], ...]:
+    found: list[list[int]] = [[] for _ in parents]
+    for k, parent in enumerate(parents):
+        if parent >= 0:
+            found[parent].append(k)
+    return tuple(tuple(c) for c in found)
+
+
+def stage_loads(responses, fed: tuple[int, ...]) -> tuple[InputLoad, ...]:
+    """What loads a stage's output: the input of every stage it feeds (a saturated stage's
+    input, not in the block interface, draws nothing here)."""
+    return tuple(responses[c].input_load for c in fed if responses[c] is not None)
+
+
+def hand_on(handed: tuple, child: int, prepared) -> Signal:
+    """What stage k passes to the stage `child` it feeds: a saturated stage its two levels; a
+    linear stage its bounds, row by row when the child's corners pair with its own, merged
+    otherwise; held inside its window when it clips."""
+    k, bounds, passed, fed, window = handed
+    if passed is None:
+        passed = (
+            paired(
+                bounds, prepared.values[k]["drive"].shape[0], prepared.values[child]["drive"].shape[0], fed
+            )
+            if prepared.joint[child]
+            else merge(bounds, fed)
+        )
+    return clamp(passed, window) if window is not None else passed
 
 
 def paired(bounds: NodeBounds, rows: int, next_rows: int, fed_clipped: bool) -> Signal:
@@ -160,7 +204,7 @@ def linear_stage(
     v: dict,
     signal,
     freqs: np.ndarray,
-    next_load: InputLoad,
+    next_load,
     rise: float,
     nominal: bool,
     memo: dict | None = None,
@@ -183,7 +227,7 @@ def linear_stage(
             offsets,
             bias,
             freqs,
-            next_load if amp.output is response.output else InputLoad(),
+            next_load if amp.output is response.output else (),
             known,
             memo,
         )
@@ -200,7 +244,9 @@ def linear_stage(
     if passive_output(plan, response, next_load) and not shown_later:
         # what the stage shows is its output with the next stage's input on it; what it hands
         # on is its Thevenin voltage (the next stage meets the impedance itself)
-        shown = span(loaded_bounds(response.output, v, signal, response.output_impedance, next_load))
+        shown = span(
+            loaded_bounds(response.output, v, signal, response.output_impedance, one_load(next_load))
+        )
     measure = StageMeasure(
         index=plan.index,
         stage=plan.stage,
@@ -219,11 +265,17 @@ def linear_stage(
 def shows_input(plans, responses, k: int) -> bool:
     """Stage k - 1 is passive (not a converter input, which is checked on what it shows) and
     stage k knows its input terminal: stage k - 1 then shows that terminal's voltage."""
+    return k > 0 and shows_input_of(plans, responses, k - 1, k)
+
+
+def shows_input_of(plans, responses, parent: int, k: int) -> bool:
+    """Stage `parent` is passive (not a converter input) and feeds stage k, which knows its
+    input terminal: the parent then shows that terminal's voltage."""
     return (
-        k > 0
-        and responses[k - 1] is not None
-        and responses[k - 1].output_impedance is not None
-        and not plans[k - 1].block.window_only
+        parent >= 0
+        and responses[parent] is not None
+        and responses[parent].output_impedance is not None
+        and not plans[parent].block.window_only
         and responses[k] is not None
         and responses[k].input_node is not None
     )
@@ -262,10 +314,14 @@ def input_bounds(
     return bounds_once(response.terminal, v, signal, offsets, bias, {}, memo)
 
 
-def passive_output(plan: StagePlan, response: BlockResponse, load: InputLoad) -> bool:
+def passive_output(plan: StagePlan, response: BlockResponse, load) -> bool:
     """A passive stage whose shown output differs from its Thevenin voltage: the next stage
     draws current from it (a converter input draws none and passes its input on)."""
-    return response.output_impedance is not None and not plan.block.window_only and load.conductance > 0
+    return (
+        response.output_impedance is not None
+        and not plan.block.window_only
+        and sum(one.conductance for one in each_load(load)) > 0
+    )
 
 
 def opamp_measure(
@@ -276,7 +332,7 @@ def opamp_measure(
     offsets,
     bias,
     freqs,
-    load: InputLoad,
+    load,
     known: dict | None = None,
     memo: dict | None = None,
 ) -> OpAmpMeasure:

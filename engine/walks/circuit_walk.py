@@ -15,9 +15,11 @@ A row whose stage leaves the linear regime passes its output clamped to its own 
 
 What drives each stage is the row's own: the source impedance, a saturated stage's output
 resistance, or the Thevenin impedance of the passive stage before it per row and frequency
-(complex, blocks/passive.py), exact for the circuit. The conductance a stage's input presents is
-a single number in the block interface; it is taken at its worst over the tolerance, as the
-corners method takes it, so a row never depends on the other rows beside it.
+(complex, blocks/passive.py), exact for the circuit. Stages form a tree (`from`): each row of a
+stage is fed its parent's same row, and an output is loaded by every stage it feeds. The
+conductance a stage's input presents is a single number in the block interface; it is taken at
+its worst over the tolerance, as the corners method takes it, so a row never depends on the other
+rows beside it.
 """
 
 from __future__ import annotations
@@ -28,7 +30,7 @@ from functools import cached_property
 import numpy as np
 
 from railroom.engine.circuit.blocks.base import InputLoad
-from railroom.engine.verdict.margins import load_currents, opamp_margins, output_drops
+from railroom.engine.verdict.margins import load_currents, one_load, opamp_margins, output_drops
 from railroom.engine.circuit.model import Chain
 from railroom.engine.circuit.opamp import TWO_PI, inverse_open_loop, laplace_grid
 from railroom.engine.circuit.part_limits import (
@@ -40,7 +42,13 @@ from railroom.engine.circuit.part_limits import (
 from railroom.engine.walks.preparation import StagePlan
 from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, loaded_bounds, node_bounds
 from railroom.engine.verdict.results import StageResult
-from railroom.engine.walks.bounds_walk import passive_output, shows_input
+from railroom.engine.walks.bounds_walk import (
+    passive_output,
+    plan_parents,
+    shows_input_of,
+    stage_loads,
+    tree_children,
+)
 
 SATURATED_CHECKS = ("input-high", "input-low", "current")
 
@@ -71,7 +79,7 @@ class Layout:
     plans: list[StagePlan]
     freqs: np.ndarray
     variables: tuple[Variable, ...]
-    loads: tuple[InputLoad, ...]  # what the next stage's input draws (worst)
+    loads: tuple[tuple[InputLoad, ...], ...]  # per stage what each stage it feeds draws (worst)
     amps: tuple[int, ...]  # op amps per stage
     corner: tuple[StageResult, ...]  # corners results: thresholds and reaches of saturated stages
 
@@ -126,10 +134,8 @@ def build_layout(
                 Variable(None, f"rails.{rails.name}.negative", "rail", rails.tolerance),
             ]
     variables = [v for v in variables if v.scale]
-    loads = []
-    for k in range(len(plans)):
-        following = prepared.responses[k + 1] if k + 1 < len(plans) else None
-        loads.append(following.input_load if following is not None else InputLoad())
+    children = tree_children(plan_parents(plans))
+    loads = [stage_loads(prepared.responses, children[k]) for k in range(len(plans))]
     return Layout(
         chain,
         plans,
@@ -220,41 +226,48 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
     D = np.asfortranarray(D)  # each quantity's column contiguous: read column by column below
     grid = laplace_grid(layout.freqs)
     s = per_row(grid, rows)
-    signal = start_signal(layout.chain, layout.freqs, rows)
-    clipped = np.zeros(rows, dtype=bool)
-    results = []
+    source = start_signal(layout.chain, layout.freqs, rows)
+    parents = plan_parents(layout.plans)
+    children = tree_children(parents)
+    results: list[StageDraws] = []
     inverse_gains: dict = {}  # 1/A(s) per row, once per part: stages share parts
-    drive = layout.chain.source.impedance
-    before = None  # the previous stage's response (None: saturated, or none)
-    pending = None  # a passive stage whose shown span the next stage settles
+    passed: dict = {}  # stage -> (the signal it passes on, what drives the stages it feeds)
+    pending: dict[int, tuple] = {}  # passive stage -> what settles its shown span once its stage is walked
     for k, plan in enumerate(layout.plans):
+        parent = parents[k]
+        if parent < 0:
+            fed, drive, before = source, layout.chain.source.impedance, None
+        else:
+            fed, drive, before = passed[parent]
         v = stage_values(layout, plan, D, dT)
-        fed, response = signal, None
+        response = None
         if plan.block.saturates:
-            draws, signal = saturated_draws(layout, k, v, D, signal)
-            drive = plan.part.output_resistance if plan.part else 0.0
+            draws, signal = saturated_draws(layout, k, v, D, fed)
+            out_drive = plan.part.output_resistance if plan.part else 0.0
         else:
             if plan.part not in inverse_gains:
                 inverse_gains[plan.part] = per_row(inverse_open_loop(plan.part, grid), rows)
             ig = inverse_gains[plan.part]
-            response = plan.block.respond(v, s, ig, drive, k == 0 and layout.chain.source.differential)
+            response = plan.block.respond(v, s, ig, drive, parent < 0 and layout.chain.source.differential)
             draws, signal = linear_draws(layout, k, response, v, D, dT, fed, record)
-            drive = (
+            out_drive = (
                 response.output_impedance
                 if response.output_impedance is not None
                 else response.output_resistance
             )
-        if pending is not None:
-            if k > 0 and shows_input(layout.plans[k - 1 : k + 1], (before, response), 1):
+        if parent in pending:
+            if shows_input_of(layout.plans, {parent: before, k: response}, parent, k):
                 # the passive stage before shows this stage's input terminal (stage_walk)
-                results[-1] = shown_input(layout, k, response, v, D, dT, fed, results[-1])
+                results[parent] = shown_input(layout, k, response, v, D, dT, fed, results[parent])
             else:  # or its output loaded by this stage's conductance
-                results[-1] = shown_loaded(layout, *pending, results[-1])
-        pending = None
+                _, passive, values, feeding = pending[parent]
+                results[parent] = shown_loaded(layout, parent, passive, values, feeding, results[parent])
+            del pending[parent]
         if response is not None and passive_output(plan, response, layout.loads[k]):
-            pending = (k, response, v, fed)
-        before = response
-        clipped |= ~draws.linear
+            pending[k] = (k, response, v, fed)
+        passed[k] = (signal, out_drive, response)
+        if parent >= 0 and k == children[parent][-1]:
+            del passed[parent]  # every stage it feeds is walked: its rows are no longer needed
         results.append(draws)
     return results
 
@@ -273,7 +286,7 @@ def shown_input(layout: Layout, k: int, response, v, D, dT, signal, passive: Sta
 def shown_loaded(layout: Layout, k: int, response, v, signal, passive: StageDraws) -> StageDraws:
     """The passive stage's draws with its span loaded by the next stage's input conductance
     (propagation.loaded_bounds), where the next stage does not report its input terminal."""
-    shown = loaded_bounds(response.output, v, signal, response.output_impedance, layout.loads[k])
+    shown = loaded_bounds(response.output, v, signal, response.output_impedance, one_load(layout.loads[k]))
     return replace(passive, out_lo=band_min(shown.lo), out_hi=band_max(shown.hi))
 
 
@@ -362,9 +375,7 @@ def bounds_of(node, v, signal, offsets, bias, known: dict):
     return known[id(node)][1]
 
 
-def opamp_draws(
-    part, amp, v, signal, offsets, bias, freqs, load: InputLoad, pos, neg, record: list | None, known: dict
-):
+def opamp_draws(part, amp, v, signal, offsets, bias, freqs, load, pos, neg, record: list | None, known: dict):
     """One op amp's margins per row (the per-row twin of stage_walk.opamp_measure)."""
     out = bounds_of(amp.output, v, signal, offsets, bias, known)
     plus = bounds_of(amp.plus, v, signal, offsets, bias, known)
@@ -427,7 +438,7 @@ def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None
             offsets,
             bias,
             layout.freqs,
-            layout.loads[k] if amp.output is response.output else InputLoad(),
+            layout.loads[k] if amp.output is response.output else (),
             pos,
             neg,
             record,

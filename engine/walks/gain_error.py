@@ -14,11 +14,12 @@ def gain_errors(chain: Chain, plans) -> list[float | None]:
 
     s = laplace_grid(np.array([chain.source.band[1]]))
     errors: list[float | None] = []
-    differential = chain.source.differential
-    for plan in plans:
+    from railroom.engine.walks.bounds_walk import plan_parents
+
+    for plan, parent in zip(plans, plan_parents(plans)):
+        differential = chain.source.differential and parent < 0  # fed by the source (`from`)
         if plan.block.saturates or plan.part is None:
             errors.append(None)
-            differential = False
             continue
         v = corner_values(plan, 0.0, nominal=True)
         real = plan.block.respond(v, s, inverse_open_loop(plan.part, s), 0.0, differential).output
@@ -28,5 +29,4 @@ def gain_errors(chain: Chain, plans) -> list[float | None]:
         h_ideal = sum(ideal.transfers.get(k, 0) * (-1) ** i for i, k in enumerate(signal))
         magnitude = abs(complex(np.ravel(h_ideal)[-1]))
         errors.append(None if magnitude == 0 else float(1.0 - abs(complex(np.ravel(h_real)[-1])) / magnitude))
-        differential = False
     return errors

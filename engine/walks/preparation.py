@@ -38,6 +38,8 @@ def stage_quantities(stage: Stage) -> dict[str, Quantity]:
                 found[f"inputs.{i}.v"] = item["v"]
     if stage.load is not None:
         found["load"] = stage.load
+        if stage.load_to is not None:
+            found["load_to"] = stage.load_to  # a fixed voltage the load returns to (blocks.base)
     return found
 
 

@@ -160,10 +160,40 @@ rg = "100k 1%"
 )
 
 
+# Branches (issue 13): a passive stage and a gain taken from the buffer, beside the main path;
+# a change on one branch moves its parent's load, and the re-walk feeds stages off its branch
+# what the full walk had.
+WITH_BRANCH = (
+    WITH_PASSIVE
+    + """[[stage]]
+name = "side"
+block = "inverting"
+part = "amp"
+from = "buffer"
+rin = "2k 1%"
+rf = "6k8 1%"
+[[stage]]
+name = "side filter"
+block = "rc_lowpass"
+from = "side"
+r = "1k 5%"
+c = "47n 10%"
+[[stage]]
+name = "side out"
+block = "follower"
+part = "amp"
+"""
+)
+
+
 @pytest.mark.parametrize(
     "text, changes",
     [
         (TIGHT_MIDDLE, ((1, "rf", 33e3), (1, "rg", 1.2e3), (2, "rin", 12e3), (0, None, None))),
+        (
+            WITH_BRANCH,
+            ((5, "rin", 1e3), (6, "r", 2.2e3), (1, "rf", 33e3), (3, "rin", 12e3), (4, "rg", 82e3)),
+        ),
         (
             WITH_PASSIVE,
             ((1, "rf", 33e3), (2, "r", 5.6e3), (3, "rin", 12e3), (3, "rf", 27e3), (4, "rg", 82e3)),

@@ -4,6 +4,9 @@ Imports nothing of railroom (only numpy and the independent MNA solver in refere
 Partial scope (issue 11): single-ended source with its impedance, and the stages follower,
 noninverting, inverting, summing (fixed inputs as `inputs`: [(r, volts)]), divider and rc_lowpass, with the topologies as railroom's README
 describes them. Op amps: finite A0 and one pole, offset at +, bias current into both inputs.
+Branches (issue 13): a stage may take its input from any earlier stage's output or from the
+source (`feed`); a branch is one more node fed by the same output, so that output carries every
+stage hung on it. A stage's load may return to a fixed voltage (`load_to`, an ideal source).
 """
 
 from __future__ import annotations
@@ -27,8 +30,10 @@ class OpAmp:
 class Stage:
     block: str
     values: dict = field(default_factory=dict)
-    load: float | None = None  # ohms to 0 V
+    load: float | None = None  # ohms to 0 V (or to load_to)
     opamp: OpAmp = OpAmp()
+    feed: int | None = None  # the 0-based stage it takes its input from, -1: the source; None: the one before
+    load_to: float = 0.0  # volts the load returns to
 
 
 def build(stages: list[Stage], source_volts: complex, impedance: float) -> tuple[Circuit, list[str]]:
@@ -39,11 +44,17 @@ def build(stages: list[Stage], source_volts: complex, impedance: float) -> tuple
     if impedance > 0:
         c.resistor("src", "s_out", impedance)
         node = "s_out"
-    outs = []
+    source_node = node
+    outs: list[str] = []
     for k, st in enumerate(stages):
-        node = _stage(c, st, node, f"n{k}")
+        feed = k - 1 if st.feed is None else st.feed
+        node = _stage(c, st, source_node if feed < 0 else outs[feed], f"n{k}")
         if st.load:
-            c.resistor(node, "0", st.load)
+            back = "0"
+            if st.load_to:
+                back = f"n{k}_load_to"
+                c.source(back, st.load_to)
+            c.resistor(node, back, st.load)
         outs.append(node)
     return c, outs
 
@@ -100,6 +111,7 @@ def response(stages: list[Stage], freqs: np.ndarray, impedance: float = 0.0) -> 
             {**s.values, "ref": 0.0, "inputs": [(r, 0.0) for r, _ in s.values.get("inputs", ())]},
             s.load,
             OpAmp(s.opamp.open_loop_gain, s.opamp.gbw),
+            s.feed,
         )
         for s in stages
     ]

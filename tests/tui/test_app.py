@@ -195,6 +195,9 @@ async def test_stages_add_move_remove(make_app, two_stage):
         assert isinstance(app.screen, ChoiceScreen)
         app.screen.dismiss("inverting")
         await pilot.pause()
+        assert isinstance(app.screen, ChoiceScreen)  # where it takes its input from
+        await pilot.press("enter")  # in the line after the highlighted stage (the default)
+        await pilot.pause()
         await pilot.pause()
         assert app.screen.query_one(FieldForm).has_focus_within
         await pilot.press("escape")

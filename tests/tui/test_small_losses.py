@@ -65,6 +65,8 @@ async def test_a_stage_added_after_a_passive_one_gets_rails(make_app):
         assert isinstance(app.screen, ChoiceScreen)
         app.screen.dismiss("noninverting")
         await pilot.pause()
+        app.screen.dismiss("line")  # in the line after the highlighted stage
+        await pilot.pause()
         await pilot.pause()
         stages = app.session.chain.stages
         assert len(stages) == 8 and stages[3].block == "noninverting"

@@ -7,6 +7,7 @@ status line and the stage list above it stay in sight and repaint as each value 
 from __future__ import annotations
 
 from typing import TYPE_CHECKING
+from functools import partial
 
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -129,7 +130,7 @@ class ChainScreen(Screen):
     def highlighted(self) -> int:
         """1-based index of the highlighted stage."""
         table = self.query_one(StageList)
-        return min(max(table.cursor_row, 0), len(self.session.chain.stages) - 1) + 1
+        return min(table.stage_at(table.cursor_row), len(self.session.chain.stages))
 
     def show(self, result: ChainResult, note: str = "") -> None:
         session = self.session
@@ -186,7 +187,7 @@ class ChainScreen(Screen):
         """Highlight stage `index` (1-based) and give the stage list the focus."""
         self.close_form(leave=True)
         table = self.query_one(StageList)
-        table.move_cursor(row=index - 1, animate=False)
+        table.highlight_stage(index)
         table.focus()
         self._show_detail()
 
@@ -248,6 +249,13 @@ class ChainScreen(Screen):
             }
         if len(self.session.chain.rails) > 1:
             shapes["rails"] = FieldShape("text", "choice", tuple(self.session.chain.rails), "which supply")
+        earlier = tuple(s.name for s in self.session.chain.stages[: index - 1])
+        shapes["from"] = FieldShape(
+            "text",
+            "choice",
+            ("source", *earlier),
+            "the stage it takes its input from (empty: the one before)",
+        )
         shown = stage_fields(text, index, shapes)
         fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
         self._form(
@@ -289,15 +297,22 @@ class ChainScreen(Screen):
         after = self.highlighted()
         near = self.session.chain.stages[after - 1]
 
-        def chosen(block: str | None) -> None:
-            if block is None:
+        def add(block: str, where: str | None) -> None:
+            if where is None:
                 return
+            chain = self.session.chain
             parts = self.session.part_ids
             part = near.part if near.part else (parts[0] if parts else None)
-            fields = starter_stage(block, f"new {block}", part, self._rails_near(after))
-            problem = self.app.apply_edit(lambda t: add_stage(t, after + 1, fields))
+            name = unique_name(f"new {block}", [s.name for s in chain.stages])
+            fields = starter_stage(block, name, part, self._rails_near(after))
+            position = after + 1
+            if where != "line":  # a branch: at the end, so no stage after it changes its input
+                feed = "source" if where == "source" else chain.stages[int(where) - 1].name
+                fields = {**fields, "from": feed}
+                position = len(chain.stages) + 1
+            problem = self.app.apply_edit(lambda t: add_stage(t, position, fields))
             if problem is None:
-                self._structure_changed(after + 1)
+                self._structure_changed(position)
                 self.action_edit_stage()
             else:
                 self.notify(
@@ -307,8 +322,30 @@ class ChainScreen(Screen):
                     markup=False,
                 )
 
+        def chosen(block: str | None) -> None:
+            if block is None:
+                return
+            self.app.push_screen(
+                ChoiceScreen(f"Where does the new {block} take its input from?", self._inputs(after), "line"),
+                partial(add, block),
+            )
+
         blocks = [(name, f"{name}: {block.summary}") for name, block in BLOCKS.items()]
         self.app.push_screen(ChoiceScreen("Add which block after the highlighted stage?", blocks), chosen)
+
+    def _inputs(self, after: int) -> list[tuple[str, str]]:
+        """Where a new stage may take its input from: in the line after stage `after` (as the
+        stage after it did), or a branch from any stage (one with no op amp only while it feeds
+        nothing yet) or from the source, added at the end."""
+        chain = self.session.chain
+        name = chain.stages[after - 1].name
+        choices = [("line", f"in the line after stage {after} ({name})")]
+        fed = chain.children
+        for k, stage in enumerate(chain.stages, start=1):
+            if BLOCKS[stage.block].uses_part or not fed[k - 1]:
+                choices.append((str(k), f"stage {k} ({stage.name}), a branch (added at the end)"))
+        choices.append(("source", "the source, a branch (added at the end)"))
+        return choices
 
     def _rails_near(self, index: int) -> str | None:
         """The supply for a stage added after stage `index`: that stage's, else the nearest
@@ -327,8 +364,11 @@ class ChainScreen(Screen):
 
         def answered(answer: str | None) -> None:
             if answer == "remove":
-                if self.app.apply_edit(lambda t: remove_stage(t, index)) is None:
+                problem = self.app.apply_edit(lambda t: remove_stage(t, index))
+                if problem is None:
                     self._structure_changed(index)
+                else:  # a stage after it takes its input from it by name (`from`), say
+                    self.notify(f"not removed: {problem}", title="remove", severity="error", markup=False)
 
         name = self.session.chain.stages[index - 1].name
         self.app.push_screen(
@@ -340,14 +380,17 @@ class ChainScreen(Screen):
         index = self.highlighted()
         target = index + offset
         if 1 <= target <= len(self.session.chain.stages):
-            if self.app.apply_edit(lambda t: move_stage(t, index, offset)) is None:
+            problem = self.app.apply_edit(lambda t: move_stage(t, index, offset))
+            if problem is None:
                 self._structure_changed(target)
+            else:  # before the stage it takes its input from (`from`), say
+                self.notify(f"not moved: {problem}", title="move", severity="error", markup=False)
 
     def _structure_changed(self, highlight: int) -> None:
         self.close_form()  # its fields name a stage by its place in the chain
         for form in [f for f in self.session.drafts if f.startswith("stage.")]:
             del self.session.drafts[form]
-        self.query_one(StageList).move_cursor(row=highlight - 1, animate=False)
+        self.query_one(StageList).highlight_stage(highlight)
         self._show_detail()
 
     def action_undo(self) -> None:
@@ -357,3 +400,13 @@ class ChainScreen(Screen):
             self.app.recheck()
         else:
             self.notify("nothing to undo")
+
+
+def unique_name(name: str, taken: list[str]) -> str:
+    """`name`, or `name 2`, `name 3` ... when a stage has it (a chain that uses `from` needs
+    unique names)."""
+    found, count = name, 1
+    while found in taken:
+        count += 1
+        found = f"{name} {count}"
+    return found

@@ -95,9 +95,13 @@ def components(stage: StageResult) -> Text:
     text = Text()
     s = stage.stage
     kinds = {key: spec.kind for key, spec in BLOCKS[s.block].fields.items()}
+    if getattr(s, "feed", None) is not None:
+        text.append(f"from {s.feed}   ")
     if s.load is not None:
         text.append(f"load {quantity_words(s.load, 'resistance')}   ")
-    if s.load_capacitance is not None:
+    if getattr(s, "load_to", None) is not None:
+        text.append(f"load_to {quantity_words(s.load_to, 'voltage')}   ")
+    if getattr(s, "load_capacitance", None) is not None:
         text.append(f"load_capacitance {quantity_words(s.load_capacitance, 'capacitance')}   ")
     for key, value in s.values.items():
         if isinstance(value, Quantity):

@@ -40,4 +40,4 @@ BLOCKS: dict[str, Block] = {
 }
 
 # Fields every block accepts besides its own (the README's File formats).
-COMMON_FIELDS = ("name", "block", "part", "rails", "load", "load_capacitance")
+COMMON_FIELDS = ("name", "block", "part", "rails", "load", "load_capacitance", "load_to", "from")

@@ -191,6 +191,17 @@ def load_conductance(v: Mapping[str, np.ndarray]) -> np.ndarray:
     return np.zeros((1, 1)) if load is None else 1.0 / load
 
 
+def load_return(v: Mapping[str, np.ndarray], scale=1.0) -> Transfers:
+    """The part of a current or voltage set by where the stage's `load` returns (`load_to`, a
+    fixed voltage field): {"load_to": scale * G_load}, nothing when it returns to 0 V. An op
+    amp's output current into the load is (Vout - Vto) G_load (Ohm's law): the current node
+    takes scale = -1; a passive output, Vout = Z (Vin / R_series + Vto G_load) (Thevenin /
+    Millman), takes scale = Z."""
+    if "load_to" not in v or "load" not in v:
+        return {}
+    return {"load_to": scale * (1.0 / v["load"]) * np.ones((1, 1))}
+
+
 def combined(terms: list[tuple[np.ndarray | float, Node]], extra: Transfers | None = None) -> Node:
     """sum_k factor_k * node_k (+ extra transfers): a node built from other nodes of the block.
 

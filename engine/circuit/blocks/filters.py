@@ -29,6 +29,7 @@ from railroom.engine.circuit.blocks.base import (
     OpAmpNodes,
     combined,
     load_conductance,
+    load_return,
     opamp_node,
     plus_node,
 )
@@ -149,7 +150,8 @@ def sallen_key(y_in, y_plus, y_out, y_ground, ground: str | None, v, inverse_gai
     plus = plus_node(solution, 0, 1)
     node_a = combined([(y_plus / total, plus), (y_out / total, output)], extra={"in": y_in / total})
     current = combined(
-        [(load_conductance(v) + y_out + divider, output), (-y_out, node_a)], extra=divider_return
+        [(load_conductance(v) + y_out + divider, output), (-y_out, node_a)],
+        extra={**divider_return, **load_return(v, -1.0)},
     )
     amp = OpAmpNodes("amplifier", output, plus, current)
     return BlockResponse(output=output, opamps=(amp,), inner={"node A": node_a})
@@ -291,7 +293,8 @@ def multiple_feedback(y_in, y_out, y_ref, y_minus, y_feedback, v, inverse_gain) 
         [(y_out / total, output), (y_minus / total, minus)], extra={"in": y_in / total, "ref": y_ref / total}
     )
     current = combined(
-        [(load_conductance(v) + y_out + y_feedback, output), (-y_out, node_a), (-y_feedback, minus)]
+        [(load_conductance(v) + y_out + y_feedback, output), (-y_out, node_a), (-y_feedback, minus)],
+        extra=load_return(v, -1.0),
     )
     amp = OpAmpNodes("amplifier", output, plus, current)
     return BlockResponse(

@@ -23,6 +23,7 @@ from railroom.engine.circuit.blocks.base import (
     OpAmpNodes,
     junction,
     load_conductance,
+    load_return,
     minus_pin,
     opamp_node,
     plus_node,
@@ -48,6 +49,8 @@ def single_opamp(
     output = opamp_node(solution, solution.output, 0, 1)
     plus = plus_node(solution, 0, 1)
     extra = {k: -feedback_conductance * t for k, t in loop.a_minus.items()}
+    for k, t in load_return(v, -1.0).items():  # the load's own return (load_to)
+        extra[k] = extra.get(k, 0.0) + t
     factor = load_conductance(v) + feedback_conductance * (1.0 - loop.beta)
     current = scaled(output, factor, extra)
     return OpAmpNodes(label, output, plus, current), solution

@@ -4,7 +4,9 @@
     rc_lowpass  Vout = Vin / (1 + s r c),                 corner 1 / (2 pi r c)
 (Horowitz & Hill, The Art of Electronics, ch. 1.) The driving impedance Zd adds to top and r; a
 stage `load` from the output to 0 V sits in parallel with bottom (divider) or with c (low-pass:
-Vout = Vin / (1 + r/load + s r c)).
+Vout = Vin / (1 + r/load + s r c)). A load returning to `load_to` adds Z Vto / load to the output,
+Z the Thevenin impedance below (Millman's theorem: the node voltage is the conductance-weighted
+mean of what each branch returns to).
 
 Each drives the next stage as a Thevenin source (Thevenin's theorem; Horowitz & Hill ch. 1.2):
 the output node is the open-circuit voltage, and the source impedance, per frequency,
@@ -26,6 +28,7 @@ from railroom.engine.circuit.blocks.base import (
     Node,
     junction,
     load_conductance,
+    load_return,
     thevenin,
 )
 
@@ -46,7 +49,7 @@ class Divider(Block):
         ones = np.ones_like(s) * np.ones_like(bottom)
         ratio = bottom / (top + bottom) * ones
         impedance = top * bottom / (top + bottom) * ones
-        output = Node(transfers={"in": ratio})
+        output = Node(transfers={"in": ratio, **load_return(v, impedance)})
         return BlockResponse(
             output=output,
             input_node=lambda: junction(v["top"], drive, output),
@@ -71,11 +74,12 @@ class RcLowpass(Block):
     def respond(self, v, s, inverse_gain, drive, differential):
         r, c, g_load = v["r"] + drive, v["c"], load_conductance(v)
         # Its input draws at most Vin / r (at frequencies far above the corner): conservative.
-        output = Node(transfers={"in": 1.0 / (1.0 + r * g_load + s * r * c)})
+        impedance = r / (1.0 + r * g_load + s * r * c)
+        output = Node(transfers={"in": 1.0 / (1.0 + r * g_load + s * r * c), **load_return(v, impedance)})
         return BlockResponse(
             output=output,
             input_node=lambda: junction(v["r"], drive, output),
-            **thevenin(r / (1.0 + r * g_load + s * r * c)),
+            **thevenin(impedance),
             input_load=InputLoad(conductance=float(np.max(1.0 / v["r"]))),
         )
 
