@@ -184,7 +184,7 @@ def test_the_per_draw_reference_agrees_on_a_tree(parts):
     chain = chain_from_text(text)
     plans = plan_chain(chain, parts)
     freqs = band_grid(chain, plans)
-    layout = montecarlo.layout_for(chain, plans, freqs, corners.run(corners.prepare(chain, plans, freqs)))
+    layout = montecarlo.layout_for(chain, plans, freqs, corners.walk(corners.prepare(chain, plans, freqs)))
     D, dT = next(montecarlo.chunks(layout, 40, 3, chunk=40))
     vector = dw.walk_draws(layout, D, dT)
     reference = per_draw.run_draws(layout, D, dT)
