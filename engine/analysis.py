@@ -14,6 +14,7 @@ import numpy as np
 from railroom.engine.checks import chain_cautions
 from railroom.engine.methods import corners
 from railroom.engine.model import Chain, InputError, Part
+from railroom.engine.nets import net_cautions
 from railroom.engine.plan import frequency_grid, plan_chain
 from railroom.engine.results import ChainResult
 
@@ -128,7 +129,7 @@ def analyse(
         stages=tuple(stages),
         go=all(s.go for s in stages),
         headroom_db=headroom_found,
-        cautions=tuple(chain_cautions(chain)),
+        cautions=(*chain_cautions(chain), *net_cautions(chain, plans)),
         chain_yield=chain_yield,
         rare=rare,
     )
