@@ -204,3 +204,21 @@ def test_too_many_shared_values_fall_back_to_an_outside_bound_with_a_caution():
     assert any("9 shared values vary" in c for c in result.cautions)
     fewer = text.replace('[nets.n8]\nvalue = "1 1%"', '[nets.n8]\nvalue = "1"')
     assert not analyse(chain_from_text(fewer), PARTS, design_aids=False, headroom=False).cautions
+
+
+def statistical_top(tolerance: str, high: str, method: str) -> float:
+    return top_margin(ratiometric_chain(tolerance, high, method))
+
+
+@pytest.mark.parametrize("method", ["rss", "montecarlo"])
+def test_the_statistical_methods_share_the_net_and_its_rail_with_every_stage(method):
+    # one column per net and the rail's own column: the ratiometric window keeps its room at
+    # any rail tolerance (the draws differ between the two files: the 5 % file has the rail
+    # columns more, so Monte Carlo's 0.1 % percentile of the offset's share moves by a few uV)
+    ratio_0, ratio_5 = (statistical_top(t, '{ net = "half" }', method) for t in ("0%", "5%"))
+    assert ratio_0 == pytest.approx(ratiometric_top(5.0), abs=1e-5)
+    assert ratio_5 == pytest.approx(ratio_0, abs=2e-5)
+    fixed_0, fixed_5 = (statistical_top(t, '"2.5"', method) for t in ("0%", "5%"))
+    # the fixed top loses up to 0.125 V (rss: nominal - 3 sigma capped at the extreme value;
+    # Monte Carlo: the rail's 0.1 % percentile)
+    assert fixed_0 - fixed_5 > 0.1
