@@ -222,3 +222,31 @@ def test_the_statistical_methods_share_the_net_and_its_rail_with_every_stage(met
     # the fixed top loses up to 0.125 V (rss: nominal - 3 sigma capped at the extreme value;
     # Monte Carlo: the rail's 0.1 % percentile)
     assert fixed_0 - fixed_5 > 0.1
+
+
+def test_the_json_report_lists_the_nets_with_their_spans():
+    from railroom.engine.report import chain_report
+
+    text = ratiometric_chain("5%", '{ net = "half" }')
+    report = chain_report(analyse(chain_from_text(text), PARTS, design_aids=False, headroom=False))
+    # half: 0.5 x 5 V (1 -/+ 5 %) = [2.375, 2.625]; quarter: 0.25 x the same
+    assert report["nets"] == [
+        {
+            "name": "quarter",
+            "kind": "ratiometric",
+            "rail": "converter",
+            "fraction": 0.25,
+            "nominal": 1.25,
+            "span": [1.1875, 1.3125],
+            "stages": [1],
+        },
+        {
+            "name": "half",
+            "kind": "ratiometric",
+            "rail": "converter",
+            "fraction": 0.5,
+            "nominal": 2.5,
+            "span": [2.375, 2.625],
+            "stages": [2],
+        },
+    ]
