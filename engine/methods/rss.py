@@ -39,6 +39,23 @@ def quoted(lin: Linearised, name: str, x: np.ndarray, s: float) -> float:
     )
 
 
+def within_corners(stat: dict, worst) -> dict:
+    """rss never quotes a margin below the worst case (the README's rss rule): the linear
+    model's extreme can pass the exact corners by a cross term the corners keep (a ratiometric
+    net is fraction x rail: the product's corner lies inside the linear extreme by
+    tol_f tol_rail x value), so each quoted margin is held at or above the corners'. Spans are
+    quoted as the linear model gives them."""
+    floors = {
+        "output-high": worst.window[1] - worst.output[1],
+        "output-low": worst.output[0] - worst.window[0],
+        "input-high": worst.input_window[1] - worst.input[1],
+        "input-low": worst.input[0] - worst.input_window[0],
+        "slew": worst.slew_available - worst.slew_needed,
+        "current": worst.current_available - worst.current_needed,
+    }
+    return {name: max(value, floors[name]) if name in floors else value for name, value in stat.items()}
+
+
 def run(chain, plans, freqs, corner_stages, lin: Linearised | None = None):
     lin = lin or linearise(layout_for(chain, plans, freqs, corner_stages, band="full"))
     s = spread_per_unit(chain.conditions.distribution)
@@ -53,10 +70,14 @@ def run(chain, plans, freqs, corner_stages, lin: Linearised | None = None):
                 {n: quoted(lin, n, x, s) for n, x in amp["spans"].items() if not n.startswith("window")}
             )
             amps.append(stat)
+        amps = [within_corners(stat, worst) for stat, worst in zip(amps, corner.measure.opamps)]
         out_span = (quoted(lin, "out-low", draws.out_lo, s), quoted(lin, "out-high", draws.out_hi, s))
         window = None
         if plan.block.window_only:
-            window = {c: quoted(lin, c, draws.margins[c], s) for c in ("input-high", "input-low")}
+            window = {
+                c: max(quoted(lin, c, draws.margins[c], s), corner.margins.get(c, -np.inf))
+                for c in ("input-high", "input-low")
+            }
         result = judged(plan, corner, amps, out_span, window, chain.conditions.margin, clipped_before)
         clipped_before = clipped_before or result.regime == "clipping"
         results.append(result)

@@ -250,3 +250,19 @@ def test_the_json_report_lists_the_nets_with_their_spans():
             "stages": [2],
         },
     ]
+
+
+def test_rss_never_quotes_a_margin_below_the_corners_of_a_ratiometric_product():
+    # the bias stage's + input sits at 0.25 (1 +/- 1 %) x V (1 +/- 5 %); its room to the top of
+    # the input range is V - 0.25 f V, least at V low and f high: 0.75 V_lo - 0.25 x 0.01 x V_lo.
+    # The linear model's extreme adds the cross term 0.25 x 0.01 x 0.05 x 5 V = 0.6 mV more,
+    # which no circuit reaches: rss quotes the corners' margin there (the README: rss never
+    # reports a margin smaller than corners)
+    text = ratiometric_chain("5%", '{ net = "half" }').replace('fraction = "0.25"', 'fraction = "0.25 1%"')
+    corners = analyse(chain_from_text(text), PARTS, design_aids=False, headroom=False)
+    rss = analyse(chain_from_text(text), PARTS, method="rss", design_aids=False, headroom=False)
+    exact = 4.75 - 0.25 * 1.01 * 4.75  # the + input sits at ref: the offset moves no common mode
+    assert corners.stages[0].margins["input-high"] == pytest.approx(exact, abs=1e-9)
+    for worst, statistical in zip(corners.stages, rss.stages):
+        for check, margin in worst.margins.items():
+            assert statistical.margins[check] >= margin - 1e-12, (worst.index, check)
