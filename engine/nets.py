@@ -87,6 +87,15 @@ def read_fraction(t: dict, w: str, r) -> Quantity | None:
         r.problem(f"{w}.fraction", 'missing; expected a divider\'s ratio such as "0.5 0.1%"')
         return None
     try:
+        return parse_fraction(raw)
+    except ValueTextError as err:
+        r.problem(f"{w}.fraction", str(err))
+        return None
+
+
+def parse_fraction(raw) -> Quantity:
+    """A divider's ratio as written ("0.5 0.1%"); raises ValueTextError saying what was expected."""
+    try:
         if isinstance(raw, str) and len(raw.split(None, 1)) == 2:
             head, tail = raw.split(None, 1)
             extras = parse_quantity(f"1 {tail}", "voltage")
@@ -94,15 +103,11 @@ def read_fraction(t: dict, w: str, r) -> Quantity | None:
         else:
             q = parse_quantity(raw, "fraction")
     except ValueTextError:
-        r.problem(
-            f"{w}.fraction",
-            f'expected a divider\'s ratio such as "0.5 0.1%" (above 0, at most 1, with its '
-            f"tolerance), got {raw!r}",
-        )
-        return None
+        raise ValueTextError(
+            'a divider\'s ratio such as "0.5 0.1%" (above 0, at most 1, with its tolerance)', repr(raw)
+        ) from None
     if not 0 < q.value <= 1:
-        r.problem(f"{w}.fraction", f"expected a divider's ratio above 0 and at most 1, got {q.value:g}")
-        return None
+        raise ValueTextError("a divider's ratio above 0 and at most 1", f"{q.value:g}")
     return q
 
 
