@@ -266,3 +266,15 @@ def test_rss_never_quotes_a_margin_below_the_corners_of_a_ratiometric_product():
     for worst, statistical in zip(corners.stages, rss.stages):
         for check, margin in worst.margins.items():
             assert statistical.margins[check] >= margin - 1e-12, (worst.index, check)
+
+
+def test_the_markdown_report_lists_the_nets_in_its_conditions():
+    from railroom.engine.markdown import markdown_report
+
+    text = ratiometric_chain("5%", '{ net = "half" }')
+    report = markdown_report(analyse(chain_from_text(text), PARTS, design_aids=False, headroom=False))
+    # 0.25 x 5 V (1 -/+ 5 %) and 0.5 x the same
+    assert (
+        "| nets | quarter: 0.25 x converter +, 1.19 V to 1.31 V; half: 0.5 x converter +, 2.38 V to 2.62 V |"
+        in report
+    )
