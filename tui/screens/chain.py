@@ -48,7 +48,7 @@ def net_label(name: str, field: str, width: int = 17) -> str:
 class ChainScreen(Screen):
     BINDINGS = [
         key("e", "edit_stage", "edit", "edit", "Edit the highlighted stage's values and part (enter too)"),
-        key("s", "edit_source", "source", "source", "Edit the source: levels, amplitude, band"),
+        key("s", "edit_source", "source", "source", "Edit the source (levels, amplitude, band) and the nets"),
         key(
             "o",
             "edit_conditions",
