@@ -122,6 +122,12 @@ _EXPORTS = {
     "against_markdown": "reports.compare",
     # the bench
     "bench_figures": "benchmark.figures:run",
+    "NetValue": "circuit.model",
+    "stage_quantities": "walks.preparation",
+    "net_shapes": "formats.chain_editing",
+    "net_fields": "formats.chain_editing",
+    "set_net_field": "formats.chain_editing",
+    "net_span": "circuit.nets",
 }
 
 if TYPE_CHECKING:  # the same names for the type checker (a test keeps the two in step)
@@ -218,6 +224,12 @@ if TYPE_CHECKING:  # the same names for the type checker (a test keeps the two i
     from railroom.engine.reports.compare import against_report as against_report
     from railroom.engine.reports.compare import against_markdown as against_markdown
     from railroom.engine.benchmark.figures import run as bench_figures  # noqa: F401 - exported
+    from railroom.engine.circuit.model import NetValue as NetValue
+    from railroom.engine.walks.preparation import stage_quantities as stage_quantities
+    from railroom.engine.formats.chain_editing import net_shapes as net_shapes
+    from railroom.engine.formats.chain_editing import net_fields as net_fields
+    from railroom.engine.formats.chain_editing import set_net_field as set_net_field
+    from railroom.engine.circuit.nets import net_span as net_span
 
 __all__ = sorted(_EXPORTS)
 

@@ -13,6 +13,7 @@ from railroom.engine.verdict.judge import chain_cautions
 from railroom.engine.methods import Setup, corners
 from railroom.engine.methods import run as run_method
 from railroom.engine.circuit.model import Chain, Part
+from railroom.engine.circuit.nets import net_cautions
 from railroom.engine.aids.headroom import headroom_db
 from railroom.engine.walks.gain_error import gain_errors
 from railroom.engine.walks.preparation import band_grid, plan_chain
@@ -113,7 +114,7 @@ def analyse(
         stages=tuple(stages),
         go=all(s.go for s in stages),
         headroom_db=headroom_found,
-        cautions=tuple(chain_cautions(chain)),
+        cautions=(*chain_cautions(chain), *net_cautions(chain, plans)),
         chain_yield=chain_yield,
         rare=rare,
     )

@@ -77,10 +77,12 @@ def quantity_name(var: dw.Variable, stage: int) -> str:
 
 def quantity_words(name: str) -> str:
     """A quantity id as the detail panel says it: "rails.analog.positive" -> "analog rail +",
-    "stage.2.offset" -> "stage 2 offset", "inputs.3.r" -> "input 3 r", "bias" -> "bias current"."""
+    "stage.2.offset" -> "stage 2 offset", "nets.mid" -> "net mid", "inputs.3.r" -> "input 3 r", "bias" -> "bias current"."""
     parts = name.split(".")
     if parts[0] == "rails" and len(parts) == 3:
         return f"{parts[1]} rail {'+' if parts[2] == 'positive' else '-'}"
+    if parts[0] == "nets" and len(parts) >= 2:
+        return f"net {'.'.join(parts[1:])}"
     prefix = ""
     if parts[0] == "stage" and len(parts) >= 3:
         prefix, parts = f"stage {parts[1]} ", parts[2:]

@@ -76,9 +76,14 @@ class Rails:
     positive: float
     negative: float
     tolerance: float = 0.0
+    # the positive voltage held at one value: one joint corner of the shared values (a
+    # ratiometric net follows this rail, so its windows and the net take the same end)
+    pinned: float | None = None
 
     @property
     def positive_range(self) -> tuple[float, float]:
+        if self.pinned is not None:
+            return (self.pinned, self.pinned)
         ends = (self.positive * (1 - self.tolerance), self.positive * (1 + self.tolerance))
         return (min(ends), max(ends))
 
@@ -126,6 +131,32 @@ class Source:
 
 
 @dataclass(frozen=True)
+class Net:
+    """A named DC voltage shared by the stages that use it (the README's File formats, [nets]):
+    a fixed reference (`value`) or a ratiometric one (`fraction` of `rail`'s positive voltage)."""
+
+    name: str
+    value: Quantity | None = None  # a fixed reference: value, tolerance, tempco
+    rail: str | None = None  # ratiometric: the rails table it follows
+    fraction: Quantity | None = None  # ratiometric: the divider's ratio with its tolerance
+    line: int | None = None
+
+    @property
+    def ratiometric(self) -> bool:
+        return self.rail is not None
+
+
+@dataclass(frozen=True)
+class NetValue(Quantity):
+    """A voltage field written `{ net = "NAME" }`: the net's nominal value with a tolerance that
+    covers every end of it (its own and, for a ratiometric net, the rail's), so a path that
+    treats it as a stage's own value bounds it from outside; the walks that know nets give it
+    one value shared by every stage (methods/corners.py, draw_walk.py)."""
+
+    net: str = ""
+
+
+@dataclass(frozen=True)
 class Stage:
     name: str
     block: str
@@ -153,6 +184,7 @@ class Chain:
     stages: tuple[Stage, ...]
     preset_dirs: tuple[str, ...] = ()
     path: str = "<chain>"
+    nets: Mapping[str, Net] = field(default_factory=dict)
 
     @property
     def parents(self) -> tuple[int, ...]:

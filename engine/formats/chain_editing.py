@@ -19,6 +19,7 @@ from railroom.engine.reports.block_help import COMMON_HELP
 from railroom.engine.circuit.blocks import BLOCKS
 from railroom.engine.circuit.model import DISTRIBUTIONS, METHODS
 from railroom.engine.formats.values import ValueTextError, parse_quantity
+from railroom.engine.circuit.nets import parse_fraction
 
 
 @dataclass(frozen=True)
@@ -96,11 +97,14 @@ def value_problem(raw: str, shape: FieldShape) -> str | None:
                         f'input {number}: expected "r, v" (a resistance, a voltage), got {";".join(entry)!r}'
                     )
                 parse_quantity(entry[0], "resistance")
-                parse_quantity(entry[1], "voltage")
+                if not net_named(entry[1]):
+                    parse_quantity(entry[1], "voltage")
         elif shape.form in ("choice", "text"):
             if shape.choices and text not in shape.choices:
                 return f"expected one of {', '.join(shape.choices)}, got {raw!r}"
-        elif text:
+        elif shape.form == "ratio":
+            parse_fraction(text)
+        elif text and not (shape.kind == "voltage" and net_named(text)):
             parse_quantity(text, shape.kind)
     except ValueTextError as err:
         return str(err)
@@ -122,10 +126,27 @@ def toml_value(raw: str, shape: FieldShape):
         inputs = tomlkit.array()
         for r, v in _entries(text):
             entry = tomlkit.inline_table()
-            entry.update({"r": r, "v": v})
+            entry.update({"r": r, "v": net_reference(v) if net_named(v) else v})
             inputs.append(entry)
         return inputs
+    if shape.kind == "voltage" and net_named(text):
+        return net_reference(text)
     return text or None
+
+
+def net_named(text: str) -> str | None:
+    """The net a form's text names ("net mid" stands for { net = "mid" }), or None."""
+    words = text.strip()
+    if words.startswith("net ") and words[4:].strip():
+        return words[4:].strip()
+    return None
+
+
+def net_reference(text: str):
+    """{ net = "NAME" } for the form's "net NAME"."""
+    reference = tomlkit.inline_table()
+    reference["net"] = net_named(text)
+    return reference
 
 
 def _entries(text: str) -> list[list[str]]:
@@ -139,6 +160,8 @@ def shown(value) -> str:
         return ""
     if isinstance(value, bool):
         return "true" if value else "false"
+    if isinstance(value, dict) and list(value) == ["net"]:
+        return f"net {value['net']}"
     if isinstance(value, list) and value and all(isinstance(v, dict) for v in value):
         return "; ".join(f"{shown(v.get('r'))}, {shown(v.get('v'))}" for v in value)
     if isinstance(value, list):
@@ -181,6 +204,48 @@ def set_section_field(text: str, section: str, key: str, value) -> str:
             return text
         document.add(section, tomlkit.table())
     _put(document[section], key, value)
+    return tomlkit.dumps(document)
+
+
+NET_VALUE_HELP = 'fixed net: value, tolerance, tempco, e.g. "2.5 0.5% 20ppm" (stages read it as "net NAME")'
+NET_FRACTION_HELP = 'ratiometric net: a divider\'s ratio of the rail, e.g. "0.5 0.1%"'
+
+
+def net_shapes(text: str) -> dict[str, tuple[str, str, FieldShape]]:
+    """The fields of every [nets.NAME] table as a form shows them: form key -> (net, key, shape).
+    Form keys are "net-N-value", "net-N-rail", "net-N-fraction" (N: the net's place in the file)."""
+    document = tomlkit.parse(text)
+    rails = tuple(document.get("rails", {}))
+    found: dict[str, tuple[str, str, FieldShape]] = {}
+    for number, (name, table) in enumerate(document.get("nets", {}).items(), start=1):
+        if not isinstance(table, dict):
+            continue
+        if "rail" in table or "fraction" in table:
+            found[f"net-{number}-rail"] = (
+                name,
+                "rail",
+                FieldShape("text", "choice", rails, "the rail it follows"),
+            )
+            found[f"net-{number}-fraction"] = (
+                name,
+                "fraction",
+                FieldShape("fraction", "ratio", help=NET_FRACTION_HELP),
+            )
+        else:
+            found[f"net-{number}-value"] = (name, "value", FieldShape("voltage", help=NET_VALUE_HELP))
+    return found
+
+
+def net_fields(text: str) -> dict[str, str]:
+    """Each net field's text as a form shows it, keyed as net_shapes."""
+    nets = tomlkit.parse(text).get("nets", {})
+    return {key: shown(nets[name].get(field)) for key, (name, field, _) in net_shapes(text).items()}
+
+
+def set_net_field(text: str, name: str, key: str, value) -> str:
+    """Set (or, with None, remove) one field of [nets.NAME]."""
+    document = tomlkit.parse(text)
+    _put(document["nets"][name], key, value)
     return tomlkit.dumps(document)
 
 

@@ -18,8 +18,9 @@ from railroom.engine.circuit.model import (
 )
 from railroom.engine.formats.fields import MAX_TEXT, FieldReader, FileUnreadable, parse_toml, read_user_file
 from railroom.engine.formats.values import Quantity, has_control, visible
+from railroom.engine.circuit.nets import net_value, read_nets
 
-TOP_KEYS = ("format", "title", "presets", "conditions", "rails", "source", "stage")
+TOP_KEYS = ("format", "title", "presets", "conditions", "rails", "source", "stage", "nets")
 CONDITION_KEYS = ("temperature", "margin", "method", "samples", "seed", "distribution", "default_tolerance")
 SOURCE_KEYS = ("kind", "level", "difference", "amplitude", "band", "impedance")
 DEFAULT_TOLERANCE_KINDS = ("resistance", "capacitance")
@@ -69,7 +70,11 @@ def _read_chain(data: dict, r: FieldReader, path: str) -> Chain | None:
     conditions = _read_conditions(_table(data, "conditions", r), r)
     rails = _read_rails(data.get("rails"), r)
     source = _read_source(_table(data, "source", r), r)
+    nets = read_nets(data.get("nets"), r, rails)
+    # `{ net = NAME }` reads in a stage's voltage fields (FieldReader.net_reference)
+    r.nets = {name: None if net is None else net_value(net, rails) for name, net in nets.items()}
     stages = _read_stages(data.get("stage"), r, rails, conditions)
+    r.nets = None
     presets = data.get("presets", [])
     if not isinstance(presets, list) or not all(isinstance(p, str) for p in presets):
         r.problem("presets", "expected a list of folder names")
@@ -94,6 +99,7 @@ def _read_chain(data: dict, r: FieldReader, path: str) -> Chain | None:
         stages=tuple(stages),
         preset_dirs=tuple(str((base / p).resolve()) for p in presets),
         path=path,
+        nets={name: net for name, net in nets.items() if net is not None},
     )
 
 

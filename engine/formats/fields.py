@@ -230,6 +230,9 @@ class FieldReader:
     path: str
     text: str
     problems: list[Problem] = field(default_factory=list)
+    # net name -> what `{ net = NAME }` reads as (None: the net itself has a problem); None
+    # outside a chain's stages, where a net takes the place of no value
+    nets: dict | None = None
 
     def __post_init__(self) -> None:
         self.lines = key_lines(self.text)
@@ -254,11 +257,47 @@ class FieldReader:
                 self.problem(name, f"missing; expected {_expected(kind)}", label)
                 return None
             return None if default is None else Quantity(float(default))
+        if isinstance(raw, dict):
+            return self.net_reference(raw, name, kind, label)
         try:
             return parse_quantity(raw, kind)
         except ValueTextError as err:
             self.problem(name, str(err), label)
             return None
+
+    def net_reference(self, raw: dict, name: str, kind: str, label: str | None) -> Quantity | None:
+        """`{ net = "NAME" }` in place of a voltage (the README's File formats, [nets.NAME])."""
+        if "net" not in raw or len(raw) != 1 or not isinstance(raw["net"], str):
+            self.problem(name, f'expected {_expected(kind)}, or {{ net = "NAME" }} for a voltage', label)
+            return None
+        if kind != "voltage":
+            self.problem(
+                name,
+                f"a net is a voltage, and this field takes no voltage: expected {_expected(kind)}",
+                label,
+            )
+            return None
+        if self.nets is None:
+            self.problem(name, "a net is taken by a stage's voltage fields only, not here", label)
+            return None
+        wanted = raw["net"]
+        if wanted not in self.nets:
+            known = ", ".join(sorted(self.nets))
+            hint = _closest(wanted, self.nets)
+            self.problem(
+                name,
+                f"no net named {wanted!r}"
+                + (
+                    f"; did you mean {hint!r}?"
+                    if hint
+                    else f"; expected one of {known}"
+                    if known
+                    else f"; add a table [nets.{wanted}]"
+                ),
+                label,
+            )
+            return None
+        return self.nets[wanted]
 
     def number(
         self, table: dict, where: str, key: str, kind: str, default=_MISSING, label: str | None = None

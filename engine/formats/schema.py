@@ -32,6 +32,49 @@ def value(kind: str, description: str = "") -> dict:
     return {"description": f"{description} ({about})" if description else about, "anyOf": [number, text]}
 
 
+NET_REFERENCE = {
+    "type": "object",
+    "properties": {"net": {"type": "string", "description": "a [nets.NAME] table's name"}},
+    "required": ["net"],
+    "additionalProperties": False,
+}
+
+
+def voltage_field(description: str = "") -> dict:
+    """A stage's voltage: a value, or { net = "NAME" } (the README's File formats, Named DC nets)."""
+    schema = value("voltage", description)
+    schema["anyOf"] = [*schema["anyOf"], NET_REFERENCE]
+    return schema
+
+
+NET = {
+    "description": "a named DC voltage shared by stages: fixed (value) or ratiometric (rail, fraction)",
+    "oneOf": [
+        {
+            "type": "object",
+            "properties": {"value": value("voltage", 'value, tolerance, tempco, e.g. "2.5 0.5% 20ppm"')},
+            "required": ["value"],
+            "additionalProperties": False,
+        },
+        {
+            "type": "object",
+            "properties": {
+                "rail": {
+                    "type": "string",
+                    "description": "the [rails.NAME] whose positive voltage it follows",
+                },
+                "fraction": {
+                    "description": 'a divider\'s ratio with its tolerance, e.g. "0.5 0.1%" (above 0, at most 1)',
+                    "anyOf": [{"type": "number", "exclusiveMinimum": 0, "maximum": 1}, {"type": "string"}],
+                },
+            },
+            "required": ["rail", "fraction"],
+            "additionalProperties": False,
+        },
+    ],
+}
+
+
 def pair(kind: str, description: str) -> dict:
     return {"description": description, "type": "array", "minItems": 2, "maxItems": 2, "items": value(kind)}
 
@@ -111,11 +154,13 @@ def block_field(spec) -> dict:
         item = table(
             {
                 "r": value("resistance", "from the fixed voltage to the - input"),
-                "v": value("voltage", "the fixed voltage, V"),
+                "v": voltage_field("the fixed voltage, V"),
             },
             ("r", "v"),
         )
         schema = {"type": "array", "items": item, "description": spec.help}
+    elif spec.kind == "voltage":
+        schema = voltage_field(spec.help)
     else:
         schema = value(spec.kind, spec.help)
     if not spec.required and spec.default is not None:
@@ -167,6 +212,11 @@ def chain_schema() -> dict:
             },
             "source": table(matching(SOURCE, files.SOURCE_KEYS, "[source]")),
             "stage": {"type": "array", "minItems": 1, "items": stage_schema()},
+            "nets": {
+                "type": "object",
+                "additionalProperties": NET,
+                "description": "named DC voltages shared by stages: [nets.mid]",
+            },
         },
         files.TOP_KEYS,
         "the chain file",
@@ -300,6 +350,22 @@ def report_schema() -> dict:
             "cautions": {"type": "array", "items": {"type": "string"}},
             "stages": {"type": "array", "items": stage},
             "yield": {"type": ["number", "null"], "minimum": 0, "maximum": 1},
+            "nets": {
+                "type": "array",
+                "items": {
+                    "type": "object",
+                    "required": ["name", "kind", "rail", "nominal", "span", "stages"],
+                    "properties": {
+                        "name": {"type": "string"},
+                        "kind": {"enum": ["fixed", "ratiometric"]},
+                        "rail": {"type": ["string", "null"]},
+                        "fraction": NUMBER,
+                        "nominal": NUMBER,
+                        "span": {"type": "array", "items": NUMBER, "minItems": 2, "maxItems": 2},
+                        "stages": {"type": "array", "items": {"type": "integer", "minimum": 1}},
+                    },
+                },
+            },
         },
     }
 

@@ -2,7 +2,9 @@
 
 Each stage enumerates the 2^k corners of its own toleranced values (resistor tolerance and tempco
 over the worst temperature, toleranced references); offsets and bias currents are independent
-+/- terms added exactly; rails enter at both ends through the windows; the source at both ends of
++/- terms added exactly; rails enter at both ends through the windows; values several stages
+share (named nets, and the rail a ratiometric net follows) take one value per walk: the chain is
+walked once per joint corner of them and the envelope kept (methods/joint.py); the source at both ends of
 each range and the AC part at +/- its peak over every band frequency. The signal between stages is
 carried as bounds (see propagation.py): exact for DC and flat-band stages, outside bounds
 otherwise (ECSS-Q-HB-30-01A, extreme value analysis).
@@ -23,6 +25,8 @@ from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
 from railroom.engine.walks.preparation import StagePlan, spread
 from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, source_signal
 from railroom.engine.walks.bounds_walk import plan_parents, walk_chain
+from railroom.engine.methods.joint import envelope
+from railroom.engine.circuit.nets import joint_plans
 
 MAX_CORNER_BITS = 14  # 16384 corners of one stage's own values
 
@@ -41,6 +45,9 @@ class Prepared:
     joint: tuple[bool, ...] = ()
     # what walks of this Prepared may keep for the next walk (stage_walk: node terms)
     memo: dict = field(default_factory=dict, compare=False, repr=False)
+    # one Prepared per joint corner of the values stages share (named nets, the rails that
+    # ratiometric nets follow: engine/circuit/nets.py); `run` walks each and takes the envelope
+    joint_walks: tuple[Prepared, ...] = ()
 
 
 class TooManyCorners(InputError):
@@ -190,7 +197,11 @@ def prepare(
         values.append(v)
         responses.append(response)
         joint.append(paired)
-    return Prepared(chain, plans, freqs, values, responses, tuple(joint))
+    walks: tuple[Prepared, ...] = ()
+    if not nominal and reuse is None:
+        variants = joint_plans(chain, plans) or []
+        walks = tuple(prepare(chain, pinned, freqs, nominal, ideal) for pinned in variants)
+    return Prepared(chain, plans, freqs, values, responses, tuple(joint), joint_walks=walks)
 
 
 def start_signal(chain: Chain, freqs: np.ndarray, scale: float = 1.0) -> Signal | DifferentialSignal:
@@ -211,7 +222,15 @@ def walk(
     prepared: Prepared, scale: float = 1.0, nominal: bool = False, notes=None, entering: list | None = None
 ):
     """Stage measures and verdicts for one source amplitude scale; `notes` are per-stage measure
-    fields known beforehand (nominal span, gain error); `entering` receives each stage's input."""
+    fields known beforehand (nominal span, gain error); `entering` receives each stage's input.
+    With shared values (nets) the chain is walked once per joint corner and the envelope taken;
+    `entering` (the fix search's re-walks) takes the walk with each net at every end of its
+    own, stage by stage, an outside bound."""
+    if prepared.joint_walks and entering is None:
+        walks = [
+            walk_chain(p, start_signal(p.chain, p.freqs, scale), nominal, notes) for p in prepared.joint_walks
+        ]
+        return envelope(walks, prepared.plans, prepared.chain.conditions.margin)
     return walk_chain(
         prepared, start_signal(prepared.chain, prepared.freqs, scale), nominal, notes, entering=entering
     )

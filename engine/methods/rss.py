@@ -40,6 +40,23 @@ def quoted(lin: Linearised, name: str, x: np.ndarray, s: float) -> float:
     )
 
 
+def within_corners(stat: dict, worst) -> dict:
+    """rss never quotes a margin below the worst case (the README's rss rule): the linear
+    model's extreme can pass the exact corners by a cross term the corners keep (a ratiometric
+    net is fraction x rail: the product's corner lies inside the linear extreme by
+    tol_f tol_rail x value), so each quoted margin is held at or above the corners'. Spans are
+    quoted as the linear model gives them."""
+    floors = {
+        "output-high": worst.window[1] - worst.output[1],
+        "output-low": worst.output[0] - worst.window[0],
+        "input-high": worst.input_window[1] - worst.input[1],
+        "input-low": worst.input[0] - worst.input_window[0],
+        "slew": worst.slew_available - worst.slew_needed,
+        "current": worst.current_available - worst.current_needed,
+    }
+    return {name: max(value, floors[name]) if name in floors else value for name, value in stat.items()}
+
+
 def run(setup: Setup, progress: Progress | None = None) -> Outcome:
     """Stage results at nominal -/+ 3 sigma of the linearisation (`setup.lin`, built here when
     the caller has none); rss measures no yield."""
@@ -59,10 +76,14 @@ def run(setup: Setup, progress: Progress | None = None) -> Outcome:
                 {n: quoted(lin, n, x, s) for n, x in amp["spans"].items() if not n.startswith("window")}
             )
             amps.append(stat)
+        amps = [within_corners(stat, worst) for stat, worst in zip(amps, corner.measure.opamps)]
         out_span = (quoted(lin, "out-low", draws.out_lo, s), quoted(lin, "out-high", draws.out_hi, s))
         window = None
         if plan.block.window_only:
-            window = {c: quoted(lin, c, draws.margins[c], s) for c in ("input-high", "input-low")}
+            window = {
+                c: max(quoted(lin, c, draws.margins[c], s), corner.margins.get(c, -np.inf))
+                for c in ("input-high", "input-low")
+            }
         result = judged(plan, corner, amps, out_span, window, chain.conditions.margin, clipped_before)
         clipping.append(clipped_before or result.regime == "clipping")
         results.append(result)

@@ -71,6 +71,8 @@ def describe(name: str) -> dict | None:
                 "unit": KIND_UNITS.get(spec.kind, ""),
                 "default": _default(spec),
                 "connects": spec.help,
+                # a stage voltage also takes { net = "NAME" } (the README, Named DC nets)
+                "takes_net": spec.kind == "voltage",
             }
             for key, spec in block.fields.items()
         ],

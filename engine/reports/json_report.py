@@ -109,6 +109,8 @@ def chain_report(result: ChainResult) -> dict:
         "cautions": cautions,
         "stages": [stage_report(s, feed) for s, feed in zip(result.stages, feeds(result.stages))],
     }
+    if result.chain.nets:
+        report["nets"] = nets_report(result)
     if result.chain_yield is not None:
         from railroom.engine.methods.rare import failing_draws, wilson
 
@@ -128,3 +130,35 @@ def chain_report(result: ChainResult) -> dict:
             "stages": [_number(p) for p in rare.stages],
         }
     return report
+
+
+def nets_report(result: ChainResult) -> list[dict]:
+    """Each named net with its span over its tolerance, tempco and (ratiometric) rail, and the
+    stages that read it (an extension documented in the README)."""
+    from railroom.engine.circuit.model import NetValue
+    from railroom.engine.circuit.nets import net_span
+    from railroom.engine.walks.preparation import stage_quantities
+
+    found = []
+    for name, net in result.chain.nets.items():
+        low, high = net_span(result.chain, net)
+        users = [
+            s.index
+            for s in result.stages
+            if any(isinstance(q, NetValue) and q.net == name for q in stage_quantities(s.stage).values())
+        ]
+        nominal = net.value.value if net.value is not None else None
+        if net.fraction is not None and net.rail is not None:
+            nominal = net.fraction.value * result.chain.rails[net.rail].positive
+        found.append(
+            {
+                "name": name,
+                "kind": "ratiometric" if net.ratiometric else "fixed",
+                "rail": net.rail,
+                "fraction": None if net.fraction is None else _number(net.fraction.value),
+                "nominal": _number(nominal),
+                "span": [_number(low), _number(high)],
+                "stages": users,
+            }
+        )
+    return found

@@ -120,12 +120,26 @@ def conditions(result: ChainResult) -> str:
         ),
         ("headroom", headroom_words(result.headroom_db)),
     ]
+    if chain.nets:
+        rows.insert(-1, ("nets", nets_words(result)))
     if result.chain_yield is not None:
         from railroom.engine.methods.rare import yield_words
 
         rows.append(("yield", yield_words(result.chain_yield, result.samples or 0, result.rare)))
     lines = ["## Conditions and method", "", "| | |", "|---|---|"]
     return "\n".join(lines + [f"| {k} | {v} |" for k, v in rows])
+
+
+def nets_words(result: ChainResult) -> str:
+    """Each named net with what it is and its span (one value per corner or draw, shared)."""
+    from railroom.engine.circuit.nets import net_span
+
+    words = []
+    for name, net in result.chain.nets.items():
+        low, high = net_span(result.chain, net)
+        what = f"{net.fraction.value:g} x {md(net.rail or '')} +, " if net.fraction is not None else ""
+        words.append(f"{md(name)}: {what}{volts(low)} to {volts(high)}")
+    return "; ".join(words)
 
 
 def headroom_words(db: float | None) -> str:

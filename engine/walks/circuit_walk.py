@@ -7,6 +7,9 @@ d = +/-1 at the ends of its tolerance:
     value    = nominal (1 + tol d_tol) (1 + tempco dT d_tc)       dT = |T - 25 C| of the row
     offset   = offset d_os + offset_drift dT d_dr      bias = hot bias d_b (part_limits)
     rail     = nominal (1 + tol d)                      (positive and negative rails apart)
+    net      = value (1 + tol d_tol) (1 + tempco dT d_tc)   (one column per net, every stage's)
+               ratiometric: fraction (1 + tol d_tol) (1 + tempco dT d_tc) x its rail's positive
+               (the very column of that rail, so its windows and the net move together)
 
 The signal stays the operating envelope (both ends of the source ranges, +/- the AC peak, every
 frequency evaluated), carried per row as Signal arrays (J, F) with no reduction over rows: for one
@@ -49,6 +52,8 @@ from railroom.engine.walks.bounds_walk import (
     stage_loads,
     tree_children,
 )
+from railroom.engine.circuit.model import NetValue
+from railroom.engine.circuit.nets import used_nets
 
 SATURATED_CHECKS = ("input-high", "input-low", "current")
 
@@ -114,6 +119,8 @@ def build_layout(
     amps = []
     for plan, response in zip(plans, prepared.responses):
         for name, q in plan.quantities.items():
+            if isinstance(q, NetValue):
+                continue  # a shared column (below), never the stage's own
             if q.tolerance:
                 variables.append(Variable(plan.index, name, "tolerance", q.tolerance))
             if q.tempco:
@@ -132,6 +139,14 @@ def build_layout(
             variables += [
                 Variable(None, f"rails.{rails.name}.positive", "rail", rails.tolerance),
                 Variable(None, f"rails.{rails.name}.negative", "rail", rails.tolerance),
+            ]
+    for name in used_nets(plans):
+        net = chain.nets[name]
+        q = net.value if net.value is not None else net.fraction
+        if q is not None:
+            variables += [
+                Variable(None, f"nets.{name}", "tolerance", q.tolerance or 0.0),
+                Variable(None, f"nets.{name}", "tempco", q.tempco or 0.0),
             ]
     variables = [v for v in variables if v.scale]
     children = tree_children(plan_parents(plans))
@@ -163,11 +178,32 @@ def stage_values(layout: Layout, plan: StagePlan, D: np.ndarray, dT: np.ndarray)
     rows = D.shape[0]
     values = {}
     for name, q in plan.quantities.items():
+        if isinstance(q, NetValue):
+            values[name] = np.broadcast_to(net_rows(layout, q.net, D, dT), (rows,))[:, None]
+            continue
         tol = _deviate(layout, D, plan.index, name, "tolerance")
         tc = _deviate(layout, D, plan.index, name, "tempco")
         value = q.value * (1 + (q.tolerance or 0.0) * tol) * (1 + (q.tempco or 0.0) * dT * tc)
         values[name] = np.broadcast_to(np.asarray(value, dtype=float), (rows,))[:, None]
     return values
+
+
+def net_rows(layout: Layout, name: str, D: np.ndarray, dT: np.ndarray) -> np.ndarray | float:
+    """The net's value per row: its own columns, and a ratiometric net's rail column."""
+    net = layout.chain.nets[name]
+    q = net.value if net.value is not None else net.fraction
+    assert q is not None
+    tol = _deviate(layout, D, None, f"nets.{name}", "tolerance")
+    tc = _deviate(layout, D, None, f"nets.{name}", "tempco")
+    value = q.value * (1 + (q.tolerance or 0.0) * tol) * (1 + (q.tempco or 0.0) * dT * tc)
+    if net.rail is not None:
+        rails = layout.chain.rails[net.rail]
+        value = (
+            value
+            * rails.positive
+            * (1 + rails.tolerance * _deviate(layout, D, None, f"rails.{rails.name}.positive", "rail"))
+        )
+    return value
 
 
 def row_rails(layout: Layout, plan: StagePlan, D: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

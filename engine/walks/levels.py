@@ -58,15 +58,19 @@ def frequency_levels(chain: Chain, parts: Mapping[str, Part]) -> list[StageLevel
     plans = plan_chain(chain, parts)
     freqs = band_grid(chain, plans)
     prepared = corners.prepare(chain, plans, freqs)
-    kept: dict = {}
-    walk_chain(prepared, corners.start_signal(chain, freqs), levels=kept)
+    # with shared values (nets) every joint walk keeps its bounds; the picture takes their union
+    walks: list[dict] = []
+    for each in prepared.joint_walks or (prepared,):
+        walks.append({})
+        walk_chain(each, corners.start_signal(chain, freqs), levels=walks[-1])
     levels: list[StageLevels | None] = []
     for k, plan in enumerate(plans):
-        bounds = kept.get(k)
-        if plan.block.saturates or bounds is None:
+        found = [kept[k] for kept in walks if k in kept]
+        if plan.block.saturates or not found:
             levels.append(None)
             continue
-        low, high = bounds.lo.min(axis=0), bounds.hi.max(axis=0)
+        low = np.min([bounds.lo.min(axis=0) for bounds in found], axis=0)
+        high = np.max([bounds.hi.max(axis=0) for bounds in found], axis=0)
         levels.append(
             StageLevels(
                 plan.index,

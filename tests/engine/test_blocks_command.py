@@ -89,10 +89,13 @@ def test_list_and_one_block(capsys):
         "unit": "ohm",
         "default": "required",
         "connects": "in to node A",
+        "takes_net": False,
     }
+    assert [f["key"] for f in info["fields"] if f["takes_net"]] == ["ref"]  # the README, Named DC nets
     assert main(["blocks", "noninverting"]) == 0
     text = capsys.readouterr().out
     assert "out = (1 + rf/rg) in - (rf/rg) ref" in text and "default 0 [V]" in text
+    assert '(a field in V also takes { net = "NAME" }' in text
 
 
 def test_unknown_block_is_refused_with_the_list(capsys):

@@ -52,7 +52,7 @@ async def test_demo_opens_and_arrows_through_stages(make_app):
     app = make_app(None)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
-        assert "NO-GO: 1 of 7 stages fail" in status_text(app)  # the demo's verdict (check command)
+        assert "NO-GO: 2 of 7 stages fail" in status_text(app)  # the demo's verdict (check command)
         assert "built-in demo (read-only)" in status_text(app)
         assert "1 pickup buffer" in detail_text(app)
         await pilot.press("j", "j", "down")

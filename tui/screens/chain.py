@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 from functools import partial
+from dataclasses import replace
 
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -15,6 +16,11 @@ from textual.screen import Screen
 from textual.widgets import ContentSwitcher, DataTable, Footer
 
 from railroom.engine import (
+    format_span,
+    net_span,
+    net_fields,
+    net_shapes,
+    set_net_field,
     BLOCKS,
     FORM_SECTIONS,
     METHODS,
@@ -49,13 +55,24 @@ def key(keys: str, action: str, words: str, ident: str, tooltip: str, show: bool
     return Binding(keys, action, words, show=show, id=f"chain.{ident}", tooltip=tooltip)
 
 
+def net_spans(chain) -> dict[str, str]:
+    """Each net's span in words (engine/circuit/nets.py), as the form's help shows it."""
+    return {name: format_span(*net_span(chain, net), "V") for name, net in chain.nets.items()}
+
+
+def net_label(name: str, field: str, width: int = 17) -> str:
+    """A net field's label in the form's key column: the field word always whole."""
+    room = width - len(field) - 1
+    return f"{name if len(name) <= room else name[: room - 1] + '…'} {field}"
+
+
 class ChainScreen(Screen):
     if TYPE_CHECKING:  # Textual's way to type `self.app` (textual.getters.app); nothing at run time
         app = getters.app(RailroomApp)
 
     BINDINGS = [
         key("e", "edit_stage", "edit", "edit", "Edit the highlighted stage's values and part (enter too)"),
-        key("s", "edit_source", "source", "source", "Edit the source: levels, amplitude, band"),
+        key("s", "edit_source", "source", "source", "Edit the source (levels, amplitude, band) and the nets"),
         key(
             "o",
             "edit_conditions",
@@ -222,7 +239,7 @@ class ChainScreen(Screen):
     # edits
     def _form(self, title: str, form_id: str, fields: list[FormField], change, focus=None) -> None:
         drafts = self.session.drafts.setdefault(form_id, {})
-        fields = [FormField(f.key, f.shape, drafts.get(f.key, f.text), f.choices) for f in fields]
+        fields = [FormField(f.key, f.shape, drafts.get(f.key, f.text), f.choices, f.label) for f in fields]
 
         def apply(field_key: str, text: str, judged) -> None:
             shape = next(f.shape for f in fields if f.key == field_key)
@@ -280,7 +297,30 @@ class ChainScreen(Screen):
         )
 
     def action_edit_source(self) -> None:
-        self._section_form("source")
+        """The source's fields, then every named net's (the DC voltages stages share)."""
+        text = self.session.text
+        nets = net_shapes(text)
+        if not nets:
+            self._section_form("source")
+            return
+        shapes = FORM_SECTIONS["source"]
+        shown = section_fields(text, "source", shapes)
+        fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
+        values = net_fields(text)
+        spans = net_spans(self.session.chain)
+        for key, (name, field, shape) in nets.items():
+            help_words = f"{name}: {spans.get(name, '')}   {shape.help}"
+            fields.append(
+                FormField(key, replace(shape, help=help_words), values[key], label=net_label(name, field))
+            )
+
+        def change(key: str, value):
+            if key in nets:
+                name, field, _ = nets[key]
+                return lambda t: set_net_field(t, name, field, value)
+            return lambda t: set_section_field(t, "source", key, value)
+
+        self._form("[source] and [nets]", "source", fields, change)
 
     def action_edit_conditions(self) -> None:
         self._section_form("conditions")

@@ -41,6 +41,8 @@ def run_blocks(args) -> int:
         for f in info["fields"]:
             unit = f" [{f['unit']}]" if f["unit"] else ""
             print(f"  {f['key']:<{width}}  {f['default']}{unit}: {f['connects']}")
+        if any(f.get("takes_net") for f in info["fields"]):
+            print('  (a field in V also takes { net = "NAME" }: a [nets.NAME] voltage shared by stages)')
     print("\nfields every stage of this block accepts:")
     width = max(len(f["key"]) for f in info["common_fields"])
     for f in info["common_fields"]:

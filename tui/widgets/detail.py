@@ -11,6 +11,9 @@ from textual.containers import VerticalScroll
 from textual.widgets import Static
 
 from railroom.engine import (
+    net_span,
+    NetValue,
+    stage_quantities,
     BLOCKS,
     CHECKS,
     GAIN_ERROR_CAUTION,
@@ -104,17 +107,40 @@ def components(stage: StageResult) -> Text:
     if getattr(s, "load_capacitance", None) is not None:
         text.append(f"load_capacitance {quantity_words(s.load_capacitance, 'capacitance')}   ")
     for key, value in s.values.items():
-        if isinstance(value, Quantity):
+        if isinstance(value, NetValue):
+            text.append(f"{key} net {value.net}   ")
+        elif isinstance(value, Quantity):
             text.append(f"{key} {quantity_words(value, kinds.get(key, ''))}   ")
         elif isinstance(value, list):
             for i, item in enumerate(value, start=1):
-                text.append(
-                    f"{key}.{i} r {quantity_words(item['r'], 'resistance')} "
-                    f"from {quantity_words(item['v'], 'voltage')}   "
-                )
+                v = item["v"]
+                source = f"net {v.net}" if isinstance(v, NetValue) else quantity_words(v, "voltage")
+                text.append(f"{key}.{i} r {quantity_words(item['r'], 'resistance')} from {source}   ")
         else:
             text.append(f"{key} {str(value).lower()}   ")
     return text if text.plain else Text("no components of its own")
+
+
+def net_words(chain: Chain, name: str) -> str:
+    """A net as the detail says it: what it is and its span (one value per corner or draw)."""
+    net = chain.nets[name]
+    span = span_words(net_span(chain, net))
+    if net.fraction is not None:
+        return f"{name} = {net.fraction.value:g} x rail {net.rail} +: {span}"
+    return f"{name}: {span}"
+
+
+def stage_nets(stage: StageResult, chain: Chain) -> Text:
+    """The nets the stage reads, each with its span."""
+
+    names = sorted(
+        {
+            q.net
+            for q in stage_quantities(stage.stage).values()
+            if isinstance(q, NetValue) and q.net in chain.nets
+        }
+    )
+    return Text("   ".join(net_words(chain, name) for name in names))
 
 
 def nodes_table(stage: StageResult) -> Table | None:
@@ -171,6 +197,9 @@ def stage_story(stage: StageResult, chain: Chain, parts: Mapping[str, Part]) -> 
             )
         )
     parts_shown.append(Text("components: ", style="bold") + components(stage))
+    read = stage_nets(stage, chain)
+    if read.plain:
+        parts_shown.append(Text("nets: ", style="bold") + read)
     nodes = nodes_table(stage)
     if nodes is not None:
         parts_shown += [Text("internal nodes", style="bold"), nodes]

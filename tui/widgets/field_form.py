@@ -88,6 +88,7 @@ class FormField:
     shape: FieldShape
     text: str  # what the field holds now (or the draft the user left)
     choices: tuple[str, ...] = ()
+    label: str = ""  # shown in place of the key (a key must be a widget id; a label need not)
 
 
 class FieldForm(VerticalScroll):
@@ -147,7 +148,7 @@ class FieldForm(VerticalScroll):
         yield Label(Text(self.title_words), classes="form-title")
         for field in self.fields.values():
             with Horizontal(classes="form-row"):
-                yield Label(Text(field.key), classes="form-key")
+                yield Label(Text(field.label or field.key), classes="form-key")
                 yield self._editor(field)
             yield Label(Text(field.shape.help), id=f"message-{field.key}", classes="form-message")
         yield Label(Text("tab next field   esc close   every change is checked at once"), classes="hint")
