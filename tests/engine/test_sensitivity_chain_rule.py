@@ -188,3 +188,27 @@ def test_rows_walked_per_stage_do_not_grow_with_the_chain(monkeypatch):
         most[n] = max(seen)
     assert most[48] == most[12]
     assert 4 * most[48] < 2 * len(layout.variables) + 1
+
+
+def test_mirror_image_checks_limit_in_the_checks_order():
+    # +/-15 V rails of one tolerance and a source centred on 0 V: a follower's input-high and
+    # input-low margins are mirror images (equal but for rounding under rss, whose chain-rule
+    # sums run in another order for each), so the first of them in the checks' order limits
+    from railroom.engine.analysis import analyse
+
+    result = analyse(chain_from_text(long_chain_text(12), "<test>"), PARTS, method="rss")
+    stage = result.stages[4]
+    assert stage.margins["input-high"] == pytest.approx(stage.margins["input-low"], rel=1e-12)
+    assert stage.limiting == "input-high"
+
+
+def test_a_margin_nothing_moves_has_no_ranking():
+    # The Schmitt trigger fed by the comparator: its input-high margin is rail - headroom - the
+    # comparator's high level (rail - its own headroom), so the rail cancels and no quantity
+    # moves it; the chain rule leaves rounding there, which is no effect
+    chain = railroom.load(str(ROOT / "tests" / "chains" / "alarms_nogo.toml"))
+    from railroom.engine.analysis import analyse
+
+    result = analyse(chain, railroom.parts_for(chain))
+    assert result.stages[2].limiting == "input-high"
+    assert result.stages[2].sensitivity == ()
