@@ -19,7 +19,7 @@ from railroom.engine.results import VOLTAGE_CHECKS, StageMeasure, StageResult
 GAIN_ERROR_CAUTION = 0.01  # the README's JSON report: a caution above 1 %
 SELV_DC_LIMIT = 60.0  # V DC between conductors: SELV (IEC 60335-1, 3.4.2), ES1 (IEC 62368-1)
 LINEAR_CHECKS = (*VOLTAGE_CHECKS, "slew", "current")
-LIMITING_TIE = 1e-12  # relative margins this close limit alike (rounding)
+LIMITING_TIE = 1e-10  # relative margins this close limit alike (rounding)
 
 
 def opamp_margins(measure: StageMeasure) -> tuple[dict[str, float], dict[str, str]]:
