@@ -58,7 +58,7 @@ def design_aids(
     Evaluator would find for the unchanged chain (see Evaluator), when the caller has them."""
     lin = lin or linearise(layout_for(chain, plans, freqs, corner_stages, band="full"))
     statistical = chain.conditions.method != "corners"
-    evaluate = Evaluator(chain, plans, freqs, baseline)
+    evaluate = Evaluator(chain, plans, freqs, baseline, lin)
     aided = []
     for plan, result in zip(plans, stages):
         sensitivity = ranking(lin, plan.index, result.limiting, statistical)
@@ -79,14 +79,18 @@ class Evaluator:
     Corners re-walks only what a change at stage k can move: stage k-1 (its load includes stage
     k's input) and the stages after it up to the last one that was GO (only those can be broken),
     fed the signal the unchanged walk had at stage k-1. The
-    corner values and responses of the stages before k are reused. rss re-runs its own method on
-    the whole chain (its sensitivities span the chain)."""
+    corner values and responses of the stages before k are reused. rss does the same and
+    re-walks its linearisation over the same stages, fed the state the unchanged chain's had
+    there (sensitivity.walk_linearised, `lin`: the unchanged chain's, with what each stage is
+    fed); the stages before keep their rss results."""
 
-    def __init__(self, chain, plans, freqs, baseline: list[StageResult] | None = None):
+    def __init__(self, chain, plans, freqs, baseline: list[StageResult] | None = None, lin=None):
         # `baseline`: results(plans) when the caller has them (corners results, or rss ones for
-        # rss): only their GO verdicts are read, which the nominal notes do not touch.
+        # rss): only their GO verdicts are read, which the nominal notes do not touch (and for
+        # rss the results of the stages before a change, which the notes do not touch either).
         self.chain, self.plans, self.freqs = chain, plans, freqs
         self._baseline = baseline
+        self._lin = lin if lin is not None and lin.entering is not None else None
         self._prepared: corners.Prepared | None = None
         self._entering: list = []
         self._unchanged: list[StageResult] = []  # the unchanged chain's corners, with _prepared
@@ -94,9 +98,10 @@ class Evaluator:
     def results(self, plans, changed: int | None = None, stop: int | None = None) -> list[StageResult]:
         """Results of stages up to `stop` (all by default) of the chain with `plans`; `changed`:
         the only stage whose plan differs from the unchanged chain's, when known."""
-        if self.chain.conditions.method == "rss" or changed is None:
+        rss = self.chain.conditions.method == "rss"
+        if changed is None or (rss and (self._lin is None or self._baseline is None)):
             found = corners.run(corners.prepare(self.chain, plans, self.freqs))
-            if self.chain.conditions.method == "rss":
+            if rss:
                 from railroom.engine.methods.rss import run
 
                 found = run(self.chain, plans, self.freqs, found)
@@ -109,8 +114,37 @@ class Evaluator:
         # with that stage's corners: start from the last stage before them that stands alone
         while first > 0 and (self._prepared.joint[first] or not self.plans[first].block.uses_part):
             first -= 1
-        prepared = corners.prepare(self.chain, plans, self.freqs, reuse=self._prepared, first=changed)
-        return [*self._unchanged[:first], *corners.run_from(prepared, first, self._entering[first], stop)]
+        prepared = corners.prepare(
+            self.chain,
+            plans,
+            self.freqs,
+            reuse=self._prepared,
+            first=changed,
+            stop=None if stop is None else stop + 1,  # stage `stop`'s input loads the last walked
+        )
+        found = [*self._unchanged[:first], *corners.run_from(prepared, first, self._entering[first], stop)]
+        return self._rss_from(plans, prepared, found, first, stop) if rss else found
+
+    def _rss_from(self, plans, prepared, found: list[StageResult], first: int, stop: int | None):
+        """rss results of the changed chain: the unchanged ones before `first`, then the stages
+        re-walked from the state the unchanged chain's linearisation had at `first`."""
+        from railroom.engine.blocks.base import InputLoad
+        from railroom.engine.methods.rss import results_of
+        from railroom.engine.sensitivity import walk_linearised
+
+        assert self._lin is not None and self._baseline is not None and self._lin.entering is not None
+        stop = len(plans) if stop is None else stop
+        after = prepared.responses[1:] + [None]
+        layout = replace(
+            self._lin.layout,
+            plans=plans,
+            loads=tuple(r.input_load if r is not None else InputLoad() for r in after),
+            corner=(*found, *self._unchanged[len(found) :]),
+        )
+        draws = walk_linearised(layout, first=first, stop=stop, start=self._lin.entering[first])
+        clipped = any(r.regime == "clipping" for r in self._baseline[:first])
+        new = results_of(self.chain, plans[first:stop], found[first:stop], draws, self._lin, clipped)
+        return [*self._baseline[:first], *new]
 
     def works(self, k: int, field: str, value: float) -> StageResult | None:
         """The changed stage's result when the change makes it GO and breaks no other stage."""

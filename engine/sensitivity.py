@@ -44,6 +44,7 @@ class Linearised:
     layout: dw.Layout
     draws: list[dw.StageDraws]  # each quantity: its nominal value, then its gradient (K,)
     decisive: np.ndarray | None = None  # draw_walk.decisive_freqs(layout), when asked for
+    entering: list | None = None  # what each stage is fed (walk_linearised), to re-walk from it
 
     def nominal(self, x: np.ndarray) -> float:
         return float(x[0])
@@ -81,9 +82,10 @@ class Linearised:
 def linearise(layout: dw.Layout, decisive: bool = False) -> Linearised:
     """Margins at nominal and their gradients over every column; drifts over the worst
     temperature rise (walk_linearised). `decisive`: also find draw_walk.decisive_freqs(layout)."""
-    draws = walk_linearised(layout)
+    entering: list = []
+    draws = walk_linearised(layout, entering)
     freqs = dw.decisive_freqs(layout) if decisive else None
-    return Linearised(layout, draws, freqs)
+    return Linearised(layout, draws, freqs, entering)
 
 
 def plain_gradients(layout: dw.Layout) -> list[dw.StageDraws]:
@@ -236,7 +238,13 @@ def compress(B: np.ndarray, C: np.ndarray, extra: np.ndarray, local: np.ndarray)
     return Y[:, order], found
 
 
-def walk_linearised(layout: dw.Layout) -> list[dw.StageDraws]:
+def walk_linearised(
+    layout: dw.Layout,
+    entering: list | None = None,
+    first: int = 0,
+    stop: int | None = None,
+    start: tuple | None = None,
+) -> list[dw.StageDraws]:
     """Every stage's margins and spans with their gradient over every column, in one pass.
 
     A stage reads its own columns and its rails directly and everything upstream only through
@@ -246,7 +254,12 @@ def walk_linearised(layout: dw.Layout) -> list[dw.StageDraws]:
     coefficients over the columns (C). Each stage is walked on rows at nominal, at +/-h on its
     own columns and at +/-h along each direction (central differences as before): its rows do
     not grow with the stages upstream, so the pass costs stages x (own columns + directions)
-    rows instead of stages x all columns. The rows are draw_walk's, stage by stage."""
+    rows instead of stages x all columns. The rows are draw_walk's, stage by stage.
+
+    `entering` receives what each stage is fed (its state, directions, coefficients and the
+    stage before's response); `first`, `stop`, `start`: walk only stages `first` to `stop` (not
+    included), fed `start` (recorded in `entering` by a walk of a chain whose stages before
+    `first` are the same). The stages walked are returned."""
     K = len(layout.variables)
     rise = layout.chain.conditions.worst_temperature_rise
     grid = laplace_grid(layout.freqs)
@@ -257,8 +270,14 @@ def walk_linearised(layout: dw.Layout) -> list[dw.StageDraws]:
     raw: list[tuple[dw.StageDraws, _Rows, _Rows]] = []  # draws, rows of its margins, of its spans
     before = None
     pending = None
+    if start is not None:
+        state, B, C, before, pending = start
     columns = local_columns(layout)
-    for k, plan in enumerate(layout.plans):
+    stop = len(layout.plans) if stop is None else stop
+    for k in range(first, stop):
+        plan = layout.plans[k]
+        if entering is not None:
+            entering.append((state, B, C, before, pending))
         local = columns[k]
         L = len(local)
         rows = 1 + 2 * (L + C.shape[0])
@@ -288,7 +307,7 @@ def walk_linearised(layout: dw.Layout) -> list[dw.StageDraws]:
                 if response.output_impedance is not None
                 else response.output_resistance
             )
-        if pending is not None:
+        if pending is not None and raw:  # (the stage before `first` is not returned)
             passive, margins_rows, _ = raw[-1]
             if k > 0 and shows_input(layout.plans[k - 1 : k + 1], (before, response), 1):
                 raw[-1] = (dw.shown_input(layout, k, response, v, D, dT, fed, passive), margins_rows, here)
@@ -302,9 +321,9 @@ def walk_linearised(layout: dw.Layout) -> list[dw.StageDraws]:
         if k + 1 < len(layout.plans):
             state = _State(signal, drive, rows)
             X = state.X
-            start = 1 + 2 * L
-            turned = ((X[start::2] - X[start + 1 :: 2]) / (2 * here.steps[:, None])).T
-            own = ((X[1:start:2] - X[2:start:2]) / (2 * STEP)).T
+            at = 1 + 2 * L
+            turned = ((X[at::2] - X[at + 1 :: 2]) / (2 * here.steps[:, None])).T
+            own = ((X[1:at:2] - X[2:at:2]) / (2 * STEP)).T
             B, C = compress(turned, C, own, local)
     return [_converted(draws, margins_rows, spans_rows) for draws, margins_rows, spans_rows in raw]
 

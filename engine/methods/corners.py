@@ -162,10 +162,12 @@ def prepare(
     ideal: bool = False,
     reuse: Prepared | None = None,
     first: int = 0,
+    stop: int | None = None,
 ) -> Prepared:
     """Corner values and block responses of every stage. `reuse`: a Prepared of the same chain
     whose stages before `first` are unchanged: theirs are kept and only `first` onwards are
-    recomputed (what a stage drives depends only on the stages before it)."""
+    recomputed (what a stage drives depends only on the stages before it); `stop`: with
+    `reuse`, stages from `stop` on keep reuse's too (for a walk that ends before them)."""
     rise = chain.conditions.worst_temperature_rise
     s = laplace_grid(freqs)
     values, responses, joint = [], [], []
@@ -179,7 +181,8 @@ def prepare(
         prior, before = plans[first - 1], reuse.responses[first - 1]
         drive = partial(next_drive, prior, before)
         differential = False
-    for plan in plans[len(values) :]:
+    last = len(plans) if reuse is None or stop is None else max(min(stop, len(plans)), len(values))
+    for plan in plans[len(values) : last]:
         rows = values[-1]["drive"].shape[0] if values else 1
         v, paired = stage_values(plan, rise, nominal, before, rows, drive)
         inverse_gain = inverse_open_loop(None if ideal else plan.part, s)
@@ -192,6 +195,9 @@ def prepare(
         values.append(v)
         responses.append(response)
         joint.append(paired)
+    if reuse is not None and last < len(plans):
+        values, responses = values + list(reuse.values[last:]), responses + list(reuse.responses[last:])
+        joint += list(reuse.joint[last:])
     return Prepared(chain, plans, freqs, values, responses, tuple(joint))
 
 

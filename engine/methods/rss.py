@@ -41,11 +41,15 @@ def quoted(lin: Linearised, name: str, x: np.ndarray, s: float) -> float:
 
 def run(chain, plans, freqs, corner_stages, lin: Linearised | None = None):
     lin = lin or linearise(layout_for(chain, plans, freqs, corner_stages, band="full"))
+    return results_of(chain, plans, corner_stages, lin.draws, lin)
+
+
+def results_of(chain, plans, corner_stages, stage_draws, lin: Linearised, clipped_before: bool = False):
+    """The quoted results of `plans` from their linearised draws (`lin` reads them; any
+    Linearised does); `clipped_before`: a stage before the first of them clips."""
     s = spread_per_unit(chain.conditions.distribution)
     results = []
-    clipped_before = False
-    for k, (plan, corner) in enumerate(zip(plans, corner_stages)):
-        draws = lin.draws[k]
+    for plan, corner, draws in zip(plans, corner_stages, stage_draws):
         amps = []
         for amp in draws.amps:
             stat = {n: quoted(lin, n, x, s) for n, x in amp.items() if n != "spans"}
