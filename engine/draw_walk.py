@@ -38,6 +38,7 @@ from railroom.engine.results import StageResult
 from railroom.engine.stage_walk import passive_output, shows_input
 
 SATURATED_CHECKS = ("input-high", "input-low", "current")
+KEPT_PARTS = 4  # 1/A(s) per row kept for this many parts at once (stages share parts)
 
 
 @dataclass(frozen=True)
@@ -230,6 +231,8 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
             drive = plan.part.output_resistance if plan.part else 0.0
         else:
             if plan.part not in inverse_gains:
+                if len(inverse_gains) >= KEPT_PARTS:  # memory: a few parts' (rows, F+1) arrays
+                    inverse_gains.pop(next(iter(inverse_gains)))
                 inverse_gains[plan.part] = per_row(inverse_open_loop(plan.part, grid), rows)
             ig = inverse_gains[plan.part]
             response = plan.block.respond(v, s, ig, drive, k == 0 and layout.chain.source.differential)

@@ -27,6 +27,7 @@ from railroom.engine.methods.corners import prepare
 from railroom.engine.methods.normal import inverse_normal
 
 CHUNK_ROWS = 10_000  # the default sample count in one walk; larger chunks ran slower
+CHUNK_CELLS = CHUNK_ROWS * 32  # rows x frequencies in one walk: memory held by the chunk, not the band
 MEDIAN_ROWS = 16384
 QUOTED = {"0.1%": 0.001, "1%": 0.01, "50%": 0.5}
 TAIL = 0.01  # the highest quoted percentile read from the kept low tail
@@ -207,6 +208,9 @@ def run(
     `layout`, `decisive`: see layout_for."""
     samples, seed = chain.conditions.samples, chain.conditions.seed
     layout = layout_for(chain, plans, freqs, corner_stages, full=layout, decisive=decisive)
+    # a walk holds arrays of rows x frequencies per stage: fewer rows where many frequencies
+    # decide (filters), so the memory is the chunk's (the rows are the same whatever the chunk)
+    chunk = min(chunk, max(1024, CHUNK_CELLS // max(len(layout.freqs), 1)))
     tail = None
     leaving = np.zeros(len(plans))
     all_linear = 0
