@@ -90,7 +90,8 @@ class Evaluator:
         # rss the results of the stages before a change, which the notes do not touch either).
         self.chain, self.plans, self.freqs = chain, plans, freqs
         self._baseline = baseline
-        self._lin = lin if lin is not None and lin.entering is not None else None
+        self._lin = lin
+        self._fed: list | None = None if lin is None else lin.entering
         self._prepared: corners.Prepared | None = None
         self._entering: list = []
         self._unchanged: list[StageResult] = []  # the unchanged chain's corners, with _prepared
@@ -132,7 +133,10 @@ class Evaluator:
         from railroom.engine.methods.rss import results_of
         from railroom.engine.sensitivity import walk_linearised
 
-        assert self._lin is not None and self._baseline is not None and self._lin.entering is not None
+        assert self._lin is not None and self._baseline is not None
+        if self._fed is None:  # a plain linearisation (few columns): one pass records the states
+            self._fed = []
+            walk_linearised(self._lin.layout, self._fed)
         stop = len(plans) if stop is None else stop
         after = prepared.responses[1:] + [None]
         layout = replace(
@@ -141,7 +145,7 @@ class Evaluator:
             loads=tuple(r.input_load if r is not None else InputLoad() for r in after),
             corner=(*found, *self._unchanged[len(found) :]),
         )
-        draws = walk_linearised(layout, first=first, stop=stop, start=self._lin.entering[first])
+        draws = walk_linearised(layout, first=first, stop=stop, start=self._fed[first])
         clipped = any(r.regime == "clipping" for r in self._baseline[:first])
         new = results_of(self.chain, plans[first:stop], found[first:stop], draws, self._lin, clipped)
         return [*self._baseline[:first], *new]

@@ -31,6 +31,7 @@ from railroom.engine.stage_walk import passive_output, shows_input
 STEP = 1e-3  # h, in units of the full tolerance
 DIRECTION_STEP = STEP  # h along the state directions
 NOISE = 1e-12  # a chain-rule entry this small beside its terms is rounding
+PLAIN_UP_TO = 64  # columns: up to here the plain walk is the cheaper (measured: crossover near 80)
 RANK_TOL = 1e-10  # state directions kept: singular values above this share of the largest
 SHOWN = 5  # quantities listed per stage
 SMALLEST_SHARE = 0.01
@@ -81,26 +82,48 @@ class Linearised:
 
 def linearise(layout: dw.Layout, decisive: bool = False) -> Linearised:
     """Margins at nominal and their gradients over every column; drifts over the worst
-    temperature rise (walk_linearised). `decisive`: also find draw_walk.decisive_freqs(layout)."""
+    temperature rise. `decisive`: also find draw_walk.decisive_freqs(layout). Up to PLAIN_UP_TO
+    columns one whole-chain walk with 2K + 1 rows is the cheaper (plain_gradients, the decisive
+    rows sharing it); beyond, the one pass (walk_linearised), whose cost is linear in stages."""
+    if len(layout.variables) <= PLAIN_UP_TO:
+        return plain_linearised(layout, decisive)
     entering: list = []
     draws = walk_linearised(layout, entering)
     freqs = dw.decisive_freqs(layout) if decisive else None
     return Linearised(layout, draws, freqs, entering)
 
 
-def plain_gradients(layout: dw.Layout) -> list[dw.StageDraws]:
-    """The same arrays by plain central differences: one whole-chain walk with rows at nominal
-    and at d_i = +/-h for every column i (2K + 1 rows, cost K x stages). Kept to check
-    walk_linearised against (tests) and for chains it does not cover."""
+def plain_linearised(layout: dw.Layout, decisive: bool = False) -> Linearised:
+    """Rows at nominal and at d_i = +/-h for each column in one vectorised walk; with
+    `decisive`, the all-high and all-low rows of draw_walk.decisive_freqs appended (their
+    temperature rise is the same, the largest distance from 25 C). Each row is walked on its
+    own (draw_walk module docstring), so sharing the walk changes no row."""
     K = len(layout.variables)
     rows = 2 * K + 1
-    D = np.zeros((rows, K))
+    extra = 2 if decisive and len(layout.freqs) > 2 else 0
+    D = np.zeros((rows + extra, K))
     D[1 + 2 * np.arange(K), np.arange(K)] = STEP
     D[2 + 2 * np.arange(K), np.arange(K)] = -STEP
-    walked = dw.walk_draws(layout, D, np.full(rows, layout.chain.conditions.worst_temperature_rise))
-    return [
-        _as_gradients(d, lambda x: np.concatenate([x[:1], (x[1::2] - x[2::2]) / (2 * STEP)])) for d in walked
-    ]
+    if extra:
+        D[rows], D[rows + 1] = 1.0, -1.0
+    rise = layout.chain.conditions.worst_temperature_rise
+    record: list | None = [] if extra else None
+    walked = dw.walk_draws(layout, D, np.full(rows + extra, rise), record)
+    freqs = layout.freqs if decisive else None
+    if record:
+        freqs = dw.decisive_from(layout, [np.ravel(r)[[0, rows, rows + 1]] for r in record])
+    draws = [_as_gradients(dw.head_rows(d, rows), _differences) for d in walked]
+    return Linearised(layout, draws, freqs)
+
+
+def _differences(x: np.ndarray) -> np.ndarray:
+    return np.concatenate([x[:1], (x[1::2] - x[2::2]) / (2 * STEP)])
+
+
+def plain_gradients(layout: dw.Layout) -> list[dw.StageDraws]:
+    """The same arrays by plain central differences: one whole-chain walk with rows at nominal
+    and at d_i = +/-h for every column i (2K + 1 rows, cost K x stages)."""
+    return plain_linearised(layout).draws
 
 
 def _as_gradients(draws: dw.StageDraws, convert) -> dw.StageDraws:

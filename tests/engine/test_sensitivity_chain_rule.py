@@ -159,14 +159,15 @@ def test_gradient_through_the_chain_is_the_inverting_gain_formula():
     # O(h^2)); the rail: dm/dd_r = 15 x 0.05 = 0.75 V. None of the gain's columns is the last
     # stage's own: they reach it only through the signal it is fed.
     layout = layout_of(chain_from_text(GAIN_CHAIN, "<test>"), {"ideal": IDEAL})
-    lin = sv.linearise(layout)
-    m = lin.draws[2].margins["output-high"]
-    assert lin.nominal(m) == pytest.approx(15 - 1.5 - 3.0, abs=1e-9)
-    g = dict(zip(((v.label, v.kind) for v in layout.variables), lin.gradient(m)))
-    assert g[("stage.2.rf", "tolerance")] == pytest.approx(-0.03, rel=1e-6)
-    assert g[("stage.2.rin", "tolerance")] == pytest.approx(0.03, rel=1e-6)
-    assert g[("rails.main.positive", "rail")] == pytest.approx(0.75, rel=1e-9)
-    assert g[("rails.main.negative", "rail")] == 0.0
+    lin = sv.linearise(layout)  # (few columns: the plain walk) and the one pass itself
+    for draws in (lin.draws, sv.walk_linearised(layout)):
+        m = draws[2].margins["output-high"]
+        assert lin.nominal(m) == pytest.approx(15 - 1.5 - 3.0, abs=1e-9)
+        g = dict(zip(((v.label, v.kind) for v in layout.variables), lin.gradient(m)))
+        assert g[("stage.2.rf", "tolerance")] == pytest.approx(-0.03, rel=1e-6)
+        assert g[("stage.2.rin", "tolerance")] == pytest.approx(0.03, rel=1e-6)
+        assert g[("rails.main.positive", "rail")] == pytest.approx(0.75, rel=1e-9)
+        assert g[("rails.main.negative", "rail")] == 0.0
 
 
 def test_rows_walked_per_stage_do_not_grow_with_the_chain(monkeypatch):
