@@ -20,7 +20,7 @@ from railroom.engine.aids.eseries import values_between
 from railroom.engine.methods import corners
 from railroom.engine.methods.montecarlo import layout_for
 from railroom.engine.verdict.results import VOLTAGE_CHECKS, Fix, StageResult, check_unit
-from railroom.engine.aids.sensitivity import direction, linearise, ranking
+from railroom.engine.aids.sensitivity import direction, in_one_line, linearise, ranking
 from railroom.engine.formats.values import format_si
 from railroom.engine.walks.bounds_walk import plan_parents
 
@@ -59,7 +59,7 @@ def design_aids(
     Evaluator would find for the unchanged chain (see Evaluator), when the caller has them."""
     lin = lin or linearise(layout_for(chain, plans, freqs, corner_stages, band="full"))
     statistical = chain.conditions.method != "corners"
-    evaluate = Evaluator(chain, plans, freqs, baseline)
+    evaluate = Evaluator(chain, plans, freqs, baseline, lin)
     aided = []
     for plan, result in zip(plans, stages):
         sensitivity = ranking(lin, plan.index, result.limiting, statistical)
@@ -81,14 +81,20 @@ class Evaluator:
     (its load includes stage k's input) and the stages after it up to the last one that was GO
     (only those can be broken), each fed the signal the unchanged walk had where its own parent
     is not re-walked. The
-    corner values and responses of the stages before k are reused. rss re-runs its own method on
-    the whole chain (its sensitivities span the chain)."""
+    corner values and responses of the stages before k are reused. On a chain in one line (no
+    `from`, no named nets) rss does the same and re-walks its linearisation over the same
+    stages, fed the state the unchanged chain's had there (sensitivity.walk_linearised, `lin`:
+    the unchanged chain's, with what each stage is fed); the stages before keep their rss
+    results. On a tree or with nets rss re-runs its own method on the whole chain."""
 
-    def __init__(self, chain, plans, freqs, baseline: list[StageResult] | None = None):
+    def __init__(self, chain, plans, freqs, baseline: list[StageResult] | None = None, lin=None):
         # `baseline`: results(plans) when the caller has them (corners results, or rss ones for
-        # rss): only their GO verdicts are read, which the nominal notes do not touch.
+        # rss): only their GO verdicts are read, which the nominal notes do not touch (and for
+        # rss the results of the stages before a change, which the notes do not touch either).
         self.chain, self.plans, self.freqs = chain, plans, freqs
         self._baseline = baseline
+        self._lin = lin
+        self._fed: list | None = None if lin is None else lin.entering
         self._prepared: corners.Prepared | None = None
         self._entering: list = []
         self._unchanged: list[StageResult] = []  # the unchanged chain's corners, with _prepared
@@ -96,12 +102,16 @@ class Evaluator:
     def results(self, plans, changed: int | None = None, stop: int | None = None) -> list[StageResult]:
         """Results of stages up to `stop` (all by default) of the chain with `plans`; `changed`:
         the only stage whose plan differs from the unchanged chain's, when known."""
-        if self.chain.conditions.method == "rss" or changed is None:
+        rss = self.chain.conditions.method == "rss"
+        downstream_rss = (
+            rss and in_one_line(self.chain) and self._lin is not None and self._baseline is not None
+        )
+        if changed is None or (rss and not downstream_rss):
             found = corners.walk(corners.prepare(self.chain, plans, self.freqs))
-            if self.chain.conditions.method == "rss":
-                from railroom.engine.methods import Setup, rss
+            if rss:
+                from railroom.engine.methods import Setup, rss as rss_method
 
-                found = rss.run(Setup(self.chain, plans, self.freqs, None, corner_stages=found)).stages
+                found = rss_method.run(Setup(self.chain, plans, self.freqs, None, corner_stages=found)).stages
             return found
         if self._prepared is None:
             self._prepared = corners.prepare(self.chain, self.plans, self.freqs)
@@ -112,9 +122,42 @@ class Evaluator:
         # with that stage's corners: start from the last stage up its branch that stands alone
         while first > 0 and (self._prepared.joint[first] or not self.plans[first].block.uses_part):
             first = max(parents[first], 0)
-        prepared = corners.prepare(self.chain, plans, self.freqs, reuse=self._prepared, first=changed)
+        prepared = corners.prepare(
+            self.chain,
+            plans,
+            self.freqs,
+            reuse=self._prepared,
+            first=changed,
+            stop=None if stop is None else stop + 1,  # stage `stop`'s input loads the last walked
+        )
         # stages from `first` on that are not downstream of it are fed what the full walk had
-        return [*self._unchanged[:first], *corners.run_from(prepared, first, self._entering, stop)]
+        found = [*self._unchanged[:first], *corners.run_from(prepared, first, self._entering, stop)]
+        return self._rss_from(plans, prepared, found, first, stop) if rss else found
+
+    def _rss_from(self, plans, prepared, found: list[StageResult], first: int, stop: int | None):
+        """rss results of the changed chain: the unchanged ones before `first`, then the stages
+        re-walked from the state the unchanged chain's linearisation had at `first`."""
+        from railroom.engine.methods.rss import results_of
+        from railroom.engine.walks.bounds_walk import stage_loads, tree_children
+        from railroom.engine.aids.sensitivity import walk_linearised
+
+        assert self._lin is not None and self._baseline is not None
+        if self._fed is None:  # a plain linearisation (few columns): one pass records the states
+            self._fed = []
+            walk_linearised(self._lin.layout, self._fed)
+        stop = len(plans) if stop is None else stop
+        # in one line each stage feeds the next one only (stage_loads of the tree)
+        children = tree_children(plan_parents(plans))
+        layout = replace(
+            self._lin.layout,
+            plans=plans,
+            loads=tuple(stage_loads(prepared.responses, children[k]) for k in range(len(plans))),
+            corner=(*found, *self._unchanged[len(found) :]),
+        )
+        draws = walk_linearised(layout, first=first, stop=stop, start=self._fed[first])
+        clipped = any(r.regime == "clipping" for r in self._baseline[:first])
+        new = results_of(self.chain, plans[first:stop], found[first:stop], draws, self._lin, clipped)
+        return [*self._baseline[:first], *new]
 
     def works(self, k: int, field: str, value: float) -> StageResult | None:
         """The changed stage's result when the change makes it GO and breaks no other stage."""

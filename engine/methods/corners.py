@@ -169,10 +169,12 @@ def prepare(
     ideal: bool = False,
     reuse: Prepared | None = None,
     first: int = 0,
+    stop: int | None = None,
 ) -> Prepared:
     """Corner values and block responses of every stage. `reuse`: a Prepared of the same chain
     whose stages before `first` are unchanged: theirs are kept and only `first` onwards are
-    recomputed (what a stage drives depends only on the stages before it)."""
+    recomputed (what a stage drives depends only on the stages before it); `stop`: with
+    `reuse`, stages from `stop` on keep reuse's too (for a walk that ends before them)."""
     rise = chain.conditions.worst_temperature_rise
     s = laplace_grid(freqs)
     values, responses, joint = [], [], []
@@ -181,7 +183,15 @@ def prepare(
     if reuse is not None and first > 0:
         values, responses = list(reuse.values[:first]), list(reuse.responses[:first])
         joint = list(reuse.joint[:first])
-    for k in range(len(values), len(plans)):
+    # with `reuse` and `stop` on a chain in one line, stages from `stop` on keep reuse's (the walk
+    # ends before them); on a tree every later stage is prepared (a branch may hang anywhere)
+    in_line = all(parent == k - 1 for k, parent in enumerate(parents))
+    last = (
+        len(plans)
+        if reuse is None or stop is None or not in_line
+        else max(min(stop, len(plans)), len(values))
+    )
+    for k in range(len(values), last):
         plan, parent = plans[k], parents[k]
         if parent < 0:  # fed by the source
             before, rows, differential = None, 1, chain.source.differential
@@ -197,6 +207,9 @@ def prepare(
         values.append(v)
         responses.append(response)
         joint.append(paired)
+    if reuse is not None and last < len(plans):
+        values, responses = values + list(reuse.values[last:]), responses + list(reuse.responses[last:])
+        joint += list(reuse.joint[last:])
     walks: tuple[Prepared, ...] = ()
     if not nominal and reuse is None:
         variants = joint_plans(chain, plans) or []

@@ -28,6 +28,7 @@ from railroom.engine.methods.normal import inverse_normal
 from railroom.engine.walks.bounds_walk import plan_parents
 
 CHUNK_ROWS = 10_000  # the default sample count in one walk; larger chunks ran slower
+CHUNK_CELLS = CHUNK_ROWS * 32  # rows x frequencies in one walk: memory held by the chunk, not the band
 MEDIAN_ROWS = 16384
 QUOTED = {"0.1%": 0.001, "1%": 0.01, "50%": 0.5}
 TAIL = 0.01  # the highest quoted percentile read from the kept low tail
@@ -201,6 +202,9 @@ def run(setup: Setup, progress: Progress | None = None, chunk: int = CHUNK_ROWS)
     decisive = None if setup.lin is None else setup.lin.decisive
     samples, seed = chain.conditions.samples, chain.conditions.seed
     layout = layout_for(chain, plans, setup.freqs, corner_stages, full=setup.layout, decisive=decisive)
+    # a walk holds arrays of rows x frequencies per stage: fewer rows where many frequencies
+    # decide (filters), so the memory is the chunk's (the rows are the same whatever the chunk)
+    chunk = min(chunk, max(1024, CHUNK_CELLS // max(len(layout.freqs), 1)))
     tail = None
     leaving = np.zeros(len(plans))
     all_linear = 0

@@ -62,13 +62,19 @@ def run(setup: Setup, progress: Progress | None = None) -> Outcome:
     the caller has none); rss measures no yield."""
     chain, plans, corner_stages = setup.chain, setup.plans, setup.corner_stages
     lin = setup.lin or linearise(layout_for(chain, plans, setup.freqs, corner_stages, band="full"))
+    return Outcome(results_of(chain, plans, corner_stages, lin.draws, lin))
+
+
+def results_of(chain, plans, corner_stages, stage_draws, lin: Linearised, clipped_before: bool = False):
+    """The quoted results of `plans` from their linearised draws (`lin` reads them; any
+    Linearised does); `clipped_before`: the stage before the first of them clips (or one up its
+    branch does). Each stage is fed-clipped when a stage up its own branch clips."""
     s = spread_per_unit(chain.conditions.distribution)
     results = []
     clipping: list[bool] = []  # per stage: it clips, or a stage up its branch does
     parents = plan_parents(plans)
-    for k, (plan, corner) in enumerate(zip(plans, corner_stages)):
-        clipped_before = parents[k] >= 0 and clipping[parents[k]]
-        draws = lin.draws[k]
+    for k, (plan, corner, draws) in enumerate(zip(plans, corner_stages, stage_draws)):
+        fed_clipped = clipped_before if parents[k] < 0 else clipping[parents[k]]
         amps = []
         for amp in draws.amps:
             stat = {n: quoted(lin, n, x, s) for n, x in amp.items() if n != "spans"}
@@ -84,7 +90,7 @@ def run(setup: Setup, progress: Progress | None = None) -> Outcome:
                 c: max(quoted(lin, c, draws.margins[c], s), corner.margins.get(c, -np.inf))
                 for c in ("input-high", "input-low")
             }
-        result = judged(plan, corner, amps, out_span, window, chain.conditions.margin, clipped_before)
-        clipping.append(clipped_before or result.regime == "clipping")
+        result = judged(plan, corner, amps, out_span, window, chain.conditions.margin, fed_clipped)
+        clipping.append(fed_clipped or result.regime == "clipping")
         results.append(result)
-    return Outcome(results)
+    return results

@@ -7,6 +7,8 @@ violated (the README's JSON report).
 
 from __future__ import annotations
 
+import math
+
 from railroom.engine.circuit.blocks import BLOCKS
 from railroom.engine.verdict.margins import met_at_equality
 from railroom.engine.verdict.margins import supply_margin as kernel_supply_margin
@@ -17,6 +19,7 @@ from railroom.engine.verdict.results import VOLTAGE_CHECKS, StageMeasure, StageR
 GAIN_ERROR_CAUTION = 0.01  # the README's JSON report: a caution above 1 %
 SELV_DC_LIMIT = 60.0  # V DC between conductors: SELV (IEC 60335-1, 3.4.2), ES1 (IEC 62368-1)
 LINEAR_CHECKS = (*VOLTAGE_CHECKS, "slew", "current")
+LIMITING_TIE = 1e-10  # relative margins this close limit alike (rounding)
 
 
 def opamp_margins(measure: StageMeasure) -> tuple[dict[str, float], dict[str, str]]:
@@ -118,7 +121,14 @@ def limiting_check(margins: dict[str, float], rails: Rails, part: Part | None) -
         return None
     span = rails.positive - rails.negative
     scale = {"slew": part.slew if part else 1.0, "current": part.output_current if part else 1.0}
-    return min(considered, key=lambda c: considered[c] / scale.get(c, span))
+    relative = {c: m / scale.get(c, span) for c, m in considered.items()}
+    first = min(relative, key=lambda c: relative[c])
+    least = relative[first]
+    if not math.isfinite(least):
+        return first
+    # mirror-image checks of a symmetric chain (input-high and input-low) differ by rounding
+    # only: within LIMITING_TIE they are one, and the first in the checks' order limits
+    return next((c for c, r in relative.items() if r <= least + LIMITING_TIE * (1.0 + abs(least))), first)
 
 
 def stage_cautions(measure: StageMeasure, part: Part | None, rails: Rails) -> list[str]:

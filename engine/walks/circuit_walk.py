@@ -56,6 +56,7 @@ from railroom.engine.circuit.model import NetValue
 from railroom.engine.circuit.nets import used_nets
 
 SATURATED_CHECKS = ("input-high", "input-low", "current")
+KEPT_PARTS = 4  # 1/A(s) per row kept for this many parts at once (stages share parts)
 
 
 @dataclass(frozen=True)
@@ -282,6 +283,8 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
             out_drive = plan.part.output_resistance if plan.part else 0.0
         else:
             if plan.part not in inverse_gains:
+                if len(inverse_gains) >= KEPT_PARTS:  # memory: a few parts' (rows, F+1) arrays
+                    inverse_gains.pop(next(iter(inverse_gains)))
                 inverse_gains[plan.part] = per_row(inverse_open_loop(plan.part, grid), rows)
             ig = inverse_gains[plan.part]
             response = plan.block.respond(v, s, ig, drive, parent < 0 and layout.chain.source.differential)
