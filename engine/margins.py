@@ -31,7 +31,12 @@ def load_currents(
     network's current bounds plus the next stage's input conductance to its return voltage.
 
     Each is an outside bound: the largest sourced current anywhere stands in for the current
-    sourced at the upper extreme of the output (and likewise for the sunk current)."""
+    sourced at the upper extreme of the output (and likewise for the sunk current). An input
+    that blocks DC (load.blocks_dc) draws the AC part alone, whose peak a is at most half the
+    output's span: G (out_hi - out_lo) / 2 >= G a each way."""
+    if load.blocks_dc:
+        swing = load.conductance * np.maximum(out_hi - out_lo, 0.0) / 2.0
+        return np.maximum(current_hi, 0.0) + swing, np.maximum(-current_lo, 0.0) + swing
     sourced = np.maximum(current_hi, 0.0) + load.conductance * np.maximum(out_hi - load.returns[0], 0.0)
     sunk = np.maximum(-current_lo, 0.0) + load.conductance * np.maximum(load.returns[1] - out_lo, 0.0)
     return sourced, sunk

@@ -9,7 +9,7 @@ from railroom.engine.blocks.filters import MfbBandpass, MfbLowpass, SallenKeyHig
 from railroom.engine.blocks.gain import Follower, Inverting, Noninverting, Summing
 from railroom.engine.blocks.instrumentation import Instrumentation
 from railroom.engine.blocks.integrator import Integrator
-from railroom.engine.blocks.passive import ConverterInput, Divider, RcLowpass
+from railroom.engine.blocks.passive import AcCoupling, ConverterInput, Divider, RcLowpass
 from railroom.engine.blocks.schmitt import Schmitt
 
 BLOCKS: dict[str, Block] = {
@@ -30,6 +30,7 @@ BLOCKS: dict[str, Block] = {
         Schmitt(),
         Divider(),
         RcLowpass(),
+        AcCoupling(),
         ConverterInput(),
     )
 }
