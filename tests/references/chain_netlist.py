@@ -2,8 +2,9 @@
 
 Imports nothing of railroom (only numpy and the independent MNA solver in references/nodal.py).
 Partial scope (issue 11): single-ended source with its impedance, and the stages follower,
-noninverting, inverting, summing (fixed inputs as `inputs`: [(r, volts)]), divider and rc_lowpass, with the topologies as railroom's README
-describes them. Op amps: finite A0 and one pole, offset at +, bias current into both inputs.
+noninverting (with `cg`: a capacitor in series with rg), inverting, summing (fixed inputs as
+`inputs`: [(r, volts)]), divider, rc_lowpass and ac_coupling (c in to out, r out to `bias`), with
+the topologies as railroom's README describes them. Op amps: finite A0 and one pole, offset at +, bias current into both inputs.
 """
 
 from __future__ import annotations
@@ -61,7 +62,11 @@ def _stage(c: Circuit, st: Stage, inp: str, p: str) -> str:
         _opamp(c, st.opamp, inp, out, out)
     elif st.block == "noninverting":  # rg from - to ref, rf from out to -
         _ref(c, v, p)
-        c.resistor(f"{p}_m", f"{p}_ref", v["rg"])
+        if "cg" in v:  # rg from - to node g, cg from g to ref
+            c.resistor(f"{p}_m", f"{p}_g", v["rg"])
+            c.capacitor(f"{p}_g", f"{p}_ref", v["cg"])
+        else:
+            c.resistor(f"{p}_m", f"{p}_ref", v["rg"])
         c.resistor(out, f"{p}_m", v["rf"])
         _opamp(c, st.opamp, inp, f"{p}_m", out)
     elif st.block == "inverting":  # rin from input to -, ref drives +
@@ -83,6 +88,10 @@ def _stage(c: Circuit, st: Stage, inp: str, p: str) -> str:
     elif st.block == "rc_lowpass":
         c.resistor(inp, out, v["r"])
         c.capacitor(out, "0", v["c"])
+    elif st.block == "ac_coupling":  # c from in to out, r from out to bias
+        c.source(f"{p}_bias", v.get("bias", 0.0))
+        c.capacitor(inp, out, v["c"])
+        c.resistor(out, f"{p}_bias", v["r"])
     else:
         raise ValueError(f"block {st.block!r} not in this reference yet")
     return out
@@ -97,7 +106,12 @@ def response(stages: list[Stage], freqs: np.ndarray, impedance: float = 0.0) -> 
     ac = [
         Stage(
             s.block,
-            {**s.values, "ref": 0.0, "inputs": [(r, 0.0) for r, _ in s.values.get("inputs", ())]},
+            {
+                **s.values,
+                "ref": 0.0,
+                "bias": 0.0,
+                "inputs": [(r, 0.0) for r, _ in s.values.get("inputs", ())],
+            },
             s.load,
             OpAmp(s.opamp.open_loop_gain, s.opamp.gbw),
         )
