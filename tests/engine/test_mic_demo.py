@@ -76,3 +76,19 @@ def test_engine_confirms_the_hand_calculation(capsys):
     assert converter["margins"]["input-high"] == pytest.approx(0.719, abs=5e-4)
     assert report["headroom_db"] == pytest.approx(4.21, abs=0.005)
     assert "581 mV" in SECTION and "+4.21 dB" in SECTION and "6.3 %" in SECTION
+
+
+def test_markdown_report_gives_the_gain_per_stage(capsys):
+    # the gain stage: 1 at DC (cg), 1 + rf/rg less the part's roll-off at 8 kHz over the band;
+    # from the source the coupling's DC zero and the 2k2 divider (README, The microphone demo)
+    main(["check", str(DEMO), "--markdown"])
+    text = capsys.readouterr().out.split("### Gain", 1)[1]
+    row = next(line for line in text.splitlines() if line.startswith("| 2 | mic gain |"))
+    cells = [c.strip() for c in row.strip("|").split("|")]
+    assert cells[2] == "1" and cells[4] == "0"
+    low, high = (float(x) for x in cells[3].split(" to "))
+    assert high == pytest.approx(GAIN, rel=1e-3)
+    least = 1 + 99e3 / 2222  # rf -1 %, rg +1 %; one-pole roll-off at 8 kHz over noise gain / 1 MHz
+    assert low == pytest.approx(least / math.sqrt(1 + (8e3 * least / 1e6) ** 2), rel=1e-3)
+    low, high = (float(x) for x in cells[5].split(" to "))
+    assert high == pytest.approx(DIVIDER * GAIN, rel=1e-3)
