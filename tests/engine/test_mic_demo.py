@@ -92,3 +92,23 @@ def test_markdown_report_gives_the_gain_per_stage(capsys):
     assert low == pytest.approx(least / math.sqrt(1 + (8e3 * least / 1e6) ** 2), rel=1e-3)
     low, high = (float(x) for x in cells[5].split(" to "))
     assert high == pytest.approx(DIVIDER * GAIN, rel=1e-3)
+
+
+def test_interface_stage_detail_gives_the_gain():
+    # the detail panel of the gain stage: 1 + rf/rg over the band, 1 at DC (cg), and from the
+    # source the coupling's DC zero (README, The microphone demo by hand)
+    import io
+
+    from rich.console import Console
+
+    from railroom.engine.analysis import analyse, load_checked
+    from railroom.tui.widgets.detail import stage_story
+
+    chain, library = load_checked(str(DEMO))
+    result = analyse(chain, library.parts, design_aids=False, headroom=False)
+    console = Console(width=80, file=io.StringIO(), record=True, color_system=None)
+    console.print(stage_story(result.stages[1], chain, library.parts))
+    text = " ".join(console.export_text().split())
+    assert "gain 42.79 to 47.35 over the band, 1 at DC" in text
+    assert 47.35 == pytest.approx(GAIN, rel=1e-3)  # 1 + rf/rg at 100 Hz, just above the cg corner
+    assert "from the source 41.86 to 46.34, 0 at DC" in text
