@@ -11,14 +11,14 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 
-from railroom.engine.model import Chain, Part
-from railroom.engine.results import CHECKS, ChainResult, StageResult
+from railroom.engine.circuit.model import Chain, Part
+from railroom.engine.verdict.results import CHECKS, ChainResult, StageResult
 
 
 def load(path: str, presets: tuple[str, ...] | list[str] = ()) -> Chain:
     """Read and check a chain file (its parts must be found in the preset search order, with
     `presets` folders searched last); raises InputError naming file, line and field."""
-    from railroom.engine.analysis import load_checked
+    from railroom.engine.formats.loading import load_checked
 
     chain, _ = load_checked(str(path), tuple(str(p) for p in presets))
     return chain
@@ -26,7 +26,7 @@ def load(path: str, presets: tuple[str, ...] | list[str] = ()) -> Chain:
 
 def parts_for(chain: Chain, presets: tuple[str, ...] | list[str] = ()) -> Mapping[str, Part]:
     """The part presets the chain sees: shipped, your own folder, the chain's, then `presets`."""
-    from railroom.engine.presets import load_library, search_order
+    from railroom.engine.formats.presets import load_library, search_order
 
     return load_library(search_order(chain.preset_dirs, tuple(str(p) for p in presets))).parts
 
@@ -57,7 +57,7 @@ def analyse(
 
 def to_dict(result: ChainResult | StageResult) -> dict:
     """A chain's JSON report (as `railroom check --json` prints it), or one stage's entry."""
-    from railroom.engine.report import chain_report, stage_report
+    from railroom.engine.reports.json_report import chain_report, stage_report
 
     return chain_report(result) if isinstance(result, ChainResult) else stage_report(result)
 
@@ -91,13 +91,13 @@ def rows(result: ChainResult) -> list[dict]:
 
 
 def _rounded(value: float | None) -> float | None:
-    from railroom.engine.report import _number
+    from railroom.engine.reports.json_report import _number
 
     return _number(value)
 
 
 def load_text(text: str, name: str = "<chain>") -> Chain:
     """A chain from TOML text (a notebook cell, say); `name` stands for the file in messages."""
-    from railroom.engine.files import chain_from_text
+    from railroom.engine.formats.chain_file import chain_from_text
 
     return chain_from_text(text, name)

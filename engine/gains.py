@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from railroom.engine.stage_walk import shows_input
+from railroom.engine.walks.bounds_walk import plan_parents, shows_input_of
 
 Range = tuple[float, float]
 
@@ -56,33 +56,35 @@ def stage_gains(prepared) -> list[tuple[dict[str, Range] | None, dict[str, Range
     own: list[np.ndarray | None] = []
     source: list[tuple[np.ndarray, np.ndarray] | None] = []
     differential = prepared.chain.source.differential
+    parents = plan_parents(plans)
     for k, response in enumerate(responses):
         rows = max(np.shape(x)[0] if np.ndim(x) else 1 for x in prepared.values[k].values())
         if response is None:  # saturated by design
             own.append(None)
             source.append(None)
-            differential = False
             continue
-        mag = _magnitude(response.output, rows, width, differential and k == 0)
-        if k == 0:
+        mag = _magnitude(response.output, rows, width, differential and parents[k] < 0)
+        parent = parents[k]
+        if parent < 0:  # fed by the source
             source.append((mag, mag))
-        elif source[-1] is None:
+        elif source[parent] is None:
             source.append(None)
         else:
-            lo, hi = source[-1]
+            lo, hi = source[parent]
             if prepared.joint[k]:
                 lo, hi = _tiled(lo, rows), _tiled(hi, rows)
             else:
                 lo, hi = np.min(lo, axis=0, keepdims=True), np.max(hi, axis=0, keepdims=True)
             source.append((lo * mag, hi * mag))
-            if prepared.joint[k] and shows_input(plans, responses, k) and own[-1] is not None:
-                # the passive stage before is quoted with this stage's input on it
+            before = own[parent]
+            if prepared.joint[k] and shows_input_of(plans, responses, parent, k) and before is not None:
+                # the passive stage before (it feeds this one alone) is quoted with this
+                # stage's input on it
                 terminal = _magnitude(response.terminal, rows, width, False)
-                own[-1] = _tiled(own[-1], rows) * terminal
-                source[-2] = (lo * terminal, hi * terminal)
+                own[parent] = _tiled(before, rows) * terminal
+                source[parent] = (lo * terminal, hi * terminal)
                 mag = np.divide(mag, terminal, out=np.zeros_like(mag), where=terminal > 0)
         own.append(mag)
-        differential = False
     return [
         (None if g is None else _ranges(g), None if s is None else _joined(s)) for g, s in zip(own, source)
     ]

@@ -3,7 +3,7 @@ it is about (the trust tests vary one field at a time with `part(...)`)."""
 
 from __future__ import annotations
 
-from railroom.engine.model import Part
+from railroom.engine.circuit.model import Part
 
 CLEAN = dict(
     id="clean",

@@ -12,6 +12,7 @@ from __future__ import annotations
 import os
 import time
 from functools import partial
+from typing import cast
 from pathlib import Path
 from collections.abc import Callable
 
@@ -21,17 +22,14 @@ from textual.binding import Binding
 from textual.timer import Timer
 from textual.worker import get_current_worker
 
-from railroom.engine.analysis import analyse
-from railroom.engine.methods.montecarlo import Cancelled
-from railroom.engine.model import InputError, Problem
-from railroom.engine.results import ChainResult
-from railroom.engine.values import escaped
+from railroom.engine import Cancelled, Chain, ChainResult, InputError, Library, Problem, analyse, escaped
 from railroom.tui.commands import RailroomCommands
 from railroom.tui.screens.chain import ChainScreen
 from railroom.tui.screens.dialogs import ConfirmScreen, SaveAsScreen
 from railroom.tui.screens.help import HelpScreen
 from railroom.tui.screens.problems import ProblemsScreen
 from railroom.tui.session import Session, WaitingFile, open_chain
+from railroom.tui.widgets.status_line import StatusLine
 
 WATCH_SECONDS = 1.0
 # While values are being typed, the full check (the file's method with the design aids) waits for a
@@ -101,15 +99,23 @@ class RailroomApp(App):
         return self.session is not None or action in self.WITHOUT_CHAIN
 
     @property
+    def open_session(self) -> Session:
+        """The open chain's session. What uses it runs only while a chain is open (check_action
+        holds back every other key), so its absence here is a railroom bug, not the user's."""
+        if self.session is None:
+            raise RuntimeError("no chain is open")
+        return self.session
+
+    @property
     def chain_screen(self) -> ChainScreen:
-        return self.screen_stack[0]
+        return cast(ChainScreen, self.screen_stack[0])
 
     # the engine
     def apply_edit(self, change: Callable[[str], str], typing: bool = False) -> str | None:
         """Apply an edit of the chain text at once (a command: add, move, method ...); on success
         re-check, else return the problem. Values typed in a form go through `type_edit`."""
         self.settle()
-        problems = self.session.edit(change)
+        problems = self.open_session.edit(change)
         if problems:
             return problem_words(problems)
         self.recheck(TYPING_PAUSE_SECONDS if typing else 0.0)
@@ -125,7 +131,7 @@ class RailroomApp(App):
         self._generation += 1
         self._stop_full_timer()
         self.run_worker(
-            partial(self._edit_job, self._generation, self.session.text, list(self._pending.items())),
+            partial(self._edit_job, self._generation, self.open_session.text, list(self._pending.items())),
             thread=True,
             exclusive=True,
             group="edit",
@@ -136,14 +142,15 @@ class RailroomApp(App):
         """In a worker thread: every pending field edit applied to `base`, loaded and checked
         (corners, without design aids). Only reads the session; the app thread keeps the result."""
         worker = get_current_worker()
-        text, prepared, outcomes = base, None, {}
+        text, prepared = base, None
+        outcomes: dict[tuple[str, str], str | None] = {}
         for step, (change, _) in steps:
             if worker.is_cancelled:
                 return
             try:
-                found = self.session.prepare(text, change)
+                found = self.open_session.prepare(text, change)
             except Exception as err:  # never lose the app (and the typing) to a bug here
-                found = [Problem(str(self.session.path), None, "(edit)", repr(err))]
+                found = [Problem(str(self.open_session.path), None, "(edit)", repr(err))]
             if isinstance(found, list):
                 outcomes[step] = problem_words(found)
             else:
@@ -166,14 +173,20 @@ class RailroomApp(App):
             pass  # the app closed meanwhile
 
     def _edit_done(
-        self, generation: int, base: str, steps: list, prepared, outcomes: dict, result: ChainResult | None
+        self,
+        generation: int,
+        base: str,
+        steps: list,
+        prepared: tuple[str, Chain, Library] | None,
+        outcomes: dict,
+        result: ChainResult | None,
     ) -> None:
-        if generation != self._generation or base != self.session.text:
+        if generation != self._generation or base != self.open_session.text:
             return  # a newer keystroke (or command) owns the screen
         self._pending.clear()
         if prepared is not None:
             step = steps[0][0] if len(steps) == 1 else None
-            self.session.commit(*prepared, step=step)
+            self.open_session.commit(*prepared, step=step)
         for step, (_, judged) in steps:
             judged(outcomes[step])
         if prepared is not None and result is not None:
@@ -189,7 +202,7 @@ class RailroomApp(App):
         self._generation += 1  # drops the worker's (now older) answer
         changed = False
         for change, judged in pending:
-            problems = self.session.edit(change)
+            problems = self.open_session.edit(change)
             changed |= not problems
             judged(problem_words(problems) if problems else None)
         if changed:
@@ -200,13 +213,13 @@ class RailroomApp(App):
         design aids (sensitivity, fixes), after `full_after` seconds. A newer edit cancels the
         older run (and a full run still waiting to start)."""
         self._generation += 1
-        self._show_corners(self.session.corners())
+        self._show_corners(self.open_session.corners())
         self._schedule_full(full_after)
 
     def _show_corners(self, result: ChainResult) -> None:
         self.result = result
-        method = self.session.chain.conditions.method
-        self.chain_screen.query_one("StatusLine").running(method if method != "corners" else None)
+        method = self.open_session.chain.conditions.method
+        self.chain_screen.query_one("StatusLine", StatusLine).running(method if method != "corners" else None)
         self.chain_screen.show(self.result)
 
     def _stop_full_timer(self) -> None:
@@ -216,7 +229,9 @@ class RailroomApp(App):
 
     def _schedule_full(self, after: float) -> None:
         self._stop_full_timer()
-        start = partial(self.run_full, self._generation, self.session.chain, self.session.library.parts)
+        start = partial(
+            self.run_full, self._generation, self.open_session.chain, self.open_session.library.parts
+        )
         if after > 0:
             self._full_timer = self.set_timer(after, start)
         else:
@@ -226,7 +241,7 @@ class RailroomApp(App):
     def run_full(self, generation: int, chain, parts) -> None:
         worker = get_current_worker()
         problem = ""
-        status = self.chain_screen.query_one("StatusLine")
+        status = self.chain_screen.query_one("StatusLine", StatusLine)
         last = [0.0]
 
         def progress(fraction: float) -> bool:
@@ -252,7 +267,7 @@ class RailroomApp(App):
     def full_done(self, generation: int, result: ChainResult, problem: str) -> None:
         if generation != self._generation:
             return  # the user changed something meanwhile: a newer run owns it
-        self.chain_screen.query_one("StatusLine").running(None)
+        self.chain_screen.query_one("StatusLine", StatusLine).running(None)
         self.result = result
         if problem:
             self.chain_screen.show(result, f"{problem}; showing corners")
@@ -264,17 +279,18 @@ class RailroomApp(App):
     def watch_file(self) -> None:
         if self.session is None:
             # help open on top: try again once it is closed (the chain screen replaces the top)
-            if isinstance(self.screen, ProblemsScreen) and self.waiting.changed_on_disk():
+            waiting = self.waiting
+            if isinstance(self.screen, ProblemsScreen) and waiting is not None and waiting.changed_on_disk():
                 self.try_open()
             return
         if not self.session.changed_on_disk() or isinstance(self.screen, ConfirmScreen):
             return
 
-        def answered(answer: str) -> None:
+        def answered(answer: str | None) -> None:
             if answer == "reload":
                 self.action_reload()
             else:
-                self.session.keep_mine()
+                self.open_session.keep_mine()
 
         lost = " (your unsaved changes would be lost)" if self.session.modified else ""
         self.push_screen(
@@ -290,9 +306,11 @@ class RailroomApp(App):
 
     def try_open(self, asked: bool = False) -> None:
         """Open the waiting file if it loads now, on the chain screen; else show its problems."""
+        if self.waiting is None:
+            return
         session = self.waiting.try_open()
         if session is None:
-            self.screen_stack[0].show()
+            cast(ProblemsScreen, self.screen_stack[0]).show()
             if asked:
                 self.notify("still not loadable: the problems are listed", severity="warning")
             return
@@ -305,7 +323,7 @@ class RailroomApp(App):
         self.warn_presets()
 
     def warn_presets(self) -> None:
-        warnings = self.session.preset_warnings()
+        warnings = self.open_session.preset_warnings()
         if warnings:
             self.notify(
                 "\n".join(warnings[:4]) + ("\n..." if len(warnings) > 4 else ""),
@@ -334,27 +352,27 @@ class RailroomApp(App):
 
     def action_save(self, then: Callable[[], None] | None = None) -> None:
         self.settle()
-        if self.session.read_only:
+        if self.open_session.read_only:
             self.action_save_as(then)
             return
-        if not self.session.disk_is_newer():
+        if not self.open_session.disk_is_newer():
             self._write(None, then)
             return
 
-        def answered(answer: str) -> None:
+        def answered(answer: str | None) -> None:
             if answer == "overwrite":
                 self._write(None, then)
             elif answer == "reload":
                 self.action_reload()
 
         broken = (
-            " The version on disk does not load: " + str(self.session.disk_problems[0])
-            if self.session.disk_problems
+            " The version on disk does not load: " + str(self.open_session.disk_problems[0])
+            if self.open_session.disk_problems
             else ""
         )
         self.push_screen(
             ConfirmScreen(
-                f"{escaped(self.session.path.name)} changed on disk since it was read.{broken}",
+                f"{escaped(self.open_session.path.name)} changed on disk since it was read.{broken}",
                 [
                     ("o", "overwrite", "overwrite it with what is on screen (the old file is kept as .bak)"),
                     ("r", "reload", "reload it and drop the changes on screen"),
@@ -366,10 +384,10 @@ class RailroomApp(App):
     def action_save_as(self, then: Callable[[], None] | None = None) -> None:
         self.settle()
         # a name typed without a folder goes beside the open file (the demo's copy: here)
-        folder = Path.cwd() if self.session.read_only else self.session.path.parent
+        folder = Path.cwd() if self.open_session.read_only else self.open_session.path.parent
         why = (
             "The built-in demo is read-only. Save a copy as:"
-            if self.session.read_only
+            if self.open_session.read_only
             else "Save the chain as:"
         )
 
@@ -378,11 +396,11 @@ class RailroomApp(App):
                 return
             target = Path(name).expanduser()
             target = Path(os.path.abspath(target if target.is_absolute() else folder / target))
-            if not self.session.read_only and same_file(target, self.session.path):
+            if not self.open_session.read_only and same_file(target, self.open_session.path):
                 self.action_save(then)
             elif target.exists():
 
-                def answered(answer: str) -> None:
+                def answered(answer: str | None) -> None:
                     if answer == "overwrite":
                         self._write(target, then)
 
@@ -402,26 +420,29 @@ class RailroomApp(App):
             else:
                 self._write(target, then)
 
-        self.push_screen(SaveAsScreen(self.session.path.name, f"{why}  (in {escaped(str(folder))})"), named)
+        self.push_screen(
+            SaveAsScreen(self.open_session.path.name, f"{why}  (in {escaped(str(folder))})"), named
+        )
 
     def _write(self, path: Path | None, then: Callable[[], None] | None) -> None:
         try:
-            self.session.save(path)
+            self.open_session.save(path)
         except (OSError, InputError) as err:
             self.notify(str(err), title="not saved", severity="error", markup=False)
             return
-        drafts = self.session.draft_lines()
+        drafts = self.open_session.draft_lines()
         if drafts:
             self.notify(
-                f"saved {escaped(str(self.session.path))}, without the values still in the forms that "
+                f"saved {escaped(str(self.open_session.path))}, without the values still in the forms that "
                 "are not in the chain: " + "; ".join(drafts[:4]),
                 severity="warning",
                 markup=False,
                 timeout=8,
             )
         else:
-            self.notify(f"saved {escaped(str(self.session.path))}", markup=False)
-        self.chain_screen.show(self.result)
+            self.notify(f"saved {escaped(str(self.open_session.path))}", markup=False)
+        if self.result is not None:
+            self.chain_screen.show(self.result)
         if then is not None:
             then()
 
@@ -433,7 +454,7 @@ class RailroomApp(App):
             self.exit(0)
             return
 
-        def answered(answer: str) -> None:
+        def answered(answer: str | None) -> None:
             if answer == "save":
                 self.action_save(then=lambda: self.exit(0))
             elif answer == "discard":
@@ -466,9 +487,9 @@ class RailroomApp(App):
             PresetForm.BINDINGS,
             ProblemsScreen.BINDINGS,
         )
-        self.push_screen(HelpScreen([b for room in rooms for b in room if b.id]))
+        self.push_screen(HelpScreen([b for room in rooms for b in room if isinstance(b, Binding) and b.id]))
 
-    def action_screenshot(self) -> None:
+    def action_screenshot(self) -> None:  # type: ignore[override]  # to the working folder, always
         from railroom.tui.screen_picture import save_screen_picture
 
         path = save_screen_picture(self, Path.cwd())  # no web font in the picture
@@ -480,10 +501,12 @@ class RailroomApp(App):
         except ImportError:
             self.notify("the presets screen is not available yet", severity="warning")
             return
-        from railroom.engine.presets import user_folder
+        from railroom.engine import user_folder
 
         self.push_screen(
-            PresetsScreen(list(self.session.library.folders), user_folder(), on_change=self.presets_changed)
+            PresetsScreen(
+                list(self.open_session.library.folders), user_folder(), on_change=self.presets_changed
+            )
         )
 
     def open_preset(self, part_id: str) -> None:
@@ -495,16 +518,16 @@ class RailroomApp(App):
 
     def switch_method(self, method: str) -> None:
         """The conditions' method set to `method` (the command palette's "method: ...")."""
-        from railroom.engine import editing
+        from railroom.engine import set_section_field
 
-        problem = self.apply_edit(lambda t: editing.set_section_field(t, "conditions", "method", method))
+        problem = self.apply_edit(lambda t: set_section_field(t, "conditions", "method", method))
         if problem:
             self.notify(problem, title="method", severity="error", markup=False)
 
     def presets_changed(self) -> None:
         """A preset was edited: read the library again and check the chain against it."""
         self.settle()
-        problems = self.session.reload_library()
+        problems = self.open_session.reload_library()
         if problems:
             self.notify(
                 "\n".join(str(p) for p in problems[:4]), title="presets", severity="error", markup=False

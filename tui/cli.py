@@ -11,10 +11,9 @@ railroom bench [--json]
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 
-EXIT_GO, EXIT_NO_GO, EXIT_INPUT = 0, 1, 2
+from railroom.tui.subcommands.exit_codes import INPUT_ERROR, INTERRUPTED
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -143,7 +142,7 @@ def main(argv: list[str] | None = None) -> int:
     try:
         return run_command(argv)
     except KeyboardInterrupt:  # Ctrl-C: stop quietly, with the shell's status for it
-        return 128 + 2
+        return INTERRUPTED
     finally:
         for stream in (sys.stdout, sys.stderr):
             stream.flush()
@@ -153,30 +152,30 @@ def main(argv: list[str] | None = None) -> int:
 def run_command(argv: list[str]) -> int:
     args = build_parser().parse_args(argv)
     if args.command == "check":
-        from railroom.tui.check_command import run_check
+        from railroom.tui.subcommands.check import run_check
 
         return run_check(args)
     if args.command == "presets":
-        from railroom.tui.presets_command import run_presets
+        from railroom.tui.subcommands.presets import run_presets
 
         return run_presets(args)
     if args.command == "bench":
-        from railroom.tui.bench_command import run_bench
+        from railroom.tui.subcommands.bench import run_bench
 
         return run_bench(args)
     if args.command == "blocks":
-        from railroom.tui.blocks_command import run_blocks
+        from railroom.tui.subcommands.blocks import run_blocks
 
         return run_blocks(args)
     if args.command == "plot":
-        from railroom.tui.plot_command import run_plot
+        from railroom.tui.subcommands.plot import run_plot
 
         return run_plot(args)
     if args.command == "schema":
-        from railroom.tui.schema_command import run_schema
+        from railroom.tui.subcommands.schema import run_schema
 
         return run_schema(args)
-    return EXIT_INPUT
+    return INPUT_ERROR
 
 
 def open_interface(argv: list[str]) -> int:
@@ -188,19 +187,8 @@ def open_interface(argv: list[str]) -> int:
         from railroom.tui.app import run_app
     except ImportError as err:  # the interface is an optional layer over the engine
         print(f"railroom: the terminal interface cannot start: {err}", file=sys.stderr)
-        return EXIT_INPUT
+        return INPUT_ERROR
     return run_app(args.chain, tuple(args.presets))
-
-
-def json_text(data: dict) -> str:
-    """Indented JSON for stdout; characters that would act on a terminal are \\u escapes."""
-    from railroom.engine.values import terminal_json
-
-    return terminal_json(json.dumps(data, indent=2, ensure_ascii=False)) + "\n"
-
-
-def print_json(data: dict) -> None:
-    sys.stdout.write(json_text(data))
 
 
 if __name__ == "__main__":

@@ -3,12 +3,19 @@ switch the method, jump to a stage by name. The framework's stock commands stay 
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
+from collections.abc import Callable
 from functools import partial
 
 from rich.text import Text
+from textual.binding import Binding
 from textual.command import DiscoveryHit, Hit, Hits, Provider
 
-from railroom.engine.model import METHODS
+from railroom.engine import METHODS
+
+if TYPE_CHECKING:
+    from railroom.tui.app import RailroomApp
 
 METHOD_WORDS = {
     "corners": "corners (worst case at every tolerance corner)",
@@ -20,17 +27,22 @@ METHOD_WORDS = {
 class RailroomCommands(Provider):
     """The commands of the room on screen, found by their words."""
 
-    def commands(self) -> list[tuple[str, object, str | None]]:
+    if TYPE_CHECKING:  # the railroom app, for the type checker; Provider's own `app` at run time
+
+        @property
+        def app(self) -> RailroomApp: ...
+
+    def commands(self) -> list[tuple[str, Callable[[], object], str | None]]:
         """(words, what runs, help) for every command that makes sense now."""
         from railroom.tui.screens.chain import ChainScreen
 
         app = self.app
-        found: list[tuple[str, object, str | None]] = []
+        found: list[tuple[str, Callable[[], object], str | None]] = []
         chain = next((s for s in app.screen_stack if isinstance(s, ChainScreen)), None)
         rooms = [(app, app.BINDINGS)] + ([(chain, ChainScreen.BINDINGS)] if chain else [])
         for owner, bindings in rooms:
             for binding in bindings:
-                if not binding.id or binding.action == "command_palette":
+                if not isinstance(binding, Binding) or not binding.id or binding.action == "command_palette":
                     continue
                 if owner is app and not app.check_action(binding.action, ()):
                     continue

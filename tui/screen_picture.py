@@ -11,7 +11,7 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
-from railroom.engine.atomic import write_atomic
+from railroom.engine import write_atomic
 
 FONT_FACE = re.compile(r"@font-face\s*\{[^{}]*\}\s*", re.S)
 WEB_COMMENT = re.compile(r"<!--[^>]*?https?://.*?-->\s*", re.S)

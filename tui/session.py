@@ -1,6 +1,6 @@
 """The chain under edit in the interface: its file, its text, the last good result. No Textual here.
 
-Every edit is a function of the text (engine/editing.py); an edit is kept only when the one chain
+Every edit is a function of the text (engine/formats/chain_editing.py); an edit is kept only when the one chain
 loader and the part library accept the edited text, so the screen always shows a checked chain.
 """
 
@@ -10,19 +10,27 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from collections.abc import Callable
 
-from railroom.engine.analysis import analyse, load_checked
-from railroom.engine.atomic import Fingerprint, fingerprint, write_atomic
-from railroom.engine.editing import checked
-from railroom.engine.model import Chain, InputError, Problem
-from railroom.engine.plan import plan_chain
-from railroom.engine.presets import Library, load_library, search_order
-from railroom.engine.results import ChainResult
+from railroom.engine import (
+    Chain,
+    ChainResult,
+    Fingerprint,
+    InputError,
+    Library,
+    Problem,
+    analyse,
+    chain_from_text,
+    check_parts,
+    demo_file,
+    fingerprint,
+    load_checked,
+    load_library,
+    search_order,
+    write_atomic,
+)
 
 
 def demo_path() -> Path:
-    import railroom.engine.demos
-
-    return Path(railroom.engine.demos.__file__).parent / "pump_vibration.toml"
+    return demo_file("pump_vibration")
 
 
 @dataclass
@@ -86,9 +94,9 @@ class Session:
         so a worker thread may run it while the user goes on typing."""
         try:
             edited = change(text)
-            chain = checked(edited, str(self.path))
+            chain = chain_from_text(edited, str(self.path))
             library = self._library_for(chain)
-            plan_chain(chain, library.parts)
+            check_parts(chain, library.parts)
         except InputError as err:
             return list(err.problems)
         except (ValueError, IndexError, KeyError, RecursionError) as err:
@@ -115,7 +123,7 @@ class Session:
             return False
         text = self.history.pop()
         self._last_step = None
-        self.chain = checked(text, str(self.path))
+        self.chain = chain_from_text(text, str(self.path))
         self.library = self._library_for(self.chain)
         self.text = text
         return True
@@ -124,7 +132,7 @@ class Session:
         """Read the preset folders again (a preset changed); keep the old library on a problem."""
         library = load_library(search_order(self.chain.preset_dirs, self.extra_preset_dirs))
         try:
-            plan_chain(self.chain, library.parts)
+            check_parts(self.chain, library.parts)
         except InputError as err:
             return list(err.problems)
         self.library = library
@@ -151,7 +159,7 @@ class Session:
         if self.read_only and path is None:
             raise PermissionError("the built-in demo is read-only: save it under a new name")
         if target != self.path:
-            self.chain = checked(self.text, str(target))
+            self.chain = chain_from_text(self.text, str(target))
             self.library = self._library_for(self.chain)
         write_atomic(target, self.text, backup=True)
         self.path, self.read_only, self.saved_text = target, False, self.text

@@ -1,6 +1,11 @@
-"""Methods: corners (extreme values), rss (root-sum-square), montecarlo. Same input, same result shape.
+"""Methods: corners (extreme values), rss (root-sum-square), montecarlo: `run(setup, progress) -> Outcome`.
 
-The statistical methods measure each margin per circuit (engine/draw_walk.py) and turn the
+Every method module has the same entry, `run(setup: Setup, progress=None) -> Outcome`; `run`
+below picks the chain's method. The corners verdicts come first (every method starts from them
+and the design aids compare against them), so `Setup.corner_stages` is filled before rss or
+Monte Carlo runs.
+
+The statistical methods measure each margin per circuit (engine/walks/circuit_walk.py) and turn the
 statistic they quote (rss: nominal - 3 sigma; montecarlo: the 0.1 % percentile over the draws)
 back into a StageMeasure that checks.judge decides on like any other: each op amp's output and
 input spans are the statistic's, and its window is the one that leaves exactly that margin.
@@ -8,35 +13,50 @@ input spans are the statistic's, and its window is the one that leaves exactly t
 
 from __future__ import annotations
 
-from dataclasses import replace
+from collections.abc import Callable
+from dataclasses import dataclass, field, replace
+from importlib import import_module
+from typing import Any
 
-from railroom.engine.checks import judge
-from railroom.engine.results import StageResult
+import numpy as np
+
+from railroom.engine.circuit.model import Chain
+from railroom.engine.verdict.judge import judge
+from railroom.engine.verdict.results import StageResult
 
 Stat = dict[str, float]
+Progress = Callable[[float], bool]  # fraction done -> keep going?
 
 
-def run_statistical(method: str, chain, plans, freqs, corner_stages, progress=None, layout=None, lin=None):
-    """Hook for the statistical methods; returns (stage results, chain yield). `progress`:
-    see montecarlo.run. `layout` (full band) and `lin` (its linearisation) when the caller
-    has them already."""
-    if method == "rss":
-        from railroom.engine.methods.rss import run
+@dataclass(frozen=True)
+class Setup:
+    """What every method starts from, built once by analysis.analyse."""
 
-        return run(chain, plans, freqs, corner_stages, lin=lin), None
-    if method == "montecarlo":
-        from railroom.engine.methods.montecarlo import run
+    chain: Chain
+    plans: list
+    freqs: np.ndarray  # the band grid (Hz)
+    prepared: Any  # corners.Prepared: the chain's values and responses, amplitude-independent
+    notes: list | None = None  # per-stage measure fields known beforehand (nominal span, gain error)
+    corner_stages: list[StageResult] = field(default_factory=list)  # the corners verdicts
+    layout: Any = None  # circuit_walk.Layout over the full band, when built (statistics, aids)
+    lin: Any = None  # sensitivity.Linearised of `layout`, when built
 
-        return run(
-            chain,
-            plans,
-            freqs,
-            corner_stages,
-            progress=progress,
-            layout=layout,
-            decisive=None if lin is None else lin.decisive,
-        )
-    raise NotImplementedError(f"method {method!r} is not built")
+
+@dataclass(frozen=True)
+class Outcome:
+    """What a method returns: its stage verdicts, and the chain yield where it measures one."""
+
+    stages: list[StageResult]
+    chain_yield: float | None = None
+
+
+def run(setup: Setup, progress: Progress | None = None) -> Outcome:
+    """The chain's method (conditions.method) on `setup`. `progress(fraction) -> bool` hears
+    how far a long method is; returning False stops it with montecarlo.Cancelled."""
+    method = setup.chain.conditions.method
+    if method not in ("corners", "rss", "montecarlo"):
+        raise NotImplementedError(f"method {method!r} is not built")
+    return import_module(f"railroom.engine.methods.{method}").run(setup, progress)
 
 
 def judged(
@@ -50,8 +70,9 @@ def judged(
     probability: float | None = None,
     percentiles: dict | None = None,
 ) -> StageResult:
-    """A StageResult whose margins are the statistic's. `amps` holds per op amp its margins and
-    spans ("out-low", "out-high", "in-low", "in-high")."""
+    """A StageResult whose margins are the statistic's, judged as they are. `amps` holds per op
+    amp its margins and spans ("out-low", "out-high", "in-low", "in-high"); the spans and the
+    windows that leave those margins are set on the measure for the views."""
     m = corner.measure
     opamps = []
     for old, stat in zip(m.opamps, amps):
@@ -89,4 +110,16 @@ def judged(
         measure = replace(
             measure, input_differential=plan.part.input_differential_max - amps[0]["input-differential"]
         )
-    return judge(measure, plan.part, plan.rails, required)
+    # the statistic's margins go to the judge as they are; the windows above are for the views
+    margins: Stat = {}
+    nodes: dict[str, str] = {}
+    checks = ["input-high", "input-low", "current"]
+    if not m.saturated:
+        checks += ["output-high", "output-low", "slew"]
+    for amp, stat in zip(m.opamps, amps):
+        for check in checks:
+            if check in stat and (check not in margins or stat[check] < margins[check]):
+                margins[check], nodes[check] = stat[check], amp.label
+    if window_margins is not None and not m.opamps:
+        margins.update({c: window_margins[c] for c in ("input-high", "input-low")})
+    return judge(measure, plan.part, plan.rails, required, measured=(margins, nodes))

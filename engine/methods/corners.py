@@ -2,7 +2,9 @@
 
 Each stage enumerates the 2^k corners of its own toleranced values (resistor tolerance and tempco
 over the worst temperature, toleranced references); offsets and bias currents are independent
-+/- terms added exactly; rails enter at both ends through the windows; the source at both ends of
++/- terms added exactly; rails enter at both ends through the windows; values several stages
+share (named nets, and the rail a ratiometric net follows) take one value per walk: the chain is
+walked once per joint corner of them and the envelope kept (methods/joint.py); the source at both ends of
 each range and the AC part at +/- its peak over every band frequency. The signal between stages is
 carried as bounds (see propagation.py): exact for DC and flat-band stages, outside bounds
 otherwise (ECSS-Q-HB-30-01A, extreme value analysis).
@@ -17,12 +19,14 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from railroom.engine.blocks.base import BlockResponse
-from railroom.engine.model import Chain, InputError, Problem
-from railroom.engine.opamp import inverse_open_loop, laplace_grid
-from railroom.engine.plan import StagePlan, spread
-from railroom.engine.propagation import DifferentialSignal, Signal, source_signal
-from railroom.engine.stage_walk import walk_chain
+from railroom.engine.circuit.blocks.base import BlockResponse
+from railroom.engine.circuit.model import Chain, InputError, Problem
+from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
+from railroom.engine.walks.preparation import StagePlan, spread
+from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, source_signal
+from railroom.engine.walks.bounds_walk import plan_parents, walk_chain
+from railroom.engine.methods.joint import envelope
+from railroom.engine.circuit.nets import joint_plans
 
 MAX_CORNER_BITS = 14  # 16384 corners of one stage's own values
 
@@ -41,6 +45,9 @@ class Prepared:
     joint: tuple[bool, ...] = ()
     # what walks of this Prepared may keep for the next walk (stage_walk: node terms)
     memo: dict = field(default_factory=dict, compare=False, repr=False)
+    # one Prepared per joint corner of the values stages share (named nets, the rails that
+    # ratiometric nets follow: engine/circuit/nets.py); `run` walks each and takes the envelope
+    joint_walks: tuple[Prepared, ...] = ()
 
 
 class TooManyCorners(InputError):
@@ -170,29 +177,31 @@ def prepare(
     s = laplace_grid(freqs)
     values, responses, joint = [], [], []
     source = np.array([[chain.source.impedance]])
-    drive: Callable[[], np.ndarray] = partial(np.asarray, source)
-    before = None
-    differential = chain.source.differential
+    parents = plan_parents(plans)
     if reuse is not None and first > 0:
         values, responses = list(reuse.values[:first]), list(reuse.responses[:first])
         joint = list(reuse.joint[:first])
-        prior, before = plans[first - 1], reuse.responses[first - 1]
-        drive = partial(next_drive, prior, before)
-        differential = False
-    for plan in plans[len(values) :]:
-        rows = values[-1]["drive"].shape[0] if values else 1
+    for k in range(len(values), len(plans)):
+        plan, parent = plans[k], parents[k]
+        if parent < 0:  # fed by the source
+            before, rows, differential = None, 1, chain.source.differential
+            drive: Callable[[], np.ndarray] = partial(np.asarray, source)
+        else:  # fed by an earlier stage, whatever else it feeds
+            before, rows, differential = responses[parent], values[parent]["drive"].shape[0], False
+            drive = partial(next_drive, plans[parent], before)
         v, paired = stage_values(plan, rise, nominal, before, rows, drive)
         inverse_gain = inverse_open_loop(None if ideal else plan.part, s)
         response = None
         if not plan.block.saturates:
             response = plan.block.respond(v, s, inverse_gain, v["drive"], differential)
-        drive = partial(next_drive, plan, response)
-        before = response
-        differential = False
         values.append(v)
         responses.append(response)
         joint.append(paired)
-    return Prepared(chain, plans, freqs, values, responses, tuple(joint))
+    walks: tuple[Prepared, ...] = ()
+    if not nominal and reuse is None:
+        variants = joint_plans(chain, plans) or []
+        walks = tuple(prepare(chain, pinned, freqs, nominal, ideal) for pinned in variants)
+    return Prepared(chain, plans, freqs, values, responses, tuple(joint), joint_walks=walks)
 
 
 def start_signal(chain: Chain, freqs: np.ndarray, scale: float = 1.0) -> Signal | DifferentialSignal:
@@ -202,17 +211,32 @@ def start_signal(chain: Chain, freqs: np.ndarray, scale: float = 1.0) -> Signal 
     return source_signal(source.level, source.amplitude * scale, freqs)
 
 
-def run(
+def run(setup, progress=None):
+    """The corners verdicts of every stage (methods.Setup in, methods.Outcome out)."""
+    from railroom.engine.methods import Outcome
+
+    return Outcome(walk(setup.prepared, notes=setup.notes))
+
+
+def walk(
     prepared: Prepared, scale: float = 1.0, nominal: bool = False, notes=None, entering: list | None = None
 ):
     """Stage measures and verdicts for one source amplitude scale; `notes` are per-stage measure
-    fields known beforehand (nominal span, gain error); `entering` receives each stage's input."""
+    fields known beforehand (nominal span, gain error); `entering` receives each stage's input.
+    With shared values (nets) the chain is walked once per joint corner and the envelope taken;
+    `entering` (the fix search's re-walks) takes the walk with each net at every end of its
+    own, stage by stage, an outside bound."""
+    if prepared.joint_walks and entering is None:
+        walks = [
+            walk_chain(p, start_signal(p.chain, p.freqs, scale), nominal, notes) for p in prepared.joint_walks
+        ]
+        return envelope(walks, prepared.plans, prepared.chain.conditions.margin)
     return walk_chain(
         prepared, start_signal(prepared.chain, prepared.freqs, scale), nominal, notes, entering=entering
     )
 
 
-def run_from(prepared: Prepared, first: int, signal, stop: int | None = None) -> list:
-    """Verdicts of stages `first` to `stop` (not included; the last by default), fed `signal`
-    (recorded by `run(..., entering=...)`)."""
-    return walk_chain(prepared, signal, first=first, stop=stop)
+def run_from(prepared: Prepared, first: int, entering: list, stop: int | None = None) -> list:
+    """Verdicts of stages `first` to `stop` (not included; the last by default), fed the
+    signals a full walk recorded (`walk(..., entering=...)`) where their parent is not walked."""
+    return walk_chain(prepared, entering[first], first=first, stop=stop, recorded=entering)

@@ -1,4 +1,4 @@
-"""Monte Carlo: many built circuits drawn at random, each walked exactly (engine/draw_walk.py).
+"""Monte Carlo: many built circuits drawn at random, each walked exactly (engine/walks/circuit_walk.py).
 
 Each toleranced value is drawn uniform over its tolerance, or normal with the tolerance as
 3 sigma (conditions.distribution); each op amp's offset, offset drift and bias are signed draws in
@@ -21,10 +21,11 @@ from collections.abc import Iterator
 
 import numpy as np
 
-from railroom.engine import draw_walk as dw
-from railroom.engine.methods import judged
+from railroom.engine.walks import circuit_walk as dw
+from railroom.engine.methods import Outcome, Progress, Setup, judged
 from railroom.engine.methods.corners import prepare
 from railroom.engine.methods.normal import inverse_normal
+from railroom.engine.walks.bounds_walk import plan_parents
 
 CHUNK_ROWS = 10_000  # the default sample count in one walk; larger chunks ran slower
 MEDIAN_ROWS = 16384
@@ -192,21 +193,14 @@ class Cancelled(Exception):
     """The caller's progress callback asked to stop (a newer edit made this run stale)."""
 
 
-def run(
-    chain,
-    plans,
-    freqs,
-    corner_stages,
-    chunk: int = CHUNK_ROWS,
-    progress=None,
-    layout: dw.Layout | None = None,
-    decisive: np.ndarray | None = None,
-):
+def run(setup: Setup, progress: Progress | None = None, chunk: int = CHUNK_ROWS) -> Outcome:
     """Stage results at the 0.1 % percentile, with probability and percentiles; chain yield.
     `progress(fraction_done) -> bool` is called after every chunk; False stops the run.
-    `layout`, `decisive`: see layout_for."""
+    `setup.layout` and the decisive checks of `setup.lin` are used when built: see layout_for."""
+    chain, plans, corner_stages = setup.chain, setup.plans, setup.corner_stages
+    decisive = None if setup.lin is None else setup.lin.decisive
     samples, seed = chain.conditions.samples, chain.conditions.seed
-    layout = layout_for(chain, plans, freqs, corner_stages, full=layout, decisive=decisive)
+    layout = layout_for(chain, plans, setup.freqs, corner_stages, full=setup.layout, decisive=decisive)
     tail = None
     leaving = np.zeros(len(plans))
     all_linear = 0
@@ -229,14 +223,16 @@ def run(
     assert tail is not None  # samples >= 1: at least one chunk was walked
     quoted = {name: tail.median() if q == 0.5 else tail.low(q) for name, q in QUOTED.items()}
     stages = stage_results(plans, corner_stages, quoted, leaving / samples, chain.conditions.margin)
-    return stages, all_linear / samples
+    return Outcome(stages, all_linear / samples)
 
 
 def stage_results(plans, corner_stages, quoted, probability, required):
     deciding = quoted["0.1%"]
     results = []
-    clipped_before = False
+    clipping: list[bool] = []  # per stage: it clips, or a stage up its branch does
+    parents = plan_parents(plans)
     for k, (plan, corner) in enumerate(zip(plans, corner_stages)):
+        clipped_before = parents[k] >= 0 and clipping[parents[k]]
         stage = {name: v for (s, a, name), v in deciding.items() if s == k and a is None}
         amps = []
         for j in range(len(corner.measure.opamps)):
@@ -258,6 +254,6 @@ def stage_results(plans, corner_stages, quoted, probability, required):
         result = judged(
             plan, corner, amps, out_span, window, required, clipped_before, float(probability[k]), percentiles
         )
-        clipped_before = clipped_before or result.regime == "clipping"
+        clipping.append(clipped_before or result.regime == "clipping")
         results.append(result)
     return results

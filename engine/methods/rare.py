@@ -6,7 +6,7 @@ u of every toleranced value (d = u/3 for normal tolerances, d = 2 Phi(u) - 1 for
 shifted towards the places where a margin is most likely to fail:
 
 1. Design points (first-order reliability method): for each linear check of each stage, the
-   linearised margin m(d) = m0 + g.d (engine/sensitivity.py, central differences) is taken into
+   linearised margin m(d) = m0 + g.d (engine/aids/sensitivity.py, central differences) is taken into
    u space and the nearest point where it reaches zero is found by the Hasofer-Lind /
    Rackwitz-Fiessler iteration (Hasofer & Lind, J. Eng. Mech. Div. ASCE 100, 1974; Rackwitz &
    Fiessler, Computers & Structures 9, 1978); its distance is the reliability index beta. Under
@@ -28,7 +28,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from railroom.engine import draw_walk as dw
+from railroom.engine.walks import circuit_walk as dw
 from railroom.engine.methods.normal import normal_tail
 
 MAX_CENTRES = 8

@@ -4,7 +4,7 @@
 
 with sigma_i = tol_i / sqrt(3) for a uniform tolerance, tol_i / 3 when the tolerance is 3 sigma
 (conditions.distribution = "normal"). The derivatives are central differences over the per-circuit
-walk (engine/sensitivity.py), taken with temperature drifts over the worst temperature rise.
+walk (engine/aids/sensitivity.py), taken with temperature drifts over the worst temperature rise.
 Output and input spans are quoted the same way: nominal -/+ 3 sigma.
 """
 
@@ -12,9 +12,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from railroom.engine.methods import judged
+from railroom.engine.methods import Outcome, Progress, Setup, judged
 from railroom.engine.methods.montecarlo import layout_for
-from railroom.engine.sensitivity import Linearised, linearise, spread_per_unit
+from railroom.engine.aids.sensitivity import Linearised, linearise, spread_per_unit
+from railroom.engine.walks.bounds_walk import plan_parents
 
 SIGMAS = 3.0
 
@@ -39,12 +40,34 @@ def quoted(lin: Linearised, name: str, x: np.ndarray, s: float) -> float:
     )
 
 
-def run(chain, plans, freqs, corner_stages, lin: Linearised | None = None):
-    lin = lin or linearise(layout_for(chain, plans, freqs, corner_stages, band="full"))
+def within_corners(stat: dict, worst) -> dict:
+    """rss never quotes a margin below the worst case (the README's rss rule): the linear
+    model's extreme can pass the exact corners by a cross term the corners keep (a ratiometric
+    net is fraction x rail: the product's corner lies inside the linear extreme by
+    tol_f tol_rail x value), so each quoted margin is held at or above the corners'. Spans are
+    quoted as the linear model gives them."""
+    floors = {
+        "output-high": worst.window[1] - worst.output[1],
+        "output-low": worst.output[0] - worst.window[0],
+        "input-high": worst.input_window[1] - worst.input[1],
+        "input-low": worst.input[0] - worst.input_window[0],
+        "slew": worst.slew_available - worst.slew_needed,
+        "current": worst.current_available - worst.current_needed,
+    }
+    return {name: max(value, floors[name]) if name in floors else value for name, value in stat.items()}
+
+
+def run(setup: Setup, progress: Progress | None = None) -> Outcome:
+    """Stage results at nominal -/+ 3 sigma of the linearisation (`setup.lin`, built here when
+    the caller has none); rss measures no yield."""
+    chain, plans, corner_stages = setup.chain, setup.plans, setup.corner_stages
+    lin = setup.lin or linearise(layout_for(chain, plans, setup.freqs, corner_stages, band="full"))
     s = spread_per_unit(chain.conditions.distribution)
     results = []
-    clipped_before = False
+    clipping: list[bool] = []  # per stage: it clips, or a stage up its branch does
+    parents = plan_parents(plans)
     for k, (plan, corner) in enumerate(zip(plans, corner_stages)):
+        clipped_before = parents[k] >= 0 and clipping[parents[k]]
         draws = lin.draws[k]
         amps = []
         for amp in draws.amps:
@@ -53,11 +76,15 @@ def run(chain, plans, freqs, corner_stages, lin: Linearised | None = None):
                 {n: quoted(lin, n, x, s) for n, x in amp["spans"].items() if not n.startswith("window")}
             )
             amps.append(stat)
+        amps = [within_corners(stat, worst) for stat, worst in zip(amps, corner.measure.opamps)]
         out_span = (quoted(lin, "out-low", draws.out_lo, s), quoted(lin, "out-high", draws.out_hi, s))
         window = None
         if plan.block.window_only:
-            window = {c: quoted(lin, c, draws.margins[c], s) for c in ("input-high", "input-low")}
+            window = {
+                c: max(quoted(lin, c, draws.margins[c], s), corner.margins.get(c, -np.inf))
+                for c in ("input-high", "input-low")
+            }
         result = judged(plan, corner, amps, out_span, window, chain.conditions.margin, clipped_before)
-        clipped_before = clipped_before or result.regime == "clipping"
+        clipping.append(clipped_before or result.regime == "clipping")
         results.append(result)
-    return results
+    return Outcome(results)

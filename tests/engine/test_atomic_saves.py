@@ -1,4 +1,4 @@
-"""engine/atomic.py: saves through links, refusals, permissions, leftovers, change detection
+"""engine/formats/atomic.py: saves through links, refusals, permissions, leftovers, change detection
 (issue 12, item 5). POSIX rename(2) and umask(2) semantics are the reference."""
 
 from __future__ import annotations
@@ -8,7 +8,7 @@ import stat
 
 import pytest
 
-from railroom.engine.atomic import fingerprint, write_atomic
+from railroom.engine.formats.atomic import fingerprint, write_atomic
 
 
 def test_a_symlink_is_saved_through_and_stays_a_link(tmp_path):

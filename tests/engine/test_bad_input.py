@@ -7,11 +7,11 @@ numbers below are counted by hand in BASE.
 
 import pytest
 
-from railroom.engine.analysis import load_checked
-from railroom.engine.files import chain_from_text, load_chain
-from railroom.engine.model import InputError
-from railroom.engine.plan import plan_chain
-from railroom.engine.presets import load_library, search_order
+from railroom.engine.formats.loading import load_checked
+from railroom.engine.formats.chain_file import chain_from_text, load_chain
+from railroom.engine.circuit.model import InputError
+from railroom.engine.walks.preparation import plan_chain
+from railroom.engine.formats.presets import load_library, search_order
 
 BASE = """format = 1
 [rails.main]

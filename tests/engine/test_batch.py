@@ -8,7 +8,7 @@ import sys
 from pathlib import Path
 
 from fuzz_inputs import DEMO_CHAIN
-from railroom.tui.batch_command import Options, chain_paths, check_all
+from railroom.tui.subcommands.batch import Options, chain_paths, check_all
 
 DEMO = DEMO_CHAIN.read_text(encoding="utf-8")
 # The demo is NO-GO (its level shifter slews too slowly at 200 mV peak, 5 kHz); at a tenth of
@@ -42,8 +42,8 @@ def test_folder_gives_one_line_per_file_in_order_and_the_worst_status(tmp_path):
     assert [line.split()[0] for line in lines] == ["GO", "NO-GO", "ERROR"]
     assert ["a-go.toml" in lines[0], "b-nogo.toml" in lines[1], "c-broken.toml" in lines[2]] == [True] * 3
     assert run.returncode == 2
-    # The broken file's problem is located on stderr: file, line of rf (demo line 44), field.
-    assert "c-broken.toml:44: stage.2.rf:" in run.stderr
+    # The broken file's problem is located on stderr: file, line of rf (demo line 56), field.
+    assert "c-broken.toml:56: stage.2.rf:" in run.stderr
     assert "Traceback" not in run.stderr
     assert {p.name: p.read_bytes() for p in folder.iterdir()} == before
 

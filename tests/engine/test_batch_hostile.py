@@ -28,7 +28,7 @@ def railroom(*args: str, home: Path) -> subprocess.CompletedProcess:
 
 
 def test_the_slow_chain_loads_and_asks_for_ten_million_draws():
-    from railroom.engine.files import chain_from_text
+    from railroom.engine.formats.chain_file import chain_from_text
 
     assert chain_from_text(SLOW_CHAIN, "slow.toml").conditions.samples == 10_000_000
 

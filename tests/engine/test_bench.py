@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from railroom.engine import bench
+from railroom.engine.benchmark import figures as bench
 
 SPEC_KEYS = {
     "format",
@@ -38,7 +38,7 @@ def test_engine_bench_tiny():
 
 
 def test_bench_command_keys(monkeypatch):
-    from railroom.tui import bench_command
+    from railroom.tui.subcommands import bench as bench_command
 
     monkeypatch.setattr(bench_command, "check_process_seconds", lambda runs=3: 0.5)
     monkeypatch.setattr(bench_command, "interface_times", lambda: (None, None))
@@ -50,7 +50,7 @@ def test_bench_command_keys(monkeypatch):
 
 def test_long_bench_chains_are_what_they_say():
     from railroom.engine.analysis import analyse
-    from railroom.engine.files import chain_from_text
+    from railroom.engine.formats.chain_file import chain_from_text
 
     passing = chain_from_text(bench.long_chain_text(48))
     failing = chain_from_text(bench.long_chain_text(48, failing=True))
@@ -64,4 +64,18 @@ def test_long_bench_chains_are_what_they_say():
 
 def test_reference_chain_is_linear_in_every_draw():
     # the comparison of the two evaluations is meant for circuits that stay linear
-    assert bench.draws_linear_share(samples=500) == 1.0
+    assert draws_linear_share(samples=500) == 1.0
+
+
+def draws_linear_share(samples: int) -> float:
+    """Share of reference-chain draws that stay linear everywhere (a sanity figure for tuning)."""
+    from railroom.engine.walks.preparation import band_grid
+    from railroom.engine.methods import Setup, corners, montecarlo
+    from railroom.engine.walks.preparation import plan_chain
+
+    chain = bench.reference_chain()
+    plans = plan_chain(chain, bench.PARTS)
+    freqs = band_grid(chain, plans)
+    prepared = corners.prepare(chain, plans, freqs)
+    setup = Setup(chain, plans, freqs, prepared, corner_stages=corners.walk(prepared))
+    return float(montecarlo.run(setup, chunk=samples).chain_yield or 0.0)

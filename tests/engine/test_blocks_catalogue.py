@@ -9,10 +9,10 @@ import pytest
 from scipy.signal import freqs as analog_response
 
 from railroom.engine.analysis import analyse
-from railroom.engine.blocks import BLOCKS
-from railroom.engine.files import chain_from_text
-from railroom.engine.model import Part
-from railroom.engine.opamp import inverse_open_loop, laplace_grid
+from railroom.engine.circuit.blocks import BLOCKS
+from railroom.engine.formats.chain_file import chain_from_text
+from railroom.engine.circuit.model import Part
+from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
 
 TWO_PI = 2 * np.pi
 NEAR_IDEAL = Part(

@@ -18,7 +18,7 @@ from sympy.parsing.sympy_parser import (
     standard_transformations,
 )
 
-from railroom.engine.blocks import BLOCKS
+from railroom.engine.circuit.blocks import BLOCKS
 from railroom.tui.cli import main
 
 s, r1, r2, r3, c1, c2, K, vi, vo, va, vp = sp.symbols("s r1 r2 r3 c1 c2 K vi vo va vp")
@@ -89,12 +89,27 @@ def test_list_and_one_block(capsys):
         "unit": "ohm",
         "default": "required",
         "connects": "in to node A",
+        "takes_net": False,
     }
+    assert [f["key"] for f in info["fields"] if f["takes_net"]] == ["ref"]  # the README, Named DC nets
     assert main(["blocks", "noninverting"]) == 0
     text = capsys.readouterr().out
     assert "out = (1 + rf/rg) in - (rf/rg) ref" in text and "default 0 [V]" in text
+    assert '(a field in V also takes { net = "NAME" }' in text
 
 
 def test_unknown_block_is_refused_with_the_list(capsys):
     assert main(["blocks", "nonverting"]) == 2
     assert "unknown block 'nonverting'" in capsys.readouterr().err
+
+
+def test_the_edit_form_and_the_block_help_word_load_and_load_capacitance_alike():
+    from railroom.engine.reports.block_help import describe
+    from railroom.engine.formats.chain_editing import stage_shapes
+
+    common = {f["key"]: f["help"] for f in describe("noninverting")["common_fields"]}
+    shapes = stage_shapes("noninverting")
+    assert [shapes[k].help for k in ("load", "load_capacitance")] == [
+        common["load"],
+        common["load_capacitance"],
+    ]

@@ -1,9 +1,9 @@
-"""Safety and plausibility cautions on the result (engine/checks.py)."""
+"""Safety and plausibility cautions on the result (engine/verdict/judge.py)."""
 
 from railroom.engine.analysis import analyse
-from railroom.engine.files import chain_from_text
-from railroom.engine.presets import load_library, search_order
-from railroom.engine.report import chain_report
+from railroom.engine.formats.chain_file import chain_from_text
+from railroom.engine.formats.presets import load_library, search_order
+from railroom.engine.reports.json_report import chain_report
 
 
 def chain(positive: str, negative: str, part: str = "generic-bipolar-15v") -> str:

@@ -24,10 +24,11 @@ from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
 from references.nodal import Circuit
-from railroom.engine.analysis import analyse, band_grid
-from railroom.engine.files import chain_from_text
-from railroom.engine.model import Part
-from railroom.engine.plan import plan_chain
+from railroom.engine.analysis import analyse
+from railroom.engine.walks.preparation import band_grid
+from railroom.engine.formats.chain_file import chain_from_text
+from railroom.engine.circuit.model import Part
+from railroom.engine.walks.preparation import plan_chain
 
 RESISTORS = (1e3, 2.2e3, 4.7e3, 10e3, 22e3, 47e3, 100e3)
 TOLERANCES = (0.0, 0.001, 0.01, 0.05)

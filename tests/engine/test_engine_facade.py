@@ -4,9 +4,10 @@ import subprocess
 import sys
 
 import railroom.engine as engine
-from railroom.engine.analysis import analyse, load_checked
+from railroom.engine.analysis import analyse
+from railroom.engine.formats.loading import load_checked
 from railroom.engine.methods.montecarlo import Cancelled
-from railroom.engine.model import InputError, Problem
+from railroom.engine.circuit.model import InputError, Problem
 
 
 def test_facade_names_are_the_defining_modules_objects():
@@ -30,7 +31,7 @@ def test_unknown_name_is_an_attribute_error():
 
 def test_importing_a_submodule_does_not_load_the_analysis():
     code = (
-        "import sys, railroom.engine.model; "
+        "import sys, railroom.engine.circuit.model; "
         "print('railroom.engine.analysis' in sys.modules, 'numpy' in sys.modules)"
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)

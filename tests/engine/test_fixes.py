@@ -9,10 +9,10 @@ import numpy as np
 import pytest
 
 from railroom.engine.analysis import analyse
-from railroom.engine.eseries import SERIES
-from railroom.engine.files import chain_from_text
-from railroom.engine.model import Part
-from railroom.engine.values import Quantity
+from railroom.engine.aids.eseries import SERIES
+from railroom.engine.formats.chain_file import chain_from_text
+from railroom.engine.circuit.model import Part
+from railroom.engine.formats.values import Quantity
 
 PART = Part(
     id="amp",
@@ -74,7 +74,7 @@ def test_fixes_are_series_values_that_restore_the_margin(method):
     stage = result.stages[0]
     assert stage.regime == "clipping" and not stage.go
     value_fixes = [f for f in stage.fixes if f.field in ("rf", "rg")]
-    assert [f.text.split("(")[1][:3] for f in value_fixes] == ["E24", "E96"]
+    assert [f.series for f in value_fixes] == [("E24",), ("E96",)]
     for fix, series in zip(value_fixes, ("E24", "E96")):
         assert in_series(fix.value, series)
         fixed = analyse(with_value(chain, fix.field, fix.value), PARTS).stages[0]
@@ -87,7 +87,7 @@ def test_fixes_are_series_values_that_restore_the_margin(method):
 
 
 def _series_between(old: float, new: float, series: str) -> list[float]:
-    from railroom.engine.eseries import values_between
+    from railroom.engine.aids.eseries import values_between
 
     lo, hi = sorted((old, new))
     inside = [v for v in values_between(lo, hi, series) if lo * 1.000001 < v < hi / 1.000001]
@@ -160,10 +160,40 @@ rg = "100k 1%"
 )
 
 
+# Branches (issue 13): a passive stage and a gain taken from the buffer, beside the main path;
+# a change on one branch moves its parent's load, and the re-walk feeds stages off its branch
+# what the full walk had.
+WITH_BRANCH = (
+    WITH_PASSIVE
+    + """[[stage]]
+name = "side"
+block = "inverting"
+part = "amp"
+from = "buffer"
+rin = "2k 1%"
+rf = "6k8 1%"
+[[stage]]
+name = "side filter"
+block = "rc_lowpass"
+from = "side"
+r = "1k 5%"
+c = "47n 10%"
+[[stage]]
+name = "side out"
+block = "follower"
+part = "amp"
+"""
+)
+
+
 @pytest.mark.parametrize(
     "text, changes",
     [
         (TIGHT_MIDDLE, ((1, "rf", 33e3), (1, "rg", 1.2e3), (2, "rin", 12e3), (0, None, None))),
+        (
+            WITH_BRANCH,
+            ((5, "rin", 1e3), (6, "r", 2.2e3), (1, "rf", 33e3), (3, "rin", 12e3), (4, "rg", 82e3)),
+        ),
         (
             WITH_PASSIVE,
             ((1, "rf", 33e3), (2, "r", 5.6e3), (3, "rin", 12e3), (3, "rf", 27e3), (4, "rg", 82e3)),
@@ -173,10 +203,10 @@ rg = "100k 1%"
 def test_partial_re_walk_agrees_with_a_walk_of_the_whole_chain(text, changes):
     # The fix search re-walks only from the stage before the change; the whole-chain walk of the
     # changed chain is the reference: every verdict and margin the same.
-    from railroom.engine.analysis import band_grid
-    from railroom.engine.fixes import Evaluator
+    from railroom.engine.walks.preparation import band_grid
+    from railroom.engine.aids.fixes import Evaluator
     from railroom.engine.methods import corners
-    from railroom.engine.plan import plan_chain
+    from railroom.engine.walks.preparation import plan_chain
 
     chain = chain_from_text(text.format(rf="36k"))
     plans = plan_chain(chain, PARTS)
@@ -190,7 +220,7 @@ def test_partial_re_walk_agrees_with_a_walk_of_the_whole_chain(text, changes):
             q = plans[k].quantities[field]
             changed = replace(plans[k], quantities={**plans[k].quantities, field: replace(q, value=value)})
             changed_plans = [*plans[:k], changed, *plans[k + 1 :]]
-        whole = corners.run(corners.prepare(chain, changed_plans, freqs))
+        whole = corners.walk(corners.prepare(chain, changed_plans, freqs))
         partial = evaluate.results(changed_plans, changed=k)
         assert [r.margins for r in partial] == [r.margins for r in whole]
         assert [r.go for r in partial] == [r.go for r in whole]
@@ -221,8 +251,8 @@ def test_a_value_in_both_series_is_offered_once(monkeypatch):
     # rg must reach 14.9k: the nearest E24 value up is 15k and so is the nearest E96 one
     # (IEC 60063: 15 is in E24, 14.7 and 15.0 in E96), so one fix names both series.
     from types import SimpleNamespace
-    from railroom.engine import fixes
-    from railroom.engine.plan import plan_chain
+    from railroom.engine.aids import fixes
+    from railroom.engine.walks.preparation import plan_chain
 
     plan = plan_chain(chain_from_text(CLIPPING.format(method="corners")), PARTS)[0]
     done = SimpleNamespace(limiting="output-high", margins={"output-high": 0.2})

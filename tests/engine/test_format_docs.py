@@ -10,8 +10,9 @@ import json
 import re
 from pathlib import Path
 
-from railroom.engine import files, presets
-from railroom.engine.blocks import BLOCKS, COMMON_FIELDS
+from railroom.engine.formats import chain_file as files
+from railroom.engine.formats import presets
+from railroom.engine.circuit.blocks import BLOCKS, COMMON_FIELDS
 from railroom.tui.cli import main
 
 README = (Path(__file__).resolve().parents[2] / "README.md").read_text(encoding="utf-8")

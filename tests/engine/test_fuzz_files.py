@@ -27,12 +27,12 @@ from fuzz_inputs import (
     preset_files,
 )
 from railroom.engine.analysis import analyse
-from railroom.engine.files import chain_from_text
-from railroom.engine.model import InputError
-from railroom.engine.presets import load_library, parts_from_text, search_order
-from railroom.engine.report import chain_report
-from railroom.engine.toml_lines import key_lines
-from railroom.engine.values import KINDS, ValueTextError, parse_quantity
+from railroom.engine.formats.chain_file import chain_from_text
+from railroom.engine.circuit.model import InputError
+from railroom.engine.formats.presets import load_library, parts_from_text, search_order
+from railroom.engine.reports.json_report import chain_report
+from railroom.engine.formats.toml_lines import key_lines
+from railroom.engine.formats.values import KINDS, ValueTextError, parse_quantity
 
 # A fixed sequence in the test run; RAILROOM_FUZZ_EXPLORE=1 draws fresh inputs for a longer hunt.
 EXPLORE = bool(os.environ.get("RAILROOM_FUZZ_EXPLORE"))

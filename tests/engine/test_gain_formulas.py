@@ -10,10 +10,10 @@ import pytest
 from scipy.optimize import brentq
 
 from railroom.engine.analysis import analyse
-from railroom.engine.blocks.gain import Follower, Inverting, Noninverting, Summing
-from railroom.engine.files import chain_from_text
-from railroom.engine.model import Part
-from railroom.engine.opamp import inverse_open_loop, laplace_grid
+from railroom.engine.circuit.blocks.gain import Follower, Inverting, Noninverting, Summing
+from railroom.engine.formats.chain_file import chain_from_text
+from railroom.engine.circuit.model import Part
+from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
 
 TWO_PI = 2 * np.pi
 

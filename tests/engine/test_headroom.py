@@ -7,12 +7,13 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from railroom.engine.analysis import analyse, headroom_db
-from railroom.engine.files import chain_from_text
+from railroom.engine.analysis import analyse
+from railroom.engine.aids.headroom import headroom_db
+from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.methods import corners
-from railroom.engine.model import Part
-from railroom.engine.plan import plan_chain
-from railroom.engine.analysis import band_grid
+from railroom.engine.circuit.model import Part
+from railroom.engine.walks.preparation import plan_chain
+from railroom.engine.walks.preparation import band_grid
 
 PART = Part(
     id="p",
@@ -70,8 +71,8 @@ def test_headroom_none_when_dc_alone_fails():
 
 @pytest.mark.parametrize("path", [Path(__file__).resolve().parents[2] / "engine/demos/pump_vibration.toml"])
 def test_headroom_agrees_with_plain_bisection(path):
-    from railroom.engine.presets import load_library, search_order
-    from railroom.engine.files import load_chain
+    from railroom.engine.formats.presets import load_library, search_order
+    from railroom.engine.formats.chain_file import load_chain
 
     loaded = load_chain(path)
     parts = load_library(search_order()).parts
@@ -79,7 +80,7 @@ def test_headroom_agrees_with_plain_bisection(path):
     prepared = corners.prepare(loaded, plans, band_grid(loaded, plans))
 
     def linear(db: float) -> bool:
-        return all(r.regime != "clipping" for r in corners.run(prepared, 10 ** (db / 20)))
+        return all(r.regime != "clipping" for r in corners.walk(prepared, 10 ** (db / 20)))
 
     low, high = -60.0, 60.0
     while high - low > 0.005:

@@ -11,7 +11,7 @@ from pathlib import Path
 import pytest
 
 import railroom.engine.demos as demos_package
-from railroom.engine.presets import shipped_folder
+from railroom.engine.formats.presets import shipped_folder
 from command_line import railroom
 
 DEMO = Path(demos_package.__file__).parent / "pump_vibration.toml"
@@ -56,7 +56,7 @@ def test_dev_zero_is_refused_at_once(home):
 
 
 def test_a_file_past_the_size_limit_is_refused(tmp_path, home):
-    from railroom.engine.reading import MAX_FILE_BYTES
+    from railroom.engine.formats.fields import MAX_FILE_BYTES
 
     big = tmp_path / "big.toml"
     big.write_text(DEMO_TEXT + "#" * MAX_FILE_BYTES, encoding="utf-8")

@@ -8,8 +8,8 @@ from pathlib import Path
 
 import pytest
 
-from railroom.engine.files import MAX_INPUTS, MAX_STAGES
-from railroom.engine.reading import MAX_FILE_BYTES, MAX_TEXT
+from railroom.engine.formats.chain_file import MAX_INPUTS, MAX_STAGES
+from railroom.engine.formats.fields import MAX_FILE_BYTES, MAX_TEXT
 from command_line import railroom as run_railroom
 
 HEAD = """format = 1

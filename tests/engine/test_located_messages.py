@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 
 import railroom.engine.demos as demos_package
-from railroom.engine.presets import shipped_folder
+from railroom.engine.formats.presets import shipped_folder
 from command_line import X10_CHAIN
 from command_line import railroom
 
@@ -64,7 +64,7 @@ def test_a_save_into_a_folder_that_takes_no_new_file_names_the_file(tmp_path, mo
     """A read-only folder (simulated: the test may run as root, who may write anywhere): the
     operating system refuses the temporary file; the message must name the file being saved."""
     import tempfile
-    from railroom.engine.atomic import write_atomic
+    from railroom.engine.formats.atomic import write_atomic
 
     target = tmp_path / "board.toml"
 
@@ -80,7 +80,7 @@ def test_a_save_into_a_folder_that_takes_no_new_file_names_the_file(tmp_path, mo
 
 
 def test_fifty_thousand_unknown_keys_are_counted_not_listed(tmp_path, home):
-    from railroom.engine.reading import MAX_UNKNOWN
+    from railroom.engine.formats.fields import MAX_UNKNOWN
 
     path = tmp_path / "board.toml"
     keys = "".join(f"k{i} = 1\n" for i in range(50_000))
@@ -99,7 +99,7 @@ def test_fifty_thousand_unknown_keys_are_counted_not_listed(tmp_path, home):
 
 
 def test_many_problems_are_capped_with_a_count(tmp_path, home):
-    from railroom.tui.check_command import MAX_PROBLEM_LINES
+    from railroom.tui.subcommands.common import MAX_PROBLEM_LINES
 
     path = tmp_path / "board.toml"
     # 90 stages (under the limit of 100), each with three bad values: 270 problems.

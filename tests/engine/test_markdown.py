@@ -14,10 +14,11 @@ from pathlib import Path
 import pytest
 
 import railroom.engine.demos
-from railroom.engine.analysis import analyse, load_checked
-from railroom.engine.files import chain_from_text
-from railroom.engine.markdown import markdown_report, md
-from railroom.engine.presets import load_library, search_order
+from railroom.engine.analysis import analyse
+from railroom.engine.formats.loading import load_checked
+from railroom.engine.formats.chain_file import chain_from_text
+from railroom.engine.reports.markdown import markdown_report, md
+from railroom.engine.formats.presets import load_library, search_order
 
 DEMOS = sorted(Path(railroom.engine.demos.__file__).parent.glob("*.toml"))
 SNAPSHOTS = Path(__file__).parent / "snapshots"

@@ -11,11 +11,11 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from railroom.engine.analysis import band_grid
-from railroom.engine.files import chain_from_text
+from railroom.engine.walks.preparation import band_grid
+from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.methods import corners, montecarlo
-from railroom.engine.model import Part
-from railroom.engine.plan import plan_chain
+from railroom.engine.circuit.model import Part
+from railroom.engine.walks.preparation import plan_chain
 
 PART = Part(
     id="amp",
@@ -76,7 +76,7 @@ def test_no_draw_outside_corners(kinds, values, tolerance, level, amplitude):
     chain = chain_from_text(chain_text(kinds, values, tolerance, level, f"{amplitude}m"))
     plans = plan_chain(chain, {"amp": PART})
     freqs = band_grid(chain, plans)
-    corner = corners.run(corners.prepare(chain, plans, freqs))
+    corner = corners.walk(corners.prepare(chain, plans, freqs))
     layout = montecarlo.layout_for(chain, plans, freqs, corner)
     draws = next(montecarlo.sample(layout, 400, seed=5))
     for stage, bound in zip(draws, corner):

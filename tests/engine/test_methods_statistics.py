@@ -5,11 +5,12 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from railroom.engine.analysis import analyse, band_grid
-from railroom.engine.files import chain_from_text
-from railroom.engine.methods import corners, montecarlo
-from railroom.engine.model import Part
-from railroom.engine.plan import plan_chain
+from railroom.engine.analysis import analyse
+from railroom.engine.walks.preparation import band_grid
+from railroom.engine.formats.chain_file import chain_from_text
+from railroom.engine.methods import Setup, corners, montecarlo
+from railroom.engine.circuit.model import Part
+from railroom.engine.walks.preparation import plan_chain
 
 # An op amp close to ideal: huge open-loop gain and bandwidth, no headroom, no errors.
 IDEAL = Part(
@@ -54,7 +55,7 @@ rg = "10k 1%"
 def raw_outputs(chain, samples: int, seed: int = 1, chunk: int = 8192) -> np.ndarray:
     plans = plan_chain(chain, PARTS)
     freqs = band_grid(chain, plans)
-    layout = montecarlo.layout_for(chain, plans, freqs, corners.run(corners.prepare(chain, plans, freqs)))
+    layout = montecarlo.layout_for(chain, plans, freqs, corners.walk(corners.prepare(chain, plans, freqs)))
     return np.concatenate([d[0].out_hi for d in montecarlo.sample(layout, samples, seed, chunk)])
 
 
@@ -142,12 +143,16 @@ def test_montecarlo_report_independent_of_chunk_size_and_percentiles_exact():
     chain = gain_eleven()
     plans = plan_chain(chain, PARTS)
     freqs = band_grid(chain, plans)
-    corner = corners.run(corners.prepare(chain, plans, freqs))
+    corner = corners.walk(corners.prepare(chain, plans, freqs))
     chain = chain.__class__(
         **{**chain.__dict__, "conditions": chain.conditions.__class__(samples=3000, seed=3)}
     )
-    big, yield_big = montecarlo.run(chain, plans, freqs, corner, chunk=4096)
-    small, yield_small = montecarlo.run(chain, plans, freqs, corner, chunk=250)
+    setup = Setup(chain, plans, freqs, None, corner_stages=corner)
+    big_run, small_run = montecarlo.run(setup, chunk=4096), montecarlo.run(setup, chunk=250)
+    (big, yield_big), (small, yield_small) = (
+        (big_run.stages, big_run.chain_yield),
+        (small_run.stages, small_run.chain_yield),
+    )
     assert big[0].margins == small[0].margins
     assert big[0].measure.percentiles == small[0].measure.percentiles
     assert yield_big == yield_small == 1.0

@@ -101,7 +101,8 @@ def test_interface_stage_detail_gives_the_gain():
 
     from rich.console import Console
 
-    from railroom.engine.analysis import analyse, load_checked
+    from railroom.engine.analysis import analyse
+    from railroom.engine.formats.loading import load_checked
     from railroom.tui.widgets.detail import stage_story
 
     chain, library = load_checked(str(DEMO))

@@ -1,4 +1,4 @@
-"""Part limits as datasheets give them (engine/part_limits.py; README "File formats", the preset file)."""
+"""Part limits as datasheets give them (engine/circuit/part_limits.py; README "File formats", the preset file)."""
 
 import math
 
@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 
 from railroom.engine.analysis import analyse
-from railroom.engine.files import chain_from_text
-from railroom.engine.presets import parts_from_text
-from railroom.engine.report import chain_report
+from railroom.engine.formats.chain_file import chain_from_text
+from railroom.engine.formats.presets import parts_from_text
+from railroom.engine.reports.json_report import chain_report
 
 BASE = """description = "test class (illustrative values)"
 supply = ["4", "36"]
@@ -109,7 +109,7 @@ part = "p"
 
 def test_the_doubling_rule_gives_the_bias_at_the_hottest_temperature():
     # common practice for FET inputs: Ib(T) = Ib(25 C) 2^((T - 25)/N); N = 10 C, 125 C: 2^10 = 1024
-    from railroom.engine.part_limits import bias_at
+    from railroom.engine.circuit.part_limits import bias_at
 
     (part,) = part_of('bias_current = "10p"\nbias_current_doubling = "10"\n').values()
     assert bias_at(part, 125.0) == pytest.approx(10e-12 * 1024, rel=1e-12)
@@ -187,7 +187,7 @@ def test_the_report_and_the_table_carry_the_input_differential_check():
     report = chain_report(result)
     assert report["stages"][0]["margins"]["input-differential"] == pytest.approx(-1.8)
     assert "input-differential" in report["stages"][0]["reasons"] and report["verdict"] == "no-go"
-    from railroom.engine.schema import report_schema
+    from railroom.engine.formats.schema import report_schema
     import jsonschema
 
     jsonschema.validate(report, report_schema())
@@ -292,8 +292,8 @@ def test_a_bad_curve_is_a_located_error(curve, words):
 def test_a_comparator_level_follows_the_curve():
     # saturated high at 11 V into 1 kohm: 11 mA read on the curve, 1.5 + (1/10)(2.5 - 1.5) = 1.6 V
     # and at -11 V, 11 mA sunk: 2 + (1/10)(3 - 2) = 2.1 V above the negative rail
-    from railroom.engine.model import Rails
-    from railroom.engine.opamp import saturated_levels
+    from railroom.engine.circuit.model import Rails
+    from railroom.engine.circuit.opamp import saturated_levels
 
     (part,) = part_of(CURVE).values()
     (low_min, low_max), (high_min, high_max) = saturated_levels(part, Rails("main", 12, -12), 1e-3)
@@ -322,7 +322,7 @@ def test_the_estimate_against_the_textbook_two_pole_result():
     # by Bode plots, [memory]): with the second pole at the one-pole crossover f_t/NG the
     # estimate is 90° - atan(1) = 45°; the exact crossover is lower, at x f_c with
     # x^4 + x^2 - 1 = 0 (|T| = 1: 1 / (x^2 (1 + x^2)) = 1), x = 0.786, margin 51.8°
-    from railroom.engine.part_limits import phase_margin_deg
+    from railroom.engine.circuit.part_limits import phase_margin_deg
 
     ro = 100.0
     c = 1 / (2 * math.pi * ro * 1e6)  # f_p2 = 1 MHz
@@ -405,7 +405,7 @@ def test_a_bad_limit_is_a_located_error(line, field, words):
 
 
 def test_presets_show_prints_every_limit_in_units():
-    from railroom.tui.presets_command import part_lines
+    from railroom.tui.subcommands.presets import part_lines
 
     (part,) = part_of(
         'temperature_range = ["-40", "125"]\nbias_current_doubling = "10"\n'
@@ -424,8 +424,8 @@ def test_presets_show_prints_every_limit_in_units():
 def test_the_shipped_presets_carry_the_limits_and_follow_the_schema():
     import jsonschema
     import tomllib
-    from railroom.engine.presets import read_preset_file, shipped_folder
-    from railroom.engine.schema import preset_schema
+    from railroom.engine.formats.presets import read_preset_file, shipped_folder
+    from railroom.engine.formats.schema import preset_schema
 
     path = shipped_folder() / "generic.toml"
     parts, problems = read_preset_file(path)
@@ -438,7 +438,7 @@ def test_the_shipped_presets_carry_the_limits_and_follow_the_schema():
 
 def test_the_form_writes_a_flag_as_a_boolean_and_a_curve_as_points():
     import tomlkit
-    from railroom.engine.preset_editing import raw_fields, set_fields
+    from railroom.engine.formats.preset_editing import raw_fields, set_fields
 
     text = f"[part.p]\n{BASE}"
     edited = set_fields(text, "p", {"phase_reversal": "true", "output_headroom_curve": "0 1 1; 10m 1.5 2"})

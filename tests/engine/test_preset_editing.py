@@ -8,8 +8,8 @@ from pathlib import Path
 
 import pytest
 
-from railroom.engine.model import InputError
-from railroom.engine.preset_editing import (
+from railroom.engine.circuit.model import InputError
+from railroom.engine.formats.preset_editing import (
     ChangedOnDisk,
     PresetEditError,
     check_part_id,
@@ -22,7 +22,7 @@ from railroom.engine.preset_editing import (
     save_preset_text,
     set_fields,
 )
-from railroom.engine.presets import (
+from railroom.engine.formats.presets import (
     load_library,
     parts_from_text,
     read_preset_file,

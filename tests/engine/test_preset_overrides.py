@@ -7,7 +7,7 @@ import os
 
 import pytest
 
-from railroom.engine.presets import shipped_folder
+from railroom.engine.formats.presets import shipped_folder
 from command_line import railroom
 
 SHIPPED = (shipped_folder() / "generic.toml").read_text(encoding="utf-8")
@@ -113,9 +113,9 @@ def test_an_unreadable_presets_folder_is_a_located_error(chain, home, tmp_path):
 
 def test_an_unreadable_folder_stops_the_check_in_process(chain, home, tmp_path, monkeypatch):
     """The same as root (who may read every folder): listing the folder fails as it would."""
-    import railroom.engine.presets as presets
-    from railroom.engine.analysis import load_checked
-    from railroom.engine.model import InputError
+    import railroom.engine.formats.presets as presets
+    from railroom.engine.formats.loading import load_checked
+    from railroom.engine.circuit.model import InputError
 
     locked = tmp_path / "locked"
     locked.mkdir()

@@ -7,7 +7,7 @@ import subprocess
 import sys
 from pathlib import Path
 
-from railroom.engine.presets import shipped_folder
+from railroom.engine.formats.presets import shipped_folder
 
 OVERRIDE = """\
 # our derated copy of a shipped class

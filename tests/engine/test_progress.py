@@ -7,9 +7,9 @@ from pathlib import Path
 import pytest
 
 from railroom.engine.analysis import analyse
-from railroom.engine.files import load_chain
+from railroom.engine.formats.chain_file import load_chain
 from railroom.engine.methods.montecarlo import Cancelled
-from railroom.engine.presets import load_library, search_order
+from railroom.engine.formats.presets import load_library, search_order
 
 DEMO = Path(__file__).resolve().parents[2] / "engine/demos/pump_vibration.toml"
 

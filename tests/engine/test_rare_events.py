@@ -14,16 +14,17 @@ import math
 import numpy as np
 import pytest
 
-from railroom.engine.analysis import analyse, band_grid
-from railroom.engine.draw_walk import build_layout
-from railroom.engine.files import chain_from_text
+from railroom.engine.analysis import analyse
+from railroom.engine.walks.preparation import band_grid
+from railroom.engine.walks.circuit_walk import build_layout
+from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.methods import corners
 from railroom.engine.methods.normal import erfc, normal_tail
 from railroom.engine.methods.rare import design_point, estimate, to_deviates, wilson, yield_words
-from railroom.engine.model import Part
-from railroom.engine.plan import plan_chain
-from railroom.engine.report import chain_report
-from railroom.engine.sensitivity import linearise
+from railroom.engine.circuit.model import Part
+from railroom.engine.walks.preparation import plan_chain
+from railroom.engine.reports.json_report import chain_report
+from railroom.engine.aids.sensitivity import linearise
 
 PART = Part(
     id="amp",
@@ -65,7 +66,7 @@ def _layout(dist: str, level: float, samples: int = 10000):
     plans = plan_chain(chain, {"amp": PART})
     freqs = band_grid(chain, plans)
     prepared = corners.prepare(chain, plans, freqs)
-    layout = build_layout(chain, plans, freqs, prepared, corners.run(prepared))
+    layout = build_layout(chain, plans, freqs, prepared, corners.walk(prepared))
     return chain, layout, linearise(layout)
 
 

@@ -25,13 +25,14 @@ else:  # pragma: no cover
 import railroom.engine.demos
 import railroom.presets
 from fuzz_inputs import DEMO_CHAIN, GENERIC_PRESETS, chain_files, extreme_values, preset_files
-from railroom.engine.analysis import analyse, load_checked
-from railroom.engine.blocks import BLOCKS
-from railroom.engine.files import chain_from_text
-from railroom.engine.model import InputError
-from railroom.engine.presets import PART_FIELDS, parts_from_text
-from railroom.engine.report import chain_report
-from railroom.engine.schema import SCHEMAS, chain_schema, preset_schema, report_schema
+from railroom.engine.analysis import analyse
+from railroom.engine.formats.loading import load_checked
+from railroom.engine.circuit.blocks import BLOCKS
+from railroom.engine.formats.chain_file import chain_from_text
+from railroom.engine.circuit.model import InputError
+from railroom.engine.formats.presets import PART_FIELDS, parts_from_text
+from railroom.engine.reports.json_report import chain_report
+from railroom.engine.formats.schema import SCHEMAS, chain_schema, preset_schema, report_schema
 
 DEMOS = sorted(Path(railroom.engine.demos.__file__).parent.glob("*.toml"))
 PRESET_FILES = sorted(Path(railroom.presets.__file__).parent.glob("*.toml"))

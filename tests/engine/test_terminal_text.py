@@ -68,7 +68,7 @@ def test_an_error_about_a_hostile_file_name_is_escaped(tmp_path, home):
 
 
 def test_presets_list_and_show_escape_folder_and_file_names(tmp_path, home):
-    from railroom.engine.presets import shipped_folder
+    from railroom.engine.formats.presets import shipped_folder
 
     folder = tmp_path / f"lab{HOSTILE_NAME}"
     folder.mkdir()
@@ -105,7 +105,7 @@ def test_markdown_makes_no_link_of_a_bare_address_and_escapes_entities(tmp_path,
 
 
 def test_a_problem_reads_as_text_whatever_its_file_name():
-    from railroom.engine.model import Problem
+    from railroom.engine.circuit.model import Problem
 
     problem = Problem(f"/boards/{HOSTILE_NAME}.toml", 3, "stage.1.rf", "expected a resistance")
     assert str(problem) == f"/boards/{SHOWN}.toml:3: stage.1.rf: expected a resistance"

@@ -6,8 +6,8 @@ from __future__ import annotations
 import pytest
 
 from railroom.engine.analysis import analyse
-from railroom.engine.files import chain_from_text
-from railroom.engine.model import InputError, Part
+from railroom.engine.formats.chain_file import chain_from_text
+from railroom.engine.circuit.model import InputError, Part
 
 from clean_part import part
 
@@ -120,7 +120,7 @@ def test_rss_never_reports_a_margin_below_the_worst_case():
     from pathlib import Path
 
     import railroom.engine.demos
-    from railroom.engine.analysis import load_checked
+    from railroom.engine.formats.loading import load_checked
 
     path = Path(railroom.engine.demos.__file__).parent / "pump_vibration.toml"
     chain, library = load_checked(str(path))

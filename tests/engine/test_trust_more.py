@@ -6,8 +6,8 @@ from __future__ import annotations
 import pytest
 
 from railroom.engine.analysis import analyse
-from railroom.engine.files import chain_from_text
-from railroom.engine.report import chain_report
+from railroom.engine.formats.chain_file import chain_from_text
+from railroom.engine.reports.json_report import chain_report
 
 from clean_part import part
 

@@ -6,7 +6,14 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from railroom.engine.values import KINDS, Quantity, ValueTextError, format_si, parse_quantity, parse_value
+from railroom.engine.formats.values import (
+    KINDS,
+    Quantity,
+    ValueTextError,
+    format_si,
+    parse_quantity,
+    parse_value,
+)
 
 
 @pytest.mark.parametrize(

@@ -5,6 +5,12 @@ Partial scope (issue 11): single-ended source with its impedance, and the stages
 noninverting (with `cg`: a capacitor in series with rg), inverting, summing (fixed inputs as
 `inputs`: [(r, volts)]), divider, rc_lowpass and ac_coupling (c in to out, r out to `bias`), with
 the topologies as railroom's README describes them. Op amps: finite A0 and one pole, offset at +, bias current into both inputs.
+Branches (issue 13): a stage may take its input from any earlier stage's output or from the
+source (`feed`); a branch is one more node fed by the same output, so that output carries every
+stage hung on it. A stage's load may return to a fixed voltage (`load_to`, an ideal source).
+Named DC nets: a `ref` or a fixed input's volts written `Net("mid")` connects to ONE source node
+shared by every stage that names it, at the value `build(..., nets={"mid": 2.5})` gives it (a
+ratiometric net is that source at fraction x the rail's value: `ratiometric`).
 """
 
 from __future__ import annotations
@@ -25,26 +31,51 @@ class OpAmp:
 
 
 @dataclass(frozen=True)
+class Net:
+    """A stage voltage taken from the shared source node of the named net."""
+
+    name: str
+
+
+def ratiometric(fraction: float, rail: float) -> float:
+    """A ratiometric net's value: the divider's ratio times its rail's positive voltage."""
+    return fraction * rail
+
+
+@dataclass(frozen=True)
 class Stage:
     block: str
     values: dict = field(default_factory=dict)
-    load: float | None = None  # ohms to 0 V
+    load: float | None = None  # ohms to 0 V (or to load_to)
     opamp: OpAmp = OpAmp()
+    feed: int | None = None  # the 0-based stage it takes its input from, -1: the source; None: the one before
+    load_to: float = 0.0  # volts the load returns to
 
 
-def build(stages: list[Stage], source_volts: complex, impedance: float) -> tuple[Circuit, list[str]]:
-    """One circuit for the whole chain; returns it and the output node of each stage."""
+def build(
+    stages: list[Stage], source_volts: complex, impedance: float, nets: dict | None = None
+) -> tuple[Circuit, list[str]]:
+    """One circuit for the whole chain; returns it and the output node of each stage. `nets`:
+    name -> volts of each shared net source."""
     c = Circuit()
     c.source("src", source_volts)
+    for name, volts in (nets or {}).items():
+        c.source(f"net_{name}", volts)
     node = "src"
     if impedance > 0:
         c.resistor("src", "s_out", impedance)
         node = "s_out"
-    outs = []
+    source_node = node
+    outs: list[str] = []
     for k, st in enumerate(stages):
-        node = _stage(c, st, node, f"n{k}")
+        feed = k - 1 if st.feed is None else st.feed
+        node = _stage(c, st, source_node if feed < 0 else outs[feed], f"n{k}")
         if st.load:
-            c.resistor(node, "0", st.load)
+            back = "0"
+            if st.load_to:
+                back = f"n{k}_load_to"
+                c.source(back, st.load_to)
+            c.resistor(node, back, st.load)
         outs.append(node)
     return c, outs
 
@@ -61,27 +92,26 @@ def _stage(c: Circuit, st: Stage, inp: str, p: str) -> str:
     if st.block == "follower":
         _opamp(c, st.opamp, inp, out, out)
     elif st.block == "noninverting":  # rg from - to ref, rf from out to -
-        _ref(c, v, p)
+        ref = _ref(c, v, p)
         if "cg" in v:  # rg from - to node g, cg from g to ref
             c.resistor(f"{p}_m", f"{p}_g", v["rg"])
-            c.capacitor(f"{p}_g", f"{p}_ref", v["cg"])
+            c.capacitor(f"{p}_g", ref, v["cg"])
         else:
-            c.resistor(f"{p}_m", f"{p}_ref", v["rg"])
+            c.resistor(f"{p}_m", ref, v["rg"])
         c.resistor(out, f"{p}_m", v["rf"])
         _opamp(c, st.opamp, inp, f"{p}_m", out)
     elif st.block == "inverting":  # rin from input to -, ref drives +
-        _ref(c, v, p)
+        ref = _ref(c, v, p)
         c.resistor(inp, f"{p}_m", v["rin"])
         c.resistor(out, f"{p}_m", v["rf"])
-        _opamp(c, st.opamp, f"{p}_ref", f"{p}_m", out)
+        _opamp(c, st.opamp, ref, f"{p}_m", out)
     elif st.block == "summing":  # inverting, plus each fixed input r from v to -
-        _ref(c, v, p)
+        ref = _ref(c, v, p)
         c.resistor(inp, f"{p}_m", v["rin"])
         c.resistor(out, f"{p}_m", v["rf"])
         for k, (r, volts) in enumerate(v.get("inputs", ())):
-            c.source(f"{p}_in{k}", volts)
-            c.resistor(f"{p}_in{k}", f"{p}_m", r)
-        _opamp(c, st.opamp, f"{p}_ref", f"{p}_m", out)
+            c.resistor(_volts(c, volts, f"{p}_in{k}"), f"{p}_m", r)
+        _opamp(c, st.opamp, ref, f"{p}_m", out)
     elif st.block == "divider":
         c.resistor(inp, out, v["top"])
         c.resistor(out, "0", v["bottom"])
@@ -89,16 +119,25 @@ def _stage(c: Circuit, st: Stage, inp: str, p: str) -> str:
         c.resistor(inp, out, v["r"])
         c.capacitor(out, "0", v["c"])
     elif st.block == "ac_coupling":  # c from in to out, r from out to bias
-        c.source(f"{p}_bias", v.get("bias", 0.0))
+        bias = _volts(c, v.get("bias", 0.0), f"{p}_bias")
         c.capacitor(inp, out, v["c"])
-        c.resistor(out, f"{p}_bias", v["r"])
+        c.resistor(out, bias, v["r"])
     else:
         raise ValueError(f"block {st.block!r} not in this reference yet")
     return out
 
 
-def _ref(c: Circuit, v: dict, p: str) -> None:
-    c.source(f"{p}_ref", v.get("ref", 0.0))
+def _ref(c: Circuit, v: dict, p: str) -> str:
+    """The node the stage's ref sits at: its own source, or the shared net's."""
+    return _volts(c, v.get("ref", 0.0), f"{p}_ref")
+
+
+def _volts(c: Circuit, volts, node: str) -> str:
+    """The node a fixed voltage sits at: the net's shared source, or a source of its own."""
+    if isinstance(volts, Net):
+        return f"net_{volts.name}"
+    c.source(node, volts)
+    return node
 
 
 def response(stages: list[Stage], freqs: np.ndarray, impedance: float = 0.0) -> list[np.ndarray]:
@@ -114,6 +153,7 @@ def response(stages: list[Stage], freqs: np.ndarray, impedance: float = 0.0) -> 
             },
             s.load,
             OpAmp(s.opamp.open_loop_gain, s.opamp.gbw),
+            s.feed,
         )
         for s in stages
     ]
@@ -122,9 +162,9 @@ def response(stages: list[Stage], freqs: np.ndarray, impedance: float = 0.0) -> 
     return [sol[o] for o in outs]
 
 
-def dc(stages: list[Stage], level: float, impedance: float = 0.0) -> list[float]:
-    """DC output of every stage with offsets, bias currents and refs in place."""
-    c, outs = build(stages, level, impedance)
+def dc(stages: list[Stage], level: float, impedance: float = 0.0, nets: dict | None = None) -> list[float]:
+    """DC output of every stage with offsets, bias currents, refs and nets in place."""
+    c, outs = build(stages, level, impedance, nets)
     sol = c.solve(np.array([0.0]))
     return [float(np.real(sol[o][0])) for o in outs]
 

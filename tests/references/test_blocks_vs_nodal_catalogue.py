@@ -20,12 +20,17 @@ from references.block_circuits import (
     sallen_key_highpass,
     sallen_key_lowpass,
 )
-from railroom.engine.blocks.difference import Difference
-from railroom.engine.blocks.filters import MfbBandpass, MfbLowpass, SallenKeyHighpass, SallenKeyLowpass
-from railroom.engine.blocks.instrumentation import Instrumentation
-from railroom.engine.blocks.integrator import Integrator
-from railroom.engine.model import Part
-from railroom.engine.opamp import inverse_open_loop, laplace_grid
+from railroom.engine.circuit.blocks.difference import Difference
+from railroom.engine.circuit.blocks.filters import (
+    MfbBandpass,
+    MfbLowpass,
+    SallenKeyHighpass,
+    SallenKeyLowpass,
+)
+from railroom.engine.circuit.blocks.instrumentation import Instrumentation
+from railroom.engine.circuit.blocks.integrator import Integrator
+from railroom.engine.circuit.model import Part
+from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
 
 DRAWS = 48
 SEEDS = range(4)

@@ -19,10 +19,10 @@ from references.block_circuits import (
     summing,
 )
 from references.nodal import Circuit
-from railroom.engine.blocks.gain import Follower, Inverting, Noninverting, Summing
-from railroom.engine.blocks.passive import Divider, RcLowpass
-from railroom.engine.model import Part
-from railroom.engine.opamp import inverse_open_loop, laplace_grid
+from railroom.engine.circuit.blocks.gain import Follower, Inverting, Noninverting, Summing
+from railroom.engine.circuit.blocks.passive import Divider, RcLowpass
+from railroom.engine.circuit.model import Part
+from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
 
 DRAWS = 64
 SEEDS = range(6)

@@ -89,8 +89,9 @@ ref = "0"
 
 
 def test_rc_lowpass_into_inverting_item3(tmp_path):
-    from railroom.engine.analysis import analyse, load_checked
-    from railroom.engine.report import chain_report
+    from railroom.engine.analysis import analyse
+    from railroom.engine.formats.loading import load_checked
+    from railroom.engine.reports.json_report import chain_report
 
     path = tmp_path / "chain.toml"
     path.write_text(CHAIN)
@@ -139,10 +140,12 @@ def test_passive_thevenin_every_method_item3(tmp_path):
     # inverting stage. The whole-chain netlist at every joint corner is the truth; the engine's
     # worst case must reach it (never optimistic) and stay within 1 mV of it (its extra is the
     # part's 50 uV offset and 2 nA bias times the noise gain, 0.1 mV).
-    from railroom.engine import draw_walk as dw
-    from railroom.engine.analysis import analyse, band_grid, load_checked
+    from railroom.engine.walks import circuit_walk as dw
+    from railroom.engine.analysis import analyse
+    from railroom.engine.walks.preparation import band_grid
+    from railroom.engine.formats.loading import load_checked
     from railroom.engine.methods import corners, montecarlo
-    from railroom.engine.plan import plan_chain
+    from railroom.engine.walks.preparation import plan_chain
 
     path = tmp_path / "chain.toml"
     path.write_text(TOLERANCED)
@@ -160,7 +163,7 @@ def test_passive_thevenin_every_method_item3(tmp_path):
     # rss and Monte Carlo read each drawn circuit: at the joint corners it is the netlist's value
     plans = plan_chain(chain, library.parts)
     freqs = band_grid(chain, plans)
-    layout = montecarlo.layout_for(chain, plans, freqs, corners.run(corners.prepare(chain, plans, freqs)))
+    layout = montecarlo.layout_for(chain, plans, freqs, corners.walk(corners.prepare(chain, plans, freqs)))
     names = [("r", 1), ("c", 1), ("rin", 2), ("rf", 2)]
     keys = list(truth)
     D = np.zeros((len(keys), len(layout.variables)))
@@ -178,7 +181,8 @@ def test_pump_demo_stage4_slew_need_item3():
     # every joint corner of the toleranced values, here by brute force on the whole-chain netlist.
     # Parts: the shipped generic classes (presets/generic.toml): bipolar 100 dB / 1 MHz,
     # low-power 95 dB / 100 kHz.
-    from railroom.engine.analysis import analyse, load_checked
+    from railroom.engine.analysis import analyse
+    from railroom.engine.formats.loading import load_checked
     import railroom.engine.demos as demos
 
     bipolar, lowpower = OpAmp(10**5, 1e6), OpAmp(10**4.75, 100e3)
@@ -223,7 +227,8 @@ DIVIDER_INTO_INVERTING = (
 def test_passive_stage_shows_its_loaded_voltage_item11(tmp_path, text, want):
     # issue 11 item 11: a passive stage shows the voltage at its output with the next stage's
     # input on it (it showed the open-circuit voltage: 0.707 and 0.5 V here)
-    from railroom.engine.analysis import analyse, load_checked
+    from railroom.engine.analysis import analyse
+    from railroom.engine.formats.loading import load_checked
 
     path = tmp_path / "chain.toml"
     path.write_text(text)

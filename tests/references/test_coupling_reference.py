@@ -56,7 +56,8 @@ def chain_text(stages: str, method="corners", positive="15", negative="-15", lev
 
 
 def analysed(tmp_path, text: str, **options):
-    from railroom.engine.analysis import analyse, load_checked
+    from railroom.engine.analysis import analyse
+    from railroom.engine.formats.loading import load_checked
 
     path = tmp_path / "chain.toml"
     path.write_text(text)
@@ -65,7 +66,7 @@ def analysed(tmp_path, text: str, **options):
 
 
 def run(tmp_path, text: str, **options) -> dict:
-    from railroom.engine.report import chain_report
+    from railroom.engine.reports.json_report import chain_report
 
     return chain_report(analysed(tmp_path, text, **options))
 
@@ -97,8 +98,8 @@ def test_reference_cg_stage_dc_gain_one_and_high_frequency_gain():
 
 
 def test_block_transfer_is_the_rc_highpass_of_scipy():
-    from railroom.engine.blocks import BLOCKS
-    from railroom.engine.opamp import inverse_open_loop, laplace_grid
+    from railroom.engine.circuit.blocks import BLOCKS
+    from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
 
     r, c = 100e3, 1e-6
     freqs = np.geomspace(0.1, 100.0, 31)
@@ -277,8 +278,9 @@ def test_chain_gain_and_span_against_the_whole_chain_reference(tmp_path):
     # every corner of the five toleranced values, through the source's 2k2, in one netlist with
     # the part's 100 dB and 1 MHz: the engine's gain from the source over its own band grid and
     # its nominal output are the reference's (exact), the worst-case span contains the reference's
-    from railroom.engine.analysis import band_grid, load_checked
-    from railroom.engine.plan import plan_chain
+    from railroom.engine.formats.loading import load_checked
+    from railroom.engine.walks.preparation import band_grid
+    from railroom.engine.walks.preparation import plan_chain
 
     text = chain_text(
         MIC,
@@ -320,11 +322,13 @@ def test_chain_gain_and_span_against_the_whole_chain_reference(tmp_path):
 def test_per_draw_nodal_reference_agrees_with_the_draw_walk(tmp_path):
     # the per-draw reference (one nodal solve per stage and draw) and the vectorised draw walk
     # give the same margins for AC coupling and the cg stage
-    from railroom.engine import draw_walk
-    from railroom.engine.analysis import band_grid, load_checked
-    from railroom.engine.bench import agree
-    from railroom.engine.methods import corners, montecarlo, per_draw
-    from railroom.engine.plan import plan_chain
+    from railroom.engine.walks import circuit_walk as draw_walk
+    from railroom.engine.formats.loading import load_checked
+    from railroom.engine.walks.preparation import band_grid
+    from railroom.engine.benchmark.figures import agree
+    from railroom.engine.benchmark import per_draw
+    from railroom.engine.methods import corners, montecarlo
+    from railroom.engine.walks.preparation import plan_chain
 
     path = tmp_path / "chain.toml"
     path.write_text(
@@ -341,7 +345,7 @@ def test_per_draw_nodal_reference_agrees_with_the_draw_walk(tmp_path):
     chain, library = load_checked(str(path))
     plans = plan_chain(chain, library.parts)
     freqs = band_grid(chain, plans)
-    layout = montecarlo.layout_for(chain, plans, freqs, corners.run(corners.prepare(chain, plans, freqs)))
+    layout = montecarlo.layout_for(chain, plans, freqs, corners.walk(corners.prepare(chain, plans, freqs)))
     D, dT = next(montecarlo.chunks(layout, 32, 1, chunk=32))
     vector = draw_walk.walk_draws(layout, D, dT)
     reference = per_draw.run_draws(layout, D[:12], dT[:12])

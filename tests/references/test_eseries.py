@@ -3,7 +3,19 @@
 import numpy as np
 import pytest
 
-from railroom.engine.eseries import SERIES, nearest, nearest_array, neighbours, values_between
+from railroom.engine.aids.eseries import SERIES, _neighbour_arrays, nearest_array, values_between
+
+
+def neighbours(value: float, series: str) -> tuple[float, float]:
+    """The series values at or below and at or above `value`, in any decade (one at a time)."""
+    below, above = _neighbour_arrays(np.array([value], dtype=float), series)
+    return float(below[0]), float(above[0])
+
+
+def nearest(value: float, series: str) -> float:
+    """The series value nearest to `value` by ratio, in any decade (one at a time)."""
+    return float(nearest_array(np.array([value], dtype=float), series)[0])
+
 
 # IEC 60063:2015, E24 table .
 IEC_60063_E24 = [

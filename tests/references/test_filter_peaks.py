@@ -44,8 +44,8 @@ def nodal_peak(band=(500.0, 2000.0)) -> tuple[float, float]:
 
 def test_mfb_bandpass_peak_with_the_real_op_amp_item4():
     from railroom.engine.analysis import analyse
-    from railroom.engine.files import chain_from_text
-    from railroom.engine.model import Part
+    from railroom.engine.formats.chain_file import chain_from_text
+    from railroom.engine.circuit.model import Part
 
     f0 = math.sqrt((1 / R1 + 1 / R3) / (R2 * C * C)) / (2 * math.pi)
     q = 0.5 * math.sqrt(R2 * (1 / R1 + 1 / R3))

@@ -1,4 +1,4 @@
-"""Part limits (engine/part_limits.py) against the whole-chain nodal reference (references/chain_netlist.py)."""
+"""Part limits (engine/circuit/part_limits.py) against the whole-chain nodal reference (references/chain_netlist.py)."""
 
 import itertools
 
@@ -50,8 +50,8 @@ def test_doubled_bias_through_a_two_stage_chain_matches_the_nodal_reference():
     # The nodal chain (every stage loaded by the next, one netlist) with 64 nA into each op amp's
     # pins, both signs for each op amp: railroom's corners spans must be those extremes
     from railroom.engine.analysis import analyse
-    from railroom.engine.files import chain_from_text
-    from railroom.engine.presets import parts_from_text
+    from railroom.engine.formats.chain_file import chain_from_text
+    from railroom.engine.formats.presets import parts_from_text
 
     parts, problems = parts_from_text(PRESET, "fet.toml")
     assert problems == []
@@ -111,8 +111,8 @@ threshold = "1"
 
 def _curve_result(level: float):
     from railroom.engine.analysis import analyse
-    from railroom.engine.files import chain_from_text
-    from railroom.engine.presets import parts_from_text
+    from railroom.engine.formats.chain_file import chain_from_text
+    from railroom.engine.formats.presets import parts_from_text
 
     parts, problems = parts_from_text(CURVE_PRESET, "curved.toml")
     assert problems == []

@@ -10,9 +10,9 @@ import numpy as np
 import pytest
 import sympy as sp
 
-from railroom.engine.blocks.gain import Follower, Inverting, Noninverting, Summing
-from railroom.engine.blocks.passive import Divider, RcLowpass
-from railroom.engine.opamp import laplace_grid
+from railroom.engine.circuit.blocks.gain import Follower, Inverting, Noninverting, Summing
+from railroom.engine.circuit.blocks.passive import Divider, RcLowpass
+from railroom.engine.circuit.opamp import laplace_grid
 
 vin, vref, v1, v2, vout, vm, vp, A, s = sp.symbols("vin vref v1 v2 vout vm vp A s")
 rf, rg, rin, r1, r2, top, bottom, r, c = sp.symbols("rf rg rin r1 r2 top bottom r c", positive=True)

@@ -81,8 +81,8 @@ def test_alarm_load_changes_exactly_the_alarm_stage(tmp_path, old):
         assert all(len(pair) == 2 for pair in entry["margins"].values())
     import jsonschema
 
-    from railroom.engine.compare import AGAINST_SCHEMA
-    from railroom.engine.schema import report_schema
+    from railroom.engine.reports.compare import AGAINST_SCHEMA
+    from railroom.engine.formats.schema import report_schema
 
     jsonschema.validate(section, AGAINST_SCHEMA)
     jsonschema.validate(report, report_schema())

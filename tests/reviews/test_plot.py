@@ -116,7 +116,7 @@ def test_band_spans_follow_the_first_order_low_pass():
     from the bottom of the band to the top by 2 A (|H(10 Hz)| - |H(5 kHz)|), A = 200 mV times
     1 + 90k9/10k; within 3 % (the widths are corner extremes with 1 % parts)."""
     from railroom.engine import analyse, load_checked
-    from railroom.engine.levels import frequency_levels
+    from railroom.engine.walks.levels import frequency_levels
 
     chain, library = load_checked(str(DEMOS / "pump_vibration.toml"))
     levels = frequency_levels(chain, library.parts)

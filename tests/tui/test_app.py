@@ -9,7 +9,7 @@ import pytest
 from rich.console import Console
 from textual.widgets import Input
 
-from railroom.engine.values import ValueTextError, parse_quantity
+from railroom.engine.formats.values import ValueTextError, parse_quantity
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen, SaveAsScreen
 from railroom.tui.widgets.field_form import FieldForm
 from railroom.tui.widgets.stage_list import StageList
@@ -52,7 +52,7 @@ async def test_demo_opens_and_arrows_through_stages(make_app):
     app = make_app(None)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
-        assert "NO-GO: 1 of 7 stages fail" in status_text(app)  # the demo's verdict (check command)
+        assert "NO-GO: 2 of 7 stages fail" in status_text(app)  # the demo's verdict (check command)
         assert "built-in demo (read-only)" in status_text(app)
         assert "1 pickup buffer" in detail_text(app)
         await pilot.press("j", "j", "down")
@@ -194,6 +194,9 @@ async def test_stages_add_move_remove(make_app, two_stage):
         await pilot.press("a")
         assert isinstance(app.screen, ChoiceScreen)
         app.screen.dismiss("inverting")
+        await pilot.pause()
+        assert isinstance(app.screen, ChoiceScreen)  # where it takes its input from
+        await pilot.press("enter")  # in the line after the highlighted stage (the default)
         await pilot.pause()
         await pilot.pause()
         assert app.screen.query_one(FieldForm).has_focus_within

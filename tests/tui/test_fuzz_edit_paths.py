@@ -12,8 +12,8 @@ from pathlib import Path
 from hypothesis import HealthCheck, given, settings
 
 from fuzz_inputs import DEMO_CHAIN, chain_files, extreme_values
-from railroom.engine import editing
-from railroom.engine.blocks import BLOCKS
+from railroom.engine.formats import chain_editing as editing
+from railroom.engine.circuit.blocks import BLOCKS
 from railroom.tui.session import Session, open_chain
 
 EXAMPLES = int(os.environ.get("RAILROOM_FUZZ_EXAMPLES", "40"))

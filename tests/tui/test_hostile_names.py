@@ -12,7 +12,7 @@ from rich.console import Console
 from textual.app import App
 from textual.widgets import DataTable, Input, Static
 
-from railroom.engine.presets import search_order, user_folder
+from railroom.engine.formats.presets import search_order, user_folder
 from railroom.tui.screens.presets import PresetsScreen
 from railroom.tui.widgets.field_form import FieldForm
 from railroom.tui.widgets.preset_form import PresetForm

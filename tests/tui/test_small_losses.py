@@ -9,7 +9,7 @@ from textual.app import App
 from textual.widgets import Button, Input
 
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen
-from railroom.tui.screens.presets import ChangedOnDiskDialog, ConfirmDialog, NameDialog
+from railroom.tui.screens.preset_dialogs import ChangedOnDiskDialog, ConfirmDialog, NameDialog
 
 SIZE = (80, 24)
 
@@ -65,6 +65,8 @@ async def test_a_stage_added_after_a_passive_one_gets_rails(make_app):
         assert isinstance(app.screen, ChoiceScreen)
         app.screen.dismiss("noninverting")
         await pilot.pause()
+        app.screen.dismiss("line")  # in the line after the highlighted stage
+        await pilot.pause()
         await pilot.pause()
         stages = app.session.chain.stages
         assert len(stages) == 8 and stages[3].block == "noninverting"
@@ -109,7 +111,7 @@ async def test_preset_dialogs_close_with_esc_and_focus_the_safe_button(tmp_path)
 async def test_opening_a_form_reads_the_file_once(make_app, two_stage, monkeypatch):
     import tomlkit
 
-    from railroom.engine import editing
+    from railroom.engine.formats import chain_editing as editing
 
     reads, real = [], tomlkit.parse
 

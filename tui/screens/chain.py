@@ -6,17 +6,38 @@ status line and the stage list above it stay in sight and repaint as each value 
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+from functools import partial
+from dataclasses import replace
+
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
 from textual.widgets import ContentSwitcher, DataTable, Footer
 
-from railroom.engine import editing
-from railroom.engine.blocks import BLOCKS
-from railroom.engine.editing import FieldShape
-from railroom.engine.model import METHODS
-from railroom.engine.results import ChainResult
-from railroom.engine.values import escaped
+from railroom.engine import (
+    format_span,
+    net_span,
+    net_fields,
+    net_shapes,
+    set_net_field,
+    BLOCKS,
+    FORM_SECTIONS,
+    METHODS,
+    ChainResult,
+    FieldShape,
+    add_stage,
+    escaped,
+    move_stage,
+    remove_stage,
+    section_fields,
+    set_section_field,
+    set_stage_field,
+    stage_fields,
+    stage_shapes,
+    starter_stage,
+    toml_value,
+)
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen
 from railroom.tui.widgets.detail import StageDetail
 from railroom.tui.widgets.field_form import FieldForm, FormField
@@ -24,15 +45,34 @@ from railroom.tui.widgets.level_view import LevelView
 from railroom.tui.widgets.stage_list import StageList
 from railroom.tui.widgets.status_line import StatusLine
 
+if TYPE_CHECKING:
+    from textual import getters
+
+    from railroom.tui.app import RailroomApp
+
 
 def key(keys: str, action: str, words: str, ident: str, tooltip: str, show: bool = True) -> Binding:
     return Binding(keys, action, words, show=show, id=f"chain.{ident}", tooltip=tooltip)
 
 
+def net_spans(chain) -> dict[str, str]:
+    """Each net's span in words (engine/circuit/nets.py), as the form's help shows it."""
+    return {name: format_span(*net_span(chain, net), "V") for name, net in chain.nets.items()}
+
+
+def net_label(name: str, field: str, width: int = 17) -> str:
+    """A net field's label in the form's key column: the field word always whole."""
+    room = width - len(field) - 1
+    return f"{name if len(name) <= room else name[: room - 1] + '…'} {field}"
+
+
 class ChainScreen(Screen):
+    if TYPE_CHECKING:  # Textual's way to type `self.app` (textual.getters.app); nothing at run time
+        app = getters.app(RailroomApp)
+
     BINDINGS = [
         key("e", "edit_stage", "edit", "edit", "Edit the highlighted stage's values and part (enter too)"),
-        key("s", "edit_source", "source", "source", "Edit the source: levels, amplitude, band"),
+        key("s", "edit_source", "source", "source", "Edit the source (levels, amplitude, band) and the nets"),
         key(
             "o",
             "edit_conditions",
@@ -107,7 +147,7 @@ class ChainScreen(Screen):
     def highlighted(self) -> int:
         """1-based index of the highlighted stage."""
         table = self.query_one(StageList)
-        return min(max(table.cursor_row, 0), len(self.session.chain.stages) - 1) + 1
+        return min(table.stage_at(table.cursor_row), len(self.session.chain.stages))
 
     def show(self, result: ChainResult, note: str = "") -> None:
         session = self.session
@@ -164,7 +204,7 @@ class ChainScreen(Screen):
         """Highlight stage `index` (1-based) and give the stage list the focus."""
         self.close_form(leave=True)
         table = self.query_one(StageList)
-        table.move_cursor(row=index - 1, animate=False)
+        table.highlight_stage(index)
         table.focus()
         self._show_detail()
 
@@ -199,13 +239,11 @@ class ChainScreen(Screen):
     # edits
     def _form(self, title: str, form_id: str, fields: list[FormField], change, focus=None) -> None:
         drafts = self.session.drafts.setdefault(form_id, {})
-        fields = [FormField(f.key, f.shape, drafts.get(f.key, f.text), f.choices) for f in fields]
+        fields = [FormField(f.key, f.shape, drafts.get(f.key, f.text), f.choices, f.label) for f in fields]
 
         def apply(field_key: str, text: str, judged) -> None:
             shape = next(f.shape for f in fields if f.key == field_key)
-            self.app.type_edit(
-                (form_id, field_key), change(field_key, editing.toml_value(text, shape)), judged
-            )
+            self.app.type_edit((form_id, field_key), change(field_key, toml_value(text, shape)), judged)
 
         self.close_form()
         self.add_class("editing")
@@ -217,7 +255,7 @@ class ChainScreen(Screen):
         index = self.highlighted()
         stage = self.session.chain.stages[index - 1]
         text = self.session.text
-        shapes = editing.stage_shapes(stage.block)
+        shapes = stage_shapes(stage.block)
         if BLOCKS[stage.block].uses_part:
             shapes = {
                 "name": shapes.pop("name"),
@@ -228,31 +266,61 @@ class ChainScreen(Screen):
             }
         if len(self.session.chain.rails) > 1:
             shapes["rails"] = FieldShape("text", "choice", tuple(self.session.chain.rails), "which supply")
-        shown = editing.stage_fields(text, index, shapes)
+        earlier = tuple(s.name for s in self.session.chain.stages[: index - 1])
+        shapes["from"] = FieldShape(
+            "text",
+            "choice",
+            ("source", *earlier),
+            "the stage it takes its input from (empty: the one before)",
+        )
+        shown = stage_fields(text, index, shapes)
         fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
         self._form(
             f"stage {index}: {stage.name} ({stage.block})",
             f"stage.{index}",
             fields,
-            lambda k, v: lambda t: editing.set_stage_field(t, index, k, v),
+            lambda k, v: lambda t: set_stage_field(t, index, k, v),
             focus,
         )
 
     def _section_form(self, section: str, focus: str | None = None) -> None:
-        shapes = editing.SECTIONS[section]
+        shapes = FORM_SECTIONS[section]
         text = self.session.text
-        shown = editing.section_fields(text, section, shapes)
+        shown = section_fields(text, section, shapes)
         fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
         self._form(
             f"[{section}]",
             section,
             fields,
-            lambda k, v: lambda t: editing.set_section_field(t, section, k, v),
+            lambda k, v: lambda t: set_section_field(t, section, k, v),
             focus,
         )
 
     def action_edit_source(self) -> None:
-        self._section_form("source")
+        """The source's fields, then every named net's (the DC voltages stages share)."""
+        text = self.session.text
+        nets = net_shapes(text)
+        if not nets:
+            self._section_form("source")
+            return
+        shapes = FORM_SECTIONS["source"]
+        shown = section_fields(text, "source", shapes)
+        fields = [FormField(k, s, shown[k]) for k, s in shapes.items()]
+        values = net_fields(text)
+        spans = net_spans(self.session.chain)
+        for key, (name, field, shape) in nets.items():
+            help_words = f"{name}: {spans.get(name, '')}   {shape.help}"
+            fields.append(
+                FormField(key, replace(shape, help=help_words), values[key], label=net_label(name, field))
+            )
+
+        def change(key: str, value):
+            if key in nets:
+                name, field, _ = nets[key]
+                return lambda t: set_net_field(t, name, field, value)
+            return lambda t: set_section_field(t, "source", key, value)
+
+        self._form("[source] and [nets]", "source", fields, change)
 
     def action_edit_conditions(self) -> None:
         self._section_form("conditions")
@@ -260,7 +328,7 @@ class ChainScreen(Screen):
     def action_choose_method(self) -> None:
         def chosen(method: str | None) -> None:
             if method is not None:
-                self.app.apply_edit(lambda t: editing.set_section_field(t, "conditions", "method", method))
+                self.app.apply_edit(lambda t: set_section_field(t, "conditions", "method", method))
 
         current = self.session.chain.conditions.method
         self.app.push_screen(ChoiceScreen("Method", [(m, m) for m in METHODS], current), chosen)
@@ -269,15 +337,22 @@ class ChainScreen(Screen):
         after = self.highlighted()
         near = self.session.chain.stages[after - 1]
 
-        def chosen(block: str | None) -> None:
-            if block is None:
+        def add(block: str, where: str | None) -> None:
+            if where is None:
                 return
+            chain = self.session.chain
             parts = self.session.part_ids
             part = near.part if near.part else (parts[0] if parts else None)
-            fields = editing.starter_stage(block, f"new {block}", part, self._rails_near(after))
-            problem = self.app.apply_edit(lambda t: editing.add_stage(t, after + 1, fields))
+            name = unique_name(f"new {block}", [s.name for s in chain.stages])
+            fields = starter_stage(block, name, part, self._rails_near(after))
+            position = after + 1
+            if where != "line":  # a branch: at the end, so no stage after it changes its input
+                feed = "source" if where == "source" else chain.stages[int(where) - 1].name
+                fields = {**fields, "from": feed}
+                position = len(chain.stages) + 1
+            problem = self.app.apply_edit(lambda t: add_stage(t, position, fields))
             if problem is None:
-                self._structure_changed(after + 1)
+                self._structure_changed(position)
                 self.action_edit_stage()
             else:
                 self.notify(
@@ -287,8 +362,30 @@ class ChainScreen(Screen):
                     markup=False,
                 )
 
+        def chosen(block: str | None) -> None:
+            if block is None:
+                return
+            self.app.push_screen(
+                ChoiceScreen(f"Where does the new {block} take its input from?", self._inputs(after), "line"),
+                partial(add, block),
+            )
+
         blocks = [(name, f"{name}: {block.summary}") for name, block in BLOCKS.items()]
         self.app.push_screen(ChoiceScreen("Add which block after the highlighted stage?", blocks), chosen)
+
+    def _inputs(self, after: int) -> list[tuple[str, str]]:
+        """Where a new stage may take its input from: in the line after stage `after` (as the
+        stage after it did), or a branch from any stage (one with no op amp only while it feeds
+        nothing yet) or from the source, added at the end."""
+        chain = self.session.chain
+        name = chain.stages[after - 1].name
+        choices = [("line", f"in the line after stage {after} ({name})")]
+        fed = chain.children
+        for k, stage in enumerate(chain.stages, start=1):
+            if BLOCKS[stage.block].uses_part or not fed[k - 1]:
+                choices.append((str(k), f"stage {k} ({stage.name}), a branch (added at the end)"))
+        choices.append(("source", "the source, a branch (added at the end)"))
+        return choices
 
     def _rails_near(self, index: int) -> str | None:
         """The supply for a stage added after stage `index`: that stage's, else the nearest
@@ -305,10 +402,13 @@ class ChainScreen(Screen):
             self.notify("a chain keeps at least one stage", severity="warning")
             return
 
-        def answered(answer: str) -> None:
+        def answered(answer: str | None) -> None:
             if answer == "remove":
-                if self.app.apply_edit(lambda t: editing.remove_stage(t, index)) is None:
+                problem = self.app.apply_edit(lambda t: remove_stage(t, index))
+                if problem is None:
                     self._structure_changed(index)
+                else:  # a stage after it takes its input from it by name (`from`), say
+                    self.notify(f"not removed: {problem}", title="remove", severity="error", markup=False)
 
         name = self.session.chain.stages[index - 1].name
         self.app.push_screen(
@@ -320,14 +420,17 @@ class ChainScreen(Screen):
         index = self.highlighted()
         target = index + offset
         if 1 <= target <= len(self.session.chain.stages):
-            if self.app.apply_edit(lambda t: editing.move_stage(t, index, offset)) is None:
+            problem = self.app.apply_edit(lambda t: move_stage(t, index, offset))
+            if problem is None:
                 self._structure_changed(target)
+            else:  # before the stage it takes its input from (`from`), say
+                self.notify(f"not moved: {problem}", title="move", severity="error", markup=False)
 
     def _structure_changed(self, highlight: int) -> None:
         self.close_form()  # its fields name a stage by its place in the chain
         for form in [f for f in self.session.drafts if f.startswith("stage.")]:
             del self.session.drafts[form]
-        self.query_one(StageList).move_cursor(row=highlight - 1, animate=False)
+        self.query_one(StageList).highlight_stage(highlight)
         self._show_detail()
 
     def action_undo(self) -> None:
@@ -337,3 +440,13 @@ class ChainScreen(Screen):
             self.app.recheck()
         else:
             self.notify("nothing to undo")
+
+
+def unique_name(name: str, taken: list[str]) -> str:
+    """`name`, or `name 2`, `name 3` ... when a stage has it (a chain that uses `from` needs
+    unique names)."""
+    found, count = name, 1
+    while found in taken:
+        count += 1
+        found = f"{name} {count}"
+    return found

@@ -2,8 +2,8 @@
 
 Type to filter; Enter or ↓ moves to the list. e edits, c makes a new preset from a copy, r renames,
 x deletes (after a confirmation). Shipped presets are only read: an edit saves a copy into the user's
-folder, which overrides the shipped one. After every change the screen posts `PresetsChanged` and
-calls `on_change`, so the chains that use a preset are checked again at once.
+folder, which overrides the shipped one. After every change the screen calls `on_change`, so the
+chains that use a preset are checked again at once.
 """
 
 from __future__ import annotations
@@ -15,26 +15,29 @@ from rich.text import Text
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
-from textual.containers import Horizontal, Vertical
-from textual.message import Message
-from textual.screen import ModalScreen, Screen
-from textual.widgets import Button, DataTable, Footer, Input, Label, Static
+from textual.containers import Horizontal
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Input, Static
 
-from railroom.engine.model import InputError, Problem
-from railroom.engine.preset_editing import (
+from railroom.engine import (
     ChangedOnDisk,
     EditSession,
+    InputError,
+    Library,
     PresetEditError,
-    check_part_id,
+    Problem,
     copy_part,
     delete_part,
     is_shipped,
+    load_library,
     open_preset_file,
+    read_preset_file,
     rename_part,
     save_preset_text,
+    shipped_folder,
 )
-from railroom.engine.presets import Library, load_library, read_preset_file, shipped_folder
-from railroom.tui.presets_command import part_lines
+from railroom.tui.screens.preset_dialogs import ConfirmDialog, NameDialog
+from railroom.tui.subcommands.presets import part_lines
 from railroom.tui.widgets.preset_form import PresetForm
 
 
@@ -87,130 +90,6 @@ def nesting_line(path: Path) -> int | None:
             if depth > NESTING_SHOWN:
                 return number
     return None
-
-
-class PresetsChanged(Message):
-    """A preset file was written: whoever shows margins should analyse again."""
-
-
-class ConfirmDialog(ModalScreen[bool]):
-    DEFAULT_CSS = """
-    ConfirmDialog { align: center middle; }
-    ConfirmDialog > Vertical { width: 70; height: auto; border: round $warning; background: $surface;
-                               padding: 1 2; }
-    ConfirmDialog Horizontal { height: auto; align-horizontal: right; }
-    """
-
-    BINDINGS = [
-        Binding("escape", "keep", "keep it", id="confirm-dialog.keep", tooltip="Close without doing anything")
-    ]
-
-    def __init__(self, question: str, yes: str = "Delete"):
-        super().__init__()
-        self.question, self.yes = question, yes
-
-    def on_mount(self) -> None:
-        self.query_one("#confirm-no", Button).focus()  # enter alone never deletes
-
-    def action_keep(self) -> None:
-        self.dismiss(False)
-
-    def compose(self) -> ComposeResult:
-        with Vertical():
-            yield Static(Text(self.question))
-            with Horizontal():
-                yield Button(self.yes, variant="error", id="confirm-yes")
-                yield Button("Keep it", id="confirm-no")
-
-    @on(Button.Pressed)
-    def answer(self, event: Button.Pressed) -> None:
-        self.dismiss(event.button.id == "confirm-yes")
-
-
-class ChangedOnDiskDialog(ModalScreen[str]):
-    """The file moved under the user's feet: reload it, or keep editing (never a silent overwrite)."""
-
-    DEFAULT_CSS = ConfirmDialog.DEFAULT_CSS.replace("ConfirmDialog", "ChangedOnDiskDialog")
-
-    BINDINGS = [
-        Binding(
-            "escape",
-            "keep",
-            "keep editing",
-            id="changed-dialog.keep",
-            tooltip="Keep editing; nothing is written",
-        )
-    ]
-
-    def __init__(self, path: Path):
-        super().__init__()
-        self.path = path
-
-    def on_mount(self) -> None:
-        self.query_one("#changed-keep", Button).focus()
-
-    def action_keep(self) -> None:
-        self.dismiss("keep")
-
-    def compose(self) -> ComposeResult:
-        with Vertical():
-            yield Static(
-                Text(
-                    f"{self.path} changed on disk since you opened it "
-                    "(another editor, or a copy over SSH). Nothing was written."
-                )
-            )
-            with Horizontal():
-                yield Button("Reload from disk", variant="warning", id="changed-reload")
-                yield Button("Keep editing", variant="primary", id="changed-keep")
-
-    @on(Button.Pressed)
-    def answer(self, event: Button.Pressed) -> None:
-        self.dismiss("reload" if event.button.id == "changed-reload" else "keep")
-
-
-class NameDialog(ModalScreen[str | None]):
-    """Asks for a part id, checked as a TOML table name not already taken."""
-
-    DEFAULT_CSS = (
-        ConfirmDialog.DEFAULT_CSS.replace("ConfirmDialog", "NameDialog")
-        + """
-    NameDialog #name-error { color: $error; height: auto; }
-    """
-    )
-
-    BINDINGS = [
-        Binding(
-            "escape", "cancel", "cancel", id="name-dialog.cancel", tooltip="Close without naming anything"
-        )
-    ]
-
-    def __init__(self, question: str, suggestion: str, taken: set[str]):
-        super().__init__()
-        self.question, self.suggestion, self.taken = question, suggestion, taken
-
-    def compose(self) -> ComposeResult:
-        with Vertical():
-            yield Label(Text(self.question))
-            yield Input(self.suggestion, id="name-input")
-            yield Static("", id="name-error")
-            with Horizontal():
-                yield Button("OK", variant="primary", id="name-ok")
-                yield Button("Cancel", id="name-cancel")
-
-    @on(Input.Submitted)
-    @on(Button.Pressed, "#name-ok")
-    def accept(self) -> None:
-        name = self.query_one("#name-input", Input).value.strip()
-        why = check_part_id(name, self.taken)
-        if why:
-            self.query_one("#name-error", Static).update(Text(why))
-        else:
-            self.dismiss(name)
-
-    @on(Button.Pressed, "#name-cancel")
-    def action_cancel(self) -> None:
-        self.dismiss(None)
 
 
 class PresetsScreen(Screen):
@@ -349,7 +228,7 @@ class PresetsScreen(Screen):
         self.edit_part(self.current_id())
 
     def edit_part(self, part_id: str | None) -> None:
-        if part_id not in self.library.parts:
+        if part_id is None or part_id not in self.library.parts:
             return
         part = self.library.parts[part_id]
         try:
@@ -368,7 +247,6 @@ class PresetsScreen(Screen):
 
     def changed(self, select: str | None) -> None:
         self.reload_library(select)
-        self.post_message(PresetsChanged())
         if self.on_change is not None:
             self.on_change()
 
@@ -431,6 +309,7 @@ class PresetsScreen(Screen):
             self.notify(
                 f"Shipped presets are never {what}; make a copy (c) in your folder instead.",
                 severity="warning",
+                markup=False,
             )
             return True
         return False

@@ -6,6 +6,8 @@ Nothing the user typed is lost: the file stays as it is on disk, in their editor
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -13,9 +15,13 @@ from textual.containers import VerticalScroll
 from textual.screen import Screen
 from textual.widgets import Footer, Static
 
-from railroom.engine.model import Problem
-from railroom.engine.values import escaped
+from railroom.engine import Problem, escaped
 from railroom.tui.session import WaitingFile
+
+if TYPE_CHECKING:
+    from textual import getters
+
+    from railroom.tui.app import RailroomApp
 
 
 def key(keys: str, action: str, words: str, ident: str, tooltip: str, show: bool = True) -> Binding:
@@ -36,6 +42,9 @@ def problem_lines(problems: tuple[Problem, ...]) -> Text:
 
 
 class ProblemsScreen(Screen):
+    if TYPE_CHECKING:  # Textual's way to type `self.app` (textual.getters.app); nothing at run time
+        app = getters.app(RailroomApp)
+
     BINDINGS = [
         key("r", "app.reload", "reload now", "reload", "Read the chain file again now"),
         key(

@@ -10,11 +10,22 @@ from rich.text import Text
 from textual.containers import VerticalScroll
 from textual.widgets import Static
 
-from railroom.engine.blocks import BLOCKS
-from railroom.engine.checks import GAIN_ERROR_CAUTION
-from railroom.engine.model import Chain, Part
-from railroom.engine.results import CHECKS, OpAmpMeasure, StageResult
-from railroom.engine.values import Quantity, format_si, format_span
+from railroom.engine import (
+    net_span,
+    NetValue,
+    stage_quantities,
+    BLOCKS,
+    CHECKS,
+    GAIN_ERROR_CAUTION,
+    Chain,
+    Part,
+    Quantity,
+    StageResult,
+    check_unit,
+    format_si,
+    format_span,
+)
+from railroom.engine import needed_and_limit as engine_needed_and_limit
 
 UNITS = {
     "resistance": "Ω",
@@ -24,7 +35,6 @@ UNITS = {
     "frequency": "Hz",
     "slew": "V/s",
 }
-CHECK_UNITS = {"slew": "V/s", "current": "A"}
 
 
 def volts(value: float, unit: str = "V") -> str:
@@ -35,38 +45,16 @@ def span_words(span: tuple[float, float], unit: str = "V") -> str:
     return format_span(span[0], span[1], unit)
 
 
+def figure_words(value: float | tuple[float, float] | None, unit: str) -> str:
+    if value is None:
+        return "-"
+    return span_words(value, unit) if isinstance(value, tuple) else volts(value, unit)
+
+
 def needed_and_limit(stage: StageResult, check: str, part: Part | None, chain: Chain) -> tuple[str, str]:
     """What the stage asks of the part and what the part gives, as the engine measured them."""
-    m = stage.measure
-    label = stage.failing_nodes.get(check)
-    amp: OpAmpMeasure | None = next(
-        (a for a in m.opamps if a.label == label), m.opamps[0] if m.opamps else None
-    )
-    if check == "supply":
-        rails = chain.rails_for(m.stage)
-        allowed = span_words(part.supply) if part else "-"
-        return span_words(m.supply or rails.span_range), allowed
-    if check == "input-differential":  # engine/part_limits.py: largest |V+ - V-|
-        return (
-            volts(m.input_differential) if m.input_differential is not None else "-",
-            volts(part.input_differential_max) if part else "-",
-        )
-    if amp is None:  # a converter input: its input-high/low are the signal against its window
-        window = m.window or (float("nan"), float("nan"))
-        side = 1 if check.endswith("high") else 0
-        return volts(m.output[side]), volts(window[side])
-    side = 1 if check.endswith("high") else 0
-    pairs = {"output": (amp.output, amp.window), "input": (amp.input, amp.input_window)}
-    if check in ("slew", "current"):
-        unit = CHECK_UNITS[check]
-        needed, limit = (
-            (amp.slew_needed, amp.slew_available)
-            if check == "slew"
-            else (amp.current_needed, amp.current_available)
-        )
-        return volts(needed, unit), volts(limit, unit)
-    reached, allowed = pairs[check.split("-")[0]]
-    return volts(reached[side]), volts(allowed[side])
+    needed, limit = engine_needed_and_limit(stage, check, part, chain)
+    return figure_words(needed, check_unit(check)), figure_words(limit, check_unit(check))
 
 
 def checks_table(stage: StageResult, part: Part | None, chain: Chain) -> Table:
@@ -84,7 +72,7 @@ def checks_table(stage: StageResult, part: Part | None, chain: Chain) -> Table:
         verdict = Text("FAIL" if failing else "ok", style="bold red" if failing else "green")
         if where:
             verdict.append(f" at {where}")
-        table.add_row(check, needed, limit, volts(margin, CHECK_UNITS.get(check, "V")), verdict)
+        table.add_row(check, needed, limit, volts(margin, check_unit(check)), verdict)
     error = stage.measure.gain_error
     if error is not None:
         table.add_row(
@@ -110,22 +98,49 @@ def components(stage: StageResult) -> Text:
     text = Text()
     s = stage.stage
     kinds = {key: spec.kind for key, spec in BLOCKS[s.block].fields.items()}
+    if getattr(s, "feed", None) is not None:
+        text.append(f"from {s.feed}   ")
     if s.load is not None:
         text.append(f"load {quantity_words(s.load, 'resistance')}   ")
+    if getattr(s, "load_to", None) is not None:
+        text.append(f"load_to {quantity_words(s.load_to, 'voltage')}   ")
     if getattr(s, "load_capacitance", None) is not None:
         text.append(f"load_capacitance {quantity_words(s.load_capacitance, 'capacitance')}   ")
     for key, value in s.values.items():
-        if isinstance(value, Quantity):
+        if isinstance(value, NetValue):
+            text.append(f"{key} net {value.net}   ")
+        elif isinstance(value, Quantity):
             text.append(f"{key} {quantity_words(value, kinds.get(key, ''))}   ")
         elif isinstance(value, list):
             for i, item in enumerate(value, start=1):
-                text.append(
-                    f"{key}.{i} r {quantity_words(item['r'], 'resistance')} "
-                    f"from {quantity_words(item['v'], 'voltage')}   "
-                )
+                v = item["v"]
+                source = f"net {v.net}" if isinstance(v, NetValue) else quantity_words(v, "voltage")
+                text.append(f"{key}.{i} r {quantity_words(item['r'], 'resistance')} from {source}   ")
         else:
             text.append(f"{key} {str(value).lower()}   ")
     return text if text.plain else Text("no components of its own")
+
+
+def net_words(chain: Chain, name: str) -> str:
+    """A net as the detail says it: what it is and its span (one value per corner or draw)."""
+    net = chain.nets[name]
+    span = span_words(net_span(chain, net))
+    if net.fraction is not None:
+        return f"{name} = {net.fraction.value:g} x rail {net.rail} +: {span}"
+    return f"{name}: {span}"
+
+
+def stage_nets(stage: StageResult, chain: Chain) -> Text:
+    """The nets the stage reads, each with its span."""
+
+    names = sorted(
+        {
+            q.net
+            for q in stage_quantities(stage.stage).values()
+            if isinstance(q, NetValue) and q.net in chain.nets
+        }
+    )
+    return Text("   ".join(net_words(chain, name) for name in names))
 
 
 def nodes_table(stage: StageResult) -> Table | None:
@@ -185,6 +200,9 @@ def stage_story(stage: StageResult, chain: Chain, parts: Mapping[str, Part]) -> 
             )
         )
     parts_shown.append(Text("components: ", style="bold") + components(stage))
+    read = stage_nets(stage, chain)
+    if read.plain:
+        parts_shown.append(Text("nets: ", style="bold") + read)
     nodes = nodes_table(stage)
     if nodes is not None:
         parts_shown += [Text("internal nodes", style="bold"), nodes]

@@ -20,7 +20,7 @@ from textual.containers import Horizontal, VerticalScroll
 from textual.message import Message
 from textual.widgets import Input, Label, Select
 
-from railroom.engine.editing import FieldShape, value_problem
+from railroom.engine import FieldShape, value_problem
 
 # Control characters (a pasted escape sequence) would restyle the terminal if echoed: the field
 # shows them as the Unicode control pictures (U+2400 block) and the value is refused.
@@ -88,11 +88,14 @@ class FormField:
     shape: FieldShape
     text: str  # what the field holds now (or the draft the user left)
     choices: tuple[str, ...] = ()
+    label: str = ""  # shown in place of the key (a key must be a widget id; a label need not)
 
 
 class FieldForm(VerticalScroll):
     """Tab and shift+tab go round the fields; Esc closes the form (accepted changes are already
     in) and posts `Closed`, so the screen puts the detail panel back."""
+
+    remove_field: Callable[[str], str | None]  # set by the screen: takes an emptied field out of the file
 
     BINDINGS = [
         Binding(
@@ -145,7 +148,7 @@ class FieldForm(VerticalScroll):
         yield Label(Text(self.title_words), classes="form-title")
         for field in self.fields.values():
             with Horizontal(classes="form-row"):
-                yield Label(Text(field.key), classes="form-key")
+                yield Label(Text(field.label or field.key), classes="form-key")
                 yield self._editor(field)
             yield Label(Text(field.shape.help), id=f"message-{field.key}", classes="form-message")
         yield Label(Text("tab next field   esc close   every change is checked at once"), classes="hint")
@@ -200,17 +203,18 @@ class FieldForm(VerticalScroll):
         if shown != event.value:
             event.input.value = shown  # posts another Changed, judged as refused below
             return
-        self._judge(event.input.id.removeprefix("field-"), event.value)
+        self._judge((event.input.id or "").removeprefix("field-"), event.value)
 
     def on_select_changed(self, event: Select.Changed) -> None:
         event.stop()
         if event.value is not Select.NULL:
-            self._judge(event.select.id.removeprefix("field-"), str(event.value))
+            self._judge((event.select.id or "").removeprefix("field-"), str(event.value))
 
     def _judge(self, key: str, text: str) -> None:
         field = self.fields[key]
         if text == field.text and key not in self.drafts:
             return
+        problem: str | None
         if any(0x2400 <= ord(c) <= 0x2421 for c in text):
             problem = CONTROL_PROBLEM
         else:

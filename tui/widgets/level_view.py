@@ -7,8 +7,7 @@ from rich.text import Text
 from textual.containers import VerticalScroll
 from textual.widgets import Static
 
-from railroom.engine.results import VOLTAGE_CHECKS, ChainResult
-from railroom.engine.values import format_si
+from railroom.engine import VOLTAGE_CHECKS, ChainResult, format_si
 from railroom.tui.bars import LEGEND, OFF_RAILS, legend, margin_bar
 
 LABEL = 18

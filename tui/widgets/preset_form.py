@@ -19,10 +19,18 @@ from textual.validation import ValidationResult, Validator
 from textual.widgets import Button, Footer, Input, Label, Static
 from rich.text import Text
 
-from railroom.engine.model import InputError
-from railroom.engine.preset_editing import ChangedOnDisk, EditSession, PresetEditError, Raw
-from railroom.engine.presets import PAIR_SIDES, PART_FIELDS, UNITS
-from railroom.engine.values import ValueTextError, parse_quantity
+from railroom.engine import (
+    PAIR_SIDES,
+    PART_FIELDS,
+    PART_UNITS as UNITS,
+    ChangedOnDisk,
+    EditSession,
+    InputError,
+    PresetEditError,
+    Raw,
+    ValueTextError,
+    parse_quantity,
+)
 
 
 # The slew rate is quoted in V/µs: its column says so, a value from the file is shown in it, and
@@ -85,7 +93,7 @@ class CurveText(Validator):
     def validate(self, value: str) -> ValidationResult:
         if not value.strip():
             return self.success()
-        from railroom.engine.part_limits import curve_from_text
+        from railroom.engine import curve_from_text
 
         message = curve_from_text(value)[1]
         return self.failure(message) if message else self.success()
@@ -255,7 +263,7 @@ class PresetForm(ModalScreen[bool]):
         try:
             path = self.session.save(values)
         except ChangedOnDisk as err:
-            from railroom.tui.screens.presets import ChangedOnDiskDialog
+            from railroom.tui.screens.preset_dialogs import ChangedOnDiskDialog
 
             self.app.push_screen(ChangedOnDiskDialog(err.path), self.resolve_change)
             return

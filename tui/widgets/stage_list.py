@@ -1,4 +1,5 @@
-"""The stage list: one row per stage, with its limiting check and its margin bar."""
+"""The stage list: one row per stage, with its limiting check and its margin bar; the rows follow
+the chain's tree (`from`), branches drawn one level in."""
 
 from __future__ import annotations
 
@@ -6,11 +7,10 @@ from rich.text import Text
 from textual.binding import Binding
 from textual.widgets import DataTable
 
-from railroom.engine.results import ChainResult, StageResult
-from railroom.engine.values import format_si
+from railroom.engine import ChainResult, StageResult, stage_parents
+from railroom.engine import margin_words as check_margin_words
 from railroom.tui.bars import SHORT_LEGEND, stage_bar
 
-MARGIN_UNITS = {"slew": "V/s", "current": "A"}
 REGIME_STYLES = {"linear": "green", "clipping": "bold red", "saturated": "cyan"}
 BAR_LIMITS = (12, 48)
 
@@ -22,7 +22,7 @@ def margin_words(stage: StageResult) -> Text:
         return Text("-")
     value = stage.margins[check]
     style = "" if value >= 0 else "bold red"
-    return Text(f"{check} {format_si(value, MARGIN_UNITS.get(check, 'V'))}", style=style)
+    return Text(check_margin_words(check, value), style=style)
 
 
 def regime_words(stage: StageResult) -> Text:
@@ -88,6 +88,36 @@ def column_widths(total: int, cells: list[dict[str, Text]]) -> tuple[dict[str, i
     return widths, short
 
 
+def tree_rows(parents: tuple[int, ...] | list[int]) -> list[tuple[int, str]]:
+    """The stages in signal order, each with the tree drawn before its name: (0-based stage,
+    prefix). A stage that is its parent's only input continues the line at the parent's level;
+    the stages fed by one output (or by the source) are each drawn one level in, with "├ "
+    ("└ " for the last), and the lines below a "├ " keep a "│ " for the branches still to come.
+    One row per stage; every stage comes after the one it takes its input from."""
+    children: list[list[int]] = [[] for _ in parents]
+    roots: list[int] = []
+    for k, parent in enumerate(parents):
+        (children[parent] if 0 <= parent < k else roots).append(k)
+    rows: list[tuple[int, str]] = []
+    # an explicit stack (a chain has up to 300 stages): (stage, lead, glyph)
+    stack = [
+        (k, "", "" if len(roots) == 1 else ("└ " if i == len(roots) - 1 else "├ "))
+        for i, k in enumerate(roots)
+    ]
+    stack.reverse()
+    while stack:
+        k, lead, glyph = stack.pop()
+        rows.append((k, lead + glyph))
+        below = lead + {"├ ": "│ ", "└ ": "  "}.get(glyph, "")
+        fed = children[k]
+        if len(fed) == 1:
+            stack.append((fed[0], below, ""))
+        else:
+            for i in reversed(range(len(fed))):
+                stack.append((fed[i], below, "└ " if i == len(fed) - 1 else "├ "))
+    return rows
+
+
 def clipped(text: str | Text, width: int) -> Text:
     cell = text.copy() if isinstance(text, Text) else Text(text)
     cell.truncate(width, overflow="ellipsis")
@@ -108,6 +138,20 @@ class StageList(DataTable):
         self._width = 0
         self._widths: dict[str, int] = {}
         self._rows: list[list[Text]] = []  # the cells as last shown, row by row
+        self._order: list[int] = []  # the 1-based stage shown on each row (signal order)
+
+    def stage_at(self, row: int) -> int:
+        """The 1-based stage shown on `row` (rows follow the tree, not always the file)."""
+        if not self._order:
+            return row + 1
+        return self._order[min(max(row, 0), len(self._order) - 1)]
+
+    def row_of(self, index: int) -> int:
+        """The row showing stage `index` (1-based)."""
+        return self._order.index(index) if index in self._order else index - 1
+
+    def highlight_stage(self, index: int) -> None:
+        self.move_cursor(row=self.row_of(index), animate=False)
 
     def on_mount(self) -> None:
         self.border_subtitle = SHORT_LEGEND
@@ -122,26 +166,36 @@ class StageList(DataTable):
 
     def _fill(self, rebuild: bool) -> None:
         result = self._result
+        if result is None:
+            return
         row = self.cursor_row
+        kept = self.stage_at(row) if len(self._order) == len(result.stages) else None
+        tree = tree_rows(stage_parents([stage.stage for stage in result.stages]))
+        self._order = [k + 1 for k, _ in tree]
+        if kept is not None:  # the same stage stays highlighted when a `from` moves its row
+            row = self.row_of(kept)
+        stages = [result.stages[k] for k, _ in tree]
         cells = [
             {
                 "#": Text(str(stage.index)),
-                "stage": Text(stage.stage.name),
+                "stage": Text(prefix + stage.stage.name),
                 "block": Text(stage.stage.block),
                 "short": Text(BLOCK_SHORT.get(stage.stage.block, stage.stage.block)),
                 "part": Text(stage.stage.part or "-"),
                 "regime": regime_words(stage),
                 "limiting margin": margin_words(stage),
             }
-            for stage in result.stages
+            for stage, (_, prefix) in zip(stages, tree)
         ]
         widths, short = column_widths(self.size.width or 80, cells)
         if short:
             for row_cells in cells:
                 row_cells["block"] = row_cells["short"]
-        rows = [self._row_cells(stage, row_cells, widths) for stage, row_cells in zip(result.stages, cells)]
+        rows = [self._row_cells(stage, row_cells, widths) for stage, row_cells in zip(stages, cells)]
         if not rebuild and self.columns and self._widths == widths and len(rows) == len(self._rows):
             self._update_changed(rows)
+            if row != self.cursor_row:
+                self.move_cursor(row=row, animate=False)
             return
         if rebuild or not self.columns or self._widths != widths:
             self.clear(columns=True)
@@ -160,6 +214,7 @@ class StageList(DataTable):
         self, stage: StageResult, row_cells: dict[str, Text], widths: dict[str, int]
     ) -> list[Text]:
         # the op amp inside the stage with the least room, with its input's range
+        assert self._result is not None  # rows are made only from a result
         bar = stage_bar(self._result.chain, stage, width=widths["rail span"])
         return [
             clipped(row_cells[label], width) for label, width in widths.items() if label != "rail span"

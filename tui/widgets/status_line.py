@@ -7,8 +7,7 @@ from textual.app import ComposeResult
 from textual.containers import Vertical
 from textual.widgets import Static
 
-from railroom.engine.methods.rare import failing_draws, wilson
-from railroom.engine.results import ChainResult
+from railroom.engine import ChainResult, failing_draws, wilson
 
 # the methods as a person says them (the file's words are corners, rss, montecarlo)
 METHOD_WORDS = {"corners": "corners", "rss": "rss", "montecarlo": "Monte Carlo"}
@@ -45,7 +44,7 @@ class StatusLine(Vertical):
     def __init__(self, **kwargs) -> None:
         super().__init__(**kwargs)
         self._facts = (Text(), "", Text())
-        self._running: str | None = None  # the method running in the background
+        self._method_running: str | None = None  # the method running in the background
         self._fraction: float | None = None
 
     def compose(self) -> ComposeResult:
@@ -77,9 +76,9 @@ class StatusLine(Vertical):
     def _paint(self) -> None:
         head, method, tail = self._facts
         facts = head.copy()
-        if self._running is not None:
+        if self._method_running is not None:
             # the corners result is on screen while the file's own method runs
-            facts.append(f"  {running_words(self._running, self._fraction)}", style="italic")
+            facts.append(f"  {running_words(self._method_running, self._fraction)}", style="italic")
             facts.append(f"; {method} shown")
         else:
             facts.append(f"  method {method}")
@@ -88,7 +87,7 @@ class StatusLine(Vertical):
 
     def running(self, method: str | None) -> None:
         """`method` runs in the background (None: nothing runs); the corners result is shown."""
-        self._running, self._fraction = method, None
+        self._method_running, self._fraction = method, None
         self._paint()
 
     def progress(self, fraction: float) -> None:

@@ -1,0 +1,1 @@
+"""Design aids: sensitivity ranking, fixes from preferred values, and the series themselves."""

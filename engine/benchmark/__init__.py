@@ -1,0 +1,1 @@
+"""The bench: figures for `railroom bench` and its slow one-circuit-at-a-time reference."""

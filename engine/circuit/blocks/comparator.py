@@ -1,0 +1,82 @@
+"""Open-loop comparator: saturated by design.
+
+Without negative feedback the op amp's output sits at its upper swing limit when V+ > V-, and at
+the lower one otherwise (common practice; the ideal op-amp rules). Both inputs must stay inside
+the part's common-mode window, and the output levels carry the rail tolerance and load drop.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from collections.abc import Mapping
+
+import numpy as np
+
+from railroom.engine.circuit.blocks.base import Block, FieldSpec
+from railroom.engine.circuit.model import Part, Rails
+from railroom.engine.circuit.opamp import saturated_levels
+
+Span = tuple[float, float]
+
+
+@dataclass(frozen=True)
+class Switching:
+    """What a saturating block does with the span it is fed."""
+
+    levels: tuple[Span, Span]  # (low level min/max, high level min/max), V
+    thresholds: tuple[Span, Span]  # input level to go high, to go low (each min/max), V
+    input_span: Span  # common-mode span at the op amp's inputs, V
+    reaches: tuple[bool, bool]  # (can reach low, can reach high) at every corner
+    current: float  # largest output current, A
+
+
+def span_of(values: np.ndarray) -> Span:
+    return (float(np.min(values)), float(np.max(values)))
+
+
+class Comparator(Block):
+    name = "comparator"
+    summary = "open loop against a threshold voltage: saturated by design"
+    ideal = (
+        "out = upper swing limit while in > threshold, lower limit while in < threshold",
+        "invert = true swaps them",
+    )
+    saturates = True
+    fields = {
+        "threshold": FieldSpec("voltage", help="voltage on the other input, V"),
+        "invert": FieldSpec(
+            "flag",
+            required=False,
+            default=False,
+            help="true: signal to the - input, threshold to the + input",
+        ),
+    }
+
+    def switch(
+        self,
+        v: Mapping[str, np.ndarray],
+        flags: Mapping[str, object],
+        part: Part,
+        rails: Rails,
+        signal: Span,
+        offset: float = 0.0,
+        bias: float = 0.0,
+    ) -> Switching:
+        # offset and bias are not applied to a comparator's threshold (the draw walk reads the
+        # threshold field directly); the Schmitt trigger applies them (schmitt.py)
+        threshold = span_of(v["threshold"])
+        load = v.get("load")
+        conductance = 0.0 if load is None else float(np.max(1.0 / load))
+        levels = saturated_levels(part, rails, conductance)
+        # output high when the signal is above the threshold (below it when inverted)
+        above = signal[1] > threshold[1]  # goes above at every corner of the threshold
+        below = signal[0] < threshold[0]
+        reaches = (below, above) if not flags.get("invert") else (above, below)
+        current = max(abs(levels[1][1]), abs(levels[0][0])) * conductance  # demanded, uncapped
+        return Switching(
+            levels=levels,
+            thresholds=(threshold, threshold),
+            input_span=(min(signal[0], threshold[0]), max(signal[1], threshold[1])),
+            reaches=reaches,
+            current=current,
+        )

@@ -1,0 +1,194 @@
+"""Follower, non-inverting and inverting amplifiers: the single-op-amp gain stages.
+
+Formulas (Sedra & Smith, Microelectronic Circuits, ch. 2; Franco, ch. 1):
+    non-inverting  G = 1 + rf/rg, rg returning to ref:  Vout = G Vin - (rf/rg) Vref
+    inverting      G = -rf/rin about ref:               Vout = -(rf/rin) Vin + (1 + rf/rin) Vref
+    noise gain     1/beta = 1 + rf/rg (non-inverting) = 1 + rf/rin (inverting)
+    AC-coupled rg  cg in series with rg: Zg = rg + 1/(s cg), G(s) = 1 + rf/Zg
+                   = 1 + s rf cg / (1 + s rg cg): 1 at DC, 1 + rf/rg above 1/(2 pi rg cg)
+The finite open-loop gain enters through opamp.solve_loop (Black's feedback formula).
+Any resistance driving the stage (source impedance, a divider before it) is in series with its input.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+import numpy as np
+
+from railroom.engine.circuit.blocks.base import (
+    Block,
+    BlockResponse,
+    FieldSpec,
+    InputLoad,
+    Node,
+    OpAmpNodes,
+    junction,
+    load_conductance,
+    load_return,
+    minus_pin,
+    opamp_node,
+    plus_node,
+    scaled,
+)
+from railroom.engine.circuit.opamp import Loop, solve_loop
+
+
+def single_opamp(
+    loop: Loop,
+    inverse_gain: np.ndarray,
+    feedback_conductance: np.ndarray,
+    v: Mapping[str, np.ndarray],
+    label: str = "amplifier",
+) -> tuple[OpAmpNodes, object]:
+    """Close one loop and build the three checked nodes.
+
+    The op amp's output current is Vout G_load plus the feedback resistor's (Vout - V-) G_f, with
+    V- = beta Vout + sum_k a_minus[k] V_k taken from the loop itself (no pin current flows), so the
+    current stays exact when the finite gain leaves V- away from a virtual earth.
+    """
+    solution = solve_loop(loop, inverse_gain)
+    output = opamp_node(solution, solution.output, 0, 1)
+    plus = plus_node(solution, 0, 1)
+    extra = {k: -feedback_conductance * t for k, t in loop.a_minus.items()}
+    for k, t in load_return(v, -1.0).items():  # the load's own return (load_to)
+        extra[k] = extra.get(k, 0.0) + t
+    factor = load_conductance(v) + feedback_conductance * (1.0 - loop.beta)
+    current = scaled(output, factor, extra)
+    return OpAmpNodes(label, output, plus, current), solution
+
+
+class Follower(Block):
+    name = "follower"
+    summary = "unity-gain buffer"
+    ideal = ("out = in",)
+
+    def respond(self, v, s, inverse_gain, drive, differential):
+        one = np.ones((1, 1))
+        loop = Loop(beta=one, a_plus={"in": one}, z_plus=drive)
+        amp, _ = single_opamp(loop, inverse_gain, np.zeros((1, 1)), v)
+        return BlockResponse(output=amp.output, opamps=(amp,), input_node=amp.plus)
+
+
+class Noninverting(Block):
+    name = "noninverting"
+    summary = "gain 1 + rf/rg, rg returning to ref"
+    ideal = (
+        "out = (1 + rf/rg) in - (rf/rg) ref",
+        "with cg: G(s) = 1 + s rf cg / (1 + s rg cg), 1 at DC, 1 + rf/rg above 1/(2 pi rg cg)",
+    )
+    fields = {
+        "rf": FieldSpec("resistance", help="feedback resistor, output to - input"),
+        "rg": FieldSpec("resistance", help="gain resistor, - input to ref"),
+        "ref": FieldSpec("voltage", required=False, default=0.0, help="where rg returns, V"),
+        "cg": FieldSpec(
+            "capacitance",
+            required=False,
+            default=None,
+            help="capacitor in series with rg (AC-coupled rg): DC gain 1",
+        ),
+    }
+
+    def respond(self, v, s, inverse_gain, drive, differential):
+        rf, rg = v["rf"], v["rg"]
+        if "cg" in v:
+            # rg + 1/(s cg) as an admittance, finite at DC: Yg = s cg / (1 + s rg cg)
+            yg = s * v["cg"] / (1.0 + s * rg * v["cg"])
+            loop = Loop(
+                beta=1.0 / (1.0 + rf * yg),
+                a_plus={"in": np.ones_like(rf)},
+                a_minus={"ref": rf * yg / (1.0 + rf * yg)},
+                z_plus=drive,
+                z_minus=rf / (1.0 + rf * yg),  # rf at DC: bias current sees rf alone
+            )
+            amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
+            return BlockResponse(output=amp.output, opamps=(amp,), input_node=amp.plus)
+        total = rf + rg
+        loop = Loop(
+            beta=rg / total,
+            a_plus={"in": np.ones_like(rf)},
+            a_minus={"ref": rf / total},
+            z_plus=drive,
+            z_minus=rf * rg / total,
+        )
+        amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
+        return BlockResponse(output=amp.output, opamps=(amp,), input_node=amp.plus)
+
+
+class Inverting(Block):
+    name = "inverting"
+    summary = "gain -rf/rin about ref"
+    ideal = ("out = -(rf/rin) in + (1 + rf/rin) ref",)
+    fields = {
+        "rin": FieldSpec("resistance", help="input resistor, in to - input"),
+        "rf": FieldSpec("resistance", help="feedback resistor, - input to output"),
+        "ref": FieldSpec("voltage", required=False, default=0.0, help="drives the + input, V"),
+    }
+
+    def respond(self, v, s, inverse_gain, drive, differential):
+        rin, rf = v["rin"] + drive, v["rf"]
+        total = rin + rf
+        one = np.ones_like(rf)
+        loop = Loop(
+            beta=rin / total, a_minus={"in": rf / total}, a_plus={"ref": one}, z_minus=rin * rf / total
+        )
+        amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
+        return BlockResponse(
+            output=amp.output,
+            opamps=(amp,),
+            input_load=virtual_earth_load(v["rin"], v),
+            input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain),
+        )
+
+
+class Summing(Block):
+    name = "summing"
+    summary = "inverting summer: the signal through rin plus fixed DC inputs (level shift)"
+    ideal = (
+        "out = -rf (in/rin + sum v/r) + (1 + rf/rin + sum rf/r) ref",
+        "each fixed input: r from the voltage v to the - input",
+    )
+    fields = {
+        "rin": FieldSpec("resistance", help="signal input resistor"),
+        "rf": FieldSpec("resistance", help="feedback resistor"),
+        "ref": FieldSpec("voltage", required=False, default=0.0, help="drives the + input, V"),
+        "inputs": FieldSpec(
+            "inputs",
+            required=False,
+            default=None,
+            help="fixed inputs [{r, v}]: r from the voltage v to the - input",
+        ),
+    }
+
+    def respond(self, v, s, inverse_gain, drive, differential):
+        rin, rf = v["rin"] + drive, v["rf"]
+        extra = sorted({k.rsplit(".", 1)[0] for k in v if k.startswith("inputs.")})
+        total = 1.0 / rin + 1.0 / rf + sum(1.0 / v[f"{k}.r"] for k in extra)
+        minus = {"in": (1.0 / rin) / total}
+        minus.update({f"{k}.v": (1.0 / v[f"{k}.r"]) / total for k in extra})
+        one = np.ones_like(rf)
+        loop = Loop(beta=(1.0 / rf) / total, a_minus=minus, a_plus={"ref": one}, z_minus=1.0 / total)
+        amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
+        return BlockResponse(
+            output=amp.output,
+            opamps=(amp,),
+            input_load=virtual_earth_load(v["rin"], v),
+            input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain),
+        )
+
+
+def virtual_earth_input(rin, drive, amp: OpAmpNodes, inverse_gain) -> Node:
+    """The input terminal of a stage whose input resistor rin returns to the - pin."""
+    if np.ndim(drive) == 0 and drive == 0:
+        return junction(rin, drive, None)
+    return junction(rin, drive, minus_pin(amp.plus, amp.output, inverse_gain))
+
+
+def virtual_earth_load(rin: np.ndarray, v: Mapping[str, np.ndarray]) -> InputLoad:
+    """An inverting input resistor loads the stage before it to the + input's voltage (ref)."""
+    ref = np.atleast_1d(v.get("ref", np.zeros(1)))
+    return InputLoad(
+        conductance=float(np.max(1.0 / rin)),
+        returns=(float(np.min(ref)), float(np.max(ref))),
+        least=float(np.min(1.0 / rin)),
+    )

@@ -1,0 +1,1 @@
+"""Reports: JSON, Markdown, JUnit, the level picture, side-by-side comparison, block help."""

@@ -1,0 +1,1 @@
+"""The verdict: each check's margin formula, the one judge, and the result types."""

@@ -1,0 +1,169 @@
+"""Margins -> regime, reasons, limiting check, verdict and cautions. The one place that decides.
+
+Margins are volts for voltage checks, V/s for slew (available - needed), amperes for current
+(available - needed), volts for supply (room inside the part's allowed span); negative means
+violated (the README's JSON report).
+"""
+
+from __future__ import annotations
+
+from railroom.engine.circuit.blocks import BLOCKS
+from railroom.engine.verdict.margins import met_at_equality
+from railroom.engine.verdict.margins import supply_margin as kernel_supply_margin
+from railroom.engine.circuit.model import Chain, Part, Rails
+from railroom.engine.circuit.part_limits import DIFFERENTIAL_CHECK, differential_margin
+from railroom.engine.verdict.results import VOLTAGE_CHECKS, StageMeasure, StageResult
+
+GAIN_ERROR_CAUTION = 0.01  # the README's JSON report: a caution above 1 %
+SELV_DC_LIMIT = 60.0  # V DC between conductors: SELV (IEC 60335-1, 3.4.2), ES1 (IEC 62368-1)
+LINEAR_CHECKS = (*VOLTAGE_CHECKS, "slew", "current")
+
+
+def opamp_margins(measure: StageMeasure) -> tuple[dict[str, float], dict[str, str]]:
+    """Each check's worst margin over the op amps of the stage, and which op amp set it."""
+    margins: dict[str, float] = {}
+    nodes: dict[str, str] = {}
+    for amp in measure.opamps:
+        found = {
+            "input-high": amp.input_window[1] - amp.input[1],
+            "input-low": amp.input[0] - amp.input_window[0],
+            "current": amp.current_available - amp.current_needed,
+        }
+        if not measure.saturated:
+            found.update(
+                {
+                    "output-high": amp.window[1] - amp.output[1],
+                    "output-low": amp.output[0] - amp.window[0],
+                    "slew": amp.slew_available - amp.slew_needed,
+                }
+            )
+        for check, value in found.items():
+            if check not in margins or value < margins[check]:
+                margins[check] = value
+                nodes[check] = amp.label
+    if measure.window is not None and not measure.opamps:
+        # a converter input: its window is the range of the converter's INPUT (the signal it is
+        # fed), so its two checks are named for that side
+        margins["input-high"] = measure.window[1] - measure.output[1]
+        margins["input-low"] = measure.output[0] - measure.window[0]
+    return margins, nodes
+
+
+def supply_margin(part: Part, rails: Rails) -> float:
+    low, high = rails.span_range
+    return float(kernel_supply_margin(part, low, high))
+
+
+def check_scale(check: str, part: Part | None, rails: Rails) -> float:
+    """The size a check's margin is measured against: the rail span for voltages, the part's
+    own limit for slew, current and supply."""
+    if part is not None:
+        own = {"slew": part.slew, "current": part.output_current, "supply": part.supply[1]}
+        if check in own:
+            return own[check]
+    return rails.positive - rails.negative
+
+
+def judge(
+    measure: StageMeasure,
+    part: Part | None,
+    rails: Rails,
+    required: float,
+    measured: tuple[dict[str, float], dict[str, str]] | None = None,
+) -> StageResult:
+    """The verdict of one stage. `measured`: (each check's margin, which op amp set it) when the
+    method measured them itself (rss, Monte Carlo); otherwise they are read off the measure's
+    spans and windows (opamp_margins)."""
+    block = BLOCKS[measure.stage.block]
+    margins, nodes = opamp_margins(measure) if measured is None else (dict(measured[0]), dict(measured[1]))
+    if part is not None:
+        margins["supply"] = supply_margin(part, rails)
+    margins = {c: met_at_equality(m, check_scale(c, part, rails)) for c, m in margins.items()}
+    leaves_linear = any(
+        margins.get(c, 0.0) < 0
+        for c in LINEAR_CHECKS
+        if not (block.saturates and c not in ("input-high", "input-low", "current"))
+    )
+    if part is not None and (block.saturates or leaves_linear):  # open loop, or broken by clipping
+        margins.update(differential_margin(part, measure.input_differential))
+    if block.saturates:
+        regime = "saturated"
+    else:
+        regime = "clipping" if leaves_linear else "linear"
+    reasons = [c for c in VOLTAGE_CHECKS if c in margins and margins[c] < required]
+    reasons += [c for c in ("slew", "current", "supply") if margins.get(c, 0.0) < 0]
+    reasons += [c for c in (DIFFERENTIAL_CHECK,) if c in margins and margins[c] < required]
+    if measure.fed_clipped:
+        # fed by a clipping stage: whatever this stage does, its signal is not the design's
+        reasons.append("fed-clipped")
+    go = not reasons and (regime == "saturated") == block.saturates
+    return StageResult(
+        measure=measure,
+        regime=regime,
+        go=go,
+        reasons=tuple(reasons),
+        margins=margins,
+        limiting=limiting_check(margins, rails, part),
+        failing_nodes=nodes,
+        cautions=tuple(stage_cautions(measure, part, rails)),
+    )
+
+
+def limiting_check(margins: dict[str, float], rails: Rails, part: Part | None) -> str | None:
+    """The check with the least margin, each margin taken relative to its own scale. The supply
+    check only limits when it fails: a part inside its supply range is not nearer to clipping
+    for being near its supply limit."""
+    considered = {c: m for c, m in margins.items() if c != "supply" or m < 0}
+    if not considered:
+        return None
+    span = rails.positive - rails.negative
+    scale = {"slew": part.slew if part else 1.0, "current": part.output_current if part else 1.0}
+    return min(considered, key=lambda c: considered[c] / scale.get(c, span))
+
+
+def stage_cautions(measure: StageMeasure, part: Part | None, rails: Rails) -> list[str]:
+    cautions = []
+    if measure.gain_error is not None and measure.gain_error > GAIN_ERROR_CAUTION:
+        cautions.append(
+            f"closed-loop gain falls {measure.gain_error:.1%} short at the top of the "
+            "band: the part's gain-bandwidth is low for this noise gain"
+        )
+    if part is not None and rails.span_range[1] > part.supply_abs_max:
+        cautions.append(
+            f"the supply can reach {rails.span_range[1]:.3g} V, above the part's "
+            f"absolute maximum of {part.supply_abs_max:.3g} V: the part may be damaged"
+        )
+    if measure.reaches is not None:
+        low, high = measure.always if measure.always is not None else measure.reaches
+        if not high:
+            cautions.append(
+                "the input may never cross the threshold upward at every tolerance "
+                "corner, so the output can stick low"
+            )
+        if not low:
+            cautions.append(
+                "the input may never cross the threshold downward at every tolerance "
+                "corner, so the output can stick high"
+            )
+    return cautions
+
+
+def chain_cautions(chain: Chain) -> list[str]:
+    cautions = []
+    source = chain.source
+    if source.amplitude > 0 and not source.band_given:
+        # the loader's default band when none is written; a band = [1, 1] written is meant
+        cautions.append(
+            f"{chain.path}: source.band: the AC amplitude of {source.amplitude:.3g} V is checked "
+            "at 1 Hz only (no band given): write band = [lowest, highest] for the frequencies "
+            'it has, or ["0", "0"] for a DC swing'
+        )
+    for rails in chain.rails.values():
+        top = rails.span_range[1]
+        if top > SELV_DC_LIMIT:
+            cautions.append(
+                f"rails {rails.name!r} span up to {top:.3g} V between conductors, above the 60 V DC "
+                "limit of safety extra-low voltage (SELV in IEC 60335-1, ES1 in IEC 62368-1): "
+                "follow local codes and licensed practice for insulation, clearances and protection"
+            )
+    return cautions

@@ -1,0 +1,1 @@
+"""The walks: a loaded chain prepared, then carried stage by stage as bounds or as drawn circuits."""

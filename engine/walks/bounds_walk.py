@@ -1,0 +1,429 @@
+"""Walking the prepared chain stage by stage: bounds -> measures -> verdict -> next stage's input.
+
+Used by the corners method (and by the nominal pass, which is corners with no spread and no
+offsets). Stages form a tree (`from`): the input of every stage fed by this one loads its output;
+each one's conductance to its return voltage adds to the output current before the swing window
+is drawn.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+
+from railroom.engine.circuit.blocks.base import BlockResponse, InputLoad, OpAmpNodes
+from railroom.engine.verdict.judge import judge
+from railroom.engine.verdict.margins import each_load, load_currents, one_load
+from railroom.engine.circuit.opamp import TWO_PI, input_window, output_window
+from railroom.engine.circuit.part_limits import bias_at, clipped_differential, saturated_differential
+from railroom.engine.walks.preparation import StagePlan
+from railroom.engine.walks.signal_bounds import (
+    DifferentialSignal,
+    NodeBounds,
+    Signal,
+    clamp,
+    error_bound,
+    loaded_bounds,
+    memory_order,
+    merge,
+    node_bounds,
+    single_bounds,
+    single_terms,
+)
+from railroom.engine.circuit.model import stage_parents
+from railroom.engine.verdict.results import OpAmpMeasure, StageMeasure, StageResult
+
+
+def span(bounds: NodeBounds) -> tuple[float, float]:
+    return (float(np.min(bounds.lo)), float(np.max(bounds.hi)))
+
+
+def bounds_once(node, v: dict, signal, offsets, bias, known: dict, memo: dict | None = None) -> NodeBounds:
+    """The node's bounds, found once per stage: a stage's output node is usually its last op
+    amp's output node too. `known` holds the node with its bounds so that its id stays its own.
+    `memo` keeps each node's own terms (propagation.NodeTerms) across walks of one Prepared:
+    the headroom search walks it again and again with only the source amplitude changed."""
+    if id(node) in known:
+        return known[id(node)][1]
+    if memo is None or isinstance(signal, DifferentialSignal):
+        bounds = node_bounds(node, v, signal, error_bound(node, offsets, bias))
+    else:
+        if id(node) not in memo:
+            memo[id(node)] = (
+                node,
+                single_terms(node, v, error_bound(node, offsets, bias), order=memory_order(signal.hi)),
+            )
+        bounds = single_bounds(node, v, signal, None, terms=memo[id(node)][1])
+    known[id(node)] = (node, bounds)
+    return bounds
+
+
+def walk_chain(
+    prepared,
+    signal,
+    nominal: bool = False,
+    notes=None,
+    first: int = 0,
+    entering: list | None = None,
+    stop: int | None = None,
+    levels: dict | None = None,
+    recorded: list | None = None,
+) -> list[StageResult]:
+    """Results of stages `first` up to (not including) `stop`, the last by default, fed `signal`
+    at stage `first`. Stages form a tree (the README's File formats, `from`): each is fed what
+    its parent passes on, and a parent's output is loaded by every stage it feeds. `entering`,
+    when given, receives the signal entering each walked stage (the fix search re-walks from
+    there); `recorded`: such a list from a full walk, for stages from `first` on whose parent is
+    before `first` (or the source); `levels`, stage index -> the bounds per frequency of what
+    each linear stage shows (the level picture)."""
+    chain = prepared.chain
+    plans, responses = prepared.plans, prepared.responses
+    parents = plan_parents(plans)
+    children = tree_children(parents)
+    rise = chain.conditions.worst_temperature_rise
+    hot = max(chain.conditions.temperature) - 25.0  # the bias current is taken there (part_limits)
+    # node terms depend on the offsets, which the nominal walk leaves out: one memo for each
+    memo = prepared.memo.setdefault(("terms", nominal), {})
+    results: dict[int, StageResult] = {}
+    handed: dict[int, tuple] = {}  # stage -> what it passes on (see hand_on)
+    source_input = signal  # with first == 0: what every stage fed by the source takes
+    for k in range(first, len(plans) if stop is None else stop):
+        plan, parent = plans[k], parents[k]
+        if k > first:
+            if parent >= first:
+                signal = hand_on(handed[parent], k, prepared)
+            elif parent < 0 and first == 0:
+                signal = source_input
+            else:
+                assert recorded is not None, "a re-walk needs the signals of a full walk"
+                signal = recorded[k]
+        if entering is not None:
+            entering.append(signal)
+        next_load = stage_loads(responses, children[k])
+        v = prepared.values[k]
+        if plan.block.saturates:
+            measure, passed = saturated_stage(plan, v, signal, rise, nominal, hot_rise=hot)
+            bounds = None
+        else:
+            only = children[k][0] if len(children[k]) == 1 else None
+            later = only is not None and prepared.joint[only] and shows_input_of(plans, responses, k, only)
+            measure, bounds = linear_stage(
+                plan,
+                responses[k],
+                v,
+                signal,
+                prepared.freqs,
+                next_load,
+                rise,
+                nominal,
+                memo,
+                shown_later=later,
+                hot_rise=hot,
+            )
+            if parent >= 0 and shows_input_of(plans, responses, parent, k) and prepared.joint[k]:
+                # the passive stage before shows the voltage at this stage's input terminal,
+                # each of its circuits paired with this stage's own (exact)
+                terminal = input_bounds(plan, responses[k], v, signal, rise, nominal, memo, hot_rise=hot)
+                shown = span(terminal)
+                if levels is not None:
+                    levels[parent] = terminal
+                if parent in results:
+                    before = results[parent]
+                    results[parent] = replace(before, measure=replace(before.measure, output=shown))
+            if levels is not None:
+                levels[k] = bounds
+            passed = None
+        if notes is not None:
+            measure = replace(measure, **notes[k])
+        result = judge(measure, plan.part, plan.rails, chain.conditions.margin)
+        window = measure.window if result.regime == "clipping" and measure.window is not None else None
+        handed[k] = (k, bounds, passed, getattr(signal, "fed_clipped", False), window)
+        results[k] = result
+    return [results[k] for k in sorted(results)]
+
+
+def plan_parents(plans) -> tuple[int, ...]:
+    """Per plan the index of the plan it takes its input from (-1: the source)."""
+    return stage_parents([plan.stage for plan in plans])
+
+
+def tree_children(parents: tuple[int, ...]) -> tuple[tuple[int, ...], ...]:
+    found: list[list[int]] = [[] for _ in parents]
+    for k, parent in enumerate(parents):
+        if parent >= 0:
+            found[parent].append(k)
+    return tuple(tuple(c) for c in found)
+
+
+def stage_loads(responses, fed: tuple[int, ...]) -> tuple[InputLoad, ...]:
+    """What loads a stage's output: the input of every stage it feeds (a saturated stage's
+    input, not in the block interface, draws nothing here)."""
+    return tuple(responses[c].input_load for c in fed if responses[c] is not None)
+
+
+def hand_on(handed: tuple, child: int, prepared) -> Signal:
+    """What stage k passes to the stage `child` it feeds: a saturated stage its two levels; a
+    linear stage its bounds, row by row when the child's corners pair with its own, merged
+    otherwise; held inside its window when it clips."""
+    k, bounds, passed, fed, window = handed
+    if passed is None:
+        passed = (
+            paired(
+                bounds, prepared.values[k]["drive"].shape[0], prepared.values[child]["drive"].shape[0], fed
+            )
+            if prepared.joint[child]
+            else merge(bounds, fed)
+        )
+    return clamp(passed, window) if window is not None else passed
+
+
+def paired(bounds: NodeBounds, rows: int, next_rows: int, fed_clipped: bool) -> Signal:
+    """A passive stage's bounds handed on row by row to the stage after it, whose row i*n + j
+    is its own corner i with this stage's row j (corners.stage_values): each row of the next
+    stage meets the voltage of the very circuit whose impedance drives it."""
+    reps = next_rows // rows
+
+    def tiled(x: np.ndarray) -> np.ndarray:
+        if reps == 1 and x.shape[0] == rows:
+            return x
+        return np.broadcast_to(x, (reps, rows, x.shape[-1])).reshape(next_rows, x.shape[-1])
+
+    return Signal(
+        hi=tiled(bounds.hi),
+        lo=tiled(bounds.lo),
+        amp_lo=tiled(bounds.amp_lo),
+        amp_hi=tiled(bounds.amp_hi),
+        fed_clipped=fed_clipped,
+    )
+
+
+def linear_stage(
+    plan: StagePlan,
+    response: BlockResponse,
+    v: dict,
+    signal,
+    freqs: np.ndarray,
+    next_load,
+    rise: float,
+    nominal: bool,
+    memo: dict | None = None,
+    shown_later: bool = False,
+    hot_rise: float = 0.0,
+) -> tuple[StageMeasure, NodeBounds]:
+    """`shown_later`: the next stage will set what this (passive) stage shows (input_span)."""
+    part = plan.part
+    count = len(response.opamps)
+    offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
+    bias = 0.0 if (nominal or part is None) else bias_at(part, 25.0 + hot_rise)
+    known: dict = {}
+    out = bounds_once(response.output, v, signal, offsets, bias, known, memo)
+    amps = tuple(
+        opamp_measure(
+            plan,
+            amp,
+            v,
+            signal,
+            offsets,
+            bias,
+            freqs,
+            next_load if amp.output is response.output else (),
+            known,
+            memo,
+        )
+        for amp in response.opamps
+    )
+    window = amps[-1].window if amps else None
+    if plan.block.window_only:
+        window = (float(np.max(v["low"])), float(np.min(v["high"])))  # worst over tolerance
+    inner = {
+        name: span(bounds_once(node, v, signal, offsets, bias, known, memo))
+        for name, node in response.inner.items()
+    }
+    shown = span(out)
+    if passive_output(plan, response, next_load) and not shown_later:
+        # what the stage shows is its output with the next stage's input on it; what it hands
+        # on is its Thevenin voltage (the next stage meets the impedance itself)
+        shown = span(
+            loaded_bounds(response.output, v, signal, response.output_impedance, one_load(next_load))
+        )
+    measure = StageMeasure(
+        index=plan.index,
+        stage=plan.stage,
+        output=shown,
+        nominal=shown,
+        opamps=amps,
+        window=window,
+        supply=plan.rails.span_range if part else None,
+        fed_clipped=getattr(signal, "fed_clipped", False),
+        inner=inner,
+        input_differential=clipped_differential(part, response, amps, freqs),
+    )
+    return measure, out
+
+
+def shows_input(plans, responses, k: int) -> bool:
+    """Stage k - 1 is passive (not a converter input, which is checked on what it shows) and
+    stage k knows its input terminal: stage k - 1 then shows that terminal's voltage."""
+    return k > 0 and shows_input_of(plans, responses, k - 1, k)
+
+
+def shows_input_of(plans, responses, parent: int, k: int) -> bool:
+    """Stage `parent` is passive (not a converter input) and feeds stage k, which knows its
+    input terminal: the parent then shows that terminal's voltage."""
+    return (
+        parent >= 0
+        and responses[parent] is not None
+        and responses[parent].output_impedance is not None
+        and not plans[parent].block.window_only
+        and responses[k] is not None
+        and responses[k].input_node is not None
+    )
+
+
+def input_span(
+    plan: StagePlan,
+    response: BlockResponse,
+    v: dict,
+    signal,
+    rise: float,
+    nominal: bool,
+    memo: dict | None,
+    hot_rise: float = 0.0,
+) -> tuple[float, float]:
+    """The span of the stage's input terminal (BlockResponse.input_node)."""
+    return span(input_bounds(plan, response, v, signal, rise, nominal, memo, hot_rise))
+
+
+def input_bounds(
+    plan: StagePlan,
+    response: BlockResponse,
+    v: dict,
+    signal,
+    rise: float,
+    nominal: bool,
+    memo: dict | None,
+    hot_rise: float = 0.0,
+):
+    """The bounds per frequency of the stage's input terminal (BlockResponse.input_node);
+    `hot_rise`: the hottest temperature less 25 C, where the bias current is taken (part_limits)."""
+    part = plan.part
+    count = max(len(response.opamps), 1)
+    offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
+    bias = 0.0 if (nominal or part is None) else bias_at(part, 25.0 + hot_rise)
+    return bounds_once(response.terminal, v, signal, offsets, bias, {}, memo)
+
+
+def passive_output(plan: StagePlan, response: BlockResponse, load) -> bool:
+    """A passive stage whose shown output differs from its Thevenin voltage: the next stage
+    draws current from it (a converter input draws none and passes its input on)."""
+    return (
+        response.output_impedance is not None
+        and not plan.block.window_only
+        and sum(one.conductance for one in each_load(load)) > 0
+    )
+
+
+def opamp_measure(
+    plan: StagePlan,
+    amp: OpAmpNodes,
+    v: dict,
+    signal,
+    offsets,
+    bias,
+    freqs,
+    load,
+    known: dict | None = None,
+    memo: dict | None = None,
+) -> OpAmpMeasure:
+    part = plan.part
+    known = {} if known is None else known
+    out = bounds_once(amp.output, v, signal, offsets, bias, known, memo)
+    plus = bounds_once(amp.plus, v, signal, offsets, bias, known, memo)
+    current = bounds_once(amp.current, v, signal, offsets, bias, known, memo)
+    out_span = span(out)
+    sourced, sunk = load_currents(
+        float(np.max(current.hi)), float(np.min(current.lo)), out_span[1], out_span[0], load
+    )
+    needed = float(max(sourced, sunk))
+    slew = float(np.max(TWO_PI * freqs * out.amp_hi)) if out.amp_hi.size else 0.0
+    return OpAmpMeasure(
+        label=amp.label,
+        output=out_span,
+        window=output_window(part, plan.rails, float(sourced), float(sunk)),
+        input=span(plus),
+        input_window=input_window(part, plan.rails),
+        slew_needed=slew,
+        slew_available=part.slew,
+        current_needed=needed,
+        current_available=part.output_current,
+    )
+
+
+def crossed_always(switching, signal, invert: bool) -> tuple[bool, bool]:
+    """(low, high): the input crosses the threshold into each state at every joint corner and
+    band frequency. At one corner the input swings dc +/- a; dc - a >= lo at every corner, so
+    its top dc + a is at least lo + 2 a_lo (and its bottom at most hi - 2 a_lo): the worst
+    corner's excursion, per frequency, against the threshold's worst corner."""
+    to_high, to_low = switching.thresholds
+    if isinstance(signal, Signal):
+        top, bottom = signal.lo + 2 * signal.amp_lo, signal.hi - 2 * signal.amp_lo
+    else:  # a differential source: its common-mode range
+        top = bottom = np.array([signal.common[0], signal.common[1]])
+        top, bottom = np.min(top), np.max(bottom)
+    if invert:
+        return bool(np.all(top > to_low[1])), bool(np.all(bottom < to_high[0]))
+    return bool(np.all(bottom < to_low[0])), bool(np.all(top > to_high[1]))
+
+
+def saturated_stage(
+    plan: StagePlan, v: dict, signal, rise: float = 0.0, nominal: bool = False, hot_rise: float = 0.0
+) -> tuple[StageMeasure, Signal]:
+    """A comparator-like stage: switch levels, thresholds and the two-level signal it passes on."""
+    incoming = signal.span if isinstance(signal, Signal) else (signal.common[0], signal.common[1])
+    part = plan.part
+    offset = 0.0 if nominal else part.offset_at(25.0 + rise)
+    bias = 0.0 if nominal else bias_at(part, 25.0 + hot_rise)
+    switching = plan.block.switch(v, plan.flags, part, plan.rails, incoming, offset=offset, bias=bias)
+    (low_min, low_max), (high_min, high_max) = switching.levels
+    reach_low, reach_high = switching.reaches
+    top = high_max if reach_high else low_max
+    bottom = low_min if reach_low else high_min
+    amp = OpAmpMeasure(
+        label="comparator",
+        output=(bottom, top),
+        window=(low_min, high_max),
+        input=switching.input_span,
+        input_window=input_window(plan.part, plan.rails),
+        slew_needed=0.0,
+        slew_available=plan.part.slew,
+        current_needed=switching.current,
+        current_available=plan.part.output_current,
+    )
+    measure = StageMeasure(
+        index=plan.index,
+        stage=plan.stage,
+        output=(bottom, top),
+        nominal=(bottom, top),
+        opamps=(amp,),
+        window=(low_min, high_max),
+        supply=plan.rails.span_range,
+        fed_clipped=getattr(signal, "fed_clipped", False),
+        saturated=True,
+        thresholds=switching.thresholds,
+        reaches=switching.reaches,
+        input_differential=float(
+            np.max(saturated_differential(plan.stage.block, v, plan.flags, incoming, switching.levels))
+        ),
+        always=crossed_always(switching, signal, bool(plan.flags.get("invert"))),
+    )
+    freqs_shape = np.shape(signal.hi) if isinstance(signal, Signal) else (1,)
+    zero = np.zeros(freqs_shape)
+    passed = Signal(
+        hi=zero + top,
+        lo=zero + bottom,
+        amp_lo=zero,
+        amp_hi=zero,
+        fed_clipped=getattr(signal, "fed_clipped", False),
+    )
+    return measure, passed

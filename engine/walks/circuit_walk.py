@@ -1,0 +1,592 @@
+"""The chain walked once per drawn circuit: the statistical methods' engine (rss, montecarlo).
+
+A row j is one built circuit: its component values, each op amp's signed offset and bias, its
+rails and its temperature. Every toleranced quantity is a column of a deviate matrix D (J, K) with
+d = +/-1 at the ends of its tolerance:
+
+    value    = nominal (1 + tol d_tol) (1 + tempco dT d_tc)       dT = |T - 25 C| of the row
+    offset   = offset d_os + offset_drift dT d_dr      bias = hot bias d_b (part_limits)
+    rail     = nominal (1 + tol d)                      (positive and negative rails apart)
+    net      = value (1 + tol d_tol) (1 + tempco dT d_tc)   (one column per net, every stage's)
+               ratiometric: fraction (1 + tol d_tol) (1 + tempco dT d_tc) x its rail's positive
+               (the very column of that rail, so its windows and the net move together)
+
+The signal stays the operating envelope (both ends of the source ranges, +/- the AC peak, every
+frequency evaluated), carried per row as Signal arrays (J, F) with no reduction over rows: for one
+circuit the bound formulas of propagation.py are exact. Offsets and bias enter as a signed shift.
+A row whose stage leaves the linear regime passes its output clamped to its own window.
+
+What drives each stage is the row's own: the source impedance, a saturated stage's output
+resistance, or the Thevenin impedance of the passive stage before it per row and frequency
+(complex, blocks/passive.py), exact for the circuit. Stages form a tree (`from`): each row of a
+stage is fed its parent's same row, and an output is loaded by every stage it feeds. The
+conductance a stage's input presents is a single number in the block interface; it is taken at
+its worst over the tolerance, as the corners method takes it, so a row never depends on the other
+rows beside it.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+from functools import cached_property
+
+import numpy as np
+
+from railroom.engine.circuit.blocks.base import InputLoad
+from railroom.engine.verdict.margins import load_currents, one_load, opamp_margins, output_drops
+from railroom.engine.circuit.model import Chain
+from railroom.engine.circuit.opamp import TWO_PI, inverse_open_loop, laplace_grid
+from railroom.engine.circuit.part_limits import (
+    curve_level,
+    differential_margin,
+    hot_bias,
+    saturated_differential,
+)
+from railroom.engine.walks.preparation import StagePlan
+from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, loaded_bounds, node_bounds
+from railroom.engine.verdict.results import StageResult
+from railroom.engine.walks.bounds_walk import (
+    passive_output,
+    plan_parents,
+    shows_input_of,
+    stage_loads,
+    tree_children,
+)
+from railroom.engine.circuit.model import NetValue
+from railroom.engine.circuit.nets import used_nets
+
+SATURATED_CHECKS = ("input-high", "input-low", "current")
+
+
+@dataclass(frozen=True)
+class Variable:
+    """One column of the deviate matrix."""
+
+    stage: int | None  # plan index (1-based); None for rails
+    quantity: str  # field name, "offset", "bias", or "rails.<name>.positive|negative"
+    kind: str  # tolerance | tempco | offset | drift | bias | rail
+    scale: float  # the deviation at d = 1: a fraction, or volts / amperes / V per C
+    amp: int = 0  # op amp index inside the stage (offset, drift, bias)
+
+    @property
+    def label(self) -> str:
+        """The quantity as a user names it: the stage field, the part's offset, or the rail."""
+        if self.stage is None:
+            return self.quantity
+        return f"stage.{self.stage}.{self.quantity}"
+
+
+@dataclass(frozen=True)
+class Layout:
+    """Everything fixed across rows: plans, the frequencies walked, columns, worst-case figures."""
+
+    chain: Chain
+    plans: list[StagePlan]
+    freqs: np.ndarray
+    variables: tuple[Variable, ...]
+    loads: tuple[tuple[InputLoad, ...], ...]  # per stage what each stage it feeds draws (worst)
+    amps: tuple[int, ...]  # op amps per stage
+    corner: tuple[StageResult, ...]  # corners results: thresholds and reaches of saturated stages
+
+    def column(self, stage: int | None, quantity: str, kind: str, amp: int = 0) -> int | None:
+        return self.columns.get((stage, quantity, kind, amp))
+
+    @cached_property
+    def columns(self) -> dict[tuple, int]:
+        """(stage, quantity, kind, amp) -> its first column: looked up per stage and chunk."""
+        found: dict[tuple, int] = {}
+        for k, var in enumerate(self.variables):
+            found.setdefault((var.stage, var.quantity, var.kind, var.amp), k)
+        return found
+
+
+@dataclass(frozen=True)
+class StageDraws:
+    """Per-row results of one stage: arrays of shape (J,)."""
+
+    out_lo: np.ndarray
+    out_hi: np.ndarray
+    amps: tuple[dict[str, np.ndarray], ...]  # per op amp: check margins, "out"/"in" spans
+    margins: dict[str, np.ndarray]  # per check: least over the stage's op amps
+    linear: np.ndarray  # bool: no linear check violated (saturated: inputs, current)
+
+
+def build_layout(
+    chain: Chain, plans: list[StagePlan], freqs: np.ndarray, prepared, corner: list[StageResult]
+) -> Layout:
+    """Columns for every toleranced quantity; drive and load figures from the corners pass."""
+    variables: list[Variable] = []
+    amps = []
+    for plan, response in zip(plans, prepared.responses):
+        for name, q in plan.quantities.items():
+            if isinstance(q, NetValue):
+                continue  # a shared column (below), never the stage's own
+            if q.tolerance:
+                variables.append(Variable(plan.index, name, "tolerance", q.tolerance))
+            if q.tempco:
+                variables.append(Variable(plan.index, name, "tempco", q.tempco))
+        count = (1 if plan.block.saturates else len(response.opamps)) if plan.part else 0
+        amps.append(count)
+        for j in range(count):
+            part = plan.part
+            variables += [
+                Variable(plan.index, "offset", "offset", part.offset, j),
+                Variable(plan.index, "offset", "drift", part.offset_drift, j),
+                Variable(plan.index, "bias", "bias", hot_bias(part, chain.conditions), j),
+            ]
+    for rails in chain.rails.values():
+        if rails.tolerance:
+            variables += [
+                Variable(None, f"rails.{rails.name}.positive", "rail", rails.tolerance),
+                Variable(None, f"rails.{rails.name}.negative", "rail", rails.tolerance),
+            ]
+    for name in used_nets(plans):
+        net = chain.nets[name]
+        q = net.value if net.value is not None else net.fraction
+        if q is not None:
+            variables += [
+                Variable(None, f"nets.{name}", "tolerance", q.tolerance or 0.0),
+                Variable(None, f"nets.{name}", "tempco", q.tempco or 0.0),
+            ]
+    variables = [v for v in variables if v.scale]
+    children = tree_children(plan_parents(plans))
+    loads = [stage_loads(prepared.responses, children[k]) for k in range(len(plans))]
+    return Layout(
+        chain,
+        plans,
+        np.asarray(freqs, dtype=float),
+        tuple(variables),
+        tuple(loads),
+        tuple(amps),
+        tuple(corner),
+    )
+
+
+def with_freqs(layout: Layout, freqs: np.ndarray) -> Layout:
+    from dataclasses import replace
+
+    return replace(layout, freqs=np.asarray(freqs, dtype=float))
+
+
+def _deviate(layout: Layout, D: np.ndarray, stage, quantity, kind, amp=0) -> np.ndarray | float:
+    k = layout.column(stage, quantity, kind, amp)
+    return 0.0 if k is None else D[:, k]
+
+
+def stage_values(layout: Layout, plan: StagePlan, D: np.ndarray, dT: np.ndarray) -> dict:
+    """The row's component values as (J, 1) columns."""
+    rows = D.shape[0]
+    values = {}
+    for name, q in plan.quantities.items():
+        if isinstance(q, NetValue):
+            values[name] = np.broadcast_to(net_rows(layout, q.net, D, dT), (rows,))[:, None]
+            continue
+        tol = _deviate(layout, D, plan.index, name, "tolerance")
+        tc = _deviate(layout, D, plan.index, name, "tempco")
+        value = q.value * (1 + (q.tolerance or 0.0) * tol) * (1 + (q.tempco or 0.0) * dT * tc)
+        values[name] = np.broadcast_to(np.asarray(value, dtype=float), (rows,))[:, None]
+    return values
+
+
+def net_rows(layout: Layout, name: str, D: np.ndarray, dT: np.ndarray) -> np.ndarray | float:
+    """The net's value per row: its own columns, and a ratiometric net's rail column."""
+    net = layout.chain.nets[name]
+    q = net.value if net.value is not None else net.fraction
+    assert q is not None
+    tol = _deviate(layout, D, None, f"nets.{name}", "tolerance")
+    tc = _deviate(layout, D, None, f"nets.{name}", "tempco")
+    value = q.value * (1 + (q.tolerance or 0.0) * tol) * (1 + (q.tempco or 0.0) * dT * tc)
+    if net.rail is not None:
+        rails = layout.chain.rails[net.rail]
+        value = (
+            value
+            * rails.positive
+            * (1 + rails.tolerance * _deviate(layout, D, None, f"rails.{rails.name}.positive", "rail"))
+        )
+    return value
+
+
+def row_rails(layout: Layout, plan: StagePlan, D: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    rails = plan.rails
+    pos = rails.positive * (
+        1 + rails.tolerance * _deviate(layout, D, None, f"rails.{rails.name}.positive", "rail")
+    )
+    neg = rails.negative * (
+        1 + rails.tolerance * _deviate(layout, D, None, f"rails.{rails.name}.negative", "rail")
+    )
+    shape = (D.shape[0],)
+    return np.broadcast_to(pos, shape), np.broadcast_to(neg, shape)
+
+
+def row_errors(layout: Layout, plan: StagePlan, D: np.ndarray, dT: np.ndarray):
+    """Signed offsets (J, n) and bias currents (J, n) of the stage's op amps."""
+    part, count, rows = plan.part, layout.amps[plan.index - 1], D.shape[0]
+    offsets, bias = np.zeros((rows, count)), np.zeros((rows, count))
+    for j in range(count):
+        offsets[:, j] = part.offset * _deviate(
+            layout, D, plan.index, "offset", "offset", j
+        ) + part.offset_drift * dT * _deviate(layout, D, plan.index, "offset", "drift", j)
+        bias[:, j] = hot_bias(part, layout.chain.conditions) * _deviate(
+            layout, D, plan.index, "bias", "bias", j
+        )
+    return offsets, bias
+
+
+def shift_of(node, offsets: np.ndarray, bias: np.ndarray) -> np.ndarray | float:
+    """A node's output error for signed offsets and bias (error gains of blocks/base.Node)."""
+    if node.offset_gain is None:
+        return 0.0
+    total = 0.0
+    for j in range(offsets.shape[1]):  # op amps of the stage, not draws
+        total = total + node.offset_gain[:, j] * offsets[:, j] + node.bias_gain[:, j] * bias[:, j]
+    return total
+
+
+def start_signal(chain: Chain, freqs: np.ndarray, rows: int):
+    """The source per row, column-major and with one amplitude array (propagation.py, Speed)."""
+    source = chain.source
+    if source.differential:
+        return DifferentialSignal(source.level, source.difference, source.amplitude)
+    ones = np.ones((rows, len(freqs)), order="F")
+    a = source.amplitude
+    amplitude = a * ones
+    return Signal(
+        hi=(source.level[1] + a) * ones, lo=(source.level[0] - a) * ones, amp_lo=amplitude, amp_hi=amplitude
+    )
+
+
+def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | None = None) -> list[StageDraws]:
+    """Every stage for every row of D (see the module docstring). `record` collects the band
+    indices where each checked extreme falls (see decisive_freqs)."""
+    rows = D.shape[0]
+    D = np.asfortranarray(D)  # each quantity's column contiguous: read column by column below
+    grid = laplace_grid(layout.freqs)
+    s = per_row(grid, rows)
+    source = start_signal(layout.chain, layout.freqs, rows)
+    parents = plan_parents(layout.plans)
+    children = tree_children(parents)
+    results: list[StageDraws] = []
+    inverse_gains: dict = {}  # 1/A(s) per row, once per part: stages share parts
+    passed: dict = {}  # stage -> (the signal it passes on, what drives the stages it feeds)
+    pending: dict[int, tuple] = {}  # passive stage -> what settles its shown span once its stage is walked
+    for k, plan in enumerate(layout.plans):
+        parent = parents[k]
+        if parent < 0:
+            fed, drive, before = source, layout.chain.source.impedance, None
+        else:
+            fed, drive, before = passed[parent]
+        v = stage_values(layout, plan, D, dT)
+        response = None
+        if plan.block.saturates:
+            draws, signal = saturated_draws(layout, k, v, D, fed)
+            out_drive = plan.part.output_resistance if plan.part else 0.0
+        else:
+            if plan.part not in inverse_gains:
+                inverse_gains[plan.part] = per_row(inverse_open_loop(plan.part, grid), rows)
+            ig = inverse_gains[plan.part]
+            response = plan.block.respond(v, s, ig, drive, parent < 0 and layout.chain.source.differential)
+            draws, signal = linear_draws(layout, k, response, v, D, dT, fed, record)
+            out_drive = (
+                response.output_impedance
+                if response.output_impedance is not None
+                else response.output_resistance
+            )
+        if parent in pending:
+            if shows_input_of(layout.plans, {parent: before, k: response}, parent, k):
+                # the passive stage before shows this stage's input terminal (stage_walk)
+                results[parent] = shown_input(layout, k, response, v, D, dT, fed, results[parent])
+            else:  # or its output loaded by this stage's conductance
+                _, passive, values, feeding = pending[parent]
+                results[parent] = shown_loaded(layout, parent, passive, values, feeding, results[parent])
+            del pending[parent]
+        if response is not None and passive_output(plan, response, layout.loads[k]):
+            pending[k] = (k, response, v, fed)
+        passed[k] = (signal, out_drive, response)
+        if parent >= 0 and k == children[parent][-1]:
+            del passed[parent]  # every stage it feeds is walked: its rows are no longer needed
+        results.append(draws)
+    return results
+
+
+def shown_input(layout: Layout, k: int, response, v, D, dT, signal, passive: StageDraws) -> StageDraws:
+    """The passive stage's draws with its span read at stage k's input terminal, per row."""
+    plan, rows = layout.plans[k], D.shape[0]
+    if plan.part is not None:
+        offsets, bias = row_errors(layout, plan, D, dT)
+    else:
+        offsets = bias = np.zeros((rows, max(len(response.opamps), 1)))
+    node = bounds_of(response.terminal, v, signal, offsets, bias, {})
+    return replace(passive, out_lo=band_min(node.lo), out_hi=band_max(node.hi))
+
+
+def shown_loaded(layout: Layout, k: int, response, v, signal, passive: StageDraws) -> StageDraws:
+    """The passive stage's draws with its span loaded by the next stage's input conductance
+    (propagation.loaded_bounds), where the next stage does not report its input terminal."""
+    shown = loaded_bounds(response.output, v, signal, response.output_impedance, one_load(layout.loads[k]))
+    return replace(passive, out_lo=band_min(shown.lo), out_hi=band_max(shown.hi))
+
+
+def per_row(grid: np.ndarray, rows: int) -> np.ndarray:
+    """A (F+1,) grid over s as a column-major (rows, F+1) array when the rows outnumber the
+    frequencies: every (J, 1) x (J, F+1) product in the blocks then comes out column-major too
+    (numpy keeps the memory order of the full-size operand), so its inner loops run over the
+    rows (propagation.py, Speed). The values are the grid's, repeated; answers do not change."""
+    if rows <= len(grid):
+        return grid
+    return np.asfortranarray(np.broadcast_to(grid, (rows, len(grid))))
+
+
+def decisive_freqs(layout: Layout) -> np.ndarray:
+    """The band frequencies where some checked extreme falls for the nominal circuit and for the
+    all-high and all-low rows, plus both band ends. A row's extreme over the band sits at a band
+    end or at a response peak; a peak moves with the row's values, but the extreme is flat there,
+    so the error is second order in the shift (and the value is never above the full grid's)."""
+    freqs = layout.freqs
+    if len(freqs) <= 2:
+        return freqs
+    K = len(layout.variables)
+    D = np.vstack([np.zeros(K), np.ones(K), -np.ones(K)])
+    record: list = []
+    walk_draws(layout, D, np.full(3, decisive_rise(layout)), record)
+    return decisive_from(layout, record)
+
+
+def decisive_rise(layout: Layout) -> float:
+    low, high = layout.chain.conditions.temperature
+    return max(abs(low - 25.0), abs(high - 25.0))
+
+
+def decisive_from(layout: Layout, record: list) -> np.ndarray:
+    """The band frequencies a decisive walk's `record` names (see decisive_freqs)."""
+    freqs = layout.freqs
+    picked = np.unique(np.concatenate([np.ravel(r) for r in record] + [[0, len(freqs) - 1]]))
+    return freqs[picked.astype(int)]
+
+
+def head_rows(draws: StageDraws, rows: int) -> StageDraws:
+    """The first `rows` rows of a stage's draws (views)."""
+
+    def cut(found: dict) -> dict:
+        return {k: (cut(x) if isinstance(x, dict) else x[:rows]) for k, x in found.items()}
+
+    return StageDraws(
+        draws.out_lo[:rows],
+        draws.out_hi[:rows],
+        tuple(cut(a) for a in draws.amps),
+        cut(draws.margins),
+        draws.linear[:rows],
+    )
+
+
+def row_temperatures(chain: Chain, uniform: np.ndarray) -> np.ndarray:
+    """dT = |T - 25| for T uniform over the temperature range (u in [0, 1))."""
+    low, high = chain.conditions.temperature
+    return np.abs(low + (high - low) * uniform - 25.0)
+
+
+def slew_needed(freqs: np.ndarray, amp_hi: np.ndarray) -> np.ndarray:
+    """Largest 2 pi f a(f) over the band: the sine's steepest slope (V/s)."""
+    return band_max(TWO_PI * freqs * amp_hi) if amp_hi.shape[-1] else np.zeros(len(amp_hi))
+
+
+def band_max(x: np.ndarray) -> np.ndarray:
+    """Largest over the band (last axis). Column by column: numpy reduces a short last axis of a
+    tall array some 50 times slower than it compares two columns."""
+    if x.shape[-1] > 16:
+        return x.max(axis=-1)
+    found = x[..., 0]
+    for column in range(1, x.shape[-1]):
+        found = np.maximum(found, x[..., column])
+    return found
+
+
+def band_min(x: np.ndarray) -> np.ndarray:
+    return -band_max(-x)
+
+
+def bounds_of(node, v, signal, offsets, bias, known: dict):
+    """The node's per-row bounds, found once per stage (`known`: see stage_walk.bounds_once)."""
+    if id(node) not in known:
+        known[id(node)] = (node, node_bounds(node, v, signal, 0.0, shift_of(node, offsets, bias)))
+    return known[id(node)][1]
+
+
+def opamp_draws(part, amp, v, signal, offsets, bias, freqs, load, pos, neg, record: list | None, known: dict):
+    """One op amp's margins per row (the per-row twin of stage_walk.opamp_measure)."""
+    out = bounds_of(amp.output, v, signal, offsets, bias, known)
+    plus = bounds_of(amp.plus, v, signal, offsets, bias, known)
+    current = bounds_of(amp.current, v, signal, offsets, bias, known)
+    out_hi, out_lo = band_max(out.hi), band_min(out.lo)
+    if record is not None:
+        record += [
+            out.hi.argmax(-1),
+            out.lo.argmin(-1),
+            plus.hi.argmax(-1),
+            plus.lo.argmin(-1),
+            np.maximum(np.abs(current.hi), np.abs(current.lo)).argmax(-1),
+            (freqs * out.amp_hi).argmax(-1),
+        ]
+    sourced, sunk = load_currents(band_max(current.hi), band_min(current.lo), out_hi, out_lo, load)
+    drop_high, drop_low = output_drops(part, sourced, sunk)
+    low, high = neg + part.output_headroom[1] + drop_low, pos - part.output_headroom[0] - drop_high
+    in_hi, in_lo = band_max(plus.hi), band_min(plus.lo)
+    margins = opamp_margins(
+        part, pos, neg, out_hi, out_lo, in_hi, in_lo, sourced, sunk, slew_needed(freqs, out.amp_hi)
+    )
+    spans = {
+        "out-low": out_lo,
+        "out-high": out_hi,
+        "in-low": in_lo,
+        "in-high": in_hi,
+        "window-low": low,
+        "window-high": high,
+    }
+    return margins, spans
+
+
+def stage_margins(amps: list[dict], plan: StagePlan, pos, neg) -> dict[str, np.ndarray]:
+    margins: dict[str, np.ndarray] = {}
+    for found in amps:
+        for check, value in found.items():
+            margins[check] = value if check not in margins else np.minimum(margins[check], value)
+    if plan.part is not None:
+        span = pos - neg
+        margins["supply"] = np.minimum(span - plan.part.supply[0], plan.part.supply[1] - span)
+    return margins
+
+
+def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None):
+    plan = layout.plans[k]
+    rows = D.shape[0]
+    if plan.part is not None:
+        offsets, bias = row_errors(layout, plan, D, dT)
+    else:
+        offsets = bias = np.zeros((rows, len(response.opamps)))
+    known: dict = {}
+    out = bounds_of(response.output, v, signal, offsets, bias, known)
+    pos, neg = row_rails(layout, plan, D)
+    found = [
+        opamp_draws(
+            plan.part,
+            amp,
+            v,
+            signal,
+            offsets,
+            bias,
+            layout.freqs,
+            layout.loads[k] if amp.output is response.output else (),
+            pos,
+            neg,
+            record,
+            known,
+        )
+        for amp in response.opamps
+    ]
+    margins = stage_margins([m for m, _ in found], plan, pos, neg)
+    out_hi, out_lo = band_max(out.hi), band_min(out.lo)
+    if record is not None:
+        record += [out.hi.argmax(-1), out.lo.argmin(-1)]
+    window = (found[-1][1]["window-low"], found[-1][1]["window-high"]) if found else None
+    if plan.block.window_only:
+        window = (v["low"][:, 0], v["high"][:, 0])
+        margins["input-high"], margins["input-low"] = window[1] - out_hi, out_lo - window[0]
+    linear = np.ones(rows, dtype=bool)
+    for check, value in margins.items():
+        if check != "supply":
+            linear &= value >= 0
+    passed = Signal(hi=out.hi, lo=out.lo, amp_lo=out.amp_lo, amp_hi=out.amp_hi)
+    if window is not None and not linear.all():
+        passed = clamp_rows(passed, window, ~linear)
+    draws = StageDraws(out_lo, out_hi, tuple(m | {"spans": s} for m, s in found), margins, linear)
+    return draws, passed
+
+
+def clamp_rows(signal: Signal, window, rows: np.ndarray) -> Signal:
+    """What each clipping row passes on: its output held inside its own window."""
+    low = np.broadcast_to(window[0], rows.shape)[:, None]
+    high = np.broadcast_to(window[1], rows.shape)[:, None]
+    half = np.maximum((high - low) / 2.0, 0.0)
+    pick = rows[:, None]
+    amp_lo = np.where(pick, np.minimum(signal.amp_lo, half), signal.amp_lo)
+    amp_hi = (
+        np.where(pick, np.minimum(signal.amp_hi, half), signal.amp_hi)
+        if signal.amp_lo is not signal.amp_hi
+        else amp_lo
+    )  # one stays one (propagation.py)
+    return Signal(
+        hi=np.where(pick, np.clip(signal.hi, low, high), signal.hi),
+        lo=np.where(pick, np.clip(signal.lo, low, high), signal.lo),
+        amp_lo=amp_lo,
+        amp_hi=amp_hi,
+    )
+
+
+def saturated_levels_rows(part, pos, neg, conductance):
+    """opamp.saturated_levels for one circuit per row: the loaded level at each rail."""
+
+    def loaded(level):
+        current = np.minimum(
+            np.abs(level) * conductance / (1 + part.output_resistance * conductance), part.output_current
+        )
+        return level - np.sign(level) * part.output_resistance * current
+
+    high_ideal, low_ideal = pos - part.output_headroom[0], neg + part.output_headroom[1]
+    if part.output_headroom_curve:
+        return curve_level(part, low_ideal, conductance, False), curve_level(
+            part, high_ideal, conductance, True
+        )
+    return np.maximum(loaded(low_ideal), low_ideal), np.minimum(loaded(high_ideal), high_ideal)
+
+
+def saturated_draws(layout: Layout, k: int, v, D, signal):
+    """A saturated-by-design stage per row: levels from the row's rails, inputs against the window.
+    Blocks without a single `threshold` field use the corners thresholds and reaches."""
+    plan, corner = layout.plans[k], layout.corner[k].measure
+    part, rows = plan.part, D.shape[0]
+    pos, neg = row_rails(layout, plan, D)
+    conductance = 1.0 / v["load"][:, 0] if "load" in v else np.zeros(rows)
+    low, high = saturated_levels_rows(part, pos, neg, conductance)
+    if isinstance(signal, Signal):
+        sig_lo, sig_hi = band_min(signal.lo), band_max(signal.hi)
+    else:
+        sig_lo, sig_hi = np.full(rows, signal.common[0]), np.full(rows, signal.common[1])
+    if "threshold" in v:
+        thr_lo = thr_hi = v["threshold"][:, 0]
+        above, below = sig_hi > thr_hi, sig_lo < thr_lo
+        reach_low, reach_high = (above, below) if plan.flags.get("invert") else (below, above)
+    else:
+        (rise_lo, rise_hi), (fall_lo, fall_hi) = corner.thresholds
+        thr_lo, thr_hi = min(rise_lo, fall_lo), max(rise_hi, fall_hi)
+        reach_low, reach_high = (np.full(rows, r) for r in corner.reaches)
+    in_lo, in_hi = np.minimum(sig_lo, thr_lo), np.maximum(sig_hi, thr_hi)
+    margins = {
+        "input-high": pos - part.input_headroom[0] - in_hi,
+        "input-low": in_lo - (neg + part.input_headroom[1]),
+        "current": part.output_current - np.maximum(np.abs(high), np.abs(low)) * conductance,
+    }
+    margins.update(
+        differential_margin(
+            part,
+            saturated_differential(
+                plan.stage.block, v, plan.flags, (sig_lo, sig_hi), ((low, low), (high, high))
+            ),
+        )
+    )
+    amp = dict(margins)
+    margins = stage_margins([margins], plan, pos, neg)
+    linear = np.ones(rows, dtype=bool)
+    for check in SATURATED_CHECKS:
+        linear &= margins[check] >= 0
+    top = np.where(reach_high, high, low)
+    bottom = np.where(reach_low, low, high)
+    zero = np.zeros((rows, len(layout.freqs)), order="F")  # column-major: propagation.py, Speed
+    spans = {
+        "out-low": bottom,
+        "out-high": top,
+        "in-low": in_lo,
+        "in-high": in_hi,
+        "window-low": low,
+        "window-high": high,
+    }
+    passed = Signal(hi=zero + top[:, None], lo=zero + bottom[:, None], amp_lo=zero, amp_hi=zero)
+    return StageDraws(bottom, top, (amp | {"spans": spans},), margins, linear), passed

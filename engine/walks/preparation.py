@@ -1,0 +1,130 @@
+"""From a loaded chain to what the methods evaluate: parts resolved, values spread, grid built."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from collections.abc import Mapping
+
+import numpy as np
+
+from railroom.engine.circuit.blocks import BLOCKS
+from railroom.engine.circuit.blocks.base import Block
+from railroom.engine.circuit.model import Chain, InputError, Part, Problem, Rails, Stage
+from railroom.engine.formats.values import Quantity, visible
+
+POINTS_PER_DECADE = 16
+
+
+@dataclass(frozen=True)
+class StagePlan:
+    index: int
+    stage: Stage
+    block: Block
+    part: Part | None
+    rails: Rails
+    quantities: Mapping[str, Quantity]  # every numeric field, flattened ("inputs.1.r")
+    flags: Mapping[str, object]  # booleans such as invert
+    path: str = "<chain>"  # the chain file, for located messages
+
+
+def stage_quantities(stage: Stage) -> dict[str, Quantity]:
+    found: dict[str, Quantity] = {}
+    for key, value in stage.values.items():
+        if isinstance(value, Quantity):
+            found[key] = value
+        elif key == "inputs":
+            for i, item in enumerate(value or [], start=1):
+                found[f"inputs.{i}.r"] = item["r"]
+                found[f"inputs.{i}.v"] = item["v"]
+    if stage.load is not None:
+        found["load"] = stage.load
+        if stage.load_to is not None:
+            found["load_to"] = stage.load_to  # a fixed voltage the load returns to (blocks.base)
+    return found
+
+
+def plan_chain(chain: Chain, parts: Mapping[str, Part]) -> list[StagePlan]:
+    """Resolve every stage's part and rails; unknown parts are located problems."""
+    problems = []
+    plans = []
+    for index, stage in enumerate(chain.stages, start=1):
+        block = BLOCKS[stage.block]
+        part = None
+        if block.uses_part:
+            part = parts.get(stage.part or "")
+            if part is None:
+                problems.append(
+                    unknown_part(
+                        chain.path, stage.lines.get("part", stage.line), index, stage.part or "", parts
+                    )
+                )
+        flags = {k: v for k, v in stage.values.items() if isinstance(v, bool)}
+        plans.append(
+            StagePlan(
+                index, stage, block, part, chain.rails_for(stage), stage_quantities(stage), flags, chain.path
+            )
+        )
+    if problems:
+        raise InputError(problems)
+    return plans
+
+
+def unknown_part(path: str, line: int | None, index: int, name: str, parts: Mapping[str, Part]) -> Problem:
+    broken = getattr(parts, "broken", {}).get(name)
+    if broken is not None:  # presets.PartTable: its latest definition failed to read
+        where = f"{broken.file}:{broken.line}" if broken.line else broken.file
+        return Problem(
+            path,
+            line,
+            f"stage.{index}.part",
+            f"part {name!r} is defined in {where}, which could not be read "
+            f"({broken.field}: {visible(broken.message, 120)}); no other "
+            "definition is used in its place",
+        )
+    near = _near(name, parts)
+    return Problem(
+        path,
+        line,
+        f"stage.{index}.part",
+        f"unknown part {name!r}" + (f"; did you mean {near!r}?" if near else "; see `railroom presets list`"),
+    )
+
+
+def _near(name: str, parts: Mapping[str, Part]) -> str | None:
+    import difflib
+
+    found = difflib.get_close_matches(name, list(parts), n=1, cutoff=0.5)
+    return found[0] if found else None
+
+
+def spread(q: Quantity, temperature_rise: float, default_tolerance: float = 0.0) -> tuple[float, float]:
+    """The two ends of a value: tolerance and +/- tempco over the worst temperature rise."""
+    tol = q.tolerance if q.tolerance is not None else 0.0
+    drift = (q.tempco or 0.0) * temperature_rise
+    ends = (q.value * (1 - tol) * (1 - drift), q.value * (1 + tol) * (1 + drift))
+    return (min(ends), max(ends))
+
+
+def frequency_grid(chain: Chain, critical: list[np.ndarray], amplitude: float) -> np.ndarray:
+    """Band frequencies: log-spaced with both ends, plus every block's possible peak inside it."""
+    low, high = chain.source.band
+    if amplitude == 0 or high <= low:
+        return np.array([high])
+    count = max(8, int(np.ceil(np.log10(high / low) * POINTS_PER_DECADE)) + 1)
+    grid = np.geomspace(low, high, count)
+    extra = np.concatenate([np.ravel(c) for c in critical]) if critical else np.empty(0)
+    extra = extra[(extra > low) & (extra < high)]
+    return np.unique(np.concatenate((grid, extra)))
+
+
+def band_grid(chain: Chain, plans) -> np.ndarray:
+    from railroom.engine.methods.corners import corner_values
+
+    rise = chain.conditions.worst_temperature_rise
+    critical = []
+    for p in plans:
+        if not p.block.saturates:
+            v = corner_values(p, rise)
+            # the ideal-op-amp peaks and the real ones (finite gain-bandwidth)
+            critical += [p.block.critical_frequencies(v), p.block.real_critical_frequencies(v, p.part)]
+    return frequency_grid(chain, critical, chain.source.amplitude)
