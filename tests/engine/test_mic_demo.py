@@ -28,9 +28,11 @@ DIVIDER = 100e3 / (100e3 + 2.2e3)
 GAIN = 1 + 101e3 / 2178
 OFFSET = 2e-3 + 5e-6 * 25  # the part's offset and drift at 50 C, times DC gain 1
 PEAK = 20e-3 * DIVIDER * GAIN
-TOP = 1.65 + OFFSET + PEAK
-BOTTOM = 1.65 - OFFSET - PEAK
-SWING = 3.3 * 0.97 - 30e-3 - 40 * (TOP / 10e3 + PEAK / 102.2e3)  # 40 ohm: 10k to 0 V, rf + rg
+RAIL = 3.3 * 0.97  # the lowest rail; the bias is half of it through a 0.2 % divider (a net)
+BIAS = (0.5 * 0.998 * 3.3 * 0.97, 0.5 * 1.002 * 3.3 * 1.03)
+TOP = 0.5 * 1.002 * RAIL + OFFSET + PEAK  # at the lowest rail, the bias at its top
+SWING = RAIL - 30e-3 - 40 * (TOP / 10e3 + PEAK / 102.2e3)  # 40 ohm: 10k to 0 V, rf + rg
+LOWEST = BIAS[0] - 2 * OFFSET - PEAK  # at the converter, after both op amps
 F0 = 1 / (2 * math.pi * 10e3 * math.sqrt(2.2e-9 * 1.1e-9))
 Q = math.sqrt(1e8 * 2.2e-9 * 1.1e-9) / (1.1e-9 * 20e3)
 
@@ -40,10 +42,14 @@ def test_hand_figures_are_the_ones_printed():
         f"{CORNER:.2f} Hz": CORNER,
         f"{1 / math.sqrt(1 + (CORNER / 100) ** 2):.4f} at 100 Hz": None,
         f"{DIVIDER:.4f}": DIVIDER,
+        f"{BIAS[0]:.3f} V to {BIAS[1]:.3f} V": None,
         f"{GAIN:.2f} (nominal {1 + 100 / 2.2:.2f})": GAIN,
         f"{OFFSET * 1e3:.3f} mV offset": OFFSET,
         f"{PEAK:.3f} V |": PEAK,
-        f"{BOTTOM:.3f} V to {TOP:.3f} V": None,
+        f"{TOP:.3f} V at most": None,
+        f"{RAIL:.3f} V": None,
+        f"{LOWEST + PEAK + 2 * OFFSET:.3f} V - 2 x {OFFSET * 1e3:.3f} mV": None,
+        f"{LOWEST:.3f} V each side": None,
         f"{SWING:.3f} V: room {SWING - TOP:.3f} V": None,
         f"{2 * math.pi * 8e3 * PEAK * 1e-6:.3f} V/us": None,
         f"{F0 / 1e3:.2f} kHz, Q {Q:.3f}": None,
@@ -65,17 +71,22 @@ def test_engine_confirms_the_hand_calculation(capsys):
     # the gain stage: 1 + rf/rg in the band, 1 at DC (cg), its span and its room
     assert gain["gain"]["dc"] == pytest.approx([1, 1], rel=1e-4)
     assert gain["gain"]["band"][1] == pytest.approx(GAIN, rel=1e-3)
-    assert gain["output"]["max"] == pytest.approx(TOP, rel=1e-3)
-    assert gain["output"]["min"] == pytest.approx(BOTTOM, rel=1e-3)
-    assert gain["margins"]["output-high"] == pytest.approx(SWING - TOP, abs=2e-3)
-    assert gain["margins"]["output-high"] == pytest.approx(0.581, abs=5e-4)  # the README's 581 mV
+    assert coupling["output"]["min"] == pytest.approx(BIAS[0] - 20e-3 * DIVIDER, rel=1e-4)
+    assert coupling["output"]["max"] == pytest.approx(BIAS[1] + 20e-3 * DIVIDER, rel=1e-4)
+    assert gain["output"]["max"] == pytest.approx(BIAS[1] + OFFSET + PEAK, rel=1e-3)
+    assert gain["margins"]["output-high"] == pytest.approx(SWING - TOP, abs=1e-3)
+    assert gain["margins"]["output-high"] == pytest.approx(0.628, abs=5e-4)  # the README's 628 mV
     assert 0.6e6 - gain["margins"]["slew"] <= 2 * math.pi * 8e3 * PEAK
     # the low-pass: at most 1.006, the converter's room each side 0.719 V
     assert low_pass["gain"]["band"][1] == pytest.approx(1.006, abs=5e-4)
-    assert converter["margins"]["input-low"] == pytest.approx(0.719, abs=5e-4)
-    assert converter["margins"]["input-high"] == pytest.approx(0.719, abs=5e-4)
-    assert report["headroom_db"] == pytest.approx(4.21, abs=0.005)
-    assert "581 mV" in SECTION and "+4.21 dB" in SECTION and "6.3 %" in SECTION
+    assert converter["margins"]["input-low"] == pytest.approx(LOWEST, abs=1e-4)
+    assert converter["margins"]["input-high"] == pytest.approx(0.666, abs=5e-4)
+    assert report["headroom_db"] == pytest.approx(4.48, abs=0.005)
+    assert "628 mV" in SECTION and "+4.48 dB" in SECTION and "6.3 %" in SECTION
+    # the nets: half the rail, and the whole rail as the converter's window
+    nets = {n["name"]: n for n in report["nets"]}
+    assert nets["mid_rail"]["span"] == pytest.approx(list(BIAS), rel=1e-4)
+    assert nets["full_scale"]["span"] == pytest.approx([3.3 * 0.97, 3.3 * 1.03], rel=1e-6)
 
 
 def test_markdown_report_gives_the_gain_per_stage(capsys):
