@@ -382,3 +382,19 @@ def test_current_into_a_coupling_capacitor_is_its_ac_part_only(tmp_path):
     # the one-pole follower passes 1 / |1 + j f / gbw| = 0.995 of the 1 V at 100 kHz
     assert truth == pytest.approx(1e-3 / abs(1 + 1j * 100e3 / 1e6), rel=1e-4)
     assert truth <= needed <= (truth + 3e-3 / 1e3) * (1 + 1e-5)
+
+
+def test_a_load_returning_elsewhere_sets_the_dc_after_coupling(tmp_path):
+    # r = 100k to bias 0 V and load = 100k to load_to = 3.3 V: Millman's theorem gives the DC
+    # level (0 / 100k + 3.3 / 100k) / (1/100k + 1/100k) = 1.65 V, as the nodal reference does
+    stages = FOLLOWER.format(c="1u", r="100k", bias="0", part="generic-precision").replace(
+        'bias = "0"', 'bias = "0"\nload = "100k"\nload_to = "3.3"'
+    )
+    report = run(tmp_path, chain_text(stages, level='"0", "4"'))
+    ref = [
+        Stage("ac_coupling", {"c": 1e-6, "r": 100e3, "bias": 0.0}, load=100e3, load_to=3.3),
+        Stage("follower", opamp=OpAmp(10**6.5, 1.5e6)),
+    ]
+    truth = dc(ref, 2.0)[1]
+    assert truth == pytest.approx(1.65, rel=1e-6)
+    assert report["stages"][1]["output"]["nominal"] == pytest.approx([truth, truth], rel=1e-6)

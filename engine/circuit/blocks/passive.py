@@ -118,8 +118,16 @@ class AcCoupling(Block):
         sc = s * v["c"]
         den = 1.0 + sc * (r + drive)
         near = 1.0 + sc * drive
-        output = Node(transfers={"in": sc * r / den, "bias": bias_share * near / den})
-        far = Node(transfers={"bias": bias_share * np.ones((1, 1))})
+        # a load returning to `load_to`: Millman's bias' gains r' Vto / load (load_return)
+        to = {k: x * r for k, x in load_return(v).items()}
+        output = Node(
+            transfers={
+                "in": sc * r / den,
+                "bias": bias_share * near / den,
+                **{k: x * near / den for k, x in to.items()},
+            }
+        )
+        far = Node(transfers={"bias": bias_share * np.ones((1, 1)), **to})
         return BlockResponse(
             output=output,
             # in to the terminal through Zd, then 1/(s c) + r' to bias': share (1 + s c r') / den
