@@ -107,6 +107,7 @@ def analyse(
     from railroom.engine.circuit.part_limits import with_limit_cautions
 
     stages = with_limit_cautions(chain, plans, stages, prepared.responses)
+    stages = with_gains(stages, prepared)
     return ChainResult(
         chain=chain,
         method=method_name,
@@ -118,3 +119,13 @@ def analyse(
         chain_yield=chain_yield,
         rare=rare,
     )
+
+
+def with_gains(stages, prepared) -> list:
+    """Each stage's gain and gain from the source (engine/gains.py), over the corners."""
+    from railroom.engine.gains import stage_gains
+
+    return [
+        replace(s, measure=replace(s.measure, gain=own, gain_from_source=total))
+        for s, (own, total) in zip(stages, stage_gains(prepared))
+    ]

@@ -8,7 +8,8 @@ inputs) as ideal sources. Three right-hand sides per solve: the chain signal at 
 sources at their values, and the op amp errors. The swing windows, the next stage's input load and
 the envelope bounds per circuit follow the README's JSON report as the engine reads it; the
 circuit solution is independent of the blocks' feedback formulas. It covers the blocks of the
-bench chain: follower, noninverting, inverting, summing, divider, rc_lowpass, adc, comparator.
+bench chain: follower, noninverting (with or without cg), inverting, summing, divider,
+rc_lowpass, ac_coupling, adc, comparator.
 """
 
 from __future__ import annotations
@@ -83,11 +84,11 @@ def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float):
     val = {k: float(x) for k, x in v.items()}
     extra = sorted({k.rsplit(".", 1)[0] for k in val if k.startswith("inputs.")})
     returns = ["load_to"] if "load_to" in val else []
-    nodes = ["src", "plus", "minus", "out", "ref"] + [f"{k}.v" for k in extra] + returns
+    nodes = ["src", "plus", "minus", "out", "ref", "cg"] + [f"{k}.v" for k in extra] + returns
     opamps = block in ("follower", "noninverting", "inverting", "summing")
     c = Nodal(nodes, s, sources=2 + len(extra) + opamps + len(returns))
     c.source("src", 0, 1.0)
-    c.source("ref", 1, val.get("ref", 0.0))
+    c.source("ref", 1, val.get("ref", val.get("bias", 0.0)))
     for node in returns:
         c.source(node, 1, val[node])
     if "load" in val:  # to 0 V, or to `load_to` (an ideal source)
@@ -100,7 +101,11 @@ def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float):
     elif block == "noninverting":
         driven("plus", np.where(np.abs(drive) < 1e-3, 1e-3, drive))
         c.admittance("out", "minus", 1.0 / val["rf"])
-        c.admittance("minus", "ref", 1.0 / val["rg"])
+        if "cg" in val:  # rg from - to node cg, cg from there to ref
+            c.admittance("minus", "cg", 1.0 / val["rg"])
+            c.admittance("cg", "ref", s * val["cg"])
+        else:
+            c.admittance("minus", "ref", 1.0 / val["rg"])
     elif block in ("inverting", "summing"):
         driven("minus", drive + val["rin"])
         c.admittance("minus", "out", 1.0 / val["rf"])
@@ -114,6 +119,10 @@ def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float):
     elif block == "rc_lowpass":
         driven("out", drive + val["r"])
         c.admittance("out", GROUND, s * val["c"])
+    elif block == "ac_coupling":  # drive into node plus, c from there to out, r out to bias
+        driven("plus", np.where(np.abs(drive) < 1e-3, 1e-3, drive))
+        c.admittance("plus", "out", s * val["c"])
+        c.admittance("out", "ref", 1.0 / val["r"])
     elif block == "adc":
         driven("out", 1e-3)
     else:
@@ -123,7 +132,7 @@ def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float):
         branch = c.opamp(*pins, inverse_open_loop(plan.part, s), offset)
         c.inject(pins[1], -bias)
         c.inject(pins[0], bias)
-    for name in ("plus", "minus", "out", "ref", "src"):
+    for name in ("plus", "minus", "out", "ref", "src", "cg"):
         if not np.any(c.G[0, c.index[name]]):
             c.admittance(name, GROUND, 1.0)  # an unused node, held at 0 V
     return c.solve(), {**c.index, "+": c.index[pins[0]]}, branch, c
@@ -166,7 +175,7 @@ def draw_margins(layout: dw.Layout, D: np.ndarray, dT: float) -> list[dict[str, 
             offsets, biases = dw.row_errors(layout, plan, D, np.array([dT]))
             offset, bias = float(offsets[0, 0]), float(biases[0, 0])
         x, index, branch, circuit = stage_circuit(plan, v, s, drive, offset, bias)
-        if plan.block.name in ("divider", "rc_lowpass"):
+        if plan.block.name in ("divider", "rc_lowpass", "ac_coupling"):
             drive = circuit.impedance("out")  # the next stage sees it per frequency
         elif not plan.block.window_only:
             drive = 0.0  # an op amp's output (the engine's model)

@@ -53,7 +53,12 @@ SECTIONS = {"source": SOURCE_FIELDS, "conditions": CONDITION_FIELDS}
 INPUTS_HELP = 'fixed inputs "r, v" (resistor from voltage v to the - input), ";" between: 82k, 0; 100k 1%, 5'
 
 STARTER_VALUES = {"resistance": "10k", "capacitance": "10n", "voltage": "0", "frequency": "1k"}
-STARTER_FIELDS = {("adc", "high"): "5"}
+STARTER_FIELDS = {
+    ("adc", "high"): "5",
+    # a coupling corner of 1.6 Hz, below any audio or vibration band (1/(2 pi r c))
+    ("ac_coupling", "c"): "1u",
+    ("ac_coupling", "r"): "100k",
+}
 
 
 def stage_shapes(block_name: str) -> dict[str, FieldShape]:

@@ -284,6 +284,21 @@ def bounds(*names: str) -> dict:
     return {"type": "object", "required": list(names), "properties": {n: NUMBER for n in names}}
 
 
+GAIN_RANGE = {"type": "array", "items": {"type": "number", "minimum": 0}, "minItems": 2, "maxItems": 2}
+# a small-signal gain magnitude at DC and over the band, [min, max]; null for a saturated stage
+GAIN = {
+    "anyOf": [
+        {"type": "null"},
+        {
+            "type": "object",
+            "required": ["dc", "band"],
+            "properties": {"dc": GAIN_RANGE, "band": GAIN_RANGE},
+            "additionalProperties": False,
+        },
+    ]
+}
+
+
 def report_schema() -> dict:
     """the README's JSON report, with the documented extensions left open (additional properties)."""
     reasons = [*CHECKS, "fed-clipped"]
@@ -305,6 +320,8 @@ def report_schema() -> dict:
             "input",
             "margins",
             "probability",
+            "gain",
+            "gain_from_source",
         ],
         "properties": {
             "index": {"type": "integer", "minimum": 1},
@@ -333,6 +350,8 @@ def report_schema() -> dict:
                 "additionalProperties": NUMBER,
             },
             "probability": {"type": ["number", "null"], "minimum": 0, "maximum": 1},
+            "gain": GAIN,
+            "gain_from_source": GAIN,
         },
     }
     return {

@@ -72,6 +72,8 @@ def stage_report(result: StageResult, feed: str | None = None) -> dict:
         },
         "cautions": list(result.cautions),
     }
+    report["gain"] = _gain(m.gain)
+    report["gain_from_source"] = _gain(m.gain_from_source)
     if m.phase_margin_deg is not None:
         report["phase_margin_deg"] = _number(m.phase_margin_deg, 4)
     if m.thresholds is not None:
@@ -93,6 +95,13 @@ def stage_report(result: StageResult, feed: str | None = None) -> dict:
     if m.percentiles:
         report["percentiles"] = {k: {q: _number(v) for q, v in d.items()} for k, d in m.percentiles.items()}
     return report
+
+
+def _gain(gain: dict | None) -> dict | None:
+    """{"dc": [min, max], "band": [min, max]} of a gain magnitude (engine/gains.py)."""
+    if gain is None:
+        return None
+    return {key: [_number(low), _number(high)] for key, (low, high) in gain.items()}
 
 
 def chain_report(result: ChainResult) -> dict:

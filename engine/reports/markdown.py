@@ -70,6 +70,7 @@ def markdown_report(result: ChainResult) -> str:
         conditions(result),
         stage_table(result),
         margin_table(result),
+        gain_table(result),
         level_diagram(result),
         reasons(result),
         cautions(result),
@@ -199,6 +200,31 @@ def margin_table(result: ChainResult) -> str:
     for s in result.stages:
         cells = [format_si(s.margins[c], check_unit(c)) if c in s.margins else "" for c in used]
         lines.append(f"| {s.index} | " + " | ".join(cells) + " |")
+    return "\n".join(lines)
+
+
+def gain_words(gain: dict | None, key: str) -> str:
+    """A gain magnitude's range, 4 significant figures ("-" for a saturated stage)."""
+    if gain is None:
+        return "-"
+    low, high = gain[key]
+    if f"{low:.4g}" == f"{high:.4g}":
+        return f"{high:.4g}"
+    return f"{low:.4g} to {high:.4g}"
+
+
+def gain_table(result: ChainResult) -> str:
+    """Each stage's small-signal gain and the chain's from the source (engine/gains.py)."""
+    lines = [
+        "### Gain (magnitude over the tolerances)",
+        "",
+        "| # | stage | DC | band | from the source, DC | from the source, band |",
+        "|---|---|---:|---:|---:|---:|",
+    ]
+    for s in result.stages:
+        m = s.measure
+        cells = [gain_words(g, key) for g in (m.gain, m.gain_from_source) for key in ("dc", "band")]
+        lines.append(f"| {s.index} | {md(s.stage.name)} | " + " | ".join(cells) + " |")
     return "\n".join(lines)
 
 

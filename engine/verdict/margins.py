@@ -46,10 +46,16 @@ def load_currents(
 
     Each is an outside bound: the largest sourced current anywhere stands in for the current
     sourced at the upper extreme of the output (and likewise for the sunk current); with
-    several stages fed, each one's current is taken at its own worst return voltage."""
+    several stages fed, each one's current is taken at its own worst return voltage. An input
+    that blocks DC (load.blocks_dc) draws the AC part alone, whose peak a is at most half the
+    output's span: G (out_hi - out_lo) / 2 >= G a each way."""
     sourced = np.maximum(current_hi, 0.0)
     sunk = np.maximum(-current_lo, 0.0)
     for one in each_load(load):
+        if one.blocks_dc:
+            swing = one.conductance * np.maximum(out_hi - out_lo, 0.0) / 2.0
+            sourced, sunk = sourced + swing, sunk + swing
+            continue
         sourced = sourced + one.conductance * np.maximum(out_hi - one.returns[0], 0.0)
         sunk = sunk + one.conductance * np.maximum(one.returns[1] - out_lo, 0.0)
     return sourced, sunk

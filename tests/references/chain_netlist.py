@@ -2,8 +2,9 @@
 
 Imports nothing of railroom (only numpy and the independent MNA solver in references/nodal.py).
 Partial scope (issue 11): single-ended source with its impedance, and the stages follower,
-noninverting, inverting, summing (fixed inputs as `inputs`: [(r, volts)]), divider and rc_lowpass, with the topologies as railroom's README
-describes them. Op amps: finite A0 and one pole, offset at +, bias current into both inputs.
+noninverting (with `cg`: a capacitor in series with rg), inverting, summing (fixed inputs as
+`inputs`: [(r, volts)]), divider, rc_lowpass and ac_coupling (c in to out, r out to `bias`), with
+the topologies as railroom's README describes them. Op amps: finite A0 and one pole, offset at +, bias current into both inputs.
 Branches (issue 13): a stage may take its input from any earlier stage's output or from the
 source (`feed`); a branch is one more node fed by the same output, so that output carries every
 stage hung on it. A stage's load may return to a fixed voltage (`load_to`, an ideal source).
@@ -92,7 +93,11 @@ def _stage(c: Circuit, st: Stage, inp: str, p: str) -> str:
         _opamp(c, st.opamp, inp, out, out)
     elif st.block == "noninverting":  # rg from - to ref, rf from out to -
         ref = _ref(c, v, p)
-        c.resistor(f"{p}_m", ref, v["rg"])
+        if "cg" in v:  # rg from - to node g, cg from g to ref
+            c.resistor(f"{p}_m", f"{p}_g", v["rg"])
+            c.capacitor(f"{p}_g", ref, v["cg"])
+        else:
+            c.resistor(f"{p}_m", ref, v["rg"])
         c.resistor(out, f"{p}_m", v["rf"])
         _opamp(c, st.opamp, inp, f"{p}_m", out)
     elif st.block == "inverting":  # rin from input to -, ref drives +
@@ -113,6 +118,10 @@ def _stage(c: Circuit, st: Stage, inp: str, p: str) -> str:
     elif st.block == "rc_lowpass":
         c.resistor(inp, out, v["r"])
         c.capacitor(out, "0", v["c"])
+    elif st.block == "ac_coupling":  # c from in to out, r from out to bias
+        bias = _volts(c, v.get("bias", 0.0), f"{p}_bias")
+        c.capacitor(inp, out, v["c"])
+        c.resistor(out, bias, v["r"])
     else:
         raise ValueError(f"block {st.block!r} not in this reference yet")
     return out
@@ -136,7 +145,12 @@ def response(stages: list[Stage], freqs: np.ndarray, impedance: float = 0.0) -> 
     ac = [
         Stage(
             s.block,
-            {**s.values, "ref": 0.0, "inputs": [(r, 0.0) for r, _ in s.values.get("inputs", ())]},
+            {
+                **s.values,
+                "ref": 0.0,
+                "bias": 0.0,
+                "inputs": [(r, 0.0) for r, _ in s.values.get("inputs", ())],
+            },
             s.load,
             OpAmp(s.opamp.open_loop_gain, s.opamp.gbw),
             s.feed,

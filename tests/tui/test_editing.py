@@ -78,3 +78,14 @@ def test_inline_stage_tables_add_move_remove_in_place():
     moved = editing.move_stage(text, 2, -1)
     assert [t["name"] for t in tomllib.loads(moved)["stage"]] == ["b", "a"]
     assert editing.set_stage_field(text, 2, "name", "c").count('name = "c"') == 1
+
+
+def test_a_new_ac_coupling_stage_starts_below_the_band():
+    # the starter values give a corner 1/(2 pi r c) = 1/(2 pi 100k 1u) = 1.59 Hz (RC high-pass),
+    # below the demo's 10 Hz band bottom, so adding one does not cut the band
+    import math
+
+    fields = editing.starter_stage("ac_coupling", "coupling", None, None)
+    stage = chain_from_text(editing.add_stage(DEMO, 2, fields), "x").stages[1]
+    corner = 1 / (2 * math.pi * stage.quantity("r").value * stage.quantity("c").value)
+    assert corner == pytest.approx(1.5915, rel=1e-4)

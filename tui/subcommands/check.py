@@ -110,6 +110,14 @@ def shown(text: str) -> str:
     return escaped(text)
 
 
+def gain_text(gain: dict | None) -> str:
+    """A gain magnitude for the table: its largest over the band and the corners, 3 significant
+    figures (the JSON and Markdown reports give both ends); "-" for a saturated stage."""
+    if gain is None:
+        return "-"
+    return f"{gain['band'][1]:.3g}"
+
+
 def print_result(console: Console, result: ChainResult, colour: bool = True) -> None:
     verdict = "GO" if result.go else f"NO-GO ({result.failing} of {len(result.stages)} stages fail)"
     header = Text()
@@ -120,12 +128,14 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
     header.append("  verdict ")
     header.append(verdict, style=("bold green" if result.go else "bold red") if colour else "")
     console.print(header)
-    wide = console.width >= 120
+    wide = console.width >= 128  # block and part columns, and the gain from the source at 142
+    total = console.width >= 142
     table = Table(box=None, pad_edge=False, show_edge=False)
     columns = (
-        ("#", "stage", "block", "part", "regime", "limiting margin", "rail span")
+        ("#", "stage", "block", "part", "regime", "gain", *(("from source",) if total else ()))
+        + ("limiting margin", "rail span")
         if wide
-        else ("#", "stage", "regime", "limiting margin", "rail span")
+        else ("#", "stage", "regime", "gain", "limiting margin", "rail span")
     )
     for column in columns:
         table.add_column(
@@ -139,10 +149,11 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
                 ("#", [str(s.index) for s in result.stages]),
                 ("stage", [shown(s.stage.name) for s in result.stages]),
                 ("regime", [s.regime_word for s in result.stages]),
+                ("gain", [gain_text(s.measure.gain) for s in result.stages]),
                 ("limiting margin", [margin_text(s) for s in result.stages]),
             )
         )
-        + 2 * 4
+        + 2 * 5
         + 1
     )
     bar_width = 24 if wide else max(12, min(24, console.width - used))
@@ -150,7 +161,10 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
         cells: list[str | Text] = [str(stage.index), Text(shown(stage.stage.name))]
         if wide:
             cells += [stage.stage.block, Text(shown(stage.stage.part or "-"))]
-        cells += [regime_text(stage, colour), margin_text(stage), stage_bar(result, stage, colour, bar_width)]
+        cells += [regime_text(stage, colour), gain_text(stage.measure.gain)]
+        if total:
+            cells.append(gain_text(stage.measure.gain_from_source))
+        cells += [margin_text(stage), stage_bar(result, stage, colour, bar_width)]
         table.add_row(*cells)
     console.print(table)
     # the interface's legend words; on two lines when the terminal is narrower than one

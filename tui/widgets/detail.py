@@ -183,7 +183,10 @@ def stage_story(stage: StageResult, chain: Chain, parts: Mapping[str, Part]) -> 
         head.append(f"  window {span_words(m.window)}")
     if m.probability is not None:
         head.append(f"  leaves linear in {m.probability:.3%} of draws")
-    parts_shown: list = [head, checks_table(stage, part, chain)]
+    parts_shown: list = [head]
+    if m.gain is not None:
+        parts_shown.append(Text(gain_line(m.gain, m.gain_from_source)))
+    parts_shown.append(checks_table(stage, part, chain))
     if m.thresholds is not None:
         to_high, to_low = m.thresholds
         parts_shown.append(
@@ -205,6 +208,19 @@ def stage_story(stage: StageResult, chain: Chain, parts: Mapping[str, Part]) -> 
         parts_shown += [Text("internal nodes", style="bold"), nodes]
     parts_shown += notes(stage)
     return Group(*parts_shown)
+
+
+def gain_range(gain: dict, key: str) -> str:
+    low, high = gain[key]
+    return f"{high:.4g}" if f"{low:.4g}" == f"{high:.4g}" else f"{low:.4g} to {high:.4g}"
+
+
+def gain_line(gain: dict, total: dict | None) -> str:
+    """The stage's small-signal gain, and the chain's from the source (engine/gains.py)."""
+    words = f"gain {gain_range(gain, 'band')} over the band, {gain_range(gain, 'dc')} at DC"
+    if total is not None:
+        words += f"; from the source {gain_range(total, 'band')}, {gain_range(total, 'dc')} at DC"
+    return words
 
 
 def notes(stage: StageResult) -> list[Text]:

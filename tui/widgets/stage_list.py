@@ -48,6 +48,7 @@ BLOCK_SHORT = {
     "mfb_bandpass": "MFB band",
     "divider": "divider",
     "rc_lowpass": "RC low",
+    "ac_coupling": "AC coupl",
     "adc": "adc",
 }
 LABELS = ("#", "stage", "block", "part", "regime", "limiting margin")

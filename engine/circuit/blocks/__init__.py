@@ -14,7 +14,7 @@ from railroom.engine.circuit.blocks.filters import (
 from railroom.engine.circuit.blocks.gain import Follower, Inverting, Noninverting, Summing
 from railroom.engine.circuit.blocks.instrumentation import Instrumentation
 from railroom.engine.circuit.blocks.integrator import Integrator
-from railroom.engine.circuit.blocks.passive import ConverterInput, Divider, RcLowpass
+from railroom.engine.circuit.blocks.passive import AcCoupling, ConverterInput, Divider, RcLowpass
 from railroom.engine.circuit.blocks.schmitt import Schmitt
 
 BLOCKS: dict[str, Block] = {
@@ -35,6 +35,7 @@ BLOCKS: dict[str, Block] = {
         Schmitt(),
         Divider(),
         RcLowpass(),
+        AcCoupling(),
         ConverterInput(),
     )
 }

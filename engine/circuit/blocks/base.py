@@ -55,6 +55,9 @@ class InputLoad:
     conductance: float = 0.0  # largest over the tolerance, S
     returns: tuple[float, float] = (0.0, 0.0)
     least: float = 0.0  # smallest over the tolerance and band (0: not known), S
+    # a series capacitor first (ac_coupling): no DC current, only the AC part of the driving
+    # output through at most `conductance` (margins.load_currents)
+    blocks_dc: bool = False
 
 
 @dataclass(frozen=True)

@@ -4,6 +4,8 @@ Formulas (Sedra & Smith, Microelectronic Circuits, ch. 2; Franco, ch. 1):
     non-inverting  G = 1 + rf/rg, rg returning to ref:  Vout = G Vin - (rf/rg) Vref
     inverting      G = -rf/rin about ref:               Vout = -(rf/rin) Vin + (1 + rf/rin) Vref
     noise gain     1/beta = 1 + rf/rg (non-inverting) = 1 + rf/rin (inverting)
+    AC-coupled rg  cg in series with rg: Zg = rg + 1/(s cg), G(s) = 1 + rf/Zg
+                   = 1 + s rf cg / (1 + s rg cg): 1 at DC, 1 + rf/rg above 1/(2 pi rg cg)
 The finite open-loop gain enters through opamp.solve_loop (Black's feedback formula).
 Any resistance driving the stage (source impedance, a divider before it) is in series with its input.
 """
@@ -71,15 +73,36 @@ class Follower(Block):
 class Noninverting(Block):
     name = "noninverting"
     summary = "gain 1 + rf/rg, rg returning to ref"
-    ideal = ("out = (1 + rf/rg) in - (rf/rg) ref",)
+    ideal = (
+        "out = (1 + rf/rg) in - (rf/rg) ref",
+        "with cg: G(s) = 1 + s rf cg / (1 + s rg cg), 1 at DC, 1 + rf/rg above 1/(2 pi rg cg)",
+    )
     fields = {
         "rf": FieldSpec("resistance", help="feedback resistor, output to - input"),
         "rg": FieldSpec("resistance", help="gain resistor, - input to ref"),
         "ref": FieldSpec("voltage", required=False, default=0.0, help="where rg returns, V"),
+        "cg": FieldSpec(
+            "capacitance",
+            required=False,
+            default=None,
+            help="capacitor in series with rg (AC-coupled rg): DC gain 1",
+        ),
     }
 
     def respond(self, v, s, inverse_gain, drive, differential):
         rf, rg = v["rf"], v["rg"]
+        if "cg" in v:
+            # rg + 1/(s cg) as an admittance, finite at DC: Yg = s cg / (1 + s rg cg)
+            yg = s * v["cg"] / (1.0 + s * rg * v["cg"])
+            loop = Loop(
+                beta=1.0 / (1.0 + rf * yg),
+                a_plus={"in": np.ones_like(rf)},
+                a_minus={"ref": rf * yg / (1.0 + rf * yg)},
+                z_plus=drive,
+                z_minus=rf / (1.0 + rf * yg),  # rf at DC: bias current sees rf alone
+            )
+            amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
+            return BlockResponse(output=amp.output, opamps=(amp,), input_node=amp.plus)
         total = rf + rg
         loop = Loop(
             beta=rg / total,

@@ -1,7 +1,9 @@
-"""Passive blocks with no op amp: the resistive divider and the first-order RC low-pass.
+"""Passive blocks with no op amp: the resistive divider, the first-order RC low-pass and the
+AC coupling (a series capacitor with a resistor to a bias voltage, a first-order RC high-pass).
 
-    divider     Vout = Vin * bottom / (top + bottom),    output resistance top || bottom
-    rc_lowpass  Vout = Vin / (1 + s r c),                 corner 1 / (2 pi r c)
+    divider      Vout = Vin * bottom / (top + bottom),    output resistance top || bottom
+    rc_lowpass   Vout = Vin / (1 + s r c),                 corner 1 / (2 pi r c)
+    ac_coupling  Vout = Vin s r c / (1 + s r c) + bias,    corner 1 / (2 pi r c)
 (Horowitz & Hill, The Art of Electronics, ch. 1.) The driving impedance Zd adds to top and r; a
 stage `load` from the output to 0 V sits in parallel with bottom (divider) or with c (low-pass:
 Vout = Vin / (1 + r/load + s r c)). A load returning to `load_to` adds Z Vto / load to the output,
@@ -14,6 +16,13 @@ the output node is the open-circuit voltage, and the source impedance, per frequ
     rc_lowpass  Z = 1 / (1/(r + Zd) + 1/load + s c)
 sits in series with the next stage's input (a complex impedance, not its DC resistance: an RC
 low-pass into an inverting stage with rin = r reads 1/sqrt(5) at the corner, not 1/sqrt(8)).
+
+The AC coupling with its driving impedance Zd in series with c, r' = r || load and the bias
+scaled to bias' = bias load / (r + load) (Thevenin of r to bias with load to 0 V):
+    Vth = Vin s c r' / (1 + s c (r' + Zd)) + bias' (1 + s c Zd) / (1 + s c (r' + Zd))
+    Z   = r' (1 + s c Zd) / (1 + s c (r' + Zd))       (r' || (Zd + 1/(s c)))
+At DC the input is blocked (Vth = bias', Z = r'), so the next stage's bias current flows through
+r' alone; its input draws AC current only, at most |Vin| / r.
 """
 
 from __future__ import annotations
@@ -86,6 +95,51 @@ class RcLowpass(Block):
     def critical_frequencies(self, v):
         r = v["r"] * np.ones_like(v["c"])
         return np.atleast_1d((1.0 + r * load_conductance(v)) / (2 * np.pi * r * v["c"])).ravel()
+
+
+class AcCoupling(Block):
+    name = "ac_coupling"
+    summary = "passive AC coupling: series capacitor, r to a bias voltage (no part)"
+    ideal = (
+        "H(s) = s r c / (1 + s r c) on the signal; out = bias at DC; corner 1 / (2 pi r c)",
+        "it drives the next stage through r || (1/(s c) + what drives it)",
+    )
+    uses_part = False
+    fields = {
+        "c": FieldSpec("capacitance", help="series capacitor, from in to output"),
+        "r": FieldSpec("resistance", help="from output to bias"),
+        "bias": FieldSpec("voltage", required=False, default=0.0, help="where r returns, V"),
+    }
+
+    def respond(self, v, s, inverse_gain, drive, differential):
+        g_load = load_conductance(v)
+        r = 1.0 / (1.0 / v["r"] + g_load)  # r || load
+        bias_share = 1.0 / (1.0 + v["r"] * g_load)  # bias' = bias load / (r + load)
+        sc = s * v["c"]
+        den = 1.0 + sc * (r + drive)
+        near = 1.0 + sc * drive
+        # a load returning to `load_to`: Millman's bias' gains r' Vto / load (load_return)
+        to = {k: x * r for k, x in load_return(v).items()}
+        output = Node(
+            transfers={
+                "in": sc * r / den,
+                "bias": bias_share * near / den,
+                **{k: x * near / den for k, x in to.items()},
+            }
+        )
+        far = Node(transfers={"bias": bias_share * np.ones((1, 1)), **to})
+        return BlockResponse(
+            output=output,
+            # in to the terminal through Zd, then 1/(s c) + r' to bias': share (1 + s c r') / den
+            input_node=lambda: junction(None, drive, far, share=(1.0 + sc * r) / den),
+            **thevenin(r * near / den),
+            # AC current only (the capacitor blocks DC), at most the swing over r
+            input_load=InputLoad(conductance=float(np.max(1.0 / v["r"])), blocks_dc=True),
+        )
+
+    def critical_frequencies(self, v):
+        r = 1.0 / (1.0 / v["r"] + load_conductance(v)) * np.ones_like(v["c"])
+        return np.atleast_1d(1.0 / (2 * np.pi * r * v["c"])).ravel()
 
 
 class ConverterInput(Block):
