@@ -122,8 +122,8 @@ def analyse(
 
 
 def with_gains(stages, prepared) -> list:
-    """Each stage's gain and gain from the source (engine/gains.py), over the corners."""
-    from railroom.engine.gains import stage_gains
+    """Each stage's gain and gain from the source (engine/walks/gains.py), over the corners."""
+    from railroom.engine.walks.gains import stage_gains
 
     return [
         replace(s, measure=replace(s.measure, gain=own, gain_from_source=total))

@@ -98,7 +98,7 @@ def stage_report(result: StageResult, feed: str | None = None) -> dict:
 
 
 def _gain(gain: dict | None) -> dict | None:
-    """{"dc": [min, max], "band": [min, max]} of a gain magnitude (engine/gains.py)."""
+    """{"dc": [min, max], "band": [min, max]} of a gain magnitude (engine/walks/gains.py)."""
     if gain is None:
         return None
     return {key: [_number(low), _number(high)] for key, (low, high) in gain.items()}

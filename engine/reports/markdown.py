@@ -214,7 +214,7 @@ def gain_words(gain: dict | None, key: str) -> str:
 
 
 def gain_table(result: ChainResult) -> str:
-    """Each stage's small-signal gain and the chain's from the source (engine/gains.py)."""
+    """Each stage's small-signal gain and the chain's from the source (engine/walks/gains.py)."""
     lines = [
         "### Gain (magnitude over the tolerances)",
         "",

@@ -117,7 +117,7 @@ class StageMeasure:
     inner: dict[str, Span] = field(default_factory=dict)
     input_differential: float | None = None  # saturating blocks: largest |V+ - V-|, V
     phase_margin_deg: float | None = None  # with a load_capacitance: the loop's estimate
-    # small-signal gain magnitudes {"dc": (min, max), "band": (min, max)} (engine/gains.py):
+    # small-signal gain magnitudes {"dc": (min, max), "band": (min, max)} (engine/walks/gains.py):
     # the stage's own, and from the source to its output; None for a saturated stage
     gain: dict[str, Span] | None = None
     gain_from_source: dict[str, Span] | None = None

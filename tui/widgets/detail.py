@@ -216,7 +216,7 @@ def gain_range(gain: dict, key: str) -> str:
 
 
 def gain_line(gain: dict, total: dict | None) -> str:
-    """The stage's small-signal gain, and the chain's from the source (engine/gains.py)."""
+    """The stage's small-signal gain, and the chain's from the source (engine/walks/gains.py)."""
     words = f"gain {gain_range(gain, 'band')} over the band, {gain_range(gain, 'dc')} at DC"
     if total is not None:
         words += f"; from the source {gain_range(total, 'band')}, {gain_range(total, 'dc')} at DC"
