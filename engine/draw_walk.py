@@ -35,7 +35,7 @@ from railroom.engine.part_limits import curve_level, differential_margin, hot_bi
 from railroom.engine.plan import StagePlan
 from railroom.engine.propagation import DifferentialSignal, Signal, loaded_bounds, node_bounds
 from railroom.engine.results import StageResult
-from railroom.engine.stage_walk import passive_output, shows_input
+from railroom.engine.stage_walk import load_behind, passive_output, shows_input
 
 SATURATED_CHECKS = ("input-high", "input-low", "current")
 
@@ -123,8 +123,7 @@ def build_layout(
     variables = [v for v in variables if v.scale]
     loads = []
     for k in range(len(plans)):
-        following = prepared.responses[k + 1] if k + 1 < len(plans) else None
-        loads.append(following.input_load if following is not None else InputLoad())
+        loads.append(load_behind(plans, prepared.responses, k))
     return Layout(
         chain,
         plans,

@@ -33,6 +33,43 @@ from railroom.engine.propagation import (
 from railroom.engine.results import OpAmpMeasure, StageMeasure, StageResult
 
 
+# Blocks whose response to the chain signal is a scaled impulse response that never changes sign
+# (flat stages, one-pole op amps, first-order passives, cascades of them): the output's slope is then
+# at most max |H| times the input's (|y'| <= ||h||_1 |x'|, ||h||_1 = max |H| for h >= 0; Oppenheim &
+# Willsky, Signals and Systems, ch. 2, BIBO stability). A clipped signal's slope bound passes through
+# them; a second-order filter's may ring, so after one the bound is dropped (its slope is then read
+# from its amplitudes, as for a sine).
+SLOPE_KEEPING = frozenset(
+    {"follower", "noninverting", "inverting", "summing", "difference", "instrumentation"}
+    | {"integrator", "divider", "rc_lowpass", "adc"}
+)
+
+
+def largest_gain(node) -> float:
+    """max |H| of a node from the chain signal over the corners and the band (0 when it sees none)."""
+    transfer = node.transfers.get("in")
+    return 0.0 if transfer is None else float(np.max(np.abs(transfer)))
+
+
+def passed_slope(plan: StagePlan, response: BlockResponse, signal) -> float | None:
+    """The slope bound of what a linear stage hands on, from the one it is fed (SLOPE_KEEPING)."""
+    slope = getattr(signal, "slope", None)
+    if slope is None or plan.block.name not in SLOPE_KEEPING:
+        return None
+    out = largest_gain(response.output) * slope
+    return out if plan.part is None else min(out, plan.part.slew)
+
+
+def load_behind(plans, responses, k: int) -> InputLoad:
+    """What stage k's output drives: the next stage's input, or, through converter inputs (which
+    draw nothing and pass their input on), the input of the first stage after them."""
+    j = k + 1
+    while j < len(plans) and plans[j].block.window_only:
+        j += 1
+    following = responses[j] if j < len(responses) else None
+    return following.input_load if following is not None else InputLoad()
+
+
 def span(bounds: NodeBounds) -> tuple[float, float]:
     return (float(np.min(bounds.lo)), float(np.max(bounds.hi)))
 
@@ -81,8 +118,7 @@ def walk_chain(
         plan = prepared.plans[k]
         if entering is not None:
             entering.append(signal)
-        following = prepared.responses[k + 1] if k + 1 < len(prepared.responses) else None
-        next_load = following.input_load if following is not None else InputLoad()
+        next_load = load_behind(prepared.plans, prepared.responses, k)
         v = prepared.values[k]
         if plan.block.saturates:
             measure, signal = saturated_stage(plan, v, signal, rise, nominal, hot_rise=hot)
@@ -120,16 +156,22 @@ def walk_chain(
                 levels[k] = bounds
             fed = getattr(signal, "fed_clipped", False)
             pairs = k + 1 < len(prepared.plans) and prepared.joint[k + 1]
+            slope = passed_slope(plan, prepared.responses[k], signal)
             signal = (
                 paired(bounds, v["drive"].shape[0], prepared.values[k + 1]["drive"].shape[0], fed)
                 if pairs
                 else merge(bounds, fed)
             )
+            if slope is not None:
+                signal = replace(signal, slope=slope)
         if notes is not None:
             measure = replace(measure, **notes[k])
         result = judge(measure, plan.part, plan.rails, chain.conditions.margin)
         if result.regime == "clipping" and measure.window is not None:
-            signal = clamp(signal, measure.window)
+            # the clipped output is no steeper than the unclipped need, nor than the slew rate
+            last = measure.opamps[-1] if measure.opamps else None
+            slope = None if last is None else min(last.slew_needed, last.slew_available)
+            signal = clamp(signal, measure.window, slope)
         results.append(result)
     return results
 
@@ -291,6 +333,13 @@ def opamp_measure(
     )
     needed = float(max(sourced, sunk))
     slew = float(np.max(TWO_PI * freqs * out.amp_hi)) if out.amp_hi.size else 0.0
+    slope = getattr(signal, "slope", None)
+    if slope is not None:
+        # fed a clipped waveform: its amplitudes are no sine's (a sine clipped to half its height
+        # keeps its full slope at the crossings), so the need is its slope bound through this op
+        # amp's gain; after a filter that may ring, no less than the amplitudes' (SLOPE_KEEPING)
+        through = largest_gain(amp.output) * slope
+        slew = through if plan.block.name in SLOPE_KEEPING else max(slew, through)
     return OpAmpMeasure(
         label=amp.label,
         output=out_span,

@@ -54,6 +54,9 @@ def judged(
     spans ("out-low", "out-high", "in-low", "in-high")."""
     m = corner.measure
     opamps = []
+    # fed a clipped signal: the per-circuit walk reads a clipped sine's slope from its held
+    # amplitude; the corners walk carries the clipped waveform's own slope bound, so its need stands
+    slew_from_corners = fed_clipped and m.fed_clipped
     for old, stat in zip(m.opamps, amps):
         out = (stat.get("out-low", old.output[0]), stat.get("out-high", old.output[1]))
         inp = (stat["in-low"], stat["in-high"])
@@ -67,7 +70,11 @@ def judged(
                 window=window,
                 input=inp,
                 input_window=(inp[0] - stat["input-low"], inp[1] + stat["input-high"]),
-                slew_needed=old.slew_available - stat["slew"] if "slew" in stat else old.slew_needed,
+                slew_needed=(
+                    old.slew_available - stat["slew"]
+                    if "slew" in stat and not slew_from_corners
+                    else old.slew_needed
+                ),
                 current_needed=old.current_available - stat["current"],
             )
         )

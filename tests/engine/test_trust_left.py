@@ -68,3 +68,68 @@ def test_comparator_threshold_bias_through_a_divider_before_it():
 def test_comparator_with_a_clean_part_keeps_the_written_threshold():
     stage = result(comparator(), part()).stages[0]
     assert stage.measure.thresholds[0] == pytest.approx((2.5, 2.5), abs=1e-15)
+
+
+def clipping_then_buffer(gain: str, level: str, amplitude: str, band: str) -> str:
+    return f'''format = 1
+title = "a clipping gain, then a buffer"
+[rails.main]
+positive = "5"
+negative = "-5"
+[source]
+level = [{level}]
+amplitude = "{amplitude}"
+band = [{band}]
+[[stage]]
+name = "gain"
+block = "noninverting"
+part = "clean"
+rf = "{gain}"
+rg = "10k"
+[[stage]]
+name = "buffer"
+block = "follower"
+part = "clean"
+'''
+
+
+@pytest.mark.parametrize("method", ["corners", "rss", "montecarlo"])
+def test_a_buffer_after_a_voltage_clip_needs_the_clipped_sines_full_slope(method):
+    # 1 V at 1 kHz times 1 + 90k/10k = 10 V peak, clipped at the 5 V rails less 30 mV: the clipped
+    # sine keeps the unclipped slope where it crosses zero, 2 pi f A = 2 pi 1k 10 = 62.83 kV/s
+    # (the slope of A sin(wt) at 0, Sedra & Smith ch. 2's slew need). Its amplitude held at the
+    # window's half (4.97 V) gave 2 pi 1k 4.97 = 31.2 kV/s before: optimistic by half.
+    text = clipping_then_buffer("90k", '"0", "0"', "1", '"1k", "1k"')
+    first, second = result(
+        text, part(), method=method, samples=200 if method == "montecarlo" else None
+    ).stages
+    assert first.regime == "clipping"
+    assert second.measure.opamps[0].slew_needed == pytest.approx(62832, rel=1e-4)
+
+
+def test_a_buffer_after_a_slew_limited_stage_needs_at_most_that_slew_rate():
+    # 1 V at 10 kHz times 2 needs 2 pi 10k 2 = 125.7 kV/s of a 50 kV/s part: the stage is slew
+    # limited, its output never steeper than 50 kV/s, so the buffer after it (gain 1, A0 = 1e7:
+    # 1/(1 + 1e-7)) needs 50 kV/s, not 125.7 kV/s, and meets its own 50 kV/s at equality
+    found = result(clipping_then_buffer("10k", '"0", "0"', "1", '"10k", "10k"'), part(slew=5e4))
+    first, second = found.stages
+    assert first.regime == "clipping" and first.reasons == ("slew",)
+    assert second.measure.opamps[0].slew_needed == pytest.approx(5e4, rel=1e-6)
+    assert second.reasons == ("fed-clipped",)
+
+
+def test_pump_demo_stage5_slew_need_from_the_slew_limited_stage_before_it():
+    # engine/demos/pump_vibration.toml: stage 4's low-power part slews at 0.04 V/us
+    # (presets/generic.toml) and cannot follow its 47.1 kV/s need; what it hands the converter
+    # driver (a follower, gain 1/(1 + 1/A0) with A0 = 100 dB) is never steeper than 40 kV/s, so
+    # the driver needs 40 kV/s (it took 47.1 kV/s from the unclipped amplitude before)
+    from pathlib import Path
+
+    import railroom.engine.demos as demos
+    from railroom.engine.analysis import load_checked
+
+    chain, library = load_checked(str(Path(demos.__file__).parent / "pump_vibration.toml"))
+    stages = analyse(chain, library.parts, design_aids=False, headroom=False).stages
+    assert stages[3].reasons == ("slew",)
+    assert stages[3].measure.opamps[0].slew_needed == pytest.approx(47100, rel=1e-3)
+    assert stages[4].measure.opamps[0].slew_needed == pytest.approx(4e4, rel=1e-4)
