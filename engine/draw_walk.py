@@ -123,7 +123,8 @@ def build_layout(
     variables = [v for v in variables if v.scale]
     loads = []
     for k in range(len(plans)):
-        loads.append(load_behind(plans, prepared.responses, k))
+        rise = chain.conditions.worst_temperature_rise
+        loads.append(load_behind(plans, prepared.responses, k, rise, prepared.values))
     return Layout(
         chain,
         plans,

@@ -32,8 +32,11 @@ def load_currents(
 
     Each is an outside bound: the largest sourced current anywhere stands in for the current
     sourced at the upper extreme of the output (and likewise for the sunk current)."""
-    sourced = np.maximum(current_hi, 0.0) + load.conductance * np.maximum(out_hi - load.returns[0], 0.0)
-    sunk = np.maximum(-current_lo, 0.0) + load.conductance * np.maximum(load.returns[1] - out_lo, 0.0)
+    low, high = load.returns
+    if load.follows:  # anywhere between the signal's own span and the fixed returns
+        low, high = np.minimum(out_lo, low), np.maximum(out_hi, high)
+    sourced = np.maximum(current_hi, 0.0) + load.conductance * np.maximum(out_hi - low, 0.0)
+    sunk = np.maximum(-current_lo, 0.0) + load.conductance * np.maximum(high - out_lo, 0.0)
     return sourced, sunk
 
 

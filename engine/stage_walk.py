@@ -11,7 +11,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from railroom.engine.blocks.base import BlockResponse, InputLoad, OpAmpNodes
+from railroom.engine.blocks.base import BlockResponse, InputLoad, OpAmpNodes, load_conductance
 from railroom.engine.checks import judge
 from railroom.engine.margins import load_currents
 from railroom.engine.opamp import TWO_PI, input_window, output_window
@@ -60,14 +60,35 @@ def passed_slope(plan: StagePlan, response: BlockResponse, signal) -> float | No
     return out if plan.part is None else min(out, plan.part.slew)
 
 
-def load_behind(plans, responses, k: int) -> InputLoad:
+def load_behind(plans, responses, k: int, rise: float = 0.0, values=None) -> InputLoad:
     """What stage k's output drives: the next stage's input, or, through converter inputs (which
-    draw nothing and pass their input on), the input of the first stage after them."""
+    draw nothing and pass their input on), the input of the first stage after them. Its return
+    voltage is widened by that stage's op-amp offset at `rise` above 25 C (an input resistor
+    returns to the - pin, which sits at ref + Vos, not at ref). A passive stage there is loaded
+    by what comes after it in turn: a divider's input conductance is then that of top in series
+    with bottom || the next input (`values`: the stages' component values), and the passive
+    stage's return reaches the next input's return voltage too."""
     j = k + 1
     while j < len(plans) and plans[j].block.window_only:
         j += 1
     following = responses[j] if j < len(responses) else None
-    return following.input_load if following is not None else InputLoad()
+    if following is None:
+        return InputLoad()
+    load = following.input_load
+    if following.output_impedance is not None:  # passive: what it drives loads it in turn
+        after = load_behind(plans, responses, j, rise, values)
+        if after.conductance > 0:
+            returns = (min(load.returns[0], after.returns[0]), max(load.returns[1], after.returns[1]))
+            load = replace(load, returns=returns, follows=True)
+            if plans[j].block.name == "divider" and values is not None:
+                v = values[j]
+                bottom = 1.0 / (1.0 / v["bottom"] + load_conductance(v) + after.conductance)
+                load = replace(load, conductance=float(np.max(1.0 / (v["top"] + bottom))))
+    part = plans[j].part
+    if part is None or load.conductance == 0:
+        return load
+    offset = part.offset_at(25.0 + rise)
+    return replace(load, returns=(load.returns[0] - offset, load.returns[1] + offset))
 
 
 def span(bounds: NodeBounds) -> tuple[float, float]:
@@ -118,7 +139,9 @@ def walk_chain(
         plan = prepared.plans[k]
         if entering is not None:
             entering.append(signal)
-        next_load = load_behind(prepared.plans, prepared.responses, k)
+        next_load = load_behind(
+            prepared.plans, prepared.responses, k, 0.0 if nominal else rise, prepared.values
+        )
         v = prepared.values[k]
         if plan.block.saturates:
             measure, signal = saturated_stage(plan, v, signal, rise, nominal, hot_rise=hot)

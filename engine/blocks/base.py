@@ -55,6 +55,9 @@ class InputLoad:
     conductance: float = 0.0  # largest over the tolerance, S
     returns: tuple[float, float] = (0.0, 0.0)
     least: float = 0.0  # smallest over the tolerance and band (0: not known), S
+    # the return node follows the signal (an RC low-pass's capacitor, a weighted mean of what
+    # drove it, pulled towards 0 V by its load): it may sit anywhere between that span and returns
+    follows: bool = False
 
 
 @dataclass(frozen=True)

@@ -76,7 +76,7 @@ class RcLowpass(Block):
             output=output,
             input_node=lambda: junction(v["r"], drive, output),
             **thevenin(r / (1.0 + r * g_load + s * r * c)),
-            input_load=InputLoad(conductance=float(np.max(1.0 / v["r"]))),
+            input_load=InputLoad(conductance=float(np.max(1.0 / v["r"])), follows=True),
         )
 
     def critical_frequencies(self, v):

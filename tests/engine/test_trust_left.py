@@ -133,3 +133,71 @@ def test_pump_demo_stage5_slew_need_from_the_slew_limited_stage_before_it():
     assert stages[3].reasons == ("slew",)
     assert stages[3].measure.opamps[0].slew_needed == pytest.approx(47100, rel=1e-3)
     assert stages[4].measure.opamps[0].slew_needed == pytest.approx(4e4, rel=1e-4)
+
+
+ADC_THEN_INVERTING = """format = 1
+title = "buffer, converter input, inverting stage on the same node"
+[rails.main]
+positive = "15"
+negative = "-15"
+[source]
+level = ["2", "2"]
+[[stage]]
+name = "buffer"
+block = "follower"
+part = "clean"
+[[stage]]
+name = "converter input"
+block = "adc"
+low = "0"
+high = "4"
+[[stage]]
+name = "inverting"
+block = "inverting"
+part = "clean"
+rin = "1k"
+rf = "1k"
+"""
+
+
+def test_a_stage_driving_a_converter_input_is_loaded_by_the_stage_after_it():
+    # the converter input draws nothing and passes its node on, so the inverting stage's 1k to its
+    # virtual earth at 0 V hangs on the buffer's output: 2 V / 1k = 2 mA (Ohm's law), and the
+    # 40 ohm output resistance of the part costs 80 mV of upper swing. Found by the whole-chain
+    # reference (tests/references/catalogue_brute.py); the buffer was charged 0 mA before.
+    buffer = result(ADC_THEN_INVERTING, part()).stages[0]
+    assert buffer.measure.opamps[0].current_needed == pytest.approx(2e-3, rel=1e-6)
+    assert buffer.margins["output-high"] == pytest.approx(15 - 0.03 - 0.08 - 2.0, abs=1e-6)
+
+
+FOLLOWER_INTO_RC = """format = 1
+title = "buffer into an RC low-pass, below 0 V"
+[rails.main]
+positive = "15"
+negative = "-15"
+[source]
+level = ["-0.3", "-0.3"]
+amplitude = "0.2"
+band = ["100k", "100k"]
+[[stage]]
+name = "buffer"
+block = "follower"
+part = "clean"
+[[stage]]
+name = "rc"
+block = "rc_lowpass"
+r = "1k"
+c = "1u"
+"""
+
+
+def test_a_buffer_into_an_rc_lowpass_sources_current_while_below_0_v():
+    # 100 kHz is 628 times the 159 Hz corner: the capacitor holds -0.3 V and the 0.2 V sine drives
+    # +/-0.2 V / 1k = +/-0.2 mA through r (Ohm's law), sourced while the output is at -0.1 V. The
+    # capacitor's voltage follows the signal, so it is no fixed return: it lies between the span
+    # -0.5..-0.1 V and 0 V, so at most (-0.1 + 0.5) V / 1k = 0.4 mA is sourced, and the part's
+    # 40 ohm output resistance takes 16 mV of upper swing: 15 - 0.03 - 0.016 + 0.1 = 15.054 V.
+    # Before, the load was a conductance to 0 V: nothing sourced below 0 V (15.07 V).
+    # Found by the whole-chain reference (tests/references/catalogue_brute.py).
+    buffer = result(FOLLOWER_INTO_RC, part()).stages[0]
+    assert buffer.margins["output-high"] == pytest.approx(15.054, abs=1e-4)
