@@ -201,3 +201,61 @@ def test_a_buffer_into_an_rc_lowpass_sources_current_while_below_0_v():
     # Found by the whole-chain reference (tests/references/catalogue_brute.py).
     buffer = result(FOLLOWER_INTO_RC, part()).stages[0]
     assert buffer.margins["output-high"] == pytest.approx(15.054, abs=1e-4)
+
+
+def gain_then(stages: str, level: str = "-0.3") -> str:
+    return f'''format = 1
+title = "loading"
+[rails.main]
+positive = "15"
+negative = "-15"
+[source]
+level = ["{level}", "{level}"]
+[[stage]]
+name = "first"
+block = "noninverting"
+part = "clean"
+rf = "1k"
+rg = "1k"
+{stages}
+'''
+
+
+DIVIDER_INTO_INVERTING = """[[stage]]
+name = "halve"
+block = "divider"
+top = "1k"
+bottom = "1k"
+[[stage]]
+name = "invert"
+block = "inverting"
+part = "clean"
+rin = "1k"
+rf = "1k"
+"""
+
+INVERTING = """[[stage]]
+name = "invert"
+block = "inverting"
+part = "clean"
+rin = "1k"
+rf = "1k"
+"""
+
+
+def test_a_divider_loaded_by_the_next_stage_loads_the_stage_before_it_more():
+    # -0.3 V x 2 = -0.6 V into top 1k + (bottom 1k || rin 1k to the virtual earth at 0 V) = 1.5k
+    # (series and parallel resistors, Horowitz & Hill ch. 1): 0.4 mA sunk, plus 0.3 mA through
+    # its own rf + rg (0.6 V over 2k): 0.7 mA. The divider's own 1k + 1k gave 0.3 + 0.3 = 0.6 mA
+    # before. Found by the whole-chain reference.
+    first = result(gain_then(DIVIDER_INTO_INVERTING), part()).stages[0]
+    assert first.measure.opamps[0].current_needed == pytest.approx(0.7e-3, rel=1e-6)
+
+
+def test_an_input_resistor_returns_to_ref_plus_the_offset():
+    # 0 V in, gain 2: the output sits within +/-2 mV (1 mV offset x noise gain 2); the next
+    # stage's 1k returns to its - pin, at ref + Vos = +/-1 mV: at most (2 + 1) mV / 1k = 3 uA
+    # (Ohm's law), plus 1 uA through its own rf (2 mV less the 1 mV at its - pin, over 1k):
+    # 4 uA. Taken to ref alone it was 2 + 1 = 3 uA.
+    first = result(gain_then(INVERTING, level="0"), part(offset=1e-3)).stages[0]
+    assert first.measure.opamps[0].current_needed == pytest.approx(4e-6, rel=1e-4)
