@@ -22,6 +22,8 @@ corners method takes it, so a row never depends on the other rows beside it.
 
 from __future__ import annotations
 
+from typing import Any
+
 from dataclasses import dataclass, replace
 from functools import cached_property
 
@@ -217,11 +219,15 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
     s = per_row(grid, rows)
     signal = start_signal(layout.chain, layout.freqs, rows)
     clipped = np.zeros(rows, dtype=bool)
-    results = []
+    results: list[StageDraws] = []
     inverse_gains: dict = {}  # 1/A(s) per row, once per part: stages share parts
     drive = layout.chain.source.impedance
     before = None  # the previous stage's response (None: saturated, or none)
     pending = None  # a passive stage whose shown span the next stage settles
+    # the response two stages back; the previous stage's values and the signal it was fed
+    earlier = None
+    prior: Any = None
+    entered: Any = None
     for k, plan in enumerate(layout.plans):
         v = stage_values(layout, plan, D, dT)
         fed, response = signal, None
@@ -233,6 +239,16 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
                 inverse_gains[plan.part] = per_row(inverse_open_loop(plan.part, grid), rows)
             ig = inverse_gains[plan.part]
             response = plan.block.respond(v, s, ig, drive, k == 0 and layout.chain.source.differential)
+            if k > 0 and reads_through(layout.plans[k - 1], before, response):
+                # a converter input before sees this stage's input terminal, and passes on what
+                # it was fed, held in its window only where that terminal leaves it
+                results[-1] = converter_through(layout, k, response, v, D, dT, entered, results[-1], prior)
+                if k > 1 and shows_input(layout.plans[k - 2 : k], (earlier, before), 1):
+                    results[-2] = shown_input(layout, k, response, v, D, dT, entered, results[-2])
+                fed = entered
+                if not results[-1].linear.all():
+                    window = (prior["low"][:, 0], prior["high"][:, 0])
+                    fed = clamp_rows(entered, window, ~results[-1].linear)
             draws, signal = linear_draws(layout, k, response, v, D, dT, fed, record)
             drive = (
                 response.output_impedance
@@ -248,10 +264,35 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
         pending = None
         if response is not None and passive_output(plan, response, layout.loads[k]):
             pending = (k, response, v, fed)
-        before = response
+        earlier, before, prior, entered = before, response, v, fed
         clipped |= ~draws.linear
         results.append(draws)
     return results
+
+
+def reads_through(plan, before, response) -> bool:
+    """The converter input `plan` (response `before`) is driven through an impedance and the
+    stage after it (`response`) knows its input terminal."""
+    return (
+        plan.block.window_only
+        and before is not None
+        and before.output_impedance is not None
+        and response is not None
+        and response.input_node is not None
+    )
+
+
+def converter_through(layout: Layout, k: int, response, v, D, dT, signal, adc: StageDraws, own) -> StageDraws:
+    """The converter input's draws read at stage k's input terminal, its window checks again."""
+    shown = shown_input(layout, k, response, v, D, dT, signal, adc)
+    margins = dict(shown.margins)
+    margins["input-high"] = own["high"][:, 0] - shown.out_hi
+    margins["input-low"] = shown.out_lo - own["low"][:, 0]
+    linear = np.ones(D.shape[0], dtype=bool)
+    for check, value in margins.items():
+        if check != "supply":
+            linear &= value >= 0
+    return replace(shown, margins=margins, linear=linear)
 
 
 def shown_input(layout: Layout, k: int, response, v, D, dT, signal, passive: StageDraws) -> StageDraws:

@@ -187,6 +187,25 @@ def walk_chain(
             )
             if slope is not None:
                 signal = replace(signal, slope=slope)
+            if plan.block.window_only and reads_through(prepared, k + 1):
+                # a converter input draws nothing: it sees the next stage's input terminal (the
+                # passive stage behind it loaded by that stage), each circuit paired, and so does
+                # the passive stage whose output it is
+                after = k + 1
+                terminal = input_bounds(
+                    prepared.plans[after],
+                    prepared.responses[after],
+                    prepared.values[after],
+                    signal,
+                    rise,
+                    nominal,
+                    memo,
+                    hot_rise=hot,
+                )
+                measure = replace(measure, output=span(terminal), nominal=span(terminal))
+                if results and shows_input(prepared.plans, prepared.responses, k):
+                    passive = results[-1]
+                    results[-1] = replace(passive, measure=replace(passive.measure, output=span(terminal)))
         if notes is not None:
             measure = replace(measure, **notes[k])
         result = judge(measure, plan.part, plan.rails, chain.conditions.margin)
@@ -279,6 +298,21 @@ def linear_stage(
         input_differential=clipped_differential(part, response, amps, freqs),
     )
     return measure, out
+
+
+def reads_through(prepared, k: int) -> bool:
+    """Stage k - 1 is a converter input driven through an impedance, paired row by row with
+    stage k, which knows its input terminal: the converter input then sees that terminal."""
+    plans, responses = prepared.plans, prepared.responses
+    return (
+        0 < k < len(plans)
+        and plans[k - 1].block.window_only
+        and prepared.joint[k]
+        and responses[k - 1] is not None
+        and responses[k - 1].output_impedance is not None
+        and responses[k] is not None
+        and responses[k].input_node is not None
+    )
 
 
 def shows_input(plans, responses, k: int) -> bool:

@@ -379,8 +379,16 @@ def spec_from(draw, block: str) -> Spec:
     if block == "integrator":
         values["rf"] = Value(values["rin"].nominal * draw((1.0, 2.0, 5.0)), values["rf"].tolerance)
     if block.startswith("sallen_key") and draw((False, True)):
-        values["rf"] = Value(draw((1e3, 2.2e3)), tol())  # gain 1.1 or 1.22 (stable: below 3)
-        values["rg"] = Value(10e3, tol())
+        rf = draw((1e3, 2.2e3))  # gain K = 1.1 or 1.22, kept only where the circuit is stable:
+        # the s term of the denominator stays positive with room for the tolerances (half of it)
+        #   low-pass  c2 (r1 + r2) + r1 c1 (1 - K),   high-pass  r1 (c1 + c2) + r2 c2 (1 - K)
+        # (node equations at A and +; for the high-pass: s^2 r1 r2 c1 c2 + s [...] + 1)
+        r1, r2, c1, c2 = (values[n].nominal for n in ("r1", "r2", "c1", "c2"))
+        low = block.endswith("lowpass")
+        damping, pull = (c2 * (r1 + r2), r1 * c1) if low else (r1 * (c1 + c2), r2 * c2)
+        if damping - pull * rf / 10e3 > damping / 2:
+            values["rf"] = Value(rf, tol())
+            values["rg"] = Value(10e3, tol())
     if block in REFS:
         values["ref"] = Value(draw((0.0, 0.5, -1.2)), draw((0.0, 0.02)))
     if block == "summing" and draw((False, True)):
