@@ -126,7 +126,8 @@ def build_layout(
     loads = []
     for k in range(len(plans)):
         rise = chain.conditions.worst_temperature_rise
-        loads.append(load_behind(plans, prepared.responses, k, rise, prepared.values))
+        hottest = max(chain.conditions.temperature)
+        loads.append(load_behind(plans, prepared.responses, k, rise, prepared.values, hottest))
     return Layout(
         chain,
         plans,

@@ -35,8 +35,8 @@ def load_currents(
     low, high = load.returns
     if load.follows:  # anywhere between the signal's own span and the fixed returns
         low, high = np.minimum(out_lo, low), np.maximum(out_hi, high)
-    sourced = np.maximum(current_hi, 0.0) + load.conductance * np.maximum(out_hi - low, 0.0)
-    sunk = np.maximum(-current_lo, 0.0) + load.conductance * np.maximum(high - out_lo, 0.0)
+    sourced = np.maximum(current_hi, 0.0) + load.conductance * np.maximum(out_hi - low, 0.0) + load.pins
+    sunk = np.maximum(-current_lo, 0.0) + load.conductance * np.maximum(high - out_lo, 0.0) + load.pins
     return sourced, sunk
 
 

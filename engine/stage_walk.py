@@ -60,7 +60,34 @@ def passed_slope(plan: StagePlan, response: BlockResponse, signal) -> float | No
     return out if plan.part is None else min(out, plan.part.slew)
 
 
-def load_behind(plans, responses, k: int, rise: float = 0.0, values=None) -> InputLoad:
+def load_behind(plans, responses, k: int, rise: float = 0.0, values=None, hot: float = 25.0) -> InputLoad:
+    """load_behind_stage, plus the bias currents of stage k's own - pin and of the next op-amp
+    stage's two input pins at the hottest temperature `hot` (they reach this output at most whole)."""
+    load = load_behind_stage(plans, responses, k, rise, values)
+    own = plans[k].part
+    pins = 0.0 if own is None else bias_at(own, hot)
+    j = k + 1  # the next stage with an op amp, through converter inputs and passive stages
+    while j < len(plans) and plans[j].part is None:
+        j += 1
+    if j < len(plans) and plans[j].part is not None:
+        pins += 2.0 * bias_at(plans[j].part, hot)
+    return replace(load, pins=load.pins + pins) if pins else load
+
+
+def schmitt_load(plan: StagePlan, v: dict) -> InputLoad:
+    """A non-inverting Schmitt trigger's input: r1 + r2 to its own output, which sits at either
+    level, anywhere between the rails (its other blocks draw only their pins' bias currents)."""
+    if plan.block.name != "schmitt" or plan.flags.get("invert"):
+        return InputLoad()
+    rails = plan.rails
+    return InputLoad(
+        conductance=float(np.max(1.0 / (v["r1"] + v["r2"]))),
+        returns=(rails.negative_range[0], rails.positive_range[1]),
+        least=float(np.min(1.0 / (v["r1"] + v["r2"]))),
+    )
+
+
+def load_behind_stage(plans, responses, k: int, rise: float = 0.0, values=None) -> InputLoad:
     """What stage k's output drives: the next stage's input, or, through converter inputs (which
     draw nothing and pass their input on), the input of the first stage after them. Its return
     voltage is widened by that stage's op-amp offset at `rise` above 25 C (an input resistor
@@ -73,10 +100,10 @@ def load_behind(plans, responses, k: int, rise: float = 0.0, values=None) -> Inp
         j += 1
     following = responses[j] if j < len(responses) else None
     if following is None:
-        return InputLoad()
+        return schmitt_load(plans[j], values[j]) if j < len(plans) and values is not None else InputLoad()
     load = following.input_load
     if following.output_impedance is not None:  # passive: what it drives loads it in turn
-        after = load_behind(plans, responses, j, rise, values)
+        after = load_behind_stage(plans, responses, j, rise, values)
         if after.conductance > 0:
             returns = (min(load.returns[0], after.returns[0]), max(load.returns[1], after.returns[1]))
             load = replace(load, returns=returns, follows=True)
@@ -140,8 +167,15 @@ def walk_chain(
         if entering is not None:
             entering.append(signal)
         next_load = load_behind(
-            prepared.plans, prepared.responses, k, 0.0 if nominal else rise, prepared.values
+            prepared.plans,
+            prepared.responses,
+            k,
+            0.0 if nominal else rise,
+            prepared.values,
+            25.0 if nominal else 25.0 + hot,
         )
+        if nominal:
+            next_load = replace(next_load, pins=0.0)
         v = prepared.values[k]
         if plan.block.saturates:
             measure, signal = saturated_stage(plan, v, signal, rise, nominal, hot_rise=hot)

@@ -58,6 +58,9 @@ class InputLoad:
     # the return node follows the signal (an RC low-pass's capacitor, a weighted mean of what
     # drove it, pulled towards 0 V by its load): it may sit anywhere between that span and returns
     follows: bool = False
+    # bias currents the driving op amp supplies besides (its own - pin, the next stage's input
+    # pins), either direction, A
+    pins: float = 0.0
 
 
 @dataclass(frozen=True)

@@ -301,3 +301,43 @@ def test_a_converter_input_sees_its_node_loaded_by_the_stage_after_it(method):
     # a window it never left (-rf/rin x 2/3 V = -2/3 V; it read -0.467 V, 0.7 x 10k / 15k)
     assert found.stages[2].measure.output == pytest.approx((-2 / 3, -2 / 3), abs=1e-5)
     assert "fed-clipped" not in found.stages[2].reasons
+
+
+SCHMITT_AFTER_BUFFER = """format = 1
+title = "buffer into a Schmitt trigger"
+[rails.main]
+positive = "15"
+negative = "-15"
+[source]
+level = ["0", "0"]
+[[stage]]
+name = "buffer"
+block = "follower"
+part = "clean"
+[[stage]]
+name = "trigger"
+block = "schmitt"
+part = "clean"
+r1 = "10k"
+r2 = "100k"
+"""
+
+
+def test_a_buffer_driving_a_schmitt_trigger_carries_its_feedback_current():
+    # the buffer at 0 V drives r1 + r2 = 110k to the trigger's output, at either level up to the
+    # rails: 15 V / 110k = 136.4 uA either way (Ohm's law). It was charged nothing before (the
+    # trigger's input was taken to draw no current). Found by the whole-chain reference.
+    buffer = result(SCHMITT_AFTER_BUFFER, part()).stages[0]
+    assert buffer.measure.opamps[0].current_needed == pytest.approx(15 / 110e3, rel=1e-6)
+
+
+def test_an_output_supplies_the_bias_currents_of_the_pins_it_drives():
+    # a follower at 0 V driving a follower: the first op amp's own - pin (its output) and the
+    # second's + pin each draw up to 1 uA of bias either way, and the second's - pin is its own
+    # output: the first supplies 1 + 2 x 1 uA at most, a bound on the 2 uA it does supply. It
+    # was charged nothing before. Found by the whole-chain reference.
+    text = SCHMITT_AFTER_BUFFER.replace('block = "schmitt"', 'block = "follower"').replace(
+        'r1 = "10k"\nr2 = "100k"\n', ""
+    )
+    buffer = result(text, part(bias_current=1e-6)).stages[0]
+    assert buffer.measure.opamps[0].current_needed == pytest.approx(3e-6, rel=1e-9)
