@@ -468,18 +468,18 @@ def main(examples: int = 150, seed: int = 11) -> None:
                 gap = value - stage.margins[check]
                 scale = SLEW if check == "slew" else CURRENT if check == "current" else 1.0
                 need = scale - value if check in ("slew", "current") else 1.0
-                rel = gap / need if check in ("slew", "current") and need > 0 else gap
+                rel = gap / need if check == "slew" and need > 0 else gap
                 key = (spec.block, check)
                 low, high = worst.get(key, (np.inf, -np.inf))
                 worst[key] = (min(low, rel), max(high, rel))
-                optimistic += rel < (-1e-6 if check not in ("slew", "current") else -1e-9)
-    print(f"{count} chains; {optimistic} margins optimistic by more than 1 uV (slew, current: 1e-9)")
+                optimistic += rel < {"slew": -1e-9, "current": -1e-9}.get(check, -1e-6)
+    print(f"{count} chains; {optimistic} margins optimistic by more than 1 uV (current 1 nA, slew 1e-9)")
     print(
-        f"{'block':20} {'check':12} {'least':>12} {'most':>12}  pessimism (mV; slew, current: % of the need)"
+        f"{'block':20} {'check':12} {'least':>12} {'most':>12}  pessimism (mV; current uA; slew % of the need)"
     )
     for (block, check), gaps in sorted(worst.items()):
-        rate = check in ("slew", "current")
-        text = [f"{g:.3%}" if rate else f"{g * 1e3:.4f}" for g in gaps]
+        scale = {"current": 1e6}.get(check, 1e3)
+        text = [f"{g:.3%}" if check == "slew" else f"{g * scale:.4f}" for g in gaps]
         print(f"{block:20} {check:12} {text[0]:>12} {text[1]:>12}")
 
 
