@@ -55,7 +55,8 @@ REFINE_POINTS = 8  # added between the neighbours of each stage's peak inside th
 
 def refined(chain: Chain, plans, grid: np.ndarray) -> np.ndarray:
     """The grid with more points around every frequency inside the band where some stage's
-    nominal extreme (highest value, lowest value, amplitude, or slope 2 pi f a) peaks: each
+    nominal extreme (highest value, lowest value, amplitude, or slope 2 pi f a), or an op amp's
+    output current per volt of the signal, peaks: each
     block's own peak is on the grid already, but a chain's product of a falling and a rising
     response peaks between the points (an integrator then a Sallen-Key high-pass read 0.07 %
     short on the 16-per-decade grid; tests/references/catalogue_brute.py). A peak is flat, so the
@@ -69,6 +70,13 @@ def refined(chain: Chain, plans, grid: np.ndarray) -> np.ndarray:
     prepared = corners.prepare(chain, plans, grid, nominal=True)
     walk_chain(prepared, corners.start_signal(chain, grid), nominal=True, levels=levels)
     peaks = set()
+    for response in prepared.responses:  # each op amp's output current peaks on its own
+        for amp in response.opamps if response is not None else ():
+            transfer = amp.current.transfers.get("in")
+            if transfer is not None and transfer.shape[-1] == len(grid) + 1:
+                i = int(np.argmax(np.max(np.abs(transfer[..., 1:]), axis=0)))
+                if 0 < i < len(grid) - 1:
+                    peaks.add(i)
     for bounds in levels.values():
         for curve in (bounds.hi, -bounds.lo, bounds.amp_hi, bounds.amp_hi * grid):
             i = int(np.argmax(np.max(curve, axis=0)))
