@@ -114,7 +114,7 @@ def load_behind_stage(plans, responses, k: int, rise: float = 0.0, values=None) 
     part = plans[j].part
     if part is None or load.conductance == 0:
         return load
-    offset = part.offset_at(25.0 + rise)
+    offset = part.offset_at(25.0 + rise) + load.shift * bias_at(part, 25.0 + rise)
     return replace(load, returns=(load.returns[0] - offset, load.returns[1] + offset))
 
 

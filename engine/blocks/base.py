@@ -61,6 +61,9 @@ class InputLoad:
     # bias currents the driving op amp supplies besides (its own - pin, the next stage's input
     # pins), either direction, A
     pins: float = 0.0
+    # the return node also moves by the stage's bias current times this resistance, ohm (an MFB
+    # low-pass's node A sits Ib r3 from its - pin)
+    shift: float = 0.0
 
 
 @dataclass(frozen=True)

@@ -322,7 +322,7 @@ class MfbLowpass(Block):
     )
 
     def respond(self, v, s, inverse_gain, drive, differential):
-        return mfb_response(
+        response = mfb_response(
             multiple_feedback(
                 1.0 / (v["r1"] + drive),
                 1.0 / v["r2"],
@@ -335,6 +335,8 @@ class MfbLowpass(Block):
             v,
             drive,
         )
+        # the - pin's bias current flows from node A through r3: A sits Ib r3 off the - pin
+        return replace(response, input_load=replace(response.input_load, shift=float(np.max(v["r3"]))))
 
     def critical_frequencies(self, v):
         r1, r2, r3, c1, c2 = v["r1"], v["r2"], v["r3"], v["c1"], v["c2"]

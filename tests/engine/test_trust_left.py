@@ -341,3 +341,37 @@ def test_an_output_supplies_the_bias_currents_of_the_pins_it_drives():
     )
     buffer = result(text, part(bias_current=1e-6)).stages[0]
     assert buffer.measure.opamps[0].current_needed == pytest.approx(3e-6, rel=1e-9)
+
+
+MFB_AFTER_BUFFER = """format = 1
+title = "buffer into an MFB low-pass"
+[rails.main]
+positive = "15"
+negative = "-15"
+[source]
+level = ["0", "0"]
+[[stage]]
+name = "buffer"
+block = "follower"
+part = "clean"
+[[stage]]
+name = "filter"
+block = "mfb_lowpass"
+part = "clean"
+r1 = "1k"
+r2 = "1k"
+r3 = "47k"
+c1 = "1n"
+c2 = "1n"
+"""
+
+
+def test_an_mfb_lowpass_input_returns_to_node_a_moved_by_the_bias_through_r3():
+    # at DC (capacitors open) the filter's - pin draws its 1 uA bias through r3 from node A, so
+    # A sits at 1 uA x 47k = 47 mV above the virtual earth (KCL at A and Ohm's law): the buffer at
+    # 0 V sinks 47 mV / 1k = 47 uA through r1, plus its own - pin's 1 uA: 48 uA. The bound adds
+    # the filter's second pin: 47 + 3 = 50 uA. It was 3 uA before (node A taken at ref).
+    # Found by the whole-chain reference (tests/references/catalogue_brute.py).
+    buffer = result(MFB_AFTER_BUFFER, part(bias_current=1e-6)).stages[0]
+    assert buffer.measure.opamps[0].current_needed >= 48e-6
+    assert buffer.measure.opamps[0].current_needed == pytest.approx(50e-6, rel=1e-3)

@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from hypothesis import HealthCheck, assume, given, settings
+from hypothesis import HealthCheck, assume, event, given, settings
 from hypothesis import strategies as st
 
 from references.catalogue_brute import CURRENT, SLEW, case_from, compare, toleranced
@@ -35,7 +35,7 @@ def cases(draw):
 
 
 @settings(
-    max_examples=40,
+    max_examples=150,
     deadline=None,
     derandomize=True,
     suppress_health_check=[HealthCheck.filter_too_much, HealthCheck.too_slow],
@@ -43,6 +43,8 @@ def cases(draw):
 @given(case=cases())
 def test_catalogue_chains_are_never_optimistic(case):
     assume(len(toleranced(case)) <= 5)
+    for spec in case.specs:
+        event(spec.block)
     result, truth, _ = compare(case)
     assume(not any(s.regime == "clipping" or s.measure.fed_clipped for s in result.stages))
     dc = case.band[1] == 0 or case.amplitude == 0
