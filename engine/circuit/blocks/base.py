@@ -55,6 +55,15 @@ class InputLoad:
     conductance: float = 0.0  # largest over the tolerance, S
     returns: tuple[float, float] = (0.0, 0.0)
     least: float = 0.0  # smallest over the tolerance and band (0: not known), S
+    # the return node follows the signal (an RC low-pass's capacitor, a weighted mean of what
+    # drove it, pulled towards 0 V by its load): it may sit anywhere between that span and returns
+    follows: bool = False
+    # bias currents the driving op amp supplies besides (its own - pin, the next stage's input
+    # pins), either direction, A
+    pins: float = 0.0
+    # the return node also moves by the stage's bias current times this resistance, ohm (an MFB
+    # low-pass's node A sits Ib r3 from its - pin)
+    shift: float = 0.0
 
 
 @dataclass(frozen=True)
