@@ -259,9 +259,9 @@ def walk_chain(
             if plan.block.window_only and only is not None and reads_through(prepared, k, only):
                 # a converter input draws nothing: it sees its child's input terminal (the passive
                 # stage behind it loaded by that stage), each circuit paired, and so does the
-                # passive stage whose output it is. Only with one child: a converter input feeding
-                # several stages shows what it is fed, as before (the terminal of one child alone
-                # leaves out the others' loads)
+                # passive stage whose output it is. Only with one child (the loader lets a stage
+                # with no op amp feed one): one feeding several would show what it is fed, as
+                # before, the terminal of one child alone leaving out the others' loads
                 fed = getattr(signal, "fed_clipped", False)
                 handing = hand_on((k, bounds, None, fed, None, slope, None), only, prepared)
                 terminal = input_bounds(
