@@ -27,7 +27,6 @@ rows beside it.
 
 from __future__ import annotations
 
-
 from dataclasses import dataclass, replace
 from functools import cached_property
 
