@@ -138,7 +138,7 @@ class Evaluator:
         """rss results of the changed chain: the unchanged ones before `first`, then the stages
         re-walked from the state the unchanged chain's linearisation had at `first`."""
         from railroom.engine.methods.rss import results_of
-        from railroom.engine.walks.bounds_walk import stage_loads, tree_children
+        from railroom.engine.walks.bounds_walk import load_behind, tree_children
         from railroom.engine.aids.sensitivity import walk_linearised
 
         assert self._lin is not None and self._baseline is not None
@@ -146,12 +146,17 @@ class Evaluator:
             self._fed = []
             walk_linearised(self._lin.layout, self._fed)
         stop = len(plans) if stop is None else stop
-        # in one line each stage feeds the next one only (stage_loads of the tree)
+        # in one line each stage feeds the next one only (load_behind on the tree, as build_layout)
         children = tree_children(plan_parents(plans))
+        rise = self.chain.conditions.worst_temperature_rise
+        hottest = max(self.chain.conditions.temperature)
         layout = replace(
             self._lin.layout,
             plans=plans,
-            loads=tuple(stage_loads(prepared.responses, children[k]) for k in range(len(plans))),
+            loads=tuple(
+                load_behind(plans, prepared.responses, k, rise, prepared.values, hottest, children)
+                for k in range(len(plans))
+            ),
             corner=(*found, *self._unchanged[len(found) :]),
         )
         draws = walk_linearised(layout, first=first, stop=stop, start=self._fed[first])

@@ -75,6 +75,9 @@ def judged(
     windows that leave those margins are set on the measure for the views."""
     m = corner.measure
     opamps = []
+    # fed a clipped signal: the per-circuit walk reads a clipped sine's slope from its held
+    # amplitude; the corners walk carries the clipped waveform's own slope bound, so its need stands
+    slew_from_corners = fed_clipped and m.fed_clipped
     for old, stat in zip(m.opamps, amps):
         out = (stat.get("out-low", old.output[0]), stat.get("out-high", old.output[1]))
         inp = (stat["in-low"], stat["in-high"])
@@ -88,7 +91,11 @@ def judged(
                 window=window,
                 input=inp,
                 input_window=(inp[0] - stat["input-low"], inp[1] + stat["input-high"]),
-                slew_needed=old.slew_available - stat["slew"] if "slew" in stat else old.slew_needed,
+                slew_needed=(
+                    old.slew_available - stat["slew"]
+                    if "slew" in stat and not slew_from_corners
+                    else old.slew_needed
+                ),
                 current_needed=old.current_available - stat["current"],
             )
         )

@@ -32,8 +32,20 @@ def each_load(load: Loads) -> tuple[InputLoad, ...]:
 
 
 def one_load(load: Loads) -> InputLoad:
-    """The one stage's input on a passive output (the loader lets a passive stage feed one)."""
+    """The one stage's input on a passive output (the loader lets a passive stage feed one; a
+    converter input after it may feed several, whose inputs then count as one: their conductances
+    add and the return spans all of theirs, an outside bound, since the node's voltage is linear in
+    the conductance-weighted mean of the returns)."""
     found = each_load(load)
+    if len(found) > 1:
+        return InputLoad(
+            conductance=sum(one.conductance for one in found),
+            returns=(min(one.returns[0] for one in found), max(one.returns[1] for one in found)),
+            least=sum(one.least for one in found),
+            follows=any(one.follows for one in found),
+            pins=sum(one.pins for one in found),
+            shift=max(one.shift for one in found),
+        )
     return found[0] if found else InputLoad()
 
 
@@ -48,16 +60,21 @@ def load_currents(
     sourced at the upper extreme of the output (and likewise for the sunk current); with
     several stages fed, each one's current is taken at its own worst return voltage. An input
     that blocks DC (load.blocks_dc) draws the AC part alone, whose peak a is at most half the
-    output's span: G (out_hi - out_lo) / 2 >= G a each way."""
+    output's span: G (out_hi - out_lo) / 2 >= G a each way. A load whose return follows the
+    signal (InputLoad.follows) may return anywhere between the signal's own span and its fixed
+    returns; each adds the bias currents of the pins it counts (InputLoad.pins)."""
     sourced = np.maximum(current_hi, 0.0)
     sunk = np.maximum(-current_lo, 0.0)
     for one in each_load(load):
         if one.blocks_dc:
             swing = one.conductance * np.maximum(out_hi - out_lo, 0.0) / 2.0
-            sourced, sunk = sourced + swing, sunk + swing
+            sourced, sunk = sourced + swing + one.pins, sunk + swing + one.pins
             continue
-        sourced = sourced + one.conductance * np.maximum(out_hi - one.returns[0], 0.0)
-        sunk = sunk + one.conductance * np.maximum(one.returns[1] - out_lo, 0.0)
+        low, high = one.returns
+        if one.follows:
+            low, high = np.minimum(out_lo, low), np.maximum(out_hi, high)
+        sourced = sourced + one.conductance * np.maximum(out_hi - low, 0.0) + one.pins
+        sunk = sunk + one.conductance * np.maximum(high - out_lo, 0.0) + one.pins
     return sourced, sunk
 
 

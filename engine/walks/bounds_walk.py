@@ -12,7 +12,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from railroom.engine.circuit.blocks.base import BlockResponse, InputLoad, OpAmpNodes
+from railroom.engine.circuit.blocks.base import BlockResponse, InputLoad, OpAmpNodes, load_conductance
 from railroom.engine.verdict.judge import judge
 from railroom.engine.verdict.margins import each_load, load_currents, one_load
 from railroom.engine.circuit.opamp import TWO_PI, input_window, output_window
@@ -33,6 +33,120 @@ from railroom.engine.walks.signal_bounds import (
 )
 from railroom.engine.circuit.model import stage_parents
 from railroom.engine.verdict.results import OpAmpMeasure, StageMeasure, StageResult
+
+
+# Blocks whose response to the chain signal is a scaled impulse response that never changes sign
+# (flat stages, one-pole op amps, first-order passives, cascades of them): the output's slope is then
+# at most max |H| times the input's (|y'| <= ||h||_1 |x'|, ||h||_1 = max |H| for h >= 0; Oppenheim &
+# Willsky, Signals and Systems, ch. 2, BIBO stability). A clipped signal's slope bound passes through
+# them; a second-order filter's may ring, so after one the bound is dropped (its slope is then read
+# from its amplitudes, as for a sine).
+SLOPE_KEEPING = frozenset(
+    {"follower", "noninverting", "inverting", "summing", "difference", "instrumentation"}
+    | {"integrator", "divider", "rc_lowpass", "adc"}
+)
+
+
+def largest_gain(node) -> float:
+    """max |H| of a node from the chain signal over the corners and the band (0 when it sees none)."""
+    transfer = node.transfers.get("in")
+    return 0.0 if transfer is None else float(np.max(np.abs(transfer)))
+
+
+def passed_slope(plan: StagePlan, response: BlockResponse, signal) -> float | None:
+    """The slope bound of what a linear stage hands on, from the one it is fed (SLOPE_KEEPING)."""
+    slope = getattr(signal, "slope", None)
+    if slope is None or plan.block.name not in SLOPE_KEEPING:
+        return None
+    out = largest_gain(response.output) * slope
+    return out if plan.part is None else min(out, plan.part.slew)
+
+
+def load_behind(
+    plans, responses, k: int, rise: float = 0.0, values=None, hot: float = 25.0, children=None
+) -> tuple[InputLoad, ...]:
+    """load_behind_stage, plus the bias currents of stage k's own - pin and of the two input pins
+    of each op-amp stage it feeds (through converter inputs and passive stages) at the hottest
+    temperature `hot` (they reach this output at most whole; Kirchhoff's current law adds them).
+    `children`: tree_children of the plans (found here when not given)."""
+    if children is None:
+        children = tree_children(plan_parents(plans))
+    loads = load_behind_stage(plans, responses, k, rise, values, children)
+    own = plans[k].part
+    pins = 0.0 if own is None else bias_at(own, hot)
+
+    def reached(j: int) -> float:  # the op-amp stages fed by stage j, through part-less ones
+        total = 0.0
+        for c in children[j]:
+            total += 2.0 * bias_at(plans[c].part, hot) if plans[c].part is not None else reached(c)
+        return total
+
+    pins += reached(k)
+    if not pins:
+        return loads
+    if not loads:
+        return (InputLoad(pins=pins),)
+    return (replace(loads[0], pins=loads[0].pins + pins), *loads[1:])
+
+
+def schmitt_load(plan: StagePlan, v: dict) -> InputLoad:
+    """A non-inverting Schmitt trigger's input: r1 + r2 to its own output, which sits at either
+    level, anywhere between the rails (its other blocks draw only their pins' bias currents)."""
+    if plan.block.name != "schmitt" or plan.flags.get("invert"):
+        return InputLoad()
+    rails = plan.rails
+    return InputLoad(
+        conductance=float(np.max(1.0 / (v["r1"] + v["r2"]))),
+        returns=(rails.negative_range[0], rails.positive_range[1]),
+        least=float(np.min(1.0 / (v["r1"] + v["r2"]))),
+    )
+
+
+def load_behind_stage(
+    plans, responses, k: int, rise: float = 0.0, values=None, children=None
+) -> tuple[InputLoad, ...]:
+    """What stage k's output drives, one load per stage fed: each child's input, or, through a
+    converter input (which draws nothing and passes its input on), the inputs of the stages it
+    feeds in turn. Each return voltage is widened by that stage's op-amp offset at `rise` above
+    25 C (an input resistor returns to the - pin, which sits at ref + Vos, not at ref). A passive
+    stage there is loaded by what it feeds in turn: a divider's input conductance is then that of
+    top in series with bottom || the inputs after it (`values`: the stages' component values), and
+    the passive stage's return reaches the later inputs' return voltages too."""
+    if children is None:
+        children = tree_children(plan_parents(plans))
+    found: list[InputLoad] = []
+    for j in children[k]:
+        if plans[j].block.window_only:
+            found.extend(load_behind_stage(plans, responses, j, rise, values, children))
+            continue
+        following = responses[j]
+        if following is None:
+            found.append(schmitt_load(plans[j], values[j]) if values is not None else InputLoad())
+            continue
+        load = following.input_load
+        if following.output_impedance is not None:  # passive: what it drives loads it in turn
+            after = load_behind_stage(plans, responses, j, rise, values, children)
+            conductance = sum(one.conductance for one in after)
+            if conductance > 0:
+                returns = (
+                    min([load.returns[0], *(one.returns[0] for one in after)]),
+                    max([load.returns[1], *(one.returns[1] for one in after)]),
+                )
+                load = replace(load, returns=returns, follows=True)
+                if plans[j].block.name == "divider" and values is not None:
+                    v = values[j]
+                    bottom = 1.0 / (1.0 / v["bottom"] + load_conductance(v) + conductance)
+                    load = replace(load, conductance=float(np.max(1.0 / (v["top"] + bottom))))
+                if load.blocks_dc:
+                    # ac_coupling: above its corner the capacitor is a short, so the AC part
+                    # drives r in parallel with what it feeds (an upper bound on its conductance)
+                    load = replace(load, conductance=load.conductance + conductance)
+        part = plans[j].part
+        if part is not None and load.conductance != 0:
+            offset = part.offset_at(25.0 + rise) + load.shift * bias_at(part, 25.0 + rise)
+            load = replace(load, returns=(load.returns[0] - offset, load.returns[1] + offset))
+        found.append(load)
+    return tuple(found)
 
 
 def span(bounds: NodeBounds) -> tuple[float, float]:
@@ -100,11 +214,21 @@ def walk_chain(
                 signal = recorded[k]
         if entering is not None:
             entering.append(signal)
-        next_load = stage_loads(responses, children[k])
+        next_load = load_behind(
+            plans,
+            responses,
+            k,
+            0.0 if nominal else rise,
+            prepared.values,
+            25.0 if nominal else 25.0 + hot,
+            children,
+        )
+        if nominal:
+            next_load = tuple(replace(one, pins=0.0) for one in next_load)
         v = prepared.values[k]
         if plan.block.saturates:
             measure, passed = saturated_stage(plan, v, signal, rise, nominal, hot_rise=hot)
-            bounds = None
+            bounds, slope = None, None
         else:
             only = children[k][0] if len(children[k]) == 1 else None
             later = only is not None and prepared.joint[only] and shows_input_of(plans, responses, k, only)
@@ -134,11 +258,40 @@ def walk_chain(
             if levels is not None:
                 levels[k] = bounds
             passed = None
+            slope = passed_slope(plan, responses[k], signal)
+            only = children[k][0] if len(children[k]) == 1 else None
+            if plan.block.window_only and only is not None and reads_through(prepared, k, only):
+                # a converter input draws nothing: it sees its child's input terminal (the passive
+                # stage behind it loaded by that stage), each circuit paired, and so does the
+                # passive stage whose output it is. Only with one child (the loader lets a stage
+                # with no op amp feed one): one feeding several would show what it is fed, as
+                # before, the terminal of one child alone leaving out the others' loads
+                fed = getattr(signal, "fed_clipped", False)
+                handing = hand_on((k, bounds, None, fed, None, slope, None), only, prepared)
+                terminal = input_bounds(
+                    plans[only],
+                    responses[only],
+                    prepared.values[only],
+                    handing,
+                    rise,
+                    nominal,
+                    memo,
+                    hot_rise=hot,
+                )
+                measure = replace(measure, output=span(terminal), nominal=span(terminal))
+                if parent in results and shows_input_of(plans, responses, parent, k):
+                    before = results[parent]
+                    results[parent] = replace(before, measure=replace(before.measure, output=span(terminal)))
         if notes is not None:
             measure = replace(measure, **notes[k])
         result = judge(measure, plan.part, plan.rails, chain.conditions.margin)
         window = measure.window if result.regime == "clipping" and measure.window is not None else None
-        handed[k] = (k, bounds, passed, getattr(signal, "fed_clipped", False), window)
+        clip_slope = None
+        if window is not None:
+            # the clipped output is no steeper than the unclipped need, nor than the slew rate
+            last = measure.opamps[-1] if measure.opamps else None
+            clip_slope = None if last is None else min(last.slew_needed, last.slew_available)
+        handed[k] = (k, bounds, passed, getattr(signal, "fed_clipped", False), window, slope, clip_slope)
         results[k] = result
     return [results[k] for k in sorted(results)]
 
@@ -165,8 +318,8 @@ def stage_loads(responses, fed: tuple[int, ...]) -> tuple[InputLoad, ...]:
 def hand_on(handed: tuple, child: int, prepared) -> Signal:
     """What stage k passes to the stage `child` it feeds: a saturated stage its two levels; a
     linear stage its bounds, row by row when the child's corners pair with its own, merged
-    otherwise; held inside its window when it clips."""
-    k, bounds, passed, fed, window = handed
+    otherwise, with its slope bound (passed_slope); held inside its window when it clips."""
+    k, bounds, passed, fed, window, slope, clip_slope = handed
     if passed is None:
         passed = (
             paired(
@@ -175,7 +328,9 @@ def hand_on(handed: tuple, child: int, prepared) -> Signal:
             if prepared.joint[child]
             else merge(bounds, fed)
         )
-    return clamp(passed, window) if window is not None else passed
+        if slope is not None:
+            passed = replace(passed, slope=slope)
+    return clamp(passed, window, clip_slope) if window is not None else passed
 
 
 def paired(bounds: NodeBounds, rows: int, next_rows: int, fed_clipped: bool) -> Signal:
@@ -260,6 +415,21 @@ def linear_stage(
         input_differential=clipped_differential(part, response, amps, freqs),
     )
     return measure, out
+
+
+def reads_through(prepared, k: int, child: int) -> bool:
+    """Stage k is a converter input driven through an impedance, paired row by row with the
+    stage `child` it feeds, which knows its input terminal: the converter input then sees that
+    terminal."""
+    plans, responses = prepared.plans, prepared.responses
+    return (
+        plans[k].block.window_only
+        and prepared.joint[child]
+        and responses[k] is not None
+        and responses[k].output_impedance is not None
+        and responses[child] is not None
+        and responses[child].input_node is not None
+    )
 
 
 def shows_input(plans, responses, k: int) -> bool:
@@ -347,6 +517,13 @@ def opamp_measure(
     )
     needed = float(max(sourced, sunk))
     slew = float(np.max(TWO_PI * freqs * out.amp_hi)) if out.amp_hi.size else 0.0
+    slope = getattr(signal, "slope", None)
+    if slope is not None:
+        # fed a clipped waveform: its amplitudes are no sine's (a sine clipped to half its height
+        # keeps its full slope at the crossings), so the need is its slope bound through this op
+        # amp's gain; after a filter that may ring, no less than the amplitudes' (SLOPE_KEEPING)
+        through = largest_gain(amp.output) * slope
+        slew = through if plan.block.name in SLOPE_KEEPING else max(slew, through)
     return OpAmpMeasure(
         label=amp.label,
         output=out_span,

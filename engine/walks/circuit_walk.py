@@ -46,10 +46,10 @@ from railroom.engine.walks.preparation import StagePlan
 from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, loaded_bounds, node_bounds
 from railroom.engine.verdict.results import StageResult
 from railroom.engine.walks.bounds_walk import (
+    load_behind,
     passive_output,
     plan_parents,
     shows_input_of,
-    stage_loads,
     tree_children,
 )
 from railroom.engine.circuit.model import NetValue
@@ -151,7 +151,12 @@ def build_layout(
             ]
     variables = [v for v in variables if v.scale]
     children = tree_children(plan_parents(plans))
-    loads = [stage_loads(prepared.responses, children[k]) for k in range(len(plans))]
+    rise = chain.conditions.worst_temperature_rise
+    hottest = max(chain.conditions.temperature)
+    loads = [
+        load_behind(plans, prepared.responses, k, rise, prepared.values, hottest, children)
+        for k in range(len(plans))
+    ]
     return Layout(
         chain,
         plans,
@@ -270,6 +275,9 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
     inverse_gains: dict = {}  # 1/A(s) per row, once per part: stages share parts
     passed: dict = {}  # stage -> (the signal it passes on, what drives the stages it feeds)
     pending: dict[int, tuple] = {}  # passive stage -> what settles its shown span once its stage is walked
+    # converter input with one child -> (its values, the signal it was fed), until the child is walked
+    converters: dict[int, tuple] = {}
+    grand_responses: dict = {}  # the response of the stage feeding such a converter input
     for k, plan in enumerate(layout.plans):
         parent = parents[k]
         if parent < 0:
@@ -288,6 +296,23 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
                 inverse_gains[plan.part] = per_row(inverse_open_loop(plan.part, grid), rows)
             ig = inverse_gains[plan.part]
             response = plan.block.respond(v, s, ig, drive, parent < 0 and layout.chain.source.differential)
+            if parent in converters and reads_through(layout.plans[parent], before, response):
+                # the converter input before (this stage its only child) sees this stage's input
+                # terminal, and passes on what it was fed, held in its window only where that
+                # terminal leaves it; a converter input feeding several stages keeps what it shows
+                prior, entered = converters[parent]
+                results[parent] = converter_through(
+                    layout, k, response, v, D, dT, entered, results[parent], prior
+                )
+                grand = parents[parent]
+                if grand >= 0 and shows_input_of(
+                    layout.plans, {grand: grand_responses.get(grand), parent: before}, grand, parent
+                ):
+                    results[grand] = shown_input(layout, k, response, v, D, dT, entered, results[grand])
+                fed = entered
+                if not results[parent].linear.all():
+                    window = (prior["low"][:, 0], prior["high"][:, 0])
+                    fed = clamp_rows(entered, window, ~results[parent].linear)
             draws, signal = linear_draws(layout, k, response, v, D, dT, fed, record)
             out_drive = (
                 response.output_impedance
@@ -305,10 +330,39 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
         if response is not None and passive_output(plan, response, layout.loads[k]):
             pending[k] = (k, response, v, fed)
         passed[k] = (signal, out_drive, response)
+        if plan.block.window_only and len(children[k]) == 1:
+            converters[k] = (v, fed)
+            grand_responses[parent] = before
+        converters.pop(parent, None)
         if parent >= 0 and k == children[parent][-1]:
             del passed[parent]  # every stage it feeds is walked: its rows are no longer needed
         results.append(draws)
     return results
+
+
+def reads_through(plan, before, response) -> bool:
+    """The converter input `plan` (response `before`) is driven through an impedance and the
+    stage after it (`response`) knows its input terminal."""
+    return (
+        plan.block.window_only
+        and before is not None
+        and before.output_impedance is not None
+        and response is not None
+        and response.input_node is not None
+    )
+
+
+def converter_through(layout: Layout, k: int, response, v, D, dT, signal, adc: StageDraws, own) -> StageDraws:
+    """The converter input's draws read at stage k's input terminal, its window checks again."""
+    shown = shown_input(layout, k, response, v, D, dT, signal, adc)
+    margins = dict(shown.margins)
+    margins["input-high"] = own["high"][:, 0] - shown.out_hi
+    margins["input-low"] = shown.out_lo - own["low"][:, 0]
+    linear = np.ones(D.shape[0], dtype=bool)
+    for check, value in margins.items():
+        if check != "supply":
+            linear &= value >= 0
+    return replace(shown, margins=margins, linear=linear)
 
 
 def shown_input(layout: Layout, k: int, response, v, D, dT, signal, passive: StageDraws) -> StageDraws:

@@ -45,6 +45,9 @@ class Signal:
     amp_lo: np.ndarray
     amp_hi: np.ndarray
     fed_clipped: bool = False
+    # after a clipping stage: the largest |dV/dt| the clipped waveform can have, V/s (None: not
+    # bounded apart from its amplitudes; a sine's slope is 2 pi f a)
+    slope: float | None = None
 
     @property
     def span(self) -> tuple[float, float]:
@@ -246,8 +249,9 @@ def merge(bounds: NodeBounds, fed_clipped: bool) -> Signal:
     )
 
 
-def clamp(signal: Signal, window: tuple[float, float]) -> Signal:
-    """What a clipping stage passes on: its output held inside its swing window."""
+def clamp(signal: Signal, window: tuple[float, float], slope: float | None = None) -> Signal:
+    """What a clipping stage passes on: its output held inside its swing window, and its slope
+    bound (a clipped sine is never steeper than the sine; a slew-limited one than the slew rate)."""
     low, high = window
     half = max((high - low) / 2.0, 0.0)
     return Signal(
@@ -256,6 +260,7 @@ def clamp(signal: Signal, window: tuple[float, float]) -> Signal:
         amp_lo=np.minimum(signal.amp_lo, half),
         amp_hi=np.minimum(signal.amp_hi, half),
         fed_clipped=True,
+        slope=slope,
     )
 
 

@@ -61,7 +61,10 @@ def test_downstream_rss_fixes_walk_a_few_stages_per_candidate(monkeypatch):
     monkeypatch.setattr(dw, "stage_values", counting)
     result = analyse(chain, PARTS, method="rss")
     fixed = result.stages[2].fixes
-    assert any(f.field == "rf" for f in fixed)
+    # a lower gain: rg up, or rf down (rf 53.6k was offered while stage 4's RC low-pass capacitor
+    # was taken as a fixed return at 0 V; taken to follow the signal, InputLoad.follows, stage 3's
+    # current need grows and the search offers rg 4.3k and 4.12k)
+    assert any(f.field in ("rf", "rg") for f in fixed)
     # one linearisation of the whole chain, then the candidates' few stages each
     assert walked[:48] == list(range(1, 49))
     assert set(walked[48:]) <= {2, 3}

@@ -126,7 +126,10 @@ def test_rss_never_reports_a_margin_below_the_worst_case():
     chain, library = load_checked(str(path))
     corners = analyse(chain, library.parts, design_aids=False, headroom=False)
     rss = analyse(chain, library.parts, method="rss", design_aids=False, headroom=False)
-    assert rss.stages[0].measure.window == pytest.approx((-9.9, 9.9), abs=1e-9)
+    # less the output resistance's drop for the bias currents the output supplies: its own -
+    # pin and the next stage's two pins, 75 ohm x 3 x 100 nA = 22.5 uV (presets/generic.toml)
+    drop = 75 * 3 * 100e-9
+    assert rss.stages[0].measure.window == pytest.approx((-9.9 + drop, 9.9 - drop), abs=1e-9)
     for worst, statistical in zip(corners.stages, rss.stages):
         for check, margin in worst.margins.items():
             assert statistical.margins[check] >= margin - 1e-9, (worst.measure.index, check)

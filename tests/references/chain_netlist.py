@@ -186,3 +186,171 @@ def peak(
             lo, hi = (lo, b) if f(a) < f(b) else (a, hi)
         best.append(max(float(m[i]), -f((lo + hi) / 2)))
     return best
+
+
+# ---- the whole catalogue (issue 11, property tests) -------------------------------------------
+# A separate builder, so the builder above stays as it is. Every value may be a numpy array (a
+# batch of circuits, one per joint corner of the toleranced components). Every independent source
+# is a named unit: `units[label]` is its value (0 when absent), so that by superposition a caller
+# can solve once per source. Labels: "level" (single-ended source), "cm" and "diff" (differential:
+# pos = cm + diff/2, neg = cm - diff/2, each behind the source impedance), and per stage k:
+# "k:ref", "k:threshold", "k:inputs.N.v" (summing), "k:offsetJ", "k:bias+J", "k:bias-J" for its
+# op amp J (bias flows from the circuit INTO the pin), "k:level" (a Schmitt trigger's output level).
+# Topologies: railroom's README, File formats, the block table, word for word.
+
+
+@dataclass(frozen=True)
+class CatalogueNodes:
+    """Where to read a stage: its output node and, per op amp, (output node, + pin node)."""
+
+    out: str
+    opamps: tuple[tuple[str, str], ...] = ()
+
+
+def catalogue_build(
+    stages: list[Stage], units: dict, impedance, differential: bool = False
+) -> tuple[Circuit, list[CatalogueNodes]]:
+    c = Circuit()
+    u = lambda label: units.get(label, 0.0)
+    if differential:
+        sides = []
+        for name, sign in (("pos", 1.0), ("neg", -1.0)):
+            value = u("cm") + sign * u("diff") / 2
+            if np.any(np.asarray(impedance) != 0):
+                c.source(f"src_{name}", value)
+                c.resistor(f"src_{name}", f"s_{name}", impedance)
+            else:
+                c.source(f"s_{name}", value)
+            sides.append(f"s_{name}")
+        node: str | tuple[str, str] = (sides[0], sides[1])
+    else:
+        if np.any(np.asarray(impedance) != 0):
+            c.source("src", u("level"))
+            c.resistor("src", "s_out", impedance)
+        else:
+            c.source("s_out", u("level"))
+        node = "s_out"
+    found = []
+    for k, st in enumerate(stages):
+        nodes = _catalogue_stage(c, st, node, f"n{k}", lambda label, k=k: u(f"{k}:{label}"))
+        if st.load:
+            c.resistor(nodes.out, "0", st.load)
+        found.append(nodes)
+        node = nodes.out
+    return c, found
+
+
+def _pin_bias(c: Circuit, node: str, amps) -> None:
+    if np.any(np.asarray(amps) != 0):
+        c.current(node, -np.asarray(amps))
+
+
+def _catalogue_opamp(c: Circuit, st: Stage, u, j: int, plus: str, minus: str, out: str) -> tuple[str, str]:
+    c.opamp(plus, minus, out, st.opamp.open_loop_gain, st.opamp.gbw, u(f"offset{j}"))
+    _pin_bias(c, plus, u(f"bias+{j}"))
+    _pin_bias(c, minus, u(f"bias-{j}"))
+    return (out, plus)
+
+
+def _catalogue_stage(c: Circuit, st: Stage, inp, p: str, u) -> CatalogueNodes:
+    v, out, m, plus, a = st.values, f"{p}_out", f"{p}_m", f"{p}_p", f"{p}_a"
+    ref = f"{p}_ref"
+    b = st.block
+    if b in ("difference", "instrumentation"):  # single-ended: in on the positive side, ref on the other
+        pos, neg = inp if isinstance(inp, tuple) else (inp, ref)
+        c.source(ref, u("ref"))
+        if b == "difference":
+            c.resistor(neg, m, v["r1"])
+            c.resistor(m, out, v["r2"])
+            c.resistor(pos, plus, v["r3"])
+            c.resistor(plus, ref, v["r4"])
+            return CatalogueNodes(out, (_catalogue_opamp(c, st, u, 0, plus, m, out),))
+        um, lm, uo, lo = f"{p}_um", f"{p}_lm", f"{p}_uo", f"{p}_lo"
+        rdiff = v.get("rdiff", 10e3)
+        c.resistor(uo, um, v["rf"])
+        c.resistor(lo, lm, v["rf"])
+        c.resistor(um, lm, v["rg"])
+        c.resistor(lo, m, rdiff)
+        c.resistor(m, out, rdiff)
+        c.resistor(uo, plus, rdiff)
+        c.resistor(plus, ref, rdiff)
+        amps = (
+            _catalogue_opamp(c, st, u, 0, pos, um, uo),
+            _catalogue_opamp(c, st, u, 1, neg, lm, lo),
+            _catalogue_opamp(c, st, u, 2, plus, m, out),
+        )
+        return CatalogueNodes(out, amps)
+    assert isinstance(inp, str), f"{b} takes a single-ended signal"
+    if b in ("follower", "divider", "rc_lowpass", "noninverting"):
+        if b == "follower":
+            return CatalogueNodes(out, (_catalogue_opamp(c, st, u, 0, inp, out, out),))
+        if b == "divider":
+            c.resistor(inp, out, v["top"])
+            c.resistor(out, "0", v["bottom"])
+            return CatalogueNodes(out)
+        if b == "rc_lowpass":
+            c.resistor(inp, out, v["r"])
+            c.capacitor(out, "0", v["c"])
+            return CatalogueNodes(out)
+        c.source(ref, u("ref"))
+        c.resistor(out, m, v["rf"])
+        c.resistor(m, ref, v["rg"])
+        return CatalogueNodes(out, (_catalogue_opamp(c, st, u, 0, inp, m, out),))
+    if b == "adc":
+        return CatalogueNodes(inp)
+    if b == "comparator":  # open loop: only its inputs are read (the signal pin carries a bias current)
+        _pin_bias(c, inp, u("bias+0"))
+        return CatalogueNodes(inp, ((inp, inp),))
+    if b == "schmitt":  # the output as a source at one of its levels ("k:level")
+        c.source(out, u("level"))
+        if v.get("invert"):
+            c.source(ref, u("ref"))
+            c.resistor(plus, ref, v["r1"])
+            _pin_bias(c, inp, u("bias-0"))
+        else:
+            c.resistor(inp, plus, v["r1"])
+        c.resistor(plus, out, v["r2"])
+        _pin_bias(c, plus, u("bias+0"))
+        return CatalogueNodes(out, ((out, plus),))
+    c.source(ref, u("ref"))  # every other block: ref drives +
+    if b in ("inverting", "summing", "integrator"):
+        c.resistor(inp, m, v["rin"])
+        c.resistor(m, out, v["rf"])
+        if b == "integrator":
+            c.capacitor(m, out, v["c"])
+        for key in sorted(k for k in v if k.startswith("inputs.") and k.endswith(".r")):
+            fixed = f"{p}_{key[:-2]}"
+            c.source(fixed, u(key[:-2] + ".v"))
+            c.resistor(fixed, m, v[key])
+        return CatalogueNodes(out, (_catalogue_opamp(c, st, u, 0, ref, m, out),))
+    if b.startswith("sallen_key"):
+        if b == "sallen_key_lowpass":
+            c.resistor(inp, a, v["r1"])
+            c.resistor(a, plus, v["r2"])
+            c.capacitor(a, out, v["c1"])
+            c.capacitor(plus, "0", v["c2"])
+        else:
+            c.capacitor(inp, a, v["c1"])
+            c.capacitor(a, plus, v["c2"])
+            c.resistor(a, out, v["r1"])
+            c.resistor(plus, ref, v["r2"])
+        if "rf" in v:
+            c.resistor(out, m, v["rf"])
+            c.resistor(m, ref, v["rg"])
+            return CatalogueNodes(out, (_catalogue_opamp(c, st, u, 0, plus, m, out),))
+        return CatalogueNodes(out, (_catalogue_opamp(c, st, u, 0, plus, out, out),))
+    if b == "mfb_lowpass":
+        c.resistor(inp, a, v["r1"])
+        c.resistor(a, out, v["r2"])
+        c.resistor(a, m, v["r3"])
+        c.capacitor(a, ref, v["c1"])
+        c.capacitor(out, m, v["c2"])
+        return CatalogueNodes(out, (_catalogue_opamp(c, st, u, 0, ref, m, out),))
+    if b == "mfb_bandpass":
+        c.resistor(inp, a, v["r1"])
+        c.resistor(a, ref, v["r3"])
+        c.capacitor(a, m, v["c1"])
+        c.capacitor(a, out, v["c2"])
+        c.resistor(m, out, v["r2"])
+        return CatalogueNodes(out, (_catalogue_opamp(c, st, u, 0, ref, m, out),))
+    raise ValueError(f"block {b!r} not in this reference")

@@ -58,6 +58,15 @@ class InputLoad:
     # a series capacitor first (ac_coupling): no DC current, only the AC part of the driving
     # output through at most `conductance` (margins.load_currents)
     blocks_dc: bool = False
+    # the return node follows the signal (an RC low-pass's capacitor, a weighted mean of what
+    # drove it, pulled towards 0 V by its load): it may sit anywhere between that span and returns
+    follows: bool = False
+    # bias currents the driving op amp supplies besides (its own - pin, the next stage's input
+    # pins), either direction, A
+    pins: float = 0.0
+    # the return node also moves by the stage's bias current times this resistance, ohm (an MFB
+    # low-pass's node A sits Ib r3 from its - pin)
+    shift: float = 0.0
 
 
 @dataclass(frozen=True)

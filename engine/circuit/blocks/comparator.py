@@ -3,6 +3,14 @@
 Without negative feedback the op amp's output sits at its upper swing limit when V+ > V-, and at
 the lower one otherwise (common practice; the ideal op-amp rules). Both inputs must stay inside
 the part's common-mode window, and the output levels carry the rail tolerance and load drop.
+
+The op amp's errors move the threshold, each at its worst sign: the output flips where
+V+ + Vos = V-, and the bias current Ib drawn from the signal's pin drops Ib Rd across the
+resistance Rd that drives it (the source impedance, or a passive stage before it); the threshold
+pin is driven by a voltage source. The input level at which it flips is therefore
+    threshold +/- (|Vos| + Ib Rd)
+(the same either way round, invert = true or false), and the signal's pin sits within +/- Ib Rd of
+the signal (its common-mode span).
 """
 
 from __future__ import annotations
@@ -12,7 +20,7 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from railroom.engine.circuit.blocks.base import Block, FieldSpec
+from railroom.engine.circuit.blocks.base import Block, FieldSpec, dc_resistance
 from railroom.engine.circuit.model import Part, Rails
 from railroom.engine.circuit.opamp import saturated_levels
 
@@ -62,9 +70,12 @@ class Comparator(Block):
         offset: float = 0.0,
         bias: float = 0.0,
     ) -> Switching:
-        # offset and bias are not applied to a comparator's threshold (the draw walk reads the
-        # threshold field directly); the Schmitt trigger applies them (schmitt.py)
-        threshold = span_of(v["threshold"])
+        # the offset and the bias current through the driving resistance, at their worst sign
+        # (module docstring), as the Schmitt trigger's (schmitt.py)
+        drop = float(np.max(np.abs(bias) * dc_resistance(v.get("drive", 0.0))))
+        error = abs(offset) + drop
+        written = span_of(v["threshold"])
+        threshold = (written[0] - error, written[1] + error)
         load = v.get("load")
         conductance = 0.0 if load is None else float(np.max(1.0 / load))
         levels = saturated_levels(part, rails, conductance)
@@ -76,7 +87,7 @@ class Comparator(Block):
         return Switching(
             levels=levels,
             thresholds=(threshold, threshold),
-            input_span=(min(signal[0], threshold[0]), max(signal[1], threshold[1])),
+            input_span=(min(signal[0] - drop, written[0]), max(signal[1] + drop, written[1])),
             reaches=reaches,
             current=current,
         )

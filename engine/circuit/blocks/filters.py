@@ -182,7 +182,8 @@ class SallenKeyLowpass(Block):
             1.0 / (v["r1"] + drive), 1.0 / v["r2"], s * v["c1"], s * v["c2"], None, v, inverse_gain
         )
         # the input current (Vin - V_A)/r1 is at most Vin/r1 (V_A falls away above f0)
-        load = InputLoad(conductance=float(np.max(1.0 / v["r1"])))
+        # node A follows the signal (through c1 to the output): no fixed return (InputLoad.follows)
+        load = InputLoad(conductance=float(np.max(1.0 / v["r1"])), follows=True)
         return BlockResponse(
             output=response.output,
             opamps=response.opamps,
@@ -230,6 +231,7 @@ class SallenKeyHighpass(Block):
         load = InputLoad(
             conductance=float(np.max(1.0 / v["r1"] + 1.0 / v["r2"])),
             returns=(float(np.min(ref)), float(np.max(ref))),
+            follows=True,  # r1 returns to the output, which follows the signal in band
         )
         share = 1.0 / (1.0 + s * v["c1"] * drive)  # Z_c1 / (Z_c1 + Z)
         return BlockResponse(
@@ -298,7 +300,11 @@ def multiple_feedback(y_in, y_out, y_ref, y_minus, y_feedback, v, inverse_gain) 
     )
     amp = OpAmpNodes("amplifier", output, plus, current)
     return BlockResponse(
-        output=output, opamps=(amp,), inner={"node A": node_a}, input_load=virtual_earth_load(v["r1"], v)
+        output=output,
+        opamps=(amp,),
+        inner={"node A": node_a},
+        # r1 returns to node A, which swings with the signal (no virtual earth): InputLoad.follows
+        input_load=replace(virtual_earth_load(v["r1"], v), follows=True),
     )
 
 
@@ -319,7 +325,7 @@ class MfbLowpass(Block):
     )
 
     def respond(self, v, s, inverse_gain, drive, differential):
-        return mfb_response(
+        response = mfb_response(
             multiple_feedback(
                 1.0 / (v["r1"] + drive),
                 1.0 / v["r2"],
@@ -332,6 +338,8 @@ class MfbLowpass(Block):
             v,
             drive,
         )
+        # the - pin's bias current flows from node A through r3: A sits Ib r3 off the - pin
+        return replace(response, input_load=replace(response.input_load, shift=float(np.max(v["r3"]))))
 
     def critical_frequencies(self, v):
         r1, r2, r3, c1, c2 = v["r1"], v["r2"], v["r3"], v["c1"], v["c2"]

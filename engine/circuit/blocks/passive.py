@@ -89,7 +89,7 @@ class RcLowpass(Block):
             output=output,
             input_node=lambda: junction(v["r"], drive, output),
             **thevenin(impedance),
-            input_load=InputLoad(conductance=float(np.max(1.0 / v["r"]))),
+            input_load=InputLoad(conductance=float(np.max(1.0 / v["r"])), follows=True),
         )
 
     def critical_frequencies(self, v):
