@@ -28,6 +28,9 @@ def linear_room(results) -> float:
 
 
 def _check_scale(result, check: str) -> float:
+    """The search's own normalisation (volts as they are; slew and current by what the op amp
+    has): the edge it finds, where the least margin crosses zero, does not depend on it. The
+    check's scale for verdicts and the limiting check is judge.check_scale, from the table."""
     amps = result.measure.opamps
     if check == "slew" and amps:
         return max(amps[0].slew_available, 1e-30)

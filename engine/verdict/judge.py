@@ -14,7 +14,7 @@ from railroom.engine.verdict.margins import met_at_equality
 from railroom.engine.verdict.margins import supply_margin as kernel_supply_margin
 from railroom.engine.circuit.model import Chain, Part, Rails
 from railroom.engine.circuit.part_limits import DIFFERENTIAL_CHECK, differential_margin
-from railroom.engine.verdict.results import VOLTAGE_CHECKS, StageMeasure, StageResult
+from railroom.engine.verdict.results import CHECK_TABLE, VOLTAGE_CHECKS, StageMeasure, StageResult
 
 GAIN_ERROR_CAUTION = 0.01  # the README's JSON report: a caution above 1 %
 SELV_DC_LIMIT = 60.0  # V DC between conductors: SELV (IEC 60335-1, 3.4.2), ES1 (IEC 62368-1)
@@ -58,12 +58,13 @@ def supply_margin(part: Part, rails: Rails) -> float:
 
 
 def check_scale(check: str, part: Part | None, rails: Rails) -> float:
-    """The size a check's margin is measured against: the rail span for voltages, the part's
-    own limit for slew, current and supply."""
-    if part is not None:
-        own = {"slew": part.slew, "current": part.output_current, "supply": part.supply[1]}
-        if check in own:
-            return own[check]
+    """The size a check's margin is measured against, from the table of checks (Check.scale):
+    the rail span for voltages, the part's own limit for slew, current and supply (the rail span
+    where the stage has no part)."""
+    row = CHECK_TABLE.get(check)
+    kind = row.scale if row is not None else "rails"
+    if part is not None and kind != "rails":
+        return {"slew": part.slew, "current": part.output_current, "supply": part.supply[1]}[kind]
     return rails.positive - rails.negative
 
 
@@ -119,9 +120,7 @@ def limiting_check(margins: dict[str, float], rails: Rails, part: Part | None) -
     considered = {c: m for c, m in margins.items() if c != "supply" or m < 0}
     if not considered:
         return None
-    span = rails.positive - rails.negative
-    scale = {"slew": part.slew if part else 1.0, "current": part.output_current if part else 1.0}
-    relative = {c: m / scale.get(c, span) for c, m in considered.items()}
+    relative = {c: m / check_scale(c, part, rails) for c, m in considered.items()}
     first = min(relative, key=lambda c: relative[c])
     least = relative[first]
     if not math.isfinite(least):

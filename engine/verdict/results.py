@@ -19,6 +19,9 @@ class Check:
     unit: str  # of its margin and of what it compares: V, V/s (slew rate) or A
     words: str = ""  # why a stage fails it, for the Markdown report ("" : the name says it)
     converter_words: str = ""  # the same for a converter input (no op amp): its signal and window
+    # what its margin is measured against (judge.check_scale): "rails", the rail span, or the
+    # part's own "slew", "current" or "supply" limit
+    scale: str = "rails"
 
 
 CHECK_TABLE: dict[str, Check] = {
@@ -42,9 +45,9 @@ CHECK_TABLE: dict[str, Check] = {
             "input common mode below the part's range",
             "signal below the converter's input range",
         ),
-        Check("slew", "V/s", "needs more slew rate than the part has"),
-        Check("current", "A", "needs more output current than the part's limit"),
-        Check("supply", "V", "rails outside the part's allowed supply span"),
+        Check("slew", "V/s", "needs more slew rate than the part has", scale="slew"),
+        Check("current", "A", "needs more output current than the part's limit", scale="current"),
+        Check("supply", "V", "rails outside the part's allowed supply span", scale="supply"),
         Check("input-differential", "V"),  # engine/circuit/part_limits.py: largest |V+ - V-|
     )
 }

@@ -42,3 +42,30 @@ def test_needed_and_limit_are_the_figures_the_margin_is_the_difference_of(demo):
             assert math.isclose(stage.margins[check], room, rel_tol=1e-9, abs_tol=1e-12), (stage.index, check)
             compared += 1
     assert compared >= 10
+
+
+def test_each_check_is_scaled_by_what_its_row_names():
+    """Check.scale is the one definition of a check's own scale: the judge's equality tolerance
+    and the limiting check both read it (the rail span for voltages, the part's own limit for
+    slew, current and supply)."""
+    from railroom.engine.verdict.judge import check_scale, limiting_check
+
+    chain, library = load_checked(str(demo_file("pump_vibration")))
+    stage = chain.stages[0]
+    part, rails = library.parts[stage.part], chain.rails[stage.rails]
+    span = rails.positive - rails.negative
+    assert {c: check_scale(c, part, rails) for c in CHECKS} == {
+        "output-high": span,
+        "output-low": span,
+        "input-high": span,
+        "input-low": span,
+        "slew": part.slew,
+        "current": part.output_current,
+        "supply": part.supply[1],
+        "input-differential": span,
+    }
+    # a failing supply against an output 10 mV short (-10 mV of the 24 V rail span: -0.042 %):
+    # -1 V of the part's 36 V rating is -2.8 % and limits; -12 mV of it is -0.033 % and does not
+    # (measured on the rail span instead, as before the table held the scale, it would: -0.05 %)
+    assert limiting_check({"output-high": -0.01, "supply": -1.0}, rails, part) == "supply"
+    assert limiting_check({"output-high": -0.01, "supply": -0.012}, rails, part) == "output-high"
