@@ -83,7 +83,7 @@ class Linearised:
 def in_one_line(chain) -> bool:
     """No stage takes its input from anywhere but the stage before it, and no named nets: the
     chains the one-pass linearisation (sensitivity.walk_linearised) is built and tested for."""
-    return not getattr(chain, "nets", None) and all(getattr(s, "feed", None) is None for s in chain.stages)
+    return not chain.nets and all(stage.feed is None for stage in chain.stages)
 
 
 def linearise(layout: dw.Layout, decisive: bool = False) -> Linearised:

@@ -400,3 +400,38 @@ def test_a_load_returning_elsewhere_sets_the_dc_after_coupling(tmp_path):
     truth = dc(ref, 2.0)[1]
     assert truth == pytest.approx(1.65, rel=1e-6)
     assert report["stages"][1]["output"]["nominal"] == pytest.approx([truth, truth], rel=1e-6)
+
+
+@pytest.mark.parametrize("method", ["corners", "rss", "montecarlo"])
+def test_current_into_a_coupling_counts_the_stage_it_feeds(tmp_path, method):
+    # follower -> 1u, 1k to 0 V -> inverting stage with rin = 1k, at 100 kHz (the capacitor a
+    # near short): the follower drives 1k || 1k = 500 ohm, about 2 mA for 1 V peak (Ohm's law),
+    # twice what the coupling's own r draws; the engine's bound must not fall below the netlist's
+    feeds = (
+        DRIVEN
+        + """
+[[stage]]
+name = "inverter"
+block = "inverting"
+part = "generic-bipolar-15v"
+rin = "1k"
+rf = "1k"
+"""
+    )
+    report = analysed(tmp_path, chain_text(feeds, method=method, amplitude="1", band='"100k", "100k"'))
+    needed = report.stages[0].measure.opamps[0].current_needed
+    from references.chain_netlist import build
+
+    op = OpAmp(1e5, 1e6)
+    circuit, outs = build(
+        [
+            Stage("follower", opamp=op),
+            Stage("ac_coupling", {"c": 1e-6, "r": 1e3}),
+            Stage("inverting", {"rin": 1e3, "rf": 1e3}, opamp=op),
+        ],
+        1.0,
+        0.0,
+    )
+    truth = float(np.abs(circuit.opamp_output_current(outs[0], np.array([100e3]))[0]))
+    assert truth == pytest.approx(2e-3, rel=0.02)  # 1 V / 500 ohm, less the roll-off and 1/(j w C)
+    assert needed >= truth
