@@ -178,8 +178,11 @@ def test_gradient_through_the_chain_is_the_inverting_gain_formula():
 
 
 def test_rows_walked_per_stage_do_not_grow_with_the_chain(monkeypatch):
-    # The cost claim without a clock: the rows each stage is walked on are the same at 12 and
-    # at 48 stages (the plain walk's grow with every column: 2K + 1)
+    # The cost claim without a clock: the rows each stage is walked on do not grow with the
+    # stages upstream (the plain walk's grow with every column: 2K + 1). One state direction
+    # whose singular value sits within rounding of RANK_TOL may be kept or dropped depending on
+    # the LAPACK build (seen: 21 rows at 12 stages and 23 at 48 with numpy 2.4.6), so the bound
+    # allows that one direction (2 rows) and no more; growth with the chain would add dozens.
     seen: list[int] = []
     real = dw.stage_values
 
@@ -194,7 +197,7 @@ def test_rows_walked_per_stage_do_not_grow_with_the_chain(monkeypatch):
         layout = layout_of(chain_from_text(long_chain_text(n), "<test>"), PARTS)
         sv.walk_linearised(layout)
         most[n] = max(seen)
-    assert most[48] == most[12]
+    assert most[48] <= most[12] + 2
     assert 4 * most[48] < 2 * len(layout.variables) + 1
 
 
