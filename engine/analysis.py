@@ -7,6 +7,7 @@ result = analyse(chain, parts, method="rss")    # or overridden by the caller
 from __future__ import annotations
 
 from dataclasses import replace
+from typing import Any
 from collections.abc import Mapping
 
 from railroom.engine.verdict.judge import chain_cautions
@@ -30,7 +31,7 @@ def with_overrides(
     margin: float | None = None,
 ) -> Chain:
     conditions = chain.conditions
-    changes = {
+    changes: dict[str, Any] = {  # Conditions fields, each of its own type
         k: v
         for k, v in (("method", method), ("samples", samples), ("seed", seed), ("margin", margin))
         if v is not None
@@ -78,6 +79,7 @@ def analyse(
     if method_name == "rss" or design_aids:
         from railroom.engine.aids.sensitivity import linearise
 
+        assert layout is not None  # built above: rss is not corners
         lin = linearise(layout, decisive=method_name == "montecarlo")
     if method_name != "corners":
         outcome = run_method(replace(setup, corner_stages=corner_stages, layout=layout, lin=lin), progress)

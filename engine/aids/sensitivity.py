@@ -23,6 +23,7 @@ from functools import cached_property
 import numpy as np
 
 from railroom.engine.walks import circuit_walk as dw
+from railroom.engine.circuit.blocks.base import BlockResponse
 from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
 from railroom.engine.walks.signal_bounds import Signal
 from railroom.engine.verdict.results import Sensitivity
@@ -297,10 +298,10 @@ def walk_linearised(
     inverse: dict = {}
     B, C = np.zeros((0, 0)), np.zeros((0, K))
     state: _State | None = None
-    drive = layout.chain.source.impedance
+    drive: np.ndarray | float = layout.chain.source.impedance
     raw: list[tuple[dw.StageDraws, _Rows, _Rows]] = []  # draws, rows of its margins, of its spans
     before = None
-    pending = None
+    pending: tuple[int, BlockResponse, dict, object] | None = None  # (k, response, v, fed)
     if start is not None:
         state, B, C, before, pending = start
     columns = local_columns(layout)

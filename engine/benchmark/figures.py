@@ -28,7 +28,7 @@ from railroom.engine.walks.preparation import plan_chain
 BENCH_FORMAT = 1
 AGREE = 1e-6  # relative agreement of every margin (plus the same in absolute)
 
-_PART = dict(description="generic illustrative class", supply_abs_max=40.0, offset_drift=5e-6)
+_CLASS = "generic illustrative class"
 PARTS = {
     "bipolar": Part(
         id="bipolar",
@@ -42,7 +42,9 @@ PARTS = {
         offset=3e-3,
         bias_current=100e-9,
         output_current=20e-3,
-        **_PART,
+        description=_CLASS,
+        supply_abs_max=40.0,
+        offset_drift=5e-6,
     ),
     "precision": Part(
         id="precision",
@@ -56,7 +58,9 @@ PARTS = {
         offset=50e-6,
         bias_current=2e-9,
         output_current=15e-3,
-        **_PART,
+        description=_CLASS,
+        supply_abs_max=40.0,
+        offset_drift=5e-6,
     ),
     "rro": Part(
         id="rro",
@@ -70,7 +74,9 @@ PARTS = {
         offset=2e-3,
         bias_current=1e-12,
         output_current=20e-3,
-        **{**_PART, "supply_abs_max": 6.0},
+        description=_CLASS,
+        supply_abs_max=6.0,
+        offset_drift=5e-6,
     ),
 }
 

@@ -168,6 +168,7 @@ def draw_margins(layout: dw.Layout, D: np.ndarray, dT: float) -> list[dict[str, 
         if plan.block.saturates:
             margins, signal = comparator(plan, v, signal, pos, neg, len(layout.freqs))
             found.append(margins)
+            assert plan.part is not None  # a comparator is an op amp (preparation)
             passed.append((signal, plan.part.output_resistance))
             continue
         offset = bias = 0.0

@@ -62,9 +62,9 @@ class LoopSolution:
     # the + pin's own error gains at DC: V+ = gamma Vout - Ib+ Z+ (module docstring), so bias
     # current through the resistance at + moves the pin itself, and positive feedback carries
     # every output error back to it
-    plus_offset_gain: np.ndarray | None = None
-    plus_bias_plus_gain: np.ndarray | None = None
-    plus_bias_minus_gain: np.ndarray | None = None
+    plus_offset_gain: np.ndarray
+    plus_bias_plus_gain: np.ndarray
+    plus_bias_minus_gain: np.ndarray
 
 
 def solve_loop(loop: Loop, inverse_gain: np.ndarray) -> LoopSolution:

@@ -47,12 +47,12 @@ DIFFERENTIAL_CHECK = "input-differential"
 # --- reading -------------------------------------------------------------------------------
 
 
-def read_limits(t: dict, w: str, r) -> dict[str, object]:
+def read_limits(t: dict, w: str, r) -> dict[str, Any]:
     """The limit fields of one [part.ID] table; a missing key takes its default, a bad one is a
-    located problem (and its value None)."""
+    located problem (and its value None). Any: each value has its own Part field's type."""
     from railroom.engine.formats.values import ValueTextError, parse_quantity
 
-    values: dict[str, object] = {}
+    values: dict[str, Any] = {}
     if "temperature_range" in t:
         values["temperature_range"] = r.span(
             t, w, "temperature_range", "temperature", None, ordered="low, high"

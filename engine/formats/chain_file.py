@@ -57,6 +57,7 @@ def chain_from_text(text: str, path: str = "<chain>", check_folders: bool = Fals
                 reader.problem("presets", f"no preset folder {named!r} (looked for {folder})")
     if reader.problems:
         raise InputError(reader.problems)
+    assert chain is not None  # _read_chain: None only with a located problem
     return chain
 
 

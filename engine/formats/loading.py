@@ -55,7 +55,7 @@ def unknown_parts_in_text(path: str, extra_preset_dirs: tuple[str, ...] = ()) ->
         return []
     data, _ = parse_toml(text, path)
     stages = data.get("stage") if isinstance(data, dict) else None
-    if not isinstance(stages, list):
+    if not isinstance(data, dict) or not isinstance(stages, list):
         return []
     named = data.get("presets", [])
     folders = (
@@ -69,7 +69,7 @@ def unknown_parts_in_text(path: str, extra_preset_dirs: tuple[str, ...] = ()) ->
     for index, stage in enumerate(stages, start=1):
         if not isinstance(stage, dict):
             continue
-        block = BLOCKS.get(stage.get("block")) if isinstance(stage.get("block"), str) else None
+        block = BLOCKS.get(name) if isinstance(name := stage.get("block"), str) else None
         part = stage.get("part")
         if block is not None and block.uses_part and isinstance(part, str) and part not in parts:
             found.append(unknown_part(path, lines.get(f"stage.{index}.part"), index, part, parts))

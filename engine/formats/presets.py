@@ -10,6 +10,7 @@ from __future__ import annotations
 import os
 from dataclasses import dataclass, field, replace
 from pathlib import Path
+from typing import Any
 
 from railroom.engine.circuit.model import Part, Problem
 from railroom.engine.circuit.part_limits import (
@@ -250,7 +251,7 @@ def _read_part(part_id: str, t, r: FieldReader) -> Part | None:
         r.problem(w, "expected a table of part fields")
         return None
     r.unknown_keys(t, w, set(PART_FIELDS), "a part preset")
-    values: dict[str, object] = {}
+    values: dict[str, Any] = {}  # Part's keyword arguments, each of its own field's type
     for key, (kind, pair, required) in PART_FIELDS.items():
         if key in LIMIT_FIELDS:
             continue

@@ -81,14 +81,14 @@ def judged(
     for old, stat in zip(m.opamps, amps):
         out = (stat.get("out-low", old.output[0]), stat.get("out-high", old.output[1]))
         inp = (stat["in-low"], stat["in-high"])
-        window = old.window
+        amp_window = old.window
         if "output-high" in stat:
-            window = (out[0] - stat["output-low"], out[1] + stat["output-high"])
+            amp_window = (out[0] - stat["output-low"], out[1] + stat["output-high"])
         opamps.append(
             replace(
                 old,
                 output=out,
-                window=window,
+                window=amp_window,
                 input=inp,
                 input_window=(inp[0] - stat["input-low"], inp[1] + stat["input-high"]),
                 slew_needed=(

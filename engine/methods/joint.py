@@ -61,9 +61,18 @@ def merged_measure(measures: list[StageMeasure], supply: Span | None) -> StageMe
         else:
             low, high = _room([m.output for m in measures], [m.window for m in measures])
             window = (out[0] - low, out[1] + high)
+    # one stage's measures: a saturating block's carry thresholds, reaches and always at every corner
     thresholds = None
     if first.thresholds is not None:
-        thresholds = tuple(union(m.thresholds[i] for m in measures) for i in range(2))
+        sets = [m.thresholds for m in measures if m.thresholds is not None]
+        thresholds = (union(t[0] for t in sets), union(t[1] for t in sets))
+    reaches = always = None
+    if first.reaches is not None:
+        pairs = [m.reaches for m in measures if m.reaches is not None]
+        reaches = (any(p[0] for p in pairs), any(p[1] for p in pairs))
+    if first.always is not None:
+        pairs = [m.always for m in measures if m.always is not None]
+        always = (all(p[0] for p in pairs), all(p[1] for p in pairs))
     differential = [m.input_differential for m in measures if m.input_differential is not None]
     phase = [m.phase_margin_deg for m in measures if m.phase_margin_deg is not None]
     return replace(
@@ -74,10 +83,8 @@ def merged_measure(measures: list[StageMeasure], supply: Span | None) -> StageMe
         supply=supply,
         fed_clipped=any(m.fed_clipped for m in measures),
         thresholds=thresholds,
-        reaches=None
-        if first.reaches is None
-        else tuple(any(m.reaches[i] for m in measures) for i in range(2)),
-        always=None if first.always is None else tuple(all(m.always[i] for m in measures) for i in range(2)),
+        reaches=reaches,
+        always=always,
         inner={key: union(m.inner[key] for m in measures) for key in first.inner},
         input_differential=max(differential) if differential else None,
         phase_margin_deg=min(phase) if phase else None,

@@ -26,6 +26,7 @@ from railroom.engine.methods import Outcome, Progress, Setup, judged
 from railroom.engine.methods.corners import prepare
 from railroom.engine.methods.normal import inverse_normal
 from railroom.engine.walks.bounds_walk import plan_parents
+from railroom.engine.verdict.results import StageResult
 
 CHUNK_ROWS = 10_000  # the default sample count in one walk; larger chunks ran slower
 CHUNK_CELLS = CHUNK_ROWS * 32  # rows x frequencies in one walk: memory held by the chunk, not the band
@@ -230,7 +231,7 @@ def run(setup: Setup, progress: Progress | None = None, chunk: int = CHUNK_ROWS)
     return Outcome(stages, all_linear / samples)
 
 
-def stage_results(plans, corner_stages, quoted, probability, required):
+def stage_results(plans, corner_stages, quoted, probability, required) -> list[StageResult]:
     deciding = quoted["0.1%"]
     results = []
     clipping: list[bool] = []  # per stage: it clips, or a stage up its branch does

@@ -3,9 +3,13 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 from railroom.engine.circuit.model import Chain, Part, Stage
 from railroom.engine.formats.values import format_si
+
+if TYPE_CHECKING:  # methods.rare imports the walks, which import this module
+    from railroom.engine.methods.rare import RareEstimate
 
 Span = tuple[float, float]
 
@@ -194,7 +198,7 @@ class ChainResult:
     headroom_db: float | None
     cautions: tuple[str, ...]
     chain_yield: float | None = None  # montecarlo: share of draws with every stage linear
-    rare: object | None = None  # montecarlo, few failing draws: methods.rare.RareEstimate
+    rare: RareEstimate | None = None  # montecarlo, few failing draws
 
     @property
     def failing(self) -> int:

@@ -168,7 +168,7 @@ def bounds_once(node, v: dict, signal, offsets, bias, known: dict, memo: dict | 
                 node,
                 single_terms(node, v, error_bound(node, offsets, bias), order=memory_order(signal.hi)),
             )
-        bounds = single_bounds(node, v, signal, None, terms=memo[id(node)][1])
+        bounds = single_bounds(node, v, signal, 0.0, terms=memo[id(node)][1])  # error in terms
     known[id(node)] = (node, bounds)
     return bounds
 
@@ -399,6 +399,7 @@ def linear_stage(
     if passive_output(plan, response, next_load) and not shown_later:
         # what the stage shows is its output with the next stage's input on it; what it hands
         # on is its Thevenin voltage (the next stage meets the impedance itself)
+        assert response.output_impedance is not None  # passive_output: it has one
         shown = span(
             loaded_bounds(response.output, v, signal, response.output_impedance, one_load(next_load))
         )
@@ -507,6 +508,7 @@ def opamp_measure(
     memo: dict | None = None,
 ) -> OpAmpMeasure:
     part = plan.part
+    assert part is not None  # a block with op amps has its part (preparation)
     known = {} if known is None else known
     out = bounds_once(amp.output, v, signal, offsets, bias, known, memo)
     plus = bounds_once(amp.plus, v, signal, offsets, bias, known, memo)
@@ -559,6 +561,7 @@ def saturated_stage(
     """A comparator-like stage: switch levels, thresholds and the two-level signal it passes on."""
     incoming = signal.span if isinstance(signal, Signal) else (signal.common[0], signal.common[1])
     part = plan.part
+    assert part is not None  # a comparator is an op amp (preparation)
     offset = 0.0 if nominal else part.offset_at(25.0 + rise)
     bias = 0.0 if nominal else bias_at(part, 25.0 + hot_rise)
     switching = plan.block.switch(v, plan.flags, part, plan.rails, incoming, offset=offset, bias=bias)
@@ -571,11 +574,11 @@ def saturated_stage(
         output=(bottom, top),
         window=(low_min, high_max),
         input=switching.input_span,
-        input_window=input_window(plan.part, plan.rails),
+        input_window=input_window(part, plan.rails),
         slew_needed=0.0,
-        slew_available=plan.part.slew,
+        slew_available=part.slew,
         current_needed=switching.current,
-        current_available=plan.part.output_current,
+        current_available=part.output_current,
     )
     measure = StageMeasure(
         index=plan.index,

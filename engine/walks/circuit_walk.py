@@ -130,6 +130,7 @@ def build_layout(
         amps.append(count)
         for j in range(count):
             part = plan.part
+            assert part is not None  # count is 0 without one
             variables += [
                 Variable(plan.index, "offset", "offset", part.offset, j),
                 Variable(plan.index, "offset", "drift", part.offset_drift, j),
@@ -143,11 +144,11 @@ def build_layout(
             ]
     for name in used_nets(plans):
         net = chain.nets[name]
-        q = net.value if net.value is not None else net.fraction
-        if q is not None:
+        shared = net.value if net.value is not None else net.fraction
+        if shared is not None:
             variables += [
-                Variable(None, f"nets.{name}", "tolerance", q.tolerance or 0.0),
-                Variable(None, f"nets.{name}", "tempco", q.tempco or 0.0),
+                Variable(None, f"nets.{name}", "tolerance", shared.tolerance or 0.0),
+                Variable(None, f"nets.{name}", "tempco", shared.tempco or 0.0),
             ]
     variables = [v for v in variables if v.scale]
     children = tree_children(plan_parents(plans))
@@ -229,6 +230,7 @@ def row_errors(layout: Layout, plan: StagePlan, D: np.ndarray, dT: np.ndarray):
     part, count, rows = plan.part, layout.amps[plan.index - 1], D.shape[0]
     offsets, bias = np.zeros((rows, count)), np.zeros((rows, count))
     for j in range(count):
+        assert part is not None  # count is 0 without one
         offsets[:, j] = part.offset * _deviate(
             layout, D, plan.index, "offset", "offset", j
         ) + part.offset_drift * dT * _deviate(layout, D, plan.index, "offset", "drift", j)
@@ -288,7 +290,7 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
         response = None
         if plan.block.saturates:
             draws, signal = saturated_draws(layout, k, v, D, fed)
-            out_drive = plan.part.output_resistance if plan.part else 0.0
+            out_drive: np.ndarray | float = plan.part.output_resistance if plan.part else 0.0
         else:
             if plan.part not in inverse_gains:
                 if len(inverse_gains) >= KEPT_PARTS:  # memory: a few parts' (rows, F+1) arrays
@@ -600,6 +602,7 @@ def saturated_draws(layout: Layout, k: int, v, D, signal):
     Blocks without a single `threshold` field use the corners thresholds and reaches."""
     plan, corner = layout.plans[k], layout.corner[k].measure
     part, rows = plan.part, D.shape[0]
+    assert part is not None  # a comparator is an op amp (preparation)
     pos, neg = row_rails(layout, plan, D)
     conductance = 1.0 / v["load"][:, 0] if "load" in v else np.zeros(rows)
     low, high = saturated_levels_rows(part, pos, neg, conductance)
@@ -612,6 +615,8 @@ def saturated_draws(layout: Layout, k: int, v, D, signal):
         above, below = sig_hi > thr_hi, sig_lo < thr_lo
         reach_low, reach_high = (above, below) if plan.flags.get("invert") else (below, above)
     else:
+        # the corners walk's saturated_stage sets both
+        assert corner.thresholds is not None and corner.reaches is not None
         (rise_lo, rise_hi), (fall_lo, fall_hi) = corner.thresholds
         thr_lo, thr_hi = min(rise_lo, fall_lo), max(rise_hi, fall_hi)
         reach_low, reach_high = (np.full(rows, r) for r in corner.reaches)

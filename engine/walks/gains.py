@@ -67,10 +67,10 @@ def stage_gains(prepared) -> list[tuple[dict[str, Range] | None, dict[str, Range
         parent = parents[k]
         if parent < 0:  # fed by the source
             source.append((mag, mag))
-        elif source[parent] is None:
+        elif (fed := source[parent]) is None:
             source.append(None)
         else:
-            lo, hi = source[parent]
+            lo, hi = fed
             if prepared.joint[k]:
                 lo, hi = _tiled(lo, rows), _tiled(hi, rows)
             else:

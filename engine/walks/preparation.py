@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from collections.abc import Mapping
+from typing import cast
 
 import numpy as np
 
@@ -33,7 +34,9 @@ def stage_quantities(stage: Stage) -> dict[str, Quantity]:
         if isinstance(value, Quantity):
             found[key] = value
         elif key == "inputs":
-            for i, item in enumerate(value or [], start=1):
+            # a summing block's inputs, as chain_file._read_inputs reads them
+            inputs = cast("list[dict[str, Quantity]] | None", value)
+            for i, item in enumerate(inputs or [], start=1):
                 found[f"inputs.{i}.r"] = item["r"]
                 found[f"inputs.{i}.v"] = item["v"]
     if stage.load is not None:

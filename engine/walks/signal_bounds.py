@@ -84,6 +84,7 @@ def error_bound(node: Node, offsets: np.ndarray, bias: float) -> np.ndarray | fl
     """Largest output error from independent +/- offsets and bias currents of each op amp."""
     if node.offset_gain is None:
         return 0.0
+    assert node.bias_gain is not None  # set with offset_gain (Node)
     return np.abs(node.offset_gain) @ offsets + np.abs(node.bias_gain).sum(axis=-1) * bias
 
 

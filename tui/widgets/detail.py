@@ -102,9 +102,9 @@ def components(stage: StageResult) -> Text:
         text.append(f"from {s.feed}   ")
     if s.load is not None:
         text.append(f"load {quantity_words(s.load, 'resistance')}   ")
-    if getattr(s, "load_to", None) is not None:
+    if s.load_to is not None:
         text.append(f"load_to {quantity_words(s.load_to, 'voltage')}   ")
-    if getattr(s, "load_capacitance", None) is not None:
+    if s.load_capacitance is not None:
         text.append(f"load_capacitance {quantity_words(s.load_capacitance, 'capacitance')}   ")
     for key, value in s.values.items():
         if isinstance(value, NetValue):

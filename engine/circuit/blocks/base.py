@@ -11,12 +11,16 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from functools import cached_property
-from typing import ClassVar
+from typing import TYPE_CHECKING, ClassVar
 from collections.abc import Callable, Mapping
 
 import numpy as np
 
 from railroom.engine.circuit.opamp import LoopSolution
+
+if TYPE_CHECKING:  # comparator.py imports this module
+    from railroom.engine.circuit.blocks.comparator import Switching
+    from railroom.engine.circuit.model import Part, Rails
 
 Transfers = dict[str, np.ndarray]  # source -> complex array (J, F+1); index 0 along F is DC
 
@@ -34,6 +38,7 @@ class Node:
     """A voltage (or a current) inside a block, as transfers plus op-amp error gains."""
 
     transfers: Transfers
+    # both or neither (None: no op amp's errors reach the node)
     offset_gain: np.ndarray | None = None  # (J, n_opamps): per volt of each op amp's offset
     bias_gain: np.ndarray | None = None  # (J, n_opamps): per ampere, |+ input| + |- input|
 
@@ -108,9 +113,22 @@ class Block:
         v: Mapping[str, np.ndarray],
         s: np.ndarray,
         inverse_gain: np.ndarray,
-        drive: float,
+        drive: np.ndarray | float,  # what drives the input: 0, a resistance or a (J, F+1) impedance
         differential: bool,
     ) -> BlockResponse:
+        raise NotImplementedError
+
+    def switch(
+        self,
+        v: Mapping[str, np.ndarray],
+        flags: Mapping[str, object],
+        part: Part,
+        rails: Rails,
+        signal: tuple[float, float],
+        offset: float = 0.0,
+        bias: float = 0.0,
+    ) -> Switching:
+        """A saturating block's (saturates = True) levels and thresholds for the span it is fed."""
         raise NotImplementedError
 
     def critical_frequencies(self, v: Mapping[str, np.ndarray]) -> np.ndarray:

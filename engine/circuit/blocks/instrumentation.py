@@ -75,6 +75,7 @@ def own_errors(node: Node, index: int) -> Node | None:
     """A single-op-amp node's error gains moved into column `index` of the block's op amps."""
     if node.offset_gain is None:
         return None
+    assert node.bias_gain is not None  # set with offset_gain (Node)
     offset = np.zeros((node.offset_gain.shape[0], OPAMPS))
     bias = np.zeros_like(offset)
     offset[:, index] = node.offset_gain[:, 0]
@@ -85,7 +86,9 @@ def own_errors(node: Node, index: int) -> Node | None:
 def substitute(node: Node, inputs: dict[str, Node], index: int) -> Node:
     """A difference-stage node in terms of the block's sources: its inputs replaced by the
     first-stage nodes that drive them, its own op amp's errors in column `index`."""
-    terms = [(node.transfers[k], inputs[k]) for k in inputs if k in node.transfers]
+    terms: list[tuple[np.ndarray | float, Node]] = [
+        (node.transfers[k], inputs[k]) for k in inputs if k in node.transfers
+    ]
     own = own_errors(node, index)
     if own is not None:
         terms.append((1.0, own))
@@ -95,6 +98,7 @@ def substitute(node: Node, inputs: dict[str, Node], index: int) -> Node:
 
 def input_minus(output: Node, inverse_gain, source: str, index: int) -> Node:
     """V- = V+ + Vos - Vout / A of an input op amp (no pin current)."""
+    assert output.offset_gain is not None  # an op amp's output carries its own errors
     offset = np.zeros((output.offset_gain.shape[0], OPAMPS))
     offset[:, index] = 1.0
     own = Node(transfers={}, offset_gain=offset, bias_gain=np.zeros_like(offset))

@@ -1,0 +1,1 @@
+../../../engine/_package/__init__.py
