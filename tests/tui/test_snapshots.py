@@ -12,28 +12,43 @@ async def settled(pilot) -> None:
     await pilot.pause()
 
 
-def test_main_screen_80x24(snap_compare, make_app):
-    assert snap_compare(make_app(None), terminal_size=(80, 24), run_before=settled)
+# Every picture renders a chain kept under tests/chains, not the shipped demo, so a wording change
+# in a demo breaks no picture. PUMP is a frozen copy of the pump demo.
+PUMP = "tests/chains/pump_stand.toml"
 
 
-def test_main_screen_120x40(snap_compare, make_app):
-    assert snap_compare(make_app(None), terminal_size=(120, 40), run_before=settled)
+@pytest.fixture
+def pump(make_app, monkeypatch):
+    """The app on PUMP opened by its path relative to the repository (the header shows it)."""
+    from pathlib import Path
+
+    monkeypatch.chdir(Path(__file__).resolve().parents[2])
+    return make_app(Path(PUMP))
 
 
-def test_level_view_120x40(snap_compare, make_app):
-    assert snap_compare(make_app(None), press=["j", "v"], terminal_size=(120, 40), run_before=settled)
+def test_main_screen_80x24(snap_compare, pump):
+    assert snap_compare(pump, terminal_size=(80, 24), run_before=settled)
+
+
+def test_main_screen_120x40(snap_compare, pump):
+    assert snap_compare(pump, terminal_size=(120, 40), run_before=settled)
+
+
+def test_level_view_120x40(snap_compare, pump):
+    assert snap_compare(pump, press=["j", "v"], terminal_size=(120, 40), run_before=settled)
 
 
 def test_main_screen_no_color(snap_compare, make_app, monkeypatch):
     monkeypatch.setenv("NO_COLOR", "1")  # Textual reads it when the app is built
-    assert snap_compare(make_app(None), terminal_size=(80, 24), run_before=settled)
+    from pathlib import Path
+
+    monkeypatch.chdir(Path(__file__).resolve().parents[2])
+    assert snap_compare(make_app(Path(PUMP)), terminal_size=(80, 24), run_before=settled)
 
 
-def test_edit_form_in_place_80x24(snap_compare, make_app):
+def test_edit_form_in_place_80x24(snap_compare, pump):
     """The form takes the detail panel's place; the status line and stage list stay in sight."""
-    assert snap_compare(
-        make_app(None), press=["j", "j", "j", "e"], terminal_size=(80, 24), run_before=settled
-    )
+    assert snap_compare(pump, press=["j", "j", "j", "e"], terminal_size=(80, 24), run_before=settled)
 
 
 # New pictures on a chain kept for the tests (tests/chains), not the shipped demo: the 80-column
