@@ -112,12 +112,24 @@ def test_check_child_counts_the_child_alone():
 
     from railroom.tui.subcommands.bench import check_child
 
-    held = np.ones(40_000_000)  # 320 MB in this process while the children run
+    held = np.ones(20_000_000)  # 160 MB in this process while the children run
     _, bare = check_child([sys.executable, "-c", "pass"])
     _, big = check_child([sys.executable, "-c", "bytearray(200_000_000)"])
-    assert held.sum() == 40_000_000
-    assert bare < 100  # a bare interpreter, not this process's 320 MB and more
+    assert held.sum() == 20_000_000
+    assert bare < 100  # a bare interpreter, not this process's 160 MB and more
     assert 200 < big < 300  # the 200 MB it held, and the interpreter
+
+
+def test_check_child_refuses_an_unread_chain():
+    import sys
+
+    import pytest
+
+    from railroom.tui.subcommands.bench import check_child
+
+    assert check_child([sys.executable, "-c", "raise SystemExit(1)"])[0] > 0  # NO-GO is a figure
+    with pytest.raises(RuntimeError, match="failed"):
+        check_child([sys.executable, "-c", "raise SystemExit(2)"])  # an unreadable chain is not
 
 
 def test_filter_bench_chain_is_what_it_says():

@@ -1,7 +1,7 @@
 """`railroom bench [--json] [--quick]`: the engine's figures plus the whole-process and interface
 times. Whole process: `railroom check` run as a child process on a temporary copy of each bench
-chain with the bench parts as a preset folder; its wall time and its own peak resident memory
-(os.wait4's resource usage of that child: ru_maxrss, the RUSAGE_CHILDREN figure for one child)."""
+chain with the bench parts as a preset folder, through a small launcher (LAUNCHER) that reports
+its wall time and its peak resident memory (resource.getrusage RUSAGE_CHILDREN ru_maxrss)."""
 
 from __future__ import annotations
 
@@ -87,23 +87,27 @@ pid = os.fork()
 if pid == 0:
     os.dup2(os.open(os.devnull, os.O_WRONLY), 1)
     os.execv(sys.argv[1], sys.argv[1:])
-os.waitpid(pid, 0)
-print(time.perf_counter() - start, resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)
+_, status = os.waitpid(pid, 0)
+seconds = time.perf_counter() - start
+print(seconds, resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss, os.waitstatus_to_exitcode(status))
 """
+CHECK_EXITS = (0, 1)  # GO, NO-GO: the chain was read and checked
 
 
 def check_child(command: list[str]) -> tuple[float, float]:
-    """(wall seconds, peak resident MB) of one `railroom check` process (LAUNCHER)."""
+    """(wall seconds, peak resident MB) of one `railroom check` process (LAUNCHER); a check
+    that could not read its chain (exit 2) or a launcher that failed is an error, not a figure."""
     done = subprocess.run(
         [sys.executable, "-c", LAUNCHER, *command],
-        stdout=subprocess.PIPE,
-        stderr=subprocess.DEVNULL,
+        capture_output=True,
         env=dict(os.environ),
         check=False,
         text=True,
     )
-    last = done.stdout.strip().splitlines()[-1].split()
-    return float(last[0]), float(last[1]) / 1024.0  # Linux gives kB
+    words = done.stdout.split()[-3:] if done.returncode == 0 else []
+    if len(words) != 3 or int(words[2]) not in CHECK_EXITS:
+        raise RuntimeError(f"railroom bench: {' '.join(command[2:])} failed: {done.stderr.strip()[-500:]}")
+    return float(words[0]), float(words[1]) / 1024.0  # Linux gives kB
 
 
 def process_figures(quick: bool = False) -> dict:
