@@ -122,6 +122,8 @@ _EXPORTS = {
     "against_markdown": "reports.compare",
     # the bench
     "bench_figures": "benchmark.figures:run",
+    "bench_chain_texts": "benchmark.figures:chain_texts",
+    "bench_presets_text": "benchmark.figures:presets_text",
     "NetValue": "circuit.model",
     "stage_quantities": "walks.preparation",
     "net_shapes": "formats.chain_editing",
@@ -224,6 +226,8 @@ if TYPE_CHECKING:  # the same names for the type checker (a test keeps the two i
     from railroom.engine.reports.compare import against_report as against_report
     from railroom.engine.reports.compare import against_markdown as against_markdown
     from railroom.engine.benchmark.figures import run as bench_figures  # noqa: F401 - exported
+    from railroom.engine.benchmark.figures import chain_texts as bench_chain_texts  # noqa: F401 - exported
+    from railroom.engine.benchmark.figures import presets_text as bench_presets_text  # noqa: F401 - exported
     from railroom.engine.circuit.model import NetValue as NetValue
     from railroom.engine.walks.preparation import stage_quantities as stage_quantities
     from railroom.engine.formats.chain_editing import net_shapes as net_shapes

@@ -5,7 +5,7 @@ railroom check CHAIN [--json] ...      go / no-go with an exit code: 0 GO, 1 NO-
 railroom presets [list | show ID | check FILE]
 railroom plot CHAIN [-o FILE]
 railroom blocks [NAME]
-railroom bench [--json]
+railroom bench [--json] [--quick]
 """
 
 from __future__ import annotations
@@ -77,6 +77,9 @@ def build_parser() -> argparse.ArgumentParser:
 
     bench = sub.add_parser("bench", help="time the engine on the reference chain")
     bench.add_argument("--json", action="store_true")
+    bench.add_argument(
+        "--quick", action="store_true", help="tiny sizes and short chains: every figure, none comparable"
+    )
 
     blocks = sub.add_parser("blocks", help="list the blocks, or show one's fields and formulas")
     blocks.add_argument("name", nargs="?", help="a block name, e.g. noninverting")

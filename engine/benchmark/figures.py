@@ -3,9 +3,10 @@
 The reference chain is built here: twelve stages of mixed blocks on two rail sets, generic
 illustrative parts and values. Times are medians of repeated runs of analysis.analyse (the whole
 engine call the interface makes, design aids included). The per-draw comparison runs the slow
-reference (methods/per_draw.py: a Python loop with a nodal solve per stage and draw) on the first
+reference (benchmark/per_draw.py: a Python loop with a nodal solve per stage and draw) on the first
 `reference_draws` draws of the Monte Carlo sequence, checks that every margin agrees with the
 vectorised walk on the same draws, and scales its time per draw to the vectorised run's draw count.
+The filter chain, the long chains and the batched baseline are measured by chain_figures.py.
 """
 
 from __future__ import annotations
@@ -14,14 +15,13 @@ import statistics
 import time
 import tracemalloc
 
-import numpy as np
 
 from railroom.engine.walks import circuit_walk as dw
 from railroom.engine.analysis import analyse
 from railroom.engine.walks.preparation import band_grid
 from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.methods import corners, montecarlo
-from railroom.engine.benchmark import per_draw
+from railroom.engine.benchmark import chain_figures, chains, per_draw
 from railroom.engine.circuit.model import Part
 from railroom.engine.walks.preparation import plan_chain
 
@@ -217,25 +217,6 @@ def rare_figures() -> dict:
     }
 
 
-def long_chain_figures(repeats: int = 3) -> dict:
-    """Engine time (ms, median) of corners and rss on 48- and 200-stage chains, passing and with
-    one clipping stage, and the cost exponent in stages between 48 and 200."""
-    figures: dict = {}
-    for failing in (False, True):
-        for method in ("corners", "rss"):
-            times = {}
-            for n in (48, 200):
-                chain = chain_from_text(long_chain_text(n, failing), "<bench>")
-                times[n] = median_seconds(
-                    lambda chain=chain, method=method: analyse(chain, PARTS, method=method), repeats
-                )
-                figures[f"{method}_{n}{'_failing' if failing else ''}_ms"] = round(1e3 * times[n], 1)
-            figures[f"{method}{'_failing' if failing else ''}_exponent"] = round(
-                float(np.log(times[200] / times[48]) / np.log(200 / 48)), 2
-            )
-    return figures
-
-
 def median_seconds(call, repeats: int) -> float:
     times = []
     for _ in range(repeats):
@@ -280,14 +261,31 @@ def per_draw_comparison(chain, rows: int, reference_draws: int, repeats: int) ->
     return reference_s / vector_s, agree(vector, reference)
 
 
+QUICK: dict = {
+    "sizes": (300, 600, 1000),
+    "repeats": 1,
+    "reference_draws": 5,
+    "baseline_rows": 64,
+    "long_samples": 200,
+}
+
+
 def run(
     sizes: tuple[int, int, int] = (10_000, 100_000, 1_000_000),
     repeats: int = 5,
     reference_draws: int = 200,
     memory: bool = True,
     long_chains: bool = True,
+    baseline_rows: int = 4096,
+    long_samples: int = 10_000,
+    filter_chain: bool = True,
+    quick: bool = False,
 ) -> dict:
-    """Engine figures (targets in DEVELOPERS.md); the keys the engine cannot measure are left out."""
+    """Engine figures (targets in DEVELOPERS.md); the keys the engine cannot measure are left out.
+    `quick`: tiny sizes and short "long" chains, every key present (for tests; not comparable)."""
+    if quick:
+        sizes, repeats, reference_draws = QUICK["sizes"], QUICK["repeats"], QUICK["reference_draws"]
+        baseline_rows, long_samples = QUICK["baseline_rows"], QUICK["long_samples"]
     chain = reference_chain()
 
     def timed(method: str, samples: int | None = None, count: int = repeats) -> float:
@@ -299,6 +297,7 @@ def run(
     small, middle, large = sizes
     figures = {
         "format": BENCH_FORMAT,
+        "quick": quick,
         "stages": len(chain.stages),
         "corners_ms": timed("corners"),
         "rss_ms": timed("rss"),
@@ -316,7 +315,29 @@ def run(
     ratio, same = per_draw_comparison(chain, small, reference_draws, repeats)
     figures["per_draw_ratio"] = round(ratio, 1)
     figures["same_answers"] = bool(same)
+    if filter_chain:
+        figures.update(chain_figures.filter_figures(PARTS, sizes, repeats, memory, quick))
+        figures.update(chain_figures.baseline_figures(PARTS, baseline_rows, repeats, quick))
     if long_chains:
-        figures.update(long_chain_figures(max(1, repeats // 2)))
+        figures.update(
+            chain_figures.long_figures(
+                PARTS, long_chain_text, long_samples, max(1, repeats // 2), memory, quick
+            )
+        )
     figures.update(rare_figures())
     return figures
+
+
+def chain_texts(quick: bool = False) -> dict[str, str]:
+    """The chains whose whole `railroom check` process the command line times (tui bench)."""
+    sizes = chain_figures.QUICK_LONG if quick else chain_figures.LONG
+    return {
+        "filter": chains.filter_chain_text(quick),
+        f"{chain_figures.LONG[1]}": long_chain_text(sizes[1]),
+        f"{chain_figures.LONG[2]}": long_chain_text(sizes[2]),
+    }
+
+
+def presets_text() -> str:
+    """The bench parts as a preset file, for `railroom check --presets`."""
+    return chains.presets_text(PARTS)
