@@ -187,7 +187,7 @@ def typing_ms(stages: int = 20, interval: float = 0.33) -> tuple[float, float]:
 
 async def _time_typing(path: Path, interval: float) -> list[float]:
     from textual.widgets import Input
-    from railroom.engine import parse_value
+    from railroom.engine import Quantity, parse_value
     from railroom.tui.app import build_app
 
     app = build_app(path)
@@ -203,9 +203,12 @@ async def _time_typing(path: Path, interval: float) -> list[float]:
 
         def watched(result) -> None:
             original(result)
-            shown.append(app.open_session.chain.stages[1].values["r1"].value)
+            r1 = app.open_session.chain.stages[1].values["r1"]
+            assert isinstance(r1, Quantity)  # Stage.values holds the parsed fields as objects
+            shown.append(r1.value)
 
-        app._show_corners = watched
+        # the bench wraps the app's own method to see each verdict as it is shown
+        app._show_corners = watched  # type: ignore[method-assign]
         values = [parse_value(text, "resistance") for text in KEYSTROKES]
         waiting: list[tuple[int, float]] = []  # keystrokes typed, not yet answered on screen
         start = time.perf_counter()
