@@ -144,9 +144,21 @@ def load_behind_stage(
         part = plans[j].part
         if part is not None and load.conductance != 0:
             offset = part.offset_at(25.0 + rise) + load.shift * bias_at(part, 25.0 + rise)
+            if load.earth:
+                offset += earth_error(part, plans[j].rails)
             load = replace(load, returns=(load.returns[0] - offset, load.returns[1] + offset))
         found.append(load)
     return tuple(found)
+
+
+def earth_error(part, rails) -> float:
+    """How far an op amp's - pin sits from its + pin besides the offset, at DC: Vout / A0
+    (V- = V+ + Vos - Vout/A, opamp.py), at most the largest rail over A0 while the stage is
+    linear (its output inside the rails). In band the AC current into an inverting input
+    resistor is at most Vin/rin: the - pin's AC part, -Vout/A, moves with the signal
+    (|1 + T/A| <= 1 for T the closed-loop gain), so only the DC part widens the return."""
+    pos, neg = rails.positive_range[1], rails.negative_range[0]
+    return max(abs(pos), abs(neg)) / part.open_loop_gain
 
 
 def span(bounds: NodeBounds) -> tuple[float, float]:
