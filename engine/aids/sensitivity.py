@@ -325,7 +325,7 @@ def walk_linearised(
         v = dw.stage_values(layout, plan, D, dT)
         fed, response = signal, None
         if plan.block.saturates:
-            draws, signal = dw.saturated_draws(layout, k, v, D, signal)
+            draws, signal = dw.saturated_draws(layout, k, v, D, signal, dT, drive)
             drive = plan.part.output_resistance if plan.part else 0.0
         else:
             if plan.part not in inverse:

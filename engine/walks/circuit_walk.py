@@ -287,7 +287,7 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
         v = stage_values(layout, plan, D, dT)
         response = None
         if plan.block.saturates:
-            draws, signal = saturated_draws(layout, k, v, D, fed)
+            draws, signal = saturated_draws(layout, k, v, D, fed, dT, drive)
             out_drive = plan.part.output_resistance if plan.part else 0.0
         else:
             if plan.part not in inverse_gains:
@@ -595,9 +595,24 @@ def saturated_levels_rows(part, pos, neg, conductance):
     return np.maximum(loaded(low_ideal), low_ideal), np.minimum(loaded(high_ideal), high_ideal)
 
 
-def saturated_draws(layout: Layout, k: int, v, D, signal):
+def comparator_rows(threshold: np.ndarray, offset: np.ndarray, bias: np.ndarray, drive, invert: bool):
+    """(flip level, pin shift) of a plain comparator per row (blocks/comparator.py): the row's
+    signed offset Vos and bias current Ib, drawn into the signal's pin through the resistance Rd
+    that drives it, put that pin at Vsig - Ib Rd, and the output flips where V+ + Vos = V-:
+        invert = false:  Vsig = threshold - Vos + Ib Rd      invert = true:  Vsig = threshold + Vos + Ib Rd
+    `drive`: a resistance, or a passive stage's Thevenin impedance per row and s (DC first)."""
+    rd = np.asarray(drive)
+    if rd.ndim == 2:
+        rd = rd[:, 0]
+    drop = bias * np.real(rd)
+    return threshold + (offset if invert else -offset) + drop, drop
+
+
+def saturated_draws(layout: Layout, k: int, v, D, signal, dT=None, drive=0.0):
     """A saturated-by-design stage per row: levels from the row's rails, inputs against the window.
-    Blocks without a single `threshold` field use the corners thresholds and reaches."""
+    A comparator flips at its threshold moved by the row's own offset and bias current through
+    the resistance driving it (comparator_rows); blocks without a single `threshold` field use
+    the corners thresholds and reaches (the errors there at their worst sign)."""
     plan, corner = layout.plans[k], layout.corner[k].measure
     part, rows = plan.part, D.shape[0]
     pos, neg = row_rails(layout, plan, D)
@@ -608,9 +623,14 @@ def saturated_draws(layout: Layout, k: int, v, D, signal):
     else:
         sig_lo, sig_hi = np.full(rows, signal.common[0]), np.full(rows, signal.common[1])
     if "threshold" in v:
+        offsets, biases = row_errors(layout, plan, D, np.zeros(rows) if dT is None else dT)
+        invert = bool(plan.flags.get("invert"))
+        flip, drop = comparator_rows(v["threshold"][:, 0], offsets[:, 0], biases[:, 0], drive, invert)
+        above, below = sig_hi > flip, sig_lo < flip
+        reach_low, reach_high = (above, below) if invert else (below, above)
+        # the pins: the signal's moved by the bias drop, the threshold's a stiff source
         thr_lo = thr_hi = v["threshold"][:, 0]
-        above, below = sig_hi > thr_hi, sig_lo < thr_lo
-        reach_low, reach_high = (above, below) if plan.flags.get("invert") else (below, above)
+        sig_lo, sig_hi = sig_lo - drop, sig_hi - drop
     else:
         (rise_lo, rise_hi), (fall_lo, fall_hi) = corner.thresholds
         thr_lo, thr_hi = min(rise_lo, fall_lo), max(rise_hi, fall_hi)

@@ -72,3 +72,73 @@ def test_an_inverting_input_returns_to_a_minus_pin_off_ref_by_vout_over_a0(metho
     needed = found.stages[0].measure.opamps[0].current_needed
     assert needed >= truth
     assert needed == pytest.approx(150e-6, rel=1e-3)
+
+
+COMPARATOR_THEN_BUFFER = """format = 1
+title = "a comparator just above its threshold, then a buffer"
+[conditions]
+method = "montecarlo"
+[rails.main]
+positive = "5"
+negative = "0"
+[source]
+level = ["2.5005", "2.5005"]
+impedance = "10k"
+[[stage]]
+name = "alarm"
+block = "comparator"
+part = "clean"
+threshold = "2.5"
+invert = INVERT
+[[stage]]
+name = "buffer"
+block = "follower"
+part = "clean"
+"""
+
+
+def comparator_rows(invert: str):
+    """The draw walk and the per-draw reference on five hand-made rows: nominal, Vos = +1 mV,
+    Vos = -1 mV, Ib = +100 nA, Ib = -100 nA (each deviate at an end of its range)."""
+    from railroom.engine.benchmark import per_draw
+    from railroom.engine.methods import corners, montecarlo
+    from railroom.engine.walks import circuit_walk as dw
+    from railroom.engine.walks.preparation import band_grid, plan_chain
+
+    chain = chain_from_text(COMPARATOR_THEN_BUFFER.replace("INVERT", invert))
+    parts = part(offset=1e-3, bias_current=100e-9)
+    plans = plan_chain(chain, parts)
+    freqs = band_grid(chain, plans)
+    layout = montecarlo.layout_for(chain, plans, freqs, corners.walk(corners.prepare(chain, plans, freqs)))
+    D = np.zeros((5, len(layout.variables)))
+    offset, bias = layout.column(1, "offset", "offset"), layout.column(1, "bias", "bias")
+    D[1, offset], D[2, offset], D[3, bias], D[4, bias] = 1.0, -1.0, 1.0, -1.0
+    dT = np.zeros(5)
+    return dw.walk_draws(layout, D, dT), per_draw.run_draws(layout, D, dT)
+
+
+@pytest.mark.parametrize("invert", ["false", "true"])
+def test_monte_carlo_comparator_flips_at_the_draws_own_offset_and_bias(invert):
+    # the flip is V+ + Vos = V- (Sedra & Smith ch. 2) and the bias current into the signal's pin
+    # drops Ib x 10k = 1 mV across the source impedance (Ohm's law): the signal, 2.5005 V, flips
+    # the output where it passes  2.5 - Vos + Ib Rd  (signal on +) or  2.5 + Vos + Ib Rd  (on -).
+    #   nominal 2.5 V: high (on +) / low (on -); Vos = +1 mV: 2.499 / 2.501 V; Vos = -1 mV:
+    #   2.501 / 2.499 V; Ib = +100 nA: 2.501 V either way; Ib = -100 nA: 2.499 V either way.
+    # High is 5 - 0.03 V, low 0.03 V (the part's output headroom). Before, every draw flipped at
+    # the written 2.5 V: the draws with the flip above 2.5005 V were read high (optimistic).
+    from railroom.engine.benchmark import figures as bench
+
+    walk, reference = comparator_rows(invert)
+    high, low = 4.97, 0.03
+    above = [True, True, False, False, True]  # the signal above the row's flip level
+    if invert == "true":
+        above = [True, False, True, False, True]
+    expected = [(low if up else high) if invert == "true" else (high if up else low) for up in above]
+    assert walk[0].out_hi == pytest.approx(expected, abs=1e-9)
+    assert walk[0].out_lo == pytest.approx(expected, abs=1e-9)
+    # the signal's pin sits at 2.5005 V - Ib x 10k: 2.4995 V with Ib = +100 nA
+    assert walk[0].amps[0]["spans"]["in-low"][3] == pytest.approx(2.4995, abs=1e-9)
+    # the per-draw reference: the buffer after it follows the same level, row by row
+    buffer_low = [r[1]["output-low"] for r in reference]
+    assert buffer_low == pytest.approx([level - 0.03 for level in expected], abs=1e-5)
+    assert bench.agree(walk, reference)
