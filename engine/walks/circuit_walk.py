@@ -46,6 +46,7 @@ from railroom.engine.walks.preparation import StagePlan
 from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, loaded_bounds, node_bounds
 from railroom.engine.verdict.results import StageResult
 from railroom.engine.walks.bounds_walk import (
+    SLOPE_KEEPING,
     load_behind,
     passive_output,
     plan_parents,
@@ -468,7 +469,39 @@ def bounds_of(node, v, signal, offsets, bias, known: dict):
     return known[id(node)][1]
 
 
-def opamp_draws(part, amp, v, signal, offsets, bias, freqs, load, pos, neg, record: list | None, known: dict):
+def row_gain(node, rows: int) -> np.ndarray:
+    """max |H| per row of a node from the chain signal over the band (bounds_walk.largest_gain)."""
+    transfer = node.transfers.get("in")
+    if transfer is None:
+        return np.zeros(rows)
+    return np.broadcast_to(np.abs(transfer).max(axis=-1), (rows,))
+
+
+def clipped_slew(need: np.ndarray, amp, slope, keeping: bool) -> np.ndarray:
+    """A row fed a clipped signal (its slope bound, per row, NaN where it has none) needs its
+    slope bound through this op amp's gain, not the sine's read from held amplitudes; after a
+    filter that may ring, no less than the amplitudes' (bounds_walk.opamp_measure, per row)."""
+    if slope is None:
+        return need
+    through = row_gain(amp.output, need.shape[0]) * np.nan_to_num(slope)
+    return np.where(np.isnan(slope), need, through if keeping else np.maximum(need, through))
+
+
+def opamp_draws(
+    part,
+    amp,
+    v,
+    signal,
+    offsets,
+    bias,
+    freqs,
+    load,
+    pos,
+    neg,
+    record: list | None,
+    known: dict,
+    keeping=False,
+):
     """One op amp's margins per row (the per-row twin of stage_walk.opamp_measure)."""
     out = bounds_of(amp.output, v, signal, offsets, bias, known)
     plus = bounds_of(amp.plus, v, signal, offsets, bias, known)
@@ -487,9 +520,8 @@ def opamp_draws(part, amp, v, signal, offsets, bias, freqs, load, pos, neg, reco
     drop_high, drop_low = output_drops(part, sourced, sunk)
     low, high = neg + part.output_headroom[1] + drop_low, pos - part.output_headroom[0] - drop_high
     in_hi, in_lo = band_max(plus.hi), band_min(plus.lo)
-    margins = opamp_margins(
-        part, pos, neg, out_hi, out_lo, in_hi, in_lo, sourced, sunk, slew_needed(freqs, out.amp_hi)
-    )
+    need = clipped_slew(slew_needed(freqs, out.amp_hi), amp, getattr(signal, "slope", None), keeping)
+    margins = opamp_margins(part, pos, neg, out_hi, out_lo, in_hi, in_lo, sourced, sunk, need)
     spans = {
         "out-low": out_lo,
         "out-high": out_hi,
@@ -536,6 +568,7 @@ def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None
             neg,
             record,
             known,
+            plan.block.name in SLOPE_KEEPING,
         )
         for amp in response.opamps
     ]
@@ -551,15 +584,37 @@ def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None
     for check, value in margins.items():
         if check != "supply":
             linear &= value >= 0
-    passed = Signal(hi=out.hi, lo=out.lo, amp_lo=out.amp_lo, amp_hi=out.amp_hi)
+    passed = Signal(
+        hi=out.hi,
+        lo=out.lo,
+        amp_lo=out.amp_lo,
+        amp_hi=out.amp_hi,
+        slope=passed_slope_rows(plan, response, signal),
+    )
     if window is not None and not linear.all():
-        passed = clamp_rows(passed, window, ~linear)
+        clip = None
+        if found:  # the clipped output is no steeper than the unclipped need, nor the slew rate
+            clip = plan.part.slew - np.maximum(found[-1][0]["slew"], 0.0)
+        passed = clamp_rows(passed, window, ~linear, clip)
     draws = StageDraws(out_lo, out_hi, tuple(m | {"spans": s} for m, s in found), margins, linear)
     return draws, passed
 
 
-def clamp_rows(signal: Signal, window, rows: np.ndarray) -> Signal:
-    """What each clipping row passes on: its output held inside its own window."""
+def passed_slope_rows(plan: StagePlan, response, signal):
+    """Per row, the slope bound a linear stage hands on from the one it is fed (NaN: none; None:
+    no row has one), through a stage whose impulse response keeps one sign (SLOPE_KEEPING)."""
+    slope = getattr(signal, "slope", None)
+    if slope is None:
+        return None
+    if plan.block.name not in SLOPE_KEEPING:
+        return np.full(np.shape(slope), np.nan)
+    out = row_gain(response.output, np.shape(slope)[0]) * slope
+    return out if plan.part is None else np.minimum(out, plan.part.slew)
+
+
+def clamp_rows(signal: Signal, window, rows: np.ndarray, slope=None) -> Signal:
+    """What each clipping row passes on: its output held inside its own window, and its slope
+    bound `slope` per row where given (the rows that do not clip keep the one they had)."""
     low = np.broadcast_to(window[0], rows.shape)[:, None]
     high = np.broadcast_to(window[1], rows.shape)[:, None]
     half = np.maximum((high - low) / 2.0, 0.0)
@@ -570,11 +625,16 @@ def clamp_rows(signal: Signal, window, rows: np.ndarray) -> Signal:
         if signal.amp_lo is not signal.amp_hi
         else amp_lo
     )  # one stays one (propagation.py)
+    kept = signal.slope
+    if slope is not None:
+        before = np.full(rows.shape, np.nan) if kept is None else kept
+        kept = np.where(rows, np.broadcast_to(slope, rows.shape), before)
     return Signal(
         hi=np.where(pick, np.clip(signal.hi, low, high), signal.hi),
         lo=np.where(pick, np.clip(signal.lo, low, high), signal.lo),
         amp_lo=amp_lo,
         amp_hi=amp_hi,
+        slope=kept,
     )
 
 

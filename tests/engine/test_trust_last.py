@@ -142,3 +142,64 @@ def test_monte_carlo_comparator_flips_at_the_draws_own_offset_and_bias(invert):
     buffer_low = [r[1]["output-low"] for r in reference]
     assert buffer_low == pytest.approx([level - 0.03 for level in expected], abs=1e-5)
     assert bench.agree(walk, reference)
+
+
+GAIN_THEN_BUFFER = """format = 1
+title = "a gain stage that clips in some circuits, then a buffer"
+[rails.main]
+positive = "5"
+negative = "-5"
+[source]
+level = ["0", "0"]
+amplitude = "0.5"
+band = ["1k", "1k"]
+[[stage]]
+name = "gain"
+block = "noninverting"
+part = "clean"
+rf = "90k 10%"
+rg = "10k"
+[[stage]]
+name = "buffer"
+block = "follower"
+part = "clean"
+"""
+
+
+def test_monte_carlo_carries_the_clipped_slope_bound_per_draw():
+    # 0.5 V at 1 kHz times 1 + rf/10k: rf = 81k gives 4.55 V peak, inside the 4.97 V window
+    # (5 V less 30 mV): that circuit's buffer needs the sine's 2 pi f a = 2 pi 1k 4.55 = 28.59
+    # kV/s. rf = 99k gives 5.45 V, clipped: the clipped sine keeps its full slope at the
+    # crossings, 2 pi 1k 5.45 = 34.24 kV/s (Sedra & Smith ch. 2's slew need), where the held
+    # amplitude read 2 pi 1k 4.97 = 31.23 kV/s before (optimistic by 9 %).
+    from railroom.engine.methods import corners, montecarlo
+    from railroom.engine.walks import circuit_walk as dw
+    from railroom.engine.walks.preparation import band_grid, plan_chain
+
+    chain, parts = chain_from_text(GAIN_THEN_BUFFER), part()
+    plans = plan_chain(chain, parts)
+    freqs = band_grid(chain, plans)
+    layout = montecarlo.layout_for(chain, plans, freqs, corners.walk(corners.prepare(chain, plans, freqs)))
+    D = np.zeros((2, len(layout.variables)))
+    D[:, layout.column(1, "rf", "tolerance")] = [-1.0, 1.0]
+    walk = dw.walk_draws(layout, D, np.zeros(2))
+    assert list(walk[0].linear) == [True, False]
+    need = 10e6 - walk[1].margins["slew"]  # the part slews at 10 V/us
+    two_pi_k = 2 * np.pi * 1e3
+    assert need == pytest.approx([two_pi_k * 0.5 * 9.1, two_pi_k * 0.5 * 10.9], rel=1e-4)
+    # Monte Carlo's quoted need (its 0.1 % lowest margin over 2000 draws: rf near its top)
+    # lies between the held amplitude's 31.23 kV/s and the largest circuit's 34.24 kV/s
+    found = result(GAIN_THEN_BUFFER, parts, method="montecarlo", samples=2000).stages[1]
+    quoted = found.measure.opamps[0].slew_needed
+    assert two_pi_k * 0.5 * 10.8 < quoted <= two_pi_k * 0.5 * 10.9 * (1 + 1e-4)
+    assert found.margins["slew"] == pytest.approx(10e6 - quoted, rel=1e-9)
+
+
+def test_rss_judges_a_fed_clipped_slew_on_the_corners_need():
+    # rss's linearised walk does not carry the slope bound: the corners' need stands, as the need
+    # shown and as the margin judged (it judged 10 MV/s less the held amplitude's before: the
+    # clipped 1 V x 10 sine needs 2 pi 1k 10 = 62.83 kV/s, the held 4.97 V read 31.2 kV/s)
+    text = GAIN_THEN_BUFFER.replace('amplitude = "0.5"', 'amplitude = "1"').replace("90k 10%", "90k")
+    found = result(text, part(slew=1e5), method="rss").stages[1]
+    assert found.measure.opamps[0].slew_needed == pytest.approx(2 * np.pi * 1e3 * 10, rel=1e-4)
+    assert found.margins["slew"] == pytest.approx(1e5 - 2 * np.pi * 1e3 * 10, rel=1e-4)
