@@ -208,6 +208,13 @@ class _State:
             z = np.broadcast_to(drive, (rows, np.shape(drive)[-1]))
             self.drive_width = z.shape[1]
             parts += [z.real, z.imag] if self.complex else [z]
+        # after a clipping stage: its slope bound per row, the last column (NaN, no bound, as
+        # the nominal row has it: rows that differ from it there sit at a kink)
+        self.sloped = signal.slope is not None
+        if self.sloped:
+            slope = np.broadcast_to(np.asarray(signal.slope, dtype=float), (rows,))
+            self.unbounded = bool(np.isnan(slope[0]))
+            parts.append(np.nan_to_num(slope)[:, None])
         self.X = np.hstack([np.broadcast_to(p, (rows, np.shape(p)[-1])) for p in parts])
 
     def rows(self, nominal: np.ndarray, B: np.ndarray, L: int, steps: np.ndarray):
@@ -223,7 +230,10 @@ class _State:
             parts.append(np.asfortranarray(X[:, at : at + F]))
             at += F
         amp_hi = parts[2] if self.shared else parts[3]
-        signal = Signal(hi=parts[0], lo=parts[1], amp_lo=parts[2], amp_hi=amp_hi)
+        slope = None
+        if self.sloped:
+            slope = np.full(X.shape[0], np.nan) if self.unbounded else X[:, -1].copy()
+        signal = Signal(hi=parts[0], lo=parts[1], amp_lo=parts[2], amp_hi=amp_hi, slope=slope)
         if not self.impedance:
             return signal, self.scalar_drive
         W = self.drive_width

@@ -69,22 +69,13 @@ def judged(
     fed_clipped: bool,
     probability: float | None = None,
     percentiles: dict | None = None,
-    slopes_per_draw: bool = False,
 ) -> StageResult:
     """A StageResult whose margins are the statistic's, judged as they are. `amps` holds per op
     amp its margins and spans ("out-low", "out-high", "in-low", "in-high"); the spans and the
-    windows that leave those margins are set on the measure for the views. `slopes_per_draw`:
-    the draws carried the clipped signal's slope bound row by row (Monte Carlo's walk)."""
+    windows that leave those margins are set on the measure for the views. A stage fed a
+    clipped signal has its slew need from the slope bound each circuit carries (circuit_walk)."""
     m = corner.measure
     opamps = []
-    # fed a clipped signal: rss's linearised walk reads a clipped sine's slope from its held
-    # amplitude; the corners walk carries the clipped waveform's own slope bound, so its need
-    # stands, as the need and as the margin judged (an outside bound of every circuit's)
-    if fed_clipped and m.fed_clipped and not slopes_per_draw:
-        amps = [
-            {**stat, "slew": old.slew_available - old.slew_needed} if "slew" in stat else stat
-            for old, stat in zip(m.opamps, amps)
-        ]
     for old, stat in zip(m.opamps, amps):
         out = (stat.get("out-low", old.output[0]), stat.get("out-high", old.output[1]))
         inp = (stat["in-low"], stat["in-high"])

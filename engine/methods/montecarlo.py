@@ -265,7 +265,6 @@ def stage_results(plans, corner_stages, quoted, probability, required):
             clipped_before,
             float(probability[k]),
             percentiles,
-            slopes_per_draw=True,
         )
         clipping.append(clipped_before or result.regime == "clipping")
         results.append(result)
