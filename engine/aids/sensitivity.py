@@ -26,7 +26,7 @@ from railroom.engine.walks import circuit_walk as dw
 from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
 from railroom.engine.walks.signal_bounds import Signal
 from railroom.engine.verdict.results import Sensitivity
-from railroom.engine.walks.bounds_walk import passive_output, shows_input
+from railroom.engine.walks.bounds_walk import settled_by_next, shows_input
 
 STEP = 1e-3  # h, in units of the full tolerance
 DIRECTION_STEP = STEP  # h along the state directions
@@ -355,7 +355,7 @@ def walk_linearised(
             else:
                 raw[-1] = (dw.shown_loaded(layout, *pending, passive), margins_rows, margins_rows)
         pending = None
-        if response is not None and passive_output(plan, response, layout.loads[k]):
+        if response is not None and settled_by_next(plan, response, layout.loads[k]):
             pending = (k, response, v, fed)
         before = response
         raw.append((draws, here, here))

@@ -496,6 +496,17 @@ def input_bounds(
     return bounds_once(response.terminal, v, signal, offsets, bias, {}, memo)
 
 
+def settled_by_next(plan: StagePlan, response: BlockResponse, load) -> bool:
+    """A passive stage whose shown span the stage it feeds settles (the per-circuit walks): that
+    stage draws current from it, through its input conductance or its pins' bias currents
+    alone (a follower's + pin drops Ib times the divider's Thevenin resistance, Ohm's law)."""
+    return passive_output(plan, response, load) or (
+        response.output_impedance is not None
+        and not plan.block.window_only
+        and any(one.pins for one in each_load(load))
+    )
+
+
 def passive_output(plan: StagePlan, response: BlockResponse, load) -> bool:
     """A passive stage whose shown output differs from its Thevenin voltage: the next stage
     draws current from it (a converter input draws none and passes its input on)."""

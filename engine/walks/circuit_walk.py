@@ -48,7 +48,7 @@ from railroom.engine.verdict.results import StageResult
 from railroom.engine.walks.bounds_walk import (
     SLOPE_KEEPING,
     load_behind,
-    passive_output,
+    settled_by_next,
     plan_parents,
     shows_input_of,
     tree_children,
@@ -328,7 +328,7 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
                 _, passive, values, feeding = pending[parent]
                 results[parent] = shown_loaded(layout, parent, passive, values, feeding, results[parent])
             del pending[parent]
-        if response is not None and passive_output(plan, response, layout.loads[k]):
+        if response is not None and settled_by_next(plan, response, layout.loads[k]):
             pending[k] = (k, response, v, fed)
         passed[k] = (signal, out_drive, response)
         if plan.block.window_only and len(children[k]) == 1:

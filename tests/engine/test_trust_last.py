@@ -206,3 +206,42 @@ def test_rss_carries_the_clipped_slope_bound_per_circuit():
     need = 2 * np.pi * 1e3 * 0.5 * 10.9
     assert found.measure.opamps[0].slew_needed == pytest.approx(need, rel=1e-4)
     assert found.margins["slew"] == pytest.approx(10e6 - found.measure.opamps[0].slew_needed, abs=1e-6)
+
+
+DIVIDER_INTO_BUFFER = """format = 1
+title = "a high-impedance divider into a bipolar buffer"
+[rails.main]
+positive = "15"
+negative = "-15"
+[source]
+level = ["2", "2"]
+[[stage]]
+name = "halve"
+block = "divider"
+top = "1M"
+bottom = "1M"
+[[stage]]
+name = "buffer"
+block = "follower"
+part = "clean"
+"""
+
+
+@pytest.mark.parametrize("method", ["corners", "rss", "montecarlo"])
+def test_a_divider_shows_the_next_stages_bias_current_drop_in_every_method(method):
+    # 2 V into 1M/1M: 1 V open, through 1M || 1M = 500k (Thevenin, Horowitz & Hill ch. 1); the
+    # buffer's + pin draws up to 100 nA either way: 1 V +/- 100 nA x 500k = 0.95 .. 1.05 V
+    # (Ohm's law). rss and Monte Carlo showed 1.0 .. 1.0 V before (the divider's span was settled
+    # by the next stage only when it drew current through a conductance).
+    found = result(
+        DIVIDER_INTO_BUFFER,
+        part(bias_current=100e-9),
+        method=method,
+        samples=2000 if method == "montecarlo" else None,
+    )
+    low, high = found.stages[0].measure.output
+    assert low >= 0.95 - 1e-9 and high <= 1.05 + 1e-9
+    if method == "montecarlo":  # 2000 uniform draws of the bias: the extremes within 0.5 mV
+        assert low <= 0.9505 and high >= 1.0495
+    else:
+        assert (low, high) == pytest.approx((0.95, 1.05), abs=1e-9)
