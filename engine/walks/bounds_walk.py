@@ -294,6 +294,10 @@ def walk_chain(
                 if parent in results and shows_input_of(plans, responses, parent, k):
                     before = results[parent]
                     results[parent] = replace(before, measure=replace(before.measure, output=span(terminal)))
+            elif converter_loaded(plan, responses[k], next_load) and parent in results:
+                if shows_input_of(plans, responses, parent, k):  # the node, loaded, as it shows it
+                    before = results[parent]
+                    results[parent] = replace(before, measure=replace(before.measure, output=measure.output))
         if notes is not None:
             measure = replace(measure, **notes[k])
         result = judge(measure, plan.part, plan.rails, chain.conditions.margin)
@@ -408,9 +412,13 @@ def linear_stage(
         for name, node in response.inner.items()
     }
     shown = span(out)
-    if passive_output(plan, response, next_load) and not shown_later:
+    if (passive_output(plan, response, next_load) and not shown_later) or converter_loaded(
+        plan, response, next_load
+    ):
         # what the stage shows is its output with the next stage's input on it; what it hands
-        # on is its Thevenin voltage (the next stage meets the impedance itself)
+        # on is its Thevenin voltage (the next stage meets the impedance itself). A converter
+        # input passes its node on: what the stages after it draw loads that node too (a
+        # Schmitt trigger's r1 + r2 to its levels); read through to its child where it can be
         shown = span(
             loaded_bounds(response.output, v, signal, response.output_impedance, one_load(next_load))
         )
@@ -504,6 +512,15 @@ def settled_by_next(plan: StagePlan, response: BlockResponse, load) -> bool:
         response.output_impedance is not None
         and not plan.block.window_only
         and any(one.pins for one in each_load(load))
+    )
+
+
+def converter_loaded(plan: StagePlan, response: BlockResponse, load) -> bool:
+    """A converter input driven through an impedance whose node the stages after it load."""
+    return (
+        plan.block.window_only
+        and response.output_impedance is not None
+        and sum(one.conductance for one in each_load(load)) > 0
     )
 
 

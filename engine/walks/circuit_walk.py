@@ -47,6 +47,7 @@ from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, load
 from railroom.engine.verdict.results import StageResult
 from railroom.engine.walks.bounds_walk import (
     SLOPE_KEEPING,
+    converter_loaded,
     load_behind,
     settled_by_next,
     plan_parents,
@@ -579,6 +580,11 @@ def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None
     window = (found[-1][1]["window-low"], found[-1][1]["window-high"]) if found else None
     if plan.block.window_only:
         window = (v["low"][:, 0], v["high"][:, 0])
+        if converter_loaded(plan, response, layout.loads[k]):  # its node loaded (bounds_walk)
+            shown = loaded_bounds(
+                response.output, v, signal, response.output_impedance, one_load(layout.loads[k])
+            )
+            out_hi, out_lo = band_max(shown.hi), band_min(shown.lo)
         margins["input-high"], margins["input-low"] = window[1] - out_hi, out_lo - window[0]
     linear = np.ones(rows, dtype=bool)
     for check, value in margins.items():
