@@ -256,15 +256,7 @@ def stage_results(plans, corner_stages, quoted, probability, required):
             if not check.startswith(("out-", "in-"))
         }
         result = judged(
-            plan,
-            corner,
-            amps,
-            out_span,
-            window,
-            required,
-            clipped_before,
-            float(probability[k]),
-            percentiles,
+            plan, corner, amps, out_span, window, required, clipped_before, float(probability[k]), percentiles
         )
         clipping.append(clipped_before or result.regime == "clipping")
         results.append(result)
