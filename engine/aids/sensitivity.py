@@ -27,7 +27,7 @@ from railroom.engine.circuit.blocks.base import BlockResponse
 from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
 from railroom.engine.walks.signal_bounds import Signal
 from railroom.engine.verdict.results import Sensitivity
-from railroom.engine.walks.bounds_walk import passive_output, shows_input
+from railroom.engine.walks.bounds_walk import settled_by_next, shows_input
 
 STEP = 1e-3  # h, in units of the full tolerance
 DIRECTION_STEP = STEP  # h along the state directions
@@ -209,6 +209,13 @@ class _State:
             z = np.broadcast_to(drive, (rows, np.shape(drive)[-1]))
             self.drive_width = z.shape[1]
             parts += [z.real, z.imag] if self.complex else [z]
+        # after a clipping stage: its slope bound per row, the last column (NaN, no bound, as
+        # the nominal row has it: rows that differ from it there sit at a kink)
+        self.sloped = signal.slope is not None
+        if self.sloped:
+            slope = np.broadcast_to(np.asarray(signal.slope, dtype=float), (rows,))
+            self.unbounded = bool(np.isnan(slope[0]))
+            parts.append(np.nan_to_num(slope)[:, None])
         self.X = np.hstack([np.broadcast_to(p, (rows, np.shape(p)[-1])) for p in parts])
 
     def rows(self, nominal: np.ndarray, B: np.ndarray, L: int, steps: np.ndarray):
@@ -224,7 +231,10 @@ class _State:
             parts.append(np.asfortranarray(X[:, at : at + F]))
             at += F
         amp_hi = parts[2] if self.shared else parts[3]
-        signal = Signal(hi=parts[0], lo=parts[1], amp_lo=parts[2], amp_hi=amp_hi)
+        slope = None
+        if self.sloped:
+            slope = np.full(X.shape[0], np.nan) if self.unbounded else X[:, -1].copy()
+        signal = Signal(hi=parts[0], lo=parts[1], amp_lo=parts[2], amp_hi=amp_hi, slope=slope)
         if not self.impedance:
             return signal, self.scalar_drive
         W = self.drive_width
@@ -326,7 +336,7 @@ def walk_linearised(
         v = dw.stage_values(layout, plan, D, dT)
         fed, response = signal, None
         if plan.block.saturates:
-            draws, signal = dw.saturated_draws(layout, k, v, D, signal)
+            draws, signal = dw.saturated_draws(layout, k, v, D, signal, dT, drive)
             drive = plan.part.output_resistance if plan.part else 0.0
         else:
             if plan.part not in inverse:
@@ -346,7 +356,7 @@ def walk_linearised(
             else:
                 raw[-1] = (dw.shown_loaded(layout, *pending, passive), margins_rows, margins_rows)
         pending = None
-        if response is not None and passive_output(plan, response, layout.loads[k]):
+        if response is not None and settled_by_next(plan, response, layout.loads[k]):
             pending = (k, response, v, fed)
         before = response
         raw.append((draws, here, here))

@@ -166,7 +166,9 @@ def draw_margins(layout: dw.Layout, D: np.ndarray, dT: float) -> list[dict[str, 
         v = {name: x[0, 0] for name, x in dw.stage_values(layout, plan, D, np.array([dT])).items()}
         pos, neg = (float(x[0]) for x in dw.row_rails(layout, plan, D))
         if plan.block.saturates:
-            margins, signal = comparator(plan, v, signal, pos, neg, len(layout.freqs))
+            offsets, biases = dw.row_errors(layout, plan, D, np.array([dT]))
+            errors = (float(offsets[0, 0]), float(biases[0, 0]), float(np.real(np.ravel(drive)[0])))
+            margins, signal = comparator(plan, v, signal, pos, neg, len(layout.freqs), errors)
             found.append(margins)
             assert plan.part is not None  # a comparator is an op amp (preparation)
             passed.append((signal, plan.part.output_resistance))
@@ -217,8 +219,12 @@ def opamp_margins(plan, x, index, branch, out, signal, load, freqs, pos, neg) ->
     return {check: float(m) for check, m in margins.items()}
 
 
-def comparator(plan, v, signal, pos, neg, count):
-    """Open loop: the output sits at the swing limit on the side the input is (common practice)."""
+def comparator(plan, v, signal, pos, neg, count, errors=(0.0, 0.0, 0.0)):
+    """Open loop: the output sits at the swing limit on the side the input is (common practice).
+    `errors`: the draw's signed offset Vos, bias current Ib (into each pin) and the DC resistance
+    Rd driving the signal's pin. That pin sits at Vsig - Ib Rd (Ohm's law) and the output flips
+    where V+ + Vos = V- (the op amp's input offset, Sedra & Smith ch. 2): at
+    Vsig = threshold - Vos + Ib Rd (signal on +), threshold + Vos + Ib Rd (signal on -)."""
     part = plan.part
     conductance = 1.0 / v["load"] if "load" in v else 0.0
     levels = []
@@ -228,10 +234,15 @@ def comparator(plan, v, signal, pos, neg, count):
         )
         levels.append(ideal - np.sign(ideal) * part.output_resistance * current)
     low, high = levels
+    offset, bias, rd = errors
+    drop = bias * rd
     sig_lo, sig_hi = float(np.min(signal[1])), float(np.max(signal[0]))
     threshold = v["threshold"]
-    above, below = sig_hi > threshold, sig_lo < threshold
-    reach_low, reach_high = (above, below) if plan.flags.get("invert") else (below, above)
+    invert = bool(plan.flags.get("invert"))
+    flip = threshold + (offset if invert else -offset) + drop
+    above, below = sig_hi > flip, sig_lo < flip
+    reach_low, reach_high = (above, below) if invert else (below, above)
+    sig_lo, sig_hi = sig_lo - drop, sig_hi - drop  # the signal's pin
     top, bottom = (high if reach_high else low), (low if reach_low else high)
     span = pos - neg
     margins = {

@@ -90,6 +90,8 @@ def _read_chain(data: dict, r: FieldReader, path: str) -> Chain | None:
                     "a differential source must be followed first by a "
                     f"difference or instrumentation stage, got {stages[k].block!r}",
                 )
+    if source is not None and stages and source.impedance:
+        _source_fed_once(stages, source.impedance, r)
     if r.problems or conditions is None or source is None:
         return None
     return Chain(
@@ -280,6 +282,21 @@ def _check_branches(stages: list[Stage], r: FieldReader) -> None:
                 "a stage with no op amp drives one stage at most (its output is not buffered): "
                 "take this branch from the op-amp stage before it",
             )
+
+
+def _source_fed_once(stages: list[Stage], impedance: float, r: FieldReader) -> None:
+    """A source with an impedance drives one stage at most: a second stage on it would draw
+    current through the impedance that the first one's input voltage drops by (the stages meet
+    the source impedance each on its own), as a stage with no op amp drives one stage at most."""
+    fed = [k for k, parent in enumerate(stage_parents(stages)) if parent < 0]
+    if len(fed) > 1:
+        j = fed[1]
+        r.problem(
+            f"stage.{j + 1}.from",
+            f"the source has an impedance ({impedance:g} ohm) and already feeds stage {fed[0] + 1}; "
+            "a source with an impedance drives one stage at most (it is not buffered): take this "
+            "branch from a buffer after the source, or give the source no impedance",
+        )
 
 
 def _drift_through_zero(stage: Stage, index: int, rise: float, r: FieldReader) -> None:

@@ -72,12 +72,10 @@ def judged(
 ) -> StageResult:
     """A StageResult whose margins are the statistic's, judged as they are. `amps` holds per op
     amp its margins and spans ("out-low", "out-high", "in-low", "in-high"); the spans and the
-    windows that leave those margins are set on the measure for the views."""
+    windows that leave those margins are set on the measure for the views. A stage fed a
+    clipped signal has its slew need from the slope bound each circuit carries (circuit_walk)."""
     m = corner.measure
     opamps = []
-    # fed a clipped signal: the per-circuit walk reads a clipped sine's slope from its held
-    # amplitude; the corners walk carries the clipped waveform's own slope bound, so its need stands
-    slew_from_corners = fed_clipped and m.fed_clipped
     for old, stat in zip(m.opamps, amps):
         out = (stat.get("out-low", old.output[0]), stat.get("out-high", old.output[1]))
         inp = (stat["in-low"], stat["in-high"])
@@ -91,11 +89,7 @@ def judged(
                 window=amp_window,
                 input=inp,
                 input_window=(inp[0] - stat["input-low"], inp[1] + stat["input-high"]),
-                slew_needed=(
-                    old.slew_available - stat["slew"]
-                    if "slew" in stat and not slew_from_corners
-                    else old.slew_needed
-                ),
+                slew_needed=old.slew_available - stat["slew"] if "slew" in stat else old.slew_needed,
                 current_needed=old.current_available - stat["current"],
             )
         )

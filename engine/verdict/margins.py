@@ -45,6 +45,7 @@ def one_load(load: Loads) -> InputLoad:
             follows=any(one.follows for one in found),
             pins=sum(one.pins for one in found),
             shift=max(one.shift for one in found),
+            earth=any(one.earth for one in found),
         )
     return found[0] if found else InputLoad()
 

@@ -144,9 +144,21 @@ def load_behind_stage(
         part = plans[j].part
         if part is not None and load.conductance != 0:
             offset = part.offset_at(25.0 + rise) + load.shift * bias_at(part, 25.0 + rise)
+            if load.earth:
+                offset += earth_error(part, plans[j].rails)
             load = replace(load, returns=(load.returns[0] - offset, load.returns[1] + offset))
         found.append(load)
     return tuple(found)
+
+
+def earth_error(part, rails) -> float:
+    """How far an op amp's - pin sits from its + pin besides the offset, at DC: Vout / A0
+    (V- = V+ + Vos - Vout/A, opamp.py), at most the largest rail over A0 while the stage is
+    linear (its output inside the rails). In band the AC current into an inverting input
+    resistor is at most Vin/rin: the - pin's AC part, -Vout/A, moves with the signal
+    (|1 + T/A| <= 1 for T the closed-loop gain), so only the DC part widens the return."""
+    pos, neg = rails.positive_range[1], rails.negative_range[0]
+    return max(abs(pos), abs(neg)) / part.open_loop_gain
 
 
 def span(bounds: NodeBounds) -> tuple[float, float]:
@@ -282,6 +294,10 @@ def walk_chain(
                 if parent in results and shows_input_of(plans, responses, parent, k):
                     before = results[parent]
                     results[parent] = replace(before, measure=replace(before.measure, output=span(terminal)))
+            elif converter_loaded(plan, responses[k], next_load) and parent in results:
+                if shows_input_of(plans, responses, parent, k):  # the node, loaded, as it shows it
+                    before = results[parent]
+                    results[parent] = replace(before, measure=replace(before.measure, output=measure.output))
         if notes is not None:
             measure = replace(measure, **notes[k])
         result = judge(measure, plan.part, plan.rails, chain.conditions.margin)
@@ -396,10 +412,14 @@ def linear_stage(
         for name, node in response.inner.items()
     }
     shown = span(out)
-    if passive_output(plan, response, next_load) and not shown_later:
+    if (passive_output(plan, response, next_load) and not shown_later) or converter_loaded(
+        plan, response, next_load
+    ):
         # what the stage shows is its output with the next stage's input on it; what it hands
-        # on is its Thevenin voltage (the next stage meets the impedance itself)
-        assert response.output_impedance is not None  # passive_output: it has one
+        # on is its Thevenin voltage (the next stage meets the impedance itself). A converter
+        # input passes its node on: what the stages after it draw loads that node too (a
+        # Schmitt trigger's r1 + r2 to its levels); read through to its child where it can be
+        assert response.output_impedance is not None  # passive_output, converter_loaded: it has one
         shown = span(
             loaded_bounds(response.output, v, signal, response.output_impedance, one_load(next_load))
         )
@@ -483,6 +503,26 @@ def input_bounds(
     offsets = np.full(count, 0.0 if (nominal or part is None) else part.offset_at(25.0 + rise))
     bias = 0.0 if (nominal or part is None) else bias_at(part, 25.0 + hot_rise)
     return bounds_once(response.terminal, v, signal, offsets, bias, {}, memo)
+
+
+def settled_by_next(plan: StagePlan, response: BlockResponse, load) -> bool:
+    """A passive stage whose shown span the stage it feeds settles (the per-circuit walks): that
+    stage draws current from it, through its input conductance or its pins' bias currents
+    alone (a follower's + pin drops Ib times the divider's Thevenin resistance, Ohm's law)."""
+    return passive_output(plan, response, load) or (
+        response.output_impedance is not None
+        and not plan.block.window_only
+        and any(one.pins for one in each_load(load))
+    )
+
+
+def converter_loaded(plan: StagePlan, response: BlockResponse, load) -> bool:
+    """A converter input driven through an impedance whose node the stages after it load."""
+    return (
+        plan.block.window_only
+        and response.output_impedance is not None
+        and sum(one.conductance for one in each_load(load)) > 0
+    )
 
 
 def passive_output(plan: StagePlan, response: BlockResponse, load) -> bool:

@@ -46,8 +46,10 @@ from railroom.engine.walks.preparation import StagePlan
 from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, loaded_bounds, node_bounds
 from railroom.engine.verdict.results import StageResult
 from railroom.engine.walks.bounds_walk import (
+    SLOPE_KEEPING,
+    converter_loaded,
     load_behind,
-    passive_output,
+    settled_by_next,
     plan_parents,
     shows_input_of,
     tree_children,
@@ -289,7 +291,7 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
         v = stage_values(layout, plan, D, dT)
         response = None
         if plan.block.saturates:
-            draws, signal = saturated_draws(layout, k, v, D, fed)
+            draws, signal = saturated_draws(layout, k, v, D, fed, dT, drive)
             out_drive: np.ndarray | float = plan.part.output_resistance if plan.part else 0.0
         else:
             if plan.part not in inverse_gains:
@@ -329,7 +331,7 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
                 _, passive, values, feeding = pending[parent]
                 results[parent] = shown_loaded(layout, parent, passive, values, feeding, results[parent])
             del pending[parent]
-        if response is not None and passive_output(plan, response, layout.loads[k]):
+        if response is not None and settled_by_next(plan, response, layout.loads[k]):
             pending[k] = (k, response, v, fed)
         passed[k] = (signal, out_drive, response)
         if plan.block.window_only and len(children[k]) == 1:
@@ -470,7 +472,39 @@ def bounds_of(node, v, signal, offsets, bias, known: dict):
     return known[id(node)][1]
 
 
-def opamp_draws(part, amp, v, signal, offsets, bias, freqs, load, pos, neg, record: list | None, known: dict):
+def row_gain(node, rows: int) -> np.ndarray:
+    """max |H| per row of a node from the chain signal over the band (bounds_walk.largest_gain)."""
+    transfer = node.transfers.get("in")
+    if transfer is None:
+        return np.zeros(rows)
+    return np.broadcast_to(np.abs(transfer).max(axis=-1), (rows,))
+
+
+def clipped_slew(need: np.ndarray, amp, slope, keeping: bool) -> np.ndarray:
+    """A row fed a clipped signal (its slope bound, per row, NaN where it has none) needs its
+    slope bound through this op amp's gain, not the sine's read from held amplitudes; after a
+    filter that may ring, no less than the amplitudes' (bounds_walk.opamp_measure, per row)."""
+    if slope is None:
+        return need
+    through = row_gain(amp.output, need.shape[0]) * np.nan_to_num(slope)
+    return np.where(np.isnan(slope), need, through if keeping else np.maximum(need, through))
+
+
+def opamp_draws(
+    part,
+    amp,
+    v,
+    signal,
+    offsets,
+    bias,
+    freqs,
+    load,
+    pos,
+    neg,
+    record: list | None,
+    known: dict,
+    keeping=False,
+):
     """One op amp's margins per row (the per-row twin of stage_walk.opamp_measure)."""
     out = bounds_of(amp.output, v, signal, offsets, bias, known)
     plus = bounds_of(amp.plus, v, signal, offsets, bias, known)
@@ -489,9 +523,8 @@ def opamp_draws(part, amp, v, signal, offsets, bias, freqs, load, pos, neg, reco
     drop_high, drop_low = output_drops(part, sourced, sunk)
     low, high = neg + part.output_headroom[1] + drop_low, pos - part.output_headroom[0] - drop_high
     in_hi, in_lo = band_max(plus.hi), band_min(plus.lo)
-    margins = opamp_margins(
-        part, pos, neg, out_hi, out_lo, in_hi, in_lo, sourced, sunk, slew_needed(freqs, out.amp_hi)
-    )
+    need = clipped_slew(slew_needed(freqs, out.amp_hi), amp, getattr(signal, "slope", None), keeping)
+    margins = opamp_margins(part, pos, neg, out_hi, out_lo, in_hi, in_lo, sourced, sunk, need)
     spans = {
         "out-low": out_lo,
         "out-high": out_hi,
@@ -538,6 +571,7 @@ def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None
             neg,
             record,
             known,
+            plan.block.name in SLOPE_KEEPING,
         )
         for amp in response.opamps
     ]
@@ -548,20 +582,48 @@ def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None
     window = (found[-1][1]["window-low"], found[-1][1]["window-high"]) if found else None
     if plan.block.window_only:
         window = (v["low"][:, 0], v["high"][:, 0])
+        if converter_loaded(plan, response, layout.loads[k]):  # its node loaded (bounds_walk)
+            shown = loaded_bounds(
+                response.output, v, signal, response.output_impedance, one_load(layout.loads[k])
+            )
+            out_hi, out_lo = band_max(shown.hi), band_min(shown.lo)
         margins["input-high"], margins["input-low"] = window[1] - out_hi, out_lo - window[0]
     linear = np.ones(rows, dtype=bool)
     for check, value in margins.items():
         if check != "supply":
             linear &= value >= 0
-    passed = Signal(hi=out.hi, lo=out.lo, amp_lo=out.amp_lo, amp_hi=out.amp_hi)
+    passed = Signal(
+        hi=out.hi,
+        lo=out.lo,
+        amp_lo=out.amp_lo,
+        amp_hi=out.amp_hi,
+        slope=passed_slope_rows(plan, response, signal),
+    )
     if window is not None and not linear.all():
-        passed = clamp_rows(passed, window, ~linear)
+        clip = None
+        if found:  # the clipped output is no steeper than the unclipped need, nor the slew rate
+            assert plan.part is not None  # `found` holds op-amp margins
+            clip = plan.part.slew - np.maximum(found[-1][0]["slew"], 0.0)
+        passed = clamp_rows(passed, window, ~linear, clip)
     draws = StageDraws(out_lo, out_hi, tuple(m | {"spans": s} for m, s in found), margins, linear)
     return draws, passed
 
 
-def clamp_rows(signal: Signal, window, rows: np.ndarray) -> Signal:
-    """What each clipping row passes on: its output held inside its own window."""
+def passed_slope_rows(plan: StagePlan, response, signal):
+    """Per row, the slope bound a linear stage hands on from the one it is fed (NaN: none; None:
+    no row has one), through a stage whose impulse response keeps one sign (SLOPE_KEEPING)."""
+    slope = getattr(signal, "slope", None)
+    if slope is None:
+        return None
+    if plan.block.name not in SLOPE_KEEPING:
+        return np.full(np.shape(slope), np.nan)
+    out = row_gain(response.output, np.shape(slope)[0]) * slope
+    return out if plan.part is None else np.minimum(out, plan.part.slew)
+
+
+def clamp_rows(signal: Signal, window, rows: np.ndarray, slope=None) -> Signal:
+    """What each clipping row passes on: its output held inside its own window, and its slope
+    bound `slope` per row where given (the rows that do not clip keep the one they had)."""
     low = np.broadcast_to(window[0], rows.shape)[:, None]
     high = np.broadcast_to(window[1], rows.shape)[:, None]
     half = np.maximum((high - low) / 2.0, 0.0)
@@ -572,11 +634,16 @@ def clamp_rows(signal: Signal, window, rows: np.ndarray) -> Signal:
         if signal.amp_lo is not signal.amp_hi
         else amp_lo
     )  # one stays one (propagation.py)
+    kept = signal.slope
+    if slope is not None:
+        before = np.full(rows.shape, np.nan) if kept is None else kept
+        kept = np.where(rows, np.broadcast_to(slope, rows.shape), before)
     return Signal(
         hi=np.where(pick, np.clip(signal.hi, low, high), signal.hi),
         lo=np.where(pick, np.clip(signal.lo, low, high), signal.lo),
         amp_lo=amp_lo,
         amp_hi=amp_hi,
+        slope=kept,
     )
 
 
@@ -597,9 +664,24 @@ def saturated_levels_rows(part, pos, neg, conductance):
     return np.maximum(loaded(low_ideal), low_ideal), np.minimum(loaded(high_ideal), high_ideal)
 
 
-def saturated_draws(layout: Layout, k: int, v, D, signal):
+def comparator_rows(threshold: np.ndarray, offset: np.ndarray, bias: np.ndarray, drive, invert: bool):
+    """(flip level, pin shift) of a plain comparator per row (blocks/comparator.py): the row's
+    signed offset Vos and bias current Ib, drawn into the signal's pin through the resistance Rd
+    that drives it, put that pin at Vsig - Ib Rd, and the output flips where V+ + Vos = V-:
+        invert = false:  Vsig = threshold - Vos + Ib Rd      invert = true:  Vsig = threshold + Vos + Ib Rd
+    `drive`: a resistance, or a passive stage's Thevenin impedance per row and s (DC first)."""
+    rd = np.asarray(drive)
+    if rd.ndim == 2:
+        rd = rd[:, 0]
+    drop = bias * np.real(rd)
+    return threshold + (offset if invert else -offset) + drop, drop
+
+
+def saturated_draws(layout: Layout, k: int, v, D, signal, dT=None, drive=0.0):
     """A saturated-by-design stage per row: levels from the row's rails, inputs against the window.
-    Blocks without a single `threshold` field use the corners thresholds and reaches."""
+    A comparator flips at its threshold moved by the row's own offset and bias current through
+    the resistance driving it (comparator_rows); blocks without a single `threshold` field use
+    the corners thresholds and reaches (the errors there at their worst sign)."""
     plan, corner = layout.plans[k], layout.corner[k].measure
     part, rows = plan.part, D.shape[0]
     assert part is not None  # a comparator is an op amp (preparation)
@@ -611,9 +693,14 @@ def saturated_draws(layout: Layout, k: int, v, D, signal):
     else:
         sig_lo, sig_hi = np.full(rows, signal.common[0]), np.full(rows, signal.common[1])
     if "threshold" in v:
+        offsets, biases = row_errors(layout, plan, D, np.zeros(rows) if dT is None else dT)
+        invert = bool(plan.flags.get("invert"))
+        flip, drop = comparator_rows(v["threshold"][:, 0], offsets[:, 0], biases[:, 0], drive, invert)
+        above, below = sig_hi > flip, sig_lo < flip
+        reach_low, reach_high = (above, below) if invert else (below, above)
+        # the pins: the signal's moved by the bias drop, the threshold's a stiff source
         thr_lo = thr_hi = v["threshold"][:, 0]
-        above, below = sig_hi > thr_hi, sig_lo < thr_lo
-        reach_low, reach_high = (above, below) if plan.flags.get("invert") else (below, above)
+        sig_lo, sig_hi = sig_lo - drop, sig_hi - drop
     else:
         # the corners walk's saturated_stage sets both
         assert corner.thresholds is not None and corner.reaches is not None

@@ -46,8 +46,9 @@ class Signal:
     amp_hi: np.ndarray
     fed_clipped: bool = False
     # after a clipping stage: the largest |dV/dt| the clipped waveform can have, V/s (None: not
-    # bounded apart from its amplitudes; a sine's slope is 2 pi f a)
-    slope: float | None = None
+    # bounded apart from its amplitudes; a sine's slope is 2 pi f a); the draw walk keeps one per
+    # row, NaN in the rows that have none (circuit_walk.passed_slope_rows)
+    slope: float | np.ndarray | None = None
 
     @property
     def span(self) -> tuple[float, float]:

@@ -148,9 +148,10 @@ def test_one_output_loaded_by_two_stages_sums_their_currents(parts):
     )
     two = analyse(chain_from_text(two_text), parts, design_aids=False, headroom=False)
     first, second = (r.stages[0].measure.opamps[0].current_needed for r in (one, two))
-    # the part's offset (a few mV at most at 0.7 V) widens each bound slightly
+    # the part's offset (a few mV at most at 0.7 V) widens each bound slightly, and so does the
+    # bound on the - pin's Vout/A0 (15 V / 1e5 = 150 uV, engine/walks/bounds_walk.earth_error)
     assert first == pytest.approx(0.7 / 10e3 * 1.01, rel=0.02)
-    assert second - first == pytest.approx(0.7 / 5e3, rel=0.01)
+    assert second - first == pytest.approx(0.7 / 5e3, rel=0.015)
 
 
 def test_the_json_report_names_each_stages_input(tmp_path, home):

@@ -197,6 +197,10 @@ def peak(
 # "k:ref", "k:threshold", "k:inputs.N.v" (summing), "k:offsetJ", "k:bias+J", "k:bias-J" for its
 # op amp J (bias flows from the circuit INTO the pin), "k:level" (a Schmitt trigger's output level).
 # Topologies: railroom's README, File formats, the block table, word for word.
+# Branches: a stage's `feed` (None: the stage before, -1: the source, j: stage j's output) is one
+# more element on that node, so the output carries every stage hung on it. Named nets: a field
+# whose value is `Net(NAME)` (a ref, a summing input's volts, an ac_coupling's bias) connects to
+# ONE source node shared by every stage that names it, valued `units["net:NAME"]`.
 
 
 @dataclass(frozen=True)
@@ -230,13 +234,30 @@ def catalogue_build(
         else:
             c.source("s_out", u("level"))
         node = "s_out"
-    found = []
+    source_node = node
+    found: list[CatalogueNodes] = []
+    shared: set[str] = set()
+
+    def volts(label: str, value, own: str, k: int) -> str:
+        """The node a stage's fixed voltage sits at: a net's shared source, or its own."""
+        if isinstance(value, Net):
+            name = f"net_{value.name}"
+            if name not in shared:
+                shared.add(name)
+                c.source(name, u(f"net:{value.name}"))
+            return name
+        c.source(own, u(f"{k}:{label}"))
+        return own
+
     for k, st in enumerate(stages):
-        nodes = _catalogue_stage(c, st, node, f"n{k}", lambda label, k=k: u(f"{k}:{label}"))
+        feed = k - 1 if st.feed is None else st.feed
+        inp = source_node if feed < 0 else found[feed].out
+        nodes = _catalogue_stage(
+            c, st, inp, f"n{k}", lambda label, k=k: u(f"{k}:{label}"), lambda *a, k=k: volts(*a, k)
+        )
         if st.load:
             c.resistor(nodes.out, "0", st.load)
         found.append(nodes)
-        node = nodes.out
     return c, found
 
 
@@ -252,13 +273,13 @@ def _catalogue_opamp(c: Circuit, st: Stage, u, j: int, plus: str, minus: str, ou
     return (out, plus)
 
 
-def _catalogue_stage(c: Circuit, st: Stage, inp, p: str, u) -> CatalogueNodes:
+def _catalogue_stage(c: Circuit, st: Stage, inp, p: str, u, volts) -> CatalogueNodes:
     v, out, m, plus, a = st.values, f"{p}_out", f"{p}_m", f"{p}_p", f"{p}_a"
     ref = f"{p}_ref"
     b = st.block
     if b in ("difference", "instrumentation"):  # single-ended: in on the positive side, ref on the other
+        ref = volts("ref", v.get("ref"), ref)
         pos, neg = inp if isinstance(inp, tuple) else (inp, ref)
-        c.source(ref, u("ref"))
         if b == "difference":
             c.resistor(neg, m, v["r1"])
             c.resistor(m, out, v["r2"])
@@ -281,6 +302,11 @@ def _catalogue_stage(c: Circuit, st: Stage, inp, p: str, u) -> CatalogueNodes:
         )
         return CatalogueNodes(out, amps)
     assert isinstance(inp, str), f"{b} takes a single-ended signal"
+    if b == "ac_coupling":  # c from in to out, r from out to bias
+        bias = volts("bias", v.get("bias"), f"{p}_bias")
+        c.capacitor(inp, out, v["c"])
+        c.resistor(out, bias, v["r"])
+        return CatalogueNodes(out)
     if b in ("follower", "divider", "rc_lowpass", "noninverting"):
         if b == "follower":
             return CatalogueNodes(out, (_catalogue_opamp(c, st, u, 0, inp, out, out),))
@@ -292,9 +318,13 @@ def _catalogue_stage(c: Circuit, st: Stage, inp, p: str, u) -> CatalogueNodes:
             c.resistor(inp, out, v["r"])
             c.capacitor(out, "0", v["c"])
             return CatalogueNodes(out)
-        c.source(ref, u("ref"))
+        ref = volts("ref", v.get("ref"), ref)
         c.resistor(out, m, v["rf"])
-        c.resistor(m, ref, v["rg"])
+        if "cg" in v:  # rg from - to node g, cg from g to ref (AC-coupled rg)
+            c.resistor(m, f"{p}_g", v["rg"])
+            c.capacitor(f"{p}_g", ref, v["cg"])
+        else:
+            c.resistor(m, ref, v["rg"])
         return CatalogueNodes(out, (_catalogue_opamp(c, st, u, 0, inp, m, out),))
     if b == "adc":
         return CatalogueNodes(inp)
@@ -312,15 +342,14 @@ def _catalogue_stage(c: Circuit, st: Stage, inp, p: str, u) -> CatalogueNodes:
         c.resistor(plus, out, v["r2"])
         _pin_bias(c, plus, u("bias+0"))
         return CatalogueNodes(out, ((out, plus),))
-    c.source(ref, u("ref"))  # every other block: ref drives +
+    ref = volts("ref", v.get("ref"), ref)  # every other block: ref drives +
     if b in ("inverting", "summing", "integrator"):
         c.resistor(inp, m, v["rin"])
         c.resistor(m, out, v["rf"])
         if b == "integrator":
             c.capacitor(m, out, v["c"])
         for key in sorted(k for k in v if k.startswith("inputs.") and k.endswith(".r")):
-            fixed = f"{p}_{key[:-2]}"
-            c.source(fixed, u(key[:-2] + ".v"))
+            fixed = volts(key[:-2] + ".v", v.get(key[:-2] + ".v"), f"{p}_{key[:-2]}")
             c.resistor(fixed, m, v[key])
         return CatalogueNodes(out, (_catalogue_opamp(c, st, u, 0, ref, m, out),))
     if b.startswith("sallen_key"):

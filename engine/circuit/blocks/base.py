@@ -72,6 +72,9 @@ class InputLoad:
     # the return node also moves by the stage's bias current times this resistance, ohm (an MFB
     # low-pass's node A sits Ib r3 from its - pin)
     shift: float = 0.0
+    # the return is an op amp's - pin (a virtual earth): it sits Vout/A0 off the + pin as well
+    # (V- = V+ + Vos - Vout/A, opamp.py), which the walk bounds by the largest rail over A0
+    earth: bool = False
 
 
 @dataclass(frozen=True)

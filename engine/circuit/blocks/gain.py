@@ -185,10 +185,12 @@ def virtual_earth_input(rin, drive, amp: OpAmpNodes, inverse_gain) -> Node:
 
 
 def virtual_earth_load(rin: np.ndarray, v: Mapping[str, np.ndarray]) -> InputLoad:
-    """An inverting input resistor loads the stage before it to the + input's voltage (ref)."""
+    """An inverting input resistor loads the stage before it to the - input, at the + input's
+    voltage (ref) less Vout/A0 (InputLoad.earth; the walk adds the offset and that term)."""
     ref = np.atleast_1d(v.get("ref", np.zeros(1)))
     return InputLoad(
         conductance=float(np.max(1.0 / rin)),
         returns=(float(np.min(ref)), float(np.max(ref))),
         least=float(np.min(1.0 / rin)),
+        earth=True,
     )
