@@ -96,15 +96,20 @@ def corner_values(
             else np.asarray(drive)
         )
     choices = 1 if candidates is None else candidates.shape[0]
-    bits = len(varying) + int(np.ceil(np.log2(choices)))
-    if bits > MAX_CORNER_BITS:
+    groups = exchangeable_inputs(plan, ends, varying)
+    if groups:
+        columns, table = grouped_table(varying, groups)
+    else:
+        columns, table = varying, None
+    count = 2 ** len(varying) if table is None else table.shape[0]
+    if count * choices > 2**MAX_CORNER_BITS:
         # never hold a toleranced value fixed: a value left at one end can hide the worst case
-        raise TooManyCorners(plan, bits)
-    count = 2 ** len(varying)
+        raise TooManyCorners(plan, len(varying) + int(np.ceil(np.log2(choices))))
     values = {name: np.full((count, 1), ends[name][0]) for name in ends}
     if varying:
-        table = np.array(list(itertools.product((0, 1), repeat=len(varying))), dtype=bool)
-        for column, name in enumerate(varying):
+        if table is None:
+            table = np.array(list(itertools.product((0, 1), repeat=len(varying))), dtype=bool)
+        for column, name in enumerate(columns):
             lo, hi = ends[name]
             values[name] = np.where(table[:, column], hi, lo)[:, None]
     if candidates is not None:
@@ -112,6 +117,53 @@ def corner_values(
         values = {name: np.repeat(x, choices, axis=0) for name, x in values.items()}
         values["drive"] = np.tile(candidates, (count, 1))
     return values
+
+
+def exchangeable_inputs(
+    plan: StagePlan, ends: dict[str, tuple[float, float]], varying: list[str]
+) -> list[list[tuple[str, ...]]]:
+    """Groups (two or more) of a summing stage's fixed inputs that are interchangeable: the same
+    ends of r and of v. The block reads its fixed inputs only through sums over them
+    (blocks/gain.py: 1/r and v/r summed at the - input), so its response at a corner depends
+    only on how many of a group's members sit in each state, not on which: the multisets of
+    states are every distinct corner, C(m + s - 1, s - 1) of them for m members of s states
+    instead of s^m, which is exact. Each member is the tuple of its varying names."""
+    if "inputs" not in plan.block.fields:
+        return []
+    by_key: dict[tuple, list[tuple[str, ...]]] = {}
+    for name in ends:
+        if name.startswith("inputs.") and name.endswith(".r"):
+            member = name[: -len(".r")]
+            key = (ends[name], ends[f"{member}.v"])  # both ends of both, varying or not
+            names = tuple(n for n in (name, f"{member}.v") if n in varying)
+            if names:
+                by_key.setdefault(key, []).append(names)
+    return [group for group in by_key.values() if len(group) >= 2]
+
+
+def grouped_table(varying: list[str], groups: list[list[tuple[str, ...]]]) -> tuple[list[str], np.ndarray]:
+    """Columns and corner rows (True: the high end) with each group of exchangeable inputs
+    enumerated by its multisets of member states (exchangeable_inputs) and every other varying
+    value at both ends."""
+    grouped = {name for group in groups for member in group for name in member}
+    factors: list[tuple[list[str], np.ndarray]] = [
+        ([name], np.array([[False], [True]])) for name in varying if name not in grouped
+    ]
+    for group in groups:
+        width = len(group[0])  # varying names per member: r, v or both
+        states = np.array(list(itertools.product((False, True), repeat=width)), dtype=bool)
+        picks = np.array(
+            list(itertools.combinations_with_replacement(range(len(states)), len(group))), dtype=int
+        )
+        names = [name for member in group for name in member]
+        factors.append((names, states[picks].reshape(len(picks), -1)))
+    columns: list[str] = []
+    table = np.zeros((1, 0), dtype=bool)
+    for names, patterns in factors:
+        n = patterns.shape[0]
+        table = np.hstack([np.repeat(table, n, axis=0), np.tile(patterns, (table.shape[0], 1))])
+        columns += names
+    return columns, table
 
 
 def drive_candidates(impedance: np.ndarray) -> np.ndarray:

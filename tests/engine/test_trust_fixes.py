@@ -49,11 +49,26 @@ def test_every_toleranced_value_reaches_its_corner():
     assert not stages[1].go  # the converter window at 5.95 V is left
 
 
-def test_a_stage_with_too_many_corners_is_refused_not_sampled():
-    # 20 toleranced inputs: 2^20 corners. Holding any at one end could hide the worst case
-    # (all at 110k gives 20 x 0.5 x 100/110 = 9.0909 V, below the 9.291 V window).
+def test_twenty_interchangeable_inputs_are_enumerated_exactly():
+    # 20 identical toleranced inputs: 2^20 corners, but the summer reads its inputs only through
+    # sums (Sedra & Smith, ch. 2: Vout = -rf sum v_i / r_i), so the 21 counts of inputs at their
+    # high end are every distinct corner (corners.exchangeable_inputs). All at 110k gives
+    # 20 x 0.5 x 100/110 = 9.0909 V, below the 9.291 V window: NO-GO (it said GO at 9.62 V when
+    # it held the values past the 14th at one end, and was refused after that).
+    stages = result(summing(20, "9.291"), part()).stages
+    assert stages[0].measure.output[0] == pytest.approx(20 * 0.5 * 100 / 110, abs=1e-4)
+    assert stages[0].measure.output[1] == pytest.approx(20 * 0.5 * 100 / 90, abs=1e-4)
+    assert not stages[1].go
+
+
+def test_a_stage_with_too_many_distinct_corners_is_refused_not_sampled():
+    # 20 inputs that are not interchangeable (each its own resistor): 2^20 corners. Holding any
+    # at one end could hide the worst case, so the stage is refused with a located message.
+    text = summing(20, "9.291")
+    for i in range(20):
+        text = text.replace('{ r = "100k 10%", v = "-0.5" }', f'{{ r = "{100 + i}k 10%", v = "-0.5" }}', 1)
     with pytest.raises(InputError) as caught:
-        result(summing(20, "9.291"), part())
+        result(text, part())
     problem = caught.value.problems[0]
     assert problem.field == "stage.1" and problem.line == 8
     assert "20 toleranced values" in problem.message
