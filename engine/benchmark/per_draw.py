@@ -220,12 +220,12 @@ def comparator(plan, v, signal, pos, neg, count):
     """Open loop: the output sits at the swing limit on the side the input is (common practice)."""
     part = plan.part
     conductance = 1.0 / v["load"] if "load" in v else 0.0
+    to = v.get("load_to", 0.0)  # where the load returns: Millman's theorem, Ohm's law
     levels = []
     for ideal in (neg + part.output_headroom[1], pos - part.output_headroom[0]):
-        current = min(
-            abs(ideal) * conductance / (1 + part.output_resistance * conductance), part.output_current
-        )
-        levels.append(ideal - np.sign(ideal) * part.output_resistance * current)
+        current = (ideal - to) * conductance / (1 + part.output_resistance * conductance)
+        current = max(min(current, part.output_current), -part.output_current)
+        levels.append(ideal - part.output_resistance * current)
     low, high = levels
     sig_lo, sig_hi = float(np.min(signal[1])), float(np.max(signal[0]))
     threshold = v["threshold"]
@@ -236,7 +236,7 @@ def comparator(plan, v, signal, pos, neg, count):
     margins = {
         "input-high": pos - part.input_headroom[0] - max(sig_hi, threshold),
         "input-low": min(sig_lo, threshold) - (neg + part.input_headroom[1]),
-        "current": part.output_current - max(abs(high), abs(low)) * conductance,
+        "current": part.output_current - max(abs(high - to), abs(low - to)) * conductance,
         "supply": min(span - part.supply[0], part.supply[1] - span),
     }
     zero = np.zeros(count)

@@ -314,11 +314,6 @@ def _read_stage(t: dict, index: int, r: FieldReader, rails: dict, default_tol: f
     load_to = _component(r, t, w, "load_to", "voltage", None, default_tol)
     if load_to is not None and load is None:
         r.problem(f"{w}.load_to", "load_to is where the stage's `load` returns; give the stage a load")
-    if load_to is not None and block.saturates:
-        r.problem(
-            f"{w}.load_to",
-            f"block {block_name} takes its load to 0 V only; load_to is for linear stages",
-        )
     feed = r.text_field(t, w, "from", default=None)
     values: dict[str, object] = {}
     for key, spec in block.fields.items():

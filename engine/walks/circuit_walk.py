@@ -43,6 +43,7 @@ from railroom.engine.circuit.part_limits import (
     saturated_differential,
 )
 from railroom.engine.walks.preparation import StagePlan
+from railroom.engine.circuit.returned_levels import returned_level
 from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, loaded_bounds, node_bounds
 from railroom.engine.verdict.results import StageResult
 from railroom.engine.walks.bounds_walk import (
@@ -578,8 +579,14 @@ def clamp_rows(signal: Signal, window, rows: np.ndarray) -> Signal:
     )
 
 
-def saturated_levels_rows(part, pos, neg, conductance):
-    """opamp.saturated_levels for one circuit per row: the loaded level at each rail."""
+def saturated_levels_rows(part, pos, neg, conductance, to=None):
+    """opamp.saturated_levels for one circuit per row: the loaded level at each rail; `to`: where
+    the load returns per row when the stage has `load_to` (returned_levels.returned_level)."""
+    if to is not None and np.any(to != 0.0):
+        high_ideal, low_ideal = pos - part.output_headroom[0], neg + part.output_headroom[1]
+        return returned_level(part, low_ideal, conductance, to), returned_level(
+            part, high_ideal, conductance, to
+        )
 
     def loaded(level):
         current = np.minimum(
@@ -602,7 +609,8 @@ def saturated_draws(layout: Layout, k: int, v, D, signal):
     part, rows = plan.part, D.shape[0]
     pos, neg = row_rails(layout, plan, D)
     conductance = 1.0 / v["load"][:, 0] if "load" in v else np.zeros(rows)
-    low, high = saturated_levels_rows(part, pos, neg, conductance)
+    to = v["load_to"][:, 0] if "load_to" in v else 0.0  # where the load returns (returned_levels)
+    low, high = saturated_levels_rows(part, pos, neg, conductance, to)
     if isinstance(signal, Signal):
         sig_lo, sig_hi = band_min(signal.lo), band_max(signal.hi)
     else:
@@ -619,7 +627,7 @@ def saturated_draws(layout: Layout, k: int, v, D, signal):
     margins = {
         "input-high": pos - part.input_headroom[0] - in_hi,
         "input-low": in_lo - (neg + part.input_headroom[1]),
-        "current": part.output_current - np.maximum(np.abs(high), np.abs(low)) * conductance,
+        "current": part.output_current - np.maximum(np.abs(high - to), np.abs(low - to)) * conductance,
     }
     margins.update(
         differential_margin(
