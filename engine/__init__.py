@@ -34,6 +34,8 @@ _EXPORTS = {
     "InputError": "circuit.model",
     "Problem": "circuit.model",
     "stage_parents": "circuit.model",
+    "tree_rows": "circuit.stage_tree",
+    "branched": "circuit.stage_tree",
     # the results and the table of checks
     "ChainResult": "verdict.results",
     "StageResult": "verdict.results",
@@ -145,6 +147,8 @@ if TYPE_CHECKING:  # the same names for the type checker (a test keeps the two i
     from railroom.engine.circuit.model import InputError as InputError
     from railroom.engine.circuit.model import Problem as Problem
     from railroom.engine.circuit.model import stage_parents as stage_parents
+    from railroom.engine.circuit.stage_tree import branched as branched
+    from railroom.engine.circuit.stage_tree import tree_rows as tree_rows
     from railroom.engine.verdict.results import ChainResult as ChainResult
     from railroom.engine.verdict.results import StageResult as StageResult
     from railroom.engine.verdict.results import OpAmpMeasure as OpAmpMeasure
