@@ -74,6 +74,11 @@ _EXPORTS = {
     "add_stage": "formats.chain_editing",
     "remove_stage": "formats.chain_editing",
     "move_stage": "formats.chain_editing",
+    "add_net": "formats.net_editing",
+    "remove_net": "formats.net_editing",
+    "new_net_problem": "formats.net_editing",
+    "NetInUse": "formats.net_editing",
+    "net_readers": "formats.net_editing",
     # part presets
     "Library": "formats.presets",
     "PART_FIELDS": "formats.presets",
@@ -183,6 +188,11 @@ if TYPE_CHECKING:  # the same names for the type checker (a test keeps the two i
     from railroom.engine.formats.chain_editing import starter_stage as starter_stage
     from railroom.engine.formats.chain_editing import add_stage as add_stage
     from railroom.engine.formats.chain_editing import remove_stage as remove_stage
+    from railroom.engine.formats.net_editing import add_net as add_net
+    from railroom.engine.formats.net_editing import remove_net as remove_net
+    from railroom.engine.formats.net_editing import new_net_problem as new_net_problem
+    from railroom.engine.formats.net_editing import NetInUse as NetInUse
+    from railroom.engine.formats.net_editing import net_readers as net_readers
     from railroom.engine.formats.chain_editing import move_stage as move_stage
     from railroom.engine.formats.presets import Library as Library
     from railroom.engine.formats.presets import PART_FIELDS as PART_FIELDS

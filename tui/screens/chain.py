@@ -39,6 +39,7 @@ from railroom.engine import (
     toml_value,
 )
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen
+from railroom.tui.screens.net_dialog import open_new_net, open_remove_net
 from railroom.tui.widgets.detail import StageDetail
 from railroom.tui.widgets.field_form import FieldForm, FormField
 from railroom.tui.widgets.level_view import LevelView
@@ -82,6 +83,8 @@ class ChainScreen(Screen):
         ),
         key("m", "choose_method", "method", "method", "Choose the method: corners, rss, montecarlo"),
         key("a", "add_stage", "add", "add", "Add a stage after the highlighted one"),
+        key("n", "new_net", "new net", "new_net", "Add a named net (a DC voltage stages share)", show=False),
+        key("N", "remove_net", "remove net", "remove_net", "Remove a named net no stage reads", show=False),
         key("x", "remove_stage", "remove", "remove", "Remove the highlighted stage (asks first)", show=False),
         key("J", "move_stage(1)", "move down", "move_down", "Move the highlighted stage down", show=False),
         key("K", "move_stage(-1)", "move up", "move_up", "Move the highlighted stage up", show=False),
@@ -321,6 +324,12 @@ class ChainScreen(Screen):
             return lambda t: set_section_field(t, "source", key, value)
 
         self._form("[source] and [nets]", "source", fields, change)
+
+    def action_new_net(self) -> None:
+        open_new_net(self)
+
+    def action_remove_net(self) -> None:
+        open_remove_net(self)
 
     def action_edit_conditions(self) -> None:
         self._section_form("conditions")
