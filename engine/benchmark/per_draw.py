@@ -76,21 +76,26 @@ class Nodal:
         return np.linalg.solve(self.G, b)[:, self.index[node], 0]
 
 
-def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float):
+def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float, siblings=None):
     """Nodal circuit of one stage (the README's File formats, block topologies); returns (solution, nodes,
     the op amp's branch, the circuit). `drive`: the impedance driving the stage, a resistance or
-    one value per Laplace point (the Thevenin impedance of a passive stage before it)."""
+    one value per Laplace point (the Thevenin impedance of a passive stage before it).
+    `siblings`: (G, V) per other stage a passive stage feeds: a conductance from its output to a
+    source at V (sibling_node)."""
     block = plan.block.name
     val = {k: float(x) for k, x in v.items()}
     extra = sorted({k.rsplit(".", 1)[0] for k in val if k.startswith("inputs.")})
     returns = ["load_to"] if "load_to" in val else []
+    returns += [f"siblings.{n}" for n in range(len(siblings or ()))]
     nodes = ["src", "plus", "minus", "out", "ref", "cg"] + [f"{k}.v" for k in extra] + returns
     opamps = block in ("follower", "noninverting", "inverting", "summing")
     c = Nodal(nodes, s, sources=2 + len(extra) + opamps + len(returns))
     c.source("src", 0, 1.0)
     c.source("ref", 1, val.get("ref", val.get("bias", 0.0)))
     for node in returns:
-        c.source(node, 1, val[node])
+        c.source(node, 1, val[node] if node == "load_to" else siblings[int(node.split(".")[1])][1])
+    for n, (g, _) in enumerate(siblings or ()):
+        c.admittance("out", f"siblings.{n}", g)
     if "load" in val:  # to 0 V, or to `load_to` (an ideal source)
         c.admittance("out", "load_to" if "load_to" in val else GROUND, 1.0 / val["load"])
     driven = lambda node, r: c.admittance("src", node, 1.0 / r)  # noqa: E731
@@ -160,9 +165,13 @@ def draw_margins(layout: dw.Layout, D: np.ndarray, dT: float) -> list[dict[str, 
     source = (signal, chain.source.impedance)
     passed: list = []  # per stage: (the signal it passes on, what drives the stages it feeds)
     parents = dw.plan_parents(layout.plans)  # stages form a tree (`from`)
+    entered: dict = {}  # a passive stage feeding several: (its values, the signal it was fed)
     for k, plan in enumerate(layout.plans):
         parent = parents[k]
         signal, drive = source if parent < 0 else passed[parent]
+        if k in layout.siblings:  # the passive node with the others' inputs on it
+            signal, drive = sibling_node(layout, parent, k, entered[parent], s, D, dT, signal)
+        entered[k] = (v_of(layout, plan, D, dT), (signal, drive))
         v = {name: x[0, 0] for name, x in dw.stage_values(layout, plan, D, np.array([dT])).items()}
         pos, neg = (float(x[0]) for x in dw.row_rails(layout, plan, D))
         if plan.block.saturates:
@@ -190,6 +199,56 @@ def draw_margins(layout: dw.Layout, D: np.ndarray, dT: float) -> list[dict[str, 
         found.append(margins)
         passed.append((out, drive))
     return found
+
+
+def v_of(layout, plan, D, dT) -> dict:
+    return {name: x[0, 0] for name, x in dw.stage_values(layout, plan, D, np.array([dT])).items()}
+
+
+def input_conductance(plan, v: dict) -> float:
+    """What the stage's input draws to its return, S, from its topology (the README's File
+    formats): a resistor rin to the - pin; r3 + r4 (difference, single-ended); top in series with
+    bottom || load (divider); r1 + r2 (Schmitt trigger, not inverted); nothing otherwise."""
+    block = plan.block.name
+    if block in ("inverting", "summing", "integrator"):
+        return 1.0 / v["rin"]
+    if block == "difference":
+        return 1.0 / (v["r3"] + v["r4"])
+    if block == "divider":
+        bottom = 1.0 / (1.0 / v["bottom"] + (1.0 / v["load"] if "load" in v else 0.0))
+        return 1.0 / (v["top"] + bottom)
+    if block == "schmitt" and not plan.flags.get("invert"):
+        return 1.0 / (v["r1"] + v["r2"])
+    if block in ("follower", "noninverting", "comparator", "adc", "schmitt"):
+        return 0.0
+    raise ValueError(f"the per-draw reference does not cover block {block!r} beside another stage")
+
+
+def sibling_node(layout, parent: int, k: int, entered, s, D, dT, thevenin):
+    """Stage k's input from the passive stage `parent` that feeds several: that stage's circuit
+    solved again with the other stages' inputs on its output (each one's conductance in this
+    drawn circuit to the middle of its returns), the rest of their returns' span and their pins'
+    currents as +/- Zk0 (sum G half span + pins) (Millman's theorem), and the impedance Zk there."""
+    v_parent, (fed, fed_drive) = entered
+    others = layout.siblings[k]
+    branches, spread = [], 0.0
+    for j, load in others.loads:
+        g = input_conductance(layout.plans[j], v_of(layout, layout.plans[j], D, dT))
+        low, high = load.returns
+        branches.append((g, (low + high) / 2.0))
+        spread += g * (high - low) / 2.0
+    x, index, _, circuit = stage_circuit(layout.plans[parent], v_parent, s, fed_drive, 0.0, 0.0, branches)
+    impedance = circuit.impedance("out")
+    hi, lo, a = envelope(x[:, index["out"]], fed)
+    error = float(impedance[0].real) * (spread + others.pins)
+    kappa = others.kappa_at(layout.freqs)
+    if kappa is not None:  # the others' - pins move by Vout / A (the engine's bound)
+        eps = np.abs(impedance) * kappa
+        top = np.maximum(np.abs(thevenin[0]), np.abs(thevenin[1]))
+        extra = np.maximum(eps[0], eps[1:]) * top
+        swing = eps[1:] * thevenin[2]
+        return (hi + error + extra, lo - error - extra, a + swing), impedance
+    return (hi + error, lo - error, a), impedance
 
 
 def opamp_margins(plan, x, index, branch, out, signal, load, freqs, pos, neg) -> dict[str, float]:

@@ -239,7 +239,8 @@ def _read_stages(raw, r: FieldReader, rails: dict, conditions: Conditions | None
 
 def _check_branches(stages: list[Stage], r: FieldReader) -> None:
     """`from` (the README's File formats, branches): it names an earlier stage or "source";
-    names are unique in a chain that uses it; a passive stage feeds one stage at most."""
+    names are unique in a chain that uses it; a converter input fed by a passive stage feeds one
+    stage at most."""
     if not any(stage.feed is not None for stage in stages):
         return
     seen: dict[str, int] = {}
@@ -271,13 +272,18 @@ def _check_branches(stages: list[Stage], r: FieldReader) -> None:
     for k, stage in enumerate(stages):
         block = BLOCKS.get(stage.block)
         fed = [j for j, parent in enumerate(parents) if parent == k]
-        if block is not None and not block.uses_part and len(fed) > 1:
+        before = BLOCKS.get(stages[parents[k]].block) if parents[k] >= 0 else None
+        # a passive stage may feed several (each one meets its node loaded by the others:
+        # walks/sibling_loads.py); a converter input passes its input on, so one fed by a
+        # passive stage would hand that node on to several without their loads on it
+        passive_before = before is not None and not before.uses_part and not before.window_only
+        if block is not None and block.window_only and passive_before and len(fed) > 1:
             j = fed[1]
             r.problem(
                 f"stage.{j + 1}.from" if stages[j].feed is not None else f"stage.{j + 1}",
-                f"stage {k + 1} ({stage.name!r}, {stage.block}) already feeds stage {fed[0] + 1}; "
-                "a stage with no op amp drives one stage at most (its output is not buffered): "
-                "take this branch from the op-amp stage before it",
+                f"stage {k + 1} ({stage.name!r}, {stage.block}) already feeds stage {fed[0] + 1} and "
+                f"is fed by a passive stage ({stages[parents[k]].name!r}); a converter input there "
+                "drives one stage at most: take this branch from the passive stage itself",
             )
 
 

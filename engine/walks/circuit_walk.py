@@ -27,7 +27,7 @@ rows beside it.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from functools import cached_property
 
 import numpy as np
@@ -44,6 +44,7 @@ from railroom.engine.circuit.part_limits import (
 )
 from railroom.engine.walks.preparation import StagePlan
 from railroom.engine.circuit.returned_levels import returned_level
+from railroom.engine.walks.sibling_loads import drawn_conductances, drawn_view
 from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, loaded_bounds, node_bounds
 from railroom.engine.verdict.results import StageResult
 from railroom.engine.walks.bounds_walk import (
@@ -89,6 +90,8 @@ class Layout:
     loads: tuple[tuple[InputLoad, ...], ...]  # per stage what each stage it feeds draws (worst)
     amps: tuple[int, ...]  # op amps per stage
     corner: tuple[StageResult, ...]  # corners results: thresholds and reaches of saturated stages
+    # stage fed by a passive stage feeding several -> what the others draw (sibling_loads.py)
+    siblings: dict = field(default_factory=dict, compare=False)
 
     def column(self, stage: int | None, quantity: str, kind: str, amp: int = 0) -> int | None:
         return self.columns.get((stage, quantity, kind, amp))
@@ -166,6 +169,7 @@ def build_layout(
         tuple(loads),
         tuple(amps),
         tuple(corner),
+        {k: view.load for k, view in getattr(prepared, "views", {}).items()},
     )
 
 
@@ -279,12 +283,15 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
     # converter input with one child -> (its values, the signal it was fed), until the child is walked
     converters: dict[int, tuple] = {}
     grand_responses: dict = {}  # the response of the stage feeding such a converter input
+    feeding: dict = {}  # passive stage feeding several -> (its values, its input, its siblings' conductances)
     for k, plan in enumerate(layout.plans):
         parent = parents[k]
         if parent < 0:
             fed, drive, before = source, layout.chain.source.impedance, None
         else:
             fed, drive, before = passed[parent]
+        if parent in feeding:  # the node loaded by the other stages it feeds (sibling_loads.py)
+            fed, drive = drawn_view(before, *feeding[parent], k, layout.siblings[k], fed, layout.freqs)
         v = stage_values(layout, plan, D, dT)
         response = None
         if plan.block.saturates:
@@ -331,6 +338,8 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
         if response is not None and passive_output(plan, response, layout.loads[k]):
             pending[k] = (k, response, v, fed)
         passed[k] = (signal, out_drive, response)
+        if response is not None and any(c in layout.siblings for c in children[k]):
+            feeding[k] = (v, fed, drawn_conductances(layout, k, D, dT, out_drive))
         if plan.block.window_only and len(children[k]) == 1:
             converters[k] = (v, fed)
             grand_responses[parent] = before

@@ -96,11 +96,21 @@ def test_a_bad_from_exits_2_naming_file_line_and_field(tmp_path, home):
     assert f"{path}:{line}: stage.4.from: no stage named 'nowhere'" in done.stderr
 
 
-def test_a_passive_stage_feeds_one_stage_at_most():
+def test_a_passive_stage_feeds_several_a_converter_input_after_one_feeds_one():
+    # each stage on a passive output meets it loaded by the others (walks/sibling_loads.py;
+    # tests/references/test_passive_branches_reference.py checks the numbers)
     text = CHAIN.replace(
         '[[stage]]\nname = "gain"',
         '[[stage]]\nname = "rc"\nblock = "rc_lowpass"\nr = "1k"\nc = "1n"\n[[stage]]\nname = "gain"',
     ).replace('from = "buffer"', 'from = "rc"')
+    assert chain_from_text(text).parents == (-1, 0, 1, 2, 1, 4)
+    # a converter input passes its input on: after a passive stage it would hand the node on
+    # to several without their loads on it
+    text = text.replace(
+        'name = "gain"\nblock = "noninverting"', 'name = "gain"\nblock = "adc"\nlow = "-5"\nhigh = "5"'
+    )
+    text = text.replace('part = "generic-bipolar-15v"\nrf = "390k 1%"\nrg = "10k 1%"\n', "")
+    text = text.replace('from = "rc"', 'from = "gain"')
     found = problems(text)
     assert len(found) == 1 and "stage.5.from" in found[0] and "drives one stage at most" in found[0]
 

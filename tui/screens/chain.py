@@ -384,14 +384,16 @@ class ChainScreen(Screen):
 
     def _inputs(self, after: int) -> list[tuple[str, str]]:
         """Where a new stage may take its input from: in the line after stage `after` (as the
-        stage after it did), or a branch from any stage (one with no op amp only while it feeds
-        nothing yet) or from the source, added at the end."""
+        stage after it did), or a branch from any stage (a converter input fed by a passive
+        stage only while it feeds nothing yet) or from the source, added at the end."""
         chain = self.session.chain
         name = chain.stages[after - 1].name
         choices = [("line", f"in the line after stage {after} ({name})")]
-        fed = chain.children
+        fed, parents = chain.children, chain.parents
         for k, stage in enumerate(chain.stages, start=1):
-            if BLOCKS[stage.block].uses_part or not fed[k - 1]:
+            before = BLOCKS[chain.stages[parents[k - 1]].block] if parents[k - 1] >= 0 else None
+            passive_before = before is not None and not before.uses_part and not before.window_only
+            if not (BLOCKS[stage.block].window_only and passive_before and fed[k - 1]):
                 choices.append((str(k), f"stage {k} ({stage.name}), a branch (added at the end)"))
         choices.append(("source", "the source, a branch (added at the end)"))
         return choices

@@ -67,6 +67,9 @@ class InputLoad:
     # the return node also moves by the stage's bias current times this resistance, ohm (an MFB
     # low-pass's node A sits Ib r3 from its - pin)
     shift: float = 0.0
+    # the conductance per row (corner or drawn circuit), (J, 1), where the block knows it: a
+    # passive stage feeding several reads each sibling's own per drawn circuit (sibling_loads.py)
+    rows: np.ndarray | None = field(default=None, compare=False, repr=False)
 
 
 @dataclass(frozen=True)

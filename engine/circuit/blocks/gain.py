@@ -191,4 +191,5 @@ def virtual_earth_load(rin: np.ndarray, v: Mapping[str, np.ndarray]) -> InputLoa
         conductance=float(np.max(1.0 / rin)),
         returns=(float(np.min(ref)), float(np.max(ref))),
         least=float(np.min(1.0 / rin)),
+        rows=1.0 / rin,
     )
