@@ -205,3 +205,34 @@ def test_a_low_pass_or_a_coupling_feeding_two_meets_the_netlist(tmp_path, block,
         width = max(highs) - min(lows)
         assert low <= min(lows) + 1e-6 and high >= max(highs) - 1e-6, (block, method, name, low, high)
         assert low >= min(lows) - 0.05 * width and high <= max(highs) + 0.05 * width, (block, name)
+
+
+def test_with_tolerances_the_corners_hold_every_corner_of_the_netlist(tmp_path):
+    # 1 % resistors: the netlist solved at every corner of the five (2^5 x both source levels,
+    # the AC peak added by superposition) stays inside the engine's spans, which are wider by
+    # at most the offsets, the bias currents and the others' finite gain (< 1 mV) plus the
+    # enumeration of the others' conductance at its ends (a few mV here)
+    import itertools
+
+    text = TWO.replace('"10k"', '"10k 1%"').replace('rf = "20k"', 'rf = "20k 1%"')
+    result, _ = analysed(tmp_path, text)
+    freqs = np.geomspace(100, 1e3, 20)
+    lows, highs = [np.inf] * 4, [-np.inf] * 4
+    for signs in itertools.product((-1, 1), repeat=6):
+        top, bottom, rin1, rf1, rin2, rf2 = (
+            n * (1 + 0.01 * d) for n, d in zip((10e3, 10e3, 10e3, 20e3, 10e3, 10e3), signs)
+        )
+        stages = [
+            Stage("divider", {"top": top, "bottom": bottom}),
+            Stage("inverting", {"rin": rin1, "rf": rf1}, opamp=PRECISION),
+            Stage("inverting", {"rin": rin2, "rf": rf2, "ref": 1.0}, opamp=PRECISION, feed=0),
+            Stage("follower", opamp=PRECISION, feed=0),
+        ]
+        gains = [float(np.max(np.abs(r))) for r in response(stages, freqs)]
+        for level in (-0.5, 0.5):
+            for k, out in enumerate(dc(stages, level)):
+                lows[k], highs[k] = min(lows[k], out - gains[k]), max(highs[k], out + gains[k])
+    for k, stage in enumerate(result.stages):
+        low, high = stage.measure.output
+        assert low <= lows[k] + 1e-6 and high >= highs[k] - 1e-6, (k, low, high, lows[k], highs[k])
+        assert low >= lows[k] - 0.02 and high <= highs[k] + 0.02, (k, low, high, lows[k], highs[k])
