@@ -277,6 +277,8 @@ def _check_branches(stages: list[Stage], r: FieldReader) -> None:
         # walks/sibling_loads.py); a converter input passes its input on, so one fed by a
         # passive stage would hand that node on to several without their loads on it
         passive_before = before is not None and not before.uses_part and not before.window_only
+        if block is not None and not block.uses_part and not block.window_only and len(fed) > 1:
+            _check_siblings(stages, k, fed, r)
         if block is not None and block.window_only and passive_before and len(fed) > 1:
             j = fed[1]
             r.problem(
@@ -285,6 +287,29 @@ def _check_branches(stages: list[Stage], r: FieldReader) -> None:
                 f"is fed by a passive stage ({stages[parents[k]].name!r}); a converter input there "
                 "drives one stage at most: take this branch from the passive stage itself",
             )
+
+
+def _check_siblings(stages: list[Stage], k: int, fed: list[int], r: FieldReader) -> None:
+    """A passive stage feeding several: each one must load its node as a conductance to a fixed
+    voltage (walks/sibling_loads.py), not follow the signal, block DC or feed further stages."""
+    from railroom.engine.walks.sibling_loads import NOT_SHARING
+
+    parents = stage_parents(stages)
+    for j in fed:
+        block = BLOCKS.get(stages[j].block)
+        feeds = any(parent == j for parent in parents)
+        if stages[j].block in NOT_SHARING:
+            why = f"its input ({stages[j].block}) follows the signal or blocks DC"
+        elif block is not None and not block.uses_part and feeds:
+            why = "it has no op amp and feeds further stages"
+        else:
+            continue
+        r.problem(
+            f"stage.{j + 1}.from" if stages[j].feed is not None else f"stage.{j + 1}",
+            f"stage {j + 1} ({stages[j].name!r}) shares the output of stage {k + 1} "
+            f"({stages[k].name!r}, {stages[k].block}, no op amp) with another stage, but {why}: "
+            "take the branch from an op-amp stage, or buffer it",
+        )
 
 
 def _drift_through_zero(stage: Stage, index: int, rise: float, r: FieldReader) -> None:

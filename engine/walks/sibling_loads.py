@@ -270,6 +270,12 @@ def family_views(plans, values, responses, parent: int, children, rise, nominal,
 
 
 VIRTUAL_EARTH = frozenset({"inverting", "summing", "integrator"})
+# blocks whose input follows the signal or blocks DC (their InputLoad says so; the loader refuses
+# them beside another stage on a passive output: chain_file._check_branches; a test keeps this
+# list equal to what the blocks report)
+NOT_SHARING = frozenset(
+    {"rc_lowpass", "ac_coupling", "sallen_key_lowpass", "sallen_key_highpass", "mfb_lowpass", "mfb_bandpass"}
+)
 
 
 def finite_gain(plans, probe, load: Others, s) -> np.ndarray | None:

@@ -236,3 +236,26 @@ def test_with_tolerances_the_corners_hold_every_corner_of_the_netlist(tmp_path):
         low, high = stage.measure.output
         assert low <= lows[k] + 1e-6 and high >= highs[k] - 1e-6, (k, low, high, lows[k], highs[k])
         assert low >= lows[k] - 0.02 and high <= highs[k] + 0.02, (k, low, high, lows[k], highs[k])
+
+
+def test_the_loaders_list_of_inputs_that_cannot_share_is_what_the_blocks_report():
+    # sibling_loads.NOT_SHARING (read by the loader) against each block's own InputLoad
+    from railroom.engine.circuit.blocks import BLOCKS
+    from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
+    from railroom.engine.walks.sibling_loads import NOT_SHARING
+
+    s = laplace_grid(np.array([100.0]))
+    starter = {"resistance": 1e4, "capacitance": 1e-8, "voltage": 1.0, "frequency": 1e3}
+    found = set()
+    for name, block in BLOCKS.items():
+        if block.saturates:
+            continue
+        v = {
+            key: np.array([[float(spec.default if not spec.required else starter.get(spec.kind, 1.0))]])
+            for key, spec in block.fields.items()
+            if spec.kind not in ("flag", "inputs") and (spec.required or spec.default is not None)
+        }
+        load = block.respond(v, s, inverse_open_loop(None, s), 0.0, False).input_load
+        if load.follows or load.blocks_dc:
+            found.add(name)
+    assert found == NOT_SHARING
