@@ -34,6 +34,8 @@ _EXPORTS = {
     "InputError": "circuit.model",
     "Problem": "circuit.model",
     "stage_parents": "circuit.model",
+    "tree_rows": "circuit.stage_tree",
+    "branched": "circuit.stage_tree",
     # the results and the table of checks
     "ChainResult": "verdict.results",
     "StageResult": "verdict.results",
@@ -72,6 +74,11 @@ _EXPORTS = {
     "add_stage": "formats.chain_editing",
     "remove_stage": "formats.chain_editing",
     "move_stage": "formats.chain_editing",
+    "add_net": "formats.net_editing",
+    "remove_net": "formats.net_editing",
+    "new_net_problem": "formats.net_editing",
+    "NetInUse": "formats.net_editing",
+    "net_readers": "formats.net_editing",
     # part presets
     "Library": "formats.presets",
     "PART_FIELDS": "formats.presets",
@@ -147,6 +154,8 @@ if TYPE_CHECKING:  # the same names for the type checker (a test keeps the two i
     from railroom.engine.circuit.model import InputError as InputError
     from railroom.engine.circuit.model import Problem as Problem
     from railroom.engine.circuit.model import stage_parents as stage_parents
+    from railroom.engine.circuit.stage_tree import branched as branched
+    from railroom.engine.circuit.stage_tree import tree_rows as tree_rows
     from railroom.engine.verdict.results import ChainResult as ChainResult
     from railroom.engine.verdict.results import StageResult as StageResult
     from railroom.engine.verdict.results import OpAmpMeasure as OpAmpMeasure
@@ -181,6 +190,11 @@ if TYPE_CHECKING:  # the same names for the type checker (a test keeps the two i
     from railroom.engine.formats.chain_editing import starter_stage as starter_stage
     from railroom.engine.formats.chain_editing import add_stage as add_stage
     from railroom.engine.formats.chain_editing import remove_stage as remove_stage
+    from railroom.engine.formats.net_editing import add_net as add_net
+    from railroom.engine.formats.net_editing import remove_net as remove_net
+    from railroom.engine.formats.net_editing import new_net_problem as new_net_problem
+    from railroom.engine.formats.net_editing import NetInUse as NetInUse
+    from railroom.engine.formats.net_editing import net_readers as net_readers
     from railroom.engine.formats.chain_editing import move_stage as move_stage
     from railroom.engine.formats.presets import Library as Library
     from railroom.engine.formats.presets import PART_FIELDS as PART_FIELDS

@@ -23,6 +23,7 @@ from railroom.engine.verdict.results import VOLTAGE_CHECKS, Fix, StageResult, ch
 from railroom.engine.aids.sensitivity import direction, in_one_line, linearise, ranking
 from railroom.engine.formats.values import format_si
 from railroom.engine.walks.bounds_walk import plan_parents
+from railroom.engine.methods.joint import envelope
 
 SERIES = ("E24", "E96")
 TIGHT = 2.0  # a GO stage is tight when its limiting voltage margin is under 2 x the required
@@ -85,7 +86,11 @@ class Evaluator:
     `from`, no named nets) rss does the same and re-walks its linearisation over the same
     stages, fed the state the unchanged chain's had there (sensitivity.walk_linearised, `lin`:
     the unchanged chain's, with what each stage is fed); the stages before keep their rss
-    results. On a tree or with nets rss re-runs its own method on the whole chain."""
+    results. On a tree or with nets rss re-runs its own method on the whole chain. With nets
+    shared by stages corners re-walks the same stages once per joint corner of them and takes
+    the envelope, as the method does (a walk with each net at every end of its own, stage by
+    stage, would hold too, a superset of the joint corners, but it quotes smaller margins and
+    proposes larger changes than needed)."""
 
     def __init__(self, chain, plans, freqs, baseline: list[StageResult] | None = None, lin=None):
         # `baseline`: results(plans) when the caller has them (corners results, or rss ones for
@@ -98,6 +103,8 @@ class Evaluator:
         self._prepared: corners.Prepared | None = None
         self._entering: list = []
         self._unchanged: list[StageResult] = []  # the unchanged chain's corners, with _prepared
+        # with shared values: per joint corner its Prepared, what each stage was fed, its results
+        self._variants: list | None = None
 
     def results(self, plans, changed: int | None = None, stop: int | None = None) -> list[StageResult]:
         """Results of stages up to `stop` (all by default) of the chain with `plans`; `changed`:
@@ -116,12 +123,9 @@ class Evaluator:
         if self._prepared is None:
             self._prepared = corners.prepare(self.chain, self.plans, self.freqs)
             self._unchanged = corners.walk(self._prepared, entering=self._entering)
-        parents = plan_parents(self.plans)
-        first = max(parents[changed], 0)  # the stage it takes from: its load includes this input
-        # a passive stage shows (and hands on) what the stage after it loads it to, row by row
-        # with that stage's corners: start from the last stage up its branch that stands alone
-        while first > 0 and (self._prepared.joint[first] or not self.plans[first].block.uses_part):
-            first = max(parents[first], 0)
+        if self._prepared.joint_walks:
+            return self._joint_from(plans, changed, stop)
+        first = self._first(self._prepared, changed)
         prepared = corners.prepare(
             self.chain,
             plans,
@@ -133,6 +137,47 @@ class Evaluator:
         # stages from `first` on that are not downstream of it are fed what the full walk had
         found = [*self._unchanged[:first], *corners.run_from(prepared, first, self._entering, stop)]
         return self._rss_from(plans, prepared, found, first, stop) if rss else found
+
+    def _first(self, prepared, changed: int) -> int:
+        """The first stage a change at stage `changed` can move."""
+        parents = plan_parents(self.plans)
+        first = max(parents[changed], 0)  # the stage it takes from: its load includes this input
+        # a passive stage shows (and hands on) what the stage after it loads it to, row by row
+        # with that stage's corners: start from the last stage up its branch that stands alone
+        while first > 0 and (prepared.joint[first] or not self.plans[first].block.uses_part):
+            first = max(parents[first], 0)
+        return first
+
+    def _joint_from(self, plans, changed: int, stop: int | None) -> list[StageResult]:
+        """With values the stages share (nets.joint_plans): the re-walk from the first stage
+        the change moves, once per joint corner of them (each walk's stages pinned there, the
+        change applied on top), and the envelope of the walks, as the method itself takes it
+        (methods/joint.py): a fix is judged with every net at one value in every stage."""
+        assert self._prepared is not None
+        if self._variants is None:
+            self._variants = []
+            for variant in self._prepared.joint_walks:
+                entering: list = []
+                self._variants.append((variant, entering, corners.walk(variant, entering=entering)))
+        # the change: the quantities of stage `changed` that differ from the unchanged plan's
+        own = self.plans[changed].quantities
+        delta = {f: q for f, q in plans[changed].quantities.items() if own.get(f) is not q}
+        walks = []
+        for variant, entering, unchanged in self._variants:
+            plan = variant.plans[changed]
+            pinned = list(variant.plans)
+            pinned[changed] = replace(plan, quantities={**plan.quantities, **delta})
+            first = self._first(variant, changed)
+            prepared = corners.prepare(
+                self.chain,
+                pinned,
+                self.freqs,
+                reuse=variant,
+                first=changed,
+                stop=None if stop is None else stop + 1,
+            )
+            walks.append([*unchanged[:first], *corners.run_from(prepared, first, entering, stop)])
+        return envelope(walks, plans[: len(walks[0])], self.chain.conditions.margin)
 
     def _rss_from(self, plans, prepared, found: list[StageResult], first: int, stop: int | None):
         """rss results of the changed chain: the unchanged ones before `first`, then the stages

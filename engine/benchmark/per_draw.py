@@ -76,21 +76,26 @@ class Nodal:
         return np.linalg.solve(self.G, b)[:, self.index[node], 0]
 
 
-def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float):
+def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float, siblings=None):
     """Nodal circuit of one stage (the README's File formats, block topologies); returns (solution, nodes,
     the op amp's branch, the circuit). `drive`: the impedance driving the stage, a resistance or
-    one value per Laplace point (the Thevenin impedance of a passive stage before it)."""
+    one value per Laplace point (the Thevenin impedance of a passive stage before it).
+    `siblings`: (G, V) per other stage a passive stage feeds: a conductance from its output to a
+    source at V (sibling_node)."""
     block = plan.block.name
     val = {k: float(x) for k, x in v.items()}
     extra = sorted({k.rsplit(".", 1)[0] for k in val if k.startswith("inputs.")})
     returns = ["load_to"] if "load_to" in val else []
+    returns += [f"siblings.{n}" for n in range(len(siblings or ()))]
     nodes = ["src", "plus", "minus", "out", "ref", "cg"] + [f"{k}.v" for k in extra] + returns
     opamps = block in ("follower", "noninverting", "inverting", "summing")
     c = Nodal(nodes, s, sources=2 + len(extra) + opamps + len(returns))
     c.source("src", 0, 1.0)
     c.source("ref", 1, val.get("ref", val.get("bias", 0.0)))
     for node in returns:
-        c.source(node, 1, val[node])
+        c.source(node, 1, val[node] if node == "load_to" else siblings[int(node.split(".")[1])][1])
+    for n, (g, _) in enumerate(siblings or ()):
+        c.admittance("out", f"siblings.{n}", g)
     if "load" in val:  # to 0 V, or to `load_to` (an ideal source)
         c.admittance("out", "load_to" if "load_to" in val else GROUND, 1.0 / val["load"])
     driven = lambda node, r: c.admittance("src", node, 1.0 / r)  # noqa: E731
@@ -160,9 +165,13 @@ def draw_margins(layout: dw.Layout, D: np.ndarray, dT: float) -> list[dict[str, 
     source = (signal, chain.source.impedance)
     passed: list = []  # per stage: (the signal it passes on, what drives the stages it feeds)
     parents = dw.plan_parents(layout.plans)  # stages form a tree (`from`)
+    entered: dict = {}  # a passive stage feeding several: (its values, the signal it was fed)
     for k, plan in enumerate(layout.plans):
         parent = parents[k]
         signal, drive = source if parent < 0 else passed[parent]
+        if k in layout.siblings:  # the passive node with the others' inputs on it
+            signal, drive = sibling_node(layout, parent, k, entered[parent], s, D, dT, signal)
+        entered[k] = (v_of(layout, plan, D, dT), (signal, drive))
         v = {name: x[0, 0] for name, x in dw.stage_values(layout, plan, D, np.array([dT])).items()}
         pos, neg = (float(x[0]) for x in dw.row_rails(layout, plan, D))
         if plan.block.saturates:
@@ -193,6 +202,56 @@ def draw_margins(layout: dw.Layout, D: np.ndarray, dT: float) -> list[dict[str, 
         found.append(margins)
         passed.append((out, drive))
     return found
+
+
+def v_of(layout, plan, D, dT) -> dict:
+    return {name: x[0, 0] for name, x in dw.stage_values(layout, plan, D, np.array([dT])).items()}
+
+
+def input_conductance(plan, v: dict) -> float:
+    """What the stage's input draws to its return, S, from its topology (the README's File
+    formats): a resistor rin to the - pin; r3 + r4 (difference, single-ended); top in series with
+    bottom || load (divider); r1 + r2 (Schmitt trigger, not inverted); nothing otherwise."""
+    block = plan.block.name
+    if block in ("inverting", "summing", "integrator"):
+        return 1.0 / v["rin"]
+    if block == "difference":
+        return 1.0 / (v["r3"] + v["r4"])
+    if block == "divider":
+        bottom = 1.0 / (1.0 / v["bottom"] + (1.0 / v["load"] if "load" in v else 0.0))
+        return 1.0 / (v["top"] + bottom)
+    if block == "schmitt" and not plan.flags.get("invert"):
+        return 1.0 / (v["r1"] + v["r2"])
+    if block in ("follower", "noninverting", "comparator", "adc", "schmitt"):
+        return 0.0
+    raise ValueError(f"the per-draw reference does not cover block {block!r} beside another stage")
+
+
+def sibling_node(layout, parent: int, k: int, entered, s, D, dT, thevenin):
+    """Stage k's input from the passive stage `parent` that feeds several: that stage's circuit
+    solved again with the other stages' inputs on its output (each one's conductance in this
+    drawn circuit to the middle of its returns), the rest of their returns' span and their pins'
+    currents as +/- Zk0 (sum G half span + pins) (Millman's theorem), and the impedance Zk there."""
+    v_parent, (fed, fed_drive) = entered
+    others = layout.siblings[k]
+    branches, spread = [], 0.0
+    for j, load in others.loads:
+        g = input_conductance(layout.plans[j], v_of(layout, layout.plans[j], D, dT))
+        low, high = load.returns
+        branches.append((g, (low + high) / 2.0))
+        spread += g * (high - low) / 2.0
+    x, index, _, circuit = stage_circuit(layout.plans[parent], v_parent, s, fed_drive, 0.0, 0.0, branches)
+    impedance = circuit.impedance("out")
+    hi, lo, a = envelope(x[:, index["out"]], fed)
+    error = float(impedance[0].real) * (spread + others.pins)
+    kappa = others.kappa_at(layout.freqs)
+    if kappa is not None:  # the others' - pins move by Vout / A (the engine's bound)
+        eps = np.abs(impedance) * kappa
+        top = np.maximum(np.abs(thevenin[0]), np.abs(thevenin[1]))
+        extra = np.maximum(eps[0], eps[1:]) * top
+        swing = eps[1:] * thevenin[2]
+        return (hi + error + extra, lo - error - extra, a + swing), impedance
+    return (hi + error, lo - error, a), impedance
 
 
 def opamp_margins(plan, x, index, branch, out, signal, load, freqs, pos, neg) -> dict[str, float]:
@@ -227,12 +286,12 @@ def comparator(plan, v, signal, pos, neg, count, errors=(0.0, 0.0, 0.0)):
     Vsig = threshold - Vos + Ib Rd (signal on +), threshold + Vos + Ib Rd (signal on -)."""
     part = plan.part
     conductance = 1.0 / v["load"] if "load" in v else 0.0
+    to = v.get("load_to", 0.0)  # where the load returns: Millman's theorem, Ohm's law
     levels = []
     for ideal in (neg + part.output_headroom[1], pos - part.output_headroom[0]):
-        current = min(
-            abs(ideal) * conductance / (1 + part.output_resistance * conductance), part.output_current
-        )
-        levels.append(ideal - np.sign(ideal) * part.output_resistance * current)
+        current = (ideal - to) * conductance / (1 + part.output_resistance * conductance)
+        current = max(min(current, part.output_current), -part.output_current)
+        levels.append(ideal - part.output_resistance * current)
     low, high = levels
     offset, bias, rd = errors
     drop = bias * rd
@@ -248,7 +307,7 @@ def comparator(plan, v, signal, pos, neg, count, errors=(0.0, 0.0, 0.0)):
     margins = {
         "input-high": pos - part.input_headroom[0] - max(sig_hi, threshold),
         "input-low": min(sig_lo, threshold) - (neg + part.input_headroom[1]),
-        "current": part.output_current - max(abs(high), abs(low)) * conductance,
+        "current": part.output_current - max(abs(high - to), abs(low - to)) * conductance,
         "supply": min(span - part.supply[0], part.supply[1] - span),
     }
     zero = np.zeros(count)

@@ -66,8 +66,7 @@ def stage_shapes(block_name: str) -> dict[str, FieldShape]:
     block = BLOCKS[block_name]
     shapes = {"name": FieldShape("text", "text", help="the stage's name")}
     shapes["load"] = FieldShape("resistance", help=COMMON_HELP["load"])
-    if not block.saturates:
-        shapes["load_to"] = FieldShape("voltage", help=COMMON_HELP["load_to"])
+    shapes["load_to"] = FieldShape("voltage", help=COMMON_HELP["load_to"])
     if block.uses_part and not block.saturates:
         shapes["load_capacitance"] = FieldShape("capacitance", help=COMMON_HELP["load_capacitance"])
     for key, spec in block.fields.items():

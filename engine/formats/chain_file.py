@@ -242,7 +242,8 @@ def _read_stages(raw, r: FieldReader, rails: dict, conditions: Conditions | None
 
 def _check_branches(stages: list[Stage], r: FieldReader) -> None:
     """`from` (the README's File formats, branches): it names an earlier stage or "source";
-    names are unique in a chain that uses it; a passive stage feeds one stage at most."""
+    names are unique in a chain that uses it; a converter input fed by a passive stage feeds one
+    stage at most."""
     if not any(stage.feed is not None for stage in stages):
         return
     seen: dict[str, int] = {}
@@ -274,13 +275,20 @@ def _check_branches(stages: list[Stage], r: FieldReader) -> None:
     for k, stage in enumerate(stages):
         block = BLOCKS.get(stage.block)
         fed = [j for j, parent in enumerate(parents) if parent == k]
-        if block is not None and not block.uses_part and len(fed) > 1:
+        before = BLOCKS.get(stages[parents[k]].block) if parents[k] >= 0 else None
+        # a passive stage may feed several (each one meets its node loaded by the others:
+        # walks/sibling_loads.py); a converter input passes its input on, so one fed by a
+        # passive stage would hand that node on to several without their loads on it
+        passive_before = before is not None and not before.uses_part and not before.window_only
+        if block is not None and not block.uses_part and not block.window_only and len(fed) > 1:
+            _check_siblings(stages, k, fed, r)
+        if block is not None and block.window_only and passive_before and len(fed) > 1:
             j = fed[1]
             r.problem(
                 f"stage.{j + 1}.from" if stages[j].feed is not None else f"stage.{j + 1}",
-                f"stage {k + 1} ({stage.name!r}, {stage.block}) already feeds stage {fed[0] + 1}; "
-                "a stage with no op amp drives one stage at most (its output is not buffered): "
-                "take this branch from the op-amp stage before it",
+                f"stage {k + 1} ({stage.name!r}, {stage.block}) already feeds stage {fed[0] + 1} and "
+                f"is fed by a passive stage ({stages[parents[k]].name!r}); a converter input there "
+                "drives one stage at most: take this branch from the passive stage itself",
             )
 
 
@@ -296,6 +304,29 @@ def _source_fed_once(stages: list[Stage], impedance: float, r: FieldReader) -> N
             f"the source has an impedance ({impedance:g} ohm) and already feeds stage {fed[0] + 1}; "
             "a source with an impedance drives one stage at most (it is not buffered): take this "
             "branch from a buffer after the source, or give the source no impedance",
+        )
+
+
+def _check_siblings(stages: list[Stage], k: int, fed: list[int], r: FieldReader) -> None:
+    """A passive stage feeding several: each one must load its node as a conductance to a fixed
+    voltage (walks/sibling_loads.py), not follow the signal, block DC or feed further stages."""
+    from railroom.engine.walks.sibling_loads import NOT_SHARING
+
+    parents = stage_parents(stages)
+    for j in fed:
+        block = BLOCKS.get(stages[j].block)
+        feeds = any(parent == j for parent in parents)
+        if stages[j].block in NOT_SHARING:
+            why = f"its input ({stages[j].block}) follows the signal or blocks DC"
+        elif block is not None and not block.uses_part and feeds:
+            why = "it has no op amp and feeds further stages"
+        else:
+            continue
+        r.problem(
+            f"stage.{j + 1}.from" if stages[j].feed is not None else f"stage.{j + 1}",
+            f"stage {j + 1} ({stages[j].name!r}) shares the output of stage {k + 1} "
+            f"({stages[k].name!r}, {stages[k].block}, no op amp) with another stage, but {why}: "
+            "take the branch from an op-amp stage, or buffer it",
         )
 
 
@@ -332,11 +363,6 @@ def _read_stage(t: dict, index: int, r: FieldReader, rails: dict, default_tol: f
     load_to = _component(r, t, w, "load_to", "voltage", None, default_tol)
     if load_to is not None and load is None:
         r.problem(f"{w}.load_to", "load_to is where the stage's `load` returns; give the stage a load")
-    if load_to is not None and block.saturates:
-        r.problem(
-            f"{w}.load_to",
-            f"block {block_name} takes its load to 0 V only; load_to is for linear stages",
-        )
     feed = r.text_field(t, w, "from", default=None)
     values: dict[str, object] = {}
     for key, spec in block.fields.items():

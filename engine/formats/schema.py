@@ -172,11 +172,7 @@ def stage_schema() -> dict:
     common = matching(COMMON, COMMON_FIELDS, "[[stage]]")
     by_block = []
     for name, block in BLOCKS.items():
-        allowed = {
-            k: v
-            for k, v in common.items()
-            if (block.uses_part or k != "part") and not (block.saturates and k == "load_to")
-        }
+        allowed = {k: v for k, v in common.items() if block.uses_part or k != "part"}
         allowed.update({key: block_field(spec) for key, spec in block.fields.items()})
         required = [k for k, spec in block.fields.items() if spec.required]
         required += ["part"] if block.uses_part else []

@@ -24,7 +24,8 @@ from railroom.engine.circuit.model import Chain, InputError, Problem
 from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
 from railroom.engine.walks.preparation import StagePlan, spread
 from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, source_signal
-from railroom.engine.walks.bounds_walk import plan_parents, walk_chain
+from railroom.engine.walks.bounds_walk import plan_parents, tree_children, walk_chain
+from railroom.engine.walks.sibling_loads import family_start, family_views, passive_feeding_several
 from railroom.engine.methods.joint import envelope
 from railroom.engine.circuit.nets import joint_plans
 
@@ -43,6 +44,9 @@ class Prepared:
     # per stage: its rows pair with every row of the passive stage before it (joint corners of
     # the two: the walk hands that stage's bounds on row by row instead of merged)
     joint: tuple[bool, ...] = ()
+    # stage -> how it meets the passive stage before it when that one feeds several stages
+    # (walks/sibling_loads.py: the node loaded by the others)
+    views: dict = field(default_factory=dict, compare=False, repr=False)
     # what walks of this Prepared may keep for the next walk (stage_walk: node terms)
     memo: dict = field(default_factory=dict, compare=False, repr=False)
     # one Prepared per joint corner of the values stages share (named nets, the rails that
@@ -228,13 +232,18 @@ def prepare(
     recomputed (what a stage drives depends only on the stages before it); `stop`: with
     `reuse`, stages from `stop` on keep reuse's too (for a walk that ends before them)."""
     rise = chain.conditions.worst_temperature_rise
+    hot = 25.0 if nominal else max(chain.conditions.temperature)  # where bias currents are taken
     s = laplace_grid(freqs)
     values, responses, joint = [], [], []
     source = np.array([[chain.source.impedance]])
     parents = plan_parents(plans)
+    children = tree_children(parents)
+    views: dict = {}
     if reuse is not None and first > 0:
+        first = family_start(plans, reuse.responses, children, first)
         values, responses = list(reuse.values[:first]), list(reuse.responses[:first])
         joint = list(reuse.joint[:first])
+        views = {k: view for k, view in reuse.views.items() if k < first}
     # with `reuse` and `stop` on a chain in one line, stages from `stop` on keep reuse's (the walk
     # ends before them); on a tree every later stage is prepared (a branch may hang anywhere)
     in_line = all(parent == k - 1 for k, parent in enumerate(parents))
@@ -250,6 +259,15 @@ def prepare(
             drive: Callable[[], np.ndarray] = partial(np.asarray, source)
         else:  # fed by an earlier stage, whatever else it feeds
             before, rows, differential = responses[parent], values[parent]["drive"].shape[0], False
+            if passive_feeding_several(plans, responses, parent, children):
+                if k not in views:  # the node as each stage it feeds meets it (sibling_loads.py)
+                    probe = partial(
+                        probe_stage, plans, parent, values[parent], responses[parent], rise, nominal, s
+                    )
+                    views.update(
+                        family_views(plans, values, responses, parent, children, rise, nominal, hot, probe, s)
+                    )
+                before, rows = views[k].response, views[k].rows
             drive = partial(next_drive, plans[parent], before)
         v, paired = stage_values(plan, rise, nominal, before, rows, drive)
         inverse_gain = inverse_open_loop(None if ideal else plan.part, s)
@@ -266,7 +284,18 @@ def prepare(
     if not nominal and reuse is None:
         variants = joint_plans(chain, plans) or []
         walks = tuple(prepare(chain, pinned, freqs, nominal, ideal) for pinned in variants)
-    return Prepared(chain, plans, freqs, values, responses, tuple(joint), joint_walks=walks)
+    return Prepared(chain, plans, freqs, values, responses, tuple(joint), joint_walks=walks, views=views)
+
+
+def probe_stage(plans, parent: int, before_values, before, rise, nominal, s, k: int):
+    """Stage k's corner values and response with the passive stage's plain Thevenin drive:
+    what its input draws (sibling_loads.family_views)."""
+    plan = plans[k]
+    rows = before_values["drive"].shape[0]
+    v, _ = stage_values(plan, rise, nominal, before, rows, partial(next_drive, plans[parent], before))
+    if plan.block.saturates:
+        return v, None
+    return v, plan.block.respond(v, s, inverse_open_loop(plan.part, s), v["drive"], False)
 
 
 def start_signal(chain: Chain, freqs: np.ndarray, scale: float = 1.0) -> Signal | DifferentialSignal:

@@ -28,7 +28,7 @@ COMMON_HELP = {
     # the edit form shows these two as well (engine/formats/chain_editing.py): one wording for both
     "load": "load from the output to 0 V (optional)",
     "load_capacitance": "capacitive load to 0 V (optional)",
-    "load_to": "the voltage the load returns to (default 0 V; linear stages)",
+    "load_to": "the voltage the load returns to (default 0 V)",
     "from": 'the earlier stage (by name) or "source" this stage takes its input from (default: the one before)',
 }
 
@@ -53,11 +53,7 @@ def describe(name: str) -> dict | None:
     block: Block | None = BLOCKS.get(name)
     if block is None:
         return None
-    common = [
-        f
-        for f in COMMON_FIELDS
-        if (block.uses_part or f not in ("part", "rails")) and not (block.saturates and f == "load_to")
-    ]
+    common = [f for f in COMMON_FIELDS if block.uses_part or f not in ("part", "rails")]
     return {
         "name": name,
         "summary": block.summary,

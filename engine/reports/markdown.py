@@ -2,7 +2,8 @@
 
 Sections: verdict, conditions and method, a table of stages, their margins, a level diagram of the
 chain in plain ASCII (it survives any font, diff tool or CI log), reasons, cautions, and where the
-method provides them sensitivity and fixes. Every piece of user text is escaped for Markdown and
+method provides them sensitivity and fixes. A chain with branches (`from`) gets a `from` column in
+the table of stages, and its level diagram follows the tree, branches drawn one level in. Every piece of user text is escaped for Markdown and
 stripped of control characters, so a stage name can never change the document's structure.
 """
 
@@ -14,6 +15,8 @@ from pathlib import Path
 from railroom.engine.verdict.results import CHECK_TABLE, CHECKS, ChainResult, StageResult, check_unit
 from railroom.engine.verdict.results import margin_words as check_margin_words
 from railroom.engine.formats.values import format_si, visible
+from railroom.engine.circuit.model import stage_parents
+from railroom.engine.circuit.stage_tree import ASCII_GLYPHS, branched, tree_rows
 
 DIAGRAM_WIDTH = 56
 # why a stage fails, from the table of checks (engine/verdict/results.py), and the one reason that is no check
@@ -164,6 +167,10 @@ def stage_table(result: ChainResult) -> str:
         "output span",
         "window",
     ] + (["P(leaves linear)"] if probability else [])
+    parents = chain_parents(result)
+    tree = branched(parents)
+    if tree:  # a chain with branches: the stage (#) each takes its input from
+        columns.insert(2, "from")
     lines = ["## Stages", "", "| " + " | ".join(columns) + " |", "|" + "|".join("---" for _ in columns) + "|"]
     for s in result.stages:
         m = s.measure
@@ -181,6 +188,9 @@ def stage_table(result: ChainResult) -> str:
             f"{volts(m.output[0])} to {volts(m.output[1])}",
             window,
         ]
+        if tree:
+            parent = parents[s.index - 1]
+            cells.insert(2, "source" if parent < 0 else str(parent + 1))
         if probability:
             cells.append("-" if m.probability is None else f"{m.probability:.2%}")
         lines.append("| " + " | ".join(cells) + " |")
@@ -253,13 +263,20 @@ def diagram_lines(result: ChainResult, width: int) -> list[str]:
     for at, text in marks:
         axis[at : at + len(text)] = text
     lines = [" " * label + "".join(axis).rstrip()]
-    for s in result.stages:
-        name = visible(s.stage.name, 200)
+    # stages in signal order, a chain with branches drawn as a tree before the names (ASCII)
+    for k, prefix in tree_rows(chain_parents(result), ASCII_GLYPHS):
+        s = result.stages[k]
+        name = prefix + visible(s.stage.name, 200)
         name = name if len(name) <= 21 else name[:20] + "~"
         bar = stage_cells(result, s, low, step, width)
         span = f"{volts(s.measure.output[0])} to {volts(s.measure.output[1])}"
         lines.append(f"{s.index:>3} {name:<21} {bar}  {span}")
     return lines
+
+
+def chain_parents(result: ChainResult) -> tuple[int, ...]:
+    """Per stage the 0-based stage it takes its input from (-1: the source)."""
+    return stage_parents([s.stage for s in result.stages])
 
 
 def axis_span(result: ChainResult) -> tuple[float, float]:

@@ -99,6 +99,7 @@ def schmitt_load(plan: StagePlan, v: dict) -> InputLoad:
         conductance=float(np.max(1.0 / (v["r1"] + v["r2"]))),
         returns=(rails.negative_range[0], rails.positive_range[1]),
         least=float(np.min(1.0 / (v["r1"] + v["r2"]))),
+        rows=1.0 / (v["r1"] + v["r2"]),
     )
 
 
@@ -213,11 +214,14 @@ def walk_chain(
     memo = prepared.memo.setdefault(("terms", nominal), {})
     results: dict[int, StageResult] = {}
     handed: dict[int, tuple] = {}  # stage -> what it passes on (see hand_on)
+    entered: dict[int, object] = {}  # a passive stage feeding several -> the signal it was fed
     source_input = signal  # with first == 0: what every stage fed by the source takes
     for k in range(first, len(plans) if stop is None else stop):
         plan, parent = plans[k], parents[k]
         if k > first:
-            if parent >= first:
+            if parent >= first and k in prepared.views:
+                signal = view_hand_on(prepared, k, entered[parent], handed[parent])
+            elif parent >= first:
                 signal = hand_on(handed[parent], k, prepared)
             elif parent < 0 and first == 0:
                 signal = source_input
@@ -226,6 +230,8 @@ def walk_chain(
                 signal = recorded[k]
         if entering is not None:
             entering.append(signal)
+        if len(children[k]) > 1 and any(c in prepared.views for c in children[k]):
+            entered[k] = signal
         next_load = load_behind(
             plans,
             responses,
@@ -310,6 +316,28 @@ def walk_chain(
         handed[k] = (k, bounds, passed, getattr(signal, "fed_clipped", False), window, slope, clip_slope)
         results[k] = result
     return [results[k] for k in sorted(results)]
+
+
+def view_hand_on(prepared, k: int, fed_parent, handed: tuple) -> Signal:
+    """What stage k meets from the passive stage before it, which feeds several: its node
+    loaded by the other stages it feeds (walks/sibling_loads.py), row by row when stage k's
+    corners pair with the view's, merged otherwise, with the passive stage's slope bound."""
+    from railroom.engine.walks.sibling_loads import tile_rows, tiled_signal, widened
+
+    view = prepared.views[k]
+    _, thevenin, _, fed, _, slope, _ = handed
+    rows_before = view.rows // view.reps
+    signal = tiled_signal(fed_parent, rows_before, view.reps)
+    node = view.response.output
+    bounds = single_bounds(node, view.values, signal, view.error, view.shift)
+    bounds = widened(
+        bounds,
+        view.eps,
+        *(tile_rows(x, rows_before, view.reps) for x in (thevenin.hi, thevenin.lo, thevenin.amp_hi)),
+    )
+    rows = prepared.values[k]["drive"].shape[0]
+    passed = paired(bounds, view.rows, rows, fed) if prepared.joint[k] else merge(bounds, fed)
+    return passed if slope is None else replace(passed, slope=slope * view.share)
 
 
 def plan_parents(plans) -> tuple[int, ...]:

@@ -27,7 +27,7 @@ rows beside it.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from functools import cached_property
 
 import numpy as np
@@ -43,6 +43,8 @@ from railroom.engine.circuit.part_limits import (
     saturated_differential,
 )
 from railroom.engine.walks.preparation import StagePlan
+from railroom.engine.circuit.returned_levels import returned_level
+from railroom.engine.walks.sibling_loads import drawn_conductances, drawn_view
 from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, loaded_bounds, node_bounds
 from railroom.engine.verdict.results import StageResult
 from railroom.engine.walks.bounds_walk import (
@@ -90,6 +92,8 @@ class Layout:
     loads: tuple[tuple[InputLoad, ...], ...]  # per stage what each stage it feeds draws (worst)
     amps: tuple[int, ...]  # op amps per stage
     corner: tuple[StageResult, ...]  # corners results: thresholds and reaches of saturated stages
+    # stage fed by a passive stage feeding several -> what the others draw (sibling_loads.py)
+    siblings: dict = field(default_factory=dict, compare=False)
 
     def column(self, stage: int | None, quantity: str, kind: str, amp: int = 0) -> int | None:
         return self.columns.get((stage, quantity, kind, amp))
@@ -168,6 +172,7 @@ def build_layout(
         tuple(loads),
         tuple(amps),
         tuple(corner),
+        {k: view.load for k, view in getattr(prepared, "views", {}).items()},
     )
 
 
@@ -282,12 +287,19 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
     # converter input with one child -> (its values, the signal it was fed), until the child is walked
     converters: dict[int, tuple] = {}
     grand_responses: dict = {}  # the response of the stage feeding such a converter input
+    feeding: dict = {}  # passive stage feeding several -> (its values, its input, its siblings' conductances)
     for k, plan in enumerate(layout.plans):
         parent = parents[k]
         if parent < 0:
             fed, drive, before = source, layout.chain.source.impedance, None
         else:
             fed, drive, before = passed[parent]
+        if parent in feeding:  # the node loaded by the other stages it feeds (sibling_loads.py)
+            assert before is not None  # a passive stage feeding several has a response
+            its_values, its_input, conductances = feeding[parent]
+            fed, drive = drawn_view(
+                before, its_values, its_input, conductances, k, layout.siblings[k], fed, layout.freqs
+            )
         v = stage_values(layout, plan, D, dT)
         response = None
         if plan.block.saturates:
@@ -328,12 +340,16 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
                 # the passive stage before shows this stage's input terminal (stage_walk)
                 results[parent] = shown_input(layout, k, response, v, D, dT, fed, results[parent])
             else:  # or its output loaded by this stage's conductance
-                _, passive, values, feeding = pending[parent]
-                results[parent] = shown_loaded(layout, parent, passive, values, feeding, results[parent])
+                _, passive, passive_values, passive_fed = pending[parent]
+                results[parent] = shown_loaded(
+                    layout, parent, passive, passive_values, passive_fed, results[parent]
+                )
             del pending[parent]
         if response is not None and settled_by_next(plan, response, layout.loads[k]):
             pending[k] = (k, response, v, fed)
         passed[k] = (signal, out_drive, response)
+        if response is not None and any(c in layout.siblings for c in children[k]):
+            feeding[k] = (v, fed, drawn_conductances(layout, k, D, dT, out_drive))
         if plan.block.window_only and len(children[k]) == 1:
             converters[k] = (v, fed)
             grand_responses[parent] = before
@@ -647,8 +663,14 @@ def clamp_rows(signal: Signal, window, rows: np.ndarray, slope=None) -> Signal:
     )
 
 
-def saturated_levels_rows(part, pos, neg, conductance):
-    """opamp.saturated_levels for one circuit per row: the loaded level at each rail."""
+def saturated_levels_rows(part, pos, neg, conductance, to=None):
+    """opamp.saturated_levels for one circuit per row: the loaded level at each rail; `to`: where
+    the load returns per row when the stage has `load_to` (returned_levels.returned_level)."""
+    if to is not None and np.any(to != 0.0):
+        high_ideal, low_ideal = pos - part.output_headroom[0], neg + part.output_headroom[1]
+        return returned_level(part, low_ideal, conductance, to), returned_level(
+            part, high_ideal, conductance, to
+        )
 
     def loaded(level):
         current = np.minimum(
@@ -687,7 +709,8 @@ def saturated_draws(layout: Layout, k: int, v, D, signal, dT=None, drive=0.0):
     assert part is not None  # a comparator is an op amp (preparation)
     pos, neg = row_rails(layout, plan, D)
     conductance = 1.0 / v["load"][:, 0] if "load" in v else np.zeros(rows)
-    low, high = saturated_levels_rows(part, pos, neg, conductance)
+    to = v["load_to"][:, 0] if "load_to" in v else 0.0  # where the load returns (returned_levels)
+    low, high = saturated_levels_rows(part, pos, neg, conductance, to)
     if isinstance(signal, Signal):
         sig_lo, sig_hi = band_min(signal.lo), band_max(signal.hi)
     else:
@@ -711,7 +734,7 @@ def saturated_draws(layout: Layout, k: int, v, D, signal, dT=None, drive=0.0):
     margins = {
         "input-high": pos - part.input_headroom[0] - in_hi,
         "input-low": in_lo - (neg + part.input_headroom[1]),
-        "current": part.output_current - np.maximum(np.abs(high), np.abs(low)) * conductance,
+        "current": part.output_current - np.maximum(np.abs(high - to), np.abs(low - to)) * conductance,
     }
     margins.update(
         differential_margin(

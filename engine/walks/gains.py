@@ -13,7 +13,9 @@ quoted with that stage's input on it, the voltage the stage shows: its gain is |
 next stage's |H_{k+1} / T|, T the terminal per volt of the Thevenin voltage, so the product is
 unchanged. Magnitudes multiply, so the extremes of a product of independent factors are the
 products of their extremes, per frequency: exact for the corners enumerated, and where the stage
-walk merges rows the same outside bound. A saturated-by-design stage has no small-signal gain;
+walk merges rows the same outside bound. A passive stage feeding several meets each with the others' inputs on its
+node (walks/sibling_loads.py): the node per volt of its Thevenin voltage, |s| per row, multiplies
+in. A saturated-by-design stage has no small-signal gain;
 the stages after it have none from the source.
 """
 
@@ -57,6 +59,8 @@ def stage_gains(prepared) -> list[tuple[dict[str, Range] | None, dict[str, Range
     source: list[tuple[np.ndarray, np.ndarray] | None] = []
     differential = prepared.chain.source.differential
     parents = plan_parents(plans)
+    thevenin: dict = {}  # a passive stage feeding several: its own figures, before a child quotes it
+    thevenin_own: dict = {}
     for k, response in enumerate(responses):
         rows = max(np.shape(x)[0] if np.ndim(x) else 1 for x in prepared.values[k].values())
         if response is None:  # saturated by design
@@ -70,16 +74,24 @@ def stage_gains(prepared) -> list[tuple[dict[str, Range] | None, dict[str, Range
         elif (fed := source[parent]) is None:
             source.append(None)
         else:
-            lo, hi = fed
+            lo, hi = thevenin.get(parent, fed)
+            before = thevenin_own.get(parent, own[parent])
+            view = prepared.views.get(k) if hasattr(prepared, "views") else None
+            if view is not None:  # each stage it feeds reads its Thevenin figures, not the last's
+                thevenin.setdefault(parent, (lo, hi))
+                thevenin_own.setdefault(parent, before)
+            if view is not None:  # the passive stage's node loaded by the others it feeds
+                factor = view.magnitude
+                lo, hi = _tiled(lo, factor.shape[0]) * factor, _tiled(hi, factor.shape[0]) * factor
+                before = None if before is None else _tiled(before, factor.shape[0]) * factor
             if prepared.joint[k]:
                 lo, hi = _tiled(lo, rows), _tiled(hi, rows)
             else:
                 lo, hi = np.min(lo, axis=0, keepdims=True), np.max(hi, axis=0, keepdims=True)
             source.append((lo * mag, hi * mag))
-            before = own[parent]
             if prepared.joint[k] and shows_input_of(plans, responses, parent, k) and before is not None:
-                # the passive stage before (it feeds this one alone) is quoted with this
-                # stage's input on it
+                # the passive stage before is quoted with this stage's input on it (and, when
+                # it feeds several, the others' too: sibling_loads.py)
                 terminal = _magnitude(response.terminal, rows, width, False)
                 own[parent] = _tiled(before, rows) * terminal
                 source[parent] = (lo * terminal, hi * terminal)

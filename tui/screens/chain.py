@@ -39,6 +39,7 @@ from railroom.engine import (
     toml_value,
 )
 from railroom.tui.screens.dialogs import ChoiceScreen, ConfirmScreen
+from railroom.tui.screens.net_dialog import open_new_net, open_remove_net
 from railroom.tui.widgets.detail import StageDetail
 from railroom.tui.widgets.field_form import FieldForm, FormField
 from railroom.tui.widgets.level_view import LevelView
@@ -82,6 +83,8 @@ class ChainScreen(Screen):
         ),
         key("m", "choose_method", "method", "method", "Choose the method: corners, rss, montecarlo"),
         key("a", "add_stage", "add", "add", "Add a stage after the highlighted one"),
+        key("n", "new_net", "new net", "new_net", "Add a named net (a DC voltage stages share)", show=False),
+        key("N", "remove_net", "remove net", "remove_net", "Remove a named net no stage reads", show=False),
         key("x", "remove_stage", "remove", "remove", "Remove the highlighted stage (asks first)", show=False),
         key("J", "move_stage(1)", "move down", "move_down", "Move the highlighted stage down", show=False),
         key("K", "move_stage(-1)", "move up", "move_up", "Move the highlighted stage up", show=False),
@@ -322,6 +325,12 @@ class ChainScreen(Screen):
 
         self._form("[source] and [nets]", "source", fields, change)
 
+    def action_new_net(self) -> None:
+        open_new_net(self)
+
+    def action_remove_net(self) -> None:
+        open_remove_net(self)
+
     def action_edit_conditions(self) -> None:
         self._section_form("conditions")
 
@@ -375,14 +384,16 @@ class ChainScreen(Screen):
 
     def _inputs(self, after: int) -> list[tuple[str, str]]:
         """Where a new stage may take its input from: in the line after stage `after` (as the
-        stage after it did), or a branch from any stage (one with no op amp only while it feeds
-        nothing yet) or from the source, added at the end."""
+        stage after it did), or a branch from any stage (a converter input fed by a passive
+        stage only while it feeds nothing yet) or from the source, added at the end."""
         chain = self.session.chain
         name = chain.stages[after - 1].name
         choices = [("line", f"in the line after stage {after} ({name})")]
-        fed = chain.children
+        fed, parents = chain.children, chain.parents
         for k, stage in enumerate(chain.stages, start=1):
-            if BLOCKS[stage.block].uses_part or not fed[k - 1]:
+            before = BLOCKS[chain.stages[parents[k - 1]].block] if parents[k - 1] >= 0 else None
+            passive_before = before is not None and not before.uses_part and not before.window_only
+            if not (BLOCKS[stage.block].window_only and passive_before and fed[k - 1]):
                 choices.append((str(k), f"stage {k} ({stage.name}), a branch (added at the end)"))
         choices.append(("source", "the source, a branch (added at the end)"))
         return choices

@@ -10,7 +10,7 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from railroom.engine import ChainResult, StageResult, chain_report, escaped
+from railroom.engine import ChainResult, StageResult, chain_report, escaped, stage_parents, tree_rows
 from railroom.tui.bars import FAILS_GO, LEGEND, MARKS, legend, stage_bar as drawn_bar
 from railroom.tui.subcommands.common import (
     CheckRefused,
@@ -141,13 +141,18 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
         table.add_column(
             column, no_wrap=True, overflow="ellipsis", min_width=8 if column == "stage" else None
         )
+    # a chain with branches (`from`): rows in signal order, the tree drawn before the names as
+    # in the interface's stage list; `#` keeps each stage's place in the file
+    tree = tree_rows(stage_parents([s.stage for s in result.stages]))
+    prefixes = {k: prefix for k, prefix in tree}
+    named = {s.index: prefixes[s.index - 1] + shown(s.stage.name) for s in result.stages}
     # the bar takes what the words leave (two spaces between columns), so no word is cut
     used = (
         sum(
             max([len(label)] + [len(text) for text in column])
             for label, column in (
                 ("#", [str(s.index) for s in result.stages]),
-                ("stage", [shown(s.stage.name) for s in result.stages]),
+                ("stage", list(named.values())),
                 ("regime", [s.regime_word for s in result.stages]),
                 ("gain", [gain_text(s.measure.gain) for s in result.stages]),
                 ("limiting margin", [margin_text(s) for s in result.stages]),
@@ -157,8 +162,8 @@ def print_result(console: Console, result: ChainResult, colour: bool = True) -> 
         + 1
     )
     bar_width = 24 if wide else max(12, min(24, console.width - used))
-    for stage in result.stages:
-        cells: list[str | Text] = [str(stage.index), Text(shown(stage.stage.name))]
+    for stage in (result.stages[k] for k, _ in tree):
+        cells: list[str | Text] = [str(stage.index), Text(named[stage.index])]
         if wide:
             cells += [stage.stage.block, Text(shown(stage.stage.part or "-"))]
         cells += [regime_text(stage, colour), gain_text(stage.measure.gain)]

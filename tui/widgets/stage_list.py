@@ -7,7 +7,7 @@ from rich.text import Text
 from textual.binding import Binding
 from textual.widgets import DataTable
 
-from railroom.engine import ChainResult, StageResult, stage_parents
+from railroom.engine import ChainResult, StageResult, stage_parents, tree_rows
 from railroom.engine import margin_words as check_margin_words
 from railroom.tui.bars import SHORT_LEGEND, stage_bar
 
@@ -86,36 +86,6 @@ def column_widths(total: int, cells: list[dict[str, Text]]) -> tuple[dict[str, i
         max(room - sum(widths.values()) - len(widths) - 1, BAR_LIMITS[0]), BAR_LIMITS[1]
     )
     return widths, short
-
-
-def tree_rows(parents: tuple[int, ...] | list[int]) -> list[tuple[int, str]]:
-    """The stages in signal order, each with the tree drawn before its name: (0-based stage,
-    prefix). A stage that is its parent's only input continues the line at the parent's level;
-    the stages fed by one output (or by the source) are each drawn one level in, with "├ "
-    ("└ " for the last), and the lines below a "├ " keep a "│ " for the branches still to come.
-    One row per stage; every stage comes after the one it takes its input from."""
-    children: list[list[int]] = [[] for _ in parents]
-    roots: list[int] = []
-    for k, parent in enumerate(parents):
-        (children[parent] if 0 <= parent < k else roots).append(k)
-    rows: list[tuple[int, str]] = []
-    # an explicit stack (a chain has up to 300 stages): (stage, lead, glyph)
-    stack = [
-        (k, "", "" if len(roots) == 1 else ("└ " if i == len(roots) - 1 else "├ "))
-        for i, k in enumerate(roots)
-    ]
-    stack.reverse()
-    while stack:
-        k, lead, glyph = stack.pop()
-        rows.append((k, lead + glyph))
-        below = lead + {"├ ": "│ ", "└ ": "  "}.get(glyph, "")
-        fed = children[k]
-        if len(fed) == 1:
-            stack.append((fed[0], below, ""))
-        else:
-            for i in reversed(range(len(fed))):
-                stack.append((fed[i], below, "└ " if i == len(fed) - 1 else "├ "))
-    return rows
 
 
 def clipped(text: str | Text, width: int) -> Text:

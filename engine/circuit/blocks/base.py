@@ -75,6 +75,9 @@ class InputLoad:
     # the return is an op amp's - pin (a virtual earth): it sits Vout/A0 off the + pin as well
     # (V- = V+ + Vos - Vout/A, opamp.py), which the walk bounds by the largest rail over A0
     earth: bool = False
+    # the conductance per row (corner or drawn circuit), (J, 1), where the block knows it: a
+    # passive stage feeding several reads each sibling's own per drawn circuit (sibling_loads.py)
+    rows: np.ndarray | None = field(default=None, compare=False, repr=False)
 
 
 @dataclass(frozen=True)

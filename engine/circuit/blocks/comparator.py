@@ -2,7 +2,8 @@
 
 Without negative feedback the op amp's output sits at its upper swing limit when V+ > V-, and at
 the lower one otherwise (common practice; the ideal op-amp rules). Both inputs must stay inside
-the part's common-mode window, and the output levels carry the rail tolerance and load drop.
+the part's common-mode window, and the output levels carry the rail tolerance and load drop
+(a load returning to `load_to`: its drop either way, Millman's theorem, returned_levels.py).
 
 The op amp's errors move the threshold, each at its worst sign: the output flips where
 V+ + Vos = V-, and the bias current Ib drawn from the signal's pin drops Ib Rd across the
@@ -23,6 +24,7 @@ import numpy as np
 from railroom.engine.circuit.blocks.base import Block, FieldSpec, dc_resistance
 from railroom.engine.circuit.model import Part, Rails
 from railroom.engine.circuit.opamp import saturated_levels
+from railroom.engine.circuit.returned_levels import load_current, return_span, returned_spans
 
 Span = tuple[float, float]
 
@@ -78,12 +80,17 @@ class Comparator(Block):
         threshold = (written[0] - error, written[1] + error)
         load = v.get("load")
         conductance = 0.0 if load is None else float(np.max(1.0 / load))
-        levels = saturated_levels(part, rails, conductance)
+        if "load_to" in v:  # the load returns to a voltage: Millman's theorem (returned_levels)
+            returns = return_span(v)
+            levels = returned_spans(part, rails, (0.0, conductance), returns)
+        else:
+            returns = (0.0, 0.0)
+            levels = saturated_levels(part, rails, conductance)
         # output high when the signal is above the threshold (below it when inverted)
         above = signal[1] > threshold[1]  # goes above at every corner of the threshold
         below = signal[0] < threshold[0]
         reaches = (below, above) if not flags.get("invert") else (above, below)
-        current = max(abs(levels[1][1]), abs(levels[0][0])) * conductance  # demanded, uncapped
+        current = load_current(levels, conductance, returns)  # demanded, uncapped
         return Switching(
             levels=levels,
             thresholds=(threshold, threshold),

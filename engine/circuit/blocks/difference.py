@@ -80,4 +80,5 @@ def divider_load(v: Mapping[str, np.ndarray]) -> InputLoad:
         conductance=float(np.max(1.0 / (v["r3"] + v["r4"]))),
         returns=(float(np.min(ref)), float(np.max(ref))),
         least=float(np.min(1.0 / (v["r3"] + v["r4"]))),
+        rows=1.0 / (v["r3"] + v["r4"]),
     )

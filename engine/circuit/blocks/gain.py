@@ -193,4 +193,5 @@ def virtual_earth_load(rin: np.ndarray, v: Mapping[str, np.ndarray]) -> InputLoa
         returns=(float(np.min(ref)), float(np.max(ref))),
         least=float(np.min(1.0 / rin)),
         earth=True,
+        rows=1.0 / rin,
     )

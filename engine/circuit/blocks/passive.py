@@ -66,6 +66,7 @@ class Divider(Block):
             input_load=InputLoad(
                 conductance=float(np.max(1.0 / (v["top"] + bottom))),
                 least=float(np.min(1.0 / (v["top"] + bottom))),
+                rows=1.0 / (v["top"] + bottom),
             ),
         )
 

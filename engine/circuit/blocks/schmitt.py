@@ -19,7 +19,8 @@ and the feedback pair: V = V0 / (1 + Ro G), opamp.saturated_levels), each end wi
 conductance: the highest level with the least load, the lowest with the most. The input
 common-mode check pairs each rail corner with the level, hence the threshold, at that corner:
 the + pin moves by r1/(r1 + r2) < 1 of a rail move, so the lowest positive rail (and the highest
-negative one) is the worst, the corner the window is drawn at.
+negative one) is the worst, the corner the window is drawn at. A load returning to `load_to`
+drops each level by the current it sources or sinks (returned_levels.py, Millman's theorem).
 """
 
 from __future__ import annotations
@@ -31,6 +32,7 @@ import numpy as np
 from railroom.engine.circuit.blocks.base import Block, FieldSpec, dc_resistance
 from railroom.engine.circuit.blocks.comparator import Span, Switching
 from railroom.engine.circuit.model import Part, Rails
+from railroom.engine.circuit.returned_levels import return_span, returned_level, returned_spans
 
 
 def thresholds(r1, r2, ref, level, invert: bool) -> np.ndarray:
@@ -98,6 +100,19 @@ class Schmitt(Block):
         g_pair = 1.0 / (series + r2)
         # the feedback pair loads the output as well (to a voltage near the middle)
         levels = level_spans(part, rails, g_load[0], g_load[1] + float(np.max(g_pair)))
+        returns = return_span(v)
+        if "load_to" in v:
+            # the load returns to a voltage (Millman's theorem, returned_levels.py); the pair
+            # keeps its return near the middle (0 V), its conductance at both ends as before
+            alone = returned_spans(part, rails, g_load, returns)
+            # with the pair: one branch of g_load + g_pair to their Millman mean
+            most = g_load[1] + float(np.max(g_pair))
+            mean = (returns[0] * g_load[1] / most, returns[1] * g_load[1] / most)
+            both = returned_spans(part, rails, (most,), mean)
+            levels = (
+                (min(alone[0][0], both[0][0]), max(alone[0][1], both[0][1])),
+                (min(alone[1][0], both[1][0]), max(alone[1][1], both[1][1])),
+            )
         if invert:
             error = offset + bias * r1 * r2 / (r1 + r2) + bias * drive
         else:
@@ -113,7 +128,7 @@ class Schmitt(Block):
         input_span = self.input_span(
             series, r2, ref, part, rails, g_load, signal, invert, bias, drive, to_high, to_low
         )
-        current = output_current(levels, part, rails, g_load[1], g_pair, ref, signal, invert)
+        current = output_current(levels, part, rails, g_load[1], g_pair, ref, signal, invert, returns)
         return Switching(
             levels=levels,
             thresholds=(to_high, to_low),
@@ -154,14 +169,26 @@ def widened(values: np.ndarray, error) -> Span:
     return (float(np.min(values - error)), float(np.max(values + error)))
 
 
-def output_current(levels, part, rails, g_load: float, g_pair, ref, signal, invert) -> float:
+def output_current(
+    levels, part, rails, g_load: float, g_pair, ref, signal, invert, returns: Span = (0.0, 0.0)
+) -> float:
     """The largest current the output drives: into its load at the level with the most load
-    current, and through the feedback pair to its far end (the input, or ref when inverted)."""
-    high = float(loaded(part, rails.positive_range[1] - part.output_headroom[0], g_load))
-    low = float(loaded(part, rails.negative_range[0] + part.output_headroom[1], g_load))
+    current (to the farther end of where the load returns, `load_to`; returned_levels.py), and
+    through the feedback pair to its far end (the input, or ref when inverted)."""
+    high_ideal = rails.positive_range[1] - part.output_headroom[0]
+    low_ideal = rails.negative_range[0] + part.output_headroom[1]
+    if returns == (0.0, 0.0):
+        high, low = float(loaded(part, high_ideal, g_load)), float(loaded(part, low_ideal, g_load))
+        high_load, low_load = abs(high) * g_load, abs(low) * g_load
+    else:  # each level at each end of where the load returns: |V - Vto| G (Ohm's law)
+        highs = [(float(returned_level(part, high_ideal, g_load, to)), to) for to in returns]
+        lows = [(float(returned_level(part, low_ideal, g_load, to)), to) for to in returns]
+        high, low = max(h for h, _ in highs), min(lo for lo, _ in lows)
+        high_load = max(abs(h - to) for h, to in highs) * g_load
+        low_load = max(abs(lo - to) for lo, to in lows) * g_load
     far_low, far_high = (float(np.min(ref)), float(np.max(ref))) if invert else signal
     pair = float(np.max(g_pair))
     return max(
-        abs(high) * g_load + max(high - far_low, 0.0) * pair,
-        abs(low) * g_load + max(far_high - low, 0.0) * pair,
+        high_load + max(high - far_low, 0.0) * pair,
+        low_load + max(far_high - low, 0.0) * pair,
     )
