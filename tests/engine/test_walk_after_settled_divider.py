@@ -1,7 +1,8 @@
-"""A chain with a passive stage whose shown span waits for the stage it feeds (a 1M/1M divider
-into a buffer drawing its bias current) and, later, a passive stage feeding two stages: the draw
-walk keeps the two apart (a merge once reused one name for both and the walk stopped with a
-TypeError in rss and Monte Carlo). The node numbers are checked against Millman's theorem."""
+"""Chains with a passive stage whose shown span waits for the stage it feeds (a 1M/1M divider
+into a stage drawing its bias current) and, later, a passive stage feeding two stages: the draw
+walk keeps the two apart (a merge once reused one name for both, and with a comparator after
+the first divider the walk stopped with a TypeError in Monte Carlo). The node numbers are checked
+against Millman's theorem."""
 
 from __future__ import annotations
 
@@ -66,3 +67,25 @@ def test_split_node_follows_millman_after_a_settled_divider(tmp_path: Path, meth
     assert left_lo == pytest.approx(-(buffer_hi + 1) / 4, abs=0.01)
     assert left_hi == pytest.approx(-(buffer_lo + 1) / 4, abs=0.01)
     assert buffer_hi == pytest.approx(0.5, abs=0.06)  # 1 V over 1M/1M, less the bias drop
+
+
+COMPARATOR_FIRST = CHAIN.replace(
+    'name = "buffer"\nblock = "follower"\npart = "generic-bipolar-15v"',
+    'name = "buffer"\nblock = "comparator"\npart = "generic-bipolar-15v"\nthreshold = "0.2"',
+)
+
+
+@pytest.mark.parametrize("method", ["corners", "montecarlo"])
+def test_a_comparator_after_a_settled_divider_then_a_shared_divider(tmp_path: Path, method):
+    assert COMPARATOR_FIRST != CHAIN
+    path = tmp_path / "chain.toml"
+    path.write_text(COMPARATOR_FIRST, encoding="utf-8")
+    chain, library = load_checked(str(path))
+    result = analyse(chain, library.parts, method=method, samples=2000, design_aids=False, headroom=False)
+    level_lo, level_hi = result.stages[1].measure.output  # the comparator's two output levels
+    left_lo, left_hi = result.stages[3].measure.output
+    # Millman at the split node as above, fed the comparator's levels: "left" gives -(V + 1) / 4;
+    # the comparator's output resistance into the 10k divider drops its level by up to about
+    # 14 V x 75 / 15k = 70 mV, a quarter of it at the node: within 20 mV
+    assert left_lo == pytest.approx(-(level_hi + 1) / 4, abs=0.02)
+    assert left_hi == pytest.approx(-(level_lo + 1) / 4, abs=0.02)
