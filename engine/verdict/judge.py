@@ -64,7 +64,13 @@ def check_scale(check: str, part: Part | None, rails: Rails) -> float:
     row = CHECK_TABLE.get(check)
     kind = row.scale if row is not None else "rails"
     if part is not None and kind != "rails":
-        return {"slew": part.slew, "current": part.output_current, "supply": part.supply[1]}[kind]
+        if kind == "slew":
+            return part.slew
+        if kind == "current":
+            return part.output_current
+        if kind == "supply":
+            return part.supply[1]
+        raise KeyError(kind)
     return rails.positive - rails.negative
 
 
@@ -74,10 +80,12 @@ def judge(
     rails: Rails,
     required: float,
     measured: tuple[dict[str, float], dict[str, str]] | None = None,
+    lean: bool = False,
 ) -> StageResult:
     """The verdict of one stage. `measured`: (each check's margin, which op amp set it) when the
     method measured them itself (rss, Monte Carlo); otherwise they are read off the measure's
-    spans and windows (opamp_margins)."""
+    spans and windows (opamp_margins). `lean`: margins, regime, reasons and verdict only, no
+    limiting check and no cautions (for a search that reads the margins alone)."""
     block = BLOCKS[measure.stage.block]
     margins, nodes = opamp_margins(measure) if measured is None else (dict(measured[0]), dict(measured[1]))
     if part is not None:
@@ -107,9 +115,9 @@ def judge(
         go=go,
         reasons=tuple(reasons),
         margins=margins,
-        limiting=limiting_check(margins, rails, part),
+        limiting=None if lean else limiting_check(margins, rails, part),
         failing_nodes=nodes,
-        cautions=tuple(stage_cautions(measure, part, rails)),
+        cautions=() if lean else tuple(stage_cautions(measure, part, rails)),
     )
 
 
