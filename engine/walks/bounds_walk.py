@@ -47,18 +47,25 @@ SLOPE_KEEPING = frozenset(
 )
 
 
-def largest_gain(node) -> float:
-    """max |H| of a node from the chain signal over the corners and the band (0 when it sees none)."""
+def largest_gain(node, memo: dict | None = None) -> float:
+    """max |H| of a node from the chain signal over the corners and the band (0 when it sees
+    none); `memo`: a walk's memo (bounds_once), which keeps it for the next walk."""
+    key = ("largest gain", id(node))
+    if memo is not None and key in memo:
+        return memo[key][1]
     transfer = node.transfers.get("in")
-    return 0.0 if transfer is None else float(np.max(np.abs(transfer)))
+    found = 0.0 if transfer is None else float(np.max(np.abs(transfer)))
+    if memo is not None:
+        memo[key] = (node, found)  # the node kept beside it: its id stays its own
+    return found
 
 
-def passed_slope(plan: StagePlan, response: BlockResponse, signal) -> float | None:
+def passed_slope(plan: StagePlan, response: BlockResponse, signal, memo: dict | None = None) -> float | None:
     """The slope bound of what a linear stage hands on, from the one it is fed (SLOPE_KEEPING)."""
     slope = getattr(signal, "slope", None)
     if slope is None or plan.block.name not in SLOPE_KEEPING:
         return None
-    out = largest_gain(response.output) * slope
+    out = largest_gain(response.output, memo) * slope
     return out if plan.part is None else min(out, plan.part.slew)
 
 
@@ -252,7 +259,7 @@ def walk_chain(
             if levels is not None:
                 levels[k] = bounds
             passed = None
-            slope = passed_slope(plan, responses[k], signal)
+            slope = passed_slope(plan, responses[k], signal, memo)
             only = children[k][0] if len(children[k]) == 1 else None
             if shape.reads_through[k]:
                 assert only is not None
@@ -577,7 +584,7 @@ def opamp_measure(
         # fed a clipped waveform: its amplitudes are no sine's (a sine clipped to half its height
         # keeps its full slope at the crossings), so the need is its slope bound through this op
         # amp's gain; after a filter that may ring, no less than the amplitudes' (SLOPE_KEEPING)
-        through = largest_gain(amp.output) * slope
+        through = largest_gain(amp.output, memo) * slope
         slew = through if plan.block.name in SLOPE_KEEPING else max(slew, through)
     return OpAmpMeasure(
         label=amp.label,

@@ -121,6 +121,22 @@ class NodeTerms:
         """|H| >= G at every row and frequency: a_sel is amp_hi throughout."""
         return bool(self.rising.all())
 
+    @cached_property
+    def low_base(self) -> np.ndarray | float:
+        """c - e, the first step of the lower bound, the same for every signal fed."""
+        return self.fixed - self.error
+
+    @cached_property
+    def high_base(self) -> np.ndarray | float:
+        return self.fixed + self.error
+
+    @cached_property
+    def negative_gain(self) -> np.ndarray:
+        """-G: G (-x) and (-G) x are the same floats (a sign flip is exact), so a node whose
+        DC gain is negative everywhere meets the signal without negating its arrays."""
+        assert self.gain is not None
+        return -self.gain
+
 
 def single_terms(
     node: Node, v: dict, error: np.ndarray | float, shift: np.ndarray | float = 0.0, order: str = "C"
@@ -154,7 +170,13 @@ def single_bounds(
         zero = np.zeros_like(signal.hi)
         return NodeBounds(fixed - error + zero, fixed + error + zero, zero, zero)
     magnitude, gain, spare = terms.magnitude, terms.gain, terms.spare
-    up, down = signed_sides(terms.g, signal, terms.positive, terms.sides)
+    sides = terms.sides
+    if sides == 1:
+        up, down = signal.hi, signal.lo
+    elif sides == -1:  # G (-lo) = (-G) lo: the same floats (NodeTerms.negative_gain)
+        gain, up, down = terms.negative_gain, signal.lo, signal.hi
+    else:
+        up, down = signed_sides(terms.g, signal, terms.positive, sides)
     one_amplitude = signal.amp_lo is signal.amp_hi
     if one_amplitude:
         a_sel = signal.amp_hi
@@ -164,9 +186,10 @@ def single_bounds(
         a_sel = np.where(terms.rising, signal.amp_hi, signal.amp_lo)
     swing = spare * a_sel
     amp_lo = magnitude * signal.amp_lo
+    # (c - e) + G down - swing, evaluated left to right as ever; c - e and c + e kept per node
     return NodeBounds(
-        lo=fixed - error + gain * down - swing,
-        hi=fixed + error + gain * up + swing,
+        lo=terms.low_base + gain * down - swing,
+        hi=terms.high_base + gain * up + swing,
         amp_lo=amp_lo,
         amp_hi=amp_lo if one_amplitude else magnitude * signal.amp_hi,
     )

@@ -115,3 +115,36 @@ def test_walk_chain_lean_keeps_the_levels():
     assert full.keys() == lean.keys()
     for k in full:
         assert np.array_equal(full[k].hi, lean[k].hi) and np.array_equal(full[k].lo, lean[k].lo)
+
+
+def test_node_bounds_of_a_negative_gain_are_the_formula_on_negated_signals():
+    # the module docstring of signal_bounds: for g < 0, up = -lo and down = -hi
+    from railroom.engine.circuit.blocks.base import Node
+    from railroom.engine.walks.signal_bounds import Signal, single_bounds
+
+    rng = np.random.default_rng(7)
+    transfer = -(1.0 + rng.random((3, 6))) + 0.3j * rng.random((3, 6))
+    transfer[:, 0] = transfer[:, 0].real  # DC first, real
+    node = Node(transfers={"in": transfer, "ref": np.full((3, 6), 0.5 + 0j)})
+    v = {"ref": np.full((3, 1), 1.2)}
+    hi, lo = 1.0 + rng.random(5), -1.0 - rng.random(5)
+    signal = Signal(hi=hi, lo=lo, amp_lo=0.1 * rng.random(5), amp_hi=0.2 + 0.1 * rng.random(5))
+    error = np.array([[1e-3], [2e-3], [3e-3]])
+    got = single_bounds(node, v, signal, error)
+    g = transfer[:, :1].real
+    gain, magnitude = np.abs(g), np.abs(transfer[:, 1:])
+    a_sel = np.where(magnitude - gain >= 0, signal.amp_hi, signal.amp_lo)
+    fixed = 0.5 * 1.2
+    assert np.array_equal(got.lo, fixed - error + gain * -hi - (magnitude - gain) * a_sel)
+    assert np.array_equal(got.hi, fixed + error + gain * -lo + (magnitude - gain) * a_sel)
+
+
+def test_check_scales_are_check_scale_of_every_check():
+    from railroom.engine.verdict.judge import check_scale, check_scales
+    from railroom.engine.verdict.results import CHECK_TABLE
+
+    chain = reference_chain()
+    for plan in plan_chain(chain, PARTS):
+        scales = check_scales(plan.part, plan.rails)
+        assert scales == {c: check_scale(c, plan.part, plan.rails) for c in CHECK_TABLE}
+        assert check_scales(plan.part, plan.rails) is scales  # found once per pair
