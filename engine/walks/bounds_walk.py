@@ -246,9 +246,10 @@ def walk_chain(
                 shown_later=later,
                 hot_rise=hot,
             )
-            if shape.shows_parent[k]:
+            if shape.shows_parent[k] and (levels is not None or not lean):
                 # the passive stage before shows the voltage at this stage's input terminal,
-                # each of its circuits paired with this stage's own (exact)
+                # each of its circuits paired with this stage's own (exact); a lean walk
+                # reads neither what it shows nor, without levels, the terminal
                 terminal = input_bounds(plan, responses[k], v, signal, rise, nominal, memo, hot_rise=hot)
                 shown = span(terminal)
                 if levels is not None:
