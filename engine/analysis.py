@@ -17,7 +17,7 @@ from railroom.engine.circuit.model import Chain, Part
 from railroom.engine.circuit.nets import net_cautions
 from railroom.engine.aids.headroom import headroom_db
 from railroom.engine.walks.gain_error import gain_errors
-from railroom.engine.walks.preparation import band_grid, plan_chain
+from railroom.engine.walks.preparation import nominal_band, plan_chain
 from railroom.engine.verdict.results import ChainResult
 
 RARE_BELOW = 10  # fewer failing Monte Carlo draws: also estimate the small probability
@@ -58,8 +58,13 @@ def analyse(
     methods.montecarlo.Cancelled."""
     chain = with_overrides(chain, method, samples, seed, margin)
     plans = plan_chain(chain, parts)
-    freqs = band_grid(chain, plans)
-    nominal = corners.walk(corners.prepare(chain, plans, freqs, nominal=True), nominal=True)
+    freqs, walked = nominal_band(chain, plans)
+    # the nominal walk: the one refining the grid made when it added no point (the same call)
+    nominal = (
+        walked[1]
+        if walked is not None
+        else corners.walk(corners.prepare(chain, plans, freqs, nominal=True), nominal=True)
+    )
     notes = [
         {"nominal": n.measure.output, "gain_error": e} for n, e in zip(nominal, gain_errors(chain, plans))
     ]

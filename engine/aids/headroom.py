@@ -54,7 +54,7 @@ def headroom_db(prepared: corners.Prepared, at_full_scale=None) -> float | None:
         return None  # no stage with a linear regime to leave: no headroom to quote
 
     def room(scale: float) -> float:
-        return linear_room(corners.walk(prepared, scale=scale))
+        return linear_room(corners.walk(prepared, scale=scale, lean=True))
 
     low, room_low = 0.0, room(0.0)
     if room_low < 0:

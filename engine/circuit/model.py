@@ -7,6 +7,7 @@ carry a tolerance are kept as `Quantity` so each method can decide how to spread
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 from collections.abc import Mapping
 
 from railroom.engine.formats.values import Quantity, escaped
@@ -80,19 +81,20 @@ class Rails:
     # ratiometric net follows this rail, so its windows and the net take the same end)
     pinned: float | None = None
 
-    @property
+    # the ranges are read in every walk of every stage: found once per Rails (frozen)
+    @cached_property
     def positive_range(self) -> tuple[float, float]:
         if self.pinned is not None:
             return (self.pinned, self.pinned)
         ends = (self.positive * (1 - self.tolerance), self.positive * (1 + self.tolerance))
         return (min(ends), max(ends))
 
-    @property
+    @cached_property
     def negative_range(self) -> tuple[float, float]:
         ends = (self.negative * (1 - self.tolerance), self.negative * (1 + self.tolerance))
         return (min(ends), max(ends))
 
-    @property
+    @cached_property
     def span_range(self) -> tuple[float, float]:
         """Smallest and largest total supply (positive minus negative) over the tolerance."""
         pos, neg = self.positive_range, self.negative_range

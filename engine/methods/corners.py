@@ -313,20 +313,32 @@ def run(setup, progress=None):
 
 
 def walk(
-    prepared: Prepared, scale: float = 1.0, nominal: bool = False, notes=None, entering: list | None = None
+    prepared: Prepared,
+    scale: float = 1.0,
+    nominal: bool = False,
+    notes=None,
+    entering: list | None = None,
+    lean: bool = False,
 ):
     """Stage measures and verdicts for one source amplitude scale; `notes` are per-stage measure
     fields known beforehand (nominal span, gain error); `entering` receives each stage's input.
     With shared values (nets) the chain is walked once per joint corner and the envelope taken;
     `entering` (the fix search's re-walks) takes the walk with each net at every end of its
-    own, stage by stage, an outside bound."""
+    own, stage by stage, an outside bound. `lean`: for a caller that reads only regimes,
+    margins and the op amps' limits (bounds_walk.walk_chain)."""
     if prepared.joint_walks and entering is None:
         walks = [
-            walk_chain(p, start_signal(p.chain, p.freqs, scale), nominal, notes) for p in prepared.joint_walks
+            walk_chain(p, start_signal(p.chain, p.freqs, scale), nominal, notes, lean=lean)
+            for p in prepared.joint_walks
         ]
-        return envelope(walks, prepared.plans, prepared.chain.conditions.margin)
+        return envelope(walks, prepared.plans, prepared.chain.conditions.margin, lean=lean)
     return walk_chain(
-        prepared, start_signal(prepared.chain, prepared.freqs, scale), nominal, notes, entering=entering
+        prepared,
+        start_signal(prepared.chain, prepared.freqs, scale),
+        nominal,
+        notes,
+        entering=entering,
+        lean=lean,
     )
 
 

@@ -91,11 +91,12 @@ def merged_measure(measures: list[StageMeasure], supply: Span | None) -> StageMe
     )
 
 
-def envelope(walks: list[list[StageResult]], plans, required: float) -> list[StageResult]:
-    """Per stage, the worst over the walks, judged against the stage's own (unpinned) rails."""
+def envelope(walks: list[list[StageResult]], plans, required: float, lean: bool = False) -> list[StageResult]:
+    """Per stage, the worst over the walks, judged against the stage's own (unpinned) rails
+    (`lean`: judge's, for a caller that reads the margins alone)."""
     results = []
     for k, plan in enumerate(plans):
         measures = [walk[k].measure for walk in walks]
         supply = plan.rails.span_range if plan.part is not None else None
-        results.append(judge(merged_measure(measures, supply), plan.part, plan.rails, required))
+        results.append(judge(merged_measure(measures, supply), plan.part, plan.rails, required, lean=lean))
     return results

@@ -19,6 +19,8 @@ from railroom.engine.verdict.results import CHECK_TABLE, VOLTAGE_CHECKS, StageMe
 GAIN_ERROR_CAUTION = 0.01  # the README's JSON report: a caution above 1 %
 SELV_DC_LIMIT = 60.0  # V DC between conductors: SELV (IEC 60335-1, 3.4.2), ES1 (IEC 62368-1)
 LINEAR_CHECKS = (*VOLTAGE_CHECKS, "slew", "current")
+# the linear checks a saturated-by-design stage keeps (its output swings rail to rail by design)
+SATURATED_LINEAR_CHECKS = tuple(c for c in LINEAR_CHECKS if c in ("input-high", "input-low", "current"))
 LIMITING_TIE = 1e-10  # relative margins this close limit alike (rounding)
 
 
@@ -57,6 +59,23 @@ def supply_margin(part: Part, rails: Rails) -> float:
     return float(kernel_supply_margin(part, low, high))
 
 
+_SCALES: dict[tuple[int, int], tuple] = {}  # (id(part), id(rails)) -> (part, rails, scales)
+
+
+def check_scales(part: Part | None, rails: Rails) -> dict[str, float]:
+    """check_scale of every check in the table for one part on one set of rails, found once per
+    pair (every walk judges each stage again); the pair is kept beside them, so the ids stay
+    theirs, and the few kept are dropped once many have been seen."""
+    key = (id(part), id(rails))
+    found = _SCALES.get(key)
+    if found is None or found[0] is not part or found[1] is not rails:
+        if len(_SCALES) > 512:
+            _SCALES.clear()
+        found = (part, rails, {c: check_scale(c, part, rails) for c in CHECK_TABLE})
+        _SCALES[key] = found
+    return found[2]
+
+
 def check_scale(check: str, part: Part | None, rails: Rails) -> float:
     """The size a check's margin is measured against, from the table of checks (Check.scale):
     the rail span for voltages, the part's own limit for slew, current and supply (the rail span
@@ -64,7 +83,13 @@ def check_scale(check: str, part: Part | None, rails: Rails) -> float:
     row = CHECK_TABLE.get(check)
     kind = row.scale if row is not None else "rails"
     if part is not None and kind != "rails":
-        return {"slew": part.slew, "current": part.output_current, "supply": part.supply[1]}[kind]
+        if kind == "slew":
+            return part.slew
+        if kind == "current":
+            return part.output_current
+        if kind == "supply":
+            return part.supply[1]
+        raise KeyError(kind)
     return rails.positive - rails.negative
 
 
@@ -74,20 +99,27 @@ def judge(
     rails: Rails,
     required: float,
     measured: tuple[dict[str, float], dict[str, str]] | None = None,
+    lean: bool = False,
 ) -> StageResult:
     """The verdict of one stage. `measured`: (each check's margin, which op amp set it) when the
     method measured them itself (rss, Monte Carlo); otherwise they are read off the measure's
-    spans and windows (opamp_margins)."""
+    spans and windows (opamp_margins). `lean`: margins, regime, reasons and verdict only, no
+    limiting check and no cautions (for a search that reads the margins alone)."""
     block = BLOCKS[measure.stage.block]
     margins, nodes = opamp_margins(measure) if measured is None else (dict(measured[0]), dict(measured[1]))
     if part is not None:
         margins["supply"] = supply_margin(part, rails)
-    margins = {c: met_at_equality(m, check_scale(c, part, rails)) for c, m in margins.items()}
-    leaves_linear = any(
-        margins.get(c, 0.0) < 0
-        for c in LINEAR_CHECKS
-        if not (block.saturates and c not in ("input-high", "input-low", "current"))
-    )
+    scales = check_scales(part, rails)
+    margins = {
+        c: met_at_equality(m, scales[c] if c in scales else check_scale(c, part, rails))
+        for c, m in margins.items()
+    }
+    checked = SATURATED_LINEAR_CHECKS if block.saturates else LINEAR_CHECKS
+    leaves_linear = False
+    for c in checked:
+        if margins.get(c, 0.0) < 0:
+            leaves_linear = True
+            break
     if part is not None and (block.saturates or leaves_linear):  # open loop, or broken by clipping
         margins.update(differential_margin(part, measure.input_differential))
     if block.saturates:
@@ -107,9 +139,9 @@ def judge(
         go=go,
         reasons=tuple(reasons),
         margins=margins,
-        limiting=limiting_check(margins, rails, part),
+        limiting=None if lean else limiting_check(margins, rails, part),
         failing_nodes=nodes,
-        cautions=tuple(stage_cautions(measure, part, rails)),
+        cautions=() if lean else tuple(stage_cautions(measure, part, rails)),
     )
 
 
@@ -120,7 +152,10 @@ def limiting_check(margins: dict[str, float], rails: Rails, part: Part | None) -
     considered = {c: m for c, m in margins.items() if c != "supply" or m < 0}
     if not considered:
         return None
-    relative = {c: m / check_scale(c, part, rails) for c, m in considered.items()}
+    scales = check_scales(part, rails)
+    relative = {
+        c: m / (scales[c] if c in scales else check_scale(c, part, rails)) for c, m in considered.items()
+    }
     first = min(relative, key=lambda c: relative[c])
     least = relative[first]
     if not math.isfinite(least):

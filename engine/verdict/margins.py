@@ -64,19 +64,37 @@ def load_currents(
     output's span: G (out_hi - out_lo) / 2 >= G a each way. A load whose return follows the
     signal (InputLoad.follows) may return anywhere between the signal's own span and its fixed
     returns; each adds the bias currents of the pins it counts (InputLoad.pins)."""
-    sourced = np.maximum(current_hi, 0.0)
-    sunk = np.maximum(-current_lo, 0.0)
+    if type(current_hi) is type(current_lo) is type(out_hi) is type(out_lo) is float:
+        # one worst case (the corners walk): the same operations on floats, without numpy's
+        # dispatch, which costs far more than the arithmetic here
+        maximum: Any = _float_maximum
+        minimum: Any = _float_minimum
+    else:
+        maximum, minimum = np.maximum, np.minimum
+    sourced = maximum(current_hi, 0.0)
+    sunk = maximum(-current_lo, 0.0)
     for one in each_load(load):
         if one.blocks_dc:
-            swing = one.conductance * np.maximum(out_hi - out_lo, 0.0) / 2.0
+            swing = one.conductance * maximum(out_hi - out_lo, 0.0) / 2.0
             sourced, sunk = sourced + swing + one.pins, sunk + swing + one.pins
             continue
         low, high = one.returns
         if one.follows:
-            low, high = np.minimum(out_lo, low), np.maximum(out_hi, high)
-        sourced = sourced + one.conductance * np.maximum(out_hi - low, 0.0) + one.pins
-        sunk = sunk + one.conductance * np.maximum(high - out_lo, 0.0) + one.pins
+            low, high = minimum(out_lo, low), maximum(out_hi, high)
+        sourced = sourced + one.conductance * maximum(out_hi - low, 0.0) + one.pins
+        sunk = sunk + one.conductance * maximum(high - out_lo, 0.0) + one.pins
     return sourced, sunk
+
+
+def _float_maximum(a: float, b: float) -> float:
+    """np.maximum on two floats, bit for bit: NaN wins, and of two equal values (0.0 and -0.0)
+    the second is returned."""
+    return a if a > b or a != a else b
+
+
+def _float_minimum(a: float, b: float) -> float:
+    """np.minimum on two floats, bit for bit (see _float_maximum)."""
+    return a if a < b or a != a else b
 
 
 def output_drops(part: Part, sourced: Number, sunk: Number) -> tuple[Number, Number]:

@@ -8,7 +8,7 @@ is drawn.
 
 from __future__ import annotations
 
-from dataclasses import replace
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -47,18 +47,25 @@ SLOPE_KEEPING = frozenset(
 )
 
 
-def largest_gain(node) -> float:
-    """max |H| of a node from the chain signal over the corners and the band (0 when it sees none)."""
+def largest_gain(node, memo: dict | None = None) -> float:
+    """max |H| of a node from the chain signal over the corners and the band (0 when it sees
+    none); `memo`: a walk's memo (bounds_once), which keeps it for the next walk."""
+    key = ("largest gain", id(node))
+    if memo is not None and key in memo:
+        return memo[key][1]
     transfer = node.transfers.get("in")
-    return 0.0 if transfer is None else float(np.max(np.abs(transfer)))
+    found = 0.0 if transfer is None else float(np.max(np.abs(transfer)))
+    if memo is not None:
+        memo[key] = (node, found)  # the node kept beside it: its id stays its own
+    return found
 
 
-def passed_slope(plan: StagePlan, response: BlockResponse, signal) -> float | None:
+def passed_slope(plan: StagePlan, response: BlockResponse, signal, memo: dict | None = None) -> float | None:
     """The slope bound of what a linear stage hands on, from the one it is fed (SLOPE_KEEPING)."""
     slope = getattr(signal, "slope", None)
     if slope is None or plan.block.name not in SLOPE_KEEPING:
         return None
-    out = largest_gain(response.output) * slope
+    out = largest_gain(response.output, memo) * slope
     return out if plan.part is None else min(out, plan.part.slew)
 
 
@@ -163,7 +170,8 @@ def earth_error(part, rails) -> float:
 
 
 def span(bounds: NodeBounds) -> tuple[float, float]:
-    return (float(np.min(bounds.lo)), float(np.max(bounds.hi)))
+    # the arrays' own reductions: np.min's dispatch costs more than the few elements here
+    return (float(bounds.lo.min()), float(bounds.hi.max()))
 
 
 def bounds_once(node, v: dict, signal, offsets, bias, known: dict, memo: dict | None = None) -> NodeBounds:
@@ -196,6 +204,7 @@ def walk_chain(
     stop: int | None = None,
     levels: dict | None = None,
     recorded: list | None = None,
+    lean: bool = False,
 ) -> list[StageResult]:
     """Results of stages `first` up to (not including) `stop`, the last by default, fed `signal`
     at stage `first`. Stages form a tree (the README's File formats, `from`): each is fed what
@@ -203,11 +212,14 @@ def walk_chain(
     when given, receives the signal entering each walked stage (the fix search re-walks from
     there); `recorded`: such a list from a full walk, for stages from `first` on whose parent is
     before `first` (or the source); `levels`, stage index -> the bounds per frequency of what
-    each linear stage shows (the level picture)."""
+    each linear stage shows (the level picture). `lean`: only each result's regime, margins and
+    op amps' limits are read (the headroom search): the span a passive stage shows, its
+    limiting check and its cautions are left out (judge(..., lean=True)); every margin and
+    every signal handed on is the full walk's."""
     chain = prepared.chain
     plans, responses = prepared.plans, prepared.responses
-    parents = plan_parents(plans)
-    children = tree_children(parents)
+    shape = walk_shape(prepared, nominal)
+    parents, children = shape.parents, shape.children
     rise = chain.conditions.worst_temperature_rise
     hot = max(chain.conditions.temperature) - 25.0  # the bias current is taken there (part_limits)
     # node terms depend on the offsets, which the nominal walk leaves out: one memo for each
@@ -232,24 +244,13 @@ def walk_chain(
             entering.append(signal)
         if len(children[k]) > 1 and any(c in prepared.views for c in children[k]):
             entered[k] = signal
-        next_load = load_behind(
-            plans,
-            responses,
-            k,
-            0.0 if nominal else rise,
-            prepared.values,
-            25.0 if nominal else 25.0 + hot,
-            children,
-        )
-        if nominal:
-            next_load = tuple(replace(one, pins=0.0) for one in next_load)
+        next_load = shape.loads[k]
         v = prepared.values[k]
         if plan.block.saturates:
             measure, passed = saturated_stage(plan, v, signal, rise, nominal, hot_rise=hot)
             bounds, slope = None, None
         else:
-            only = children[k][0] if len(children[k]) == 1 else None
-            later = only is not None and prepared.joint[only] and shows_input_of(plans, responses, k, only)
+            later = shape.shown_later[k]
             measure, bounds = linear_stage(
                 plan,
                 responses[k],
@@ -263,22 +264,24 @@ def walk_chain(
                 shown_later=later,
                 hot_rise=hot,
             )
-            if parent >= 0 and shows_input_of(plans, responses, parent, k) and prepared.joint[k]:
+            if shape.shows_parent[k] and (levels is not None or not lean):
                 # the passive stage before shows the voltage at this stage's input terminal,
-                # each of its circuits paired with this stage's own (exact)
+                # each of its circuits paired with this stage's own (exact); a lean walk
+                # reads neither what it shows nor, without levels, the terminal
                 terminal = input_bounds(plan, responses[k], v, signal, rise, nominal, memo, hot_rise=hot)
                 shown = span(terminal)
                 if levels is not None:
                     levels[parent] = terminal
-                if parent in results:
+                if parent in results and not lean:
                     before = results[parent]
                     results[parent] = replace(before, measure=replace(before.measure, output=shown))
             if levels is not None:
                 levels[k] = bounds
             passed = None
-            slope = passed_slope(plan, responses[k], signal)
+            slope = passed_slope(plan, responses[k], signal, memo)
             only = children[k][0] if len(children[k]) == 1 else None
-            if plan.block.window_only and only is not None and reads_through(prepared, k, only):
+            if shape.reads_through[k]:
+                assert only is not None
                 # a converter input draws nothing: it sees its child's input terminal (the passive
                 # stage behind it loaded by that stage), each circuit paired, and so does the
                 # passive stage whose output it is. Only with one child (the loader lets a stage
@@ -297,7 +300,7 @@ def walk_chain(
                     hot_rise=hot,
                 )
                 measure = replace(measure, output=span(terminal), nominal=span(terminal))
-                if parent in results and shows_input_of(plans, responses, parent, k):
+                if parent in results and not lean and shows_input_of(plans, responses, parent, k):
                     before = results[parent]
                     results[parent] = replace(before, measure=replace(before.measure, output=span(terminal)))
             elif converter_loaded(plan, responses[k], next_load) and parent in results:
@@ -306,7 +309,7 @@ def walk_chain(
                     results[parent] = replace(before, measure=replace(before.measure, output=measure.output))
         if notes is not None:
             measure = replace(measure, **notes[k])
-        result = judge(measure, plan.part, plan.rails, chain.conditions.margin)
+        result = judge(measure, plan.part, plan.rails, chain.conditions.margin, lean=lean)
         window = measure.window if result.regime == "clipping" and measure.window is not None else None
         clip_slope = None
         if window is not None:
@@ -338,6 +341,64 @@ def view_hand_on(prepared, k: int, fed_parent, handed: tuple) -> Signal:
     rows = prepared.values[k]["drive"].shape[0]
     passed = paired(bounds, view.rows, rows, fed) if prepared.joint[k] else merge(bounds, fed)
     return passed if slope is None else replace(passed, slope=slope * view.share)
+
+
+@dataclass(frozen=True)
+class WalkShape:
+    """What every walk of one Prepared finds the same, per stage: the tree, what each output
+    drives (load_behind: at the walk's temperatures, the pins' bias left out of the nominal
+    walk), and which stages show or read through another's input terminal. Found once per
+    Prepared and kind of walk (walk_shape) instead of once per walk: the headroom search walks
+    the same Prepared again and again."""
+
+    parents: tuple[int, ...]
+    children: tuple[tuple[int, ...], ...]
+    loads: tuple[tuple[InputLoad, ...], ...]
+    shown_later: tuple[bool, ...]  # the one stage it feeds pairs with it and shows its terminal
+    shows_parent: tuple[bool, ...]  # it pairs with its passive parent, which shows its terminal
+    reads_through: tuple[bool, ...]  # a converter input that reads its one child's terminal
+
+
+def walk_shape(prepared, nominal: bool) -> WalkShape:
+    """The WalkShape of `prepared` for a nominal or a worst-case walk, kept on its memo."""
+    key = ("shape", nominal)
+    found = prepared.memo.get(key)
+    if found is not None:
+        return found
+    chain, plans, responses = prepared.chain, prepared.plans, prepared.responses
+    parents = plan_parents(plans)
+    children = tree_children(parents)
+    rise = chain.conditions.worst_temperature_rise
+    hot = max(chain.conditions.temperature) - 25.0
+    loads, later, shows, reads = [], [], [], []
+    for k, plan in enumerate(plans):
+        load = load_behind(
+            plans,
+            responses,
+            k,
+            0.0 if nominal else rise,
+            prepared.values,
+            25.0 if nominal else 25.0 + hot,
+            children,
+        )
+        if nominal:
+            load = tuple(replace(one, pins=0.0) for one in load)
+        loads.append(load)
+        only = children[k][0] if len(children[k]) == 1 else None
+        linear = not plan.block.saturates
+        later.append(
+            linear and only is not None and prepared.joint[only] and shows_input_of(plans, responses, k, only)
+        )
+        parent = parents[k]
+        shows.append(
+            linear and parent >= 0 and shows_input_of(plans, responses, parent, k) and prepared.joint[k]
+        )
+        reads.append(
+            linear and plan.block.window_only and only is not None and reads_through(prepared, k, only)
+        )
+    found = WalkShape(parents, children, tuple(loads), tuple(later), tuple(shows), tuple(reads))
+    prepared.memo[key] = found
+    return found
 
 
 def plan_parents(plans) -> tuple[int, ...]:
@@ -386,6 +447,8 @@ def paired(bounds: NodeBounds, rows: int, next_rows: int, fed_clipped: bool) -> 
     def tiled(x: np.ndarray) -> np.ndarray:
         if reps == 1 and x.shape[0] == rows:
             return x
+        if x.ndim == 2 and x.shape[0] == rows:  # the same rows, reps times over (copied)
+            return np.concatenate((x,) * reps)
         return np.broadcast_to(x, (reps, rows, x.shape[-1])).reshape(next_rows, x.shape[-1])
 
     return Signal(
@@ -583,16 +646,16 @@ def opamp_measure(
     current = bounds_once(amp.current, v, signal, offsets, bias, known, memo)
     out_span = span(out)
     sourced, sunk = load_currents(
-        float(np.max(current.hi)), float(np.min(current.lo)), out_span[1], out_span[0], load
+        float(current.hi.max()), float(current.lo.min()), out_span[1], out_span[0], load
     )
     needed = float(max(sourced, sunk))
-    slew = float(np.max(TWO_PI * freqs * out.amp_hi)) if out.amp_hi.size else 0.0
+    slew = float((TWO_PI * freqs * out.amp_hi).max()) if out.amp_hi.size else 0.0
     slope = getattr(signal, "slope", None)
     if slope is not None:
         # fed a clipped waveform: its amplitudes are no sine's (a sine clipped to half its height
         # keeps its full slope at the crossings), so the need is its slope bound through this op
         # amp's gain; after a filter that may ring, no less than the amplitudes' (SLOPE_KEEPING)
-        through = largest_gain(amp.output) * slope
+        through = largest_gain(amp.output, memo) * slope
         slew = through if plan.block.name in SLOPE_KEEPING else max(slew, through)
     return OpAmpMeasure(
         label=amp.label,

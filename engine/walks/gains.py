@@ -45,10 +45,8 @@ def _tiled(x: np.ndarray, rows: int) -> np.ndarray:
 
 def _ranges(mag: np.ndarray) -> dict[str, Range]:
     band = mag[:, 1:] if mag.shape[-1] > 1 else mag[:, :1]
-    return {
-        "dc": (float(np.min(mag[:, 0])), float(np.max(mag[:, 0]))),
-        "band": (float(np.min(band)), float(np.max(band))),
-    }
+    dc = mag[:, 0]
+    return {"dc": (float(dc.min()), float(dc.max())), "band": (float(band.min()), float(band.max()))}
 
 
 def stage_gains(prepared) -> list[tuple[dict[str, Range] | None, dict[str, Range] | None]]:

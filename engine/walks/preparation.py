@@ -121,6 +121,14 @@ def frequency_grid(chain: Chain, critical: list[np.ndarray], amplitude: float) -
 
 
 def band_grid(chain: Chain, plans) -> np.ndarray:
+    return nominal_band(chain, plans)[0]
+
+
+def nominal_band(chain: Chain, plans) -> tuple[np.ndarray, tuple | None]:
+    """(the band grid, what refining it walked): the grid, and when refining added no point,
+    the nominal Prepared (corners.prepare(..., nominal=True)) on that very grid with its walk's
+    results, which are then the nominal walk of the chain (analysis.analyse reuses them);
+    None when the grid was refined (or too short to refine)."""
     from railroom.engine.methods.corners import corner_values
 
     rise = chain.conditions.worst_temperature_rise
@@ -130,13 +138,17 @@ def band_grid(chain: Chain, plans) -> np.ndarray:
             v = corner_values(p, rise)
             # the ideal-op-amp peaks and the real ones (finite gain-bandwidth)
             critical += [p.block.critical_frequencies(v), p.block.real_critical_frequencies(v, p.part)]
-    return refined(chain, plans, frequency_grid(chain, critical, chain.source.amplitude))
+    return refined_walked(chain, plans, frequency_grid(chain, critical, chain.source.amplitude))
 
 
 REFINE_POINTS = 8  # added between the neighbours of each stage's peak inside the band
 
 
 def refined(chain: Chain, plans, grid: np.ndarray) -> np.ndarray:
+    return refined_walked(chain, plans, grid)[0]
+
+
+def refined_walked(chain: Chain, plans, grid: np.ndarray) -> tuple[np.ndarray, tuple | None]:
     """The grid with more points around every frequency inside the band where some stage's
     nominal extreme (highest value, lowest value, amplitude, or slope 2 pi f a), or an op amp's
     output current per volt of the signal, peaks: each
@@ -144,18 +156,22 @@ def refined(chain: Chain, plans, grid: np.ndarray) -> np.ndarray:
     response peaks between the points (an integrator then a Sallen-Key high-pass read 0.07 %
     short on the 16-per-decade grid; tests/references/catalogue_brute.py). A peak is flat, so the
     shortfall shrinks with the square of the spacing: about 80 times less with 8 points added.
-    A chain with named nets walks each joint walk (methods/corners.py); each one's peaks count."""
+    A chain with named nets walks each joint walk (methods/corners.py); each one's peaks count.
+    With the grid comes (the nominal Prepared, its walk's results) when no point was added
+    (nominal_band), else None."""
     if len(grid) < 3:
-        return grid
+        return grid, None
     from railroom.engine.methods import corners
     from railroom.engine.walks.bounds_walk import walk_chain
 
     prepared = corners.prepare(chain, plans, grid, nominal=True)
     walks = getattr(prepared, "joint_walks", None) or (prepared,)
     peaks = set()
+    results = None
     for each in walks:
         levels: dict = {}
-        walk_chain(each, corners.start_signal(chain, grid), nominal=True, levels=levels)
+        # the nominal walk itself (corners.walk(prepared, nominal=True)): levels change no result
+        results = walk_chain(each, corners.start_signal(chain, grid), nominal=True, levels=levels)
         for response in each.responses:  # each op amp's output current peaks on its own
             for amp in response.opamps if response is not None else ():
                 transfer = amp.current.transfers.get("in")
@@ -171,4 +187,6 @@ def refined(chain: Chain, plans, grid: np.ndarray) -> np.ndarray:
                 if 0 < i < len(grid) - 1:
                     peaks.add(i)
     extra = [np.geomspace(grid[i - 1], grid[i + 1], 2 * REFINE_POINTS + 3)[1:-1] for i in sorted(peaks)]
-    return np.unique(np.concatenate([grid, *extra])) if extra else grid
+    if extra:
+        return np.unique(np.concatenate([grid, *extra])), None
+    return grid, (prepared, results) if len(walks) == 1 and walks[0] is prepared else None

@@ -113,6 +113,32 @@ class NodeTerms:
         assert self.spare is not None
         return np.asarray(self.spare >= 0)
 
+    @cached_property
+    def sides(self) -> int:
+        """1: g >= 0 everywhere, -1: nowhere, 0: both (signed_sides), found once per node."""
+        return 1 if self.positive.all() else (-1 if not self.positive.any() else 0)
+
+    @cached_property
+    def rising_everywhere(self) -> bool:
+        """|H| >= G at every row and frequency: a_sel is amp_hi throughout."""
+        return bool(self.rising.all())
+
+    @cached_property
+    def low_base(self) -> np.ndarray | float:
+        """c - e, the first step of the lower bound, the same for every signal fed."""
+        return self.fixed - self.error
+
+    @cached_property
+    def high_base(self) -> np.ndarray | float:
+        return self.fixed + self.error
+
+    @cached_property
+    def negative_gain(self) -> np.ndarray:
+        """-G: G (-x) and (-G) x are the same floats (a sign flip is exact), so a node whose
+        DC gain is negative everywhere meets the signal without negating its arrays."""
+        assert self.gain is not None
+        return -self.gain
+
 
 def single_terms(
     node: Node, v: dict, error: np.ndarray | float, shift: np.ndarray | float = 0.0, order: str = "C"
@@ -146,14 +172,26 @@ def single_bounds(
         zero = np.zeros_like(signal.hi)
         return NodeBounds(fixed - error + zero, fixed + error + zero, zero, zero)
     magnitude, gain, spare = terms.magnitude, terms.gain, terms.spare
-    up, down = signed_sides(terms.g, signal, terms.positive)
+    sides = terms.sides
+    if sides == 1:
+        up, down = signal.hi, signal.lo
+    elif sides == -1:  # G (-lo) = (-G) lo: the same floats (NodeTerms.negative_gain)
+        gain, up, down = terms.negative_gain, signal.lo, signal.hi
+    else:
+        up, down = signed_sides(terms.g, signal, terms.positive, sides)
     one_amplitude = signal.amp_lo is signal.amp_hi
-    a_sel = signal.amp_hi if one_amplitude else np.where(terms.rising, signal.amp_hi, signal.amp_lo)
+    if one_amplitude:
+        a_sel = signal.amp_hi
+    elif terms.rising_everywhere and signal.amp_hi.shape == signal.amp_lo.shape:
+        a_sel = signal.amp_hi  # np.where would pick amp_hi at every element
+    else:
+        a_sel = np.where(terms.rising, signal.amp_hi, signal.amp_lo)
     swing = spare * a_sel
     amp_lo = magnitude * signal.amp_lo
+    # (c - e) + G down - swing, evaluated left to right as ever; c - e and c + e kept per node
     return NodeBounds(
-        lo=fixed - error + gain * down - swing,
-        hi=fixed + error + gain * up + swing,
+        lo=terms.low_base + gain * down - swing,
+        hi=terms.high_base + gain * up + swing,
         amp_lo=amp_lo,
         amp_hi=amp_lo if one_amplitude else magnitude * signal.amp_hi,
     )
@@ -170,15 +208,17 @@ def memory_order(x: np.ndarray) -> str:
 
 
 def signed_sides(
-    g: np.ndarray, signal: Signal, positive: np.ndarray | None = None
+    g: np.ndarray, signal: Signal, positive: np.ndarray | None = None, sides: int | None = None
 ) -> tuple[np.ndarray, np.ndarray]:
     """(up, down): (hi, lo) where g >= 0, (-lo, -hi) where g < 0. The sign of g is nearly
     always the same for every draw; the choice is then made once, not per element.
-    `positive`: g >= 0 when the caller has it."""
+    `positive`: g >= 0 when the caller has it; `sides`: NodeTerms.sides of it."""
     positive = g >= 0 if positive is None else positive
-    if positive.all():
+    if sides is None:
+        sides = 1 if positive.all() else (-1 if not positive.any() else 0)
+    if sides == 1:
         return signal.hi, signal.lo
-    if not positive.any():
+    if sides == -1:
         return -signal.lo, -signal.hi
     return np.where(positive, signal.hi, -signal.lo), np.where(positive, signal.lo, -signal.hi)
 
