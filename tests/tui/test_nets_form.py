@@ -94,3 +94,24 @@ def test_the_detail_names_the_net_a_stage_reads_with_its_span(pump):
     text = console.export_text()
     assert "ref net converter_quarter" in text
     assert "nets: converter_quarter = 0.25 x rail converter +: 1.22 V .. 1.28 V" in text
+
+
+def test_a_converter_input_shows_no_rails_it_does_not_have(pump):
+    # the converter input (stage 6) has no op amp: its detail names its window and its nets,
+    # not the analog rails a stage with a part would take by default; the buffer before it does
+    from rich.console import Console
+
+    from railroom.engine import analyse
+    from railroom.engine.formats.loading import load_checked
+
+    chain, library = load_checked(str(pump))
+    result = analyse(chain, library.parts, design_aids=False, headroom=False)
+
+    def story(index: int) -> str:
+        console = Console(width=200, record=True)
+        console.print(stage_story(result.stages[index], chain, library.parts))
+        return console.export_text()
+
+    assert "rails" not in story(5).split("\n")[1]
+    assert "window 343 mV .. 4.58 V" in story(5)
+    assert story(4).split("\n")[1].startswith("rails converter: 0 V / 5 V ±2%")

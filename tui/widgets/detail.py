@@ -174,10 +174,14 @@ def stage_story(stage: StageResult, chain: Chain, parts: Mapping[str, Part]) -> 
     if part is not None:
         head.append("  part ")
         head.append(part.id)
-    head.append(
-        f"\nrails {rails.name}: {volts(rails.negative)} / {volts(rails.positive)}"
-        f" ±{format_si(rails.tolerance, '%')}   "
-    )
+    block = BLOCKS.get(s.block)
+    if block is None or block.uses_part:  # a passive stage or a converter input has no rails
+        head.append(
+            f"\nrails {rails.name}: {volts(rails.negative)} / {volts(rails.positive)}"
+            f" ±{format_si(rails.tolerance, '%')}   "
+        )
+    else:
+        head.append("\n")
     head.append(f"output {span_words(m.output)}  nominal {span_words(m.nominal)}")
     if m.window is not None:
         head.append(f"  window {span_words(m.window)}")
