@@ -45,7 +45,7 @@ class Linearised:
 
     layout: dw.Layout
     draws: list[dw.StageDraws]  # each quantity: its nominal value, then its gradient (K,)
-    decisive: np.ndarray | None = None  # draw_walk.decisive_freqs(layout), when asked for
+    decisive: np.ndarray | None = None  # circuit_walk.decisive_freqs(layout), when asked for
     entering: list | None = None  # what each stage is fed (walk_linearised), to re-walk from it
 
     def nominal(self, x: np.ndarray) -> float:
@@ -89,7 +89,7 @@ def in_one_line(chain) -> bool:
 
 def linearise(layout: dw.Layout, decisive: bool = False) -> Linearised:
     """Margins at nominal and their gradients over every column; drifts over the worst
-    temperature rise. `decisive`: also find draw_walk.decisive_freqs(layout). Up to PLAIN_UP_TO
+    temperature rise. `decisive`: also find circuit_walk.decisive_freqs(layout). Up to PLAIN_UP_TO
     columns one whole-chain walk with 2K + 1 rows is the cheaper (plain_gradients, the decisive
     rows sharing it); beyond, the one pass (walk_linearised), whose cost is linear in stages."""
     if len(layout.variables) <= PLAIN_UP_TO or not in_one_line(layout.chain):
@@ -104,9 +104,9 @@ def linearise(layout: dw.Layout, decisive: bool = False) -> Linearised:
 
 def plain_linearised(layout: dw.Layout, decisive: bool = False) -> Linearised:
     """Rows at nominal and at d_i = +/-h for each column in one vectorised walk; with
-    `decisive`, the all-high and all-low rows of draw_walk.decisive_freqs appended (their
+    `decisive`, the all-high and all-low rows of circuit_walk.decisive_freqs appended (their
     temperature rise is the same, the largest distance from 25 C). Each row is walked on its
-    own (draw_walk module docstring), so sharing the walk changes no row."""
+    own (circuit_walk module docstring), so sharing the walk changes no row."""
     K = len(layout.variables)
     rows = 2 * K + 1
     extra = 2 if decisive and len(layout.freqs) > 2 else 0
@@ -290,13 +290,13 @@ def walk_linearised(
     """Every stage's margins and spans with their gradient over every column, in one pass.
 
     A stage reads its own columns and its rails directly and everything upstream only through
-    the state it is fed (draw_walk.walk_draws: the signal arrays and, after a passive stage, the
+    the state it is fed (circuit_walk.walk_draws: the signal arrays and, after a passive stage, the
     impedance driving it). So by the chain rule dm/dd = dm/dd_own + dm/dstate dstate/dd, and
     dstate/dd is carried from stage to stage as B C: a few state directions (B) and their
     coefficients over the columns (C). Each stage is walked on rows at nominal, at +/-h on its
     own columns and at +/-h along each direction (central differences as before): its rows do
     not grow with the stages upstream, so the pass costs stages x (own columns + directions)
-    rows instead of stages x all columns. The rows are draw_walk's, stage by stage.
+    rows instead of stages x all columns. The rows are circuit_walk's, stage by stage.
 
     `entering` receives what each stage is fed (its state, directions, coefficients and the
     stage before's response); `first`, `stop`, `start`: walk only stages `first` to `stop` (not

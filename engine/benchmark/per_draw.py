@@ -145,7 +145,7 @@ def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float, siblings=
 
 def envelope(x: np.ndarray, signal: tuple) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """One circuit's node: x[:, 0] per volt of signal (DC first), x[0, 1] fixed, x[0, 2] errors.
-    With the incoming (hi, lo, a) over the band: max/min of g dc + |H| a sin (propagation.py)."""
+    With the incoming (hi, lo, a) over the band: max/min of g dc + |H| a sin (walks/signal_bounds.py)."""
     hi, lo, a = signal
     g = x[0, 0].real
     magnitude = np.abs(x[1:, 0])

@@ -153,7 +153,7 @@ class NetValue(Quantity):
     """A voltage field written `{ net = "NAME" }`: the net's nominal value with a tolerance that
     covers every end of it (its own and, for a ratiometric net, the rail's), so a path that
     treats it as a stage's own value bounds it from outside; the walks that know nets give it
-    one value shared by every stage (methods/corners.py, draw_walk.py)."""
+    one value shared by every stage (methods/corners.py, walks/circuit_walk.py)."""
 
     net: str = ""
 

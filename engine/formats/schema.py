@@ -3,7 +3,7 @@
 Editors that understand TOML with JSON Schema (the Taplo toolkit and the editor extensions built on
 it) validate and complete a chain or preset file against these; scripts validate the JSON report.
 Block fields come from BLOCKS[...].fields, part fields from presets.PART_FIELDS, the chain's own
-tables from the key tuples of files.py (a key added there without a schema entry here fails fast).
+tables from the key tuples of chain_file.py (a key added there without a schema entry here fails fast).
 The schemas are draft-07: the newest dialect those editor tools read.
 """
 

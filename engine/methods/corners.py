@@ -6,7 +6,7 @@ over the worst temperature, toleranced references); offsets and bias currents ar
 share (named nets, and the rail a ratiometric net follows) take one value per walk: the chain is
 walked once per joint corner of them and the envelope kept (methods/joint.py); the source at both ends of
 each range and the AC part at +/- its peak over every band frequency. The signal between stages is
-carried as bounds (see propagation.py): exact for DC and flat-band stages, outside bounds
+carried as bounds (see walks/signal_bounds.py): exact for DC and flat-band stages, outside bounds
 otherwise (ECSS-Q-HB-30-01A, extreme value analysis).
 """
 
@@ -47,7 +47,7 @@ class Prepared:
     # stage -> how it meets the passive stage before it when that one feeds several stages
     # (walks/sibling_loads.py: the node loaded by the others)
     views: dict = field(default_factory=dict, compare=False, repr=False)
-    # what walks of this Prepared may keep for the next walk (stage_walk: node terms)
+    # what walks of this Prepared may keep for the next walk (walks/bounds_walk.py: node terms)
     memo: dict = field(default_factory=dict, compare=False, repr=False)
     # one Prepared per joint corner of the values stages share (named nets, the rails that
     # ratiometric nets follow: engine/circuit/nets.py); `run` walks each and takes the envelope

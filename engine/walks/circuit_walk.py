@@ -13,7 +13,7 @@ d = +/-1 at the ends of its tolerance:
 
 The signal stays the operating envelope (both ends of the source ranges, +/- the AC peak, every
 frequency evaluated), carried per row as Signal arrays (J, F) with no reduction over rows: for one
-circuit the bound formulas of propagation.py are exact. Offsets and bias enter as a signed shift.
+circuit the bound formulas of walks/signal_bounds.py are exact. Offsets and bias enter as a signed shift.
 A row whose stage leaves the linear regime passes its output clamped to its own window.
 
 What drives each stage is the row's own: the source impedance, a saturated stage's output
@@ -258,7 +258,7 @@ def shift_of(node, offsets: np.ndarray, bias: np.ndarray) -> np.ndarray | float:
 
 
 def start_signal(chain: Chain, freqs: np.ndarray, rows: int):
-    """The source per row, column-major and with one amplitude array (propagation.py, Speed)."""
+    """The source per row, column-major and with one amplitude array (walks/signal_bounds.py, Speed)."""
     source = chain.source
     if source.differential:
         return DifferentialSignal(source.level, source.difference, source.amplitude)
@@ -337,7 +337,7 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
             )
         if parent in pending:
             if shows_input_of(layout.plans, {parent: before, k: response}, parent, k):
-                # the passive stage before shows this stage's input terminal (stage_walk)
+                # the passive stage before shows this stage's input terminal (bounds_walk)
                 results[parent] = shown_input(layout, k, response, v, D, dT, fed, results[parent])
             else:  # or its output loaded by this stage's conductance
                 _, passive, passive_values, passive_fed = pending[parent]
@@ -407,7 +407,7 @@ def per_row(grid: np.ndarray, rows: int) -> np.ndarray:
     """A (F+1,) grid over s as a column-major (rows, F+1) array when the rows outnumber the
     frequencies: every (J, 1) x (J, F+1) product in the blocks then comes out column-major too
     (numpy keeps the memory order of the full-size operand), so its inner loops run over the
-    rows (propagation.py, Speed). The values are the grid's, repeated; answers do not change."""
+    rows (walks/signal_bounds.py, Speed). The values are the grid's, repeated; answers do not change."""
     if rows <= len(grid):
         return grid
     return np.asfortranarray(np.broadcast_to(grid, (rows, len(grid))))
@@ -482,7 +482,7 @@ def band_min(x: np.ndarray) -> np.ndarray:
 
 
 def bounds_of(node, v, signal, offsets, bias, known: dict):
-    """The node's per-row bounds, found once per stage (`known`: see stage_walk.bounds_once)."""
+    """The node's per-row bounds, found once per stage (`known`: see bounds_walk.bounds_once)."""
     if id(node) not in known:
         known[id(node)] = (node, node_bounds(node, v, signal, 0.0, shift_of(node, offsets, bias)))
     return known[id(node)][1]
@@ -521,7 +521,7 @@ def opamp_draws(
     known: dict,
     keeping=False,
 ):
-    """One op amp's margins per row (the per-row twin of stage_walk.opamp_measure)."""
+    """One op amp's margins per row (the per-row twin of bounds_walk.opamp_measure)."""
     out = bounds_of(amp.output, v, signal, offsets, bias, known)
     plus = bounds_of(amp.plus, v, signal, offsets, bias, known)
     current = bounds_of(amp.current, v, signal, offsets, bias, known)
@@ -649,7 +649,7 @@ def clamp_rows(signal: Signal, window, rows: np.ndarray, slope=None) -> Signal:
         np.where(pick, np.minimum(signal.amp_hi, half), signal.amp_hi)
         if signal.amp_lo is not signal.amp_hi
         else amp_lo
-    )  # one stays one (propagation.py)
+    )  # one stays one (walks/signal_bounds.py)
     kept = signal.slope
     if slope is not None:
         before = np.full(rows.shape, np.nan) if kept is None else kept
@@ -751,7 +751,7 @@ def saturated_draws(layout: Layout, k: int, v, D, signal, dT=None, drive=0.0):
         linear &= margins[check] >= 0
     top = np.where(reach_high, high, low)
     bottom = np.where(reach_low, low, high)
-    zero = np.zeros((rows, len(layout.freqs)), order="F")  # column-major: propagation.py, Speed
+    zero = np.zeros((rows, len(layout.freqs)), order="F")  # column-major: walks/signal_bounds.py, Speed
     spans = {
         "out-low": bottom,
         "out-high": top,

@@ -8,7 +8,7 @@ stage meets itself). Per corner row and Laplace point (DC first):
     from the source   |H_1 H_2 ... H_k|, row by row where a stage's corners pair with the passive
                       stage's before it (corners.stage_values), else the extremes multiplied
 
-A passive stage followed by a stage that knows its input terminal (stage_walk.shows_input) is
+A passive stage followed by a stage that knows its input terminal (bounds_walk.shows_input_of) is
 quoted with that stage's input on it, the voltage the stage shows: its gain is |H_k T| and the
 next stage's |H_{k+1} / T|, T the terminal per volt of the Thevenin voltage, so the product is
 unchanged. Magnitudes multiply, so the extremes of a product of independent factors are the
@@ -38,7 +38,7 @@ def _magnitude(node, rows: int, width: int, differential: bool) -> np.ndarray:
 
 
 def _tiled(x: np.ndarray, rows: int) -> np.ndarray:
-    """A passive stage's rows handed to the stage after it (stage_walk.paired)."""
+    """A passive stage's rows handed to the stage after it (bounds_walk.paired)."""
     reps = rows // x.shape[0]
     return np.broadcast_to(x, (reps, *x.shape)).reshape(rows, x.shape[-1])
 

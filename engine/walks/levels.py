@@ -1,6 +1,6 @@
 """Worst-case output span of every stage at every band frequency (for the level picture).
 
-The corners walk (stage_walk.walk_chain) keeps per-frequency bounds only long enough to pass them
+The corners walk (bounds_walk.walk_chain) keeps per-frequency bounds only long enough to pass them
 to the next stage; `frequency_levels` asks that same walk to keep each linear stage's bounds and
 reads its lowest and highest output at each band frequency. Its overall extremes
 are the stage's output span of the corners method (a test holds them equal). A stage's own gain

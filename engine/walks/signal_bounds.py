@@ -19,7 +19,7 @@ add exactly: max of a sum of independent terms is the sum of their maxima.
 Per Monte Carlo draw the state is one circuit, and the same formulas are exact.
 
 Speed (the formulas are unchanged): per-draw arrays (J, F) come in column-major order, one
-contiguous column per band frequency (draw_walk.start_signal). With thousands of draws and a few
+contiguous column per band frequency (circuit_walk.start_signal). With thousands of draws and a few
 frequencies numpy then runs its inner loops over the draws instead of over the F frequencies of
 each row, which is 3-4 times faster for the (J, 1) x (J, F) products here; elementwise results do
 not depend on the memory order. A source whose amplitude bounds are one array (amp_lo is amp_hi)

@@ -10,7 +10,7 @@ every combination of source, reference, offset and bias ends (an explicit table 
 For one resistor corner the AC sign and frequency add  +/- a max_f |T_in(f)|  to every DC corner.
 
 Extreme value analysis (ECSS-Q-HB-30-01A): the engine's span must equal the brute force where
-propagation.py's docstring says it is exact (DC alone, or stages passing DC and AC alike) and must
+walks/signal_bounds.py's docstring says it is exact (DC alone, or stages passing DC and AC alike) and must
 contain it everywhere; random samples inside the tolerance box must never fall outside it.
 """
 
@@ -293,7 +293,7 @@ def test_corner_spans_equal_every_joint_corner(case, exact_part, seed):
     assume(r_bits <= 8 and m_bits <= 12)
     # a toleranced divider into the next stage is exact too: the next stage's corners are
     # enumerated jointly with the divider's (each with its own ratio and output resistance)
-    assume(exact_part or amplitude == 0)  # where propagation.py says it is exact
+    assume(exact_part or amplitude == 0)  # where walks/signal_bounds.py says it is exact
     op = part(exact_part, offset, bias)
     text = chain_text(specs, level, amplitude, band, impedance)
     spans, freqs = engine_spans(text, op)

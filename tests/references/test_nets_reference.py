@@ -3,7 +3,7 @@ imports nothing of railroom): a net is ONE source shared by every stage that nam
 
 The chain: an inverting stage about the fixed net `mid`, a non-inverting stage whose rg returns
 to the ratiometric net `half` (0.5 of the rail), and a summer with a fixed input from `mid`. At
-DC the engine's corners are exact (propagation.py), so each stage's span must equal the
+DC the engine's corners are exact (walks/signal_bounds.py), so each stage's span must equal the
 extremes of the netlist over every joint corner: each toleranced resistor, the source level,
 mid's two ends, half's fraction and its rail at both ends, each net the same in every stage.
 """
@@ -129,7 +129,7 @@ def test_corners_with_shared_nets_equal_the_netlist_over_every_joint_corner():
 
 
 def test_each_drawn_circuit_reads_one_value_per_net_like_the_netlist():
-    # rss and Monte Carlo walk drawn circuits (draw_walk): each net and the rail it follows is
+    # rss and Monte Carlo walk drawn circuits (circuit_walk): each net and the rail it follows is
     # one column, so a row set at the joint corners is the netlist's circuit there
     import numpy as np
 
