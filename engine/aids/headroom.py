@@ -47,7 +47,8 @@ def headroom_db(prepared: corners.Prepared, at_full_scale=None) -> float | None:
 
     The least linear margin falls almost linearly with the amplitude, so a false-position search
     on the amplitude (Illinois variant; Dahlquist & Bjorck, Numerical Methods, 6.2) brackets the
-    edge in a handful of passes; a final step keeps the answer on the linear side, to 0.01 dB."""
+    edge in a handful of passes; a final step keeps the answer on the linear side, to 0.01 dB, and the figure is rounded down
+    to the 0.01 dB below, so the amplitude it names is itself linear."""
     if prepared.chain.source.amplitude <= 0:
         return None
     if all(plan.block.saturates or plan.block.window_only for plan in prepared.plans):
@@ -87,4 +88,6 @@ def headroom_db(prepared: corners.Prepared, at_full_scale=None) -> float | None:
             side = -1
     if low <= 0:
         return -HEADROOM_LIMIT_DB
-    return round(float(20 * np.log10(low)), 2)
+    # down to the 0.01 dB below, not to the nearest: a rounded-up figure could sit past the edge
+    # (the 1e-9 keeps a figure already on the 0.01 dB grid, such as 6.02, where it is)
+    return float(np.floor(20 * np.log10(low) * 100 + 1e-9) / 100)

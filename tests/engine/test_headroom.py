@@ -87,3 +87,17 @@ def test_headroom_agrees_with_plain_bisection(path):
         middle = (low + high) / 2
         low, high = (middle, high) if linear(middle) else (low, middle)
     assert headroom_db(prepared) == pytest.approx(low, abs=0.011)
+
+
+@pytest.mark.parametrize(
+    "text", [chain("90k", "100m"), chain("90k", "2"), chain("40k2", "330m"), chain("90k", "0.987")]
+)
+def test_the_quoted_headroom_is_itself_linear(text):
+    # never optimistic: the amplitude the figure names (the file's times 10^(dB/20)) keeps every
+    # stage linear; a figure rounded to the nearest 0.01 dB could name one just past the edge
+    loaded = chain_from_text(text)
+    result = analyse(loaded, {"p": PART})
+    plans = plan_chain(loaded, {"p": PART})
+    prepared = corners.prepare(loaded, plans, band_grid(loaded, plans))
+    at = corners.walk(prepared, 10 ** (result.headroom_db / 20))
+    assert all(r.regime == "linear" for r in at)
