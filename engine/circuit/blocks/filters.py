@@ -34,7 +34,15 @@ from railroom.engine.circuit.blocks.base import (
     plus_node,
 )
 from railroom.engine.circuit.blocks.gain import virtual_earth_load
-from railroom.engine.circuit.opamp import TWO_PI, Loop, solve_loop
+from railroom.engine.circuit.opamp import (
+    TWO_PI,
+    Loop,
+    mixed_add as add,
+    mixed_div as div,
+    mixed_mul as mul,
+    mixed_sub as sub,
+    solve_loop,
+)
 
 
 def peak_frequencies(w0: np.ndarray, q: np.ndarray, kind: str) -> np.ndarray:
@@ -130,27 +138,32 @@ def sallen_key(y_in, y_plus, y_out, y_ground, ground: str | None, v, inverse_gai
     Node A: V_A Y = V_in y_in + V+ y_plus + V_out y_out,        Y = y_in + y_plus + y_out
     so V+ D = y_plus y_in V_in + y_plus y_out V_out + y_ground Y V_g,  D = (y_plus + y_ground) Y - y_plus^2
     """
-    total = y_in + y_plus + y_out
-    det = (y_plus + y_ground) * total - y_plus * y_plus
-    a_plus = {"in": y_plus * y_in / det}
+    # every product below is numpy's own, operand for operand: a real (J, 1) operand meeting
+    # a complex one is cast first, as numpy would (opamp.lifted), which only saves time
+    total = add(add(y_in, y_plus), y_out)
+    det = sub(mul(add(y_plus, y_ground), total), mul(y_plus, y_plus))
+    a_plus = {"in": div(mul(y_plus, y_in), det)}
     if ground is not None:
-        a_plus[ground] = y_ground * total / det
+        a_plus[ground] = div(mul(y_ground, total), det)
     minus, divider, divider_return = gain_network(v)
-    z_plus = (total / det)[:, :1].real  # resistance the + input sees at DC
+    # resistance the + input sees at DC: the DC column alone divided (elementwise, the same bits)
+    z_plus = div(total[:, :1], det[:, :1]).real
     loop = Loop(
         beta=minus.beta,
         a_minus=minus.a_minus,
         a_plus=a_plus,
-        gamma=y_plus * y_out / det,
+        gamma=div(mul(y_plus, y_out), det),
         z_minus=minus.z_minus,
         z_plus=z_plus,
     )
     solution = solve_loop(loop, inverse_gain)
     output = opamp_node(solution, solution.output, 0, 1)
     plus = plus_node(solution, 0, 1)
-    node_a = combined([(y_plus / total, plus), (y_out / total, output)], extra={"in": y_in / total})
+    node_a = combined(
+        [(div(y_plus, total), plus), (div(y_out, total), output)], extra={"in": div(y_in, total)}
+    )
     current = combined(
-        [(load_conductance(v) + y_out + divider, output), (-y_out, node_a)],
+        [(add(add(load_conductance(v), y_out), divider), output), (-y_out, node_a)],
         extra={**divider_return, **load_return(v, -1.0)},
     )
     amp = OpAmpNodes("amplifier", output, plus, current)
@@ -179,7 +192,13 @@ class SallenKeyLowpass(Block):
 
     def respond(self, v, s, inverse_gain, drive, differential):
         response = sallen_key(
-            1.0 / (v["r1"] + drive), 1.0 / v["r2"], s * v["c1"], s * v["c2"], None, v, inverse_gain
+            div(1.0, add(v["r1"], drive)),
+            1.0 / v["r2"],
+            mul(s, v["c1"]),
+            mul(s, v["c2"]),
+            None,
+            v,
+            inverse_gain,
         )
         # the input current (Vin - V_A)/r1, at most max |1 - T_A| Vin / r1 (through_r1); node A
         # follows the signal (through c1 to the output): no fixed return (InputLoad.follows)
@@ -278,24 +297,26 @@ def multiple_feedback(y_in, y_out, y_ref, y_minus, y_feedback, v, inverse_gain) 
     so V- D = y_minus (y_in V_in + y_ref V_ref) + (y_minus y_out + y_feedback Y) V_out,
     D = (y_minus + y_feedback) Y - y_minus^2; the - input sees Y / D (its Thevenin impedance).
     """
-    total = y_in + y_out + y_ref + y_minus
-    det = (y_minus + y_feedback) * total - y_minus * y_minus
+    # numpy's own products operand for operand, a real operand cast first (see sallen_key)
+    total = add(add(add(y_in, y_out), y_ref), y_minus)
+    det = sub(mul(add(y_minus, y_feedback), total), mul(y_minus, y_minus))
     one = np.ones((1, 1))
     loop = Loop(
-        beta=(y_minus * y_out + y_feedback * total) / det,
-        a_minus={"in": y_minus * y_in / det, "ref": y_minus * y_ref / det},
+        beta=div(add(mul(y_minus, y_out), mul(y_feedback, total)), det),
+        a_minus={"in": div(mul(y_minus, y_in), det), "ref": div(mul(y_minus, y_ref), det)},
         a_plus={"ref": one},
-        z_minus=(total / det)[:, :1].real,
+        z_minus=div(total[:, :1], det[:, :1]).real,  # the DC column alone (elementwise: the same)
     )
     solution = solve_loop(loop, inverse_gain)
     output = opamp_node(solution, solution.output, 0, 1)
     plus = plus_node(solution, 0, 1)
     minus = combined([(loop.beta, output)], extra=loop.a_minus)
     node_a = combined(
-        [(y_out / total, output), (y_minus / total, minus)], extra={"in": y_in / total, "ref": y_ref / total}
+        [(div(y_out, total), output), (div(y_minus, total), minus)],
+        extra={"in": div(y_in, total), "ref": div(y_ref, total)},
     )
     current = combined(
-        [(load_conductance(v) + y_out + y_feedback, output), (-y_out, node_a), (-y_feedback, minus)],
+        [(add(add(load_conductance(v), y_out), y_feedback), output), (-y_out, node_a), (-y_feedback, minus)],
         extra=load_return(v, -1.0),
     )
     amp = OpAmpNodes("amplifier", output, plus, current)
@@ -342,11 +363,11 @@ class MfbLowpass(Block):
     def respond(self, v, s, inverse_gain, drive, differential):
         response = mfb_response(
             multiple_feedback(
-                1.0 / (v["r1"] + drive),
+                div(1.0, add(v["r1"], drive)),
                 1.0 / v["r2"],
-                s * v["c1"],
+                mul(s, v["c1"]),
                 1.0 / v["r3"],
-                s * v["c2"],
+                mul(s, v["c2"]),
                 v,
                 inverse_gain,
             ),
@@ -383,10 +404,10 @@ class MfbBandpass(Block):
     def respond(self, v, s, inverse_gain, drive, differential):
         return mfb_response(
             multiple_feedback(
-                1.0 / (v["r1"] + drive),
-                s * v["c2"],
+                div(1.0, add(v["r1"], drive)),
+                mul(s, v["c2"]),
                 1.0 / v["r3"],
-                s * v["c1"],
+                mul(s, v["c1"]),
                 1.0 / v["r2"],
                 v,
                 inverse_gain,
