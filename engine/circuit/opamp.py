@@ -32,9 +32,15 @@ def lifted(x, other):
     multiply or divide, so the answer is bit for bit the same; cast once here, the small (J, 1)
     operand is not cast again in the ufunc's buffered inner loop, which ran such (J, 1) x (J, F+1)
     products about twice as slowly as two complex operands (a 10 000-row Monte Carlo chunk)."""
-    if isinstance(x, np.ndarray) and x.dtype == np.float64 and np.iscomplexobj(other):
-        return x.astype(np.complex128)
+    if type(x) is np.ndarray and x.dtype is _FLOAT and getattr(other, "dtype", None) is _COMPLEX:
+        return x.astype(_COMPLEX)
     return x
+
+
+# numpy's native float64 and complex128 dtypes are singletons: compared by identity, cheaply (an
+# array of another byte order is simply not lifted, and numpy casts it itself)
+_FLOAT = np.dtype(np.float64)
+_COMPLEX = np.dtype(np.complex128)
 
 
 def mixed_add(a, b):
@@ -96,16 +102,24 @@ class LoopSolution:
     plus_bias_minus_gain: np.ndarray
 
 
+def loop_denominator(loop: Loop, inverse_gain: np.ndarray) -> np.ndarray:
+    """1/A + beta - gamma (the module docstring), as solve_loop forms it."""
+    denominator = inverse_gain + lifted(loop.beta, inverse_gain)
+    return denominator - lifted(loop.gamma, denominator)
+
+
+def loop_output(loop: Loop, denominator: np.ndarray, source: str) -> np.ndarray:
+    """Vout per volt of `source`, as solve_loop forms it: (a_plus - a_minus) / denominator."""
+    numerator = loop.a_plus.get(source, 0.0) - loop.a_minus.get(source, 0.0)
+    return lifted(numerator, denominator) / denominator
+
+
 def solve_loop(loop: Loop, inverse_gain: np.ndarray) -> LoopSolution:
     """Close the loop with the finite open-loop gain (see the module docstring)."""
-    denominator = inverse_gain + lifted(loop.beta, inverse_gain)
-    denominator = denominator - lifted(loop.gamma, denominator)
+    denominator = loop_denominator(loop, inverse_gain)
     # sorted: the transfers are summed in this order, so it must not follow the hash seed
     sources = sorted(set(loop.a_plus) | set(loop.a_minus))
-    output = {
-        k: lifted(loop.a_plus.get(k, 0.0) - loop.a_minus.get(k, 0.0), denominator) / denominator
-        for k in sources
-    }
+    output = {k: loop_output(loop, denominator, k) for k in sources}
     plus = {}
     for k in sources:
         swing = loop.gamma * output[k]
