@@ -16,7 +16,7 @@ from collections.abc import Callable, Mapping
 
 import numpy as np
 
-from railroom.engine.circuit.opamp import LoopSolution
+from railroom.engine.circuit.opamp import LoopSolution, lifted
 
 if TYPE_CHECKING:  # comparator.py imports this module
     from railroom.engine.circuit.blocks.comparator import Switching
@@ -170,9 +170,10 @@ def plus_node(solution: LoopSolution, index: int, count: int) -> Node:
 def scaled(node: Node, factor: np.ndarray | float, extra: Transfers | None = None) -> Node:
     """factor * node (+ extra transfers), keeping the error gains consistent."""
     factor = np.asarray(factor)
-    transfers = {k: factor * t for k, t in node.transfers.items()}
+    transfers = {k: lifted(factor, t) * lifted(t, factor) for k, t in node.transfers.items()}
     for k, t in (extra or {}).items():
-        transfers[k] = transfers.get(k, 0.0) + t
+        before = transfers.get(k, 0.0)
+        transfers[k] = lifted(before, t) + lifted(t, before)
     dc = np.abs(np.atleast_2d(factor)[..., 0].real)[:, None] if factor.ndim else abs(float(factor))
     offset = None if node.offset_gain is None else node.offset_gain * dc
     bias = None if node.bias_gain is None else node.bias_gain * dc
@@ -249,12 +250,14 @@ def combined(terms: list[tuple[np.ndarray | float, Node]], extra: Transfers | No
     for factor, node in terms:
         factor = np.asarray(factor)
         for k, t in node.transfers.items():
-            transfers[k] = transfers.get(k, 0.0) + factor * t
+            term = lifted(factor, t) * lifted(t, factor)
+            transfers[k] = lifted(transfers.get(k, 0.0), term) + term
         if node.offset_gain is None:
             continue
         dc = np.atleast_2d(factor)[..., :1].real if factor.ndim else float(factor.real)
         offset = (0.0 if offset is None else offset) + dc * node.offset_gain
         bias = (0.0 if bias is None else bias) + np.abs(dc) * node.bias_gain
     for k, t in (extra or {}).items():
-        transfers[k] = transfers.get(k, 0.0) + t
+        before = transfers.get(k, 0.0)
+        transfers[k] = lifted(before, t) + lifted(t, before)
     return Node(transfers=transfers, offset_gain=offset, bias_gain=bias)

@@ -34,7 +34,17 @@ from railroom.engine.circuit.blocks.base import (
     plus_node,
 )
 from railroom.engine.circuit.blocks.gain import virtual_earth_load
-from railroom.engine.circuit.opamp import TWO_PI, Loop, solve_loop
+from railroom.engine.circuit.opamp import (
+    TWO_PI,
+    Loop,
+    mixed_add as add,
+    mixed_div as div,
+    mixed_mul as mul,
+    mixed_sub as sub,
+    loop_denominator,
+    loop_output,
+    solve_loop,
+)
 
 
 def peak_frequencies(w0: np.ndarray, q: np.ndarray, kind: str) -> np.ndarray:
@@ -83,8 +93,8 @@ def real_peaks(block: Block, v: Mapping[str, np.ndarray], part, ideal: np.ndarra
     for _ in range(3):
         logs = centre[:, None] + half * steps[None, :]
         s = 1j * TWO_PI * np.hstack((np.zeros((rows.size, 1)), np.exp(logs)))
-        out = block.respond(sub, s, inverse_open_loop(part, s), 0.0, False).output
-        mag = np.abs(np.broadcast_to(out.transfers["in"], s.shape)[:, 1:])
+        transfer = output_transfer(block, sub, s, inverse_open_loop(part, s))
+        mag = np.abs(np.broadcast_to(transfer, s.shape)[:, 1:])
         best = np.clip(np.argmax(mag, axis=1), 1, len(steps) - 2)
         pick = np.arange(rows.size)
         y0, y1, y2 = (mag[pick, best + d] for d in (-1, 0, 1))
@@ -94,6 +104,22 @@ def real_peaks(block: Block, v: Mapping[str, np.ndarray], part, ideal: np.ndarra
         centre = logs[pick, best] + np.clip(offset, -1.0, 1.0) * step
         half = 2 * step
     return np.exp(centre)
+
+
+def output_transfer(block: Block, v, s, inverse_gain) -> np.ndarray:
+    """respond(v, s, inverse_gain, 0.0, False).output.transfers["in"] of a second-order block,
+    bit for bit, with no other node built: the loop the block's respond closes, its "in" output
+    as solve_loop forms it (opamp.loop_output). real_peaks needs only this (three rounds per
+    filter stage in every band grid); other blocks are asked for their whole response."""
+    admittances = getattr(block, "admittances", None)
+    if admittances is None:
+        return block.respond(v, s, inverse_gain, 0.0, False).output.transfers["in"]
+    first, second, third, fourth, fifth = admittances(v, s, 0.0)
+    if isinstance(block, SALLEN_KEY):
+        loop = sallen_key_loop(first, second, third, fourth, fifth, v)[0]
+    else:
+        loop = mfb_loop(first, second, third, fourth, fifth)[0]
+    return loop_output(loop, loop_denominator(loop, inverse_gain), "in")
 
 
 # --- Sallen-Key -------------------------------------------------------------------------------
@@ -123,6 +149,30 @@ def gain_network(v: Mapping[str, np.ndarray]) -> tuple[Loop, np.ndarray, dict]:
     return loop, 1.0 / total, {"ref": -1.0 / total}
 
 
+def sallen_key_loop(y_in, y_plus, y_out, y_ground, ground: str | None, v):
+    """The Sallen-Key loop (sallen_key's node equations), Y = total, and the gain network's
+    conductance from the output and its returns. Every product is numpy's own, operand for
+    operand: a real (J, 1) operand meeting a complex one is cast first, as numpy would
+    (opamp.lifted), which only saves time."""
+    total = add(add(y_in, y_plus), y_out)
+    det = sub(mul(add(y_plus, y_ground), total), mul(y_plus, y_plus))
+    a_plus = {"in": div(mul(y_plus, y_in), det)}
+    if ground is not None:
+        a_plus[ground] = div(mul(y_ground, total), det)
+    minus, divider, divider_return = gain_network(v)
+    # resistance the + input sees at DC: the DC column alone divided (elementwise, the same bits)
+    z_plus = div(total[:, :1], det[:, :1]).real
+    loop = Loop(
+        beta=minus.beta,
+        a_minus=minus.a_minus,
+        a_plus=a_plus,
+        gamma=div(mul(y_plus, y_out), det),
+        z_minus=minus.z_minus,
+        z_plus=z_plus,
+    )
+    return loop, total, divider, divider_return
+
+
 def sallen_key(y_in, y_plus, y_out, y_ground, ground: str | None, v, inverse_gain) -> BlockResponse:
     """in -y_in- A -y_plus- (+) -y_ground- `ground`, and A -y_out- output.
 
@@ -130,27 +180,15 @@ def sallen_key(y_in, y_plus, y_out, y_ground, ground: str | None, v, inverse_gai
     Node A: V_A Y = V_in y_in + V+ y_plus + V_out y_out,        Y = y_in + y_plus + y_out
     so V+ D = y_plus y_in V_in + y_plus y_out V_out + y_ground Y V_g,  D = (y_plus + y_ground) Y - y_plus^2
     """
-    total = y_in + y_plus + y_out
-    det = (y_plus + y_ground) * total - y_plus * y_plus
-    a_plus = {"in": y_plus * y_in / det}
-    if ground is not None:
-        a_plus[ground] = y_ground * total / det
-    minus, divider, divider_return = gain_network(v)
-    z_plus = (total / det)[:, :1].real  # resistance the + input sees at DC
-    loop = Loop(
-        beta=minus.beta,
-        a_minus=minus.a_minus,
-        a_plus=a_plus,
-        gamma=y_plus * y_out / det,
-        z_minus=minus.z_minus,
-        z_plus=z_plus,
-    )
+    loop, total, divider, divider_return = sallen_key_loop(y_in, y_plus, y_out, y_ground, ground, v)
     solution = solve_loop(loop, inverse_gain)
     output = opamp_node(solution, solution.output, 0, 1)
     plus = plus_node(solution, 0, 1)
-    node_a = combined([(y_plus / total, plus), (y_out / total, output)], extra={"in": y_in / total})
+    node_a = combined(
+        [(div(y_plus, total), plus), (div(y_out, total), output)], extra={"in": div(y_in, total)}
+    )
     current = combined(
-        [(load_conductance(v) + y_out + divider, output), (-y_out, node_a)],
+        [(add(add(load_conductance(v), y_out), divider), output), (-y_out, node_a)],
         extra={**divider_return, **load_return(v, -1.0)},
     )
     amp = OpAmpNodes("amplifier", output, plus, current)
@@ -177,10 +215,13 @@ class SallenKeyLowpass(Block):
         **SALLEN_KEY_FEEDBACK,
     }
 
+    @staticmethod
+    def admittances(v, s, drive) -> tuple:
+        """sallen_key's y_in, y_plus, y_out, y_ground and ground for these values."""
+        return div(1.0, add(v["r1"], drive)), 1.0 / v["r2"], mul(s, v["c1"]), mul(s, v["c2"]), None
+
     def respond(self, v, s, inverse_gain, drive, differential):
-        response = sallen_key(
-            1.0 / (v["r1"] + drive), 1.0 / v["r2"], s * v["c1"], s * v["c2"], None, v, inverse_gain
-        )
+        response = sallen_key(*self.admittances(v, s, drive), v, inverse_gain)
         # the input current (Vin - V_A)/r1, at most max |1 - T_A| Vin / r1 (through_r1); node A
         # follows the signal (through c1 to the output): no fixed return (InputLoad.follows)
         load = InputLoad(conductance=through_r1(v["r1"], response.inner["node A"]), follows=True)
@@ -222,10 +263,14 @@ class SallenKeyHighpass(Block):
         "ref": FieldSpec("voltage", required=False, default=0.0, help="where r2 and rg return, V"),
     }
 
+    @staticmethod
+    def admittances(v, s, drive) -> tuple:
+        """sallen_key's y_in, y_plus, y_out, y_ground and ground for these values."""
+        y_in = s * v["c1"] / (1.0 + s * v["c1"] * drive)  # c1 in series with the driving resistance
+        return y_in, s * v["c2"], 1.0 / v["r1"], 1.0 / v["r2"], "ref"
+
     def respond(self, v, s, inverse_gain, drive, differential):
-        # c1 in series with the driving resistance
-        y_in = s * v["c1"] / (1.0 + s * v["c1"] * drive)
-        response = sallen_key(y_in, s * v["c2"], 1.0 / v["r1"], 1.0 / v["r2"], "ref", v, inverse_gain)
+        response = sallen_key(*self.admittances(v, s, drive), v, inverse_gain)
         # above f0 the input sees r2 to ref through the capacitors; near f0 r1 as well
         ref = np.atleast_1d(v.get("ref", np.zeros(1)))
         load = InputLoad(
@@ -270,6 +315,20 @@ def mfb_fields(r2: str, r3: str, c1: str, c2: str) -> dict[str, FieldSpec]:
     }
 
 
+def mfb_loop(y_in, y_out, y_ref, y_minus, y_feedback) -> tuple[Loop, np.ndarray]:
+    """The multiple-feedback loop (multiple_feedback's node equations) and Y = total; numpy's
+    own products operand for operand, a real operand cast first (see sallen_key_loop)."""
+    total = add(add(add(y_in, y_out), y_ref), y_minus)
+    det = sub(mul(add(y_minus, y_feedback), total), mul(y_minus, y_minus))
+    loop = Loop(
+        beta=div(add(mul(y_minus, y_out), mul(y_feedback, total)), det),
+        a_minus={"in": div(mul(y_minus, y_in), det), "ref": div(mul(y_minus, y_ref), det)},
+        a_plus={"ref": np.ones((1, 1))},
+        z_minus=div(total[:, :1], det[:, :1]).real,  # the DC column alone (elementwise: the same)
+    )
+    return loop, total
+
+
 def multiple_feedback(y_in, y_out, y_ref, y_minus, y_feedback, v, inverse_gain) -> BlockResponse:
     """in -y_in- A; A -y_out- output; A -y_ref- ref; A -y_minus- (-); (-) -y_feedback- output.
 
@@ -278,24 +337,17 @@ def multiple_feedback(y_in, y_out, y_ref, y_minus, y_feedback, v, inverse_gain) 
     so V- D = y_minus (y_in V_in + y_ref V_ref) + (y_minus y_out + y_feedback Y) V_out,
     D = (y_minus + y_feedback) Y - y_minus^2; the - input sees Y / D (its Thevenin impedance).
     """
-    total = y_in + y_out + y_ref + y_minus
-    det = (y_minus + y_feedback) * total - y_minus * y_minus
-    one = np.ones((1, 1))
-    loop = Loop(
-        beta=(y_minus * y_out + y_feedback * total) / det,
-        a_minus={"in": y_minus * y_in / det, "ref": y_minus * y_ref / det},
-        a_plus={"ref": one},
-        z_minus=(total / det)[:, :1].real,
-    )
+    loop, total = mfb_loop(y_in, y_out, y_ref, y_minus, y_feedback)
     solution = solve_loop(loop, inverse_gain)
     output = opamp_node(solution, solution.output, 0, 1)
     plus = plus_node(solution, 0, 1)
     minus = combined([(loop.beta, output)], extra=loop.a_minus)
     node_a = combined(
-        [(y_out / total, output), (y_minus / total, minus)], extra={"in": y_in / total, "ref": y_ref / total}
+        [(div(y_out, total), output), (div(y_minus, total), minus)],
+        extra={"in": div(y_in, total), "ref": div(y_ref, total)},
     )
     current = combined(
-        [(load_conductance(v) + y_out + y_feedback, output), (-y_out, node_a), (-y_feedback, minus)],
+        [(add(add(load_conductance(v), y_out), y_feedback), output), (-y_out, node_a), (-y_feedback, minus)],
         extra=load_return(v, -1.0),
     )
     amp = OpAmpNodes("amplifier", output, plus, current)
@@ -339,20 +391,13 @@ class MfbLowpass(Block):
         r2="node A to the output", r3="node A to the - input", c1="node A to ref", c2="output to the - input"
     )
 
+    @staticmethod
+    def admittances(v, s, drive) -> tuple:
+        """multiple_feedback's y_in, y_out, y_ref, y_minus and y_feedback for these values."""
+        return div(1.0, add(v["r1"], drive)), 1.0 / v["r2"], mul(s, v["c1"]), 1.0 / v["r3"], mul(s, v["c2"])
+
     def respond(self, v, s, inverse_gain, drive, differential):
-        response = mfb_response(
-            multiple_feedback(
-                1.0 / (v["r1"] + drive),
-                1.0 / v["r2"],
-                s * v["c1"],
-                1.0 / v["r3"],
-                s * v["c2"],
-                v,
-                inverse_gain,
-            ),
-            v,
-            drive,
-        )
+        response = mfb_response(multiple_feedback(*self.admittances(v, s, drive), v, inverse_gain), v, drive)
         # the - pin's bias current flows from node A through r3: A sits Ib r3 off the - pin
         return replace(response, input_load=replace(response.input_load, shift=float(np.max(v["r3"]))))
 
@@ -380,20 +425,13 @@ class MfbBandpass(Block):
         r2="- input to the output", r3="node A to ref", c1="node A to the - input", c2="node A to the output"
     )
 
+    @staticmethod
+    def admittances(v, s, drive) -> tuple:
+        """multiple_feedback's y_in, y_out, y_ref, y_minus and y_feedback for these values."""
+        return div(1.0, add(v["r1"], drive)), mul(s, v["c2"]), 1.0 / v["r3"], mul(s, v["c1"]), 1.0 / v["r2"]
+
     def respond(self, v, s, inverse_gain, drive, differential):
-        return mfb_response(
-            multiple_feedback(
-                1.0 / (v["r1"] + drive),
-                s * v["c2"],
-                1.0 / v["r3"],
-                s * v["c1"],
-                1.0 / v["r2"],
-                v,
-                inverse_gain,
-            ),
-            v,
-            drive,
-        )
+        return mfb_response(multiple_feedback(*self.admittances(v, s, drive), v, inverse_gain), v, drive)
 
     def critical_frequencies(self, v):
         r1, r2, r3, c1, c2 = v["r1"], v["r2"], v["r3"], v["c1"], v["c2"]
@@ -405,3 +443,6 @@ class MfbBandpass(Block):
         r1, r2, r3, c1, c2 = v["r1"], v["r2"], v["r3"], v["c1"], v["c2"]
         w0 = np.sqrt((1.0 / r1 + 1.0 / r3) / (r2 * c1 * c2))
         return real_peaks(self, v, part, row_peaks(w0, np.ones_like(w0), "bandpass"))
+
+
+SALLEN_KEY = (SallenKeyLowpass, SallenKeyHighpass)  # output_transfer closes these with sallen_key_loop
