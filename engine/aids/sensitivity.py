@@ -117,7 +117,7 @@ def plain_linearised(layout: dw.Layout, decisive: bool = False) -> Linearised:
         D[rows], D[rows + 1] = 1.0, -1.0
     rise = layout.chain.conditions.worst_temperature_rise
     record: list | None = [] if extra else None
-    walked = dw.walk_draws(layout, D, np.full(rows + extra, rise), record)
+    walked = dw.walk_draws(dw.signed_rows(layout), D, np.full(rows + extra, rise), record)
     freqs = layout.freqs if decisive else None
     if record:
         freqs = dw.decisive_from(layout, [np.ravel(r)[[0, rows, rows + 1]] for r in record])
@@ -343,7 +343,7 @@ def walk_linearised(
                 inverse[plan.part] = inverse_open_loop(plan.part, grid)
             ig = dw.per_row(inverse[plan.part], rows)
             response = plan.block.respond(v, s, ig, drive, k == 0 and layout.chain.source.differential)
-            draws, signal = dw.linear_draws(layout, k, response, v, D, dT, fed)
+            draws, signal = dw.linear_draws(dw.signed_rows(layout), k, response, v, D, dT, fed)
             drive = (
                 response.output_impedance
                 if response.output_impedance is not None
@@ -352,7 +352,8 @@ def walk_linearised(
         if pending is not None and raw:  # (the stage before `first` is not returned)
             passive, margins_rows, _ = raw[-1]
             if k > 0 and shows_input(layout.plans[k - 1 : k + 1], (before, response), 1):
-                raw[-1] = (dw.shown_input(layout, k, response, v, D, dT, fed, passive), margins_rows, here)
+                shown = dw.shown_input(dw.signed_rows(layout), k, response, v, D, dT, fed, passive)
+                raw[-1] = (shown, margins_rows, here)
             else:
                 raw[-1] = (dw.shown_loaded(layout, *pending, passive), margins_rows, margins_rows)
         pending = None

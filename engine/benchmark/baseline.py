@@ -17,8 +17,9 @@ circuit math is its own:
 - the worst-case signal is carried stage to stage as the README's Method section states it: per
   frequency the highest and lowest instantaneous value and the AC amplitude, through
   max out = c + e + |g| up + (|H| - |g|) a (min likewise), up = hi or -lo by the sign of the DC
-  gain g; the offset and the pins' bias currents enter as a signed shift, the bias currents with
-  the magnitude of each pin's gain (the pins' currents are not known to share a sign);
+  gain g; the offset enters as a signed shift, the bias currents as a width either way, the
+  magnitude of each pin's gain times the drawn |Ib| (the pins' currents are not known to share
+  a sign);
 - a stage whose checks fail passes its output held inside its own swing window;
 - the margins are the README's checks: output high / low headroom (grown by the part's output
   resistance times the current sourced / sunk), input common mode at the + pin, output current
@@ -205,16 +206,15 @@ def node_envelope(x: np.ndarray, signal: Envelope, vos: np.ndarray, ib: np.ndarr
     """One node's solution x (J, P, 5) driven by `signal` (module docstring)."""
     g = x[:, 0, SIGNAL].real[:, None]
     magnitude = np.abs(x[:, 1:, SIGNAL])
-    shift = (
-        x[:, 0, FIXED].real
-        + x[:, 0, OFFSET].real * vos
-        + (np.abs(x[:, 0, BIAS_PLUS].real) + np.abs(x[:, 0, BIAS_MINUS].real)) * ib
-    )[:, None]
+    shift = (x[:, 0, FIXED].real + x[:, 0, OFFSET].real * vos)[:, None]
+    width = ((np.abs(x[:, 0, BIAS_PLUS].real) + np.abs(x[:, 0, BIAS_MINUS].real)) * np.abs(ib))[:, None]
     gain = np.abs(g)
     up = np.where(g >= 0, signal.hi, -signal.lo)
     down = np.where(g >= 0, signal.lo, -signal.hi)
     spare = (magnitude - gain) * signal.amp
-    return Envelope(shift + gain * up + spare, shift + gain * down - spare, magnitude * signal.amp)
+    return Envelope(
+        shift + width + gain * up + spare, shift - width + gain * down - spare, magnitude * signal.amp
+    )
 
 
 def fed_load(chain, plans, k: int) -> tuple[float, tuple[float, float], bool]:
@@ -246,8 +246,10 @@ def fed_load(chain, plans, k: int) -> tuple[float, tuple[float, float], bool]:
 
 
 def pin_currents(chain, plans, k: int) -> float:
-    """The bias currents this output supplies besides: its own - pin and the next op amp's two."""
-    total = hot_bias(plans[k].part, chain.conditions)
+    """The bias currents this output supplies besides: the next op amp's two at their hottest
+    (its own - pin's drawn current is in the solve's branch current already, BIAS_MINUS:
+    counting it here too, at its hottest, took up to 2 Ib more than the circuit draws)."""
+    total = 0.0
     if k + 1 < len(plans) and plans[k + 1].part is not None:
         total += 2.0 * hot_bias(plans[k + 1].part, chain.conditions)
     return total

@@ -3,9 +3,9 @@
 A Python loop over draws; for each draw and stage a modified nodal analysis (MNA: node voltages
 plus the op amp's output current as unknowns) is solved at DC and at each band frequency, with
 the op amp as a voltage source V_out = A(s) (V+ + Vos - V-), A(s) single-pole (opamp.py), bias
-currents drawn out of the - pin and into the + node, and the fixed voltages (ref, level-shift
-inputs) as ideal sources. Three right-hand sides per solve: the chain signal at 1 V, the fixed
-sources at their values, and the op amp errors. The swing windows, the next stage's input load and
+currents at each pin apart (a width either way: |gain| |Ib|, as the draw walk takes them), and
+the fixed voltages (ref, level-shift inputs) as ideal sources. Five right-hand sides per solve:
+the chain signal at 1 V, the fixed sources at their values, the offset, and each pin's bias. The swing windows, the next stage's input load and
 the envelope bounds per circuit follow the README's JSON report as the engine reads it; the
 circuit solution is independent of the blocks' feedback formulas. It covers the blocks of the
 bench chain: follower, noninverting (with or without cg), inverting, summing, divider,
@@ -25,14 +25,15 @@ GROUND = "0"
 
 
 class Nodal:
-    """MNA over a batch of Laplace points: G (P, n, n) x = b (P, n, 3)."""
+    """MNA over a batch of Laplace points: G (P, n, n) x = b (P, n, 5): the signal, the fixed
+    sources, the offset, the bias current at the + pin and at the - pin (apart: a width)."""
 
     def __init__(self, nodes: list[str], s: np.ndarray, sources: int):
         self.index = {name: i for i, name in enumerate(nodes)}
         self.n = len(nodes) + sources
         self.s = s
         self.G = np.zeros((len(s), self.n, self.n), dtype=complex)
-        self.b = np.zeros((len(s), self.n, 3), dtype=complex)
+        self.b = np.zeros((len(s), self.n, 5), dtype=complex)
         self.branch = len(nodes)
 
     def admittance(self, a: str, b: str, y) -> None:
@@ -62,8 +63,8 @@ class Nodal:
         self.b[:, k, 2] = -offset
         return k
 
-    def inject(self, node: str, current: float) -> None:
-        self.b[:, self.index[node], 2] += current
+    def inject(self, node: str, current: float, column: int = 2) -> None:
+        self.b[:, self.index[node], column] += current
 
     def solve(self) -> np.ndarray:
         return np.linalg.solve(self.G, self.b)
@@ -135,8 +136,8 @@ def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float, siblings=
     branch = None
     if opamps:
         branch = c.opamp(*pins, inverse_open_loop(plan.part, s), offset)
-        c.inject(pins[1], -bias)
-        c.inject(pins[0], bias)
+        c.inject(pins[1], -abs(bias), 4)  # either sign: envelope takes |gain| |Ib| each way
+        c.inject(pins[0], abs(bias), 3)
     for name in ("plus", "minus", "out", "ref", "src", "cg"):
         if not np.any(c.G[0, c.index[name]]):
             c.admittance(name, GROUND, 1.0)  # an unused node, held at 0 V
@@ -144,15 +145,18 @@ def stage_circuit(plan, v: dict, s, drive, offset: float, bias: float, siblings=
 
 
 def envelope(x: np.ndarray, signal: tuple) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """One circuit's node: x[:, 0] per volt of signal (DC first), x[0, 1] fixed, x[0, 2] errors.
+    """One circuit's node: x[:, 0] per volt of signal (DC first), x[0, 1] fixed, x[0, 2] the
+    offset, x[0, 3:5] per ampere of |Ib| at each pin (a width either way: walks/circuit_walk.py).
     With the incoming (hi, lo, a) over the band: max/min of g dc + |H| a sin (walks/signal_bounds.py)."""
     hi, lo, a = signal
     g = x[0, 0].real
     magnitude = np.abs(x[1:, 0])
     base = x[0, 1].real + x[0, 2].real
+    width = abs(x[0, 3].real) + abs(x[0, 4].real)  # the pins' bias currents, either sign
     up, down = (hi, lo) if g >= 0 else (-lo, -hi)
     spare = magnitude - abs(g)
-    return base + abs(g) * up + spare * a, base + abs(g) * down - spare * a, magnitude * a
+    top = base + width + abs(g) * up + spare * a
+    return top, base - width + abs(g) * down - spare * a, magnitude * a
 
 
 def draw_margins(layout: dw.Layout, D: np.ndarray, dT: float) -> list[dict[str, float]]:

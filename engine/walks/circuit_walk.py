@@ -60,6 +60,9 @@ from railroom.engine.circuit.model import NetValue
 from railroom.engine.circuit.nets import used_nets
 
 SATURATED_CHECKS = ("input-high", "input-low", "current")
+PEAK_SPREAD = 1.5  # decisive_from: three rows' extremes this close in frequency are one moved peak
+PEAK_STEP = 0.002  # decisive_from: the relative spacing kept inside one moved peak's range
+BIAS_WIDTH = "bias width"  # bounds_of's `known` key: Layout.bias_width
 KEPT_PARTS = 4  # 1/A(s) per row kept for this many parts at once (stages share parts)
 
 
@@ -94,6 +97,9 @@ class Layout:
     corner: tuple[StageResult, ...]  # corners results: thresholds and reaches of saturated stages
     # stage fed by a passive stage feeding several -> what the others draw (sibling_loads.py)
     siblings: dict = field(default_factory=dict, compare=False)
+    # the bias currents as a width either way per row (bias_width_of; Monte Carlo), or as the
+    # signed shift Ib (|g+| + |g-|) linear in the column (the sensitivities of rss: signed_rows)
+    bias_width: bool = True
 
     def column(self, stage: int | None, quantity: str, kind: str, amp: int = 0) -> int | None:
         return self.columns.get((stage, quantity, kind, amp))
@@ -176,6 +182,15 @@ def build_layout(
     )
 
 
+def signed_rows(layout: Layout) -> Layout:
+    """The layout with each row's bias currents a signed shift, linear in its column: the
+    sensitivities rss takes by differences (aids/sensitivity.py) see the full Ib (|g+| + |g-|)
+    per column there, where a width (bias_width_of) has no slope at d = 0."""
+    from dataclasses import replace
+
+    return replace(layout, bias_width=False)
+
+
 def with_freqs(layout: Layout, freqs: np.ndarray) -> Layout:
     from dataclasses import replace
 
@@ -248,12 +263,31 @@ def row_errors(layout: Layout, plan: StagePlan, D: np.ndarray, dT: np.ndarray):
 
 
 def shift_of(node, offsets: np.ndarray, bias: np.ndarray) -> np.ndarray | float:
-    """A node's output error for signed offsets and bias (error gains of blocks/base.Node)."""
+    """A node's output shift for the row's signed offsets (error gains of blocks/base.Node)."""
     if node.offset_gain is None:
         return 0.0
     total = 0.0
     for j in range(offsets.shape[1]):  # op amps of the stage, not draws
-        total = total + node.offset_gain[:, j] * offsets[:, j] + node.bias_gain[:, j] * bias[:, j]
+        total = total + node.offset_gain[:, j] * offsets[:, j]
+    return total
+
+
+def bias_width_of(node, bias: np.ndarray) -> np.ndarray | float:
+    """How far the row's bias currents may move a node either way: sum |bias gain| |Ib|.
+
+    A node's bias gain is |gain from the + pin| + |gain from the - pin| (blocks/base.plus_node),
+    not the gain of one circuit: the two pins' currents are not known to share a sign (bipolar
+    inputs draw both the same way, a bias-cancelled or FET input either way). Taken as a signed
+    shift, Ib (|g+| + |g-|), the row stood for the circuit with opposite pin currents; the one
+    with both currents into the pins, Ib (g+ + g-), sits lower on the side that shift raised:
+    4 mV on a unity Sallen-Key low-pass (r1 + r2 = 20k, 100 nA), its output-high margin per
+    row 2.5 mV above that circuit's (tests/references/test_per_draw_nodal.py). As a width the
+    row covers every sign of the pins' currents (at most 2 sum |g| |Ib| pessimistic)."""
+    if node.bias_gain is None:
+        return 0.0
+    total = 0.0
+    for j in range(bias.shape[1]):  # op amps of the stage, not draws
+        total = total + np.abs(node.bias_gain[:, j]) * np.abs(bias[:, j])
     return total
 
 
@@ -392,7 +426,7 @@ def shown_input(layout: Layout, k: int, response, v, D, dT, signal, passive: Sta
         offsets, bias = row_errors(layout, plan, D, dT)
     else:
         offsets = bias = np.zeros((rows, max(len(response.opamps), 1)))
-    node = bounds_of(response.terminal, v, signal, offsets, bias, {})
+    node = bounds_of(response.terminal, v, signal, offsets, bias, {BIAS_WIDTH: layout.bias_width})
     return replace(passive, out_lo=band_min(node.lo), out_hi=band_max(node.hi))
 
 
@@ -415,9 +449,12 @@ def per_row(grid: np.ndarray, rows: int) -> np.ndarray:
 
 def decisive_freqs(layout: Layout) -> np.ndarray:
     """The band frequencies where some checked extreme falls for the nominal circuit and for the
-    all-high and all-low rows, plus both band ends. A row's extreme over the band sits at a band
-    end or at a response peak; a peak moves with the row's values, but the extreme is flat there,
-    so the error is second order in the shift (and the value is never above the full grid's)."""
+    all-high and all-low rows, every grid frequency between those of one extreme (when they lie
+    within PEAK_SPREAD of each other; else each) and one either side, plus both band ends. A row's extreme over the band sits at a band end or at a response
+    peak, and a peak moves with the row's values between where the all-high and all-low rows put
+    it. Only the three rows' own frequencies were kept before: a row's band-pass peak between
+    them read up to 9.8 mV low on a Q = 5 MFB band-pass, 12 mV after it (48 rows against their
+    circuits solved whole, tests/references/test_per_draw_nodal.py)."""
     freqs = layout.freqs
     if len(freqs) <= 2:
         return freqs
@@ -436,8 +473,32 @@ def decisive_rise(layout: Layout) -> float:
 def decisive_from(layout: Layout, record: list) -> np.ndarray:
     """The band frequencies a decisive walk's `record` names (see decisive_freqs)."""
     freqs = layout.freqs
-    picked = np.unique(np.concatenate([np.ravel(r) for r in record] + [[0, len(freqs) - 1]]))
+    last = len(freqs) - 1
+    named: list = [[0, last]]  # the rows' own extremes and the band ends, always kept
+    between: list = [[0]]  # the grid around and between them, thinned to PEAK_STEP
+    for r in record:
+        r = np.ravel(r).astype(int)
+        if not r.size:
+            continue
+        named.append(r)
+        low, high = int(r.min()), int(r.max())
+        if freqs[high] <= PEAK_SPREAD * freqs[low]:  # one peak moved by the tolerances: all between
+            between.append(np.arange(max(low - 1, 0), min(high + 1, last) + 1))
+        else:  # a flat extreme read at far apart points: the neighbours of each
+            between.append(np.clip(np.concatenate([r - 1, r + 1]), 0, last))
+    around = thinned(freqs, np.unique(np.concatenate(between)).astype(int))
+    picked = np.unique(np.concatenate([*named, around]))
     return freqs[picked.astype(int)]
+
+
+def thinned(freqs: np.ndarray, picked: np.ndarray) -> np.ndarray:
+    """`picked` (sorted grid indices) less the points closer than PEAK_STEP (relative) to the
+    one kept before them; the last is always kept. (A loop over at most the grid's points.)"""
+    kept = [int(picked[0])]
+    for i in picked[1:]:
+        if freqs[i] >= freqs[kept[-1]] * (1.0 + PEAK_STEP) or i == picked[-1]:
+            kept.append(int(i))
+    return np.asarray(kept)
 
 
 def head_rows(draws: StageDraws, rows: int) -> StageDraws:
@@ -482,9 +543,19 @@ def band_min(x: np.ndarray) -> np.ndarray:
 
 
 def bounds_of(node, v, signal, offsets, bias, known: dict):
-    """The node's per-row bounds, found once per stage (`known`: see bounds_walk.bounds_once)."""
+    """The node's per-row bounds, found once per stage (`known`: see bounds_walk.bounds_once; its
+    BIAS_WIDTH entry, from the layout, picks how the bias currents enter: Layout.bias_width;
+    without it they are the signed shift)."""
     if id(node) not in known:
-        known[id(node)] = (node, node_bounds(node, v, signal, 0.0, shift_of(node, offsets, bias)))
+        shift = shift_of(node, offsets, bias)
+        if known.get(BIAS_WIDTH, False):
+            width = bias_width_of(node, bias)
+        else:
+            width = 0.0
+            if node.bias_gain is not None:
+                for j in range(bias.shape[1]):  # op amps of the stage, not draws
+                    shift = shift + node.bias_gain[:, j] * bias[:, j]
+        known[id(node)] = (node, node_bounds(node, v, signal, width, shift))
     return known[id(node)][1]
 
 
@@ -570,7 +641,7 @@ def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None
         offsets, bias = row_errors(layout, plan, D, dT)
     else:
         offsets = bias = np.zeros((rows, len(response.opamps)))
-    known: dict = {}
+    known: dict = {BIAS_WIDTH: layout.bias_width}
     out = bounds_of(response.output, v, signal, offsets, bias, known)
     pos, neg = row_rails(layout, plan, D)
     found = [

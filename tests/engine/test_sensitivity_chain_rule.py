@@ -47,7 +47,9 @@ def plain(layout: dw.Layout, h: float) -> list[dict[str, np.ndarray]]:
     D = np.zeros((2 * K + 1, K))
     D[1 + 2 * np.arange(K), np.arange(K)] = h
     D[2 + 2 * np.arange(K), np.arange(K)] = -h
-    walked = dw.walk_draws(layout, D, np.full(2 * K + 1, layout.chain.conditions.worst_temperature_rise))
+    walked = dw.walk_draws(
+        dw.signed_rows(layout), D, np.full(2 * K + 1, layout.chain.conditions.worst_temperature_rise)
+    )
     return [
         {q: np.concatenate([x[:1], (x[1::2] - x[2::2]) / (2 * h)]) for q, x in flat(d).items()}
         for d in walked

@@ -255,7 +255,7 @@ def catalogue_build(
         nodes = _catalogue_stage(
             c, st, inp, f"n{k}", lambda label, k=k: u(f"{k}:{label}"), lambda *a, k=k: volts(*a, k)
         )
-        if st.load:
+        if st.load is not None and np.any(np.asarray(st.load) != 0):  # a value or one per row
             c.resistor(nodes.out, "0", st.load)
         found.append(nodes)
     return c, found
