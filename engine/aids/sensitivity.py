@@ -315,6 +315,9 @@ def walk_linearised(
     if start is not None:
         state, B, C, before, pending = start
     columns = local_columns(layout)
+    # one signed-rows layout for the whole pass (a new one per stage rebuilt its column index
+    # each time: quadratic in stages)
+    signed = dw.signed_rows(layout)
     stop = len(layout.plans) if stop is None else stop
     for k in range(first, stop):
         plan = layout.plans[k]
@@ -343,7 +346,7 @@ def walk_linearised(
                 inverse[plan.part] = inverse_open_loop(plan.part, grid)
             ig = dw.per_row(inverse[plan.part], rows)
             response = plan.block.respond(v, s, ig, drive, k == 0 and layout.chain.source.differential)
-            draws, signal = dw.linear_draws(dw.signed_rows(layout), k, response, v, D, dT, fed)
+            draws, signal = dw.linear_draws(signed, k, response, v, D, dT, fed)
             drive = (
                 response.output_impedance
                 if response.output_impedance is not None
@@ -352,7 +355,7 @@ def walk_linearised(
         if pending is not None and raw:  # (the stage before `first` is not returned)
             passive, margins_rows, _ = raw[-1]
             if k > 0 and shows_input(layout.plans[k - 1 : k + 1], (before, response), 1):
-                shown = dw.shown_input(dw.signed_rows(layout), k, response, v, D, dT, fed, passive)
+                shown = dw.shown_input(signed, k, response, v, D, dT, fed, passive)
                 raw[-1] = (shown, margins_rows, here)
             else:
                 raw[-1] = (dw.shown_loaded(layout, *pending, passive), margins_rows, margins_rows)

@@ -233,15 +233,20 @@ def run(setup: Setup, progress: Progress | None = None, chunk: int = CHUNK_ROWS)
 
 def stage_results(plans, corner_stages, quoted, probability, required) -> list[StageResult]:
     deciding = quoted["0.1%"]
+    # the series grouped by (stage, op amp) once, in their order: a scan of every series per
+    # stage made this quadratic in stages
+    grouped: dict[tuple, dict] = {}
+    for (s, a, name), v in deciding.items():
+        grouped.setdefault((s, a), {})[name] = v
     results = []
     clipping: list[bool] = []  # per stage: it clips, or a stage up its branch does
     parents = plan_parents(plans)
     for k, (plan, corner) in enumerate(zip(plans, corner_stages)):
         clipped_before = parents[k] >= 0 and clipping[parents[k]]
-        stage = {name: v for (s, a, name), v in deciding.items() if s == k and a is None}
+        stage = dict(grouped.get((k, None), {}))
         amps = []
         for j in range(len(corner.measure.opamps)):
-            stat = {name: float(v) for (s, a, name), v in deciding.items() if s == k and a == j}
+            stat = {name: float(v) for name, v in grouped.get((k, j), {}).items()}
             if not stat:  # one op amp: the stage's own series are its
                 stat = {n: float(v) for n, v in stage.items() if n != "supply"}
             stat.setdefault("in-low", stage["in-low"])
