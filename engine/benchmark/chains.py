@@ -40,8 +40,11 @@ FILTER_STAGES = [
     ("adc", None, None, {"low": "0.2", "high": "4.8"}),
 ]
 
-FILTER_HEAD = """format = 1
-title = "bench: twelve stages with filters, one failing"
+
+def chain_head(title: str) -> str:
+    """The bench chains' conditions, rails and source (figures.reference_text and the filter chain)."""
+    return f"""format = 1
+title = "{title}"
 [conditions]
 temperature = [-20, 70]
 margin = "20m"
@@ -62,7 +65,11 @@ impedance = "50"
 """
 
 
+FILTER_HEAD = chain_head("bench: twelve stages with filters, one failing")
+
+
 def stages_text(stages) -> str:
+    """[[stage]] tables from (block, part, rails, fields) rows, named "stage 1" on."""
     text = ""
     for i, (block, part, rails, fields) in enumerate(stages, start=1):
         text += f'[[stage]]\nname = "stage {i}"\nblock = "{block}"\n'

@@ -97,31 +97,7 @@ STAGES = [
 
 
 def reference_text() -> str:
-    text = """format = 1
-title = "bench: twelve mixed stages"
-[conditions]
-temperature = [-20, 70]
-margin = "20m"
-default_tolerance = "1%"
-[rails.analog]
-positive = "12"
-negative = "-12"
-tolerance = "5%"
-[rails.converter]
-positive = "5"
-negative = "0"
-tolerance = "2%"
-[source]
-level = ["-20m", "20m"]
-amplitude = "200m"
-band = ["10", "10k"]
-impedance = "50"
-"""
-    for i, (block, part, rails, fields) in enumerate(STAGES, start=1):
-        text += f'[[stage]]\nname = "stage {i}"\nblock = "{block}"\n'
-        text += f'part = "{part}"\nrails = "{rails}"\n' if part else ""
-        text += "".join(f'{k} = "{v}"\n' for k, v in fields.items())
-    return text
+    return chains.chain_head("bench: twelve mixed stages") + chains.stages_text(STAGES)
 
 
 def reference_chain():

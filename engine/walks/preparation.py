@@ -144,10 +144,6 @@ def nominal_band(chain: Chain, plans) -> tuple[np.ndarray, tuple | None]:
 REFINE_POINTS = 8  # added between the neighbours of each stage's peak inside the band
 
 
-def refined(chain: Chain, plans, grid: np.ndarray) -> np.ndarray:
-    return refined_walked(chain, plans, grid)[0]
-
-
 def refined_walked(chain: Chain, plans, grid: np.ndarray) -> tuple[np.ndarray, tuple | None]:
     """The grid with more points around every frequency inside the band where some stage's
     nominal extreme (highest value, lowest value, amplitude, or slope 2 pi f a), or an op amp's
