@@ -168,7 +168,7 @@ class FieldForm(VerticalScroll):
                 prompt=choice_prompt(field.key, choices),
             )
         return FieldInput(
-            value=field.text, id=f"field-{field.key}", classes="form-value", placeholder=field.shape.help
+            value=field.text, id=f"field-{field.key}", classes="form-value", placeholder="not set"
         )
 
     def on_mount(self) -> None:
