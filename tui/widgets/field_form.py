@@ -220,6 +220,7 @@ class FieldForm(VerticalScroll):
         else:
             problem = value_problem(text, field.shape)
         if problem:
+            self.drafts[key] = text  # the newest text: an older one's answer does not replace it
             self._judged(key, text, problem)
             return
         if not text.strip():
@@ -235,12 +236,17 @@ class FieldForm(VerticalScroll):
     def _judged(self, key: str, text: str, problem: str | None) -> None:
         """The verdict on `text` in field `key` (at once, or when the engine's answer is in)."""
         field = self.fields[key]
+        newer = self.drafts.get(key, text) != text  # typed on meanwhile: that text's verdict stands
         if problem:
+            if newer:
+                return  # an older text's problem: the newer text is judged on its own
             self.drafts[key] = text
         else:
-            if self.drafts.get(key) == text:
-                del self.drafts[key]
+            if not newer:
+                self.drafts.pop(key, None)
             self.fields[key] = FormField(key, field.shape, text, field.choices)
+            if newer:
+                return  # the file took this text; the box holds a newer one, judged on its own
         if self.is_mounted:  # else the form was closed meanwhile: the draft stays
             self._message(key, problem or field.shape.help, bool(problem))
 
