@@ -320,3 +320,19 @@ async def test_a_first_save_does_not_claim_a_bak(tmp_path):
         saved = [str(n.message) for n in pilot.app._notifications if "Saved" in str(n.message)]
         assert saved and not any(".bak" in s for s in saved)
         assert not list(user_folder().glob("*.bak"))
+
+
+@synchronous
+async def test_at_80x24_esc_with_unsaved_values_says_so_where_it_can_be_seen(lab):
+    # Tried at 80x24: the form is taller than the screen, so the problems line under the last
+    # field was out of sight and Esc on a form with a typed value seemed to do nothing.
+    async with PresetsApp().run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        form = await open_form(pilot, "lab-audio")
+        form.query_one("#field-slew", Input).value = "fast"
+        await pilot.pause()
+        await pilot.press("escape")
+        await pilot.pause()
+        assert pilot.app.screen is form
+        shown = [n.message for n in pilot.app._notifications]
+        assert any(m.startswith("Unsaved values: enter or the Save button saves them") for m in shown)

@@ -296,7 +296,11 @@ class PresetForm(ModalScreen[bool]):
             )
 
     def show_problems(self, lines: list[str]) -> None:
+        """Below the fields, and as a notice: at 80x24 the form is taller than the screen and
+        the line below the last field is out of sight while a field near the top has focus."""
         self.query_one("#form-problems", Static).update(Text("\n".join(lines)))
+        if lines:
+            self.notify("\n".join(lines), title="preset not saved", severity="warning", markup=False)
 
     @on(Button.Pressed, "#form-close")
     def action_leave(self) -> None:
