@@ -216,10 +216,12 @@ class Evaluator:
         plan = self.plans[k]
         q = plan.quantities[field]
         changed = replace(plan, quantities={**plan.quantities, field: replace(q, value=value)})
-        # only stages that were GO can be broken: the walk stops after the last of them
-        stop = max([k, *(j for j in range(k + 1, len(self.plans)) if self._baseline[j].go)]) + 1
+        # only stages that were GO on the design's own signal can be broken (a fed-clipped
+        # stage's go is read on a clipped signal): the walk stops after the last of them
+        standing = [r.go and "fed-clipped" not in r.reasons for r in self._baseline]
+        stop = max([k, *(j for j in range(k + 1, len(self.plans)) if standing[j])]) + 1
         found = self.results([*self.plans[:k], changed, *self.plans[k + 1 :]], changed=k, stop=stop)
-        if found[k].go and all(new.go for new, old in zip(found, self._baseline) if old.go):
+        if found[k].go and all(new.go for new, kept in zip(found, standing) if kept):
             return found[k]
         return None
 

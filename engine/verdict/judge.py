@@ -129,10 +129,12 @@ def judge(
     reasons = [c for c in VOLTAGE_CHECKS if c in margins and margins[c] < required]
     reasons += [c for c in ("slew", "current", "supply") if margins.get(c, 0.0) < 0]
     reasons += [c for c in (DIFFERENTIAL_CHECK,) if c in margins and margins[c] < required]
-    if measure.fed_clipped:
-        # fed by a clipping stage: whatever this stage does, its signal is not the design's
-        reasons.append("fed-clipped")
+    # go is the stage's own checks' result (on the clipped signal it is fed, if it is)
     go = not reasons and (regime == "saturated") == block.saturates
+    if measure.fed_clipped:
+        # fed by a clipping stage: a marker, not a failure of this stage (the clipping stage
+        # before it already makes the chain NO-GO)
+        reasons.append("fed-clipped")
     return StageResult(
         measure=measure,
         regime=regime,

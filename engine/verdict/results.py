@@ -161,9 +161,9 @@ class StageResult:
 
     @property
     def regime_word(self) -> str:
-        """shown_regime with "!" when the stage is not GO ("fed-clipped" never is: no mark)."""
+        """shown_regime with "!" when the stage fails its own checks (a fed-clipped stage too)."""
         word = self.shown_regime
-        return word if self.go or word == "fed-clipped" else f"{word}!"
+        return word if self.go else f"{word}!"
 
     @property
     def drawn(self) -> tuple[Span, Span | None, str | None]:
@@ -202,9 +202,9 @@ class ChainResult:
 
     @property
     def failing(self) -> int:
-        """Stages that fail on their own: a stage fed by a clipping one is not GO either
-        (reason "fed-clipped"), but it is not counted as one more failure."""
-        return sum(not s.go and list(s.reasons) != ["fed-clipped"] for s in self.stages)
+        """Stages that fail their own checks (a stage fed by a clipping one is GO when its own
+        checks pass on the clipped signal: "fed-clipped" is a marker in its reasons)."""
+        return sum(not s.go for s in self.stages)
 
 
 Figure = float | tuple[float, float] | None  # a value, a (low, high) span, or none known

@@ -39,15 +39,16 @@ part = "clean"
 @pytest.mark.parametrize("method", ["corners", "rss", "montecarlo"])
 def test_a_stage_after_a_clipping_one_is_fed_clipped_everywhere(method):
     # 1 V x (1 + 90k/10k) = 10 V is past a 5 V rail (non-inverting gain, Sedra & Smith ch. 2):
-    # stage 1 clips; stage 2 is fed its clipped output, so it is not GO in the list, the detail
-    # and the JSON alike, and the verdict counts one failing stage (the one that clips)
+    # stage 1 clips; stage 2 is fed its clipped output: "fed-clipped" is a marker in its
+    # reasons, named the same in the list, the detail and the JSON, and its go is its own
+    # checks' result (it passes them on the clipped signal); the chain is NO-GO for stage 1
     found = result(CLIPPED, part(), method=method, samples=2000 if method == "montecarlo" else None)
     first, second = found.stages
     assert first.regime == "clipping" and not first.go
-    assert second.reasons == ("fed-clipped",) and not second.go
+    assert second.reasons == ("fed-clipped",) and second.go
     assert second.regime_word == "fed-clipped" and second.shown_regime == "fed-clipped"
-    assert [s["go"] for s in chain_report(found)["stages"]] == [False, False]
-    assert found.failing == 1
+    assert [s["go"] for s in chain_report(found)["stages"]] == [False, True]
+    assert found.failing == 1 and not found.go
 
 
 DC_ONLY = """format = 1

@@ -211,7 +211,7 @@ def print_aids(console: Console, stage: StageResult) -> None:
 def regime_text(stage: StageResult, colour: bool) -> Text:
     word = stage.regime_word
     style = {"linear": "green", "clipping": "bold red", "saturated": "cyan"}[stage.regime]
-    if not stage.go and stage.regime != "clipping":
+    if (not stage.go or stage.shown_regime == "fed-clipped") and stage.regime != "clipping":
         style = "yellow"
     return Text(word, style=style if colour else "")
 

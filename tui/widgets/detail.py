@@ -229,8 +229,13 @@ def gain_line(gain: dict, total: dict | None) -> str:
 
 def notes(stage: StageResult) -> list[Text]:
     lines = []
-    if stage.reasons:
-        lines.append(Text("fails: " + ", ".join(stage.reasons), style="bold red"))
+    failing = [r for r in stage.reasons if r != "fed-clipped"]
+    if failing:
+        lines.append(Text("fails: " + ", ".join(failing), style="bold red"))
+    if "fed-clipped" in stage.reasons:  # a marker, not a failure of this stage
+        lines.append(
+            Text("fed-clipped: a stage before it clips; checked on the clipped signal", style="yellow")
+        )
     lines += [Text(f"caution: {c}", style="yellow") for c in stage.cautions]
     if stage.sensitivity:
         lines.append(Text("sensitivity: " + ", ".join(f"{s.words} {s.share:.0%}" for s in stage.sensitivity)))

@@ -12,7 +12,7 @@ from railroom.engine import margin_words as check_margin_words
 from railroom.tui.bars import SHORT_LEGEND, stage_bar
 
 REGIME_STYLES = {"linear": "green", "clipping": "bold red", "saturated": "cyan"}
-BAR_LIMITS = (12, 48)
+BAR_LIMITS = (11, 48)
 
 
 def margin_words(stage: StageResult) -> Text:
@@ -27,7 +27,8 @@ def margin_words(stage: StageResult) -> Text:
 
 def regime_words(stage: StageResult) -> Text:
     word = stage.regime_word
-    style = REGIME_STYLES[stage.regime] if stage.go or stage.regime == "clipping" else "yellow"
+    plain = (stage.go and stage.shown_regime != "fed-clipped") or stage.regime == "clipping"
+    style = REGIME_STYLES[stage.regime] if plain else "yellow"
     return Text(word, style=style)
 
 
@@ -53,7 +54,7 @@ BLOCK_SHORT = {
 }
 LABELS = ("#", "stage", "block", "part", "regime", "limiting margin")
 # "fed-clipped"; "output-high -3.46 V" and the like (a slew margin in V/µs may be longer)
-STEADY = {"regime": 11, "limiting margin": 19}
+STEADY = {"regime": 12, "limiting margin": 19}  # "fed-clipped!", "output-high -3.46 V"
 
 
 def column_widths(total: int, cells: list[dict[str, Text]]) -> tuple[dict[str, int], bool]:
