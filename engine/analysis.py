@@ -122,7 +122,7 @@ def analyse(
         stages=tuple(stages),
         go=all(s.go for s in stages),
         headroom_db=headroom_found,
-        cautions=(*chain_cautions(chain), *net_cautions(chain, plans)),
+        cautions=(*chain_cautions(chain), *net_cautions(chain, plans), *corners.summed_cautions(prepared)),
         chain_yield=chain_yield,
         rare=rare,
     )

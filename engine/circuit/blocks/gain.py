@@ -13,6 +13,7 @@ Any resistance driving the stage (source impedance, a divider before it) is in s
 from __future__ import annotations
 
 from collections.abc import Mapping
+from dataclasses import replace
 
 import numpy as np
 
@@ -163,18 +164,51 @@ class Summing(Block):
     def respond(self, v, s, inverse_gain, drive, differential):
         rin, rf = v["rin"] + drive, v["rf"]
         extra = sorted({k.rsplit(".", 1)[0] for k in v if k.startswith("inputs.")})
-        total = 1.0 / rin + 1.0 / rf + sum(1.0 / v[f"{k}.r"] for k in extra)
+        summed = sum(1.0 / v[f"{k}.r"] for k in extra)
+        if SUMMED_AC in v:  # inputs taken together (corners.summed_inputs): the band at its own Y
+            band = np.arange(np.shape(s)[-1]) > 0
+            summed = np.where(band, v[SUMMED_AC], summed)
+        total = 1.0 / rin + 1.0 / rf + summed
         minus = {"in": (1.0 / rin) / total}
         minus.update({f"{k}.v": (1.0 / v[f"{k}.r"]) / total for k in extra})
         one = np.ones_like(rf)
         loop = Loop(beta=(1.0 / rf) / total, a_minus=minus, a_plus={"ref": one}, z_minus=1.0 / total)
         amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
+        if SUMMED_AC in v:
+            amp = replace(amp, current=largest_bias_share(amp.current, v, rin, rf, inverse_gain))
         return BlockResponse(
             output=amp.output,
             opamps=(amp,),
             input_load=virtual_earth_load(v["rin"], v),
             input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain),
         )
+
+
+# corners.summed_inputs: per row, the fixed inputs' summed conductance the band frequencies are
+# solved at, and the least and largest it takes
+SUMMED_AC, SUMMED_LOW, SUMMED_HIGH = "summed inputs g in band", "summed inputs g low", "summed inputs g high"
+
+
+def largest_bias_share(current: Node, v, rin, rf, inverse_gain) -> Node:
+    """The output current's bias-current gain at its largest over the summed conductance's range
+    (corners.summed_inputs). single_opamp forms it as |load + (1 - beta)/rf| / (T/A0 + 1/rf)
+    with beta = 1/(rf T): f(T) = (a T - b) / (T (c T + d)), a = load + 1/rf, b = 1/rf^2,
+    c = 1/A0, d = 1/rf, which is not monotone in T for every c: its derivative has the sign of
+    -a c T^2 + 2 b c T + b d, zero at T* = (b c + sqrt(b^2 c^2 + a b c d)) / (a c). The largest
+    of f at both ends of T and at T* inside them holds for every Y between."""
+    assert current.bias_gain is not None
+    base = np.real(np.atleast_2d(1.0 / rin)[:, :1]) + 1.0 / rf  # T less the summed inputs, at DC
+    a = np.abs(load_conductance(v) + 1.0 / rf)
+    b, c, d = 1.0 / rf**2, float(np.real(np.ravel(inverse_gain)[0])), 1.0 / rf
+    low, high = base + v[SUMMED_LOW], base + v[SUMMED_HIGH]
+    points = [low, high]
+    if c > 0:
+        top = (b * c + np.sqrt((b * c) ** 2 + a * b * c * d)) / (a * c)
+        points.append(np.clip(top, low, high))
+    largest = np.max([np.abs(a * t - b) / (t * (c * t + d)) for t in points], axis=0)
+    # never below the block's own figure at the row's own Y (rounding)
+    bias = np.maximum(current.bias_gain, largest * (1.0 + 1e-12))
+    return replace(current, bias_gain=bias)
 
 
 def virtual_earth_input(rin, drive, amp: OpAmpNodes, inverse_gain) -> Node:
