@@ -167,7 +167,8 @@ def summed_inputs(
     with the band frequencies solved at both ends of Y (SUMMED_AC): the largest gain with the
     worst DC part of any Y, and the smallest for the lower amplitude bound. The one term not
     affine in u, the bias current's share of the output current, is taken at its largest over
-    the Y range in every row (Summing.respond). Every input is written r = n/Y, v = S/Y + ref0,
+    the Y range in every row, and the input terminal's band gain (a passive stage before reads
+    it), which need not be monotone in Y, at its largest or smallest over it (Summing.respond). Every input is written r = n/Y, v = S/Y + ref0,
     which sums back to (Y, S). 8 rows per corner of the other values: an outside bound (summed_cautions)."""
     if "inputs" not in plan.block.fields:
         return None

@@ -299,3 +299,44 @@ def test_rss_montecarlo_and_the_fix_search_run_on_such_a_stage():
     assert fix.field == "rf" and fix.value == 43e3 and "163 mV" in fix.text
     fixed = checked(low_rails.replace('rf = "47k 1% 50ppm"', 'rf = "43k 1% 50ppm"')).stages[0]
     assert fixed.go and fixed.margins["output-high"] == pytest.approx(0.163, abs=0.0005)
+
+
+def test_band_gains_over_the_summed_conductance_sit_at_its_ends():
+    # The proof in corners.summed_inputs, checked numerically on the block itself: solved on a
+    # fine grid of the summed conductance Y, with a complex driving impedance (a 4.7k / 1 nF
+    # low-pass before it) and a 1 MHz part over 10 Hz - 1 MHz, the output's and the output
+    # current's band gains fall with Y, and the input terminal's (not monotone) stays inside
+    # what the rows taken at both ends of Y carry.
+    from railroom.engine.circuit.blocks.gain import SUMMED_AC, SUMMED_HIGH, SUMMED_LOW, Summing
+    from railroom.engine.circuit.model import Part
+    from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
+
+    freqs = np.geomspace(10, 1e6, 41)
+    s = laplace_grid(freqs)
+    drive = (4.7e3 / (1 + s * 4.7e3 * 1e-9))[None, :]
+    p = Part(**{**part()["clean"].__dict__, "open_loop_gain": 1e5, "gbw": 1e6})
+    inverse = inverse_open_loop(p, s)
+    low, high = 6e-5, 2.4e-4
+    grid = np.linspace(low, high, 2001)[:, None]
+    n = 5
+
+    def solved(y, extra=None):
+        v = {"rin": np.full_like(y, 10e3), "rf": np.full_like(y, 47e3), "ref": np.zeros_like(y)}
+        v["load"] = np.full_like(y, 2e3)
+        for k in range(1, n + 1):
+            v[f"inputs.{k}.r"], v[f"inputs.{k}.v"] = n / y, np.full_like(y, 0.2)
+        return Summing().respond({**v, **(extra or {})}, s, inverse, drive, False)
+
+    plain = solved(grid)
+    out = np.abs(plain.output.transfers["in"][:, 1:])
+    current = np.abs(plain.opamps[0].current.transfers["in"][:, 1:])
+    assert np.all(np.diff(out, axis=0) <= 1e-15 * out[:-1]) and np.all(
+        np.diff(current, axis=0) <= 1e-15 * current[:-1]
+    )
+    terminal = np.abs(plain.terminal.transfers["in"][:, 1:])
+    ends = np.array([[low], [high]])
+    keys = {SUMMED_AC: ends, SUMMED_LOW: np.full_like(ends, low), SUMMED_HIGH: np.full_like(ends, high)}
+    rows = np.abs(solved(ends, keys).terminal.transfers["in"][:, 1:])
+    assert np.all(terminal.max(axis=0) <= rows[0]) and np.all(terminal.min(axis=0) >= rows[1])
+    # the terminal's gain peaks inside the range at some frequency: the ends alone would miss it
+    assert np.any(terminal.max(axis=0) > np.maximum(terminal[0], terminal[-1]) * (1 + 1e-9))

@@ -174,13 +174,16 @@ class Summing(Block):
         one = np.ones_like(rf)
         loop = Loop(beta=(1.0 / rf) / total, a_minus=minus, a_plus={"ref": one}, z_minus=1.0 / total)
         amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
+        terminal = lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain)  # noqa: E731
         if SUMMED_AC in v:
             amp = replace(amp, current=largest_bias_share(amp.current, v, rin, rf, inverse_gain))
+            plain = terminal
+            terminal = lambda: outermost_terminal(plain(), v, rin, rf, inverse_gain)  # noqa: E731
         return BlockResponse(
             output=amp.output,
             opamps=(amp,),
             input_load=virtual_earth_load(v["rin"], v),
-            input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain),
+            input_node=terminal,
         )
 
 
@@ -209,6 +212,45 @@ def largest_bias_share(current: Node, v, rin, rf, inverse_gain) -> Node:
     # never below the block's own figure at the row's own Y (rounding)
     bias = np.maximum(current.bias_gain, largest * (1.0 + 1e-12))
     return replace(current, bias_gain=bias)
+
+
+def outermost_terminal(node: Node, v, rin, rf, inverse_gain) -> Node:
+    """The input terminal with its band gains at their largest (rows solved at the least summed
+    conductance) or smallest (at the largest) over the summed conductance's range
+    (corners.summed_inputs). The terminal is J = P + (1 - P) V-, P = rin / (rin + Z), and
+    V- = (1/rin') / (T + 1/(rf / A)) per volt in (rin' = rin + Z): J(Y) = (P Y + Q) / (Y + c)
+    with c = 1/rin' + 1/rf + A/rf and Q = P c + (1 - P)/rin', so |J|^2 = N(Y) / D(Y), two
+    quadratics, whose derivative is zero where (a e - b) Y^2 + 2 (a f - k) Y + (b f - k e) = 0
+    (N = a Y^2 + b Y + k, D = Y^2 + e Y + f). Unlike the output's, |J| need not be monotone in Y:
+    the largest and smallest of it at both ends and at those roots inside them hold for every Y
+    between. Only the band columns change, their phase kept (the walk reads magnitudes there)."""
+    transfer = node.transfers.get("in")
+    ig = np.ravel(inverse_gain)[1:]
+    if transfer is None or np.shape(transfer)[-1] < 2 or not np.all(ig != 0):
+        return node
+    band = np.asarray(transfer)[..., 1:]
+    series = np.broadcast_to(np.asarray(rin, dtype=complex), np.shape(rin)[:-1] + (len(ig) + 1,))[..., 1:]
+    share = np.asarray(v["rin"]) / series
+    kappa = 1.0 / series
+    c = kappa + 1.0 / rf + 1.0 / (rf * ig)
+    q = share * c + (1.0 - share) * kappa
+    a, b, k = np.abs(share) ** 2, 2.0 * np.real(np.conj(share) * q), np.abs(q) ** 2
+    e, f = 2.0 * np.real(c), np.abs(c) ** 2
+    low, high = v[SUMMED_LOW], v[SUMMED_HIGH]
+    a2, b2, c2 = a * e - b, 2.0 * (a * f - k), b * f - k * e
+    with np.errstate(divide="ignore", invalid="ignore"):
+        root = np.sqrt(b2 * b2 - 4.0 * a2 * c2)
+        half = -0.5 * (b2 + np.copysign(root, b2))
+        points = [low, high, np.clip(half / a2, low, high), np.clip(c2 / half, low, high)]
+        gains = np.array([np.sqrt((a * y * y + b * y + k) / (y * y + e * y + f)) for y in points])
+    largest, smallest = np.nanmax(gains, axis=0), np.nanmin(gains, axis=0)
+    target = np.where(v[SUMMED_AC] <= low, largest * (1 + 1e-9), smallest * (1 - 1e-9))
+    size = np.abs(band)
+    scaled_band = np.where(size > 0, band * (target / np.where(size > 0, size, 1.0)), target)
+    full = np.concatenate(
+        [np.broadcast_to(transfer[..., :1], scaled_band.shape[:-1] + (1,)), scaled_band], axis=-1
+    )
+    return replace(node, transfers={**node.transfers, "in": full})
 
 
 def virtual_earth_input(rin, drive, amp: OpAmpNodes, inverse_gain) -> Node:
