@@ -85,8 +85,10 @@ def corner_values(
     temperature_rise: float,
     nominal: bool = False,
     drive: np.ndarray | tuple[float, float] | None = None,
+    summed: bool = True,
 ) -> dict[str, np.ndarray]:
-    """Every corner of the stage's own toleranced values as column arrays (J, 1).
+    """Every corner of the stage's own toleranced values as column arrays (J, 1); past the
+    limit a summing stage's fixed inputs taken together (summed_inputs) unless `summed` is False.
 
     `drive` holds the impedances that may drive the stage (drive_candidates: the Thevenin
     impedance of a passive stage before it at each of its corners, rows (n, F+1) over s, or a
@@ -113,11 +115,11 @@ def corner_values(
         columns, table = varying, None
     count = 2 ** len(varying) if table is None else table.shape[0]
     if count * choices > 2**MAX_CORNER_BITS:
-        summed = summed_inputs(plan, ends, varying, choices)
-        if summed is None:
+        together = summed_inputs(plan, ends, varying, choices) if summed else None
+        if together is None:
             # never hold a toleranced value fixed: a value left at one end can hide the worst case
             raise TooManyCorners(plan, len(varying), choices)
-        values, count = summed
+        values, count = together
     else:
         values = corner_table(ends, varying, columns, table, count)
     if candidates is not None:
@@ -310,15 +312,26 @@ def stage_values(
     corners are enumerated jointly with that stage's: row i*n + j is own corner i with the
     passive stage's row j, its voltage and its impedance together, which is exact. When the
     joint count passes the limit the impedance is enumerated apart (`drive()`: its distinct
-    values, found only then), a bound from outside. A saturated stage never pairs."""
+    values, found only then), a bound from outside. A saturated stage never pairs. The stage's
+    own corners are taken together (summed_inputs) only when neither way enumerates them."""
+    impedance = None
     if before is not None and before.output_impedance is not None and not plan.block.saturates:
         impedance = np.atleast_2d(before.output_impedance)
         impedance = np.broadcast_to(impedance, (before_rows, impedance.shape[-1]))
         try:
-            return corner_values(plan, rise, nominal, impedance), True
+            return corner_values(plan, rise, nominal, impedance, summed=False), True
         except TooManyCorners:
             pass
-    return corner_values(plan, rise, nominal, drive()), False
+    candidates = drive()
+    try:
+        return corner_values(plan, rise, nominal, candidates, summed=False), False
+    except TooManyCorners:
+        if impedance is not None:
+            try:
+                return corner_values(plan, rise, nominal, impedance), True
+            except TooManyCorners:
+                pass
+        return corner_values(plan, rise, nominal, candidates), False
 
 
 def prepare(

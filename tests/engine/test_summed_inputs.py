@@ -340,3 +340,23 @@ def test_band_gains_over_the_summed_conductance_sit_at_its_ends():
     assert np.all(terminal.max(axis=0) <= rows[0]) and np.all(terminal.min(axis=0) >= rows[1])
     # the terminal's gain peaks inside the range at some frequency: the ends alone would miss it
     assert np.any(terminal.max(axis=0) > np.maximum(terminal[0], terminal[-1]) * (1 + 1e-9))
+
+
+def test_the_inputs_are_taken_together_only_when_no_enumeration_fits():
+    # 13 toleranced values after a toleranced divider (4 rows, 2 distinct resistances): paired
+    # with its rows 2^13 x 4 = 32768 corners do not fit, but with its 2 resistances apart
+    # 2^13 x 2 = 16384 do: every corner is enumerated, no caution (it took the inputs together
+    # before, with the caution, although an enumeration fitted)
+    inputs = ",\n".join(f'  {{ r = "{100 + 10 * i}k 5%", v = "0.1" }}' for i in range(11))
+    text = HEAD.format(inputs=inputs).replace(
+        '[[stage]]\nname = "sum"',
+        '[[stage]]\nname = "divider"\nblock = "divider"\ntop = "10k 1%"\nbottom = "10k 1%"\n[[stage]]\nname = "sum"',
+    )
+    result = checked(text)
+    assert not any("taken together" in c for c in result.cautions)
+    from railroom.engine.walks.preparation import band_grid, plan_chain
+
+    chain = chain_from_text(text)
+    plans = plan_chain(chain, part())
+    prepared = corners.prepare(chain, plans, band_grid(chain, plans))
+    assert prepared.values[1]["drive"].shape == (2**13 * 2, 1) and not prepared.joint[1]
