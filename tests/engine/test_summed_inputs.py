@@ -360,3 +360,32 @@ def test_the_inputs_are_taken_together_only_when_no_enumeration_fits():
     plans = plan_chain(chain, part())
     prepared = corners.prepare(chain, plans, band_grid(chain, plans))
     assert prepared.values[1]["drive"].shape == (2**13 * 2, 1) and not prepared.joint[1]
+
+
+def test_the_bias_share_of_the_output_current_is_taken_at_its_largest():
+    # single_opamp's bias-current gain of the output current, |(1 - beta)/rf| / (T/A0 + 1/rf),
+    # peaks inside the range of T when T* = sqrt(A0)/rf-ish lies in it (A0 = 1000, rf = 47k:
+    # T* = 6.7e-4 S): on a grid of 2001 values of Y it is never above what the rows carry
+    from railroom.engine.circuit.blocks.gain import SUMMED_AC, SUMMED_HIGH, SUMMED_LOW, Summing
+    from railroom.engine.circuit.model import Part
+    from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
+
+    s = laplace_grid(np.array([100.0]))
+    p = Part(**{**part()["clean"].__dict__, "open_loop_gain": 1e3, "gbw": 1e6})
+    inverse = inverse_open_loop(p, s)
+    low, high = 4e-4, 9e-4
+
+    def bias(y, extra=None):
+        v = {"rin": np.full_like(y, 10e3), "rf": np.full_like(y, 47e3), "ref": np.zeros_like(y)}
+        for k in range(1, 4):
+            v[f"inputs.{k}.r"], v[f"inputs.{k}.v"] = 3 / y, np.zeros_like(y)
+        response = Summing().respond({**v, **(extra or {})}, s, inverse, np.zeros((1, 1)), False)
+        return response.opamps[0].current.bias_gain[:, 0]
+
+    grid = bias(np.linspace(low, high, 2001)[:, None])
+    inside = np.argmax(grid)
+    assert 0 < inside < len(grid) - 1  # the peak is inside: the ends alone would miss it
+    ends = np.array([[low], [high]])
+    keys = {SUMMED_AC: ends, SUMMED_LOW: np.full_like(ends, low), SUMMED_HIGH: np.full_like(ends, high)}
+    carried = bias(ends, keys)
+    assert np.all(carried >= grid.max()) and np.all(carried <= grid.max() * (1 + 1e-9))
