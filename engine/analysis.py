@@ -15,6 +15,7 @@ from railroom.engine.methods import Setup, corners
 from railroom.engine.methods import run as run_method
 from railroom.engine.circuit.model import Chain, Part
 from railroom.engine.circuit.nets import net_cautions
+from railroom.engine.circuit.blocks.filters import unstable_cautions
 from railroom.engine.aids.headroom import headroom_db
 from railroom.engine.walks.gain_error import gain_errors
 from railroom.engine.walks.preparation import nominal_band, plan_chain
@@ -122,7 +123,12 @@ def analyse(
         stages=tuple(stages),
         go=all(s.go for s in stages),
         headroom_db=headroom_found,
-        cautions=(*chain_cautions(chain), *net_cautions(chain, plans)),
+        cautions=(
+            *chain_cautions(chain),
+            *net_cautions(chain, plans),
+            *corners.summed_cautions(prepared),
+            *unstable_cautions(plans, prepared.values),
+        ),
         chain_yield=chain_yield,
         rare=rare,
     )

@@ -20,6 +20,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from railroom.engine.circuit.blocks.base import BlockResponse
+from railroom.engine.circuit.blocks.gain import SUMMED_AC, SUMMED_HIGH, SUMMED_LOW
 from railroom.engine.circuit.model import Chain, InputError, Problem
 from railroom.engine.circuit.opamp import inverse_open_loop, laplace_grid
 from railroom.engine.walks.preparation import StagePlan, spread
@@ -57,18 +58,23 @@ class Prepared:
 class TooManyCorners(InputError):
     """A stage with more toleranced values than its corners can be enumerated for."""
 
-    def __init__(self, plan: StagePlan, count: int):
+    def __init__(self, plan: StagePlan, count: int, drives: int = 1):
         stage = plan.stage
+        driven = (
+            f" met by each of {drives} driving impedances (the corners of the passive stages before it)"
+            if drives > 1
+            else ""
+        )
         super().__init__(
             [
                 Problem(
                     plan.path,
                     stage.line,
                     f"stage.{plan.index}",
-                    f"stage {plan.index} ({stage.name!r}) has {count} toleranced values (with the source "
-                    f"impedance and tempcos); the worst case enumerates every corner of at most "
-                    f"{MAX_CORNER_BITS} per stage ({2**MAX_CORNER_BITS} corners) and never holds one "
-                    "fixed: give fewer values a tolerance, or split the stage",
+                    f"stage {plan.index} ({stage.name!r}) has {count} toleranced values{driven}; the "
+                    f"worst case enumerates every corner of at most {MAX_CORNER_BITS} per stage "
+                    f"({2**MAX_CORNER_BITS} corners) and never holds one fixed: give fewer values a "
+                    "tolerance, or split the stage",
                 )
             ]
         )
@@ -79,8 +85,10 @@ def corner_values(
     temperature_rise: float,
     nominal: bool = False,
     drive: np.ndarray | tuple[float, float] | None = None,
+    summed: bool = True,
 ) -> dict[str, np.ndarray]:
-    """Every corner of the stage's own toleranced values as column arrays (J, 1).
+    """Every corner of the stage's own toleranced values as column arrays (J, 1); past the
+    limit a summing stage's fixed inputs taken together (summed_inputs) unless `summed` is False.
 
     `drive` holds the impedances that may drive the stage (drive_candidates: the Thevenin
     impedance of a passive stage before it at each of its corners, rows (n, F+1) over s, or a
@@ -107,8 +115,28 @@ def corner_values(
         columns, table = varying, None
     count = 2 ** len(varying) if table is None else table.shape[0]
     if count * choices > 2**MAX_CORNER_BITS:
-        # never hold a toleranced value fixed: a value left at one end can hide the worst case
-        raise TooManyCorners(plan, len(varying) + int(np.ceil(np.log2(choices))))
+        together = summed_inputs(plan, ends, varying, choices) if summed else None
+        if together is None:
+            # never hold a toleranced value fixed: a value left at one end can hide the worst case
+            raise TooManyCorners(plan, len(varying), choices)
+        values, count = together
+    else:
+        values = corner_table(ends, varying, columns, table, count)
+    if candidates is not None:
+        # the driving impedance varies fastest: own corner i meets every candidate in turn
+        values = {name: np.repeat(x, choices, axis=0) for name, x in values.items()}
+        values["drive"] = np.tile(candidates, (count, 1))
+    return values
+
+
+def corner_table(
+    ends: dict[str, tuple[float, float]],
+    varying: list[str],
+    columns: list[str],
+    table: np.ndarray | None,
+    count: int,
+) -> dict[str, np.ndarray]:
+    """The corner rows of `columns` (True: the high end; every corner when `table` is None)."""
     values = {name: np.full((count, 1), ends[name][0]) for name in ends}
     if varying:
         if table is None:
@@ -116,11 +144,89 @@ def corner_values(
         for column, name in enumerate(columns):
             lo, hi = ends[name]
             values[name] = np.where(table[:, column], hi, lo)[:, None]
-    if candidates is not None:
-        # the driving impedance varies fastest: own corner i meets every candidate in turn
-        values = {name: np.repeat(x, choices, axis=0) for name, x in values.items()}
-        values["drive"] = np.tile(candidates, (count, 1))
     return values
+
+
+def summed_inputs(
+    plan: StagePlan, ends: dict[str, tuple[float, float]], varying: list[str], choices: int
+) -> tuple[dict[str, np.ndarray], int] | None:
+    """A summing stage's corner rows with its fixed inputs taken together, for when their
+    corners are too many to enumerate (None for any other stage, or still too many).
+
+    The block reads its fixed inputs only through Y = sum 1/r and sum v/r (blocks/gain.py,
+    Summing), that is through Y and S = sum (v - ref0)/r, ref0 the nominal ref (the current
+    into a - pin held at ref0). Each is a sum of independent per-input terms, so every true
+    (Y, S) lies in the box [sum of the least 1/r, sum of the largest] x [sum of the least
+    (v - ref0)/r, sum of the largest] (each r and v at its spread ends, tempcos included); the
+    output's numerator is affine in (T, S) as in (T, sum v/r). For the rest of the stage fixed, every
+    DC figure the walk reads (the output's fixed part, gain, offset and bias terms, the - pin,
+    the output current's fixed, signal and offset terms) is affine in u = 1/D0 with
+    D0 = T/A0 + 1/rf, T = 1/rin + 1/rf + Y (their transfers share that denominator), u is
+    monotone in Y, and the per-row bounds are convex in u and affine in S (interval sums of
+    affine terms, |H| - G times the larger or smaller amplitude): their extremes over the box
+    sit at its 4 corners. The AC gains |H(f)| fall with Y (|T/A(f) + 1/rf| grows with T when
+    Re(1/A) > 0 and Re T > 0) and enter the bounds only rising with |H|, so each corner is taken
+    with the band frequencies solved at both ends of Y (SUMMED_AC): the largest gain with the
+    worst DC part of any Y, and the smallest for the lower amplitude bound. The one term not
+    affine in u, the bias current's share of the output current, is taken at its largest over
+    the Y range in every row, and the input terminal's band gain (a passive stage before reads
+    it), which need not be monotone in Y, at its largest or smallest over it (Summing.respond). Every input is written r = n/Y, v = S/Y + ref0,
+    which sums back to (Y, S). 8 rows per corner of the other values: an outside bound (summed_cautions)."""
+    if "inputs" not in plan.block.fields:
+        return None
+    members = sorted({name.rsplit(".", 1)[0] for name in ends if name.startswith("inputs.")})
+    others = [name for name in varying if not name.startswith("inputs.")]
+    count = 2 ** len(others) * 8
+    if not members or count * choices > 2**MAX_CORNER_BITS:
+        return None
+    r = np.array([ends[f"{m}.r"] for m in members])  # (n, 2): least and largest
+    v = np.array([ends[f"{m}.v"] for m in members])
+    g = 1.0 / r[:, ::-1]  # least and largest conductance
+    # the current each input drives into the - pin held at the + input's nominal voltage: the
+    # ideal output reads only this sum (out = ref + rf (ref - vin)/rin + rf sum (ref - v)/r),
+    # so its box is far narrower than that of sum v/r, which moves with Y at ref != 0
+    at = plan.quantities["ref"].value if "ref" in plan.quantities else 0.0
+    terms = (v[:, :, None] - at) / r[:, None, :]  # every end of v over every end of r
+    flat = terms.reshape(len(members), -1)
+    n = len(members)
+    eps = np.finfo(float).eps
+    # outward by more than the rounding of a sum of n terms (and of the block summing them back)
+    g_slack = 8 * n * eps * g[:, 1].sum()
+    s_slack = 8 * n * eps * (np.abs(flat).max(axis=1).sum() + abs(at) * g[:, 1].sum())
+    g_ends = (g[:, 0].sum() - g_slack, g[:, 1].sum() + g_slack)
+    s_ends = (flat.min(axis=1).sum() - s_slack, flat.max(axis=1).sum() + s_slack)
+    box = np.array(list(itertools.product(g_ends, s_ends, g_ends)))  # (8, 3): Y at DC, S, Y in band
+    base = corner_table(ends, others, others, None, 2 ** len(others))
+    values = {name: np.repeat(x, 8, axis=0) for name, x in base.items()}
+    rows = np.tile(box, (2 ** len(others), 1))
+    y_dc, s_sum, y_ac = rows[:, :1], rows[:, 1:2], rows[:, 2:]
+    for m in members:
+        values[f"{m}.r"] = n / y_dc
+        values[f"{m}.v"] = s_sum / y_dc + at
+    values[SUMMED_AC] = y_ac
+    values[SUMMED_LOW] = np.full_like(y_ac, g_ends[0])
+    values[SUMMED_HIGH] = np.full_like(y_ac, g_ends[1])
+    return values, count
+
+
+def summed_cautions(prepared: Prepared) -> list[str]:
+    """Said for every stage whose fixed inputs were taken together (summed_inputs)."""
+    found = []
+    rise = prepared.chain.conditions.worst_temperature_rise
+    for plan, values in zip(prepared.plans, prepared.values):
+        if SUMMED_AC not in values:
+            continue
+        ends = [spread(q, rise) for q in plan.quantities.values()]
+        count = sum(lo != hi for lo, hi in ends)
+        inputs = sum(name.startswith("inputs.") and name.endswith(".r") for name in plan.quantities)
+        found.append(
+            f"stage {plan.index} ({plan.stage.name!r}): {count} toleranced values have more "
+            f"corners than the worst case enumerates ({2**MAX_CORNER_BITS} per stage), so its "
+            f"{inputs} fixed inputs are taken together: their summed conductance and summed "
+            "current each at both ends, in every combination. That is an outside bound: this "
+            "stage's spans may be wider and its margins smaller than the true worst case"
+        )
+    return found
 
 
 def exchangeable_inputs(
@@ -206,15 +312,26 @@ def stage_values(
     corners are enumerated jointly with that stage's: row i*n + j is own corner i with the
     passive stage's row j, its voltage and its impedance together, which is exact. When the
     joint count passes the limit the impedance is enumerated apart (`drive()`: its distinct
-    values, found only then), a bound from outside. A saturated stage never pairs."""
+    values, found only then), a bound from outside. A saturated stage never pairs. The stage's
+    own corners are taken together (summed_inputs) only when neither way enumerates them."""
+    impedance = None
     if before is not None and before.output_impedance is not None and not plan.block.saturates:
         impedance = np.atleast_2d(before.output_impedance)
         impedance = np.broadcast_to(impedance, (before_rows, impedance.shape[-1]))
         try:
-            return corner_values(plan, rise, nominal, impedance), True
+            return corner_values(plan, rise, nominal, impedance, summed=False), True
         except TooManyCorners:
             pass
-    return corner_values(plan, rise, nominal, drive()), False
+    candidates = drive()
+    try:
+        return corner_values(plan, rise, nominal, candidates, summed=False), False
+    except TooManyCorners:
+        if impedance is not None:
+            try:
+                return corner_values(plan, rise, nominal, impedance), True
+            except TooManyCorners:
+                pass
+        return corner_values(plan, rise, nominal, candidates), False
 
 
 def prepare(

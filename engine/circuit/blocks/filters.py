@@ -233,17 +233,19 @@ class SallenKeyLowpass(Block):
             input_node=lambda: junction(v["r1"], drive, response.inner["node A"]),
         )
 
-    def critical_frequencies(self, v):
+    @staticmethod
+    def ideal_damping(v):
+        """w0 and w0/Q of the ideal denominator s^2 + s ((g1 + g2)/c1 + (1 - K) g2/c2) + g1 g2/(c1 c2)."""
         r1, r2, c1, c2 = v["r1"], v["r2"], v["c1"], v["c2"]
-        # ideal denominator s^2 + s ((g1 + g2)/c1 + (1 - K) g2/c2) + g1 g2/(c1 c2)
         w0 = 1.0 / np.sqrt(r1 * r2 * c1 * c2)
-        damping = (1.0 / r1 + 1.0 / r2) / c1 + (1.0 - sallen_key_gain(v)) / (r2 * c2)
+        return w0, (1.0 / r1 + 1.0 / r2) / c1 + (1.0 - sallen_key_gain(v)) / (r2 * c2)
+
+    def critical_frequencies(self, v):
+        w0, damping = self.ideal_damping(v)
         return peak_frequencies(w0, w0 / damping, "lowpass")
 
     def real_critical_frequencies(self, v, part):
-        r1, r2, c1, c2 = v["r1"], v["r2"], v["c1"], v["c2"]
-        w0 = 1.0 / np.sqrt(r1 * r2 * c1 * c2)
-        damping = (1.0 / r1 + 1.0 / r2) / c1 + (1.0 - sallen_key_gain(v)) / (r2 * c2)
+        w0, damping = self.ideal_damping(v)
         return real_peaks(self, v, part, row_peaks(w0, w0 / damping, "lowpass"))
 
 
@@ -287,18 +289,55 @@ class SallenKeyHighpass(Block):
             input_node=lambda: junction(None, drive, response.inner["node A"], share),
         )
 
-    def critical_frequencies(self, v):
+    @staticmethod
+    def ideal_damping(v):
+        """w0 and w0/Q of the ideal denominator
+        s^2 + s ((1 - K)/(r1 c1) + (c1 + c2)/(r2 c1 c2)) + 1/(r1 r2 c1 c2)."""
         r1, r2, c1, c2 = v["r1"], v["r2"], v["c1"], v["c2"]
-        # ideal denominator s^2 + s ((1 - K)/(r1 c1) + (c1 + c2)/(r2 c1 c2)) + 1/(r1 r2 c1 c2)
         w0 = 1.0 / np.sqrt(r1 * r2 * c1 * c2)
-        damping = (1.0 - sallen_key_gain(v)) / (r1 * c1) + (c1 + c2) / (r2 * c1 * c2)
+        return w0, (1.0 - sallen_key_gain(v)) / (r1 * c1) + (c1 + c2) / (r2 * c1 * c2)
+
+    def critical_frequencies(self, v):
+        w0, damping = self.ideal_damping(v)
         return peak_frequencies(w0, w0 / damping, "highpass")
 
     def real_critical_frequencies(self, v, part):
-        r1, r2, c1, c2 = v["r1"], v["r2"], v["c1"], v["c2"]
-        w0 = 1.0 / np.sqrt(r1 * r2 * c1 * c2)
-        damping = (1.0 - sallen_key_gain(v)) / (r1 * c1) + (c1 + c2) / (r2 * c1 * c2)
+        w0, damping = self.ideal_damping(v)
         return real_peaks(self, v, part, row_peaks(w0, w0 / damping, "highpass"))
+
+
+SALLEN_KEY_FIELDS = ("r1", "r2", "c1", "c2", "rf", "rg")
+
+
+def unstable_cautions(plans, values) -> list[str]:
+    """Said for every Sallen-Key stage whose ideal poles are in the right half-plane at some
+    corner (w0/Q < 0: the gain K = 1 + rf/rg undoes the damping): there the circuit oscillates
+    or latches against its rails and has no sinusoidal steady state, so the linear figures of
+    those corners (its gain, node A, the current the stage before drives into r1) describe no
+    circuit. A caution only: no bound is changed (a tighter one would need the saturated
+    circuit's own bound, not proved here)."""
+    found = []
+    for plan, v in zip(plans, values):
+        damping = getattr(plan.block, "ideal_damping", None)
+        if damping is None:
+            continue
+        names = [name for name in SALLEN_KEY_FIELDS if name in v]
+        corners, index = np.unique(np.hstack([v[name] for name in names]), axis=0, return_index=True)
+        rows = {name: v[name][index] for name in names}
+        unstable = int(np.sum(damping(rows)[1] < 0))
+        if not unstable:
+            continue
+        nominal = {name: np.array([[plan.quantities[name].value]]) for name in names}
+        at_nominal = bool(damping(nominal)[1][0, 0] < 0)
+        found.append(
+            f"stage {plan.index} ({plan.stage.name!r}): with an ideal op amp its poles are in the "
+            f"right half-plane at {unstable} of {len(corners)} corners"
+            + (", the nominal values included" if at_nominal else "")
+            + ": the gain 1 + rf/rg undoes the damping there (1/Q < 0), so the circuit oscillates "
+            "or latches against its rails, and the figures of those corners (its gain, node A, the "
+            "current the stage before drives into it) are those of no real circuit"
+        )
+    return found
 
 
 # --- multiple feedback ------------------------------------------------------------------------

@@ -13,6 +13,7 @@ Any resistance driving the stage (source impedance, a divider before it) is in s
 from __future__ import annotations
 
 from collections.abc import Mapping
+from dataclasses import replace
 
 import numpy as np
 
@@ -163,18 +164,93 @@ class Summing(Block):
     def respond(self, v, s, inverse_gain, drive, differential):
         rin, rf = v["rin"] + drive, v["rf"]
         extra = sorted({k.rsplit(".", 1)[0] for k in v if k.startswith("inputs.")})
-        total = 1.0 / rin + 1.0 / rf + sum(1.0 / v[f"{k}.r"] for k in extra)
+        summed = sum(1.0 / v[f"{k}.r"] for k in extra)
+        if SUMMED_AC in v:  # inputs taken together (corners.summed_inputs): the band at its own Y
+            band = np.arange(np.shape(s)[-1]) > 0
+            summed = np.where(band, v[SUMMED_AC], summed)
+        total = 1.0 / rin + 1.0 / rf + summed
         minus = {"in": (1.0 / rin) / total}
         minus.update({f"{k}.v": (1.0 / v[f"{k}.r"]) / total for k in extra})
         one = np.ones_like(rf)
         loop = Loop(beta=(1.0 / rf) / total, a_minus=minus, a_plus={"ref": one}, z_minus=1.0 / total)
         amp, _ = single_opamp(loop, inverse_gain, 1.0 / rf, v)
+        terminal = lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain)  # noqa: E731
+        if SUMMED_AC in v:
+            amp = replace(amp, current=largest_bias_share(amp.current, v, rin, rf, inverse_gain))
+            plain = terminal
+            terminal = lambda: outermost_terminal(plain(), v, rin, rf, inverse_gain)  # noqa: E731
         return BlockResponse(
             output=amp.output,
             opamps=(amp,),
             input_load=virtual_earth_load(v["rin"], v),
-            input_node=lambda: virtual_earth_input(v["rin"], drive, amp, inverse_gain),
+            input_node=terminal,
         )
+
+
+# corners.summed_inputs: per row, the fixed inputs' summed conductance the band frequencies are
+# solved at, and the least and largest it takes
+SUMMED_AC, SUMMED_LOW, SUMMED_HIGH = "summed inputs g in band", "summed inputs g low", "summed inputs g high"
+
+
+def largest_bias_share(current: Node, v, rin, rf, inverse_gain) -> Node:
+    """The output current's bias-current gain at its largest over the summed conductance's range
+    (corners.summed_inputs). single_opamp forms it as |load + (1 - beta)/rf| / (T/A0 + 1/rf)
+    with beta = 1/(rf T): f(T) = (a T - b) / (T (c T + d)), a = load + 1/rf, b = 1/rf^2,
+    c = 1/A0, d = 1/rf, which is not monotone in T for every c: its derivative has the sign of
+    -a c T^2 + 2 b c T + b d, zero at T* = (b c + sqrt(b^2 c^2 + a b c d)) / (a c). The largest
+    of f at both ends of T and at T* inside them holds for every Y between."""
+    assert current.bias_gain is not None
+    base = np.real(np.atleast_2d(1.0 / rin)[:, :1]) + 1.0 / rf  # T less the summed inputs, at DC
+    a = np.abs(load_conductance(v) + 1.0 / rf)
+    b, c, d = 1.0 / rf**2, float(np.real(np.ravel(inverse_gain)[0])), 1.0 / rf
+    low, high = base + v[SUMMED_LOW], base + v[SUMMED_HIGH]
+    points = [low, high]
+    if c > 0:
+        top = (b * c + np.sqrt((b * c) ** 2 + a * b * c * d)) / (a * c)
+        points.append(np.clip(top, low, high))
+    largest = np.max([np.abs(a * t - b) / (t * (c * t + d)) for t in points], axis=0)
+    # never below the block's own figure at the row's own Y (rounding)
+    bias = np.maximum(current.bias_gain, largest * (1.0 + 1e-12))
+    return replace(current, bias_gain=bias)
+
+
+def outermost_terminal(node: Node, v, rin, rf, inverse_gain) -> Node:
+    """The input terminal with its band gains at their largest (rows solved at the least summed
+    conductance) or smallest (at the largest) over the summed conductance's range
+    (corners.summed_inputs). The terminal is J = P + (1 - P) V-, P = rin / (rin + Z), and
+    V- = (1/rin') / (T + 1/(rf / A)) per volt in (rin' = rin + Z): J(Y) = (P Y + Q) / (Y + c)
+    with c = 1/rin' + 1/rf + A/rf and Q = P c + (1 - P)/rin', so |J|^2 = N(Y) / D(Y), two
+    quadratics, whose derivative is zero where (a e - b) Y^2 + 2 (a f - k) Y + (b f - k e) = 0
+    (N = a Y^2 + b Y + k, D = Y^2 + e Y + f). Unlike the output's, |J| need not be monotone in Y:
+    the largest and smallest of it at both ends and at those roots inside them hold for every Y
+    between. Only the band columns change, their phase kept (the walk reads magnitudes there)."""
+    transfer = node.transfers.get("in")
+    ig = np.ravel(inverse_gain)[1:]
+    if transfer is None or np.shape(transfer)[-1] < 2 or not np.all(ig != 0):
+        return node
+    band = np.asarray(transfer)[..., 1:]
+    series = np.broadcast_to(np.asarray(rin, dtype=complex), np.shape(rin)[:-1] + (len(ig) + 1,))[..., 1:]
+    share = np.asarray(v["rin"]) / series
+    kappa = 1.0 / series
+    c = kappa + 1.0 / rf + 1.0 / (rf * ig)
+    q = share * c + (1.0 - share) * kappa
+    a, b, k = np.abs(share) ** 2, 2.0 * np.real(np.conj(share) * q), np.abs(q) ** 2
+    e, f = 2.0 * np.real(c), np.abs(c) ** 2
+    low, high = v[SUMMED_LOW], v[SUMMED_HIGH]
+    a2, b2, c2 = a * e - b, 2.0 * (a * f - k), b * f - k * e
+    with np.errstate(divide="ignore", invalid="ignore"):
+        root = np.sqrt(b2 * b2 - 4.0 * a2 * c2)
+        half = -0.5 * (b2 + np.copysign(root, b2))
+        points = [low, high, np.clip(half / a2, low, high), np.clip(c2 / half, low, high)]
+        gains = np.array([np.sqrt((a * y * y + b * y + k) / (y * y + e * y + f)) for y in points])
+    largest, smallest = np.nanmax(gains, axis=0), np.nanmin(gains, axis=0)
+    target = np.where(v[SUMMED_AC] <= low, largest * (1 + 1e-9), smallest * (1 - 1e-9))
+    size = np.abs(band)
+    scaled_band = np.where(size > 0, band * (target / np.where(size > 0, size, 1.0)), target)
+    full = np.concatenate(
+        [np.broadcast_to(transfer[..., :1], scaled_band.shape[:-1] + (1,)), scaled_band], axis=-1
+    )
+    return replace(node, transfers={**node.transfers, "in": full})
 
 
 def virtual_earth_input(rin, drive, amp: OpAmpNodes, inverse_gain) -> Node:
