@@ -113,7 +113,7 @@ def analyse(
 
             rare = estimate(layout, lin or linearise(layout), seed=chain.conditions.seed)
             stop()
-    headroom_found = headroom_db(prepared, corner_stages) if headroom else None
+    headroom_found = headroom_db(prepared, corner_stages, stop=stop) if headroom else None
     stop()
     if design_aids:
         from railroom.engine.aids.fixes import design_aids as aids

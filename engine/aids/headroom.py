@@ -39,7 +39,7 @@ def _check_scale(result, check: str) -> float:
     return 1.0
 
 
-def headroom_db(prepared: corners.Prepared, at_full_scale=None) -> float | None:
+def headroom_db(prepared: corners.Prepared, at_full_scale=None, stop=None) -> float | None:
     """dB the source AC amplitude may rise (negative: must fall) before a stage leaves the linear
     regime; None without an AC part or when DC alone already fails. `at_full_scale`: the corners
     results of `prepared` at the file's amplitude when the caller has them (saves one walk;
@@ -48,13 +48,16 @@ def headroom_db(prepared: corners.Prepared, at_full_scale=None) -> float | None:
     The least linear margin falls almost linearly with the amplitude, so a false-position search
     on the amplitude (Illinois variant; Dahlquist & Bjorck, Numerical Methods, 6.2) brackets the
     edge in a handful of passes; a final step keeps the answer on the linear side, to 0.01 dB, and the figure is rounded down
-    to the 0.01 dB below, so the amplitude it names is itself linear."""
+    to the 0.01 dB below, so the amplitude it names is itself linear. `stop()`, called before
+    each walk, raises to end a search gone stale (analysis.Stopper)."""
     if prepared.chain.source.amplitude <= 0:
         return None
     if all(plan.block.saturates or plan.block.window_only for plan in prepared.plans):
         return None  # no stage with a linear regime to leave: no headroom to quote
 
     def room(scale: float) -> float:
+        if stop is not None:
+            stop()
         return linear_room(corners.walk(prepared, scale=scale, lean=True))
 
     low, room_low = 0.0, room(0.0)

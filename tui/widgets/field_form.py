@@ -143,6 +143,8 @@ class FieldForm(VerticalScroll):
         self.drafts = drafts
         self.focus_key = focus_key
         self.closing = False
+        # what each field's message line says (as composed: its help), and whether a problem
+        self._messages: dict[str, tuple[str, bool]] = {f.key: (f.shape.help, False) for f in fields}
 
     def compose(self) -> ComposeResult:
         yield Label(Text(self.title_words), classes="form-title")
@@ -246,8 +248,10 @@ class FieldForm(VerticalScroll):
 
     def _message(self, key: str, words: str, problem: bool) -> None:
         message = self.query_one(f"#message-{key}", Label)
-        message.update(Text(words))
-        message.set_class(problem, "problem")
+        if self._messages.get(key) != (words, problem):  # unchanged: no repaint, no layout pass
+            self._messages[key] = (words, problem)
+            message.update(Text(words))
+            message.set_class(problem, "problem")
 
     def remove_emptied(self, remove: Callable[[str], str | None]) -> None:
         """The form is closing: a field left empty is removed from the file now (`remove` gives
