@@ -152,3 +152,20 @@ async def test_a_keystroke_stops_the_running_full_check_at_its_next_phase(make_a
         assert ended[1:] == ["finished"]  # the newer full check ran to the end and is shown
         assert app.result.headroom_db is not None  # (the instant check leaves it out)
         assert box.value == "22k"
+
+
+async def test_a_value_longer_than_its_field_scrolls_to_the_cursor(make_app, two_stage):
+    """The field's virtual size follows the text without a layout pass (FieldInput): a value
+    wider than the field still scrolls so that the cursor and the last characters show."""
+    app = make_app(two_stage)
+    async with app.run_test(size=SIZE) as pilot:
+        box = await open_gain_stage_rf(pilot)
+        box.selection = box.selection.cursor(len(box.value))
+        long = "".join(str(i % 10) for i in range(3 * box.size.width)) + "END"
+        burst(app, list(long))
+        await settle(pilot)
+        assert box.value == "10k" + long
+        assert box.virtual_size.width == len(box.value) + 1  # the text and the cursor after it
+        assert box.scroll_offset.x == len(box.value) + 1 - box.content_region.width
+        shown = "".join(segment.text for segment in box.render_line(0))
+        assert "END" in shown

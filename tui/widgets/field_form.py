@@ -17,7 +17,9 @@ from textual import events
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, VerticalScroll
+from textual.geometry import Size
 from textual.message import Message
+from textual.reactive import Reactive
 from textual.widgets import Input, Label, Select
 
 from railroom.engine import FieldShape, value_problem
@@ -53,6 +55,14 @@ class FieldInput(Input):
     """
 
     FORM_KEYS = {"tab": "next_field", "shift+tab": "previous_field", "escape": "close"}
+
+    # Input sets its virtual size to the text's width on every keystroke, and the widget's
+    # virtual size asks for a layout of the whole screen when it changes (some 20 ms with the
+    # stage list and the form on it, on the event loop, beside the worker checking the text).
+    # A field is one line of fixed width and height (railroom.tcss .form-value) without scroll
+    # bars: the text scrolls inside it by the cursor (Input.scroll_offset, read against the
+    # virtual size directly), so the new size needs a repaint only.
+    virtual_size: Reactive[Size] = Reactive(Size(0, 0), layout=False, repaint=True)
 
     async def _on_key(self, event: events.Key) -> None:
         focused = self.app.focused
