@@ -129,6 +129,12 @@ RESPONSES = Kept()
 STAGE_FACTS = Kept()  # gain errors and peak frequencies: small
 
 
+def clear() -> None:
+    """Forget everything kept (a benchmark's cold check)."""
+    RESPONSES.clear()
+    STAGE_FACTS.clear()
+
+
 def respond(
     block, part, v: Mapping[str, np.ndarray], s: np.ndarray, inverse_gain, differential: bool, handed: set
 ):

@@ -29,8 +29,7 @@ def instant(chain, parts=PARTS):
 
 
 def cold(chain, parts=PARTS):
-    reuse.RESPONSES.clear()
-    reuse.STAGE_FACTS.clear()
+    reuse.clear()
     return instant(chain, parts)
 
 
@@ -44,8 +43,7 @@ def test_every_check_of_a_typing_sequence_is_the_check_on_an_empty_store():
     text = filter_chain_text(10)  # two of each filter kind: stages the store may share
     chains = [chain_from_text(typed(text, r1), "<t>") for r1 in KEYSTROKES[:7]]
     expected = [repr(cold(chain)) for chain in chains]
-    reuse.RESPONSES.clear()
-    reuse.STAGE_FACTS.clear()
+    reuse.clear()
     warm = [repr(instant(chain)) for chain in chains + chains[::-1]]
     assert warm == expected + expected[::-1]
     assert reuse.RESPONSES.hits > 0  # the store was used (a test that cannot fail otherwise)
@@ -54,8 +52,7 @@ def test_every_check_of_a_typing_sequence_is_the_check_on_an_empty_store():
 def test_a_full_check_after_kept_instant_ones_is_the_cold_full_check():
     chain = chain_from_text(typed(filter_chain_text(6), "12k"), "<t>")
     expected = repr(cold(chain) and analyse(chain, PARTS))  # the store holds the instant check's
-    reuse.RESPONSES.clear()
-    reuse.STAGE_FACTS.clear()
+    reuse.clear()
     assert repr(analyse(chain, PARTS)) == expected
 
 
