@@ -82,6 +82,7 @@ class RailroomApp(App):
         self.result: ChainResult | None = None
         self._generation = 0
         self._full_timer: Timer | None = None
+        self._edit_running = False  # an instant check of typed text is computing (type_edit)
         # field edits typed but not yet checked: (form, field) -> (edit, where its verdict goes)
         self._pending: dict[tuple[str, str], tuple[Callable[[str], str], Callable]] = {}
 
@@ -125,28 +126,57 @@ class RailroomApp(App):
         self, step: tuple[str, str], change: Callable[[str], str], judged: Callable[[str | None], None]
     ) -> None:
         """A keystroke's edit of one field (`step`: form and field): loaded and checked in a
-        worker thread, so the event loop never waits on the engine while the user types. A newer
-        keystroke supersedes it; `judged(problem or None)` runs when the newest result is in."""
+        worker thread, so the event loop never waits on the engine while the user types.
+
+        Single flight: at most one instant check computes at a time. A keystroke while one runs
+        only records its edit (every character is in the field already) and makes the running
+        check stale, which stops it at its next phase (analyse's `cancelled`); when it ends, the
+        newest pending text is checked, the ones typed in between never are. A full check still
+        running stops the same way. `judged(problem or None)` runs when the newest result is in."""
         self._pending[step] = (change, judged)
         self._generation += 1
         self._stop_full_timer()
+        if not self._edit_running:
+            self._start_edit_job()
+
+    def _start_edit_job(self) -> None:
+        self._edit_running = True
         self.run_worker(
             partial(self._edit_job, self._generation, self.open_session.text, list(self._pending.items())),
             thread=True,
-            exclusive=True,
             group="edit",
             exit_on_error=False,
         )
 
     def _edit_job(self, generation: int, base: str, steps: list) -> None:
         """In a worker thread: every pending field edit applied to `base`, loaded and checked
-        (corners, without design aids). Only reads the session; the app thread keeps the result."""
-        worker = get_current_worker()
+        (corners, without design aids). Only reads the session; the app thread keeps the result.
+        Always hands back to the app thread (`_edit_done`), stale or not: that ends the flight."""
+        prepared: tuple[str, Chain, Library] | None = None
+        outcomes: dict[tuple[str, str], str | None] = {}
+        result = None
+        try:
+            prepared, outcomes, result = self._edit_check(generation, base, steps)
+        except Cancelled:
+            prepared, result = None, None  # stale: a newer keystroke or command came meanwhile
+        except Exception as err:  # never lose the app (and the typing) to a bug here
+            outcomes = {step: f"the check failed: {err!r}" for step, _ in steps}
+            prepared, result = None, None
+        finally:
+            try:
+                self.call_from_thread(self._edit_done, generation, base, steps, prepared, outcomes, result)
+            except RuntimeError:
+                pass  # the app closed meanwhile
+
+    def _edit_check(self, generation: int, base: str, steps: list):
+        def stale() -> bool:
+            return generation != self._generation
+
         text, prepared = base, None
         outcomes: dict[tuple[str, str], str | None] = {}
         for step, (change, _) in steps:
-            if worker.is_cancelled:
-                return
+            if stale():
+                raise Cancelled()
             try:
                 found = self.open_session.prepare(text, change)
             except Exception as err:  # never lose the app (and the typing) to a bug here
@@ -156,21 +186,23 @@ class RailroomApp(App):
             else:
                 text, prepared, outcomes[step] = found[0], found, None
         result = None
-        if prepared is not None and not worker.is_cancelled:
+        if prepared is not None:
             try:
                 result = analyse(
-                    prepared[1], prepared[2].parts, method="corners", design_aids=False, headroom=False
+                    prepared[1],
+                    prepared[2].parts,
+                    method="corners",
+                    design_aids=False,
+                    headroom=False,
+                    cancelled=stale,
                 )
+            except Cancelled:
+                raise
             except Exception as err:
                 for step in outcomes:
                     outcomes[step] = f"the check failed: {err!r}"
                 prepared = None
-        if worker.is_cancelled:
-            return
-        try:
-            self.call_from_thread(self._edit_done, generation, base, steps, prepared, outcomes, result)
-        except RuntimeError:
-            pass  # the app closed meanwhile
+        return prepared, outcomes, result
 
     def _edit_done(
         self,
@@ -181,8 +213,12 @@ class RailroomApp(App):
         outcomes: dict,
         result: ChainResult | None,
     ) -> None:
+        self._edit_running = False
         if generation != self._generation or base != self.open_session.text:
-            return  # a newer keystroke (or command) owns the screen
+            # a newer keystroke (or command) owns the screen: check what is pending now
+            if self._pending and self.session is not None:
+                self._start_edit_job()
+            return
         self._pending.clear()
         if prepared is not None:
             step = steps[0][0] if len(steps) == 1 else None
@@ -244,24 +280,31 @@ class RailroomApp(App):
         status = self.chain_screen.query_one("StatusLine", StatusLine)
         last = [0.0]
 
+        def stale() -> bool:
+            return worker.is_cancelled or generation != self._generation
+
         def progress(fraction: float) -> bool:
-            # a few repaints a second at most; False stops a run a newer edit made stale
+            # a few repaints a second at most
             now = time.monotonic()
             if now - last[0] > 0.2:
                 last[0] = now
                 self.call_from_thread(status.progress, fraction)
-            return not worker.is_cancelled and generation == self._generation
+            return True
 
+        # a newer edit (or keystroke) makes the run stale: analyse stops at its next phase
         try:
-            result = analyse(chain, parts, progress=progress)
+            result = analyse(chain, parts, progress=progress, cancelled=stale)
         except Cancelled:
             return
         except (NotImplementedError, InputError, ValueError) as err:
             problem = str(err)
-            if worker.is_cancelled:
+            if stale():
                 return
-            result = analyse(chain, parts, method="corners")
-        if not worker.is_cancelled:
+            try:
+                result = analyse(chain, parts, method="corners", cancelled=stale)
+            except Cancelled:
+                return
+        if not stale():
             self.call_from_thread(self.full_done, generation, result, problem)
 
     def full_done(self, generation: int, result: ChainResult, problem: str) -> None:

@@ -54,15 +54,20 @@ def design_aids(
     headroom: float | None,
     lin=None,
     baseline: list[StageResult] | None = None,
+    stop=None,
 ) -> list[StageResult]:
     """Stages with sensitivity (every stage) and fixes (failing or tight stages) filled in.
     `lin`: the full-band linearisation when the caller has it; `baseline`: the verdicts the
-    Evaluator would find for the unchanged chain (see Evaluator), when the caller has them."""
+    Evaluator would find for the unchanged chain (see Evaluator), when the caller has them;
+    `stop()`, called before each stage's search, raises to end a run gone stale
+    (analysis.Stopper)."""
     lin = lin or linearise(layout_for(chain, plans, freqs, corner_stages, band="full"))
     statistical = chain.conditions.method != "corners"
     evaluate = Evaluator(chain, plans, freqs, baseline, lin)
     aided = []
     for plan, result in zip(plans, stages):
+        if stop is not None:
+            stop()
         sensitivity = ranking(lin, plan.index, result.limiting, statistical)
         fixes: tuple[Fix, ...] = ()
         if fed_clipped(result):

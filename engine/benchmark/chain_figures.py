@@ -20,6 +20,7 @@ from railroom.engine.benchmark.chains import filter_chain_text
 from railroom.engine.formats.chain_file import chain_from_text
 from railroom.engine.methods import corners, montecarlo
 from railroom.engine.walks import circuit_walk as dw
+from railroom.engine.walks import reuse
 from railroom.engine.walks.preparation import band_grid, plan_chain
 
 METHODS = ("corners", "rss", "montecarlo")
@@ -32,9 +33,12 @@ SLOW_S = 1.0  # a call this slow is timed once: the bench's own run time stays a
 
 
 def timed_ms(call, repeats: int) -> float:
-    """Median ms of `repeats` calls; one call when the first takes SLOW_S or more."""
+    """Median ms of `repeats` calls; one call when the first takes SLOW_S or more. Each call
+    starts with nothing kept from the one before (walks/reuse.py): a cold check, as a
+    `railroom check` process makes it (the interface's edits are timed by tui/timing.py)."""
     times: list[float] = []
     while len(times) < max(1, repeats) and not (times and times[0] >= SLOW_S):
+        reuse.clear()
         start = time.perf_counter()
         call()
         times.append(time.perf_counter() - start)
@@ -42,7 +46,8 @@ def timed_ms(call, repeats: int) -> float:
 
 
 def traced(call) -> tuple[float, float]:
-    """(seconds, peak MB) of one call under tracemalloc (it sees numpy's buffers)."""
+    """(seconds, peak MB) of one call under tracemalloc (it sees numpy's buffers), cold."""
+    reuse.clear()
     tracemalloc.start()
     try:
         start = time.perf_counter()

@@ -28,6 +28,7 @@ from railroom.engine.walks.signal_bounds import DifferentialSignal, Signal, sour
 from railroom.engine.walks.bounds_walk import plan_parents, tree_children, walk_chain
 from railroom.engine.walks.sibling_loads import family_start, family_views, passive_feeding_several
 from railroom.engine.methods.joint import envelope
+from railroom.engine.walks import reuse as kept
 from railroom.engine.circuit.nets import joint_plans
 
 MAX_CORNER_BITS = 14  # 16384 corners of one stage's own values
@@ -356,9 +357,11 @@ def prepare(
     parents = plan_parents(plans)
     children = tree_children(parents)
     views: dict = {}
+    handed: set = set()  # the responses this Prepared holds (walks/reuse.py)
     if reuse is not None and first > 0:
         first = family_start(plans, reuse.responses, children, first)
         values, responses = list(reuse.values[:first]), list(reuse.responses[:first])
+        handed.update(id(r) for r in responses)
         joint = list(reuse.joint[:first])
         views = {k: view for k, view in reuse.views.items() if k < first}
     # with `reuse` and `stop` on a chain in one line, stages from `stop` on keep reuse's (the walk
@@ -369,6 +372,8 @@ def prepare(
         if reuse is None or stop is None or not in_line
         else max(min(stop, len(plans)), len(values))
     )
+    if reuse is not None and last < len(plans):
+        handed.update(id(r) for r in reuse.responses[last:])
     for k in range(len(values), last):
         plan, parent = plans[k], parents[k]
         if parent < 0:  # fed by the source
@@ -389,8 +394,8 @@ def prepare(
         v, paired = stage_values(plan, rise, nominal, before, rows, drive)
         inverse_gain = inverse_open_loop(None if ideal else plan.part, s)
         response = None
-        if not plan.block.saturates:
-            response = plan.block.respond(v, s, inverse_gain, v["drive"], differential)
+        if not plan.block.saturates:  # kept from an earlier check with the same inputs (reuse.py)
+            response = kept.respond(plan.block, plan.part, v, s, inverse_gain, differential, handed)
         values.append(v)
         responses.append(response)
         joint.append(paired)

@@ -131,13 +131,20 @@ def nominal_band(chain: Chain, plans) -> tuple[np.ndarray, tuple | None]:
     None when the grid was refined (or too short to refine)."""
     from railroom.engine.methods.corners import corner_values
 
+    from railroom.engine.walks.reuse import STAGE_FACTS, frozen, plan_key
+
     rise = chain.conditions.worst_temperature_rise
     critical = []
     for p in plans:
         if not p.block.saturates:
-            v = corner_values(p, rise)
-            # the ideal-op-amp peaks and the real ones (finite gain-bandwidth)
-            critical += [p.block.critical_frequencies(v), p.block.real_critical_frequencies(v, p.part)]
+
+            def peaks(p=p) -> tuple[np.ndarray, np.ndarray]:
+                v = corner_values(p, rise)
+                # the ideal-op-amp peaks and the real ones (finite gain-bandwidth)
+                return frozen((p.block.critical_frequencies(v), p.block.real_critical_frequencies(v, p.part)))
+
+            # kept by the stage's own inputs (walks/reuse.py): a keystroke changes one stage
+            critical += STAGE_FACTS.get(("peaks", plan_key(p), repr(rise)), peaks)
     return refined_walked(chain, plans, frequency_grid(chain, critical, chain.source.amplitude))
 
 

@@ -101,3 +101,57 @@ def test_the_quoted_headroom_is_itself_linear(text):
     prepared = corners.prepare(loaded, plans, band_grid(loaded, plans))
     at = corners.walk(prepared, 10 ** (result.headroom_db / 20))
     assert all(r.regime == "linear" for r in at)
+
+
+@pytest.mark.parametrize("amplitude", ["100m", "123m", "0.5", "0.7071", "1.3", "33m", "77m"])
+def test_the_figure_is_the_last_linear_step_of_the_hand_calculation(amplitude):
+    """Gain 1 + 90k/10k = 10 into a 14 V window (15 V rails less the 1 V headroom; Sedra &
+    Smith, ch. 2): the edge is at 14 / (10 A), so the figure is the largest 0.01 dB step not
+    past it, floor(100 x 20 log10(14 / (10 A))) / 100 (hand calculation), never one step less."""
+    a = float(amplitude[:-1]) * 1e-3 if amplitude.endswith("m") else float(amplitude)
+    edge_db = 20 * np.log10(14.0 / (10.0 * a))
+    result = analyse(chain_from_text(chain("90k", amplitude)), {"p": PART}, design_aids=False)
+    assert result.headroom_db == pytest.approx(np.floor(100 * edge_db + 1e-9) / 100, abs=1e-9)
+
+
+def walks_and_figure(loaded, parts):
+    plans = plan_chain(loaded, parts)
+    prepared = corners.prepare(loaded, plans, band_grid(loaded, plans))
+    walks = [0]
+    real = corners.walk
+
+    def counted(*args, **kwargs):
+        walks[0] += 1
+        return real(*args, **kwargs)
+
+    corners.walk = counted  # type: ignore[assignment]
+    try:
+        figure = headroom_db(prepared)
+    finally:
+        corners.walk = real  # type: ignore[assignment]
+    assert figure is not None
+    # tight: the amplitude the figure names is linear and the 0.01 dB step above it is not
+    # (false position's last linear point could sit a step lower: this chain read 9.83 there)
+    assert all(r.regime == "linear" for r in corners.walk(prepared, 10 ** (figure / 20)))
+    assert any(r.regime == "clipping" for r in corners.walk(prepared, 10 ** ((figure + 0.01) / 20)))
+    return walks[0], figure
+
+
+def test_the_figure_is_the_last_linear_step():
+    from railroom.engine.formats.presets import load_library, shipped_folder
+    from railroom.tui.timing import long_chain_text
+
+    text = long_chain_text(5).replace('amplitude = "200m"', 'amplitude = "3"')
+    text = text.replace('r = "1k"', 'r = "17.657k"', 1)
+    _, figure = walks_and_figure(chain_from_text(text), load_library([shipped_folder()]).parts)
+    assert figure == 9.84
+
+
+def test_the_search_walks_a_long_chain_as_often_as_a_short_one():
+    """Inside the linear regime every check's margin is a straight line in the amplitude, so
+    the first check's crossing predicts the edge; the search walks the same handful of times
+    at 12 stages as at 200 (false position alone took 5, 6 and 9 walks at 12, 48 and 200)."""
+    from railroom.engine.benchmark.figures import PARTS, long_chain_text
+
+    counts = {n: walks_and_figure(chain_from_text(long_chain_text(n), "<b>"), PARTS)[0] for n in (12, 200)}
+    assert counts[200] == counts[12] <= 6

@@ -38,3 +38,57 @@ def test_progress_false_stops_the_run():
     with pytest.raises(Cancelled):
         analyse(chain, parts, method="montecarlo", samples=25000, progress=stop)
     assert len(calls) == 1 and calls[0] < 1.0
+
+
+def test_cancelled_stops_analyse_at_the_boundary_that_first_says_so(monkeypatch):
+    """analyse asks `cancelled()` between its phases; the first True ends the run there with
+    Cancelled, and nothing after it runs (the headroom search and the fixes are the last)."""
+    import railroom.engine.analysis as analysis
+
+    chain, parts = demo()
+    asked: list[int] = []
+    analyse(chain, parts, cancelled=lambda: asked.append(1) is not None)  # never says stop
+    boundaries = len(asked)
+    # plan, band grid, nominal, corners prepared, corners walked, headroom, and one per stage's fixes
+    assert boundaries >= 6 + len(chain.stages)
+    searched: list[int] = []
+    real_headroom = analysis.headroom_db
+    monkeypatch.setattr(analysis, "headroom_db", lambda *a, **k: searched.append(1) or real_headroom(*a, **k))
+    for stop_at in range(1, boundaries + 1):
+        count = [0]
+
+        def cancelled() -> bool:
+            count[0] += 1
+            return count[0] >= stop_at
+
+        searched.clear()
+        with pytest.raises(Cancelled):
+            analyse(chain, parts, cancelled=cancelled)
+        assert count[0] == stop_at  # asked no more once it said stop
+        if stop_at <= 5:
+            assert not searched  # stopped before the headroom search
+
+
+def test_cancelled_in_monte_carlo_stops_between_chunks():
+    chain, parts = demo()
+    chunks: list[float] = []
+    with pytest.raises(Cancelled):
+        analyse(
+            chain,
+            parts,
+            method="montecarlo",
+            samples=25000,
+            design_aids=False,
+            progress=lambda f: chunks.append(f) or True,
+            cancelled=lambda: len(chunks) >= 1,
+        )
+    assert len(chunks) == 1  # the first chunk reported, then the run stopped
+
+
+def test_a_hook_that_never_cancels_changes_nothing():
+    chain, parts = demo()
+    plain = analyse(chain, parts, method="rss")
+    hooked = analyse(chain, parts, method="rss", cancelled=lambda: False)
+    assert [s.margins for s in plain.stages] == [s.margins for s in hooked.stages]
+    assert [s.fixes for s in plain.stages] == [s.fixes for s in hooked.stages]
+    assert plain.headroom_db == hooked.headroom_db

@@ -17,7 +17,9 @@ from textual import events
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, VerticalScroll
+from textual.geometry import Size
 from textual.message import Message
+from textual.reactive import Reactive
 from textual.widgets import Input, Label, Select
 
 from railroom.engine import FieldShape, value_problem
@@ -53,6 +55,14 @@ class FieldInput(Input):
     """
 
     FORM_KEYS = {"tab": "next_field", "shift+tab": "previous_field", "escape": "close"}
+
+    # Input sets its virtual size to the text's width on every keystroke, and the widget's
+    # virtual size asks for a layout of the whole screen when it changes (some 20 ms with the
+    # stage list and the form on it, on the event loop, beside the worker checking the text).
+    # A field is one line of fixed width and height (railroom.tcss .form-value) without scroll
+    # bars: the text scrolls inside it by the cursor (Input.scroll_offset, read against the
+    # virtual size directly), so the new size needs a repaint only.
+    virtual_size: Reactive[Size] = Reactive(Size(0, 0), layout=False, repaint=True)
 
     async def _on_key(self, event: events.Key) -> None:
         focused = self.app.focused
@@ -143,6 +153,8 @@ class FieldForm(VerticalScroll):
         self.drafts = drafts
         self.focus_key = focus_key
         self.closing = False
+        # what each field's message line says (as composed: its help), and whether a problem
+        self._messages: dict[str, tuple[str, bool]] = {f.key: (f.shape.help, False) for f in fields}
 
     def compose(self) -> ComposeResult:
         yield Label(Text(self.title_words), classes="form-title")
@@ -252,8 +264,10 @@ class FieldForm(VerticalScroll):
 
     def _message(self, key: str, words: str, problem: bool) -> None:
         message = self.query_one(f"#message-{key}", Label)
-        message.update(Text(words))
-        message.set_class(problem, "problem")
+        if self._messages.get(key) != (words, problem):  # unchanged: no repaint, no layout pass
+            self._messages[key] = (words, problem)
+            message.update(Text(words))
+            message.set_class(problem, "problem")
 
     def remove_emptied(self, remove: Callable[[str], str | None]) -> None:
         """The form is closing: a field left empty is removed from the file now (`remove` gives

@@ -56,7 +56,8 @@ class StatusLine(Vertical):
         verdict.append(verdict_words(result), style="bold green" if result.go else "bold red")
         verdict.append("  ")
         verdict.append(result.chain.title, style="bold")  # user text: a Text, never markup
-        self.query_one("#status-verdict", Static).update(verdict)
+        # one line each, whatever they say (railroom.tcss): no layout pass for a new verdict
+        self.query_one("#status-verdict", Static).update(verdict, layout=False)
         head = Text(no_wrap=True, overflow="ellipsis")
         head.append(file_label)
         if modified:
@@ -83,7 +84,7 @@ class StatusLine(Vertical):
         else:
             facts.append(f"  method {method}")
         facts.append_text(tail)
-        self.query_one("#status-facts", Static).update(facts)
+        self.query_one("#status-facts", Static).update(facts, layout=False)
 
     def running(self, method: str | None) -> None:
         """`method` runs in the background (None: nothing runs); the corners result is shown."""
