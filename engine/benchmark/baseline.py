@@ -155,14 +155,14 @@ def stage_network(block: str, v: dict, s: np.ndarray, drive: float, part, rows: 
         inner.append("plus")
     nodes = ["src", *inner, *([] if unity else ["minus"]), "out"]
     nodes += [name for name in (into, ref) if name not in (GROUND, "src")]
-    net = Stacked(nodes, rows, len(s), branches=2 + (ref != GROUND))
+    net = Stacked(nodes, rows, s.shape[-1], branches=2 + (ref != GROUND))
     net.source("src", SIGNAL, 1.0)
     if ref != GROUND:
         net.source(ref, FIXED, v["ref"][:, None])
     if into != "src":
         net.admit("src", into, 1.0 / drive)
     col = lambda name: v[name][:, None]  # noqa: E731 - (J, 1) against the (J, P) points
-    S = s[None, :]
+    S = s if s.ndim == 2 else s[None, :]  # frequencies per row, or one grid for all
     if "load" in v:
         net.admit("out", GROUND, 1.0 / col("load"))
     minus = "out" if unity else "minus"
@@ -198,7 +198,9 @@ def stage_network(block: str, v: dict, s: np.ndarray, drive: float, part, rows: 
         net.admit("a", ref, 1.0 / col("r3"))
         net.admit("a", "minus", S * col("c1"))
         net.admit("a", "out", S * col("c2"))
-    branch = net.opamp(plus, minus, "out", inverse_gain(part, s)[None, :])
+    branch = net.opamp(
+        plus, minus, "out", inverse_gain(part, s) if s.ndim == 2 else inverse_gain(part, s)[None, :]
+    )
     return net, plus, branch
 
 
@@ -261,11 +263,15 @@ def run(
     """Every stage's margins for every row of D (see the module docstring)."""
     rows = D.shape[0]
     draws = Draws(labels, D, dT)
-    s = 1j * TWO_PI * np.concatenate(([0.0], np.asarray(freqs, dtype=float)))
+    freqs = np.asarray(freqs, dtype=float)
+    if freqs.ndim == 2:  # per row (circuit_walk.row_freqs)
+        s = 1j * TWO_PI * np.hstack((np.zeros((rows, 1)), freqs))
+    else:
+        s = 1j * TWO_PI * np.concatenate(([0.0], freqs))
     source = chain.source
     if source.differential:
         raise ValueError("the baseline covers single-ended sources")
-    a = np.full((rows, len(freqs)), source.amplitude)
+    a = np.full((rows, freqs.shape[-1]), source.amplitude)
     signal = Envelope(source.level[1] + a, source.level[0] - a, a)
     drive = source.impedance
     found = []

@@ -132,7 +132,7 @@ def baseline_figures(parts, rows: int, repeats: int, quick: bool = False) -> dic
     labels = [(v.stage, v.quantity, v.kind, v.amp) for v in layout.variables]
     engine_ms = timed_ms(lambda: dw.walk_draws(layout, D, dT), repeats)
     start = time.perf_counter()
-    ours = baseline.run(chain, plans, labels, layout.freqs, D, dT)
+    ours = baseline.run(chain, plans, labels, dw.row_freqs(layout, D, dT), D, dT)
     baseline_s = time.perf_counter() - start
     theirs = dw.walk_draws(layout, D, dT)
     return {

@@ -14,6 +14,8 @@ rc_lowpass, ac_coupling, adc, comparator.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from railroom.engine.walks import circuit_walk as dw
@@ -320,4 +322,10 @@ def comparator(plan, v, signal, pos, neg, count, errors=(0.0, 0.0, 0.0)):
 
 def run_draws(layout: dw.Layout, D: np.ndarray, dT: np.ndarray) -> list[list[dict[str, float]]]:
     """The reference answer, draw by draw (a Python loop on purpose: this is the slow baseline)."""
-    return [draw_margins(layout, D[j : j + 1], float(dT[j])) for j in range(D.shape[0])]
+    if layout.peaks is None:
+        return [draw_margins(layout, D[j : j + 1], float(dT[j])) for j in range(D.shape[0])]
+    freqs = dw.row_freqs(layout, D, dT)  # each row on its own frequencies (circuit_walk.RowPeaks)
+    plain = replace(layout, peaks=None)
+    return [
+        draw_margins(dw.with_freqs(plain, freqs[j]), D[j : j + 1], float(dT[j])) for j in range(D.shape[0])
+    ]

@@ -61,8 +61,12 @@ def mixed_div(a, b):
 
 
 def laplace_grid(freqs: np.ndarray) -> np.ndarray:
-    """s = j 2 pi f with DC prepended: index 0 is s = 0, indices 1.. are the band frequencies."""
-    return 1j * TWO_PI * np.concatenate(([0.0], np.asarray(freqs, dtype=float)))
+    """s = j 2 pi f with DC prepended: index 0 is s = 0, indices 1.. are the band frequencies;
+    frequencies per row (rows, F) give (rows, F + 1), DC first in every row."""
+    freqs = np.asarray(freqs, dtype=float)
+    if freqs.ndim == 2:
+        return 1j * TWO_PI * np.concatenate((np.zeros((freqs.shape[0], 1)), freqs), axis=1)
+    return 1j * TWO_PI * np.concatenate(([0.0], freqs))
 
 
 def inverse_open_loop(part: Part | None, s: np.ndarray) -> np.ndarray:

@@ -67,7 +67,7 @@ def layout_for(
     layout = full or dw.build_layout(chain, plans, freqs, prepare(chain, plans, freqs), corner_stages)
     if band != "decisive":
         return layout
-    return dw.with_freqs(layout, dw.decisive_freqs(layout) if decisive is None else decisive)
+    return dw.peak_layout(layout, decisive)
 
 
 def chunks(

@@ -85,6 +85,27 @@ class Variable:
 
 
 @dataclass(frozen=True)
+class RowPeaks:
+    """Where each row reads its own response peaks (row_freqs, fitted by peak_layout): column
+    `columns[g]` of the layout's frequencies is, for a row with features x,
+
+        f_g = exp(base[g] + x . slopes[:, g])      clipped to the band `band`
+
+    with x_v = ln(1 + scale_v d_v) for a tolerance column and ln(1 + scale_v dT d_v) for a
+    temperature coefficient (`tempco`): the log of the factor that column puts on its value
+    (module docstring), so a peak set by a product of powers of the values (w0 of any
+    second-order section) is exactly linear in x."""
+
+    columns: np.ndarray  # (G,) indices into Layout.freqs
+    base: np.ndarray  # (G,) ln f at d = 0 (plus any offset of a widened peak)
+    slopes: np.ndarray  # (V, G) d ln f / d x_v
+    used: np.ndarray  # (V,) the variable of each x_v
+    scales: np.ndarray  # (V,)
+    tempco: np.ndarray  # (V,) bool
+    band: tuple[float, float]
+
+
+@dataclass(frozen=True)
 class Layout:
     """Everything fixed across rows: plans, the frequencies walked, columns, worst-case figures."""
 
@@ -100,6 +121,9 @@ class Layout:
     # the bias currents as a width either way per row (bias_width_of; Monte Carlo), or as the
     # signed shift Ib (|g+| + |g-|) linear in the column (the sensitivities of rss: signed_rows)
     bias_width: bool = True
+    # Monte Carlo's frequencies per row (row_freqs): the columns of `freqs` that each row moves
+    # to its own response peaks; None: every row walks `freqs` itself
+    peaks: RowPeaks | None = field(default=None, compare=False)
 
     def column(self, stage: int | None, quantity: str, kind: str, amp: int = 0) -> int | None:
         return self.columns.get((stage, quantity, kind, amp))
@@ -296,7 +320,7 @@ def start_signal(chain: Chain, freqs: np.ndarray, rows: int):
     source = chain.source
     if source.differential:
         return DifferentialSignal(source.level, source.difference, source.amplitude)
-    ones = np.ones((rows, len(freqs)), order="F")
+    ones = np.ones((rows, np.shape(freqs)[-1]), order="F")
     a = source.amplitude
     amplitude = a * ones
     return Signal(
@@ -309,6 +333,8 @@ def walk_draws(layout: Layout, D: np.ndarray, dT: np.ndarray, record: list | Non
     indices where each checked extreme falls (see decisive_freqs)."""
     rows = D.shape[0]
     D = np.asfortranarray(D)  # each quantity's column contiguous: read column by column below
+    if layout.peaks is not None:  # each row on its own frequencies (rows, F) from here on
+        layout = replace(layout, freqs=row_freqs(layout, D, dT), peaks=None)
     grid = laplace_grid(layout.freqs)
     s = per_row(grid, rows)
     source = start_signal(layout.chain, layout.freqs, rows)
@@ -442,6 +468,8 @@ def per_row(grid: np.ndarray, rows: int) -> np.ndarray:
     frequencies: every (J, 1) x (J, F+1) product in the blocks then comes out column-major too
     (numpy keeps the memory order of the full-size operand), so its inner loops run over the
     rows (walks/signal_bounds.py, Speed). The values are the grid's, repeated; answers do not change."""
+    if grid.ndim == 2:  # already per row (row_freqs)
+        return np.asfortranarray(grid)
     if rows <= len(grid):
         return grid
     return np.asfortranarray(np.broadcast_to(grid, (rows, len(grid))))
@@ -499,6 +527,261 @@ def thinned(freqs: np.ndarray, picked: np.ndarray) -> np.ndarray:
         if freqs[i] >= freqs[kept[-1]] * (1.0 + PEAK_STEP) or i == picked[-1]:
             kept.append(int(i))
     return np.asarray(kept)
+
+
+class Extremes(list):
+    """A walk's `record` (walk_draws) that keeps, for each checked extreme, per row: where it
+    falls (argmax), and on a grid even in ln f the vertex of the parabola through the largest
+    value and its two neighbours (`at`, a fractional index), its bend (y0 - 2 y1 + y2) and the
+    largest value. A plain list record keeps the argmax alone."""
+
+
+@dataclass(frozen=True)
+class Extreme:
+    argmax: np.ndarray  # (rows,) int
+    at: np.ndarray  # (rows,) the parabola's vertex, in grid steps
+    bend: np.ndarray  # (rows,) y0 - 2 y1 + y2 at the largest value (negative at a peak)
+    top: np.ndarray  # (rows,) the largest value
+
+
+def note(record: list, found: list) -> None:
+    """Append each (array (rows, F), sign) of `found` to a walk's record: its extreme's index
+    (sign +1: the largest, -1: the least) or, for an Extremes record, its Extreme."""
+    if not isinstance(record, Extremes):
+        record += [x.argmax(-1) if sign > 0 else x.argmin(-1) for x, sign in found]
+        return
+    for x, sign in found:
+        y = np.asarray(x if sign > 0 else -x)
+        best = y.argmax(-1)
+        if y.shape[-1] < 3:
+            zero = np.zeros(len(best))
+            record.append(Extreme(best, best.astype(float), zero, y.max(-1)))
+            continue
+        mid = np.clip(best, 1, y.shape[-1] - 2)
+        pick = np.arange(y.shape[0])
+        y0, y1, y2 = (y[pick, mid + d] for d in (-1, 0, 1))
+        bend = y0 - 2.0 * y1 + y2
+        with np.errstate(divide="ignore", invalid="ignore"):
+            shift = np.where(bend < 0, 0.5 * (y0 - y2) / np.where(bend < 0, bend, -1.0), 0.0)
+        record.append(Extreme(best, mid + np.clip(shift, -1.0, 1.0), bend, y[pick, best]))
+
+
+def row_freqs(layout: Layout, D: np.ndarray, dT: np.ndarray) -> np.ndarray:
+    """The frequencies each row walks (rows, F), column-major: the layout's, with the peak
+    columns (Layout.peaks) at the row's own peaks (RowPeaks). Without peaks: layout.freqs."""
+    peaks = layout.peaks
+    if peaks is None:
+        return layout.freqs
+    rows = D.shape[0]
+    found = np.empty((rows, len(layout.freqs)), order="F")
+    found[:] = layout.freqs
+    if len(peaks.used):
+        d = D[:, peaks.used]
+        scale = np.where(peaks.tempco, np.asarray(dT, dtype=float)[:, None], 1.0) * peaks.scales
+        logs = peaks.base + np.log1p(scale * d) @ peaks.slopes
+    else:
+        logs = np.broadcast_to(peaks.base, (rows, len(peaks.base)))
+    found[:, peaks.columns] = np.clip(np.exp(logs), *peaks.band)
+    return found
+
+
+PEAK_WINDOW = 1.08  # peak_layout: the fit grid reaches this factor past the three rows' extremes
+FIT_STEP = 1e-3  # peak_layout: the fit grid's spacing in ln f
+FIT_POINTS = 257  # peak_layout: points at most on one fit grid (wider ones are spaced wider)
+PEAK_READ = 1e-5  # peak_layout: the share of its value a peak may read low (columns shared)
+FLAT_READ = 5e-5  # peak_layout: the same for a flat peak on fixed columns (flat_columns)
+LEAST_SPREAD = 2e-5  # peak_layout: ln f apart that extremes always share one column
+MOST_COLUMNS = 9  # peak_layout: columns at most for one peak the linear fit places poorly
+TRUSTED = 0.75  # peak_layout: a fit missing by up to this share of the reach takes one column
+WIDER = 1.6  # peak_layout: a peak that leaves its fit grid is fitted again this much wider
+CHECK_ROWS = 16  # peak_layout: random rows (d uniform in [-1, 1]) the fit is checked on
+CHECK_SEED = 20261204  # their generator's seed: the layout is the same on every run
+FITTED = ("tolerance", "tempco")
+
+
+@dataclass(frozen=True)
+class _Peak:
+    """One checked extreme's peak as fitted: ln f = base + x . slopes, good to `spread`; read
+    low by PEAK_READ of its value `reach` off it (ln f); `residual` the fit's miss on the
+    all-high and all-low rows."""
+
+    base: float
+    slopes: np.ndarray
+    reach: float
+    residual: float
+
+
+def peak_layout(layout: Layout, decisive: np.ndarray | None = None) -> Layout:
+    """The Monte Carlo layout: each row walks the band ends and the frequencies of its flat
+    extremes (shared, decisive_from) and, for every response peak, a column at that row's own
+    peak (Layout.peaks, row_freqs), where one shared grid through the peak's range read a
+    row's own high-Q peak between its points (6.8 mV low on a Q = 5 MFB band-pass,
+    tests/references/test_per_draw_nodal.py).
+
+    The peaks: a checked extreme of the nominal, all-high and all-low rows (decisive_freqs)
+    that falls inside the band within PEAK_SPREAD for the three is one moved peak. Its place
+    ln f is fitted linear in the rows' features x (RowPeaks) by a walk on a grid FIT_STEP apart
+    in ln f around it (the three rows' range widened by PEAK_WINDOW): the nominal row, the
+    rows at d = +/-1 on each tolerance and tempco column alone (secant slopes), and the
+    all-high and all-low rows, whose miss from the fit is its residual. Each row's peak is the
+    vertex of the parabola through its three largest grid values. A peak read delta off in
+    ln f reads |y''| delta^2 / 2 low: extremes whose fitted places stay within the reach that
+    makes this PEAK_READ of their value share one column (greedy, in order of ln f); a peak
+    whose residual is more than half its reach gets up to MOST_COLUMNS columns over +/- the
+    residual. A peak the fit cannot follow (its vertex at the grid's edge in some row, or no
+    bend) keeps the shared grid of decisive_from. `decisive`: the shared frequencies when
+    the caller has them (sensitivity.linearise) and no peak is fitted."""
+    freqs = layout.freqs
+    if len(freqs) <= 2:
+        return with_freqs(layout, freqs if decisive is None else decisive)
+    K = len(layout.variables)
+    rise = decisive_rise(layout)
+    found = Extremes()
+    walk_draws(layout, np.vstack([np.zeros(K), np.ones(K), -np.ones(K)]), np.full(3, rise), found)
+    record = [e.argmax for e in found]
+    last = len(freqs) - 1
+    windows: dict[int, tuple[float, float]] = {}
+    for e, r in enumerate(record):
+        low, high = int(r.min()), int(r.max())
+        if freqs[high] <= PEAK_SPREAD * freqs[low] and ((r > 0) & (r < last)).any():
+            windows[e] = (float(freqs[low]), float(freqs[high]))
+    fitted = fit_peaks(layout, windows, rise) if windows else {}
+    if not fitted:
+        if decisive is not None:
+            return with_freqs(layout, decisive)
+        return with_freqs(layout, decisive_from(layout, record))
+    shared = decisive_from(layout, [r for e, r in enumerate(record) if e not in fitted])
+    used, scales, tempco = fitted_variables(layout)
+    bases, slopes = peak_columns([p for found in fitted.values() for p in found], checking_rows(layout, rise))
+    columns = np.arange(len(shared), len(shared) + len(bases))
+    nominal = np.clip(np.exp(bases), freqs[0], freqs[-1])
+    peaks = RowPeaks(columns, bases, slopes, used, scales, tempco, (float(freqs[0]), float(freqs[-1])))
+    return replace(layout, freqs=np.concatenate([shared, nominal]), peaks=peaks)
+
+
+def fitted_variables(layout: Layout) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The columns a peak's place is fitted on (tolerances and temperature coefficients of
+    values), their scales, and which are temperature coefficients."""
+    used = [k for k, var in enumerate(layout.variables) if var.kind in FITTED]
+    scales = np.array([layout.variables[k].scale for k in used], dtype=float)
+    tempco = np.array([layout.variables[k].kind == "tempco" for k in used], dtype=bool)
+    return np.asarray(used, dtype=np.intp), scales, tempco
+
+
+def fit_peaks(layout: Layout, ranges: dict[int, tuple[float, float]], rise: float) -> dict[int, list[_Peak]]:
+    """Each record entry of `ranges` (where the three rows put it) fitted (peak_layout); the
+    ones the fit cannot follow are left out. A peak that leaves its grid in some row is fitted
+    again once on a grid WIDER times wider either way."""
+    freqs = layout.freqs
+    used, scales, tempco = fitted_variables(layout)
+    K, V = len(layout.variables), len(used)
+    checks = np.random.default_rng(CHECK_SEED).random((CHECK_ROWS, K)) * 2.0 - 1.0
+    D = np.vstack([np.zeros((2 * V + 1, K)), np.ones(K), -np.ones(K), checks])
+    D[1 + 2 * np.arange(V), used] = 1.0
+    D[2 + 2 * np.arange(V), used] = -1.0
+    factor = np.where(tempco, rise, 1.0) * scales
+    x_hi, x_lo = np.log1p(factor), np.log1p(-factor)
+    X = np.log1p(factor * D[2 * V + 1 :, used])  # the checking rows' features
+    fitted: dict[int, list[_Peak]] = {}
+    widen = PEAK_WINDOW
+    for round in range(2):
+        windows = {
+            e: (max(lo / widen, freqs[0]), min(hi * widen, freqs[-1])) for e, (lo, hi) in ranges.items()
+        }
+        again: dict[int, tuple[float, float]] = {}
+        for start, stop, entries in merged_windows(windows):
+            n = min(max(int(np.ceil(np.log(stop / start) / FIT_STEP)) + 1, 5), FIT_POINTS)
+            step = np.log(stop / start) / (n - 1)
+            found = Extremes()
+            grid = with_freqs(layout, np.exp(np.log(start) + step * np.arange(n)))
+            walk_draws(grid, D, np.full(len(D), rise), found)
+            for e in entries:
+                peak = found[e]
+                inside = (peak.argmax > 0) & (peak.argmax < n - 1) & (peak.bend < 0)
+                if not inside[0]:
+                    continue  # the nominal row has no peak inside its grid: the shared grid
+                logs = np.log(start) + step * peak.at
+                if not inside.all():
+                    if round == 0:
+                        again[e] = ranges[e]  # the peak leaves the grid in some row
+                    else:  # fixed columns over where the rows put it (a flat peak, moved far)
+                        fitted[e] = flat_columns(peak, inside, logs, step, np.log(start), np.log(stop), V)
+                    continue
+                slopes = (logs[1 : 2 * V + 1 : 2] - logs[2 : 2 * V + 2 : 2]) / (x_hi - x_lo)
+                base = float(logs[0])
+                residual = float(np.max(np.abs(base + X @ slopes - logs[2 * V + 1 :])))
+                curvature = -peak.bend / step**2  # |y''| per (ln f)^2, per row
+                reach = float(np.min(np.sqrt(2.0 * PEAK_READ * np.abs(peak.top) / curvature)))
+                reach = max(reach, LEAST_SPREAD)
+                if residual > TRUSTED * reach and 1 + 2 * int(np.ceil(residual / reach)) > MOST_COLUMNS:
+                    # the linear fit misses by too many reaches: fixed columns where rows put it
+                    fitted[e] = flat_columns(peak, inside, logs, step, np.log(start), np.log(stop), V)
+                    continue
+                fitted[e] = [_Peak(base, slopes, reach, residual)]
+        ranges, widen = again, widen * WIDER
+        if not ranges:
+            break
+    return fitted
+
+
+def flat_columns(peak: Extreme, inside: np.ndarray, logs, step: float, start: float, stop: float, V: int):
+    """A peak that leaves even the wider fit grid in some rows (a flat one, set by a Q whose
+    peak runs off towards DC as it falls to 1/sqrt(2)): fixed columns from the lowest to the
+    highest place the fit rows put it (a row off the grid: that edge), 2 x its reach apart
+    (reach from the sharpest row inside, for FLAT_READ), at most MOST_COLUMNS of them."""
+    curvature = -peak.bend[inside] / step**2
+    reach = max(float(np.min(np.sqrt(2.0 * FLAT_READ * np.abs(peak.top[inside]) / curvature))), LEAST_SPREAD)
+    places = np.where(inside, logs, np.where(peak.argmax == 0, start, stop))
+    low, high = float(places.min()), float(places.max())
+    count = min(int(np.ceil((high - low) / (2 * reach))) + 1, MOST_COLUMNS)
+    return [_Peak(float(f), np.zeros(V), reach, 0.0) for f in np.linspace(low, high, count)]
+
+
+def checking_rows(layout: Layout, rise: float) -> np.ndarray:
+    """The features x (RowPeaks) of the rows a fit is checked on: all-high, all-low, and
+    CHECK_ROWS rows with d uniform in [-1, 1] (fit_peaks walks the same)."""
+    used, scales, tempco = fitted_variables(layout)
+    K = len(layout.variables)
+    checks = np.random.default_rng(CHECK_SEED).random((CHECK_ROWS, K)) * 2.0 - 1.0
+    D = np.vstack([np.ones(K), -np.ones(K), checks])
+    return np.log1p(np.where(tempco, rise, 1.0) * scales * D[:, used])
+
+
+def merged_windows(windows: dict[int, tuple[float, float]]) -> list[tuple[float, float, list[int]]]:
+    """The fit ranges joined where they overlap: (start, stop, the entries inside)."""
+    merged: list[tuple[float, float, list[int]]] = []
+    for e, (lo, hi) in sorted(windows.items(), key=lambda item: item[1]):
+        if merged and lo <= merged[-1][1]:
+            start, stop, entries = merged[-1]
+            merged[-1] = (start, max(stop, hi), entries + [e])
+        else:
+            merged.append((lo, hi, [e]))
+    return merged
+
+
+def peak_columns(peaks: list[_Peak], X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(base (G,), slopes (V, G)) of the peak columns. A peak whose fit misses by its residual r
+    takes m = 1 + 2 ceil(r / reach) places over +/- r (one where r <= reach / 2), each within
+    half their spacing of the rows' peak; a place shares a column already taken where the two
+    fitted places stay within its reach less that on the checking rows X (their features; the
+    greedy grouping of peak_layout)."""
+    bases: list[float] = []
+    slopes: list[np.ndarray] = []
+    for peak in sorted(peaks, key=lambda p: p.base):
+        count = (
+            1 if peak.residual <= TRUSTED * peak.reach else 1 + 2 * int(np.ceil(peak.residual / peak.reach))
+        )
+        covered = peak.residual if count == 1 else peak.residual / (count - 1)
+        room = peak.reach - covered
+        for offset in np.linspace(-peak.residual, peak.residual, count) if count > 1 else [0.0]:
+            place = peak.base + float(offset)
+            for g in range(len(bases)):
+                if float(np.max(np.abs(bases[g] - place + X @ (slopes[g] - peak.slopes)))) <= room:
+                    break
+            else:
+                bases.append(place)
+                slopes.append(peak.slopes)
+    return np.asarray(bases), np.stack(slopes, axis=1) if slopes else np.zeros((X.shape[1], 0))
 
 
 def head_rows(draws: StageDraws, rows: int) -> StageDraws:
@@ -598,14 +881,17 @@ def opamp_draws(
     current = bounds_of(amp.current, v, signal, offsets, bias, known)
     out_hi, out_lo = band_max(out.hi), band_min(out.lo)
     if record is not None:
-        record += [
-            out.hi.argmax(-1),
-            out.lo.argmin(-1),
-            plus.hi.argmax(-1),
-            plus.lo.argmin(-1),
-            np.maximum(np.abs(current.hi), np.abs(current.lo)).argmax(-1),
-            (freqs * out.amp_hi).argmax(-1),
-        ]
+        note(
+            record,
+            [
+                (out.hi, 1),
+                (out.lo, -1),
+                (plus.hi, 1),
+                (plus.lo, -1),
+                (np.maximum(np.abs(current.hi), np.abs(current.lo)), 1),
+                (freqs * out.amp_hi, 1),
+            ],
+        )
     sourced, sunk = load_currents(band_max(current.hi), band_min(current.lo), out_hi, out_lo, load)
     drop_high, drop_low = output_drops(part, sourced, sunk)
     low, high = neg + part.output_headroom[1] + drop_low, pos - part.output_headroom[0] - drop_high
@@ -665,7 +951,7 @@ def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None
     margins = stage_margins([m for m, _ in found], plan, pos, neg)
     out_hi, out_lo = band_max(out.hi), band_min(out.lo)
     if record is not None:
-        record += [out.hi.argmax(-1), out.lo.argmin(-1)]
+        note(record, [(out.hi, 1), (out.lo, -1)])
     window = (found[-1][1]["window-low"], found[-1][1]["window-high"]) if found else None
     if plan.block.window_only:
         window = (v["low"][:, 0], v["high"][:, 0])
@@ -822,7 +1108,7 @@ def saturated_draws(layout: Layout, k: int, v, D, signal, dT=None, drive=0.0):
         linear &= margins[check] >= 0
     top = np.where(reach_high, high, low)
     bottom = np.where(reach_low, low, high)
-    zero = np.zeros((rows, len(layout.freqs)), order="F")  # column-major: walks/signal_bounds.py, Speed
+    zero = np.zeros((rows, layout.freqs.shape[-1]), order="F")  # column-major: walks/signal_bounds.py, Speed
     spans = {
         "out-low": bottom,
         "out-high": top,

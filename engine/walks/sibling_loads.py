@@ -54,6 +54,8 @@ class Others:
         if self.kappa is None or self.kappa_freqs is None:
             return None
         freqs = np.asarray(freqs, dtype=float)
+        if freqs.ndim == 2:  # frequencies per row (circuit_walk.row_freqs): off its grid
+            return np.full(freqs.shape[-1] + 1, float(np.max(self.kappa)))
         at = np.searchsorted(self.kappa_freqs, freqs)
         at = np.minimum(at, len(self.kappa_freqs) - 1)
         if len(self.kappa_freqs) and np.allclose(self.kappa_freqs[at], freqs, rtol=1e-12, atol=0.0):

@@ -69,7 +69,7 @@ def test_baseline_agrees_with_the_engine_on_a_tiny_chain():
     layout = montecarlo.layout_for(chain, plans, freqs, corners.walk(corners.prepare(chain, plans, freqs)))
     D, dT = next(montecarlo.chunks(layout, 40, chain.conditions.seed, chunk=40))
     labels = [(v.stage, v.quantity, v.kind, v.amp) for v in layout.variables]
-    ours = baseline.run(chain, plans, labels, layout.freqs, D, dT)
+    ours = baseline.run(chain, plans, labels, dw.row_freqs(layout, D, dT), D, dT)
     engine = dw.walk_draws(layout, D, dT)
     assert [set(m) for m in ours] == [set(s.margins) for s in engine]
     found = agreement(engine, ours)

@@ -35,6 +35,8 @@ def test_rows_per_walk_shrink_with_the_frequencies_and_answers_do_not_change(mon
     chain = args.chain
     whole_run = montecarlo.run(args)
     whole, whole_yield = whole_run.stages, whole_run.chain_yield
+    layout = montecarlo.layout_for(chain, args.plans, args.freqs, args.corner_stages)
+    fitted = len(dw.fitted_variables(layout)[0])
     rows: list[int] = []
     real = dw.walk_draws
 
@@ -46,8 +48,13 @@ def test_rows_per_walk_shrink_with_the_frequencies_and_answers_do_not_change(mon
     monkeypatch.setattr(montecarlo, "CHUNK_CELLS", 1024 * 4)  # under 1024 rows' worth
     bounded_run = montecarlo.run(args)
     bounded, bounded_yield = bounded_run.stages, bounded_run.chain_yield
-    drawn = rows[1:]  # after the 3-row walk that finds the decisive frequencies
-    assert rows[0] == 3 and max(drawn) == 1024 and sum(drawn) == chain.conditions.samples
+    # the layout's walks first: the 3-row decisive walk, then one fit walk per peak range
+    # (circuit_walk.fit_peaks: nominal, +/-1 on each fitted column, all-high and all-low, and
+    # CHECK_ROWS checking rows)
+    fit_rows = 2 * fitted + 3 + dw.CHECK_ROWS
+    drawn = [r for r in rows[1:] if r != fit_rows]
+    assert rows[0] == 3 and fit_rows in rows[1:] and max(drawn) == 1024
+    assert sum(drawn) == chain.conditions.samples
     assert bounded_yield == whole_yield
     assert margins_of(bounded) == margins_of(whole)
 

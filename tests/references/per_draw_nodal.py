@@ -55,10 +55,14 @@ class Columns:
         return np.zeros(self.D.shape[0]) if k is None else self.D[:, k]
 
 
-def rows_reference(chain, plans, variables, freqs, D, dT, pins=(1.0, 1.0), dense: int = 80) -> list[dict]:
+def rows_reference(
+    chain, plans, variables, freqs, D, dT, pins=(1.0, 1.0), dense: int = 80, spans: bool = False
+) -> list[dict]:
     """Every stage's margins per row of D (arrays (J,)), from one whole-chain netlist per row.
     `pins`: the signs of the currents into the + and - pins for the row's drawn bias Ib (both
-    into the pins as bipolar inputs draw them: (1, 1); opposite, an offset current: (1, -1))."""
+    into the pins as bipolar inputs draw them: (1, 1); opposite, an offset current: (1, -1)).
+    `spans`: each op-amp stage's entry also holds its output's extremes over the band
+    ("span-low", "span-high": the lowest and highest instantaneous output, V)."""
     cols = Columns(variables, D, dT)
     J = D.shape[0]
     band = chain.source.band
@@ -150,4 +154,6 @@ def rows_reference(chain, plans, variables, freqs, D, dT, pins=(1.0, 1.0), dense
                 "supply": np.minimum(span - part.supply[0], part.supply[1] - span),
             }
         )
+        if spans:
+            found[-1].update({"span-low": v_lo, "span-high": v_hi})
     return found
