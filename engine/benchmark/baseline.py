@@ -20,7 +20,8 @@ circuit math is its own:
   gain g; the offset enters as a signed shift, the bias currents as a width either way, the
   magnitude of each pin's gain times the drawn |Ib| (the pins' currents are not known to share
   a sign);
-- a stage whose checks fail passes its output held inside its own swing window;
+- a stage whose checks fail passes its output held between its rails less the headroom (the
+  highest it can clip at: no output-current drop);
 - the margins are the README's checks: output high / low headroom (grown by the part's output
   resistance times the current sourced / sunk), input common mode at the + pin, output current
   (the op amp's own branch current plus each fed stage's input conductance at its worst over
@@ -336,7 +337,9 @@ def opamp_stage(chain, plans, k, v, s, drive, draws, signal, freqs):
     for check, value in margins.items():
         if check != "supply":
             clipped |= value < 0
-    low, high = bottom[:, None], top[:, None]
+    # a clipping row's output sits at most at its rails less the headroom, no current drop
+    low = (neg + part.output_headroom[1])[:, None]
+    high = (pos - part.output_headroom[0])[:, None]
     half = np.maximum((high - low) / 2.0, 0.0)
     pick = clipped[:, None]
     passed = Envelope(

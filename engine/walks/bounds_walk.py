@@ -310,7 +310,7 @@ def walk_chain(
         if notes is not None:
             measure = replace(measure, **notes[k])
         result = judge(measure, plan.part, plan.rails, chain.conditions.margin, lean=lean)
-        window = measure.window if result.regime == "clipping" and measure.window is not None else None
+        window = clip_window(plan, measure) if result.regime == "clipping" else None
         clip_slope = None
         if window is not None:
             # the clipped output is no steeper than the unclipped need, nor than the slew rate
@@ -319,6 +319,24 @@ def walk_chain(
         handed[k] = (k, bounds, passed, getattr(signal, "fed_clipped", False), window, slope, clip_slope)
         results[k] = result
     return [results[k] for k in sorted(results)]
+
+
+def clip_window(plan: StagePlan, measure: StageMeasure) -> tuple[float, float] | None:
+    """Where a clipping stage's output may sit, for what it hands on: its output op amp's swing
+    at the rails' outer ends with no output current (the clip level rises with the rail and
+    falls with the current drawn at it). The stage's own window is the opposite, the narrowest
+    (lowest positive rail, the largest current): clamping what it hands on to that read the
+    stages after it up to a rail tolerance short, a GO they do not have (a 12 V +/- 5 % rail
+    clipping into 1k: handed on up to 9.6 V where it reaches 10.3 V, see
+    tests/engine/test_clipped_hand_on.py)."""
+    if measure.window is None:
+        return None
+    part = plan.part
+    if part is None or not measure.opamps:
+        return measure.window
+    low = plan.rails.negative_range[0] + part.output_headroom[1]
+    high = plan.rails.positive_range[1] - part.output_headroom[0]
+    return min(low, measure.window[0]), max(high, measure.window[1])
 
 
 def view_hand_on(prepared, k: int, fed_parent, handed: tuple) -> Signal:

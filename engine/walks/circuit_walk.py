@@ -905,6 +905,10 @@ def opamp_draws(
         "in-high": in_hi,
         "window-low": low,
         "window-high": high,
+        # where the row's output sits when it clips (bounds_walk.clip_window): its rails less
+        # the headroom, no current drop (the drop at its unclipped extreme is the largest)
+        "window-clip-low": neg + part.output_headroom[1],
+        "window-clip-high": pos - part.output_headroom[0],
     }
     return margins, spans
 
@@ -952,7 +956,9 @@ def linear_draws(layout: Layout, k: int, response, v, D, dT, signal, record=None
     out_hi, out_lo = band_max(out.hi), band_min(out.lo)
     if record is not None:
         note(record, [(out.hi, 1), (out.lo, -1)])
-    window = (found[-1][1]["window-low"], found[-1][1]["window-high"]) if found else None
+    window = (
+        (found[-1][1]["window-clip-low"], found[-1][1]["window-clip-high"]) if found else None
+    )  # what it hands on
     if plan.block.window_only:
         window = (v["low"][:, 0], v["high"][:, 0])
         if converter_loaded(plan, response, layout.loads[k]):  # its node loaded (bounds_walk)
