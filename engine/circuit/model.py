@@ -80,6 +80,9 @@ class Rails:
     # the positive voltage held at one value: one joint corner of the shared values (a
     # ratiometric net follows this rail, so its windows and the net take the same end)
     pinned: float | None = None
+    # the negative voltage held at one value (corners.rail_pinned_walks: a clipping stage's
+    # clip level and the windows of the stages after it on the same rail, at one rail value)
+    pinned_negative: float | None = None
 
     # the ranges are read in every walk of every stage: found once per Rails (frozen)
     @cached_property
@@ -91,6 +94,8 @@ class Rails:
 
     @cached_property
     def negative_range(self) -> tuple[float, float]:
+        if self.pinned_negative is not None:
+            return (self.pinned_negative, self.pinned_negative)
         ends = (self.negative * (1 - self.tolerance), self.negative * (1 + self.tolerance))
         return (min(ends), max(ends))
 

@@ -15,7 +15,7 @@ from __future__ import annotations
 import itertools
 from collections.abc import Callable
 from functools import partial
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -427,11 +427,68 @@ def start_signal(chain: Chain, freqs: np.ndarray, scale: float = 1.0) -> Signal 
     return source_signal(source.level, source.amplitude * scale, freqs)
 
 
+MAX_PINNED_BITS = 4  # rail_pinned_walks: at most 16 walks of the chain
+
+
 def run(setup, progress=None):
     """The corners verdicts of every stage (methods.Setup in, methods.Outcome out)."""
     from railroom.engine.methods import Outcome
 
-    return Outcome(walk(setup.prepared, notes=setup.notes))
+    stages = walk(setup.prepared, notes=setup.notes)
+    pinned = rail_pinned_walks(setup.prepared, stages)
+    if pinned:
+        chain = setup.prepared.chain
+        walks = [walk_chain(p, start_signal(chain, p.freqs), False, setup.notes) for p in pinned]
+        stages = envelope(walks, setup.prepared.plans, chain.conditions.margin)
+    return Outcome(stages)
+
+
+def rail_pinned_walks(prepared: Prepared, stages) -> list[Prepared] | None:
+    """The chain once per joint end of each toleranced rail that a clipping stage and a stage
+    it feeds (however far down its branch) both use, each walk with those rails held at one
+    value; None when there is none (or nets already walk joint corners, or too many ends).
+
+    A clipping stage hands on its output at the levels it can clip at, its rails' outer ends
+    (bounds_walk.clip_window), and a stage after it on the same rail takes its windows at that
+    rail's worst end: apart, the two read a clip at 5.22 V against an input limit of 4.85 V on a
+    5 V +/- 5 % rail, where at any one rail value the clip sits 130 mV under the limit
+    (tests/chains/alarms_nogo.toml). Walked at each end and enveloped (methods/joint.py) both
+    take the same rail value, as on the board; every other figure is the same as one walk's,
+    as each is monotone in a rail (the worst over both ends is the worst over the range)."""
+    if prepared.joint_walks or not any(r.regime == "clipping" for r in stages):
+        return None
+    plans = prepared.plans
+    parents = plan_parents(plans)
+    shared: set[str] = set()
+    for k, plan in enumerate(plans):
+        j = parents[k]
+        while j >= 0:
+            if (
+                stages[j].regime == "clipping"
+                and plans[j].part is not None
+                and plans[j].rails.name == plan.rails.name
+            ):
+                shared.add(plan.rails.name)
+            j = parents[j]
+    rails = {plan.rails.name: plan.rails for plan in plans if plan.rails.name in shared}
+    ends = []
+    for name in sorted(rails):
+        rail = rails[name]
+        for side, span in (("positive", rail.positive_range), ("negative", rail.negative_range)):
+            if span[0] != span[1]:
+                ends.append((name, side, span))
+    if not ends or len(ends) > MAX_PINNED_BITS:
+        return None
+    variants = []
+    for corner in itertools.product((0, 1), repeat=len(ends)):
+        held = dict(rails)
+        for (name, side, span), bit in zip(ends, corner):
+            if side == "positive":
+                held[name] = replace(held[name], pinned=span[bit])
+            else:
+                held[name] = replace(held[name], pinned_negative=span[bit])
+        variants.append([replace(p, rails=held.get(p.rails.name, p.rails)) for p in plans])
+    return [prepare(prepared.chain, v, prepared.freqs) for v in variants]
 
 
 def walk(

@@ -69,3 +69,21 @@ def test_the_stage_after_a_clip_is_fed_up_to_the_highest_clip_level(method):
         assert PHYSICAL <= top <= BOUND + 1e-9
     else:  # Monte Carlo's 0.1 % quote: the rows near the rail's top clip near 11.1 V
         assert top >= PHYSICAL
+
+
+def test_a_stage_on_the_clipping_stages_rail_meets_its_clip_at_the_same_rail_value():
+    # tests/chains/alarms_nogo.toml: a gain on 5 V +/- 5 % clips; the comparator after it on
+    # the same rail reads the clip level (the rail less 30 mV of output headroom) against its
+    # input limit (the rail plus 0.1 V, a negative input headroom): 130 mV of room at every
+    # rail value (hand calculation). Taken apart, the clip at the rail's top (5.22 V) met the
+    # limit at its bottom (4.85 V): -370 mV, a failure the board does not have.
+    from pathlib import Path
+
+    import railroom
+
+    chain = railroom.load(str(Path(__file__).resolve().parents[1] / "chains" / "alarms_nogo.toml"))
+    found = analyse(chain, railroom.parts_for(chain), design_aids=False, headroom=False)
+    gain, alarm, latch = found.stages
+    assert gain.regime == "clipping" and not found.go
+    assert alarm.margins["input-high"] == pytest.approx(0.13, abs=1e-9)
+    assert alarm.go and alarm.reasons == ("fed-clipped",)

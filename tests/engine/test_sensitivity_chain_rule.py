@@ -232,5 +232,9 @@ def test_a_margin_nothing_moves_has_no_ranking():
     from railroom.engine.analysis import analyse
 
     result = analyse(chain, railroom.parts_for(chain))
-    assert result.stages[2].limiting == "input-high"
+    # with the gain's clip and the trigger's windows at one rail value (corners.rail_pinned_walks)
+    # input-high has 131.7 mV and input-low 130.0 mV: the low level (0 V rail + 30 mV of output
+    # headroom, through the divider) against the 0 V rail less 0.1 V; neither moves with anything
+    assert result.stages[2].limiting == "input-low"
+    assert result.stages[2].margins["input-low"] == pytest.approx(0.13, abs=1e-4)
     assert result.stages[2].sensitivity == ()
